@@ -1,0 +1,210 @@
+/* cli.c: error lines, option tables and progress for the `kweave` verbs. */
+#include "cli.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdarg.h>
+#include <stdlib.h>
+#include <string.h>
+#include <time.h>
+#include <unistd.h>
+
+int kw_cli_quiet;
+
+int kw_cli_fail(const char *what, const char *fmt, ...)
+{
+    char why[512];
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(why, sizeof why, fmt, ap);
+    va_end(ap);
+    kw_cli_progress_done();
+    fprintf(stderr, "kweave: error: %s: %s\n", what, why);
+    return KW_EXIT_USAGE;
+}
+
+int kw_cli_status(kw_status st, const char *context)
+{
+    const char *why = kw_last_error();
+    if (!why || !*why)
+        why = kw_strerror(st);
+    kw_cli_progress_done();
+    if (context && *context)
+        fprintf(stderr, "kweave: error: %s: %s\n", context, why);
+    else
+        fprintf(stderr, "kweave: error: %s\n", why);
+    switch (st) {
+    case KW_EINVAL:
+    case KW_EFORMAT:
+    case KW_ERANGE:
+    case KW_ENUMERIC:
+    case KW_EINFEASIBLE:
+    case KW_ENOTSUP:
+    case KW_EIO:
+    case KW_ENOMEM: /* sizes are checked before allocation: too big is bad input */
+        return KW_EXIT_USAGE;
+    default:
+        return KW_EXIT_INTERNAL;
+    }
+}
+
+static void print_help(const kw_opt *table, const char *usage)
+{
+    printf("%s\n\nOptions:\n", usage);
+    for (const kw_opt *o = table; o->name; o++) {
+        if (!o->help)
+            continue;
+        char left[64];
+        const char *arg = "";
+        switch (o->type) {
+        case KW_OPT_FLAG: arg = ""; break;
+        case KW_OPT_STRING: arg = " S"; break;
+        case KW_OPT_INT: arg = " N"; break;
+        case KW_OPT_DOUBLE: arg = " X"; break;
+        case KW_OPT_UNIT: arg = " Q"; break;
+        }
+        snprintf(left, sizeof left, "--%s%s", o->name, arg);
+        printf("  %-22s %s\n", left, o->help);
+    }
+    printf("  %-22s %s\n", "--quiet", "no progress on stderr");
+    printf("  %-22s %s\n", "--help", "this text");
+}
+
+static int set_value(const kw_opt *o, const char *val)
+{
+    char why[160];
+    switch (o->type) {
+    case KW_OPT_FLAG:
+        *(int *)o->dest = 1;
+        return -1;
+    case KW_OPT_STRING:
+        if (!*val)
+            return kw_cli_fail(o->name, "empty value");
+        *(const char **)o->dest = val;
+        return -1;
+    case KW_OPT_INT: {
+        char *end;
+        errno = 0;
+        long v = strtol(val, &end, 10);
+        if (end == val || *end || errno)
+            return kw_cli_fail(o->name, "'%s' is not a whole number", val);
+        *(long *)o->dest = v;
+        return -1;
+    }
+    case KW_OPT_DOUBLE: {
+        double v;
+        if (kw_unit_parse(val, KW_UNIT_NONE, &v, why, sizeof why))
+            return kw_cli_fail(o->name, "%s", why);
+        *(double *)o->dest = v;
+        return -1;
+    }
+    case KW_OPT_UNIT: {
+        double v;
+        if (kw_unit_parse(val, o->unit, &v, why, sizeof why))
+            return kw_cli_fail(o->name, "%s", why);
+        *(double *)o->dest = v;
+        return -1;
+    }
+    }
+    return kw_cli_fail(o->name, "internal: unknown option type");
+}
+
+int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
+                  const char **positional, int maxpos, int *npos)
+{
+    if (npos)
+        *npos = 0;
+    for (int i = 1; i < argc; i++) {
+        const char *a = argv[i];
+        if (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0) {
+            print_help(table, usage);
+            return KW_EXIT_OK;
+        }
+        if (strcmp(a, "--quiet") == 0 || strcmp(a, "-q") == 0) {
+            kw_cli_quiet = 1;
+            continue;
+        }
+        if (strncmp(a, "--", 2) != 0 || a[2] == '\0') {
+            if (positional && npos && *npos < maxpos) {
+                positional[(*npos)++] = a;
+                continue;
+            }
+            return kw_cli_fail(a, "unexpected argument (options start with --; see --help)");
+        }
+        const char *name = a + 2;
+        const char *eq = strchr(name, '=');
+        size_t nlen = eq ? (size_t)(eq - name) : strlen(name);
+        const kw_opt *o = NULL;
+        for (const kw_opt *t = table; t->name; t++) {
+            if (strlen(t->name) == nlen && strncmp(t->name, name, nlen) == 0) {
+                o = t;
+                break;
+            }
+        }
+        if (!o)
+            return kw_cli_fail(a, "unknown option (see --help)");
+        const char *val = NULL;
+        if (o->type == KW_OPT_FLAG) {
+            if (eq)
+                return kw_cli_fail(o->name, "takes no value");
+        } else if (eq) {
+            val = eq + 1;
+        } else {
+            if (i + 1 >= argc)
+                return kw_cli_fail(o->name, "missing value");
+            val = argv[++i];
+        }
+        if (o->seen && *o->seen && o->type != KW_OPT_FLAG)
+            return kw_cli_fail(o->name, "given more than once");
+        int rc = set_value(o, val);
+        if (rc >= 0)
+            return rc;
+        if (o->seen)
+            *o->seen = 1;
+    }
+    return -1;
+}
+
+/* ---- progress ---------------------------------------------------------------- */
+
+static int progress_drawn;
+static struct timespec progress_t0;
+static const char *progress_stage;
+
+int kw_cli_progress(void *user, const kw_progress *p)
+{
+    (void)user;
+    if (kw_cli_quiet || !isatty(STDERR_FILENO))
+        return 0;
+    struct timespec now;
+    clock_gettime(CLOCK_MONOTONIC, &now);
+    if (!progress_stage || !p->stage || strcmp(progress_stage, p->stage) != 0 ||
+        p->iter <= 1) {
+        progress_t0 = now;
+        progress_stage = p->stage;
+    }
+    double el = (double)(now.tv_sec - progress_t0.tv_sec) +
+                1e-9 * (double)(now.tv_nsec - progress_t0.tv_nsec);
+    char eta[32] = "";
+    if (p->niter > 0 && p->iter > 0 && p->iter < p->niter)
+        snprintf(eta, sizeof eta, "  ETA %.1fs", el / p->iter * (p->niter - p->iter));
+    char res[40] = "";
+    if (!isnan(p->residual))
+        snprintf(res, sizeof res, "  residual %.3e", p->residual);
+    if (p->niter > 0)
+        fprintf(stderr, "\r%s: %d/%d%s%s   ", p->stage ? p->stage : "", p->iter,
+                p->niter, res, eta);
+    else
+        fprintf(stderr, "\r%s: %d%s   ", p->stage ? p->stage : "", p->iter, res);
+    fflush(stderr);
+    progress_drawn = 1;
+    return 0;
+}
+
+void kw_cli_progress_done(void)
+{
+    if (progress_drawn) {
+        fputc('\n', stderr);
+        progress_drawn = 0;
+    }
+}

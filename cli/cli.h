@@ -1,0 +1,90 @@
+/* cli.h: what every `kweave` verb shares: exit codes, error lines, option
+ * tables, progress on stderr, the safety caution. The CLI may print; the
+ * libraries never do. */
+#ifndef KW_CLI_H
+#define KW_CLI_H
+
+#include <stdio.h>
+
+#include "kw_base.h"
+#include "units.h"
+
+/* Exit codes (DESIGN.md; README "Exit codes"). */
+enum {
+    KW_EXIT_OK = 0,
+    KW_EXIT_INTERNAL = 1, /* a failure of kweave itself */
+    KW_EXIT_USAGE = 2,    /* bad usage or bad input */
+    KW_EXIT_INFEASIBLE = 3 /* `plan`: the protocol breaks a hardware limit */
+};
+
+/* Printed under every report that touches gradient switching, RF or timing. */
+#define KW_SAFETY_CAUTION                                                      \
+    "Caution: gradient amplitude and slew-rate limits of the hardware are not "\
+    "patient-safety limits; peripheral nerve stimulation and SAR are governed "\
+    "by IEC 60601-2-33 and the scanner's own supervision. For research and "   \
+    "planning only, not for diagnosis; defer to local rules and licensed "     \
+    "practice."
+
+/*! kw_cli_fail(): print "kweave: error: <what>: <why>" on one line and
+ * return KW_EXIT_USAGE (2). */
+int kw_cli_fail(const char *what, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+
+/*! kw_cli_status(): report a failed library/file call: prints
+ * "kweave: error: <context>: <kw_last_error()>" and returns the exit code for
+ * the status (2 for bad input, 1 for internal failures). */
+int kw_cli_status(kw_status st, const char *context);
+
+/* ---- option tables -------------------------------------------------------- */
+
+typedef enum kw_opt_type {
+    KW_OPT_FLAG,   /* no argument: *(int *)dest = 1 */
+    KW_OPT_STRING, /* *(const char **)dest = argument */
+    KW_OPT_INT,    /* *(long *)dest; integer */
+    KW_OPT_DOUBLE, /* *(double *)dest; plain number */
+    KW_OPT_UNIT    /* *(double *)dest; physical quantity of `unit` kind, SI */
+} kw_opt_type;
+
+typedef struct kw_opt {
+    const char *name; /* without the leading "--" */
+    kw_opt_type type;
+    void *dest;
+    kw_unit_kind unit; /* for KW_OPT_UNIT */
+    int *seen;         /* optional: set to 1 when given */
+    const char *help;  /* one line; NULL hides the option from --help */
+} kw_opt;
+
+/*! kw_opts_parse(): parse argv[1..] ("--name value" or "--name=value").
+ * Returns -1 when all went well, otherwise the exit code to return (0 after
+ * --help printed `usage` and the table, 2 after an error line). Positional
+ * arguments are refused unless `positional` is non-NULL, then they are
+ * stored there (at most `maxpos`) and counted in *npos. */
+int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
+                  const char **positional, int maxpos, int *npos);
+
+/* ---- shared state and progress ---------------------------------------------- */
+
+extern int kw_cli_quiet; /* --quiet given: no progress output */
+
+/*! kw_cli_progress(): a kw_progress_fn that draws one updating line on stderr
+ * (stage, iteration, residual, ETA) when stderr is a terminal and not quiet.
+ * `user` may be NULL. */
+int kw_cli_progress(void *user, const kw_progress *p);
+
+/*! kw_cli_progress_done(): end the progress line (newline) if one was drawn. */
+void kw_cli_progress_done(void);
+
+/* ---- verbs ----------------------------------------------------------------- */
+
+int kw_cmd_plan(int argc, char **argv);
+int kw_cmd_pattern(int argc, char **argv);
+int kw_cmd_encode(int argc, char **argv);
+int kw_cmd_recon(int argc, char **argv);
+int kw_cmd_score(int argc, char **argv);
+int kw_cmd_render(int argc, char **argv);
+int kw_cmd_demo(int argc, char **argv);
+
+#endif

@@ -1,0 +1,132 @@
+/* jsonio.c: JSON reports and sidecars through cJSON. */
+#define _POSIX_C_SOURCE 200809L
+#include "jsonio.h"
+
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "outfile.h"
+
+kw_status kw_json_write(const char *path, const cJSON *root)
+{
+    char *txt = cJSON_Print(root);
+    KW_FAIL_IF(!txt, KW_ENOMEM, "json: out of memory");
+    size_t n = strlen(txt);
+    kw_outfile o;
+    kw_status st = kw_outfile_open(&o, path);
+    if (st) {
+        free(txt);
+        return st;
+    }
+    int bad = fwrite(txt, 1, n, o.fp) != n || fputc('\n', o.fp) == EOF;
+    free(txt);
+    if (bad) {
+        kw_outfile_abort(&o);
+        return kw_set_error(KW_EIO, "%s: write failed", path);
+    }
+    return kw_outfile_commit(&o);
+}
+
+kw_status kw_json_parse(const char *buf, size_t len, cJSON **root)
+{
+    *root = NULL;
+    const char *end = NULL;
+    cJSON *r = cJSON_ParseWithLengthOpts(buf, len, &end, 0);
+    if (!r) {
+        size_t off = end ? (size_t)(end - buf) : 0;
+        const char *e = cJSON_GetErrorPtr();
+        if (e && e >= buf && e <= buf + len)
+            off = (size_t)(e - buf);
+        return kw_set_error(KW_EFORMAT, "not valid JSON (near byte %zu)", off);
+    }
+    *root = r;
+    return KW_OK;
+}
+
+kw_status kw_json_read(const char *path, cJSON **root)
+{
+    *root = NULL;
+    FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
+    KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
+    size_t cap = 1 << 16, n = 0;
+    char *buf = malloc(cap);
+    kw_status st = KW_OK;
+    if (!buf) {
+        st = kw_set_error(KW_ENOMEM, "%s: out of memory", path);
+        goto done;
+    }
+    for (;;) {
+        if (n == cap) {
+            if (cap >= (64u << 20)) {
+                st = kw_set_error(KW_EFORMAT, "%s: larger than 64 MiB", path);
+                goto done;
+            }
+            char *nb = realloc(buf, cap * 2);
+            if (!nb) {
+                st = kw_set_error(KW_ENOMEM, "%s: out of memory", path);
+                goto done;
+            }
+            buf = nb;
+            cap *= 2;
+        }
+        size_t r = fread(buf + n, 1, cap - n, f);
+        n += r;
+        if (r == 0)
+            break;
+    }
+    if (ferror(f)) {
+        st = kw_set_error(KW_EIO, "%s: cannot be read (%s)", path,
+                          errno == EISDIR ? "is a directory" : strerror(errno));
+        goto done;
+    }
+    st = kw_json_parse(buf, n, root);
+    if (st) {
+        char why[200];
+        snprintf(why, sizeof why, "%s", kw_last_error());
+        st = kw_set_error(st, "%s: %s", path, why);
+    }
+done:
+    free(buf);
+    if (f != stdin)
+        fclose(f);
+    return st;
+}
+
+char *kw_sidecar_path(const char *npy_path)
+{
+    if (!npy_path || strcmp(npy_path, "-") == 0)
+        return NULL;
+    size_t n = strlen(npy_path);
+    const char *slash = strrchr(npy_path, '/');
+    const char *dot = strrchr(npy_path, '.');
+    size_t stem = (dot && (!slash || dot > slash)) ? (size_t)(dot - npy_path) : n;
+    char *s = malloc(stem + 6);
+    if (!s)
+        return NULL;
+    memcpy(s, npy_path, stem);
+    memcpy(s + stem, ".json", 6);
+    return s;
+}
+
+cJSON *kw_json_add_vec(cJSON *obj, const char *key, const double *v, int n)
+{
+    cJSON *a = cJSON_AddArrayToObject(obj, key);
+    if (!a)
+        return NULL;
+    for (int i = 0; i < n; i++)
+        cJSON_AddItemToArray(a, cJSON_CreateNumber(v[i]));
+    return a;
+}
+
+kw_status kw_json_get_number(const cJSON *obj, const char *key, double *v)
+{
+    const cJSON *it = cJSON_GetObjectItemCaseSensitive(obj, key);
+    KW_FAIL_IF(!it, KW_EFORMAT, "%s: missing", key);
+    KW_FAIL_IF(!cJSON_IsNumber(it) || !isfinite(it->valuedouble), KW_EFORMAT,
+               "%s: not a finite number", key);
+    *v = it->valuedouble;
+    return KW_OK;
+}

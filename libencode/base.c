@@ -1,0 +1,140 @@
+/* base.c: status strings, thread-local error reasons, aligned arrays. */
+#include "kw_base.h"
+
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+static _Thread_local char last_error[256];
+
+const char *kw_strerror(kw_status s)
+{
+    switch (s) {
+    case KW_OK: return "success";
+    case KW_EINVAL: return "invalid argument";
+    case KW_ENOMEM: return "out of memory or size overflow";
+    case KW_ERANGE: return "value out of range";
+    case KW_EFORMAT: return "malformed data";
+    case KW_EIO: return "input/output error";
+    case KW_ENOTSUP: return "not supported";
+    case KW_EINFEASIBLE: return "infeasible under the given limits";
+    case KW_ENUMERIC: return "numerical failure (NaN, Inf or singular)";
+    case KW_ECANCELLED: return "cancelled";
+    case KW_EINTERNAL: return "internal error";
+    }
+    return "unknown status";
+}
+
+const char *kw_last_error(void) { return last_error; }
+
+void kw_clear_error(void) { last_error[0] = '\0'; }
+
+kw_status kw_set_error(kw_status s, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    vsnprintf(last_error, sizeof last_error, fmt, ap);
+    va_end(ap);
+    return s;
+}
+
+size_t kw_dtype_size(kw_dtype t)
+{
+    switch (t) {
+    case KW_F32: return sizeof(float);
+    case KW_C64: return sizeof(float complex);
+    case KW_U8: return 1;
+    }
+    return 0;
+}
+
+size_t kw_array_count(const kw_array *a)
+{
+    size_t n = 1;
+    for (int i = 0; i < a->ndim; i++) {
+        if (a->dims[i] != 0 && n > SIZE_MAX / a->dims[i])
+            return 0;
+        n *= a->dims[i];
+    }
+    return n;
+}
+
+kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
+                           size_t limit, size_t *bytes)
+{
+    KW_FAIL_IF(ndim < 0 || ndim > KW_MAX_DIMS, KW_EINVAL,
+               "array: %d dimensions (at most %d)", ndim, KW_MAX_DIMS);
+    size_t n = elem;
+    for (int i = 0; i < ndim; i++) {
+        KW_FAIL_IF(dims[i] != 0 && n > SIZE_MAX / dims[i], KW_ENOMEM,
+                   "array: shape product overflows");
+        n *= dims[i];
+    }
+    KW_FAIL_IF(limit && n > limit, KW_ENOMEM,
+               "array: needs %.3g MiB, above the limit of %.3g MiB",
+               n / 1048576.0, limit / 1048576.0);
+    *bytes = n;
+    return KW_OK;
+}
+
+void *kw_alloc(size_t n)
+{
+    if (n == 0)
+        return NULL;
+    size_t padded = (n + 63) / 64 * 64;
+    if (padded < n)
+        return NULL;
+    void *p = aligned_alloc(64, padded);
+    if (p)
+        memset(p, 0, padded);
+    return p;
+}
+
+void kw_free(void *p) { free(p); }
+
+kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims)
+{
+    memset(a, 0, sizeof *a);
+    size_t es = kw_dtype_size(t), bytes;
+    KW_FAIL_IF(es == 0, KW_EINVAL, "array: unknown dtype %d", (int)t);
+    kw_status st = kw_checked_bytes(dims, ndim, es, 0, &bytes);
+    if (st)
+        return st;
+    a->dtype = t;
+    a->ndim = ndim;
+    for (int i = 0; i < ndim; i++)
+        a->dims[i] = dims[i];
+    if (bytes) {
+        a->data = kw_alloc(bytes);
+        KW_FAIL_IF(!a->data, KW_ENOMEM, "array: cannot allocate %.3g MiB",
+                   bytes / 1048576.0);
+    }
+    return KW_OK;
+}
+
+void kw_array_free(kw_array *a)
+{
+    if (!a)
+        return;
+    kw_free(a->data);
+    memset(a, 0, sizeof *a);
+}
+
+kw_status kw_array_all_finite(const kw_array *a)
+{
+    size_t n = kw_array_count(a);
+    if (a->dtype == KW_F32) {
+        const float *x = a->data;
+        for (size_t i = 0; i < n; i++)
+            KW_FAIL_IF(!isfinite(x[i]), KW_ENUMERIC,
+                       "non-finite value at flat index %zu", i);
+    } else if (a->dtype == KW_C64) {
+        const float *x = a->data;
+        for (size_t i = 0; i < 2 * n; i++)
+            KW_FAIL_IF(!isfinite(x[i]), KW_ENUMERIC,
+                       "non-finite value at flat index %zu", i / 2);
+    }
+    return KW_OK;
+}

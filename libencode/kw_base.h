@@ -1,0 +1,154 @@
+/* kw_base.h: status codes, arrays, physical constants and progress callbacks
+ * shared by every part of kweave.
+ *
+ * Conventions (DESIGN.md, tested in tests/test_base.c and tests/ref/):
+ *  - SI units inside: m, s, T, T/m, T/m/s, Hz, K.
+ *  - Samples are `float complex` (C99), layout-compatible with fftwf_complex.
+ *  - Arrays are C-ordered. Multi-coil k-space is (coils, ny, nx); 3-D Cartesian
+ *    (coils, nz, ny, nx); non-Cartesian (coils, samples) with a trajectory
+ *    (samples, ndim) in cycles per FOV, Cartesian points being -N/2 .. N/2-1.
+ *  - The plain transform is the centered unitary DFT: k = 0 sits at index N/2.
+ *  - Phantom coordinates [-1, 1] span the FOV; x to the right, y up (row 0 is
+ *    the top of the picture).
+ *  - The library never prints, exits or aborts: every call returns kw_status,
+ *    and a failing call leaves a one-line reason in kw_last_error().
+ */
+#ifndef KW_BASE_H
+#define KW_BASE_H
+
+#include <complex.h>
+#include <stddef.h>
+#include <stdint.h>
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+#define KW_VERSION_STRING "0.1.0"
+
+/* Fixed numbers: scripts and bindings may rely on them. */
+typedef enum kw_status {
+    KW_OK = 0,
+    KW_EINVAL = 1,      /* an argument is missing, malformed or absurd */
+    KW_ENOMEM = 2,      /* an allocation failed or a size overflowed */
+    KW_ERANGE = 3,      /* a value lies outside the range the method supports */
+    KW_EFORMAT = 4,     /* malformed input data (file contents, shapes) */
+    KW_EIO = 5,         /* reading or writing failed (CLI layer only) */
+    KW_ENOTSUP = 6,     /* a valid request the code does not support */
+    KW_EINFEASIBLE = 7, /* the request violates a physical or hardware limit */
+    KW_ENUMERIC = 8,    /* NaN/Inf data, singular or ill-conditioned system */
+    KW_ECANCELLED = 9,  /* a progress callback asked to stop */
+    KW_EINTERNAL = 10   /* a bug: an invariant was broken */
+} kw_status;
+
+/*! kw_strerror(): a short constant description of a status (never NULL). */
+const char *kw_strerror(kw_status s);
+
+/*! kw_last_error(): the one-line reason the last failing call on this thread
+ * gave ("" if none). Valid until the next failing call on the same thread. */
+const char *kw_last_error(void);
+
+/*! kw_set_error(): record a reason (printf format) and return `s`. Every
+ * failure in the library passes through here: one breakpoint catches all. */
+kw_status kw_set_error(kw_status s, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 2, 3)))
+#endif
+    ;
+
+/*! kw_clear_error(): forget the last reason on this thread. */
+void kw_clear_error(void);
+
+/* KW_FAIL_IF: return `st` with a reason when `cond` holds. */
+#define KW_FAIL_IF(cond, st, ...)                                              \
+    do {                                                                       \
+        if (cond)                                                              \
+            return kw_set_error((st), __VA_ARGS__);                            \
+    } while (0)
+
+/* KW_FAIL_GOTO: the same for functions that must clean up: sets `var`. */
+#define KW_FAIL_GOTO(cond, var, st, label, ...)                                \
+    do {                                                                       \
+        if (cond) {                                                            \
+            (var) = kw_set_error((st), __VA_ARGS__);                           \
+            goto label;                                                        \
+        }                                                                      \
+    } while (0)
+
+/* ---- arrays ------------------------------------------------------------- */
+
+#define KW_MAX_DIMS 8
+
+typedef enum kw_dtype {
+    KW_F32 = 1, /* float */
+    KW_C64 = 2, /* float complex */
+    KW_U8 = 3   /* uint8_t (masks) */
+} kw_dtype;
+
+/* An n-dimensional C-ordered array. The owner of `data` is whoever allocated
+ * it: kw_array_alloc() arrays are freed with kw_array_free(). */
+typedef struct kw_array {
+    kw_dtype dtype;
+    int ndim;
+    size_t dims[KW_MAX_DIMS];
+    void *data;
+} kw_array;
+
+/*! kw_dtype_size(): bytes per element (0 for an unknown dtype). */
+size_t kw_dtype_size(kw_dtype t);
+
+/*! kw_array_count(): number of elements (product of dims; 1 for ndim 0).
+ * Returns 0 if the product overflows size_t. */
+size_t kw_array_count(const kw_array *a);
+
+/*! kw_checked_count(): product of n sizes times `elem` bytes, or KW_ENOMEM
+ * (with a reason) when it overflows or exceeds `limit` bytes (0: no limit). */
+kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
+                           size_t limit, size_t *bytes);
+
+/*! kw_array_alloc(): allocate a zero-filled array (64-byte aligned, suitable
+ * for FFTW's SIMD). `a` is overwritten; free with kw_array_free(). */
+kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims);
+
+/*! kw_array_free(): free the data and reset `a` (NULL-safe, idempotent). */
+void kw_array_free(kw_array *a);
+
+/*! kw_alloc(): 64-byte aligned, zeroed allocation of n bytes (NULL on
+ * failure or n == 0); kw_free() releases it (NULL-safe). */
+void *kw_alloc(size_t n);
+void kw_free(void *p);
+
+/*! kw_array_all_finite(): KW_OK if every value is finite, else KW_ENUMERIC
+ * with the index of the first bad value in the reason. */
+kw_status kw_array_all_finite(const kw_array *a);
+
+/* ---- physical constants (SI) --------------------------------------------- */
+
+/* Proton gyromagnetic ratio, CODATA 2018 recommended values:
+ * gamma_p = 2.675 221 8744e8 rad s^-1 T^-1, gamma_p / 2pi = 42.577 478 518 MHz/T. */
+#define KW_GAMMA_P 2.6752218744e8
+#define KW_GAMMA_BAR_P 42.577478518e6
+/* Exact SI 2019 defining constants. */
+#define KW_BOLTZMANN 1.380649e-23
+#define KW_PLANCK 6.62607015e-34
+#define KW_HBAR (KW_PLANCK / (2.0 * 3.14159265358979323846))
+/* Vacuum permeability, CODATA 2018: 1.256 637 062 12e-6 N A^-2. */
+#define KW_MU0 1.25663706212e-6
+#define KW_PI 3.14159265358979323846
+
+/* ---- progress ------------------------------------------------------------ */
+
+typedef struct kw_progress {
+    const char *stage; /* short constant label, e.g. "cg" */
+    int iter;          /* current iteration (1-based), or 0 if none */
+    int niter;         /* planned iterations, or 0 if unknown */
+    double residual;   /* relative residual or objective, NaN if none */
+} kw_progress;
+
+/* Return nonzero to cancel: the call then returns KW_ECANCELLED. */
+typedef int (*kw_progress_fn)(void *user, const kw_progress *p);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_BASE_H */

@@ -1,0 +1,66 @@
+/* kw_fft.h: batched, centered, unitary FFTs over the last 1-3 axes.
+ *
+ * The transform is DESIGN.md's plain transform: k = 0 (and x = 0) at index
+ * floor(N/2) of each axis, scaled by 1/sqrt(N) both ways, so that
+ *   kw_fft_inverse == fftshift(ifftn(ifftshift(x), norm="ortho"))
+ *   kw_fft_forward == fftshift(fftn(ifftshift(x), norm="ortho"))
+ * over the transformed axes (checked against numpy in tests/ref/).
+ *
+ * Life cycle (STYLE.md: plan once, execute many): kw_fft_create() makes every
+ * FFTW plan; kw_fft_forward()/kw_fft_inverse() run in place on any buffer of
+ * batch x prod(dims) samples without allocating (buffers must be 16-byte
+ * aligned, which malloc and kw_alloc guarantee); kw_fft_destroy() frees.
+ * Planning is not thread-safe (FFTW's rule): make plans from one thread.
+ */
+#ifndef KW_FFT_H
+#define KW_FFT_H
+
+#include "kw_base.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct kw_fft_plan kw_fft_plan;
+
+enum {
+    KW_FFT_ESTIMATE = 0, /* quick plans (tests, one-off calls) */
+    KW_FFT_MEASURE = 1   /* FFTW_MEASURE: slower to plan, faster to run */
+};
+
+/*! kw_fft_setup(): once per process before any plan: enables FFTW's threads
+ * with `nthreads` (<= 0: one per core as OpenMP sees them). Not thread-safe. */
+kw_status kw_fft_setup(int nthreads);
+
+/*! kw_fft_threads(): the thread count plans are made with. */
+int kw_fft_threads(void);
+
+/*! kw_fft_create(): plan `batch` transforms of rank 1..3 over contiguous
+ * blocks of shape dims[0..rank-1]. flags: KW_FFT_ESTIMATE or KW_FFT_MEASURE. */
+kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
+                        size_t batch, unsigned flags);
+
+/*! kw_fft_forward(): centered unitary forward DFT (image -> k-space), in
+ * place over batch x prod(dims) samples. */
+kw_status kw_fft_forward(const kw_fft_plan *plan, float complex *data);
+
+/*! kw_fft_inverse(): centered unitary inverse DFT (k-space -> image). */
+kw_status kw_fft_inverse(const kw_fft_plan *plan, float complex *data);
+
+/*! kw_fft_size(): samples per transform (prod(dims)); kw_fft_batch(): batch. */
+size_t kw_fft_size(const kw_fft_plan *plan);
+size_t kw_fft_batch(const kw_fft_plan *plan);
+
+/*! kw_fft_destroy(): free the plan (NULL-safe). */
+void kw_fft_destroy(kw_fft_plan *plan);
+
+/*! kw_fft_wisdom_export(): FFTW wisdom as a string (free with free()), or
+ * NULL. kw_fft_wisdom_import(): merge a string made by it; KW_EFORMAT if
+ * FFTW rejects it. The caller does the file I/O. */
+char *kw_fft_wisdom_export(void);
+kw_status kw_fft_wisdom_import(const char *wisdom);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_FFT_H */

@@ -1,0 +1,40 @@
+#!/bin/sh
+# deps.sh MODE: make sure what kweave needs is installed.
+#   MODE=build: compiler libraries (FFTW, libpng, cJSON, cairo, pkg-config)
+#   MODE=test:  build + Criterion + Python reference libraries (numpy, scipy,
+#               scikit-image, PyWavelets, pytest) for /usr/bin/python3
+# Missing Debian packages are installed with apt-get when run as root;
+# otherwise the script names them and fails.
+mode=${1:-build}
+pkgs=""
+need() { pkgs="$pkgs $1"; }
+
+command -v pkg-config >/dev/null 2>&1 || need pkg-config
+for pc in fftw3f:libfftw3-dev libpng:libpng-dev libcjson:libcjson-dev cairo:libcairo2-dev; do
+    mod=${pc%%:*}; deb=${pc#*:}
+    if ! command -v pkg-config >/dev/null 2>&1 || ! pkg-config --exists "$mod" 2>/dev/null; then
+        need "$deb"
+    fi
+done
+if [ "$mode" = test ]; then
+    if ! command -v pkg-config >/dev/null 2>&1 || ! pkg-config --exists criterion 2>/dev/null; then
+        need libcriterion-dev
+    fi
+    [ -x /usr/bin/python3 ] || need python3
+    for m in numpy:python3-numpy scipy:python3-scipy skimage:python3-skimage \
+             pywt:python3-pywt pytest:python3-pytest; do
+        mod=${m%%:*}; deb=${m#*:}
+        /usr/bin/python3 -c "import $mod" >/dev/null 2>&1 || need "$deb"
+    done
+fi
+[ -z "$pkgs" ] && exit 0
+if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
+    echo "kweave: installing missing packages:$pkgs" >&2
+    export DEBIAN_FRONTEND=noninteractive
+    apt-get update -qq >/dev/null && apt-get install -y -qq --no-install-recommends $pkgs >/dev/null \
+        || { echo "kweave: apt-get install failed for:$pkgs" >&2; exit 1; }
+    exit 0
+fi
+echo "kweave: missing packages:$pkgs" >&2
+echo "kweave: install them with: sudo apt-get install$pkgs" >&2
+exit 1
