@@ -103,23 +103,24 @@ static double object_mean(const float *img, size_t n)
 }
 
 /* Name of `path` as the sidecar beside `out` should record it: the base name
- * when both lie in the same directory, else the absolute path. malloc'd. */
+ * when both lie in the same directory, else the absolute path (the file
+ * itself need not exist yet). malloc'd. */
 static char *rel_to_sidecar(const char *path, const char *out)
 {
-    char rp[PATH_MAX], ro[PATH_MAX], tmp[PATH_MAX];
-    if (!realpath(path, rp))
+    char rp[PATH_MAX], ro[PATH_MAX], t1[PATH_MAX], t2[PATH_MAX];
+    snprintf(t1, sizeof t1, "%s", path);
+    snprintf(t2, sizeof t2, "%s", path);
+    const char *base = basename(t2);
+    if (!realpath(dirname(t1), rp))
         return strdup(path);
-    snprintf(tmp, sizeof tmp, "%s", out);
-    char *od = dirname(tmp);
-    if (!realpath(od, ro))
-        return strdup(rp);
-    snprintf(tmp, sizeof tmp, "%s", rp);
-    char *pd = dirname(tmp);
-    if (strcmp(pd, ro) == 0) {
-        snprintf(tmp, sizeof tmp, "%s", rp);
-        return strdup(basename(tmp));
-    }
-    return strdup(rp);
+    snprintf(t1, sizeof t1, "%s", out);
+    if (realpath(dirname(t1), ro) && strcmp(rp, ro) == 0)
+        return strdup(base);
+    size_t need = strlen(rp) + strlen(base) + 2;
+    char *r = malloc(need);
+    if (r)
+        snprintf(r, need, "%s/%s", rp, base);
+    return r;
 }
 
 /* "<stem>_<suffix>" beside an output "<stem>.npy". malloc'd. */

@@ -23,7 +23,61 @@ struct kw_sim {
     double t2[KW_PHANTOM_MAX_SHAPES], t2s[KW_PHANTOM_MAX_SHAPES];
     double df[KW_PHANTOM_MAX_SHAPES];
     size_t count;            /* samples per channel */
+    /* per shape, precomputed for the inner loop: rotation, axes, centre (in
+     * the frequency convention of kw_phantom_kspace_shape) and scale */
+    struct fast_shape {
+        int kind;
+        double ca, sa, a, b, c, cx, cy, cz, scale;
+    } fs[KW_PHANTOM_MAX_SHAPES];
+    double complex *shift_phase; /* nshapes x terms: exp(+i 2 pi delta.c) */
 };
+
+static double j1_over_f(double z)
+{
+    if (z < 1e-4)
+        return 0.5 - z * z / 16.0 + z * z * z * z / 384.0;
+    return j1(z) / z;
+}
+
+static double sj1_over_f(double z)
+{
+    if (z < 0.1) {
+        double z2 = z * z;
+        return 1.0 / 3.0 - z2 / 30.0 + z2 * z2 / 840.0 - z2 * z2 * z2 / 45360.0 +
+               z2 * z2 * z2 * z2 / 3991680.0;
+    }
+    return (sin(z) - z * cos(z)) / (z * z * z);
+}
+
+static double sinc_f(double t)
+{
+    double x = KW_PI * t;
+    if (fabs(x) < 1e-4)
+        return 1.0 - x * x / 6.0;
+    return sin(x) / x;
+}
+
+/* Real amplitude of shape i's spectrum at phantom frequency (fx, fy, fz)
+ * (the same formulas as kw_shape_ft(), without the centre's phase). */
+static double fast_mag(const struct fast_shape *f, double fx, double fy, double fz)
+{
+    double fu = fx * f->ca + fy * f->sa;
+    double fv = -fx * f->sa + fy * f->ca;
+    switch (f->kind) {
+    case KW_SHAPE_ELLIPSE:
+        return 2.0 * KW_PI * f->a * f->b * j1_over_f(2.0 * KW_PI * hypot(f->a * fu, f->b * fv));
+    case KW_SHAPE_RECT:
+        return 4.0 * f->a * f->b * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv);
+    case KW_SHAPE_ELLIPSOID: {
+        double q = sqrt(f->a * fu * f->a * fu + f->b * fv * f->b * fv + f->c * fz * f->c * fz);
+        return 4.0 * KW_PI * f->a * f->b * f->c * sj1_over_f(2.0 * KW_PI * q);
+    }
+    case KW_SHAPE_BOX:
+        return 8.0 * f->a * f->b * f->c * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv) *
+               sinc_f(2.0 * f->c * fz);
+    }
+    return 0.0;
+}
 
 kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
 {
@@ -92,6 +146,43 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
             s->steady[i] = sh->value;
         }
     }
+    double scale = sqrt((double)opt->n[0] * (double)opt->n[1]) * 0.25;
+    if (p->ndim == 3)
+        scale *= sqrt((double)nz) * 0.5;
+    for (int i = 0; i < p->nshapes; i++) {
+        const kw_shape *sh = &p->shapes[i];
+        struct fast_shape *f = &s->fs[i];
+        f->kind = sh->kind;
+        f->ca = cos(sh->angle);
+        f->sa = sin(sh->angle);
+        f->a = sh->axes[0];
+        f->b = sh->axes[1];
+        f->c = sh->axes[2];
+        f->cx = sh->center[0];
+        f->cy = sh->center[1];
+        f->cz = p->ndim == 3 ? sh->center[2] : 0.0;
+        f->scale = scale;
+        if (p->ndim == 3 && (sh->kind == KW_SHAPE_ELLIPSE || sh->kind == KW_SHAPE_RECT))
+            f->scale = 0; /* see kw_phantom_kspace_shape */
+    }
+    if (opt->ncoils > 0) {
+        s->shift_phase = malloc((size_t)p->nshapes * s->terms * sizeof *s->shift_phase);
+        if (!s->shift_phase) {
+            free(s);
+            return kw_set_error(KW_ENOMEM, "simulate: out of memory");
+        }
+        int L = opt->coil_order, side = 2 * L + 1;
+        for (int i = 0; i < p->nshapes; i++)
+            for (int q = -L; q <= L; q++)
+                for (int pp = -L; pp <= L; pp++) {
+                    /* k shifted by (p, q)/period cycles/FOV along (kx, kv) is
+                     * the phantom frequency shifted by (p/2, -q/2)/period */
+                    double dfx = 0.5 * pp / opt->coil_period, dfy = -0.5 * q / opt->coil_period;
+                    double ph = 2.0 * KW_PI * (dfx * s->fs[i].cx + dfy * s->fs[i].cy);
+                    s->shift_phase[(size_t)i * s->terms + (q + L) * side + (pp + L)] =
+                        cos(ph) + I * sin(ph);
+                }
+    }
     *out = s;
     return KW_OK;
 }
@@ -99,7 +190,13 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
 size_t kw_sim_output_count(const kw_sim *sim) { return sim->count; }
 int kw_sim_channels(const kw_sim *sim) { return sim->channels; }
 
-void kw_sim_destroy(kw_sim *sim) { free(sim); }
+void kw_sim_destroy(kw_sim *sim)
+{
+    if (!sim)
+        return;
+    free(sim->shift_phase);
+    free(sim);
+}
 
 void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own)
 {
@@ -166,18 +263,34 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
         return;
     }
     /* k-space of (sensitivity x object) = sum_pq c_pq F(k - (p, q)/period):
-     * the object spectra at the shifted frequencies are shared by all coils. */
+     * the object spectra at the shifted frequencies are shared by all coils.
+     * F(f - d) = A(f - d) exp(-i 2 pi f.c) exp(+i 2 pi d.c): the centre's
+     * phase at f is computed once per shape, the shift's from a table. */
     int L = s->o.coil_order, side = 2 * L + 1;
     double inv = 1.0 / s->o.coil_period;
     double complex g[MAX_TERMS];
-    for (int q = -L; q <= L; q++)
-        for (int pp = -L; pp <= L; pp++) {
-            double complex acc = 0;
-            for (int i = 0; i < s->nshapes; i++)
-                acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, s->o.n,
-                                                      kx - pp * inv, kv - q * inv, kz);
-            g[(q + L) * side + (pp + L)] = acc;
+    double complex wph[KW_PHANTOM_MAX_SHAPES];
+    double fx = 0.5 * kx, fy = -0.5 * kv, fz = 0.5 * kz;
+    for (int i = 0; i < s->nshapes; i++) {
+        const struct fast_shape *f = &s->fs[i];
+        double ph = -2.0 * KW_PI * (fx * f->cx + fy * f->cy + fz * f->cz);
+        wph[i] = w[i] * f->scale * (cos(ph) + I * sin(ph));
+    }
+    for (int j = 0; j < s->terms; j++)
+        g[j] = 0;
+    for (int i = 0; i < s->nshapes; i++) {
+        if (wph[i] == 0)
+            continue;
+        const struct fast_shape *f = &s->fs[i];
+        const double complex *sp = s->shift_phase + (size_t)i * s->terms;
+        for (int q = -L; q <= L; q++) {
+            double fyq = fy + 0.5 * q * inv;
+            for (int pp = -L; pp <= L; pp++) {
+                int j = (q + L) * side + (pp + L);
+                g[j] += wph[i] * sp[j] * fast_mag(f, fx - 0.5 * pp * inv, fyq, fz);
+            }
         }
+    }
     for (int c = 0; c < s->o.ncoils; c++) {
         const double complex *cc = s->o.coil_coef + (size_t)c * s->terms;
         double complex acc = 0;
