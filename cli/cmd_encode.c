@@ -162,12 +162,12 @@ static int chol_c(const double complex *a, int n, double complex *l)
 
 typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
-    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov;
+    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     long seed, coils, coil_order;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
-        s_ncorr, s_ncov;
+        s_ncorr, s_ncov, s_fmap;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -218,6 +218,8 @@ int kw_cmd_encode(int argc, char **argv)
          "noise correlation coefficient between every pair of coils"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
          "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
+        {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
+         "off-resonance map (ny, nx) in Hz (Cartesian, time-segmented on a 4x grid)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
@@ -354,7 +356,10 @@ int kw_cmd_encode(int argc, char **argv)
         return kw_cli_fail("times", "only with --trajectory (Cartesian times come from --bandwidth)");
 
     kw_phantom *php = &ph;
-    kw_array mask = {0}, traj = {0}, times = {0}, sensin = {0}, ncovin = {0};
+    kw_array mask = {0}, traj = {0}, times = {0}, sensin = {0}, ncovin = {0}, fmap = {0};
+    kw_fieldmap *fmp = NULL;
+    double fm_err = -1;
+    int fm_seg = 0;
     kw_array ks = {0}, truth = {0}, cover = {0}, maps = {0}, covout = {0};
     uint8_t *mfull = NULL;
     double *tvals = NULL, *resid = NULL;
@@ -476,6 +481,29 @@ int kw_cmd_encode(int argc, char **argv)
                     goto done;
                 }
             }
+        }
+    }
+
+    if (a.s_fmap) {
+        if (a.s_traj) {
+            ret = kw_cli_fail("field-map", "only with Cartesian sampling (not with --trajectory)");
+            goto done;
+        }
+        if (ndim != 2) {
+            ret = kw_cli_fail("field-map", "only for 2-D phantoms");
+            goto done;
+        }
+        if ((st = kw_npy_read(a.field_map, &fmap))) {
+            ret = kw_cli_status(st, "field-map");
+            goto done;
+        }
+        if (fmap.dtype != KW_F32 || fmap.ndim != 2 || fmap.dims[0] != n[1] || fmap.dims[1] != n[0]) {
+            ret = kw_cli_fail("field-map", "expected a real array (%zu, %zu) in Hz", n[1], n[0]);
+            goto done;
+        }
+        if ((st = kw_array_all_finite(&fmap))) {
+            ret = kw_cli_status(st, "field-map");
+            goto done;
         }
     }
 
@@ -715,13 +743,15 @@ int kw_cmd_encode(int argc, char **argv)
             ret = kw_cli_fail(a.s_ncov ? "noise-cov" : "noise-corr", "not positive definite");
             goto done;
         }
-        kw_sim_destroy(sim);
-        sim = NULL;
-        so.noise_chol = chol;
-        if ((st = kw_sim_create(&sim, &so))) {
-            ret = kw_cli_status(st, "encode");
+    }
+    if (a.s_fmap) {
+        kw_fieldmap_options fo = {sim, fmap.data, 4, 0};
+        if ((st = kw_fieldmap_create(&fmp, &fo))) {
+            ret = kw_cli_status(st, "field-map");
             goto done;
         }
+        fm_err = kw_fieldmap_interp_error(fmp);
+        fm_seg = kw_fieldmap_segments(fmp);
     }
 
     size_t kdims[4];
@@ -742,6 +772,10 @@ int kw_cmd_encode(int argc, char **argv)
         goto done;
     }
     st = kw_sim_execute(sim, ks.data, kw_cli_progress, NULL);
+    if (!st && fmp)
+        st = kw_fieldmap_execute(fmp, ks.data, kw_cli_progress, NULL);
+    if (!st && (a.s_snr || a.s_ncov))
+        st = kw_sim_add_noise(sim, chol, (uint64_t)a.seed, ks.data);
     kw_cli_progress_done();
     if (st) {
         ret = kw_cli_status(st, "encode");
@@ -834,6 +868,14 @@ int kw_cmd_encode(int argc, char **argv)
         cJSON_AddNullToObject(prot, "bandwidth_hz");
     }
     cJSON_AddNumberToObject(prot, "df_hz", so.df_hz);
+    if (a.s_fmap) {
+        char *rp = rel_to_sidecar(a.field_map, a.out);
+        cJSON_AddStringToObject(prot, "field_map", rp ? rp : a.field_map);
+        free(rp);
+        cJSON_AddNumberToObject(prot, "field_map_oversampling", 4);
+        cJSON_AddNumberToObject(prot, "field_map_segments", fm_seg);
+        cJSON_AddNumberToObject(prot, "field_map_interp_error", fm_err);
+    }
     if (ncoils > 0) {
         cJSON *co = cJSON_AddObjectToObject(js, "coil_model");
         cJSON_AddStringToObject(co, "kind", a.s_coils ? "loop-ring" : "maps");
@@ -915,6 +957,8 @@ done:
     kw_array_free(&times);
     kw_array_free(&sensin);
     kw_array_free(&ncovin);
+    kw_array_free(&fmap);
+    kw_fieldmap_destroy(fmp);
     free(mfull);
     free(tvals);
     free(resid);
