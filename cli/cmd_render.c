@@ -70,13 +70,14 @@ int kw_cmd_render(int argc, char **argv)
     const char *in = NULL, *out = NULL, *part = NULL, *window = NULL;
     long depth = 8;
     int montage = 0;
+    int seen[5] = {0};
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, NULL, "input .npy (\"-\": stdin)"},
-        {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, NULL, "output .png (\"-\": stdout)"},
-        {"part", KW_OPT_STRING, &part, KW_UNIT_NONE, NULL,
+        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin)"},
+        {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout)"},
+        {"part", KW_OPT_STRING, &part, KW_UNIT_NONE, &seen[2],
          "mag (default), phase, real, imag, logmag"},
-        {"depth", KW_OPT_INT, &depth, KW_UNIT_NONE, NULL, "bits per pixel: 8 (default) or 16"},
-        {"window", KW_OPT_STRING, &window, KW_UNIT_NONE, NULL,
+        {"depth", KW_OPT_INT, &depth, KW_UNIT_NONE, &seen[3], "bits per pixel: 8 (default) or 16"},
+        {"window", KW_OPT_STRING, &window, KW_UNIT_NONE, &seen[4],
          "LO:HI grey-level window (default: 0 .. 99.5th percentile)"},
         {"montage", KW_OPT_FLAG, &montage, KW_UNIT_NONE, NULL,
          "the input is a stack (3+ dims): tile its slices (the default for stacks)"},
@@ -117,6 +118,18 @@ int kw_cmd_render(int argc, char **argv)
     if (kw_array_count(&a) == 0) {
         kw_array_free(&a);
         return kw_cli_fail("in", "the array is empty (a dimension is 0), nothing to draw");
+    }
+    /* The picture needs the values shown and a scratch copy for the
+     * percentile (2 floats per element) and the pixels (up to 2 bytes each,
+     * montage padding included at most doubling them) beside the array. */
+    size_t n = kw_array_count(&a);
+    double need = (double)n * (double)kw_dtype_size(a.dtype) + (double)n * 8.0 +
+                  (double)n * 4.0;
+    if (need > (double)kw_cli_memory_limit()) {
+        kw_array_free(&a);
+        return kw_cli_fail("max-memory", "drawing %zu values needs about %.3g MiB, "
+                           "above the limit of %.3g MiB", n, need / 1048576.0,
+                           (double)kw_cli_memory_limit() / 1048576.0);
     }
     st = kw_array_all_finite(&a);
     if (st) {
