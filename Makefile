@@ -118,6 +118,13 @@ valgrind: all $(BUILD)/kw_tests
 	valgrind --error-exitcode=9 --leak-check=full --errors-for-leak-kinds=definite \
 	  --trace-children=yes -q $(BUILD)/kw_tests --jobs 1
 
+# ---- benchmarks (figures side by side as ratios; never timed tests) ---------
+$(BUILD)/kw_bench: bench/bench.c $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
+	$(CC) $(ALL_CFLAGS) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+
+bench: deps-test all $(BUILD)/kw_bench
+	$(PY) bench/run.py --build $(BUILD)
+
 demo: all
 	$(BUILD)/kweave demo --out demo-out
 
