@@ -148,7 +148,7 @@ clean:
 FUZZ_CC ?= clang
 FUZZ_TARGETS := npy json units $(if $(wildcard cli/protofile.c),protofile)
 FUZZ_DEP_SRC := libencode/base.c cli/npy.c cli/outfile.c cli/jsonio.c cli/units.c cli/cli.c \
-                $(wildcard cli/protofile.c) $(FUZZ_EXTRA_SRC)
+                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c) $(FUZZ_EXTRA_SRC)
 FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
               -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \
               -Ilibencode -Irecon -Icli $(PKG_CFLAGS)
@@ -169,6 +169,7 @@ fuzz: $(FUZZ_TARGETS:%=$(BUILD)/fuzz/fuzz_%)
 fuzz-run: $(BUILD)/fuzz/fuzz_$(FUZZ)
 	@mkdir -p $(BUILD)/fuzz/corpus-$(FUZZ) $(BUILD)/fuzz/artifacts-$(FUZZ)
 	$(BUILD)/fuzz/fuzz_$(FUZZ) -max_total_time=$(FUZZ_TIME) -rss_limit_mb=2048 -timeout=10 \
+	  $(if $(filter protofile,$(FUZZ)),-close_fd_mask=2) \
 	  -print_final_stats=1 -artifact_prefix=$(BUILD)/fuzz/artifacts-$(FUZZ)/ \
 	  $(BUILD)/fuzz/corpus-$(FUZZ) tests/fuzz/$(FUZZ)
 
