@@ -60,6 +60,7 @@ typedef struct frame {
     double t0, t1; /* s */
     double x0, x1; /* px */
     double gscale; /* T/m at full row half-height */
+    double glimit; /* the amplitude limit: lobes above it are drawn red */
 } frame;
 
 static double tx(const frame *f, double t) { return f->x0 + (t - f->t0) / (f->t1 - f->t0) * (f->x1 - f->x0); }
@@ -83,10 +84,17 @@ static void lobe_path(cairo_t *cr, const frame *f, int row, double t0, const kw_
 
 static void fill_lobe(cairo_t *cr, const frame *f, int row, double t0, const kw_trapezoid *l)
 {
+    int over = fabs(l->amplitude_T_per_m) > f->glimit * (1 + 1e-9);
     lobe_path(cr, f, row, t0, l);
-    cairo_set_source_rgba(cr, 0.2, 0.4, 0.8, 0.35);
+    if (over)
+        cairo_set_source_rgba(cr, 0.9, 0.2, 0.2, 0.45);
+    else
+        cairo_set_source_rgba(cr, 0.2, 0.4, 0.8, 0.35);
     cairo_fill_preserve(cr);
-    cairo_set_source_rgb(cr, 0.1, 0.25, 0.6);
+    if (over)
+        cairo_set_source_rgb(cr, 0.6, 0.05, 0.05);
+    else
+        cairo_set_source_rgb(cr, 0.1, 0.25, 0.6);
     cairo_set_line_width(cr, 1.2);
     cairo_stroke(cr);
 }
@@ -136,7 +144,7 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
     cairo_paint(cr);
     cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
 
-    frame f = {0, r->timeline_s, LEFT, TW - RIGHT, 0};
+    frame f = {0, r->timeline_s, LEFT, TW - RIGHT, 0, p->gmax_T_per_m};
     /* amplitude scale: the limit or the largest lobe, whichever is larger */
     double gmaxplot = p->gmax_T_per_m;
     for (int i = 0; i < r->nevents; i++)
@@ -176,7 +184,7 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
     text_at(cr, LEFT, 22, buf, 0, 0.5);
     cairo_set_font_size(cr, 12);
     snprintf(buf, sizeof buf,
-             "gmax %.1f mT/m, slew %.0f T/m/s, raster %.0f us (dashed red: +/- gmax). "
+             "gmax %.1f mT/m, slew %.0f T/m/s, raster %.0f us (dashed red: +/- gmax; red lobes break it). "
              "Hardware limits, not patient-safety limits (IEC 60601-2-33).",
              p->gmax_T_per_m * 1e3, p->slew_T_per_m_per_s, p->raster_s * 1e6);
     text_at(cr, LEFT, 44, buf, 0, 0.5);
