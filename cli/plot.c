@@ -258,7 +258,6 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
         case KW_EV_ADC: adc_box(cr, &f, e->t0, e->t1); break;
         case KW_EV_EPI_TRAIN: {
             double esp = epi.echo_spacing_s, fl = epi.readout.flat_s, rp = epi.readout.ramp_s;
-            double bd = kw_trapezoid_duration(&epi.blip);
             for (size_t m = 0; m < epi.lines_per_shot; m++) {
                 kw_trapezoid l = epi.readout;
                 if (m % 2)
@@ -268,7 +267,7 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
                 double w = p->matrix[0] / p->bandwidth_hz;
                 adc_box(cr, &f, ts + rp + (fl - w) / 2, ts + rp + (fl + w) / 2);
                 if (m + 1 < epi.lines_per_shot)
-                    fill_lobe(cr, &f, KW_AX_PHASE, ts + rp + fl + (esp - fl - bd) / 2, &epi.blip);
+                    fill_lobe(cr, &f, KW_AX_PHASE, ts + epi.blip_start_s, &epi.blip);
             }
             break;
         }

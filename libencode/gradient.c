@@ -454,6 +454,9 @@ kw_status kw_epi_size(const kw_epi_spec *spec, const kw_gradient_limits *lim, kw
     const double ramp = info->readout.ramp_s, flat = info->readout.flat_s;
     const double gap = fmax(2 * ramp, kw_trapezoid_duration(&info->blip));
     info->echo_spacing_s = flat + gap;
+    info->blip_start_s =
+        ramp + flat + floor((gap - kw_trapezoid_duration(&info->blip)) / 2 / lim->raster_s + 1e-9) *
+                          lim->raster_s;
     info->train_s = ramp + (double)(info->lines_per_shot - 1) * info->echo_spacing_s + flat + ramp;
     const int rel = ny / 2 - info->first_row; /* rows before the centre row */
     info->center_shot = rel % sh;

@@ -128,7 +128,12 @@ kw_status kw_spiral_interleaves_for(const kw_spiral_spec *spec, const kw_gradien
  * ky, rows), n_acq = ceil(partial_fourier x ny) rounded up to a multiple of
  * shots; shot s acquires rows i0 + s, i0 + s + shots, ... Readouts alternate
  * in sign; samples lie on the flat tops only, at the Cartesian grid points
- * kx = -nx/2 .. nx/2-1 (the reversed lines in reverse order). */
+ * kx = -nx/2 .. nx/2-1 (the reversed lines in reverse order).
+ * Readout lobe m (sign (-1)^m) starts at m x echo_spacing_s from the start of
+ * the train, its blip at m x echo_spacing_s + blip_start_s; before the train
+ * a prephaser of area -(ramp + flat)/2 x amplitude on the readout axis and
+ * (first_row + s - ny/2) / (gamma-bar FOVy) on the phase axis bring k to the
+ * first sample's line (the planner plays them). */
 typedef struct kw_epi_spec {
     double fov_m[2];        /* x (readout), y (phase) */
     int matrix[2];          /* nx, ny; ny divisible by shots */
@@ -144,6 +149,8 @@ typedef struct kw_epi_info {
     kw_trapezoid readout;    /* one readout lobe (positive sign) */
     kw_trapezoid blip;       /* phase-encode blip between lines */
     double echo_spacing_s;   /* flat + max(2 ramp, blip) */
+    double blip_start_s;     /* from the start of readout lobe m to the blip after it
+                              * (on the raster, centred in the gap between flat tops) */
     double train_s;          /* first ramp up to last ramp down */
     double center_time_s;    /* time of the ky = 0 echo from the start of the train */
     int center_shot;         /* the shot that holds the ky = 0 row */

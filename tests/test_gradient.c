@@ -251,3 +251,71 @@ Test(gradient, epi_multishot_partial_fourier)
     sp.shots = 3;
     cr_expect_eq(kw_epi_size(&sp, &LIM, &inf), KW_EINVAL);
 }
+
+/* Integrate the EPI gradient waveform (readout lobes, blips, prephasers) on
+ * the raster and compare k at every sample time with kw_epi_design's
+ * trajectory: the trajectory is what the waveform plays. */
+static void check_epi_waveform(const kw_epi_spec *sp, const kw_gradient_limits *l)
+{
+    kw_epi_info inf;
+    cr_assert_eq(kw_epi_size(sp, l, &inf), KW_OK, "%s", kw_last_error());
+    const double dt = l->raster_s;
+    size_t n = (size_t)llround(inf.train_s / dt) + 2;
+    double *gr = calloc(n, sizeof *gr), *gp = calloc(n, sizeof *gp);
+    size_t nl = kw_trapezoid_raster_count(&inf.readout, dt), nb = kw_trapezoid_raster_count(&inf.blip, dt);
+    double *lobe = malloc(nl * sizeof *lobe), *blip = malloc(nb * sizeof *blip);
+    cr_assert_eq(kw_trapezoid_raster(&inf.readout, dt, lobe, nl), KW_OK);
+    cr_assert_eq(kw_trapezoid_raster(&inf.blip, dt, blip, nb), KW_OK);
+    for (size_t m = 0; m < inf.lines_per_shot; m++) {
+        double e = fmod(m * inf.echo_spacing_s / dt, 1.0), b = fmod(inf.blip_start_s / dt, 1.0);
+        cr_assert(fmin(e, 1 - e) < 1e-6 && fmin(b, 1 - b) < 1e-6, "lobe off the raster");
+        size_t o = (size_t)llround(m * inf.echo_spacing_s / dt);
+        for (size_t i = 0; i < nl; i++)
+            gr[o + i] += (m % 2 ? -1 : 1) * lobe[i];
+        if (m + 1 < inf.lines_per_shot) {
+            size_t ob = o + (size_t)llround(inf.blip_start_s / dt);
+            for (size_t i = 0; i < nb; i++)
+                gp[ob + i] += blip[i];
+        }
+    }
+    /* the whole train keeps the limits at every raster step */
+    expect_within_limits(gr, n, l);
+    expect_within_limits(gp, n, l);
+    /* cumulative areas at the raster points */
+    double *ar = calloc(n, sizeof *ar), *ap = calloc(n, sizeof *ap);
+    for (size_t i = 1; i < n; i++) {
+        ar[i] = ar[i - 1] + 0.5 * (gr[i - 1] + gr[i]) * dt;
+        ap[i] = ap[i - 1] + 0.5 * (gp[i - 1] + gp[i]) * dt;
+    }
+    size_t ns = inf.samples_per_shot * (size_t)sp->shots;
+    float *tr = malloc(2 * ns * sizeof *tr), *tm = malloc(ns * sizeof *tm);
+    cr_assert_eq(kw_epi_design(sp, l, NULL, tr, tm), KW_OK);
+    const double G = inf.readout.amplitude_T_per_m;
+    const double pre_r = -G * (inf.readout.ramp_s + inf.readout.flat_s) / 2;
+    double worst = 0;
+    for (int s = 0; s < sp->shots; s++)
+        for (size_t j = 0; j < inf.samples_per_shot; j++) {
+            size_t at = (size_t)s * inf.samples_per_shot + j;
+            double t = tm[at] / dt;
+            size_t i = (size_t)floor(t);
+            double f = t - (double)i;
+            double gti = gr[i] + (gr[i + 1] - gr[i]) * f, gtp = gp[i] + (gp[i + 1] - gp[i]) * f;
+            double kr = ar[i] + 0.5 * (gr[i] + gti) * f * dt, kp = ap[i] + 0.5 * (gp[i] + gtp) * f * dt;
+            double kx = KW_GAMMA_BAR_P * (pre_r + kr) * sp->fov_m[0];
+            double ky = (inf.first_row + s - sp->matrix[1] / 2) + KW_GAMMA_BAR_P * kp * sp->fov_m[1];
+            worst = fmax(worst, fmax(fabs(kx - tr[2 * at]), fabs(ky - tr[2 * at + 1])));
+        }
+    /* float times: 1e-3 cycles per FOV */
+    cr_expect(worst < 1e-3, "trajectory and waveform differ by %g cycles/FOV", worst);
+    free(gr), free(gp), free(lobe), free(blip), free(ar), free(ap), free(tr), free(tm);
+}
+
+Test(gradient, epi_trajectory_is_what_the_waveform_plays)
+{
+    kw_epi_spec a = {{0.24, 0.24}, {64, 64}, 4e-6, 1, 1.0};
+    check_epi_waveform(&a, &LIM);
+    kw_epi_spec b = {{0.22, 0.20}, {96, 80}, 4e-6, 4, 0.75};
+    check_epi_waveform(&b, &(kw_gradient_limits){0.030, 120.0, 4e-6});
+    kw_epi_spec c = {{0.30, 0.30}, {65, 66}, 10e-6, 2, 0.9}; /* odd nx */
+    check_epi_waveform(&c, &LIM);
+}
