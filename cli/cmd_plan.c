@@ -74,6 +74,7 @@ static kw_status parse_fov(const char *val, double *fov, int *n)
 {
     char buf[256];
     KW_FAIL_IF(strlen(val) >= sizeof buf, KW_EINVAL, "fov: too long");
+    KW_FAIL_IF(val[0] == ',' || strstr(val, ",,"), KW_EINVAL, "fov: empty entry in '%s'", val);
     strcpy(buf, val);
     *n = 0;
     char *save = NULL;

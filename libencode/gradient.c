@@ -165,7 +165,7 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
         ds = L / 256;
     double Mf = ceil(L / ds);
     KW_FAIL_IF(Mf > MAX_POINTS, KW_ERANGE,
-               "spiral: the path needs over %u design points (fewer turns: more interleaves)",
+               "interleaves: the spiral path needs over %u design points (use more interleaves)",
                MAX_POINTS);
     size_t M = (size_t)Mf;
     ds = L / (double)M;
@@ -226,7 +226,7 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
         nf = 1;
     if (nf > MAX_POINTS) {
         free(th), free(v), free(t);
-        return kw_set_error(KW_ERANGE, "spiral: readout over %u raster points", MAX_POINTS);
+        return kw_set_error(KW_ERANGE, "interleaves: spiral readout over %u raster points (use more interleaves)", MAX_POINTS);
     }
     size_t n = (size_t)nf;
     double *k = malloc((n + 1) * 2 * sizeof *k);

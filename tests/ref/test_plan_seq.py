@@ -164,3 +164,13 @@ def test_plots(tmp_path):
     out = tmp_path / "no" / "t.png"
     bad("plan", "--plot", out, field="plot")
     assert not out.exists()
+
+
+@pytest.mark.parametrize("args,field", [
+    (["--fov", "256mm,,192mm"], "fov"),
+    (["--sequence", "spiral", "--matrix", "1024", "--interleaves", "1", "--bandwidth", "64kHz"],
+     "interleaves"),
+    (["--bandwidth", "32kHz", "--bandwidth", "125Hz/pixel", "--bandwidth", "1kHz"], "bandwidth"),
+])
+def test_more_bad_options(args, field):
+    bad("plan", *args, field=field)
