@@ -229,6 +229,8 @@ static int analyse_cartesian(analysis *a, const float *w)
     kw_psf_destroy(pp);
     if (!st)
         st = kw_psf_measure(a->psfbuf, 2, a->dims, &a->psf);
+    if (!st) /* the continuous FWHM replaces the grid-interpolated one */
+        st = kw_psf_fwhm_cartesian(w, 2, a->dims, a->psf.fwhm);
     if (st)
         return st;
     /* transform point spread in the db4 wavelet domain */
@@ -386,9 +388,11 @@ static int analyse_traj(analysis *a, const kw_array *t, const traj_info *ti, siz
     }
     st = kw_psf_ndft(kp, stride, w, count, ti->n, m, a->psfbuf, kw_cli_progress, NULL);
     kw_cli_progress_done();
-    free(w);
     if (!st)
         st = kw_psf_measure(a->psfbuf, 2, a->psfdims, &a->psf);
+    if (!st) /* the continuous FWHM replaces the grid-interpolated one */
+        st = kw_psf_fwhm_ndft(kp, stride, w, count, ti->n, a->psf.fwhm);
+    free(w);
     if (st)
         return st;
     a->tpsf_levels = 0;

@@ -14,7 +14,9 @@
  * than 1:
  *  - peak: |psf| at x = 0;
  *  - FWHM (pixels): width where |psf| falls to half the peak on a line
- *    through x = 0 along that axis, crossings interpolated linearly;
+ *    through x = 0 along that axis; kw_psf_measure() interpolates linearly
+ *    between grid pixels, kw_psf_fwhm_cartesian() / kw_psf_fwhm_ndft()
+ *    measure the continuous PSF (what the CLI reports);
  *  - main lobe: the points strictly inside the ellipse whose semi-axis on
  *    each axis is the distance d_a to the first local minimum of |psf| from
  *    x = 0 along that axis (the smaller of the two sides);
@@ -92,6 +94,19 @@ kw_status kw_tpsf_execute(const kw_tpsf_plan *plan, const float *w, double *cohe
 
 /*! kw_tpsf_destroy(): NULL-safe. */
 void kw_tpsf_destroy(kw_tpsf_plan *plan);
+
+/*! kw_psf_fwhm_cartesian(): the FWHM of |psf| on the line through x = 0
+ * along each axis, measured on the continuous PSF (the DFT of the weights
+ * evaluated at fractional offsets, crossing found by bisection to 1e-9
+ * pixel), in pixels; NaN on axes of length 1, N when it never falls to
+ * half. A full grid gives the FWHM of the Dirichlet kernel sin(pi y) /
+ * (N sin(pi y / N)), 1.207 pixels for large N. */
+kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, double *fwhm);
+
+/*! kw_psf_fwhm_ndft(): the same for a non-Cartesian PSF (pixels of an
+ * n-point matrix), fwhm[0] along y (k column 1) and fwhm[1] along x. */
+kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t samples,
+                           size_t n, double *fwhm);
 
 /*! kw_mask_gap(): the largest gap of a Cartesian pattern w[ny * nx] (w > 0:
  * sampled), in delta-k: the side of the largest sample-free square (in the

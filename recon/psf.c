@@ -403,3 +403,106 @@ kw_status kw_mask_gap(const float *w, size_t ny, size_t nx, double *gap)
     free(cmax);
     return KW_OK;
 }
+
+/* ---- continuous FWHM ----------------------------------------------------------- */
+
+/* |sum_j a_j exp(2 pi i f_j t)| for a profile given as (frequency, amplitude)
+ * pairs, in double */
+static double profile(const double *f, const double *amp, size_t n, double t)
+{
+    double re = 0, im = 0;
+    for (size_t j = 0; j < n; j++) {
+        double ph = 2.0 * KW_PI * f[j] * t;
+        re += amp[j] * cos(ph);
+        im += amp[j] * sin(ph);
+    }
+    return sqrt(re * re + im * im);
+}
+
+/* full width at half maximum of |profile(t)| (symmetric for real
+ * amplitudes): march outwards in steps of 1/32, then bisect */
+static double fwhm_of(const double *f, const double *amp, size_t n, double tmax)
+{
+    const double peak = profile(f, amp, n, 0.0);
+    if (!(peak > 0))
+        return NAN;
+    const double h = 1.0 / 32.0;
+    double t = h;
+    while (t <= tmax && profile(f, amp, n, t) >= 0.5 * peak)
+        t += h;
+    if (t > tmax)
+        return 2.0 * tmax;
+    double lo = t - h, hi = t;
+    for (int i = 0; i < 40; i++) {
+        double mid = 0.5 * (lo + hi);
+        if (profile(f, amp, n, mid) >= 0.5 * peak)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return lo + hi; /* 2 x the midpoint */
+}
+
+kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, double *fwhm)
+{
+    KW_FAIL_IF(!w || !dims || !fwhm, KW_EINVAL, "fwhm: NULL argument");
+    KW_FAIL_IF(rank < 1 || rank > KW_PSF_MAX_RANK, KW_EINVAL, "fwhm: rank %d not in 1..3", rank);
+    size_t total = 1, nmax = 1;
+    for (int a = 0; a < rank; a++) {
+        total *= dims[a];
+        if (dims[a] > nmax)
+            nmax = dims[a];
+    }
+    double *f = malloc(nmax * sizeof *f), *amp = malloc(nmax * sizeof *amp);
+    if (!f || !amp) {
+        free(f);
+        free(amp);
+        return kw_set_error(KW_ENOMEM, "fwhm: out of memory");
+    }
+    for (int a = 0; a < rank; a++) {
+        if (dims[a] < 2) {
+            fwhm[a] = NAN;
+            continue;
+        }
+        /* the PSF on the line through x = 0 along axis a only sees the
+         * weights summed over the other axes */
+        size_t inner = 1;
+        for (int b = a + 1; b < rank; b++)
+            inner *= dims[b];
+        for (size_t k = 0; k < dims[a]; k++) {
+            f[k] = ((double)k - (double)(dims[a] / 2)) / (double)dims[a];
+            amp[k] = 0;
+        }
+        for (size_t i = 0; i < total; i++)
+            amp[(i / inner) % dims[a]] += w[i];
+        fwhm[a] = fwhm_of(f, amp, dims[a], 0.5 * (double)dims[a]);
+    }
+    free(f);
+    free(amp);
+    return KW_OK;
+}
+
+kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t samples,
+                           size_t n, double *fwhm)
+{
+    KW_FAIL_IF(!k || !fwhm || stride < 2 || samples < 1 || n < 2, KW_EINVAL,
+               "fwhm: bad arguments");
+    double *f = malloc(samples * sizeof *f), *amp = malloc(samples * sizeof *amp);
+    if (!f || !amp) {
+        free(f);
+        free(amp);
+        return kw_set_error(KW_ENOMEM, "fwhm: out of memory");
+    }
+    /* axis 0 of the picture is y (k column 1), axis 1 is x (column 0) */
+    for (int a = 0; a < 2; a++) {
+        size_t col = a == 0 ? 1 : 0;
+        for (size_t s = 0; s < samples; s++) {
+            f[s] = (double)k[s * stride + col] / (double)n;
+            amp[s] = w ? (double)w[s] : 1.0;
+        }
+        fwhm[a] = fwhm_of(f, amp, samples, 0.5 * (double)n);
+    }
+    free(f);
+    free(amp);
+    return KW_OK;
+}

@@ -76,16 +76,45 @@ def test_ndft_matches_numpy(lib):
     assert np.max(np.abs(out - ref)) < 1e-6
 
 
-@pytest.mark.parametrize("n,mlines", [(256, 16), (256, 32), (128, 24), (512, 40)])
+@pytest.mark.parametrize("n,mlines", [(256, 16), (256, 32), (128, 24), (512, 40), (64, 64),
+                                     (256, 160)])
 def test_fwhm_of_centre_block_matches_dirichlet(lib, n, mlines):
+    """FWHM of a block of M of N lines (M = N: the full grid; an off-centre
+    block is partial Fourier, whose magnitude PSF is the same kernel)."""
     w = np.zeros((n, 4), np.float32)
-    w[n // 2 - mlines // 2: n // 2 - mlines // 2 + mlines, :] = 1
-    got = measure(lib, psf_c(lib, w)).fwhm[0]
+    w[n - mlines:, :] = 1 if mlines > n // 2 + 16 else 0
+    if not w.any():
+        w[n // 2 - mlines // 2: n // 2 - mlines // 2 + mlines, :] = 1
+    fw = (ctypes.c_double * 2)()
+    wa, pw = f32(w)
+    assert lib.kw_psf_fwhm_cartesian(pw, 2, sizes(*w.shape), fw) == 0
     d = lambda y: abs(np.sin(np.pi * mlines * y / n) / (n * np.sin(np.pi * y / n))) if y else mlines / n
     half = scipy_opt.brentq(lambda y: d(y) - 0.5 * mlines / n, 1e-9, n / mlines)
-    # linear interpolation between integer pixels of a smooth lobe: the
-    # error is below 1 % of the width when the width spans > 5 pixels
-    assert abs(got - 2 * half) < 0.01 * 2 * half, (got, 2 * half)
+    assert abs(fw[0] - 2 * half) < 1e-6 * 2 * half, (fw[0], 2 * half)
+    if mlines == n:  # the textbook sinc width, 1.2067 pixels
+        assert abs(fw[0] - 1.2067) < 1e-3
+
+
+def test_fwhm_of_nyquist_radial_is_the_disc_airy_width(lib, tmp_path):
+    """Radial spokes with area (ramp) weights cover a disc of radius N/2:
+    the PSF is 2 J1(x)/x with x = pi N r (r in pixels / N); its half maximum
+    solved with scipy.special.j1 gives FWHM = 2 x / (pi) pixels = 1.410.
+    The discrete spokes approximate the disc: 1 % tolerance (ours)."""
+    special = pytest.importorskip("scipy.special")
+    xh = scipy_opt.brentq(lambda x: 2 * special.j1(x) / x - 0.5, 0.5, 3.5)
+    want = 2 * xh / np.pi
+    n, S = 64, 101
+    th = np.arange(S) * np.pi / S
+    kr = np.arange(n) - n // 2
+    k = np.stack([np.outer(np.cos(th), kr).ravel(), np.outer(np.sin(th), kr).ravel()], 1)
+    w = np.where(np.abs(np.tile(kr, S)) > 0, np.pi * np.abs(np.tile(kr, S)) / S, np.pi / (4 * S))
+    ka, pk = f32(k)
+    wa, pw = f32(w)
+    fw = (ctypes.c_double * 2)()
+    assert lib.kw_psf_fwhm_ndft(pk, ctypes.c_size_t(2), pw, ctypes.c_size_t(len(w)),
+                                ctypes.c_size_t(n), fw) == 0
+    for v in fw:
+        assert abs(v - want) < 0.01 * want, (v, want)
 
 
 def tpsf_ref(w, level, levels=4):
