@@ -81,6 +81,14 @@ kw_status kw_nufft_get_info(const kw_nufft_plan *plan, kw_nufft_info *info);
 kw_status kw_nufft_params(double tolerance, double oversampling, int *width,
                           double *beta);
 
+/*! kw_nufft_convolve(): out_j = sum_l in_l c(k_j - k_l), c the kernel
+ * convolved with itself through the oversampled grid, scaled so that a
+ * fully sampled Cartesian trajectory of ones gives ~1 (no FFT; used by the
+ * density compensation of Pipe & Menon 1999). One coil; in and out may not
+ * alias. */
+kw_status kw_nufft_convolve(kw_nufft_plan *plan, const float complex *in,
+                            float complex *out);
+
 /*! kw_nufft_destroy(): free (NULL-safe). */
 void kw_nufft_destroy(kw_nufft_plan *plan);
 
