@@ -45,6 +45,7 @@
 
 struct kw_nufft_plan {
     int ndim, W, nthreads;
+    int par;             /* worth starting threads (large problems) */
     double alpha, beta, tol;
     size_t N[3], M[3];   /* C order; unused axes 1 */
     size_t nsamples;
@@ -247,6 +248,7 @@ kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
         p->mtotal *= m;
         ntot *= (double)dims[d];
     }
+    p->par = p->nthreads > 1 && p->mtotal + nsamples > 32768;
     /* image factors */
     for (int d = 0; d < 3; d++) {
         p->deap[d] = malloc(p->N[d] * sizeof(float));
@@ -348,7 +350,7 @@ kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
         free(next);
     }
     /* tile_of[j] is now the sorted position of sample j */
-#pragma omp parallel for num_threads(p->nthreads) schedule(static)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (p->par)
     for (size_t j = 0; j < nsamples; j++) {
         size_t s = tile_of[j];
         p->perm[s] = (uint32_t)j;
@@ -496,7 +498,7 @@ static void image_grid(kw_nufft_plan *p, float complex *x, int store)
     const float *d0 = p->deap[0], *d1 = p->deap[1], *d2 = p->deap[2];
     const long long rows = (long long)(N0 * N1);
     const long h2 = (long)(N2 / 2);
-#pragma omp parallel for num_threads(p->nthreads) schedule(static)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (p->par)
     for (long long r = 0; r < rows; r++) {
         size_t i0 = (size_t)r / N1, i1 = (size_t)r % N1;
         size_t g0 = img_to_grid(p, 0, i0), g1 = img_to_grid(p, 1, i1);
@@ -700,7 +702,7 @@ kw_status kw_nufft_forward(kw_nufft_plan *p, const float complex *img,
         fftwf_execute_dft(p->fwd, (fftwf_complex *)p->grid, (fftwf_complex *)p->grid);
         float complex *y = ksp + c * p->nsamples;
         const long long nt = (long long)p->ntiles;
-#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4)
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4) if (p->par)
         for (long long t = 0; t < nt; t++)
             interp_tile(p, (size_t)t, (float *)(p->tbuf + (size_t)thread_id() * p->tbuf_len), y);
     }
@@ -719,7 +721,7 @@ kw_status kw_nufft_adjoint(kw_nufft_plan *p, const float complex *ksp,
         for (int col = 0; col < 8; col++) {
             const long long lo = (long long)p->colour_start[col];
             const long long hi = (long long)p->colour_start[col + 1];
-#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2)
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2) if (p->par)
             for (long long q = lo; q < hi; q++)
                 spread_tile(p, p->colour_tiles[q],
                             p->tbuf + (size_t)thread_id() * p->tbuf_len, y);
@@ -817,13 +819,13 @@ kw_status kw_nufft_convolve(kw_nufft_plan *p, const float complex *in,
     for (int col = 0; col < 8; col++) {
         const long long lo = (long long)p->colour_start[col];
         const long long hi = (long long)p->colour_start[col + 1];
-#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2)
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2) if (p->par)
         for (long long q = lo; q < hi; q++)
             spread_tile(p, p->colour_tiles[q], p->tbuf + (size_t)thread_id() * p->tbuf_len,
                         in);
     }
     const long long nt = (long long)p->ntiles;
-#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4)
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4) if (p->par)
     for (long long t = 0; t < nt; t++)
         interp_tile(p, (size_t)t, (float *)(p->tbuf + (size_t)thread_id() * p->tbuf_len), out);
     /* Scale: a dense sampling of density rho (samples per unit k area)
