@@ -62,8 +62,14 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
     double per_plane = dz * (double)nplanes;
     for (size_t j = 0; j < ns; j++) {
         double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
-        if (r < 1e-6) /* the centre's disc of radius dr/2 */
-            w[j] = (float)(KW_PI * dr * dr / 4 * per_plane / (double)ncentre);
+        /* the centre: not its Voronoi disc pi dr^2/4 but the weight that
+         * makes the ring sum sum_{m>=0} 2 pi (m dr) f(m dr) dr an accurate
+         * quadrature of the area integral: Euler-Maclaurin (Abramowitz &
+         * Stegun 23.1.30) with g(r) = 2 pi r f(r), g(0) = 0, g'(0) = 2 pi f(0)
+         * gives sum_{m>=1} g(m dr) dr = int g - 2 pi f(0) dr^2 / 12 + O(dr^4),
+         * so the centre carries pi dr^2 / 6 */
+        if (r < 1e-6)
+            w[j] = (float)(KW_PI * dr * dr / 6 * per_plane / (double)ncentre);
         else
             w[j] = (float)(2 * KW_PI * r * dr * per_plane / (double)ring);
     }

@@ -18,7 +18,8 @@ extern "C" {
  * w_j = 2 pi r_j dr / n_ring, the area of the ring of radius r_j = |k_j| in
  * the kx-ky plane and width dr (the radial step) shared by the n_ring
  * samples of a ring (counted on the innermost ring); a sample at the centre
- * gets pi (dr/2)^2 / n_centre. Stack-of-stars in 3-D: columns x and y, times
+ * gets pi dr^2 / 6 / n_centre (Euler-Maclaurin end correction of the ring
+ * sum, not the Voronoi disc pi dr^2/4: see dcf.c). Stack-of-stars in 3-D: columns x and y, times
  * the kz spacing. Exact for equally spaced spokes with equal samples.
  * traj: (ns, ndim) cycles/FOV. */
 kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w);
