@@ -114,9 +114,25 @@ asan: deps-test
 	ASAN_OPTIONS=detect_leaks=1:abort_on_error=0 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
 	  $(MAKE) BUILD=build/asan SAN=1 test
 
+# Criterion runs each test in a child process and ignores the child's exit
+# code, so valgrind's verdict is read from its per-process logs instead: any
+# line in them (-q keeps only errors and definite leaks) fails the target.
 valgrind: all $(BUILD)/kw_tests
+	@rm -rf $(BUILD)/valgrind && mkdir -p $(BUILD)/valgrind
 	valgrind --error-exitcode=9 --leak-check=full --errors-for-leak-kinds=definite \
-	  --trace-children=yes -q $(BUILD)/kw_tests --jobs 1
+	  --show-leak-kinds=definite --trace-children=yes \
+	  --trace-children-skip='/bin/*,/usr/bin/*,*/sh' -q \
+	  --log-file=$(BUILD)/valgrind/vg.%p.log $(BUILD)/kw_tests --jobs 1 $(VALGRIND_ARGS)
+	@if cat $(BUILD)/valgrind/vg.*.log | grep -q .; then cat $(BUILD)/valgrind/vg.*.log; \
+	  echo "valgrind: errors above (logs in $(BUILD)/valgrind/)"; exit 1; fi
+	@echo "valgrind: no errors, no definite leaks ($$(ls $(BUILD)/valgrind | wc -l) processes)"
+
+# ---- benchmarks (figures side by side as ratios; never timed tests) ---------
+$(BUILD)/kw_bench: bench/bench.c $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
+	$(CC) $(ALL_CFLAGS) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+
+bench: deps-test all $(BUILD)/kw_bench
+	$(PY) bench/run.py --build $(BUILD)
 
 demo: all
 	$(BUILD)/kweave demo --out demo-out
@@ -131,5 +147,52 @@ install: all
 
 clean:
 	rm -rf build demo-out
+
+# ---- fuzzing (issue 9) ----------------------------------------------------------
+# `make fuzz` builds one libFuzzer binary per parser into $(BUILD)/fuzz/ with
+# clang (-fsanitize=fuzzer,address,undefined); `make fuzz-run FUZZ=npy
+# FUZZ_TIME=600` runs one on its corpus. `make fuzz-replay` (part of `make
+# test`) replays tests/fuzz/<target>/ - the seeds and every input that ever
+# crashed - through the same targets built without libFuzzer.
+FUZZ_CC ?= clang
+FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
+FUZZ_DEP_SRC := libencode/base.c cli/npy.c cli/outfile.c cli/jsonio.c cli/units.c cli/cli.c \
+                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c) $(FUZZ_EXTRA_SRC)
+FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
+              -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \
+              -Ilibencode -Irecon -Icli $(PKG_CFLAGS)
+FUZZ_OBJ = $(FUZZ_DEP_SRC:%.c=$(BUILD)/fuzz/obj/%.o)
+FUZZ_TIME ?= 600
+FUZZ ?= npy
+
+$(BUILD)/fuzz/obj/%.o: %.c
+	@mkdir -p $(dir $@)
+	@echo "CLANG $<"
+	@$(FUZZ_CC) $(FUZZ_CFLAGS) -c $< -o $@
+
+$(BUILD)/fuzz/fuzz_%: $(BUILD)/fuzz/obj/tests/fuzz/fuzz_%.o $(FUZZ_OBJ)
+	$(FUZZ_CC) -fsanitize=fuzzer,address,undefined -o $@ $^ $(PKG_LIBS) $(FUZZ_LIBS) -lm
+
+fuzz: $(FUZZ_TARGETS:%=$(BUILD)/fuzz/fuzz_%)
+
+fuzz-run: $(BUILD)/fuzz/fuzz_$(FUZZ)
+	@mkdir -p $(BUILD)/fuzz/corpus-$(FUZZ) $(BUILD)/fuzz/artifacts-$(FUZZ)
+	$(BUILD)/fuzz/fuzz_$(FUZZ) -max_total_time=$(FUZZ_TIME) -rss_limit_mb=2048 -timeout=10 \
+	  $(if $(filter protofile,$(FUZZ)),-close_fd_mask=2) \
+	  -print_final_stats=1 -artifact_prefix=$(BUILD)/fuzz/artifacts-$(FUZZ)/ \
+	  $(BUILD)/fuzz/corpus-$(FUZZ) tests/fuzz/$(FUZZ)
+
+$(BUILD)/fuzz-replay/replay_%: $(BUILD)/obj/tests/fuzz/fuzz_%.o $(BUILD)/obj/tests/fuzz/replay.o \
+                               $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
+	@mkdir -p $(dir $@)
+	$(CC) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+
+fuzz-replay: $(FUZZ_TARGETS:%=$(BUILD)/fuzz-replay/replay_%)
+	@for t in $(FUZZ_TARGETS); do $(BUILD)/fuzz-replay/replay_$$t tests/fuzz/$$t || exit 1; done
+
+test: fuzz-replay
+.PHONY: fuzz-run fuzz-replay
+.SECONDARY: $(FUZZ_OBJ) $(FUZZ_TARGETS:%=$(BUILD)/fuzz/obj/tests/fuzz/fuzz_%.o) \
+            $(FUZZ_TARGETS:%=$(BUILD)/obj/tests/fuzz/fuzz_%.o) $(BUILD)/obj/tests/fuzz/replay.o
 
 -include $(DEPS)

@@ -1,6 +1,7 @@
 /* cli.c: error lines, option tables and progress for the `kweave` verbs. */
 #include "cli.h"
 
+#include <ctype.h>
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>
@@ -9,7 +10,83 @@
 #include <time.h>
 #include <unistd.h>
 
+#include "npy.h"
+
 int kw_cli_quiet;
+
+/* ---- memory limit -------------------------------------------------------------- */
+
+static size_t max_memory; /* 0 until set or first asked for */
+
+/* Half the physical memory (common practice, no source: leaves room for the
+ * system and for a second copy of the data), at least 64 MiB; 16 GiB when
+ * the system does not say. */
+static size_t default_memory_limit(void)
+{
+    long pages = sysconf(_SC_PHYS_PAGES), psize = sysconf(_SC_PAGE_SIZE);
+    if (pages <= 0 || psize <= 0)
+        return (size_t)16 << 30;
+    double half = 0.5 * (double)pages * (double)psize;
+    if (half > (double)(SIZE_MAX / 2))
+        return SIZE_MAX / 2;
+    size_t v = (size_t)half;
+    return v < ((size_t)64 << 20) ? ((size_t)64 << 20) : v;
+}
+
+size_t kw_cli_memory_limit(void)
+{
+    if (!max_memory)
+        max_memory = default_memory_limit();
+    return max_memory;
+}
+
+int kw_cli_parse_bytes(const char *s, size_t *bytes, char *why, size_t whylen)
+{
+    static const struct {
+        const char *name;
+        double mult;
+    } units[] = {{"", 1},         {"B", 1},           {"KiB", 1024.0},
+                 {"MiB", 1048576.0}, {"GiB", 1073741824.0}, {"TiB", 1099511627776.0},
+                 {"kB", 1e3},      {"KB", 1e3},        {"MB", 1e6},
+                 {"GB", 1e9},      {"TB", 1e12},       {"K", 1024.0},
+                 {"M", 1048576.0}, {"G", 1073741824.0}, {"T", 1099511627776.0}};
+    const char *p = s;
+    while (isspace((unsigned char)*p))
+        p++;
+    if (!isdigit((unsigned char)*p) && *p != '.') {
+        snprintf(why, whylen, "'%s' is not a size (e.g. 2GiB, 512MiB)", s);
+        return -1;
+    }
+    char *end;
+    errno = 0;
+    double v = strtod(p, &end);
+    if (errno || end == p || !isfinite(v)) {
+        snprintf(why, whylen, "'%s' is not a size (e.g. 2GiB, 512MiB)", s);
+        return -1;
+    }
+    while (isspace((unsigned char)*end))
+        end++;
+    char unit[8];
+    size_t k = 0;
+    while (*end && !isspace((unsigned char)*end) && k + 1 < sizeof unit)
+        unit[k++] = *end++;
+    unit[k] = '\0';
+    while (isspace((unsigned char)*end))
+        end++;
+    for (size_t i = 0; i < sizeof units / sizeof units[0]; i++) {
+        if (*end == '\0' && strcmp(unit, units[i].name) == 0) {
+            double b = v * units[i].mult;
+            if (!(b >= 1.0) || b >= 9.2e18 || b > (double)SIZE_MAX) {
+                snprintf(why, whylen, "'%s' is not a usable size (1 byte .. 8 EiB)", s);
+                return -1;
+            }
+            *bytes = (size_t)b;
+            return 0;
+        }
+    }
+    snprintf(why, whylen, "'%s': unknown unit (use B, KiB, MiB, GiB, TiB, kB, MB, GB, TB)", s);
+    return -1;
+}
 
 int kw_cli_fail(const char *what, const char *fmt, ...)
 {
@@ -67,6 +144,8 @@ static void print_help(const kw_opt *table, const char *usage)
         printf("  %-22s %s\n", left, o->help);
     }
     printf("  %-22s %s\n", "--quiet", "no progress on stderr");
+    printf("  %-22s %s\n", "--max-memory SIZE",
+           "refuse arrays larger than SIZE (e.g. 2GiB; default: half the RAM)");
     printf("  %-22s %s\n", "--help", "this text");
 }
 
@@ -114,6 +193,7 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
 {
     if (npos)
         *npos = 0;
+    kw_npy_set_limit(kw_cli_memory_limit());
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
         if (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0) {
@@ -122,6 +202,21 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
         }
         if (strcmp(a, "--quiet") == 0 || strcmp(a, "-q") == 0) {
             kw_cli_quiet = 1;
+            continue;
+        }
+        if (strncmp(a, "--max-memory", 12) == 0 && (a[12] == '\0' || a[12] == '=')) {
+            const char *val = a[12] == '=' ? a + 13 : (i + 1 < argc ? argv[++i] : NULL);
+            char why[160];
+            size_t b;
+            if (!val)
+                return kw_cli_fail("max-memory", "missing value (e.g. 2GiB)");
+            if (kw_cli_parse_bytes(val, &b, why, sizeof why))
+                return kw_cli_fail("max-memory", "%s", why);
+            if (b < ((size_t)1 << 20))
+                return kw_cli_fail("max-memory", "'%s' is too small to work in "
+                                   "(at least 1MiB)", val);
+            max_memory = b;
+            kw_npy_set_limit(b);
             continue;
         }
         if (strncmp(a, "--", 2) != 0 || a[2] == '\0') {

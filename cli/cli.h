@@ -69,6 +69,15 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
 
 extern int kw_cli_quiet; /* --quiet given: no progress output */
 
+/*! kw_cli_memory_limit(): the most bytes one array (or a verb's working set)
+ * may take: --max-memory (every verb, e.g. 2GiB, 512MiB), by default half the
+ * physical memory. kw_opts_parse() also hands it to kw_npy_set_limit(). */
+size_t kw_cli_memory_limit(void);
+
+/*! kw_cli_parse_bytes(): "2GiB", "512MiB", "1.5GB", "4096" (bytes) -> bytes;
+ * -1 with a reason in `why` when it is not a size. */
+int kw_cli_parse_bytes(const char *s, size_t *bytes, char *why, size_t whylen);
+
 /*! kw_cli_progress(): a kw_progress_fn that draws one updating line on stderr
  * (stage, iteration, residual, ETA) when stderr is a terminal and not quiet.
  * `user` may be NULL. */

@@ -1,8 +1,12 @@
 /* main.c: the `kweave` command: verb dispatch, --version, --help. */
+#include <errno.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "cli.h"
+#include "kw_fft.h"
 #include "outfile.h"
 
 typedef struct verb {
@@ -31,6 +35,84 @@ static void usage(FILE *f)
                " 3 infeasible protocol (plan).\n");
 }
 
+/* FFTW wisdom cache: FFTW_MEASURE plans cost 0.1-0.4 s to make; wisdom kept
+ * between runs makes them nearly free. KWEAVE_WISDOM=off disables the cache,
+ * KWEAVE_WISDOM=FILE points it elsewhere; the default is
+ * $XDG_CACHE_HOME/kweave/fftw-wisdom (or ~/.cache/kweave/fftw-wisdom). */
+static char *wisdom_path(int make_dir)
+{
+    const char *env = getenv("KWEAVE_WISDOM");
+    if (env && strcmp(env, "off") == 0)
+        return NULL;
+    if (env && *env)
+        return strdup(env);
+    const char *base = getenv("XDG_CACHE_HOME");
+    char dir[4096];
+    if (base && *base) {
+        snprintf(dir, sizeof dir, "%s/kweave", base);
+    } else {
+        const char *home = getenv("HOME");
+        if (!home || !*home)
+            return NULL;
+        snprintf(dir, sizeof dir, "%s/.cache", home);
+        if (make_dir)
+            mkdir(dir, 0755);
+        snprintf(dir, sizeof dir, "%s/.cache/kweave", home);
+    }
+    if (make_dir && mkdir(dir, 0755) != 0 && errno != EEXIST)
+        return NULL;
+    size_t n = strlen(dir) + 16;
+    char *p = malloc(n);
+    if (p)
+        snprintf(p, n, "%s/fftw-wisdom", dir);
+    return p;
+}
+
+static char *wisdom_load(void)
+{
+    char *path = wisdom_path(0);
+    if (!path)
+        return NULL;
+    FILE *f = fopen(path, "rb");
+    free(path);
+    if (!f)
+        return NULL;
+    char *buf = malloc(1 << 20);
+    size_t n = buf ? fread(buf, 1, (1 << 20) - 1, f) : 0;
+    fclose(f);
+    if (!buf)
+        return NULL;
+    buf[n] = '\0';
+    /* A damaged cache is ignored (and replaced on exit), never fatal. */
+    if (kw_fft_wisdom_import(buf) != KW_OK)
+        buf[0] = '\0';
+    kw_clear_error();
+    return buf;
+}
+
+static void wisdom_save(const char *before)
+{
+    char *now = kw_fft_wisdom_export();
+    if (now && (!before || strcmp(before, now) != 0)) {
+        char *path = wisdom_path(1);
+        if (path)
+            kw_outfile_write_all(path, now, strlen(now)); /* best effort */
+        free(path);
+    }
+    free(now);
+}
+
+static int run_verb(const verb *v, int argc, char **argv)
+{
+    if (kw_fft_setup(0) != KW_OK)
+        return kw_cli_status(KW_EINTERNAL, "fft");
+    char *before = wisdom_load();
+    int rc = v->run(argc, argv);
+    wisdom_save(before);
+    free(before);
+    return rc;
+}
+
 int main(int argc, char **argv)
 {
     if (argc < 2) {
@@ -49,6 +131,6 @@ int main(int argc, char **argv)
     kw_outfile_install_signal_handlers();
     for (const verb *v = verbs; v->name; v++)
         if (strcmp(argv[1], v->name) == 0)
-            return v->run(argc - 1, argv + 1);
+            return run_verb(v, argc - 1, argv + 1);
     return kw_cli_fail(argv[1], "unknown verb (kweave --help lists them)");
 }

@@ -7,9 +7,11 @@
 
 #include <ctype.h>
 #include <errno.h>
+#include <inttypes.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 
 #include "outfile.h"
 
@@ -234,7 +236,36 @@ static void convert(const header *h, const unsigned char *src, size_t n,
     }
 }
 
-static kw_status read_stream(FILE *f, kw_array *out)
+/* "(3, 4)" for the messages. */
+static void format_shape(const header *h, char *buf, size_t cap)
+{
+    size_t k = (size_t)snprintf(buf, cap, "(");
+    for (int i = 0; i < h->ndim && k < cap; i++)
+        k += (size_t)snprintf(buf + k, cap - k, "%zu%s", h->dims[i],
+                              (h->ndim == 1) ? "," : (i + 1 < h->ndim ? ", " : ""));
+    if (k < cap)
+        snprintf(buf + k, cap - k, ")");
+}
+
+/* "1.5 GiB", "512 MiB", "100 bytes". */
+static const char *fmt_bytes(size_t n, char *buf, size_t cap)
+{
+    if (n >= ((size_t)1 << 40))
+        snprintf(buf, cap, "%.3g TiB", (double)n / (double)((size_t)1 << 40));
+    else if (n >= ((size_t)1 << 30))
+        snprintf(buf, cap, "%.3g GiB", (double)n / (double)((size_t)1 << 30));
+    else if (n >= ((size_t)1 << 20))
+        snprintf(buf, cap, "%.3g MiB", (double)n / (double)((size_t)1 << 20));
+    else if (n >= 1024)
+        snprintf(buf, cap, "%.3g KiB", (double)n / 1024.0);
+    else
+        snprintf(buf, cap, "%zu bytes", n);
+    return buf;
+}
+
+/* `remaining`: the length of the stream (the offset of its end, as ftell
+ * counts) when known (a regular file or a buffer), -1 for a pipe. */
+static kw_status read_stream(FILE *f, intmax_t remaining, kw_array *out)
 {
     unsigned char pre[12];
     memset(out, 0, sizeof *out);
@@ -272,12 +303,33 @@ static kw_status read_stream(FILE *f, kw_array *out)
     kw_dtype dt = (h.type == T_C8 || h.type == T_C16) ? KW_C64
                   : (h.type == T_U1 || h.type == T_B1) ? KW_U8
                                                        : KW_F32;
-    size_t bytes;
-    st = kw_checked_bytes(h.dims, h.ndim, h.isize > kw_dtype_size(dt) ? h.isize
-                                                                      : kw_dtype_size(dt),
-                          npy_limit, &bytes);
-    if (st)
-        return kw_set_error(st, "shape: %s", kw_last_error() + strlen("array: "));
+    char shp[KW_MAX_DIMS * 22 + 4];
+    format_shape(&h, shp, sizeof shp);
+    /* Sizes are checked before anything is allocated: the product of the
+     * shape must not overflow, the array must fit under the memory limit
+     * (--max-memory), and when the length of the input is known the data
+     * must be exactly as long as the shape says. */
+    size_t bytes, file_bytes;
+    if (kw_checked_bytes(h.dims, h.ndim, kw_dtype_size(dt), 0, &bytes) ||
+        kw_checked_bytes(h.dims, h.ndim, h.isize, 0, &file_bytes))
+        return kw_set_error(KW_EFORMAT, "shape: %s: the number of bytes overflows "
+                            "(the header is corrupt or lies)", shp);
+    if (bytes > npy_limit)
+        return kw_set_error(KW_ENOMEM, "shape: %s needs %s of memory, above the "
+                            "limit of %s (--max-memory)", shp,
+                            fmt_bytes(bytes, (char[32]){0}, 32),
+                            fmt_bytes(npy_limit, (char[32]){0}, 32));
+    if (remaining >= 0) {
+        long pos = ftell(f);
+        if (pos >= 0 && (uintmax_t)pos <= (uintmax_t)remaining) {
+            uintmax_t left = (uintmax_t)remaining - (uintmax_t)pos;
+            if (left != file_bytes)
+                return kw_set_error(KW_EFORMAT, "shape: %s promises %zu bytes of data "
+                                    "but the file holds %ju (the header lies about "
+                                    "the shape, or the file is truncated)", shp,
+                                    file_bytes, left);
+        }
+    }
     st = kw_array_alloc(out, dt, h.ndim, h.dims);
     if (st)
         return st;
@@ -316,15 +368,29 @@ static kw_status read_stream(FILE *f, kw_array *out)
     return KW_OK;
 }
 
+/* Length of a regular file (positions are absolute), or -1 for a pipe. */
+static intmax_t stream_size(FILE *f)
+{
+    struct stat sb;
+    if (fstat(fileno(f), &sb) != 0 || !S_ISREG(sb.st_mode))
+        return -1;
+    return (intmax_t)sb.st_size;
+}
+
 kw_status kw_npy_read(const char *path, kw_array *out)
 {
     memset(out, 0, sizeof *out);
     KW_FAIL_IF(!path || !*path, KW_EINVAL, "input: empty file name");
     if (strcmp(path, "-") == 0)
-        return read_stream(stdin, out);
+        return read_stream(stdin, stream_size(stdin), out);
     FILE *f = fopen(path, "rb");
     KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
-    kw_status st = read_stream(f, out);
+    struct stat sb;
+    if (fstat(fileno(f), &sb) == 0 && S_ISDIR(sb.st_mode)) {
+        fclose(f);
+        return kw_set_error(KW_EIO, "%s: is a directory, not a .npy file", path);
+    }
+    kw_status st = read_stream(f, stream_size(f), out);
     if (st == KW_OK && ferror(f)) {
         kw_array_free(out);
         st = kw_set_error(KW_EIO, "read error");
@@ -346,7 +412,7 @@ kw_status kw_npy_parse(const void *buf, size_t len, kw_array *out)
     KW_FAIL_IF(len == 0, KW_EFORMAT, "empty file");
     FILE *f = fmemopen((void *)buf, len, "rb");
     KW_FAIL_IF(!f, KW_EIO, "cannot open memory stream");
-    kw_status st = read_stream(f, out);
+    kw_status st = read_stream(f, (intmax_t)len, out);
     fclose(f);
     return st;
 }

@@ -48,6 +48,8 @@ kw_status kw_fft_setup(int nthreads)
 
 int kw_fft_threads(void) { return fft_nthreads; }
 
+int kw_fft_threads_ready(void) { return fft_ready; }
+
 /* data[b, i, j, k] *= c * (-1)^(i + j + k) over batch blocks of d0 x d1 x d2. */
 static void modulate(float complex *data, size_t batch, const size_t *d, float c)
 {
@@ -123,7 +125,8 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
         free(p);
         return kw_set_error(KW_ENOMEM, "fft: cannot allocate %zu samples", total);
     }
-    fftwf_plan_with_nthreads(fft_nthreads);
+    if (fft_ready)
+        fftwf_plan_with_nthreads(fft_nthreads);
     p->fwd = fftwf_plan_many_dft(rank, n_int, (int)howmany, (fftwf_complex *)buf,
                                  NULL, 1, (int)p->n, (fftwf_complex *)buf, NULL, 1,
                                  (int)p->n, FFTW_FORWARD, ff);

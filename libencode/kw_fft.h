@@ -35,6 +35,10 @@ kw_status kw_fft_setup(int nthreads);
 /*! kw_fft_threads(): the thread count plans are made with. */
 int kw_fft_threads(void);
 
+/*! kw_fft_threads_ready(): nonzero once kw_fft_setup() has run (FFTW's
+ * threads are initialised); before that every plan is single-threaded. */
+int kw_fft_threads_ready(void);
+
 /*! kw_fft_create(): plan `batch` transforms of rank 1..3 over contiguous
  * blocks of shape dims[0..rank-1]. flags: KW_FFT_ESTIMATE or KW_FFT_MEASURE. */
 kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
