@@ -312,7 +312,7 @@ int kw_cmd_encode(int argc, char **argv)
         {"trajectory", KW_OPT_STRING, &a.trajectory, 0, &a.s_traj,
          "non-Cartesian samples (samples, 2|3) in cycles/FOV"},
         {"times", KW_OPT_STRING, &a.times, 0, &a.s_times,
-         "sample times after excitation (s), (samples,) for a trajectory"},
+         "sample times after excitation (s): (samples,) for a trajectory; (nx,) or (ny, nx) Cartesian"},
         {"noise-corr", KW_OPT_DOUBLE, &a.noise_corr, 0, &a.s_ncorr,
          "noise correlation coefficient between every pair of coils"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
@@ -401,17 +401,17 @@ int kw_cmd_encode(int argc, char **argv)
         n[2] = 1;
 
     /* ---- sequence and timing ---- */
-    kw_contrast con = {KW_SEQ_PD, a.b0, 0, 0, 0, 0};
+    kw_contrast con = {KW_CONTRAST_PD, a.b0, 0, 0, 0, 0};
     const char *seqname = "pd";
     if (a.s_seq) {
         if (strcmp(a.sequence, "pd") == 0)
-            con.seq = KW_SEQ_PD;
+            con.seq = KW_CONTRAST_PD;
         else if (strcmp(a.sequence, "gre") == 0)
-            con.seq = KW_SEQ_GRE;
+            con.seq = KW_CONTRAST_GRE;
         else if (strcmp(a.sequence, "se") == 0)
-            con.seq = KW_SEQ_SE;
+            con.seq = KW_CONTRAST_SE;
         else if (strcmp(a.sequence, "ir") == 0)
-            con.seq = KW_SEQ_IR;
+            con.seq = KW_CONTRAST_IR;
         else
             return kw_cli_fail("sequence", "unknown sequence '%s' (pd, gre, se, ir)", a.sequence);
         seqname = a.sequence;
@@ -432,7 +432,7 @@ int kw_cmd_encode(int argc, char **argv)
     }
     double ro_dur = bw > 0 ? (double)n[0] / bw : 0; /* readout duration, dwell 1/BW */
     double te_min = bw > 0 ? (double)(n[0] / 2) / bw : 0; /* first sample at t >= 0 */
-    if (con.seq != KW_SEQ_PD) {
+    if (con.seq != KW_CONTRAST_PD) {
         if (!a.s_te)
             return kw_cli_fail("te", "missing for --sequence %s", seqname);
         if (!a.s_tr)
@@ -456,7 +456,7 @@ int kw_cmd_encode(int argc, char **argv)
             return kw_cli_fail("tr", "must exceed TE plus the second half of the readout");
         con.tr_s = a.tr;
     }
-    if (con.seq == KW_SEQ_IR) {
+    if (con.seq == KW_CONTRAST_IR) {
         if (!a.s_ti)
             return kw_cli_fail("ti", "missing for --sequence ir");
         if (!(a.ti > 0) || !(a.ti < con.tr_s))
@@ -465,7 +465,7 @@ int kw_cmd_encode(int argc, char **argv)
     } else if (a.s_ti) {
         return kw_cli_fail("ti", "only for --sequence ir");
     }
-    if (con.seq == KW_SEQ_GRE) {
+    if (con.seq == KW_CONTRAST_GRE) {
         if (!a.s_flip)
             return kw_cli_fail("flip", "missing for --sequence gre");
         if (!(a.flip > 0) || a.flip > KW_PI)
@@ -480,8 +480,6 @@ int kw_cmd_encode(int argc, char **argv)
     /* ---- sampling ---- */
     if (a.s_pat && a.s_traj)
         return kw_cli_fail("pattern", "give --pattern (Cartesian) or --trajectory, not both");
-    if (a.s_times && !a.s_traj)
-        return kw_cli_fail("times", "only with --trajectory (Cartesian times come from --bandwidth)");
 
     kw_phantom *php = &ph;
     kw_array mask = {0}, traj = {0}, times = {0}, sensin = {0}, ncovin = {0}, fmap = {0};
@@ -583,35 +581,50 @@ int kw_cmd_encode(int argc, char **argv)
             goto done;
         }
         nsamples = traj.dims[0];
-        if (a.s_times) {
-            if ((st = kw_npy_read(a.times, &times))) {
-                ret = kw_cli_status(st, "times");
-                goto done;
-            }
-            if (times.dtype != KW_F32 || times.ndim != 1 || times.dims[0] != nsamples) {
+    }
+    int times_full = 0;
+    if (a.s_times) {
+        if ((st = kw_npy_read(a.times, &times))) {
+            ret = kw_cli_status(st, "times");
+            goto done;
+        }
+        size_t want = a.s_traj ? nsamples : n[0];
+        int ok = times.dtype == KW_F32 && times.ndim == 1 && times.dims[0] == want;
+        if (!a.s_traj && ndim == 2 && times.dtype == KW_F32 && times.ndim == 2 &&
+            times.dims[0] == n[1] && times.dims[1] == n[0]) {
+            ok = 1;
+            times_full = 1;
+            want = n[0] * n[1];
+        }
+        if (!ok) {
+            if (a.s_traj)
                 ret = kw_cli_fail("times", "expected a real array (%zu,) of seconds", nsamples);
+            else
+                ret = kw_cli_fail("times", "expected a real array (%zu,) or (%zu, %zu) of seconds",
+                                  n[0], n[1], n[0]);
+            goto done;
+        }
+        if ((st = kw_array_all_finite(&times))) {
+            ret = kw_cli_status(st, "times");
+            goto done;
+        }
+        tvals = malloc(want * sizeof *tvals);
+        if (!tvals) {
+            ret = kw_cli_fail("times", "out of memory");
+            goto done;
+        }
+        for (size_t i = 0; i < want; i++) {
+            tvals[i] = ((float *)times.data)[i];
+            if (tvals[i] < 0) {
+                ret = kw_cli_fail("times", "sample %zu is before the excitation (%g s)", i, tvals[i]);
                 goto done;
-            }
-            if ((st = kw_array_all_finite(&times))) {
-                ret = kw_cli_status(st, "times");
-                goto done;
-            }
-            tvals = malloc(nsamples * sizeof *tvals);
-            if (!tvals) {
-                ret = kw_cli_fail("times", "out of memory");
-                goto done;
-            }
-            for (size_t i = 0; i < nsamples; i++) {
-                tvals[i] = ((float *)times.data)[i];
-                if (tvals[i] < 0) {
-                    ret = kw_cli_fail("times", "sample %zu is before the excitation (%g s)", i,
-                                      tvals[i]);
-                    goto done;
-                }
             }
         }
+        if (a.s_bw && !a.s_traj) {
+            ret = kw_cli_fail("times", "give --times or --bandwidth for a Cartesian readout, not both");
+            goto done;
+        }
     }
-
     if (a.s_fmap) {
         if (a.s_traj) {
             ret = kw_cli_fail("field-map", "only with Cartesian sampling (not with --trajectory)");
@@ -822,8 +835,9 @@ int kw_cmd_encode(int argc, char **argv)
         so.traj = traj.data;
         so.nsamples = nsamples;
         so.traj_ndim = ndim;
-        so.times = tvals;
     }
+    so.times = tvals;
+    so.times_per_sample = times_full;
     so.ncoils = ncoils;
     so.coil_order = (int)a.coil_order;
     so.coil_period = COIL_PERIOD;
@@ -1017,9 +1031,9 @@ int kw_cmd_encode(int argc, char **argv)
     cJSON_AddNumberToObject(prot, "te_s", con.te_s);
     if (a.s_tr)
         cJSON_AddNumberToObject(prot, "tr_s", con.tr_s);
-    if (con.seq == KW_SEQ_IR)
+    if (con.seq == KW_CONTRAST_IR)
         cJSON_AddNumberToObject(prot, "ti_s", con.ti_s);
-    if (con.seq == KW_SEQ_GRE)
+    if (con.seq == KW_CONTRAST_GRE)
         cJSON_AddNumberToObject(prot, "flip_deg", con.flip_rad * 180.0 / KW_PI);
     double fat_hz = KW_FAT_SHIFT_PPM * 1e-6 * KW_GAMMA_BAR_P * con.b0_t;
     cJSON_AddNumberToObject(prot, "fat_shift_hz", fat_hz);

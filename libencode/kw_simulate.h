@@ -37,11 +37,14 @@ typedef struct kw_sim_options {
     int traj_ndim;
     const uint8_t *mask;
 
-    /* Timing. times: per-sample times (s; nsamples for a trajectory, nx for a
-     * Cartesian readout along x) or NULL; then Cartesian samples get
+    /* Timing. times: per-sample times (s; nsamples for a trajectory; for
+     * Cartesian sampling nx values, one per readout column, or, with
+     * times_per_sample, prod(n) values, e.g. an EPI train) or NULL; then
+     * Cartesian samples get
      * t = TE + (ix - nx/2) / bandwidth_hz when bandwidth_hz > 0, and every
      * sample t = TE otherwise. */
     const double *times;
+    int times_per_sample;
     double bandwidth_hz;    /* full receiver bandwidth across the FOV (1/dwell) */
 
     /* Contrast (used when the phantom carries tissues). */

@@ -29,7 +29,9 @@ struct kw_fieldmap {
     size_t nx, ny, mx, my;
     int ov, nseg;
     double tau_seg[MAX_SEG];
-    double *b_re, *b_im;    /* nseg x nx interpolator weights per column */
+    size_t nt;              /* time nodes: the columns, or a grid over tau */
+    double tau0, dtau;      /* grid nodes tau0 + j dtau (per-sample times) */
+    double *b_re, *b_im;    /* nseg x nt interpolator weights */
     float *obj;             /* my x mx image at the echo */
     float *field;           /* my x mx field map (Hz) */
     float complex *work;    /* my x mx */
@@ -56,11 +58,11 @@ void kw_fieldmap_destroy(kw_fieldmap *fm)
     free(fm);
 }
 
-static double column_tau(const kw_sim_options *o, size_t ix)
+static double sample_tau(const kw_sim_options *o, size_t i, size_t ix)
 {
     double t;
     if (o->times)
-        t = o->times[ix];
+        t = o->times[o->times_per_sample ? i : ix];
     else if (o->bandwidth_hz > 0)
         t = o->contrast.te_s + ((double)ix - (double)(o->n[0] / 2)) / o->bandwidth_hz;
     else
@@ -172,11 +174,17 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     }
     /* phase times of the readout and the field range over the object */
     double tmin = INFINITY, tmax = -INFINITY, fmin = INFINITY, fmax = -INFINITY;
-    for (size_t ix = 0; ix < nx; ix++) {
-        double t = column_tau(o, ix);
+    for (size_t i = 0; i < (o->times_per_sample ? nx * ny : nx); i++) {
+        double t = sample_tau(o, i, i % nx);
         tmin = t < tmin ? t : tmin;
         tmax = t > tmax ? t : tmax;
     }
+    /* time nodes: each column (one time per readout column), or for
+     * per-sample times a grid of 512 nodes over the range, the weights of a
+     * sample then interpolated linearly between its two nodes */
+    fm->nt = o->times_per_sample ? 512 : nx;
+    fm->tau0 = tmin;
+    fm->dtau = (tmax - tmin) / 511.0;
     size_t nobj = 0;
     for (size_t i = 0; i < M; i++)
         if (fm->obj[i] != 0) {
@@ -201,8 +209,8 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     fm->nseg = nseg;
     for (int l = 0; l < nseg; l++)
         fm->tau_seg[l] = nseg == 1 ? tmin : tmin + (tmax - tmin) * l / (nseg - 1);
-    fm->b_re = malloc((size_t)nseg * nx * sizeof *fm->b_re);
-    fm->b_im = malloc((size_t)nseg * nx * sizeof *fm->b_im);
+    fm->b_re = malloc((size_t)nseg * fm->nt * sizeof *fm->b_re);
+    fm->b_im = malloc((size_t)nseg * fm->nt * sizeof *fm->b_im);
     double complex *G = calloc((size_t)nseg * nseg, sizeof *G);
     double complex *rhs = malloc((size_t)nseg * sizeof *rhs);
     size_t stride = nobj > 20000 ? nobj / 20000 : 1;
@@ -237,8 +245,8 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
         goto fail;
     }
     double worst = 0;
-    for (size_t ix = 0; ix < nx; ix++) {
-        double tau = column_tau(o, ix);
+    for (size_t ix = 0; ix < fm->nt; ix++) {
+        double tau = o->times_per_sample ? fm->tau0 + fm->dtau * (double)ix : sample_tau(o, ix, ix);
         for (int l = 0; l < nseg; l++)
             rhs[l] = 0;
         for (size_t i = 0, k = 0; i < M; i++) {
@@ -266,8 +274,8 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
         double e = sqrt(e2 / (double)(used ? used : 1));
         worst = e > worst ? e : worst;
         for (int l = 0; l < nseg; l++) {
-            fm->b_re[(size_t)l * nx + ix] = creal(rhs[l]);
-            fm->b_im[(size_t)l * nx + ix] = cimag(rhs[l]);
+            fm->b_re[(size_t)l * fm->nt + ix] = creal(rhs[l]);
+            fm->b_im[(size_t)l * fm->nt + ix] = cimag(rhs[l]);
         }
     }
     free(G);
@@ -298,7 +306,18 @@ static void gather(const kw_fieldmap *fm, int c, const double *bre, const double
             size_t C = ix - nx / 2 + fm->mx / 2;
             double dx = dirichlet((double)ix - (double)(nx / 2), fm->mx);
             double complex v = fm->work[R * fm->mx + C] * inv / (dx * dy);
-            double complex b = bre ? bre[ix] + I * bim[ix] : -1.0;
+            double complex b = -1.0;
+            if (bre && !o->times_per_sample) {
+                b = bre[ix] + I * bim[ix];
+            } else if (bre) {
+                double pos = fm->dtau > 0 ? (sample_tau(o, i, ix) - fm->tau0) / fm->dtau : 0.0;
+                size_t j = pos <= 0 ? 0 : (size_t)pos;
+                if (j > fm->nt - 2)
+                    j = fm->nt - 2;
+                double al = pos - (double)j;
+                al = al < 0 ? 0 : (al > 1 ? 1 : al);
+                b = (1 - al) * (bre[j] + I * bim[j]) + al * (bre[j + 1] + I * bim[j + 1]);
+            }
             out[(size_t)c * count + i] += (float complex)(b * v);
         }
     }
@@ -358,7 +377,7 @@ kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out, kw_progress_f
             if (l < 0)
                 gather(fm, c, NULL, NULL, out);
             else
-                gather(fm, c, fm->b_re + (size_t)l * fm->nx, fm->b_im + (size_t)l * fm->nx, out);
+                gather(fm, c, fm->b_re + (size_t)l * fm->nt, fm->b_im + (size_t)l * fm->nt, out);
             if (progress) {
                 kw_progress pr = {"field-map", ++step, nstep, NAN};
                 if (progress(user, &pr))

@@ -230,11 +230,11 @@ void kw_sim_image_weights(const kw_sim *sim, double *w)
     kw_phantom_weights(sim->o.phantom, re, w);
 }
 
-/* Sample time of Cartesian column ix or trajectory sample i. */
-static double sample_time(const kw_sim *s, size_t idx_time)
+/* Sample time of Cartesian sample i (column ix) or trajectory sample i. */
+static double sample_time(const kw_sim *s, size_t i, size_t idx_time)
 {
     if (s->o.times)
-        return s->o.times[idx_time];
+        return s->o.times[s->o.traj || s->o.times_per_sample ? i : idx_time];
     if (!s->o.traj && s->o.bandwidth_hz > 0)
         return s->o.contrast.te_s +
                ((double)idx_time - (double)(s->o.n[0] / 2)) / s->o.bandwidth_hz;
@@ -316,7 +316,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
             if (s->o.traj) {
                 const float *k = s->o.traj + i * (size_t)s->o.traj_ndim;
                 double kz = s->o.traj_ndim == 3 ? k[2] : 0.0;
-                one_sample(s, k[0], k[1], kz, sample_time(s, i), out + i, count);
+                one_sample(s, k[0], k[1], kz, sample_time(s, i, i), out + i, count);
             } else {
                 if (s->o.mask && !s->o.mask[i])
                     continue;
@@ -324,7 +324,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
                 double kx = (double)ix - (double)(nx / 2);
                 double kv = (double)iy - (double)(ny / 2);
                 double kz = nz > 1 ? (double)iz - (double)(nz / 2) : 0.0;
-                one_sample(s, kx, kv, kz, sample_time(s, ix), out + i, count);
+                one_sample(s, kx, kv, kz, sample_time(s, i, ix), out + i, count);
             }
         }
         if (progress) {

@@ -61,6 +61,12 @@ def test_fat_vial_displaced_by_predicted_pixels(tmp_path):
     inside = (t[r0:r1, c0:c1] - muscle_pd) / (fat_pd - muscle_pd)   # vial coverage 0..1
     d = np.sum(xs * D) / (fat_pd * np.sum(inside))
     assert d == pytest.approx(want, abs=0.1), d
+    # where the planner says: `kweave plan` for the same protocol reports the
+    # displacement's size along the readout (fat below water: towards -x here)
+    run("plan", "--fov", "240mm", "--matrix", str(n), "--bandwidth", f"{bwpp}Hz/pixel", "--b0", "3T",
+        "--json", tmp_path / "plan.json")
+    plan = json.load(open(tmp_path / "plan.json"))
+    assert -d == pytest.approx(plan["chemical_shift_pixels"], abs=0.1)
 
 
 def test_gre_contrast_matches_ernst_equation(tmp_path):
@@ -299,7 +305,7 @@ BASE = ["encode", "--phantom", "weave", "--matrix", "32", "--fov", "200mm"]
     (["--b0", "2T"], "b0"),
     (["--snr", "10", "--coils", "4", "--noise-corr", "1.5"], "noise-corr"),
     (["--noise-corr", "0.3", "--coils", "2"], "noise-corr"),
-    (["--times", "x.npy"], "times"),
+    (["--times", "x.npy"], "times"),            # no such file
 ])
 def test_bad_physics(tmp_path, extra, field):
     out = tmp_path / "ks.npy"
@@ -415,7 +421,7 @@ def test_multislice_slab_average(tmp_path, gap_mm, which, tol):
     stretch (Gauss-Legendre with 8 points is exact); the slice at 54 mm ends
     inside the vials (z extent 0.45 x 120 mm = 54 mm), where the quadrature
     is approximate (seen: 3e-5; tested within 1e-3)."""
-    n, fovz = 64, 0.240
+    n, fovz = 32, 0.240
     args = ["--phantom", "weave3d", "--matrix", str(n), "--fov", "240mm", "--slices",
             "1" if gap_mm is None else "2", "--slice-thickness", "20mm", "--quiet"]
     if gap_mm:
@@ -445,3 +451,47 @@ def test_bad_slices_2d(tmp_path, extra, field):
 def test_bad_slices(tmp_path, extra, field):
     bad("encode", "--phantom", "weave3d", "--matrix", "32", "--fov", "200mm", "--out",
         tmp_path / "k.npy", *extra, field=field)
+
+
+def epi_times(n, esp, dwell, te):
+    """Flyback EPI sample times (s) for an (n, n) Cartesian grid: row r is
+    read at TE + (r - n/2) esp, column c at + (c - n/2) dwell within the row,
+    so the k-space centre is at TE."""
+    r, c = np.meshgrid(np.arange(n), np.arange(n), indexing="ij")
+    return (te + (r - n // 2) * esp + (c - n // 2) * dwell).astype(np.float32)
+
+
+@pytest.mark.parametrize("how", ["df", "field-map"])
+def test_epi_distortion_where_the_planner_says(tmp_path, how):
+    """EPI: an off-resonance df moves the image along the phase-encode axis by
+    df x echo spacing x ny pixels (the planner's distortion_pixels_per_hz).
+    Times from the planner's echo spacing for a 64 x 64 EPI at 100 kHz;
+    df = 40 Hz; measured by the first moment along the rows of (recon with df
+    - recon without), for the uniform offset (--df, exact) and the same
+    offset given as a field map (time-segmented, per-sample times)."""
+    n = 64
+    p = run("plan", "--sequence", "epi", "--fov", "240mm", "--matrix", str(n), "--bandwidth",
+            "100kHz", "--b0", "3T", "--json", tmp_path / "plan.json")
+    plan = json.load(open(tmp_path / "plan.json"))
+    esp, per_hz = plan["echo_spacing_s"], plan["distortion_pixels_per_hz"]
+    assert per_hz == pytest.approx(esp * n, rel=1e-6)
+    te = 0.03
+    np.save(tmp_path / "t.npy", epi_times(n, esp, 1 / 100e3, te))
+    base = ["--phantom", "shepp-logan-modified", "--matrix", str(n), "--fov", "240mm",
+            "--times", tmp_path / "t.npy", "--te", "30ms", "--quiet"]
+    k0, _ = enc(tmp_path, "e0", *base)
+    if how == "df":
+        k1, _ = enc(tmp_path, "e1", *base, "--df", "40Hz")
+        # sample by sample the exact phase exp(-i 2 pi df (t - TE))
+        t = epi_times(n, esp, 1 / 100e3, te).astype(float)
+        ref = k0 * np.exp(-2j * np.pi * 40 * (t - te))
+        assert np.max(np.abs(k1 - ref)) <= 1e-5 * np.max(np.abs(k0))
+    else:
+        np.save(tmp_path / "fm.npy", np.full((n, n), 40, np.float32))
+        k1, _ = enc(tmp_path, "e1", *base, "--field-map", tmp_path / "fm.npy")
+    i0 = recon(k0.astype(complex)).real
+    i1 = recon(k1.astype(complex))
+    assert np.linalg.norm(i1.imag) < 0.02 * np.linalg.norm(i0)
+    ys = np.arange(n)[:, None]
+    d = np.sum(ys * (i1.real - i0)) / np.sum(i0)
+    assert d == pytest.approx(40 * per_hz, abs=0.05), (d, 40 * per_hz)
