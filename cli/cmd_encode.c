@@ -1003,7 +1003,9 @@ int kw_cmd_encode(int argc, char **argv)
     } while (0)
     ADD_FILE("trajectory", a.s_traj, a.trajectory);
     ADD_FILE("sens", a.s_sout || a.s_sens, a.s_sout ? a.sens_out : a.sens);
-    int write_cov = (a.s_snr || a.s_ncov) && nch > 0;
+    /* the coil noise covariance, for prewhitening, is written for multi-coil
+     * data (a coil axis); one channel has just noise_sigma */
+    int write_cov = (a.s_snr || a.s_ncov) && ncoils > 0;
     if (write_cov) {
         covpath = derived_path(a.out, "noise_cov.npy");
         if (!covpath) {
