@@ -396,8 +396,8 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
             cairo_line_to(cr, kx_px(&f, (nx - nx / 2 - 1) * dkx), ky_px(&f, ky));
             cairo_stroke(cr);
         }
-        snprintf(buf, sizeof buf, "%d phase-encode lines (every %d%s drawn); grey: prephasing",
-                 ny, every, every == 1 ? "" : "th");
+        snprintf(buf, sizeof buf, "%d phase-encode lines (one in %d drawn); grey: prephasing",
+                 ny, every);
         break;
     }
     case KW_SEQ_RADIAL: {
@@ -409,7 +409,7 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
             cairo_line_to(cr, kx_px(&f, k * cos(a)), ky_px(&f, k * sin(a)));
             cairo_stroke(cr);
         }
-        snprintf(buf, sizeof buf, "%d spokes (Nyquist %d; every %d drawn)", r->spokes,
+        snprintf(buf, sizeof buf, "%d spokes (Nyquist %d; one in %d drawn)", r->spokes,
                  r->spokes_nyquist, every);
         break;
     }
@@ -478,7 +478,7 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
             cairo_stroke(cr);
         }
         free(gx), free(gy);
-        snprintf(buf, sizeof buf, "%d interleaves (every %d drawn), %.2f ms each; blue: interleaf 1",
+        snprintf(buf, sizeof buf, "%d interleaves (one in %d drawn), %.2f ms each; blue: interleaf 1",
                  sp.interleaves, every, r->readout_per_interleave_s * 1e3);
         break;
     }
