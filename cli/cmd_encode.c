@@ -15,6 +15,7 @@
 #include "kw_phantom.h"
 #include "kw_simulate.h"
 #include "kw_tissue.h"
+#include "kw_rng.h"
 #include "npy.h"
 
 #define MAX_EDGE 8192
@@ -160,14 +161,111 @@ static int chol_c(const double complex *a, int n, double complex *l)
     return 0;
 }
 
+/* Centre (m) of slice i of n, thickness t, gap g, stacked around z = 0. */
+static double slice_centre(int i, int n, double t, double g)
+{
+    return ((double)i - 0.5 * (n - 1)) * (t + g);
+}
+
+/* Multi-slice 2-D: each slice is the average of the phantom's cuts over a
+ * rectangular profile of thickness `thk` (Gauss-Legendre quadrature across
+ * the slice, `npts` points; each cut is an exact 2-D phantom). With `truth`
+ * it writes the slab-averaged images (nsl x ny x nx); with `out` the k-space
+ * (channels x nsl x ny x nx), plus noise when `chol` is given (slice s seeded
+ * with kw_rng_mix(seed, s)). `base` gives grid, contrast, coils and mask. */
+static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, int nsl,
+                            double fovz, double thk, double gap, int npts, float *truth,
+                            float complex *out, const double complex *chol, uint64_t seed)
+{
+    double gx[32], gw[32];
+    kw_status st = kw_gauss_legendre(npts, gx, gw);
+    if (st)
+        return st;
+    size_t nx = base->n[0], ny = base->n[1], cnt = nx * ny;
+    int nch = base->ncoils > 0 ? base->ncoils : 1;
+    float *img = NULL;
+    float complex *tmp = NULL, *acc = NULL;
+    kw_sim *sim = NULL;
+    if (truth && !(img = malloc(cnt * sizeof *img)))
+        return kw_set_error(KW_ENOMEM, "slices: out of memory");
+    if (out && (!(tmp = malloc(cnt * nch * sizeof *tmp)) || !(acc = malloc(cnt * nch * sizeof *acc)))) {
+        st = kw_set_error(KW_ENOMEM, "slices: out of memory");
+        goto done;
+    }
+    for (int sl = 0; sl < nsl; sl++) {
+        double zc = slice_centre(sl, nsl, thk, gap);
+        if (acc)
+            memset(acc, 0, cnt * nch * sizeof *acc);
+        if (truth)
+            memset(truth + (size_t)sl * cnt, 0, cnt * sizeof *truth);
+        for (int g = 0; g < npts; g++) {
+            /* z of the node in phantom units ([-1, 1] spans the z FOV) */
+            double zm = zc + 0.5 * thk * gx[g];
+            kw_phantom p2;
+            if ((st = kw_phantom_section(p3, zm / (0.5 * fovz), &p2)))
+                goto done;
+            kw_sim_options o = *base;
+            o.phantom = &p2;
+            o.noise_chol = NULL;
+            if ((st = kw_sim_create(&sim, &o)))
+                goto done;
+            double wt = 0.5 * gw[g]; /* the profile's mean: weights sum to 2 */
+            if (truth) {
+                double w[KW_PHANTOM_MAX_SHAPES];
+                kw_sim_image_weights(sim, w);
+                if ((st = kw_phantom_rasterize(&p2, o.n, w, 4, img)))
+                    goto done;
+                for (size_t i = 0; i < cnt; i++)
+                    truth[(size_t)sl * cnt + i] += (float)(wt * img[i]);
+            }
+            if (out) {
+                if ((st = kw_sim_execute(sim, tmp, NULL, NULL)))
+                    goto done;
+                for (size_t i = 0; i < cnt * nch; i++)
+                    acc[i] += (float complex)(wt * tmp[i]);
+            }
+            kw_sim_destroy(sim);
+            sim = NULL;
+        }
+        if (out) {
+            if (chol) {
+                kw_phantom p2;
+                kw_phantom_section(p3, 0.0, &p2);
+                kw_sim_options o = *base;
+                o.phantom = &p2;
+                o.noise_chol = NULL;
+                if ((st = kw_sim_create(&sim, &o)))
+                    goto done;
+                if ((st = kw_sim_add_noise(sim, chol, kw_rng_mix(seed, (uint64_t)sl), acc)))
+                    goto done;
+                kw_sim_destroy(sim);
+                sim = NULL;
+            }
+            for (int c = 0; c < nch; c++)
+                memcpy(out + ((size_t)c * nsl + sl) * cnt, acc + (size_t)c * cnt, cnt * sizeof *acc);
+        }
+        if (out) {
+            kw_progress pr = {"slices", sl + 1, nsl, NAN};
+            kw_cli_progress(NULL, &pr);
+        }
+    }
+done:
+    kw_sim_destroy(sim);
+    free(img);
+    free(tmp);
+    free(acc);
+    return st;
+}
+
 typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
-    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov;
+    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
-    long seed, coils, coil_order;
+    double slice_thk, slice_gap;
+    long seed, coils, coil_order, slices, slice_points;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
-        s_ncorr, s_ncov;
+        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -176,6 +274,7 @@ int kw_cmd_encode(int argc, char **argv)
     memset(&a, 0, sizeof a);
     a.b0 = 3.0;
     a.coil_order = 4;
+    a.slice_points = 8;
     const kw_opt table[] = {
         {"phantom", KW_OPT_STRING, &a.phantom, 0, &a.s_ph,
          "shepp-logan | shepp-logan-modified | weave | weave3d"},
@@ -213,11 +312,20 @@ int kw_cmd_encode(int argc, char **argv)
         {"trajectory", KW_OPT_STRING, &a.trajectory, 0, &a.s_traj,
          "non-Cartesian samples (samples, 2|3) in cycles/FOV"},
         {"times", KW_OPT_STRING, &a.times, 0, &a.s_times,
-         "sample times after excitation (s), (samples,) for a trajectory"},
+         "sample times after excitation (s): (samples,) for a trajectory; (nx,) or (ny, nx) Cartesian"},
         {"noise-corr", KW_OPT_DOUBLE, &a.noise_corr, 0, &a.s_ncorr,
          "noise correlation coefficient between every pair of coils"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
          "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
+        {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
+         "off-resonance map (ny, nx) in Hz (Cartesian, time-segmented on a 4x grid)"},
+        {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
+         "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0"},
+        {"slice-thickness", KW_OPT_UNIT, &a.slice_thk, KW_UNIT_LENGTH, &a.s_slt,
+         "slice thickness (rectangular through-slice profile)"},
+        {"slice-gap", KW_OPT_UNIT, &a.slice_gap, KW_UNIT_LENGTH, &a.s_slg, "gap between slices (default 0)"},
+        {"slice-points", KW_OPT_INT, &a.slice_points, 0, &a.s_slp,
+         "Gauss-Legendre points across each slice (1..32, default 8)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
@@ -236,6 +344,28 @@ int kw_cmd_encode(int argc, char **argv)
     if (nm < 0)
         return kw_cli_fail("matrix", "'%s' is not NX[xNY[xNZ]] with whole numbers 1..%d",
                            a.matrix, MAX_EDGE);
+    /* multi-slice: the 3-D phantom is imaged slice by slice on a 2-D grid */
+    kw_phantom ph3;
+    int nsl = 0;
+    if (a.s_sl || a.s_slt || a.s_slg || a.s_slp) {
+        if (!a.s_sl)
+            return kw_cli_fail("slices", "missing (slice options need --slices N)");
+        if (ph.ndim != 3)
+            return kw_cli_fail("slices", "need a 3-D phantom (e.g. weave3d)");
+        if (a.slices < 1 || a.slices > 256)
+            return kw_cli_fail("slices", "must be 1..256");
+        if (!a.s_slt || !(a.slice_thk > 0))
+            return kw_cli_fail("slice-thickness", "missing or not positive");
+        if (a.s_slg && !(a.slice_gap >= 0))
+            return kw_cli_fail("slice-gap", "must be >= 0");
+        if (a.slice_points < 1 || a.slice_points > 32)
+            return kw_cli_fail("slice-points", "must be 1..32");
+        if (nm == 3)
+            return kw_cli_fail("matrix", "give NXxNY with --slices");
+        nsl = (int)a.slices;
+        ph3 = ph;
+        kw_phantom_section(&ph3, 0.0, &ph);
+    }
     if (nm == 1) {
         n[1] = n[0];
         if (ph.ndim == 3)
@@ -271,17 +401,17 @@ int kw_cmd_encode(int argc, char **argv)
         n[2] = 1;
 
     /* ---- sequence and timing ---- */
-    kw_contrast con = {KW_SEQ_PD, a.b0, 0, 0, 0, 0};
+    kw_contrast con = {KW_CONTRAST_PD, a.b0, 0, 0, 0, 0};
     const char *seqname = "pd";
     if (a.s_seq) {
         if (strcmp(a.sequence, "pd") == 0)
-            con.seq = KW_SEQ_PD;
+            con.seq = KW_CONTRAST_PD;
         else if (strcmp(a.sequence, "gre") == 0)
-            con.seq = KW_SEQ_GRE;
+            con.seq = KW_CONTRAST_GRE;
         else if (strcmp(a.sequence, "se") == 0)
-            con.seq = KW_SEQ_SE;
+            con.seq = KW_CONTRAST_SE;
         else if (strcmp(a.sequence, "ir") == 0)
-            con.seq = KW_SEQ_IR;
+            con.seq = KW_CONTRAST_IR;
         else
             return kw_cli_fail("sequence", "unknown sequence '%s' (pd, gre, se, ir)", a.sequence);
         seqname = a.sequence;
@@ -302,7 +432,7 @@ int kw_cmd_encode(int argc, char **argv)
     }
     double ro_dur = bw > 0 ? (double)n[0] / bw : 0; /* readout duration, dwell 1/BW */
     double te_min = bw > 0 ? (double)(n[0] / 2) / bw : 0; /* first sample at t >= 0 */
-    if (con.seq != KW_SEQ_PD) {
+    if (con.seq != KW_CONTRAST_PD) {
         if (!a.s_te)
             return kw_cli_fail("te", "missing for --sequence %s", seqname);
         if (!a.s_tr)
@@ -326,7 +456,7 @@ int kw_cmd_encode(int argc, char **argv)
             return kw_cli_fail("tr", "must exceed TE plus the second half of the readout");
         con.tr_s = a.tr;
     }
-    if (con.seq == KW_SEQ_IR) {
+    if (con.seq == KW_CONTRAST_IR) {
         if (!a.s_ti)
             return kw_cli_fail("ti", "missing for --sequence ir");
         if (!(a.ti > 0) || !(a.ti < con.tr_s))
@@ -335,7 +465,7 @@ int kw_cmd_encode(int argc, char **argv)
     } else if (a.s_ti) {
         return kw_cli_fail("ti", "only for --sequence ir");
     }
-    if (con.seq == KW_SEQ_GRE) {
+    if (con.seq == KW_CONTRAST_GRE) {
         if (!a.s_flip)
             return kw_cli_fail("flip", "missing for --sequence gre");
         if (!(a.flip > 0) || a.flip > KW_PI)
@@ -350,11 +480,12 @@ int kw_cmd_encode(int argc, char **argv)
     /* ---- sampling ---- */
     if (a.s_pat && a.s_traj)
         return kw_cli_fail("pattern", "give --pattern (Cartesian) or --trajectory, not both");
-    if (a.s_times && !a.s_traj)
-        return kw_cli_fail("times", "only with --trajectory (Cartesian times come from --bandwidth)");
 
     kw_phantom *php = &ph;
-    kw_array mask = {0}, traj = {0}, times = {0}, sensin = {0}, ncovin = {0};
+    kw_array mask = {0}, traj = {0}, times = {0}, sensin = {0}, ncovin = {0}, fmap = {0};
+    kw_fieldmap *fmp = NULL;
+    double fm_err = -1;
+    int fm_seg = 0;
     kw_array ks = {0}, truth = {0}, cover = {0}, maps = {0}, covout = {0};
     uint8_t *mfull = NULL;
     double *tvals = NULL, *resid = NULL;
@@ -450,33 +581,76 @@ int kw_cmd_encode(int argc, char **argv)
             goto done;
         }
         nsamples = traj.dims[0];
-        if (a.s_times) {
-            if ((st = kw_npy_read(a.times, &times))) {
-                ret = kw_cli_status(st, "times");
-                goto done;
-            }
-            if (times.dtype != KW_F32 || times.ndim != 1 || times.dims[0] != nsamples) {
+    }
+    int times_full = 0;
+    if (a.s_times) {
+        if ((st = kw_npy_read(a.times, &times))) {
+            ret = kw_cli_status(st, "times");
+            goto done;
+        }
+        size_t want = a.s_traj ? nsamples : n[0];
+        int ok = times.dtype == KW_F32 && times.ndim == 1 && times.dims[0] == want;
+        if (!a.s_traj && ndim == 2 && times.dtype == KW_F32 && times.ndim == 2 &&
+            times.dims[0] == n[1] && times.dims[1] == n[0]) {
+            ok = 1;
+            times_full = 1;
+            want = n[0] * n[1];
+        }
+        if (!ok) {
+            if (a.s_traj)
                 ret = kw_cli_fail("times", "expected a real array (%zu,) of seconds", nsamples);
+            else
+                ret = kw_cli_fail("times", "expected a real array (%zu,) or (%zu, %zu) of seconds",
+                                  n[0], n[1], n[0]);
+            goto done;
+        }
+        if ((st = kw_array_all_finite(&times))) {
+            ret = kw_cli_status(st, "times");
+            goto done;
+        }
+        tvals = malloc(want * sizeof *tvals);
+        if (!tvals) {
+            ret = kw_cli_fail("times", "out of memory");
+            goto done;
+        }
+        for (size_t i = 0; i < want; i++) {
+            tvals[i] = ((float *)times.data)[i];
+            if (tvals[i] < 0) {
+                ret = kw_cli_fail("times", "sample %zu is before the excitation (%g s)", i, tvals[i]);
                 goto done;
-            }
-            if ((st = kw_array_all_finite(&times))) {
-                ret = kw_cli_status(st, "times");
-                goto done;
-            }
-            tvals = malloc(nsamples * sizeof *tvals);
-            if (!tvals) {
-                ret = kw_cli_fail("times", "out of memory");
-                goto done;
-            }
-            for (size_t i = 0; i < nsamples; i++) {
-                tvals[i] = ((float *)times.data)[i];
-                if (tvals[i] < 0) {
-                    ret = kw_cli_fail("times", "sample %zu is before the excitation (%g s)", i,
-                                      tvals[i]);
-                    goto done;
-                }
             }
         }
+        if (a.s_bw && !a.s_traj) {
+            ret = kw_cli_fail("times", "give --times or --bandwidth for a Cartesian readout, not both");
+            goto done;
+        }
+    }
+    if (a.s_fmap) {
+        if (a.s_traj) {
+            ret = kw_cli_fail("field-map", "only with Cartesian sampling (not with --trajectory)");
+            goto done;
+        }
+        if (ndim != 2) {
+            ret = kw_cli_fail("field-map", "only for 2-D phantoms");
+            goto done;
+        }
+        if ((st = kw_npy_read(a.field_map, &fmap))) {
+            ret = kw_cli_status(st, "field-map");
+            goto done;
+        }
+        if (fmap.dtype != KW_F32 || fmap.ndim != 2 || fmap.dims[0] != n[1] || fmap.dims[1] != n[0]) {
+            ret = kw_cli_fail("field-map", "expected a real array (%zu, %zu) in Hz", n[1], n[0]);
+            goto done;
+        }
+        if ((st = kw_array_all_finite(&fmap))) {
+            ret = kw_cli_status(st, "field-map");
+            goto done;
+        }
+    }
+
+    if (nsl && (a.s_traj || a.s_fmap)) {
+        ret = kw_cli_fail("slices", "not with --trajectory or --field-map");
+        goto done;
     }
 
     /* ---- coils ---- */
@@ -661,8 +835,9 @@ int kw_cmd_encode(int argc, char **argv)
         so.traj = traj.data;
         so.nsamples = nsamples;
         so.traj_ndim = ndim;
-        so.times = tvals;
     }
+    so.times = tvals;
+    so.times_per_sample = times_full;
     so.ncoils = ncoils;
     so.coil_order = (int)a.coil_order;
     so.coil_period = COIL_PERIOD;
@@ -670,7 +845,12 @@ int kw_cmd_encode(int argc, char **argv)
 
     size_t tdims[3] = {n[2], n[1], n[0]};
     int toff = ndim == 3 ? 0 : 1;
-    if ((st = kw_array_alloc(&truth, KW_F32, ndim, tdims + toff))) {
+    if (nsl) {
+        tdims[0] = (size_t)nsl;
+        toff = 0;
+        npix = (size_t)nsl * n[0] * n[1];
+    }
+    if ((st = kw_array_alloc(&truth, KW_F32, 3 - toff, tdims + toff))) {
         ret = kw_cli_status(st, "truth");
         goto done;
     }
@@ -679,10 +859,18 @@ int kw_cmd_encode(int argc, char **argv)
         goto done;
     }
     double w[KW_PHANTOM_MAX_SHAPES];
-    kw_sim_image_weights(sim, w);
-    if ((st = kw_phantom_rasterize(&ph, n, w, ndim == 3 ? 4 : 8, truth.data))) {
-        ret = kw_cli_status(st, "truth");
-        goto done;
+    if (nsl) {
+        if ((st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
+                             (int)a.slice_points, truth.data, NULL, NULL, 0))) {
+            ret = kw_cli_status(st, "slices");
+            goto done;
+        }
+    } else {
+        kw_sim_image_weights(sim, w);
+        if ((st = kw_phantom_rasterize(&ph, n, w, ndim == 3 ? 4 : 8, truth.data))) {
+            ret = kw_cli_status(st, "truth");
+            goto done;
+        }
     }
     if (a.s_snr || a.s_ncov) {
         double scale = 1.0;
@@ -715,13 +903,15 @@ int kw_cmd_encode(int argc, char **argv)
             ret = kw_cli_fail(a.s_ncov ? "noise-cov" : "noise-corr", "not positive definite");
             goto done;
         }
-        kw_sim_destroy(sim);
-        sim = NULL;
-        so.noise_chol = chol;
-        if ((st = kw_sim_create(&sim, &so))) {
-            ret = kw_cli_status(st, "encode");
+    }
+    if (a.s_fmap) {
+        kw_fieldmap_options fo = {sim, fmap.data, 4, 0};
+        if ((st = kw_fieldmap_create(&fmp, &fo))) {
+            ret = kw_cli_status(st, "field-map");
             goto done;
         }
+        fm_err = kw_fieldmap_interp_error(fmp);
+        fm_seg = kw_fieldmap_segments(fmp);
     }
 
     size_t kdims[4];
@@ -734,6 +924,8 @@ int kw_cmd_encode(int argc, char **argv)
             kdims[kn++] = (size_t)ncoils;
         if (ndim == 3)
             kdims[kn++] = n[2];
+        if (nsl)
+            kdims[kn++] = (size_t)nsl;
         kdims[kn++] = n[1];
         kdims[kn++] = n[0];
     }
@@ -741,7 +933,16 @@ int kw_cmd_encode(int argc, char **argv)
         ret = kw_cli_status(st, "out");
         goto done;
     }
-    st = kw_sim_execute(sim, ks.data, kw_cli_progress, NULL);
+    if (nsl)
+        st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
+                        (int)a.slice_points, NULL, ks.data,
+                        (a.s_snr || a.s_ncov) ? chol : NULL, (uint64_t)a.seed);
+    else
+        st = kw_sim_execute(sim, ks.data, kw_cli_progress, NULL);
+    if (!st && fmp)
+        st = kw_fieldmap_execute(fmp, ks.data, kw_cli_progress, NULL);
+    if (!st && !nsl && (a.s_snr || a.s_ncov))
+        st = kw_sim_add_noise(sim, chol, (uint64_t)a.seed, ks.data);
     kw_cli_progress_done();
     if (st) {
         ret = kw_cli_status(st, "encode");
@@ -763,7 +964,20 @@ int kw_cmd_encode(int argc, char **argv)
     }
     kw_json_add_vec(js, "matrix", mat, ndim);
     kw_json_add_vec(js, "fov_m", fv, ndim);
-    cJSON_AddStringToObject(js, "phantom", ph.name);
+    cJSON_AddStringToObject(js, "phantom", nsl ? ph3.name : ph.name);
+    if (nsl) {
+        cJSON *so_ = cJSON_AddObjectToObject(js, "slices");
+        cJSON_AddNumberToObject(so_, "count", nsl);
+        cJSON_AddNumberToObject(so_, "thickness_m", a.slice_thk);
+        cJSON_AddNumberToObject(so_, "gap_m", a.s_slg ? a.slice_gap : 0.0);
+        double zc[256];
+        for (int i = 0; i < nsl; i++)
+            zc[i] = slice_centre(i, nsl, a.slice_thk, a.s_slg ? a.slice_gap : 0.0);
+        kw_json_add_vec(so_, "centres_m", zc, nsl);
+        cJSON_AddStringToObject(so_, "profile", "rectangular");
+        cJSON_AddNumberToObject(so_, "gauss_legendre_points", (double)a.slice_points);
+        cJSON_AddStringToObject(so_, "coil_maps", "the same 2-D maps in every slice");
+    }
     cJSON_AddNumberToObject(js, "coils", nch);
     if (a.s_snr)
         cJSON_AddNumberToObject(js, "snr", a.snr);
@@ -817,9 +1031,9 @@ int kw_cmd_encode(int argc, char **argv)
     cJSON_AddNumberToObject(prot, "te_s", con.te_s);
     if (a.s_tr)
         cJSON_AddNumberToObject(prot, "tr_s", con.tr_s);
-    if (con.seq == KW_SEQ_IR)
+    if (con.seq == KW_CONTRAST_IR)
         cJSON_AddNumberToObject(prot, "ti_s", con.ti_s);
-    if (con.seq == KW_SEQ_GRE)
+    if (con.seq == KW_CONTRAST_GRE)
         cJSON_AddNumberToObject(prot, "flip_deg", con.flip_rad * 180.0 / KW_PI);
     double fat_hz = KW_FAT_SHIFT_PPM * 1e-6 * KW_GAMMA_BAR_P * con.b0_t;
     cJSON_AddNumberToObject(prot, "fat_shift_hz", fat_hz);
@@ -834,6 +1048,14 @@ int kw_cmd_encode(int argc, char **argv)
         cJSON_AddNullToObject(prot, "bandwidth_hz");
     }
     cJSON_AddNumberToObject(prot, "df_hz", so.df_hz);
+    if (a.s_fmap) {
+        char *rp = rel_to_sidecar(a.field_map, a.out);
+        cJSON_AddStringToObject(prot, "field_map", rp ? rp : a.field_map);
+        free(rp);
+        cJSON_AddNumberToObject(prot, "field_map_oversampling", 4);
+        cJSON_AddNumberToObject(prot, "field_map_segments", fm_seg);
+        cJSON_AddNumberToObject(prot, "field_map_interp_error", fm_err);
+    }
     if (ncoils > 0) {
         cJSON *co = cJSON_AddObjectToObject(js, "coil_model");
         cJSON_AddStringToObject(co, "kind", a.s_coils ? "loop-ring" : "maps");
@@ -915,6 +1137,8 @@ done:
     kw_array_free(&times);
     kw_array_free(&sensin);
     kw_array_free(&ncovin);
+    kw_array_free(&fmap);
+    kw_fieldmap_destroy(fmp);
     free(mfull);
     free(tvals);
     free(resid);

@@ -132,6 +132,16 @@ kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
                                     const double *w, int super, double offset,
                                     float *out);
 
+/*! kw_phantom_section(): the 2-D phantom cut from the 3-D phantom `p3` at
+ * height z (phantom units): ellipsoids become ellipses scaled by
+ * sqrt(1 - ((z - cz)/c)^2), boxes rectangles; shapes the plane misses get
+ * zero axes (no signal). Tissues and parents are kept. */
+kw_status kw_phantom_section(const kw_phantom *p3, double z, kw_phantom *p2);
+
+/*! kw_gauss_legendre(): n-point Gauss-Legendre nodes x (descending) and
+ * weights w on [-1, 1] (n <= 64). */
+kw_status kw_gauss_legendre(int n, double *x, double *w);
+
 #ifdef __cplusplus
 }
 #endif

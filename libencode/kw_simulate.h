@@ -37,11 +37,14 @@ typedef struct kw_sim_options {
     int traj_ndim;
     const uint8_t *mask;
 
-    /* Timing. times: per-sample times (s; nsamples for a trajectory, nx for a
-     * Cartesian readout along x) or NULL; then Cartesian samples get
+    /* Timing. times: per-sample times (s; nsamples for a trajectory; for
+     * Cartesian sampling nx values, one per readout column, or, with
+     * times_per_sample, prod(n) values, e.g. an EPI train) or NULL; then
+     * Cartesian samples get
      * t = TE + (ix - nx/2) / bandwidth_hz when bandwidth_hz > 0, and every
      * sample t = TE otherwise. */
     const double *times;
+    int times_per_sample;
     double bandwidth_hz;    /* full receiver bandwidth across the FOV (1/dwell) */
 
     /* Contrast (used when the phantom carries tissues). */
@@ -92,6 +95,56 @@ void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own);
  * at the echo (t = TE, no off-resonance phase): the "truth" that a perfect
  * reconstruction shows. */
 void kw_sim_image_weights(const kw_sim *sim, double *w);
+
+/* ---- field maps: time-segmented, on an oversampled grid -------------------
+ *
+ * An arbitrary off-resonance map df(x) (Hz) has no analytic spectrum, so its
+ * effect is added as a perturbation computed on a fine grid: for a sample at
+ * k with phase time tau,
+ *   P(k, tau) = FT[m s (exp(-i 2 pi df tau) - 1)](k)
+ *             ~ sum_l b_l(tau) FT[m s exp(-i 2 pi df tau_l)](k) - FT[m s](k)
+ * (time segmentation with least-squares interpolators b_l(tau): Sutton,
+ * Noll & Fessler 2003, IEEE TMI 22:178), m the image at the echo rasterised
+ * on a grid `oversample` times finer than the matrix, s the coil's series,
+ * each FT a centered FFT of the fine grid (whose integer frequencies include
+ * the Cartesian samples). Decay and chemical shift inside the perturbation
+ * are those of the echo (they stay exact in the analytic term). 2-D
+ * Cartesian sampling only. */
+typedef struct kw_fieldmap_options {
+    const kw_sim *sim;       /* the simulation the perturbation is added to */
+    const float *field_hz;   /* ny x nx field map at the pixel centres (Hz) */
+    int oversample;          /* >= 4 */
+    int segments;            /* time segments L (0: chosen from the field range) */
+} kw_fieldmap_options;
+
+typedef struct kw_fieldmap kw_fieldmap;
+
+/*! kw_fieldmap_create(): plan the fine-grid FFT, rasterise the object and
+ * fit the interpolators. KW_ENOTSUP for trajectories or 3-D. */
+kw_status kw_fieldmap_create(kw_fieldmap **fm, const kw_fieldmap_options *opt);
+
+/*! kw_fieldmap_execute(): add the perturbation to `out` (the output of
+ * kw_sim_execute, before noise: run the simulation without noise, add this,
+ * then kw_sim_add_noise()). */
+kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out,
+                              kw_progress_fn progress, void *user);
+
+/*! kw_fieldmap_segments(): L used; kw_fieldmap_interp_error(): worst relative
+ * RMS error of the interpolated phase exp(-i 2 pi df tau) over the object's
+ * pixels and the readout's phase times. */
+int kw_fieldmap_segments(const kw_fieldmap *fm);
+double kw_fieldmap_interp_error(const kw_fieldmap *fm);
+
+void kw_fieldmap_destroy(kw_fieldmap *fm);
+
+/*! kw_sim_add_noise(): add the options' noise (noise_chol, seed) to `out`
+ * (kw_sim_execute adds it itself when noise_chol is set; this is for callers
+ * that add other terms first). */
+kw_status kw_sim_add_noise(const kw_sim *sim, const double complex *noise_chol,
+                           uint64_t seed, float complex *out);
+
+/*! Accessors for sim_*.c: the options the simulation was made with. */
+const kw_sim_options *kw_sim_get_options(const kw_sim *sim);
 
 #ifdef __cplusplus
 }

@@ -45,15 +45,15 @@ typedef struct kw_tissue {
  * NMR Biomed 24:784, 1.3 ppm vs 4.7 ppm; recalled from memory). */
 #define KW_FAT_SHIFT_PPM (-3.4)
 
-typedef enum kw_sequence {
-    KW_SEQ_PD = 0,  /* no sequence: the proton density itself */
-    KW_SEQ_GRE = 1, /* spoiled gradient echo (Ernst) */
-    KW_SEQ_SE = 2,  /* spin echo */
-    KW_SEQ_IR = 3   /* inversion recovery with a spin-echo readout */
-} kw_sequence;
+typedef enum kw_contrast_kind {
+    KW_CONTRAST_PD = 0,  /* no sequence: the proton density itself */
+    KW_CONTRAST_GRE = 1, /* spoiled gradient echo (Ernst) */
+    KW_CONTRAST_SE = 2,  /* spin echo */
+    KW_CONTRAST_IR = 3   /* inversion recovery with a spin-echo readout */
+} kw_contrast_kind;
 
 typedef struct kw_contrast {
-    kw_sequence seq;
+    kw_contrast_kind seq;
     double b0_t;    /* 1.5 or 3 (tissue values are tabulated there only) */
     double te_s, tr_s, ti_s;
     double flip_rad;

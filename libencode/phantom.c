@@ -99,6 +99,8 @@ int kw_shape_contains(const kw_shape *s, double x, double y, double z)
     double dx = x - s->center[0], dy = y - s->center[1], dz = z - s->center[2];
     double u = dx * c + dy * sn, v = -dx * sn + dy * c;
     double a = s->axes[0], b = s->axes[1], cz = s->axes[2];
+    if (!(a > 0) || !(b > 0))
+        return 0;
     switch (s->kind) {
     case KW_SHAPE_ELLIPSE:
         return (u / a) * (u / a) + (v / b) * (v / b) <= 1.0;
@@ -352,5 +354,64 @@ kw_status kw_phantom_make(kw_phantom *p, const char *name)
                             "shepp-logan-modified, weave, weave3d)", name);
     }
     snprintf(p->name, sizeof p->name, "%s", name);
+    return KW_OK;
+}
+
+kw_status kw_phantom_section(const kw_phantom *p3, double z, kw_phantom *p2)
+{
+    KW_FAIL_IF(!p3 || !p2, KW_EINVAL, "section: NULL argument");
+    KW_FAIL_IF(p3->ndim != 3, KW_EINVAL, "section: the phantom is not 3-D");
+    *p2 = *p3;
+    p2->ndim = 2;
+    for (int i = 0; i < p2->nshapes; i++) {
+        kw_shape *s = &p2->shapes[i];
+        double t = (z - s->center[2]) / s->axes[2];
+        double f = 0;
+        if (s->kind == KW_SHAPE_ELLIPSOID) {
+            /* the cut of an ellipsoid at height z is an ellipse with both
+             * semi-axes scaled by sqrt(1 - t^2) */
+            s->kind = KW_SHAPE_ELLIPSE;
+            f = fabs(t) < 1 ? sqrt(1 - t * t) : 0;
+        } else if (s->kind == KW_SHAPE_BOX) {
+            s->kind = KW_SHAPE_RECT;
+            f = fabs(t) <= 1 ? 1 : 0;
+        } else {
+            f = 1;
+        }
+        s->axes[0] *= f;
+        s->axes[1] *= f;
+        s->axes[2] = 0;
+        s->center[2] = 0;
+    }
+    return KW_OK;
+}
+
+kw_status kw_gauss_legendre(int n, double *x, double *w)
+{
+    KW_FAIL_IF(n < 1 || n > 64 || !x || !w, KW_EINVAL, "gauss-legendre: n = %d", n);
+    /* Newton iteration on P_n from the Chebyshev-like first guess (Abramowitz
+     * & Stegun 25.4.29 nodes; textbook construction). */
+    for (int i = 0; i < n; i++) {
+        double t = cos(KW_PI * (i + 0.75) / (n + 0.5)), dp = 1;
+        for (int it = 0; it < 100; it++) {
+            double p0 = 1, p1 = t;
+            for (int k = 2; k <= n; k++) {
+                double p2 = ((2 * k - 1) * t * p1 - (k - 1) * p0) / k;
+                p0 = p1;
+                p1 = p2;
+            }
+            if (n == 1) {
+                p1 = t;
+                p0 = 1;
+            }
+            dp = n * (t * p1 - p0) / (t * t - 1);
+            double dt = p1 / dp;
+            t -= dt;
+            if (fabs(dt) < 1e-16)
+                break;
+        }
+        x[i] = t;
+        w[i] = 2.0 / ((1 - t * t) * dp * dp);
+    }
     return KW_OK;
 }

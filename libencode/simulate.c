@@ -230,11 +230,11 @@ void kw_sim_image_weights(const kw_sim *sim, double *w)
     kw_phantom_weights(sim->o.phantom, re, w);
 }
 
-/* Sample time of Cartesian column ix or trajectory sample i. */
-static double sample_time(const kw_sim *s, size_t idx_time)
+/* Sample time of Cartesian sample i (column ix) or trajectory sample i. */
+static double sample_time(const kw_sim *s, size_t i, size_t idx_time)
 {
     if (s->o.times)
-        return s->o.times[idx_time];
+        return s->o.times[s->o.traj || s->o.times_per_sample ? i : idx_time];
     if (!s->o.traj && s->o.bandwidth_hz > 0)
         return s->o.contrast.te_s +
                ((double)idx_time - (double)(s->o.n[0] / 2)) / s->o.bandwidth_hz;
@@ -316,7 +316,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
             if (s->o.traj) {
                 const float *k = s->o.traj + i * (size_t)s->o.traj_ndim;
                 double kz = s->o.traj_ndim == 3 ? k[2] : 0.0;
-                one_sample(s, k[0], k[1], kz, sample_time(s, i), out + i, count);
+                one_sample(s, k[0], k[1], kz, sample_time(s, i, i), out + i, count);
             } else {
                 if (s->o.mask && !s->o.mask[i])
                     continue;
@@ -324,7 +324,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
                 double kx = (double)ix - (double)(nx / 2);
                 double kv = (double)iy - (double)(ny / 2);
                 double kz = nz > 1 ? (double)iz - (double)(nz / 2) : 0.0;
-                one_sample(s, kx, kv, kz, sample_time(s, ix), out + i, count);
+                one_sample(s, kx, kv, kz, sample_time(s, i, ix), out + i, count);
             }
         }
         if (progress) {
@@ -333,27 +333,40 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
                 return kw_set_error(KW_ECANCELLED, "encode: cancelled");
         }
     }
-    if (s->o.noise_chol) {
-        /* Serial, in sample-major order, so a seed gives the same noise on
-         * every machine and thread count. */
-        kw_rng r;
-        kw_rng_seed(&r, s->o.seed);
-        int nc = s->channels;
-        double complex z[256];
-        const double h = sqrt(0.5);
-        for (size_t i = 0; i < count; i++) {
-            if (!s->o.traj && s->o.mask && !s->o.mask[i])
-                continue;
-            for (int c = 0; c < nc; c++) {
-                double re = kw_rng_normal(&r), im = kw_rng_normal(&r);
-                z[c] = h * (re + I * im);
-            }
-            for (int c = 0; c < nc; c++) {
-                double complex acc = 0;
-                for (int d = 0; d <= c; d++)
-                    acc += s->o.noise_chol[(size_t)c * nc + d] * z[d];
-                out[(size_t)c * count + i] += (float complex)acc;
-            }
+    if (s->o.noise_chol)
+        return kw_sim_add_noise(s, s->o.noise_chol, s->o.seed, out);
+    return KW_OK;
+}
+
+const kw_sim_options *kw_sim_get_options(const kw_sim *sim)
+{
+    return &sim->o;
+}
+
+kw_status kw_sim_add_noise(const kw_sim *s, const double complex *chol,
+                           uint64_t seed, float complex *out)
+{
+    KW_FAIL_IF(!s || !chol || !out, KW_EINVAL, "noise: NULL argument");
+    /* Serial, in sample-major order, so a seed gives the same noise on every
+     * machine and thread count. */
+    const size_t count = s->count;
+    kw_rng r;
+    kw_rng_seed(&r, seed);
+    int nc = s->channels;
+    double complex z[256];
+    const double h = sqrt(0.5);
+    for (size_t i = 0; i < count; i++) {
+        if (!s->o.traj && s->o.mask && !s->o.mask[i])
+            continue;
+        for (int c = 0; c < nc; c++) {
+            double re = kw_rng_normal(&r), im = kw_rng_normal(&r);
+            z[c] = h * (re + I * im);
+        }
+        for (int c = 0; c < nc; c++) {
+            double complex acc = 0;
+            for (int d = 0; d <= c; d++)
+                acc += chol[(size_t)c * nc + d] * z[d];
+            out[(size_t)c * count + i] += (float complex)acc;
         }
     }
     return KW_OK;

@@ -52,16 +52,16 @@ kw_status kw_tissue_relax(int id, double b0_t, double *t1, double *t2,
 double kw_signal_steady(const kw_contrast *c, double pd, double t1)
 {
     switch (c->seq) {
-    case KW_SEQ_GRE: {
+    case KW_CONTRAST_GRE: {
         /* Ernst & Anderson 1966: steady state of a spoiled FLASH-type sequence */
         double e1 = exp(-c->tr_s / t1);
         return pd * sin(c->flip_rad) * (1 - e1) / (1 - cos(c->flip_rad) * e1);
     }
-    case KW_SEQ_SE:
+    case KW_CONTRAST_SE:
         return pd * (1 - exp(-c->tr_s / t1));
-    case KW_SEQ_IR:
+    case KW_CONTRAST_IR:
         return pd * (1 - 2 * exp(-c->ti_s / t1) + exp(-c->tr_s / t1));
-    case KW_SEQ_PD:
+    case KW_CONTRAST_PD:
     default:
         return pd;
     }
@@ -70,17 +70,17 @@ double kw_signal_steady(const kw_contrast *c, double pd, double t1)
 double kw_signal_decay(const kw_contrast *c, double t2, double t2s, double t)
 {
     switch (c->seq) {
-    case KW_SEQ_GRE:
+    case KW_CONTRAST_GRE:
         return exp(-t / t2s);
-    case KW_SEQ_SE:
-    case KW_SEQ_IR: {
+    case KW_CONTRAST_SE:
+    case KW_CONTRAST_IR: {
         /* Reversible dephasing (rate 1/T2' = 1/T2* - 1/T2) is refocused at TE. */
         double r2p = 1.0 / t2s - 1.0 / t2;
         if (r2p < 0)
             r2p = 0;
         return exp(-t / t2) * exp(-fabs(t - c->te_s) * r2p);
     }
-    case KW_SEQ_PD:
+    case KW_CONTRAST_PD:
     default:
         return 1.0;
     }
@@ -89,11 +89,11 @@ double kw_signal_decay(const kw_contrast *c, double t2, double t2s, double t)
 double kw_signal_phase_time(const kw_contrast *c, double t)
 {
     switch (c->seq) {
-    case KW_SEQ_GRE:
+    case KW_CONTRAST_GRE:
         return t;
-    case KW_SEQ_SE:
-    case KW_SEQ_IR:
-    case KW_SEQ_PD:
+    case KW_CONTRAST_SE:
+    case KW_CONTRAST_IR:
+    case KW_CONTRAST_PD:
     default:
         return t - c->te_s;
     }

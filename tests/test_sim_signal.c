@@ -16,7 +16,7 @@ Test(signal, ernst_angle_and_peak)
 {
     double a = kw_ernst_angle(0.1, 1.0);
     cr_expect(fabs(a * 180 / KW_PI - 25.1986) < 1e-4, "ernst %g", a * 180 / KW_PI);
-    kw_contrast c = {KW_SEQ_GRE, 3.0, 0.005, 0.1, 0, a};
+    kw_contrast c = {KW_CONTRAST_GRE, 3.0, 0.005, 0.1, 0, a};
     double s = kw_signal_steady(&c, 1.0, 1.0);
     cr_expect(fabs(s - 0.2235137) < 1e-6, "S(ernst) %g", s);
     /* and it is the maximum over the flip angle */
@@ -34,7 +34,7 @@ Test(signal, ernst_angle_and_peak)
  * 0.318092. */
 Test(signal, spin_echo)
 {
-    kw_contrast c = {KW_SEQ_SE, 3.0, 0.1, 2.0, 0, 0};
+    kw_contrast c = {KW_CONTRAST_SE, 3.0, 0.1, 2.0, 0, 0};
     double s = kw_signal_steady(&c, 1.0, 1.0) * kw_signal_decay(&c, 0.1, 0.05, 0.1);
     cr_expect(fabs(s - 0.3180924) < 1e-6, "SE %g", s);
     /* away from the echo the reversible part decays with 1/T2' = 1/T2* - 1/T2:
@@ -49,7 +49,7 @@ Test(signal, spin_echo)
  * is inverted: -1 + exp(-TR/T1) = -1 + e^-2 = -0.864665 (T1 = 1 s, TR = 2 s). */
 Test(signal, inversion_recovery)
 {
-    kw_contrast c = {KW_SEQ_IR, 3.0, 0.01, 100.0, log(2.0), 0};
+    kw_contrast c = {KW_CONTRAST_IR, 3.0, 0.01, 100.0, log(2.0), 0};
     cr_expect(fabs(kw_signal_steady(&c, 1.0, 1.0)) < 1e-12);
     c.tr_s = 2.0;
     c.ti_s = 0.0;
@@ -60,7 +60,7 @@ Test(signal, inversion_recovery)
  * t = 20 ms, T2* = 40 ms: e^-0.5 = 0.606531. */
 Test(signal, gre_decay)
 {
-    kw_contrast c = {KW_SEQ_GRE, 3.0, 0.02, 0.1, 0, 0.3};
+    kw_contrast c = {KW_CONTRAST_GRE, 3.0, 0.02, 0.1, 0, 0.3};
     cr_expect(fabs(kw_signal_decay(&c, 0.08, 0.04, 0.02) - 0.6065307) < 1e-6);
     cr_expect(fabs(kw_signal_phase_time(&c, 0.02) - 0.02) < 1e-15);
 }
@@ -97,7 +97,7 @@ Test(tissue, fat_frequency)
     kw_sim_options o = {0};
     o.phantom = &p;
     o.n[0] = o.n[1] = 8;
-    o.contrast.seq = KW_SEQ_GRE;
+    o.contrast.seq = KW_CONTRAST_GRE;
     o.contrast.b0_t = 3.0;
     o.contrast.te_s = 0.005;
     o.contrast.tr_s = 0.02;

@@ -171,3 +171,15 @@ def test_rasterize_area_average(lib):
     total = sum(v * np.pi * a * b for a, b, v in geo)
     got = img.sum() * (2 / 256) ** 2
     assert abs(got - total) / total < 1e-3, (got, total)
+
+
+def test_gauss_legendre_vs_scipy(lib):
+    """Nodes and weights for the slice-profile quadrature against
+    scipy.special.roots_legendre."""
+    for n in (1, 2, 5, 8, 16, 32):
+        x, w = (ctypes.c_double * n)(), (ctypes.c_double * n)()
+        assert lib.kw_gauss_legendre(n, x, w) == 0
+        order = np.argsort(x[:])
+        X, W = roots_legendre(n)
+        assert np.max(np.abs(np.array(x[:])[order] - X)) < 1e-14
+        assert np.max(np.abs(np.array(w[:])[order] - W)) < 1e-13
