@@ -22,12 +22,7 @@
 
 /* Spiral and EPI come from the planner's gradient design (kw_gradient.h),
  * so that a trajectory is one the hardware can play. */
-#if defined(__has_include)
-#if __has_include("kw_gradient.h")
 #include "kw_gradient.h"
-#define KW_HAVE_GRADIENT 1
-#endif
-#endif
 #include <dlfcn.h>
 
 #define MAX_COMPARE 8
@@ -1260,13 +1255,6 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
  * ADC sample times. */
 static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nmat)
 {
-#ifndef KW_HAVE_GRADIENT
-    (void)mat;
-    (void)nmat;
-    (void)spiral;
-    return kw_cli_fail("kind", "%s is not available yet: it needs the gradient design "
-                               "of `kweave plan` (libencode/kw_gradient.h)", g->kind);
-#else
     size_t nx = mat[0], ny = nmat > 1 ? mat[1] : mat[0];
     if (nmat > 2)
         return kw_cli_fail("matrix", "--kind %s is 2-D: NX or NXxNY", g->kind);
@@ -1465,7 +1453,6 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
     kw_array_free(&k);
     kw_array_free(&t);
     return rc;
-#endif
 }
 
 int kw_cmd_pattern(int argc, char **argv)

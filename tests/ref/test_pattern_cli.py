@@ -235,20 +235,7 @@ def test_bad_input(tmp_path):
     bad("pattern", "--compare", field="compare")
 
 
-def gradient_available(tmp_path):
-    p = run("pattern", "--kind", "spiral", "--matrix", "32", check=False)
-    if p.returncode == 2 and "not available yet" in p.stderr:
-        # before the planner's gradient design lands: one clear line, exit 2
-        bad("pattern", "--kind", "spiral", "--matrix", "32", field="kind")
-        bad("pattern", "--kind", "epi", "--matrix", "32", field="kind")
-        return False
-    assert p.returncode == 0, p.stderr
-    return True
-
-
 def test_spiral_from_the_gradient_design(tmp_path):
-    if not gradient_available(tmp_path):
-        pytest.skip("kw_gradient.h not merged yet")
     out = tmp_path / "sp.npy"
     p = run("pattern", "--kind", "spiral", "--matrix", "64", "--fov", "220mm", "--interleaves", "8",
             "--dwell", "4us", "--out", out, "--json", tmp_path / "a.json")
@@ -276,8 +263,6 @@ def test_spiral_from_the_gradient_design(tmp_path):
 
 
 def test_epi_from_the_gradient_design(tmp_path):
-    if not gradient_available(tmp_path):
-        pytest.skip("kw_gradient.h not merged yet")
     out = tmp_path / "epi.npy"
     run("pattern", "--kind", "epi", "--matrix", "64", "--shots", "2", "--fraction", "0.75",
         "--out", out, "--json", tmp_path / "a.json")
