@@ -12,6 +12,7 @@
 
 #include "cli.h"
 #include "jsonio.h"
+#include "kw_dcf.h"
 #include "kw_psf.h"
 #include "kw_sampling.h"
 #include "kw_traj.h"
@@ -275,14 +276,14 @@ static int analyse_cartesian(analysis *a, const float *w)
     return KW_OK;
 }
 
-enum { W_NONE = 0, W_RADIAL = 1, W_PATH = 2 };
+enum { W_NONE = 0, W_RADIAL = 1, W_PIPE = 2 };
 
 /* trajectory information from its sidecar */
 typedef struct traj_info {
     size_t n, nz, readout, spokes;
     int ndim;
     int radial;  /* full-spoke radial family: Nyquist spokes pi N / 2 */
-    int weights; /* W_NONE, W_RADIAL (area ramp), W_PATH (spiral strips) */
+    int weights; /* W_NONE, W_RADIAL (area ramp), W_PIPE (Pipe-Menon) */
 } traj_info;
 
 /* largest distance from a sample to the nearest sample of another readout,
@@ -396,9 +397,14 @@ static int analyse_traj(analysis *a, const kw_array *t, const traj_info *ti, siz
         KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
         kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->readout, .nz = 1,
                           .spokes = a->spokes, .dwell_s = 1, .te_s = 1};
-        st = ti->weights == W_RADIAL
-                 ? kw_traj_radial_weights(&o, w)
-                 : kw_traj_path_weights(kp, stride, count, ti->readout, 1.0, w);
+        if (ti->weights == W_RADIAL) {
+            st = kw_traj_radial_weights(&o, w);
+        } else {
+            /* Pipe & Menon 1999 iterative weights (recon/kw_dcf.h); the grid
+             * is 4 points wider so k-max = N/2 lies inside [-M/2, M/2) */
+            size_t dd[2] = {ti->n + 4, ti->n + 4};
+            st = kw_dcf_pipe(2, dd, count, kp, 0, NULL, w);
+        }
         if (st) {
             free(w);
             return st;
@@ -529,7 +535,7 @@ static int analyse_file(const char *path, analysis *a, long psf_size)
         }
         ti.radial = pk && (strcmp(pk, "radial") == 0 || strcmp(pk, "golden") == 0 ||
                            strcmp(pk, "stack-of-stars") == 0);
-        ti.weights = ti.radial ? W_RADIAL : (pk && strcmp(pk, "spiral") == 0) ? W_PATH : W_NONE;
+        ti.weights = ti.radial ? W_RADIAL : (pk && strcmp(pk, "spiral") == 0) ? W_PIPE : W_NONE;
         if (ti.radial && ti.readout != ti.n) {
             rc = kw_cli_fail("readout_samples", "%zu differs from the matrix %zu", ti.readout,
                              ti.n);
@@ -665,7 +671,7 @@ static cJSON *analysis_json(const analysis *a)
     if (!a->cartesian)
         cJSON_AddStringToObject(o, "psf_weights",
                                 a->weights == W_RADIAL ? "radial area (ramp)"
-                                : a->weights == W_PATH ? "spiral path area (step x 1 delta-k)"
+                                : a->weights == W_PIPE ? "Pipe-Menon 1999 (iterative)"
                                                        : "none");
     add_num(o, "tpsf_incoherence", tpsf_max(a));
     if (a->tpsf_levels) {
@@ -725,7 +731,7 @@ static void analysis_text(FILE *f, const analysis *a)
     if (!a->cartesian)
         fprintf(f, "  PSF by direct NDFT on %zu x %zu pixels%s\n", a->psfdims[0], a->psfdims[1],
                 a->weights == W_RADIAL ? ", radial area weights"
-                : a->weights == W_PATH ? ", spiral path-area weights" : ", unit weights");
+                : a->weights == W_PIPE ? ", Pipe-Menon weights" : ", unit weights");
 }
 
 /* |psf| in dB over the peak, floored at PSF_DB_FLOOR, mapped to 0..1 */
@@ -1428,7 +1434,7 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
         snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
         snprintf(a.kind, sizeof a.kind, "%s", g->kind);
         traj_info ti = {.n = nx, .nz = 1, .readout = readout, .spokes = readouts, .ndim = 2,
-                        .radial = 0, .weights = spiral ? W_PATH : W_NONE};
+                        .radial = 0, .weights = spiral ? W_PIPE : W_NONE};
         size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
         st = analyse_traj(&a, &k, &ti, m);
         if (st)

@@ -79,15 +79,6 @@ kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
  * one plane (spokes * n). */
 kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w);
 
-/*! kw_traj_path_weights(): the area a sample of a trajectory made of
- * readouts of `readout` samples stands for when neighbouring readout paths
- * lie `spacing` delta-k apart (an interleaved Archimedean spiral: 1):
- * w = spacing x |k[s+1] - k[s-1]| / 2 (one-sided at the ends of a readout):
- * a strip of that width along the path (geometry; exact for parallel
- * straight paths, approximate near the centre of a spiral). */
-kw_status kw_traj_path_weights(const float *k, size_t stride, size_t samples, size_t readout,
-                               double spacing, float *w);
-
 #ifdef __cplusplus
 }
 #endif

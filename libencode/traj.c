@@ -93,17 +93,3 @@ kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w)
     return KW_OK;
 }
 
-kw_status kw_traj_path_weights(const float *k, size_t stride, size_t samples, size_t readout,
-                               double spacing, float *w)
-{
-    KW_FAIL_IF(!k || !w || stride < 2 || readout < 2 || samples % readout || !(spacing > 0),
-               KW_EINVAL, "weights: bad arguments");
-    for (size_t s = 0; s < samples; s++) {
-        size_t j = s % readout;
-        size_t a = j > 0 ? s - 1 : s, b = j + 1 < readout ? s + 1 : s;
-        double dx = (double)k[b * stride] - (double)k[a * stride];
-        double dy = (double)k[b * stride + 1] - (double)k[a * stride + 1];
-        w[s] = (float)(spacing * sqrt(dx * dx + dy * dy) / (double)(b - a));
-    }
-    return KW_OK;
-}

@@ -259,7 +259,7 @@ def test_spiral_from_the_gradient_design(tmp_path):
     assert np.max(np.abs(c - c0 * np.exp(2j * np.pi / 8))) < 1e-3
     assert np.allclose(np.diff(t[:ns]), 4e-6, atol=1e-9)
     a = json.loads((tmp_path / "a.json").read_text())
-    assert a["psf_weights"].startswith("spiral") and a["max_gap_dk"] < 1.2
+    assert a["psf_weights"].startswith("Pipe-Menon") and a["max_gap_dk"] < 1.2
 
 
 def test_epi_from_the_gradient_design(tmp_path):
