@@ -1590,6 +1590,11 @@ int kw_cmd_pattern(int argc, char **argv)
     for (size_t i = 0; i < sizeof kinds / sizeof kinds[0]; i++) {
         if (strcmp(g.kind, kinds[i].name) != 0)
             continue;
+        const char *hw = g.seen_fov ? "fov" : g.seen_gmax ? "gmax" : g.seen_slew ? "slew"
+                         : g.seen_raster ? "raster" : g.seen_interleaves ? "interleaves"
+                         : g.seen_shots ? "shots" : NULL;
+        if (hw)
+            return kw_cli_fail(hw, "only used by --kind spiral or epi");
         if (kinds[i].cart) {
             if (g.seen_spokes || g.seen_tiny || g.seen_dwell || g.seen_te)
                 return kw_cli_fail(g.seen_spokes ? "spokes" : g.seen_tiny ? "tiny"

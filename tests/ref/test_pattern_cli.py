@@ -233,6 +233,12 @@ def test_bad_input(tmp_path):
     np.save(z, np.zeros((8, 8), np.uint8))
     bad("pattern", "--analyse", z, field="z.npy")
     bad("pattern", "--compare", field="compare")
+    bad("pattern", "--kind", "uniform", "--matrix", "64x64", "--accel", "2", "--gmax", "40mT/m",
+        field="gmax")
+    bad("pattern", "--kind", "radial", "--matrix", "64", "--shots", "2", field="shots")
+    bad("pattern", "--kind", "spiral", "--matrix", "64", "--interleaves", "0", field="interleaves")
+    bad("pattern", "--kind", "epi", "--matrix", "64", "--fraction", "0.4", field="fraction")
+    bad("pattern", "--kind", "spiral", "--matrix", "64", "--fov", "256", field="fov")
 
 
 def test_spiral_from_the_gradient_design(tmp_path):
