@@ -118,6 +118,22 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
         KW_FAIL_IF(!cov, KW_ENOMEM, "noise-cov: out of memory");
         for (size_t i = 0; i < c->nc * c->nc; i++)
             cov[i] = q->dtype == KW_C64 ? ((float complex *)q->data)[i] : ((float *)q->data)[i];
+        /* Whiten with the covariance scaled to unit mean variance: coil noise
+         * is decorrelated and equalised while the image keeps the units of
+         * the data (so a fully sampled acquisition still reconstructs to the
+         * object's intensities, and scores against a truth stay meaningful).
+         * Relative noise levels, SENSE and g-factors are unaffected: every
+         * coil and every map is scaled by the same constant. */
+        double mean_var = 0;
+        for (size_t i = 0; i < c->nc; i++)
+            mean_var += crealf(cov[i * c->nc + i]);
+        mean_var /= (double)c->nc;
+        if (!(mean_var > 0) || !isfinite(mean_var)) {
+            free(cov);
+            return kw_set_error(KW_ENUMERIC, "noise-cov: the diagonal (coil noise variances) must be positive");
+        }
+        for (size_t i = 0; i < c->nc * c->nc; i++)
+            cov[i] /= (float)mean_var;
         st = kw_prewhiten_matrix(cov, c->nc, c->wht);
         free(cov);
         if (st)
