@@ -114,9 +114,18 @@ asan: deps-test
 	ASAN_OPTIONS=detect_leaks=1:abort_on_error=0 UBSAN_OPTIONS=print_stacktrace=1:halt_on_error=1 \
 	  $(MAKE) BUILD=build/asan SAN=1 test
 
+# Criterion runs each test in a child process and ignores the child's exit
+# code, so valgrind's verdict is read from its per-process logs instead: any
+# line in them (-q keeps only errors and definite leaks) fails the target.
 valgrind: all $(BUILD)/kw_tests
+	@rm -rf $(BUILD)/valgrind && mkdir -p $(BUILD)/valgrind
 	valgrind --error-exitcode=9 --leak-check=full --errors-for-leak-kinds=definite \
-	  --trace-children=yes -q $(BUILD)/kw_tests --jobs 1
+	  --show-leak-kinds=definite --trace-children=yes \
+	  --trace-children-skip='/bin/*,/usr/bin/*,*/sh' -q \
+	  --log-file=$(BUILD)/valgrind/vg.%p.log $(BUILD)/kw_tests --jobs 1 $(VALGRIND_ARGS)
+	@if cat $(BUILD)/valgrind/vg.*.log | grep -q .; then cat $(BUILD)/valgrind/vg.*.log; \
+	  echo "valgrind: errors above (logs in $(BUILD)/valgrind/)"; exit 1; fi
+	@echo "valgrind: no errors, no definite leaks ($$(ls $(BUILD)/valgrind | wc -l) processes)"
 
 # ---- benchmarks (figures side by side as ratios; never timed tests) ---------
 $(BUILD)/kw_bench: bench/bench.c $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
@@ -148,7 +157,7 @@ clean:
 FUZZ_CC ?= clang
 FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
 FUZZ_DEP_SRC := libencode/base.c cli/npy.c cli/outfile.c cli/jsonio.c cli/units.c cli/cli.c \
-                $(wildcard cli/protofile.c) $(FUZZ_EXTRA_SRC)
+                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c) $(FUZZ_EXTRA_SRC)
 FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
               -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \
               -Ilibencode -Irecon -Icli $(PKG_CFLAGS)
@@ -169,6 +178,7 @@ fuzz: $(FUZZ_TARGETS:%=$(BUILD)/fuzz/fuzz_%)
 fuzz-run: $(BUILD)/fuzz/fuzz_$(FUZZ)
 	@mkdir -p $(BUILD)/fuzz/corpus-$(FUZZ) $(BUILD)/fuzz/artifacts-$(FUZZ)
 	$(BUILD)/fuzz/fuzz_$(FUZZ) -max_total_time=$(FUZZ_TIME) -rss_limit_mb=2048 -timeout=10 \
+	  $(if $(filter protofile,$(FUZZ)),-close_fd_mask=2) \
 	  -print_final_stats=1 -artifact_prefix=$(BUILD)/fuzz/artifacts-$(FUZZ)/ \
 	  $(BUILD)/fuzz/corpus-$(FUZZ) tests/fuzz/$(FUZZ)
 

@@ -5,6 +5,7 @@
 #include <errno.h>
 #include <fcntl.h>
 #include <signal.h>
+#include <stdatomic.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
@@ -35,6 +36,21 @@ void kw_outfile_install_signal_handlers(void)
     sigaction(SIGINT, &sa, NULL);
     sigaction(SIGTERM, &sa, NULL);
     sigaction(SIGHUP, &sa, NULL);
+    /* A reader that goes away (kweave ... | head) also ends the run. */
+    sigaction(SIGPIPE, &sa, NULL);
+}
+
+/* Block the cleanup signals while a temporary file is created and entered
+ * in the table, so that none can slip between the two. */
+static void block_signals(sigset_t *old)
+{
+    sigset_t s;
+    sigemptyset(&s);
+    sigaddset(&s, SIGINT);
+    sigaddset(&s, SIGTERM);
+    sigaddset(&s, SIGHUP);
+    sigaddset(&s, SIGPIPE);
+    sigprocmask(SIG_BLOCK, &s, old);
 }
 
 static int claim_slot(const char *name)
@@ -44,6 +60,8 @@ static int claim_slot(const char *name)
     for (int i = 0; i < MAX_OPEN; i++) {
         if (!tmp_used[i]) {
             strcpy(tmp_names[i], name);
+            /* The name must be complete before the handler may read it. */
+            atomic_signal_fence(memory_order_seq_cst);
             tmp_used[i] = 1;
             return i;
         }
@@ -95,7 +113,12 @@ kw_status kw_outfile_open(kw_outfile *o, const char *path)
     const char *slash = strrchr(path, '/');
     size_t dirlen = slash ? (size_t)(slash - path + 1) : 0;
     snprintf(o->tmp, n, "%.*s.%s.kw-XXXXXX", (int)dirlen, path, path + dirlen);
+    sigset_t old;
+    block_signals(&old);
     int fd = mkstemp(o->tmp);
+    if (fd >= 0)
+        o->slot = claim_slot(o->tmp);
+    sigprocmask(SIG_SETMASK, &old, NULL);
     if (fd < 0) {
         int e = errno;
         free(o->tmp);
@@ -105,7 +128,6 @@ kw_status kw_outfile_open(kw_outfile *o, const char *path)
         return kw_set_error(KW_EIO, "%s: cannot write here: %s", path, strerror(e));
     }
     fchmod(fd, 0644 & ~0022);
-    o->slot = claim_slot(o->tmp);
     o->fp = fdopen(fd, "wb");
     if (!o->fp) {
         close(fd);
@@ -136,15 +158,20 @@ kw_status kw_outfile_commit(kw_outfile *o)
         kw_outfile_abort(o);
         return kw_set_error(KW_EIO, "%s: write failed: %s", what, strerror(e));
     }
-    if (o->tmp && rename(o->tmp, o->path) != 0) {
-        e = errno;
+    sigset_t old;
+    block_signals(&old);
+    int rc = o->tmp ? rename(o->tmp, o->path) : 0;
+    e = errno;
+    if (rc == 0)
+        release_slot(o->slot); /* the name now belongs to the finished file */
+    sigprocmask(SIG_SETMASK, &old, NULL);
+    if (rc != 0) {
         char what[256];
         snprintf(what, sizeof what, "%s", o->path);
         kw_outfile_abort(o);
         return kw_set_error(KW_EIO, "%s: cannot rename into place: %s", what,
                             strerror(e));
     }
-    release_slot(o->slot);
     free(o->tmp);
     free(o->path);
     memset(o, 0, sizeof *o);

@@ -19,6 +19,10 @@ typedef struct kw_cart {
     kw_cart_sampling smp; /* acceleration, ACS, partial Fourier: from the data */
 } kw_cart;
 
+/* `kweave recon --sens-out FILE.npy`: where kw_cart_setup() writes the
+ * sensitivities it estimates (NULL: not written). Set by cmd_recon.c. */
+extern const char *kw_cart_sens_out;
+
 /*! kw_cart_setup(): copy and whiten the job's k-space and maps, analyse the
  * sampling (checked against the sidecar's "acceleration"/"acs_lines"). */
 kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c);

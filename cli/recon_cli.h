@@ -56,6 +56,10 @@ typedef struct kw_recon_method {
 
 /* Method entry points (one per cli/recon_<name>.c). */
 kw_status kw_recon_run_fft(kw_recon_job *job);
+kw_status kw_recon_run_homodyne(kw_recon_job *job);
+kw_status kw_recon_run_pocs(kw_recon_job *job);
+kw_status kw_recon_run_sense(kw_recon_job *job);
+kw_status kw_recon_run_grappa(kw_recon_job *job);
 
 kw_status kw_recon_run_grid(kw_recon_job *job);        /* recon_grid.c */
 kw_status kw_recon_run_cg_sense(kw_recon_job *job);    /* recon_cgsense.c */

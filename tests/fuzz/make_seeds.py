@@ -54,3 +54,20 @@ for i, s in enumerate(["256mm", "0.25m", "40mT/m", "150T/m/s", "3T", "32kHz", "2
                        "1.5rad", "3.5ppm", "100Hz/px", "2GiB", "512MiB", "1e-3s", "-5mm",
                        "nan", "inf", "1e400T"]):
     put("units", f"{i:02d}", s)
+
+protos = {
+    "basic": "# a 2-D gradient echo\nsequence = gre\nfov = 256mm\nmatrix = 256\nbandwidth = 32kHz\n"
+             "b0 = 3T\ngmax = 40mT/m\nslew = 150T/m/s\n",
+    "rect": "fov = 256mm,192mm\nmatrix = 256x192\nbandwidth = 250Hz/pixel\nb0 = 1.5T\n"
+            "te = 4.6ms\ntr = 10ms\ntemperature = 310K\n",
+    "3d": "fov = 256mm, 256mm, 128mm   # x, y, z\nmatrix = 128x128x64\nbandwidth = 50kHz\n"
+          "raster = 10us\nrf-duration = 2ms\ntbw = 4\nslice = 5mm\n",
+    "epi": "sequence = epi\nfov = 220mm\nmatrix = 64\nbandwidth = 2000Hz/pixel\nshots = 1\n"
+           "partial-fourier = 0.75\nt2star = 30ms\nmax-readout = 60ms\n",
+    "radial": "sequence = radial\nfov = 256mm\nmatrix = 128\nbandwidth = 64kHz\nspokes = 201\n"
+              "averages = 2\nspoiler = 4\ncrusher = 2\ninterleaves = 8\n",
+    "crlf": "fov = 256mm\r\nmatrix = 64\r\nbandwidth = 32kHz\r\n",
+    "bad": "fov 256mm\nmatrix = = 3\n= 5\n",
+}
+for name, text in protos.items():
+    put("protofile", name, text)
