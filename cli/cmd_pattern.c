@@ -12,6 +12,7 @@
 
 #include "cli.h"
 #include "jsonio.h"
+#include "kw_dcf.h"
 #include "kw_psf.h"
 #include "kw_sampling.h"
 #include "kw_traj.h"
@@ -20,10 +21,23 @@
 #include "outfile.h"
 #include "png.h"
 
+/* Spiral and EPI come from the planner's gradient design (kw_gradient.h),
+ * so that a trajectory is one the hardware can play. */
+#include "kw_gradient.h"
+#include <dlfcn.h>
+
 #define MAX_COMPARE 8
 #define PSF_DB_FLOOR -60.0  /* picture window: common practice, no source */
 #define TPSF_ORDER 4        /* db4, as in the compressed-sensing literature */
 #define TPSF_MAX_LEVELS 4
+/* defaults shared with `kweave plan` (common practice, no source) */
+#define DEFAULT_BW_PER_PIXEL 250.0 /* Hz/pixel: dwell = 1 / (250 N) */
+#define DEFAULT_FOV_M 0.256
+#define DEFAULT_GMAX 40e-3
+#define DEFAULT_SLEW 150.0
+#define DEFAULT_RASTER 10e-6
+#define DEFAULT_FAST_DWELL 4e-6    /* spiral/EPI ADC dwell, s: common practice, no source */
+#define DEFAULT_MAX_READOUT 10e-3 /* spiral interleaf, s: common practice, no source */
 
 static const char *USAGE =
     "usage: kweave pattern --kind KIND --matrix NXxNY[xNZ] [options] [--out F.npy]\n"
@@ -103,6 +117,7 @@ typedef struct analysis {
     double tpsf[TPSF_MAX_LEVELS];
     int tpsf_levels;       /* 0: not computed */
     double nyquist_spokes; /* radial: pi N / 2, else NaN */
+    int weights;           /* non-Cartesian PSF weights: W_* */
     size_t spokes;
     float *picture;        /* mask or trajectory picture, values 0..1 (owned) */
     size_t pic_h, pic_w;
@@ -261,11 +276,14 @@ static int analyse_cartesian(analysis *a, const float *w)
     return KW_OK;
 }
 
+enum { W_NONE = 0, W_RADIAL = 1, W_PIPE = 2 };
+
 /* trajectory information from its sidecar */
 typedef struct traj_info {
     size_t n, nz, readout, spokes;
     int ndim;
-    int radial; /* full-spoke radial family: ramp weights apply */
+    int radial;  /* full-spoke radial family: Nyquist spokes pi N / 2 */
+    int weights; /* W_NONE, W_RADIAL (area ramp), W_PIPE (Pipe-Menon) */
 } traj_info;
 
 /* largest distance from a sample to the nearest sample of another readout,
@@ -365,18 +383,32 @@ static int analyse_traj(analysis *a, const kw_array *t, const traj_info *ti, siz
     a->spokes = count / ti->readout;
     a->nyquist_spokes = ti->radial ? (double)kw_traj_nyquist_spokes(ti->n) : NAN;
     a->acceleration = ti->radial ? KW_PI * (double)ti->n / 2.0 / (double)a->spokes : NAN;
+    if (!ti->radial && ti->weights == W_NONE) /* EPI: a Cartesian subset */
+        a->acceleration = (double)ti->n * (double)ti->n / (double)count;
+    a->weights = ti->weights;
     a->acs_lines = NAN;
     kw_status st = traj_gap(kp, stride, count, ti->readout, ti->n, &a->max_gap);
     if (st)
         return st;
     a->gap_axis[0] = a->gap_axis[1] = NAN;
     float *w = NULL;
-    if (ti->radial) {
+    if (ti->weights != W_NONE) {
         w = malloc(count * sizeof *w);
         KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
         kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->readout, .nz = 1,
                           .spokes = a->spokes, .dwell_s = 1, .te_s = 1};
-        kw_traj_radial_weights(&o, w);
+        if (ti->weights == W_RADIAL) {
+            st = kw_traj_radial_weights(&o, w);
+        } else {
+            /* Pipe & Menon 1999 iterative weights (recon/kw_dcf.h); the grid
+             * is 4 points wider so k-max = N/2 lies inside [-M/2, M/2) */
+            size_t dd[2] = {ti->n + 4, ti->n + 4};
+            st = kw_dcf_pipe(2, dd, count, kp, 0, NULL, w);
+        }
+        if (st) {
+            free(w);
+            return st;
+        }
     }
     size_t m = psf_size;
     a->psfrank = 2;
@@ -503,6 +535,7 @@ static int analyse_file(const char *path, analysis *a, long psf_size)
         }
         ti.radial = pk && (strcmp(pk, "radial") == 0 || strcmp(pk, "golden") == 0 ||
                            strcmp(pk, "stack-of-stars") == 0);
+        ti.weights = ti.radial ? W_RADIAL : (pk && strcmp(pk, "spiral") == 0) ? W_PIPE : W_NONE;
         if (ti.radial && ti.readout != ti.n) {
             rc = kw_cli_fail("readout_samples", "%zu differs from the matrix %zu", ti.readout,
                              ti.n);
@@ -637,7 +670,9 @@ static cJSON *analysis_json(const analysis *a)
     cJSON_AddStringToObject(o, "psf_method", a->cartesian ? "fft" : "ndft");
     if (!a->cartesian)
         cJSON_AddStringToObject(o, "psf_weights",
-                                isfinite(a->nyquist_spokes) ? "radial area (ramp)" : "none");
+                                a->weights == W_RADIAL ? "radial area (ramp)"
+                                : a->weights == W_PIPE ? "Pipe-Menon 1999 (iterative)"
+                                                       : "none");
     add_num(o, "tpsf_incoherence", tpsf_max(a));
     if (a->tpsf_levels) {
         cJSON_AddStringToObject(o, "tpsf_wavelet", "db4");
@@ -667,10 +702,18 @@ static void analysis_text(FILE *f, const analysis *a)
             fprintf(f, "  ACS lines               %g\n", a->acs_lines);
         fprintf(f, "  largest gap             %g delta-k\n", a->max_gap);
     } else {
-        fprintf(f, "  spokes                  %zu per plane (Nyquist: %g)\n", a->spokes,
-                a->nyquist_spokes);
-        fprintf(f, "  acceleration            %.3f (pi N/2 over spokes); sampled fraction %.4f "
-                   "of the N x N grid\n", a->acceleration, a->sampled_fraction);
+        if (a->weights == W_RADIAL) {
+            fprintf(f, "  spokes                  %zu per plane (Nyquist: %g)\n", a->spokes,
+                    a->nyquist_spokes);
+            fprintf(f, "  acceleration            %.3f (pi N/2 over spokes); sampled fraction "
+                       "%.4f of the N x N grid\n", a->acceleration, a->sampled_fraction);
+        } else {
+            fprintf(f, "  readouts                %zu\n", a->spokes);
+            if (isfinite(a->acceleration))
+                fprintf(f, "  acceleration            %.3f (grid points over samples)\n",
+                        a->acceleration);
+            fprintf(f, "  sampled fraction        %.4f of the N x N grid\n", a->sampled_fraction);
+        }
         fprintf(f, "  largest gap             %.3f delta-k\n", a->max_gap);
     }
     fprintf(f, "  PSF main lobe (FWHM)    %.2f pixels", fwhm_main(a));
@@ -687,7 +730,8 @@ static void analysis_text(FILE *f, const analysis *a)
     }
     if (!a->cartesian)
         fprintf(f, "  PSF by direct NDFT on %zu x %zu pixels%s\n", a->psfdims[0], a->psfdims[1],
-                isfinite(a->nyquist_spokes) ? ", radial area weights" : ", unit weights");
+                a->weights == W_RADIAL ? ", radial area weights"
+                : a->weights == W_PIPE ? ", Pipe-Menon weights" : ", unit weights");
 }
 
 /* |psf| in dB over the peak, floored at PSF_DB_FLOOR, mapped to 0..1 */
@@ -733,6 +777,19 @@ static int write_psf_png(const char *path, const analysis *a)
 
 #define PANEL 256
 #define LABEL 28
+
+/* Release cairo's and fontconfig's process-wide caches after the picture so
+ * leak checkers (make asan) see nothing held by the font system (the same
+ * measure as cli/plot.c); FcFini is looked up at run time because kweave
+ * does not link fontconfig itself. */
+static void release_font_caches(void)
+{
+    cairo_debug_reset_static_data();
+    void (*fc_fini)(void);
+    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
+    if (fc_fini)
+        fc_fini();
+}
 
 /* draw a gray picture (values 0..1, h x w) scaled into a PANEL square */
 static void draw_panel(cairo_t *cr, const float *v, size_t h, size_t w, double x0, double y0)
@@ -815,6 +872,7 @@ static int compare_png(const char *path, analysis *as, int n)
     free(rgb);
     cairo_destroy(cr);
     cairo_surface_destroy(surf);
+    release_font_caches();
     return st ? kw_cli_status(st, "png") : -1;
 }
 
@@ -857,8 +915,9 @@ static void compare_table(FILE *f, const analysis *as, int n)
 typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
     const char *times;
-    double fraction, power, dwell, te;
-    long shift, spokes, seed, tiny, psf_size;
+    double fraction, power, dwell, te, fov, gmax, slew, raster;
+    long shift, spokes, seed, tiny, psf_size, interleaves, shots;
+    int seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
     int ellipse, compare;
     int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
         seen_dwell, seen_ellipse, seen_accel, seen_acs;
@@ -1090,7 +1149,7 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
                                     : (g->seen_tiny ? (int)g->tiny : 0);
     if (g->seen_tiny && (g->tiny < 1 || g->tiny > 1000))
         return kw_cli_fail("tiny", "%ld outside 1..1000", g->tiny);
-    o.dwell_s = g->seen_dwell ? g->dwell : 10e-6;
+    o.dwell_s = g->seen_dwell ? g->dwell : 1.0 / (DEFAULT_BW_PER_PIXEL * (double)nx);
     o.te_s = g->seen_te ? g->te : 0.5 * (double)nx * o.dwell_s;
     size_t ns;
     int nd;
@@ -1174,7 +1233,7 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
         snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
         snprintf(a.kind, sizeof a.kind, "%s", g->kind);
         traj_info ti = {.n = nx, .nz = o.nz, .readout = nx, .spokes = o.spokes, .ndim = nd,
-                        .radial = 1};
+                        .radial = 1, .weights = W_RADIAL};
         size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
         st = analyse_traj(&a, &k, &ti, m);
         if (st)
@@ -1187,6 +1246,211 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
                                                                      : "uniform");
             printf("  readout                 %zu samples, dwell %g us, k = 0 at %g ms\n", o.n,
                    o.dwell_s * 1e6, o.te_s * 1e3);
+            rc = report_generated(g, &a);
+            printf("%s\n", KW_SAFETY_CAUTION);
+        }
+        analysis_free(&a);
+    }
+    kw_array_free(&k);
+    kw_array_free(&t);
+    return rc;
+}
+
+/* Spiral (interleaved Archimedean) and EPI from the planner's gradient
+ * design: the trajectory the hardware plays under --gmax / --slew, with the
+ * ADC sample times. */
+static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nmat)
+{
+    size_t nx = mat[0], ny = nmat > 1 ? mat[1] : mat[0];
+    if (nmat > 2)
+        return kw_cli_fail("matrix", "--kind %s is 2-D: NX or NXxNY", g->kind);
+    if (nx != ny)
+        return kw_cli_fail("matrix", "%s trajectories here need a square matrix (got %zux%zu)",
+                           g->kind, nx, ny);
+    if (nx < 8 || nx > 1024 || nx % 2)
+        return kw_cli_fail("matrix", "N = %zu outside 8..1024 or odd", nx);
+    if (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny)
+        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
+                           : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
+                           "not used by --kind %s", g->kind);
+    if (spiral && (g->seen_shots || g->seen_fraction))
+        return kw_cli_fail(g->seen_shots ? "shots" : "fraction", "not used by --kind spiral");
+    if (!spiral && g->seen_interleaves)
+        return kw_cli_fail("interleaves", "not used by --kind epi (use --shots)");
+    kw_gradient_limits lim = {g->seen_gmax ? g->gmax : DEFAULT_GMAX,
+                              g->seen_slew ? g->slew : DEFAULT_SLEW,
+                              g->seen_raster ? g->raster : DEFAULT_RASTER};
+    if (!(lim.gmax_T_per_m > 0) || !(lim.slew_T_per_m_per_s > 0) || !(lim.raster_s > 0))
+        return kw_cli_fail(!(lim.gmax_T_per_m > 0) ? "gmax" : !(lim.slew_T_per_m_per_s > 0)
+                                                              ? "slew" : "raster",
+                           "must be positive");
+    double fov = g->seen_fov ? g->fov : DEFAULT_FOV_M;
+    if (!(fov > 0))
+        return kw_cli_fail("fov", "must be positive");
+    double dwell = g->seen_dwell ? g->dwell : DEFAULT_FAST_DWELL;
+    if (!(dwell > 0))
+        return kw_cli_fail("dwell", "must be positive");
+    kw_array k = {0}, t = {0};
+    size_t readout = 0, readouts = 0, ns = 0;
+    double extra[4] = {0};
+    kw_status st;
+    int interleaves = 0;
+    kw_epi_spec es;
+    kw_epi_info ei;
+    if (spiral) {
+        kw_spiral_spec sp = {fov, (int)nx, 1, dwell};
+        kw_spiral_info si;
+        if (g->seen_interleaves) {
+            if (g->interleaves < 1 || g->interleaves > 4096)
+                return kw_cli_fail("interleaves", "%ld outside 1..4096", g->interleaves);
+            sp.interleaves = (int)g->interleaves;
+            st = kw_spiral_size(&sp, &lim, &si);
+        } else {
+            st = kw_spiral_interleaves_for(&sp, &lim, DEFAULT_MAX_READOUT, &sp.interleaves, &si);
+        }
+        if (st)
+            return kw_cli_status(st, "spiral");
+        interleaves = sp.interleaves;
+        readout = si.samples;
+        readouts = (size_t)sp.interleaves;
+        ns = readout * readouts;
+        size_t kd[2] = {ns, 2}, td[1] = {ns};
+        st = kw_array_alloc(&k, KW_F32, 2, kd);
+        if (!st)
+            st = kw_array_alloc(&t, KW_F32, 1, td);
+        if (!st)
+            st = kw_spiral_design(&sp, &lim, &si, NULL, NULL, k.data, t.data);
+        if (!st) {
+            float *tv = t.data;
+            for (size_t r = 1; r < readouts; r++)
+                memcpy(tv + r * readout, tv, readout * sizeof *tv);
+        }
+        extra[0] = si.readout_s;
+        extra[1] = si.gmax_design_T_per_m;
+        extra[2] = si.slew_design_T_per_m_per_s;
+    } else {
+        if (g->seen_shots && (g->shots < 1 || g->shots > (long)ny))
+            return kw_cli_fail("shots", "%ld outside 1..%zu", g->shots, ny);
+        es = (kw_epi_spec){{fov, fov}, {(int)nx, (int)ny}, dwell,
+                           g->seen_shots ? (int)g->shots : 1,
+                           g->seen_fraction ? g->fraction : 1.0};
+        if (!(es.partial_fourier > 0.5 && es.partial_fourier <= 1.0))
+            return kw_cli_fail("fraction", "%g outside (0.5, 1]", es.partial_fourier);
+        st = kw_epi_size(&es, &lim, &ei);
+        if (st)
+            return kw_cli_status(st, "epi");
+        readout = nx;
+        readouts = ei.lines_per_shot * (size_t)es.shots;
+        ns = ei.samples_per_shot * (size_t)es.shots;
+        size_t kd[2] = {ns, 2}, td[1] = {ns};
+        st = kw_array_alloc(&k, KW_F32, 2, kd);
+        if (!st)
+            st = kw_array_alloc(&t, KW_F32, 1, td);
+        if (!st)
+            st = kw_epi_design(&es, &lim, &ei, k.data, t.data);
+        extra[0] = ei.echo_spacing_s;
+        extra[1] = ei.train_s;
+        extra[2] = ei.center_time_s;
+    }
+    if (st) {
+        kw_array_free(&k);
+        kw_array_free(&t);
+        return kw_cli_status(st, g->kind);
+    }
+    if (g->seen_te) { /* times from the excitation: k = 0 at TE */
+        double origin = spiral ? 0.0 : extra[2];
+        if (g->te < origin)
+            return kw_array_free(&k), kw_array_free(&t),
+                   kw_cli_fail("te", "%g s is earlier than the start of k = 0 (%g s into "
+                                     "the readout)", g->te, origin);
+        float *tv = t.data;
+        for (size_t i = 0; i < ns; i++)
+            tv[i] = (float)((double)tv[i] + g->te - origin);
+    }
+    int rc = -1;
+    char *tp = NULL;
+    if (g->out) {
+        tp = g->times ? strdup(g->times) : times_path(g->out);
+        st = kw_npy_write(g->out, &k);
+        if (!st && tp)
+            st = kw_npy_write(tp, &t);
+        if (st)
+            rc = kw_cli_status(st, "out");
+    }
+    char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
+    if (rc < 0 && sp) {
+        cJSON *j = cJSON_CreateObject();
+        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+        cJSON_AddStringToObject(j, "kind", "trajectory");
+        cJSON_AddStringToObject(j, "layout", "noncartesian");
+        cJSON_AddStringToObject(j, "pattern_kind", g->kind);
+        double sh[2] = {(double)ns, 2};
+        kw_json_add_vec(j, "shape", sh, 2);
+        cJSON *cols = cJSON_AddArrayToObject(j, "columns");
+        cJSON_AddItemToArray(cols, cJSON_CreateString("kx"));
+        cJSON_AddItemToArray(cols, cJSON_CreateString("ky"));
+        cJSON_AddStringToObject(j, "units", "cycles/FOV");
+        double mt[2] = {(double)nx, (double)ny};
+        kw_json_add_vec(j, "matrix", mt, 2);
+        double fv[2] = {fov, fov};
+        kw_json_add_vec(j, "fov_m", fv, 2);
+        add_num(j, "readout_samples", (double)readout);
+        add_num(j, "readouts", (double)readouts);
+        if (spiral) {
+            add_num(j, "interleaves", interleaves);
+            add_num(j, "readout_s", extra[0]);
+            add_num(j, "gmax_design_T_per_m", extra[1]);
+            add_num(j, "slew_design_T_per_m_per_s", extra[2]);
+        } else {
+            add_num(j, "shots", es.shots);
+            add_num(j, "fraction", es.partial_fourier);
+            add_num(j, "echo_spacing_s", extra[0]);
+            add_num(j, "train_s", extra[1]);
+            add_num(j, "center_time_s", extra[2]);
+        }
+        add_num(j, "dwell_s", dwell);
+        add_num(j, "gmax_T_per_m", lim.gmax_T_per_m);
+        add_num(j, "slew_T_per_m_per_s", lim.slew_T_per_m_per_s);
+        add_num(j, "raster_s", lim.raster_s);
+        if (g->seen_te)
+            add_num(j, "te_s", g->te);
+        else
+            cJSON_AddNullToObject(j, "te_s");
+        cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
+        cJSON_AddStringToObject(j, "times_origin", g->seen_te ? "excitation"
+                                                   : spiral ? "readout start"
+                                                            : "start of each shot's train");
+        cJSON_AddNullToObject(j, "seed");
+        st = kw_json_write(sp, j);
+        cJSON_Delete(j);
+        if (st)
+            rc = kw_cli_status(st, "sidecar");
+    }
+    free(sp);
+    free(tp);
+    if (rc < 0) {
+        analysis a;
+        memset(&a, 0, sizeof a);
+        snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
+        snprintf(a.kind, sizeof a.kind, "%s", g->kind);
+        traj_info ti = {.n = nx, .nz = 1, .readout = readout, .spokes = readouts, .ndim = 2,
+                        .radial = 0, .weights = spiral ? W_PIPE : W_NONE};
+        size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
+        st = analyse_traj(&a, &k, &ti, m);
+        if (st)
+            rc = kw_cli_status(st, "analyse");
+        else {
+            if (spiral)
+                printf("  spiral                  %d interleaves, %zu samples each, readout "
+                       "%.3f ms (design |G| %.2f mT/m, slew %.1f T/m/s)\n", interleaves,
+                       readout, extra[0] * 1e3, extra[1] * 1e3, extra[2]);
+            else
+                printf("  EPI                     %d shot(s), %zu lines each, echo spacing "
+                       "%.3f ms, train %.3f ms, k = 0 at %.3f ms\n", es.shots,
+                       ei.lines_per_shot, extra[0] * 1e3, extra[1] * 1e3, extra[2] * 1e3);
+            printf("  limits                  %.1f mT/m, %.1f T/m/s, raster %g us, dwell %g us\n",
+                   lim.gmax_T_per_m * 1e3, lim.slew_T_per_m_per_s, lim.raster_s * 1e6,
+                   dwell * 1e6);
             rc = report_generated(g, &a);
             printf("%s\n", KW_SAFETY_CAUTION);
         }
@@ -1213,7 +1477,13 @@ int kw_cmd_pattern(int argc, char **argv)
         {"shift", KW_OPT_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift, "lattice: ky shift per kz row (default 1)"},
         {"spokes", KW_OPT_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes, "radial spokes (default ceil(pi N/2))"},
         {"tiny", KW_OPT_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (1 = 111.246 deg)"},
-        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "time between samples (default 10us)"},
+        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "time between samples (radial 1/(250Hz x N), spiral/epi 4us)"},
+        {"fov", KW_OPT_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default 256mm)"},
+        {"gmax", KW_OPT_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default 40mT/m)"},
+        {"slew", KW_OPT_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default 150T/m/s)"},
+        {"raster", KW_OPT_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster, "spiral/epi: gradient raster (default 10us)"},
+        {"interleaves", KW_OPT_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves, "spiral: interleaves (default: readouts <= 10ms)"},
+        {"shots", KW_OPT_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots, "epi: shots (default 1)"},
         {"te", KW_OPT_UNIT, &g.te, KW_UNIT_TIME, &g.seen_te, "time of k = 0 (default N/2 x dwell)"},
         {"seed", KW_OPT_INT, &g.seed, KW_UNIT_NONE, &g.seen_seed, "random seed (default 0)"},
         {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar"},
@@ -1296,9 +1566,6 @@ int kw_cmd_pattern(int argc, char **argv)
     }
     if (!g.kind)
         return kw_cli_fail("kind", "missing (or give --analyse FILE or --compare FILES)");
-    if (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi"))
-        return kw_cli_fail("kind", "%s is not available yet: it needs the gradient design "
-                                   "of `kweave plan` (libencode/kw_gradient.h)", g.kind);
     if (!g.matrix)
         return kw_cli_fail("matrix", "missing (e.g. --matrix 256x256)");
     size_t mat[3];
@@ -1306,6 +1573,11 @@ int kw_cmd_pattern(int argc, char **argv)
     rc = parse_sizes("matrix", g.matrix, mat, 3, &nmat);
     if (rc >= 0)
         return rc;
+    if (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi")) {
+        if (g.density)
+            return kw_cli_fail("density", "only for Cartesian masks");
+        return gen_gradient(&g, !strcmp(g.kind, "spiral"), mat, nmat);
+    }
     static const struct {
         const char *name;
         int cart;
@@ -1318,6 +1590,11 @@ int kw_cmd_pattern(int argc, char **argv)
     for (size_t i = 0; i < sizeof kinds / sizeof kinds[0]; i++) {
         if (strcmp(g.kind, kinds[i].name) != 0)
             continue;
+        const char *hw = g.seen_fov ? "fov" : g.seen_gmax ? "gmax" : g.seen_slew ? "slew"
+                         : g.seen_raster ? "raster" : g.seen_interleaves ? "interleaves"
+                         : g.seen_shots ? "shots" : NULL;
+        if (hw)
+            return kw_cli_fail(hw, "only used by --kind spiral or epi");
         if (kinds[i].cart) {
             if (g.seen_spokes || g.seen_tiny || g.seen_dwell || g.seen_te)
                 return kw_cli_fail(g.seen_spokes ? "spokes" : g.seen_tiny ? "tiny"

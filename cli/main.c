@@ -22,6 +22,7 @@ static const verb verbs[] = {
     {"recon", kw_cmd_recon, "k-space -> image, by the method asked for or the right default"},
     {"score", kw_cmd_score, "compare an image with a reference: NRMSE, PSNR, SSIM"},
     {"render", kw_cmd_render, "any .npy -> PNG (magnitude, phase, montage, window)"},
+    {"sweep", kw_cmd_sweep, "run a grid of undersampling experiments from a JSON spec (local or MPI)"},
     {"demo", kw_cmd_demo, "the whole chain on the built-in scenario, into one folder"},
     {NULL, NULL, NULL},
 };

@@ -153,7 +153,7 @@ static kw_status parse_header(const char *txt, size_t len, header *h)
                 p += 5;
             } else if ((size_t)(end - p) >= 4 && strncmp(p, "True", 4) == 0) {
                 return kw_set_error(KW_EFORMAT, "fortran_order: Fortran-ordered "
-                                    "arrays are not supported (save in C order)");
+                                    "arrays are not supported (save np.ascontiguousarray(a))");
             } else {
                 return kw_set_error(KW_EFORMAT, "header: 'fortran_order' is not a bool");
             }

@@ -396,8 +396,8 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
             cairo_line_to(cr, kx_px(&f, (nx - nx / 2 - 1) * dkx), ky_px(&f, ky));
             cairo_stroke(cr);
         }
-        snprintf(buf, sizeof buf, "%d phase-encode lines (every %d%s drawn); grey: prephasing",
-                 ny, every, every == 1 ? "" : "th");
+        snprintf(buf, sizeof buf, "%d phase-encode lines (one in %d drawn); grey: prephasing",
+                 ny, every);
         break;
     }
     case KW_SEQ_RADIAL: {
@@ -409,71 +409,76 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
             cairo_line_to(cr, kx_px(&f, k * cos(a)), ky_px(&f, k * sin(a)));
             cairo_stroke(cr);
         }
-        snprintf(buf, sizeof buf, "%d spokes (Nyquist %d; every %d drawn)", r->spokes,
+        snprintf(buf, sizeof buf, "%d spokes (Nyquist %d; one in %d drawn)", r->spokes,
                  r->spokes_nyquist, every);
         break;
     }
     case KW_SEQ_EPI: {
+        /* the path of kw_epi_design, drawn line by line (shot s acquires rows
+         * first_row + s + shots m; even lines run +kx, odd lines -kx) */
         kw_epi_spec es;
         kw_plan_epi_spec(r, &es);
         kw_epi_info inf;
         if ((st = kw_epi_size(&es, &lim, &inf)))
             break;
-        size_t n = inf.samples_per_shot * (size_t)es.shots;
-        float *tr = malloc(2 * n * sizeof *tr);
-        if (!tr) {
-            st = kw_set_error(KW_ENOMEM, "plot: out of memory");
-            break;
-        }
-        if ((st = kw_epi_design(&es, &lim, NULL, tr, NULL))) {
-            free(tr);
-            break;
-        }
         int shots = es.shots > 8 ? 8 : es.shots;
+        const double xlo = -(nx / 2) * dkx, xhi = (nx - nx / 2 - 1) * dkx;
         for (int sh = shots - 1; sh >= 0; sh--) {
-            const float *t = tr + 2 * (size_t)sh * inf.samples_per_shot;
             if (sh == 0)
                 cairo_set_source_rgb(cr, 0.1, 0.25, 0.7);
             else
                 cairo_set_source_rgba(cr, 0.2, 0.6, 0.3, 0.6);
-            cairo_move_to(cr, kx_px(&f, t[0] * dkx), ky_px(&f, t[1] * dky));
-            for (size_t i = 1; i < inf.samples_per_shot; i++)
-                cairo_line_to(cr, kx_px(&f, t[2 * i] * dkx), ky_px(&f, t[2 * i + 1] * dky));
+            for (size_t m = 0; m < inf.lines_per_shot; m++) {
+                double ky = (inf.first_row + sh + es.shots * (int)m - ny / 2) * dky;
+                double a = m % 2 ? xhi : xlo, b = m % 2 ? xlo : xhi;
+                if (m == 0)
+                    cairo_move_to(cr, kx_px(&f, a), ky_px(&f, ky));
+                else
+                    cairo_line_to(cr, kx_px(&f, a), ky_px(&f, ky)); /* the blip */
+                cairo_line_to(cr, kx_px(&f, b), ky_px(&f, ky));
+            }
             cairo_stroke(cr);
         }
-        free(tr);
         snprintf(buf, sizeof buf, "%d shot(s) x %zu lines (partial Fourier %.3g); blue: shot 1",
                  es.shots, inf.lines_per_shot, es.partial_fourier);
         break;
     }
     case KW_SEQ_SPIRAL: {
+        /* interleaf 0 from its raster waveform (k = gamma-bar raster sum of G),
+         * the others rotated by 2 pi i / interleaves */
         kw_spiral_spec sp;
         kw_plan_spiral_spec(r, &sp);
-        size_t ns = r->spiral.samples, n = ns * (size_t)sp.interleaves;
-        float *tr = malloc(2 * n * sizeof *tr);
-        if (!tr) {
+        size_t ng = r->spiral.readout_points;
+        size_t ntot = ng + r->spiral.rampdown_points;
+        double *gx = malloc(ntot * sizeof *gx), *gy = malloc(ntot * sizeof *gy);
+        if (!gx || !gy) {
+            free(gx), free(gy);
             st = kw_set_error(KW_ENOMEM, "plot: out of memory");
             break;
         }
-        if ((st = kw_spiral_design(&sp, &lim, NULL, NULL, NULL, tr, NULL))) {
-            free(tr);
+        if ((st = kw_spiral_design(&sp, &lim, NULL, gx, gy, NULL, NULL))) {
+            free(gx), free(gy);
             break;
         }
         int every = sp.interleaves > 16 ? (sp.interleaves + 15) / 16 : 1;
+        const double c = KW_GAMMA_BAR_P * p->raster_s;
         for (int il = 0; il < sp.interleaves; il += every) {
-            const float *t = tr + 2 * (size_t)il * ns;
+            double ph = 2 * KW_PI * il / sp.interleaves, co = cos(ph), si = sin(ph);
             if (il == 0)
                 cairo_set_source_rgb(cr, 0.1, 0.25, 0.7);
             else
                 cairo_set_source_rgba(cr, 0.2, 0.6, 0.3, 0.7);
-            cairo_move_to(cr, kx_px(&f, t[0] / p->fov_m[0]), ky_px(&f, t[1] / p->fov_m[0]));
-            for (size_t i = 1; i < ns; i++)
-                cairo_line_to(cr, kx_px(&f, t[2 * i] / p->fov_m[0]),
-                              ky_px(&f, t[2 * i + 1] / p->fov_m[0]));
+            double kx = 0, ky = 0;
+            cairo_move_to(cr, kx_px(&f, 0), ky_px(&f, 0));
+            for (size_t j = 0; j < ng; j++) {
+                kx += c * gx[j];
+                ky += c * gy[j];
+                cairo_line_to(cr, kx_px(&f, co * kx - si * ky), ky_px(&f, si * kx + co * ky));
+            }
             cairo_stroke(cr);
         }
-        free(tr);
-        snprintf(buf, sizeof buf, "%d interleaves (every %d drawn), %.2f ms each; blue: interleaf 1",
+        free(gx), free(gy);
+        snprintf(buf, sizeof buf, "%d interleaves (one in %d drawn), %.2f ms each; blue: interleaf 1",
                  sp.interleaves, every, r->readout_per_interleave_s * 1e3);
         break;
     }

@@ -57,6 +57,16 @@ static int json_int(const cJSON *o, const char *key, int *v)
     return -1;
 }
 
+void kw_cart_cov_normalise(float complex *cov, size_t nc)
+{
+    double tr = 0;
+    for (size_t i = 0; i < nc; i++)
+        tr += crealf(cov[i * nc + i]);
+    if (tr > 0)
+        for (size_t i = 0; i < nc * nc; i++)
+            cov[i] /= (float)(tr / (double)nc);
+}
+
 kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
 {
     memset(c, 0, sizeof *c);
@@ -118,6 +128,7 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
         KW_FAIL_IF(!cov, KW_ENOMEM, "noise-cov: out of memory");
         for (size_t i = 0; i < c->nc * c->nc; i++)
             cov[i] = q->dtype == KW_C64 ? ((float complex *)q->data)[i] : ((float *)q->data)[i];
+        kw_cart_cov_normalise(cov, c->nc);
         st = kw_prewhiten_matrix(cov, c->nc, c->wht);
         free(cov);
         if (st)

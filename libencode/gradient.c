@@ -13,6 +13,7 @@
 #include <string.h>
 
 #define MAX_POINTS 4000000u
+#define MAX_SAMPLES 64000000u
 
 /* Whole raster steps needed to hold `t` (the 1e-9 forgives rounding noise). */
 static double steps_up(double t, double dt)
@@ -313,7 +314,14 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
     if (nd < 1)
         nd = 1;
     const double T = (double)n * dt;
-    const size_t ns = (size_t)floor(T / spec->dwell_s + 1e-9) + 1;
+    const double nsf = floor(T / spec->dwell_s + 1e-9) + 1;
+    if (nsf > (double)MAX_SAMPLES || nsf * spec->interleaves > (double)MAX_SAMPLES) {
+        free(k), free(g);
+        return kw_set_error(KW_ERANGE,
+                            "bandwidth: the spiral would take over %u ADC samples in all "
+                            "(%.0f per interleaf)", MAX_SAMPLES, nsf);
+    }
+    const size_t ns = (size_t)nsf;
     kw_spiral_info inf = {.readout_points = n,
                           .rampdown_points = nd,
                           .samples = ns,

@@ -97,7 +97,7 @@ typedef struct kw_spiral_info {
  * trajectories", IEEE Trans Med Imaging 27(6):866-873, 2008. The raster
  * waveform is verified against the limits and redesigned with slightly lower
  * limits if a raster step breaks one. KW_ERANGE if the design would exceed
- * 4 million raster points. */
+ * 4 million raster points or 64 million ADC samples (all interleaves). */
 kw_status kw_spiral_size(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
                          kw_spiral_info *info);
 

@@ -132,21 +132,21 @@ static double kb_phi_hat(double nu, int W, double beta, double i0b)
 kw_status kw_nufft_params(double tol, double alpha, int *width, double *beta)
 {
     KW_FAIL_IF(!(tol >= 1e-6 && tol <= 1e-2), KW_ERANGE,
-               "tolerance %g outside [1e-6, 1e-2]", tol);
+               "tolerance: %g outside [1e-6, 1e-2]", tol);
     KW_FAIL_IF(!(alpha >= 1.25 && alpha <= 2.0), KW_ERANGE,
-               "oversampling %g outside [1.25, 2]", alpha);
+               "oversampling: %g outside [1.25, 2]", alpha);
     /* Measured floor of single precision: the deapodisation amplifies the
      * FFT's rounding by Phi(0)/Phi(1/(2 alpha)), which at alpha = 1.25 keeps
      * the error above ~6e-6 whatever the width (docs/noncartesian.md). */
     KW_FAIL_IF(tol < 2e-5 && alpha < 1.5, KW_ERANGE,
-               "tolerance %g needs oversampling >= 1.5 in single precision (got %g)",
+               "tolerance: %g needs oversampling >= 1.5 in single precision (got %g)",
                tol, alpha);
     double rate = KW_PI * sqrt(1.0 - 1.0 / alpha);
     int W = (int)ceil(log(NUFFT_ERR_CONST / tol) / rate);
     if (W < 2)
         W = 2;
     KW_FAIL_IF(W > NUFFT_MAX_W, KW_ERANGE,
-               "tolerance %g needs a kernel wider than %d at oversampling %g",
+               "tolerance: %g needs a kernel wider than %d at oversampling %g",
                tol, NUFFT_MAX_W, alpha);
     *width = W;
     *beta = kb_beta(W, alpha);

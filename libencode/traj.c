@@ -92,3 +92,4 @@ kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w)
         }
     return KW_OK;
 }
+

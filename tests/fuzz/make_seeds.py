@@ -1,6 +1,8 @@
 """Writes the seed corpus of the fuzz targets (tests/fuzz/<target>/seed-*).
 Run once with /usr/bin/python3 from the repository root; the files are kept in
-git. Inputs that crashed a target are kept beside them as crash-* files."""
+git. Beside them: cov-* files, the corpus grown by the fuzz runs and reduced
+with libFuzzer's -merge=1, and crash-* files, inputs that once crashed a
+target (see docs/reliability.md)."""
 import io
 import json
 import os

@@ -167,9 +167,10 @@ def test_compare_table(tmp_path):
         run("pattern", "--kind", kind, "--matrix", "64x64", *extra, "--out", f)
         files.append(f)
     j = tmp_path / "cmp.json"
-    p = run("pattern", "--compare", *files, "--json", j)
+    p = run("pattern", "--compare", *files, "--json", j, "--png", tmp_path / "cmp.png")
     rows = [l for l in p.stdout.splitlines() if l.startswith("| ")]
     assert len(rows) == 5 and "PSF FWHM" in rows[0]
+    assert (tmp_path / "cmp.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     data = json.loads(j.read_text())
     assert [d["pattern_kind"] for d in data] == ["uniform", "random", "poisson", "partial"]
     assert data[3]["acceleration"] == 64 / 48
@@ -207,8 +208,6 @@ def test_bad_input(tmp_path):
     bad("pattern", "--kind", "partial", "--matrix", "64x64", "--fraction", "1.2", field="fraction")
     bad("pattern", "--kind", "partial", "--matrix", "64x64", field="fraction")
     bad("pattern", "--kind", "zigzag", "--matrix", "64x64", field="kind")
-    bad("pattern", "--kind", "spiral", "--matrix", "64x64", field="kind")
-    bad("pattern", "--kind", "epi", "--matrix", "64x64", field="kind")
     bad("pattern", "--kind", "uniform", "--matrix", "64x64", field="accel")
     bad("pattern", "--kind", "uniform", "--matrix", "64x6y", "--accel", "2", field="matrix")
     bad("pattern", "--kind", "random", "--matrix", "64x64", "--accel", "8", "--acs", "20",
@@ -234,3 +233,53 @@ def test_bad_input(tmp_path):
     np.save(z, np.zeros((8, 8), np.uint8))
     bad("pattern", "--analyse", z, field="z.npy")
     bad("pattern", "--compare", field="compare")
+    bad("pattern", "--kind", "uniform", "--matrix", "64x64", "--accel", "2", "--gmax", "40mT/m",
+        field="gmax")
+    bad("pattern", "--kind", "radial", "--matrix", "64", "--shots", "2", field="shots")
+    bad("pattern", "--kind", "spiral", "--matrix", "64", "--interleaves", "0", field="interleaves")
+    bad("pattern", "--kind", "epi", "--matrix", "64", "--fraction", "0.4", field="fraction")
+    bad("pattern", "--kind", "spiral", "--matrix", "64", "--fov", "256", field="fov")
+
+
+def test_spiral_from_the_gradient_design(tmp_path):
+    out = tmp_path / "sp.npy"
+    p = run("pattern", "--kind", "spiral", "--matrix", "64", "--fov", "220mm", "--interleaves", "8",
+            "--dwell", "4us", "--out", out, "--json", tmp_path / "a.json")
+    assert "Caution" in p.stdout
+    side = json.loads((tmp_path / "sp.json").read_text())
+    k = np.load(out)
+    t = np.load(tmp_path / "sp_times.npy")
+    ns = side["readout_samples"]
+    assert k.shape == (8 * ns, 2) and t.shape == (8 * ns,) and side["interleaves"] == 8
+    kr = k.reshape(8, ns, 2)
+    # Nyquist along the path: one dwell never steps more than 1/FOV
+    step = np.hypot(*np.diff(kr, axis=1).transpose(2, 0, 1))
+    assert step.max() <= 1 + 1e-3
+    # k-max = N / 2 cycles/FOV is reached at the end of the readout: the last
+    # ADC sample lies within one sample step of it, never beyond
+    r = np.hypot(kr[:, :, 0], kr[:, :, 1])
+    assert r.max() <= 32 + 1e-3 and r[0, -1] >= 32 - step.max()
+    # interleaves are rotations by 2 pi / 8
+    c = kr[1, :, 0] + 1j * kr[1, :, 1]
+    c0 = kr[0, :, 0] + 1j * kr[0, :, 1]
+    assert np.max(np.abs(c - c0 * np.exp(2j * np.pi / 8))) < 1e-3
+    assert np.allclose(np.diff(t[:ns]), 4e-6, atol=1e-9)
+    a = json.loads((tmp_path / "a.json").read_text())
+    assert a["psf_weights"].startswith("Pipe-Menon") and a["max_gap_dk"] < 1.2
+
+
+def test_epi_from_the_gradient_design(tmp_path):
+    out = tmp_path / "epi.npy"
+    run("pattern", "--kind", "epi", "--matrix", "64", "--shots", "2", "--fraction", "0.75",
+        "--out", out, "--json", tmp_path / "a.json")
+    k = np.load(out)
+    assert np.allclose(k, np.round(k), atol=1e-4)  # on the Cartesian grid
+    rows = np.unique(np.round(k[:, 1]).astype(int))
+    assert rows.tolist() == list(range(-32 + 16, 32))  # the last 48 of 64 rows
+    a = analyse(tmp_path, out)
+    # zero-filled partial Fourier: the FWHM of a 48-of-64 block (Dirichlet)
+    from scipy.optimize import brentq
+    d = lambda y: abs(np.sin(np.pi * 48 * y / 64) / (64 * np.sin(np.pi * y / 64))) if y else 0.75
+    want = 2 * brentq(lambda y: d(y) - 0.375, 1e-9, 64 / 48)
+    assert abs(a["psf_fwhm_pixels_by_axis"]["y"] - want) < 1e-4
+    assert a["max_gap_dk"] <= 1 + 1e-5

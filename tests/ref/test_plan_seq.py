@@ -174,3 +174,16 @@ def test_plots(tmp_path):
 ])
 def test_more_bad_options(args, field):
     bad("plan", *args, field=field)
+
+
+def test_relative_snr_against_reference(tmp_path):
+    # SNR ~ voxel volume x sqrt(total sampling time) (the usual proportionality):
+    # the reference has a 2.5 mm slice and twice the bandwidth, so a 5 mm slice
+    # at half its bandwidth has 2 x sqrt(2) its SNR.
+    ref = tmp_path / "ref.protocol"
+    ref.write_text("slice = 2.5mm\nbandwidth = 500Hz/pixel\n")
+    _, j = plan(tmp_path, "--slice", "5mm", "--bandwidth", "250Hz/pixel", "--reference", ref)
+    assert j["relative_snr"] == pytest.approx(2 * np.sqrt(2), rel=1e-12)
+    _, j = plan(tmp_path)
+    assert j["relative_snr"] is None
+    bad("plan", "--reference", tmp_path / "missing.protocol", field="reference")

@@ -182,3 +182,40 @@ def test_bad_cartesian_input(tmp_path):
     bad("recon", "--in", tmp_path / "full.npy", "--out", tmp_path / "o.npy", "--method", "homodyne", field="partial Fourier")
     bad("recon", "--in", tmp_path / "full.npy", "--out", tmp_path / "o.npy", "--sens-out", tmp_path / "x.png", field="sens-out")
     assert not (tmp_path / "o.npy").exists()
+
+
+def test_prewhitened_rss_keeps_the_scale(tmp_path):
+    # rss after whitening with Psi / mean(diag Psi) (docs/cartesian.md),
+    # evaluated by numpy: same scale as the data when Psi is diagonal and equal.
+    n, nc = 32, 4
+    rng = np.random.default_rng(8)
+    S = coil_maps(n, nc)
+    m = S * smooth_object(n) + 0.01 * (rng.standard_normal((nc, n, n)) + 1j * rng.standard_normal((nc, n, n)))
+    k = save(tmp_path / "k.npy", fft2c(m))
+    A = rng.standard_normal((nc, nc)) + 1j * rng.standard_normal((nc, nc))
+    psi = 3e-4 * (A @ A.conj().T / nc + np.eye(nc))
+    run("recon", "--in", k, "--out", tmp_path / "w.npy", "--noise-cov", save(tmp_path / "p.npy", psi))
+    pn = psi / np.trace(psi).real * nc
+    w = np.linalg.inv(np.linalg.cholesky(pn))
+    ref = np.sqrt((np.abs(np.einsum("ij,jyx->iyx", w, ifft2c(np.load(k).astype(complex)))) ** 2).sum(0))
+    assert relerr(np.load(tmp_path / "w.npy"), ref) <= 1e-4
+    # a scalar covariance changes nothing
+    run("recon", "--in", k, "--out", tmp_path / "s.npy", "--noise-cov", save(tmp_path / "q.npy", 7e-3 * np.eye(nc)))
+    run("recon", "--in", k, "--out", tmp_path / "r.npy")
+    assert relerr(np.load(tmp_path / "s.npy"), np.load(tmp_path / "r.npy")) <= 1e-5
+
+
+def test_fft_gfactor_is_one_and_png(tmp_path):
+    # Robson et al. 2008: fully sampled data through the fft method with
+    # root-sum-of-squares have g = 1 (the replica noise is the reference
+    # noise); 100 replicas: mean over the object within 3%.
+    n, nc = 32, 4
+    rho = smooth_object(n)
+    k = save(tmp_path / "k.npy", fft2c(coil_maps(n, nc) * rho))
+    run("recon", "--in", k, "--out", tmp_path / "i.png", "--gfactor", tmp_path / "g.npy", "--replicas", 100,
+        "--json", tmp_path / "r.json")
+    g = np.load(tmp_path / "g.npy")
+    assert abs(g[rho > 0.5].mean() - 1) < 0.03
+    assert (tmp_path / "i.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    run("recon", "--in", k, "--out", tmp_path / "i.npy", "--gfactor", tmp_path / "g.png", "--replicas", 5)
+    assert (tmp_path / "g.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
