@@ -4,8 +4,9 @@ output files, run after run and with 1 or 2 OpenMP threads.
 Each case runs a verb four times (OMP_NUM_THREADS = 1, 2, 1, 2) into fresh
 folders and compares every output file byte for byte. Verbs that have not
 landed yet ("this verb is not built yet") are skipped, so the table grows as
-they arrive. Known exceptions (documented in docs/reliability.md): none among
-the files below; the version string is part of the outputs but is the same for
+they arrive. Runs are made without the FFTW wisdom cache, and once more with it (the
+default), so that a plan made from saved wisdom is also covered. Known
+exceptions (documented in docs/reliability.md): none among the files below; the version string is part of the outputs but is the same for
 one binary.
 """
 import os
@@ -19,10 +20,13 @@ from conftest import KWEAVE
 THREADS = ["1", "2", "1", "2"]
 
 
+WISDOM = {"KWEAVE_WISDOM": "off"}  # by default no FFTW wisdom cache (see the last test)
+
+
 def run_in(cwd, args, threads, stdin=None):
     env = dict(os.environ, OMP_NUM_THREADS=threads)
     env.pop("KWEAVE_WISDOM", None)
-    env["KWEAVE_WISDOM"] = "off"  # FFTW plans never depend on a cache of other runs
+    env.update(WISDOM)
     p = subprocess.run([KWEAVE, *map(str, args)], cwd=cwd, env=env, capture_output=True,
                        input=stdin, timeout=600)
     if b"not built yet" in p.stderr:
@@ -118,3 +122,15 @@ def test_encode_seeded(tmp_path):
 
 def test_demo(tmp_path):
     check(tmp_path, lambda d: None, ["demo", "--out", "demo"], min_files=3)
+
+
+def test_recon_with_the_wisdom_cache(tmp_path, monkeypatch):
+    # The default: FFTW wisdom cached between runs (cli/main.c). The first run
+    # plans from nothing and saves wisdom, the next three plan from it: the
+    # pictures must not change.
+    cache = tmp_path / "cache"
+    cache.mkdir()
+    monkeypatch.setitem(WISDOM, "XDG_CACHE_HOME", str(cache))
+    monkeypatch.delitem(WISDOM, "KWEAVE_WISDOM")
+    check(tmp_path, lambda d: kspace(d, coils=3, ny=96, nx=80),
+          ["recon", "--in", "ks.npy", "--out", "img.npy"])
