@@ -9,6 +9,8 @@
 #include "cli.h"
 #include "jsonio.h"
 #include "kw_protocol.h"
+#include "kw_sequence.h"
+#include "plot.h"
 #include "protofile.h"
 
 /* ---- protocol keys (shared by options and protocol files) ---------------- */
@@ -21,10 +23,7 @@ typedef struct plan_in {
     /* bandwidth: [0] across the FOV, [1] per pixel; set[] per source */
     double bw[2];
     int bw_set[2];
-    int bw_from_cli;      /* the command line gave a bandwidth: the file's is ignored */
     char seen_file[32];   /* keys seen in the protocol file (duplicates are errors) */
-    int in_file;          /* parsing the protocol file */
-    int bw_only_file;     /* the command line's bandwidth replaces the file's */
 } plan_in;
 
 typedef enum key_id {
@@ -75,6 +74,7 @@ static kw_status parse_fov(const char *val, double *fov, int *n)
 {
     char buf[256];
     KW_FAIL_IF(strlen(val) >= sizeof buf, KW_EINVAL, "fov: too long");
+    KW_FAIL_IF(val[0] == ',' || strstr(val, ",,"), KW_EINVAL, "fov: empty entry in '%s'", val);
     strcpy(buf, val);
     *n = 0;
     char *save = NULL;
@@ -236,57 +236,326 @@ static kw_status finish_protocol(plan_in *in)
 
 /* ---- report ----------------------------------------------------------------- */
 
-static int report_basics(const kw_protocol *p, const char *json_path)
+static void add_num_or_null(cJSON *j, const char *key, double v)
 {
-    kw_plan_basic b;
-    kw_status st = kw_plan_basics(p, &b);
+    if (isfinite(v))
+        cJSON_AddNumberToObject(j, key, v);
+    else
+        cJSON_AddNullToObject(j, key);
+}
+
+static void add_lobe_json(cJSON *lobes, const char *name, const kw_trapezoid *t)
+{
+    if (kw_trapezoid_duration(t) <= 0)
+        return;
+    cJSON *o = cJSON_AddObjectToObject(lobes, name);
+    cJSON_AddNumberToObject(o, "amplitude_T_per_m", t->amplitude_T_per_m);
+    cJSON_AddNumberToObject(o, "ramp_s", t->ramp_s);
+    cJSON_AddNumberToObject(o, "flat_s", t->flat_s);
+    cJSON_AddNumberToObject(o, "duration_s", kw_trapezoid_duration(t));
+    cJSON_AddNumberToObject(o, "area_T_s_per_m", kw_trapezoid_area(t));
+}
+
+static void print_lobe(const char *name, const kw_trapezoid *t)
+{
+    if (kw_trapezoid_duration(t) <= 0)
+        return;
+    printf("    %-16s %+9.3f mT/m  ramp %6.0f us  flat %8.0f us  total %8.0f us\n", name,
+           t->amplitude_T_per_m * 1e3, t->ramp_s * 1e6, t->flat_s * 1e6,
+           kw_trapezoid_duration(t) * 1e6);
+}
+
+static const char *fmt_unit(double v, const char *unit, char *buf, size_t n)
+{
+    if (strcmp(unit, "T/m") == 0)
+        snprintf(buf, n, "%.3f mT/m", v * 1e3);
+    else if (strcmp(unit, "s") == 0)
+        snprintf(buf, n, "%.3f ms", v * 1e3);
+    else
+        snprintf(buf, n, "%.1f %s", v, unit);
+    return buf;
+}
+
+static cJSON *report_json(const kw_plan_report *r, double ref_factor)
+{
+    const kw_protocol *p = &r->protocol;
+    const kw_plan_basic *b = &r->basic;
+    cJSON *j = cJSON_CreateObject();
+    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+    cJSON_AddStringToObject(j, "sequence", seq_names[p->sequence]);
+    cJSON_AddBoolToObject(j, "feasible", r->feasible);
+    cJSON_AddNumberToObject(j, "dimensions", p->ndim);
+    cJSON_AddNumberToObject(j, "b0_t", p->b0_t);
+    cJSON_AddNumberToObject(j, "larmor_hz", b->larmor_hz);
+    kw_json_add_vec(j, "fov_m", p->fov_m, p->ndim);
+    double m[3] = {p->matrix[0], p->matrix[1], p->matrix[2]};
+    kw_json_add_vec(j, "matrix", m, p->ndim);
+    kw_json_add_vec(j, "pixel_size_m", b->pixel_size_m, p->ndim);
+    kw_json_add_vec(j, "delta_k_per_m", b->delta_k_per_m, p->ndim);
+    kw_json_add_vec(j, "k_max_per_m", b->k_max_per_m, p->ndim);
+    cJSON_AddNumberToObject(j, "slice_m", r->slice_m);
+    cJSON_AddNumberToObject(j, "dwell_s", r->dwell_s);
+    cJSON_AddNumberToObject(j, "readout_duration_s", r->readout_duration_s);
+    cJSON_AddNumberToObject(j, "bandwidth_hz", b->bandwidth_hz);
+    cJSON_AddNumberToObject(j, "bandwidth_per_pixel_hz", b->bandwidth_per_pixel_hz);
+    cJSON_AddNumberToObject(j, "readout_gradient_T_per_m", b->readout_gradient_T_per_m);
+    cJSON_AddNumberToObject(j, "slice_select_gradient_T_per_m", r->slice_gradient_T_per_m);
+    cJSON_AddNumberToObject(j, "rf_duration_s", r->rf_duration_s);
+    cJSON_AddNumberToObject(j, "tbw", p->tbw);
+    cJSON_AddNumberToObject(j, "gmax_T_per_m", p->gmax_T_per_m);
+    cJSON_AddNumberToObject(j, "slew_T_per_m_per_s", p->slew_T_per_m_per_s);
+    cJSON_AddNumberToObject(j, "raster_s", p->raster_s);
+    cJSON_AddNumberToObject(j, "temperature_k", p->temperature_k);
+    cJSON_AddNumberToObject(j, "polarization", b->polarization);
+    cJSON_AddNumberToObject(j, "min_te_s", r->min_te_s);
+    cJSON_AddNumberToObject(j, "min_tr_s", r->min_tr_s);
+    cJSON_AddNumberToObject(j, "te_s", r->te_s);
+    cJSON_AddNumberToObject(j, "tr_s", r->tr_s);
+    cJSON_AddNumberToObject(j, "scan_time_s", r->scan_time_s);
+    cJSON_AddNumberToObject(j, "chemical_shift_hz", r->fat_water_hz);
+    add_num_or_null(j, "chemical_shift_pixels", r->chemical_shift_pixels);
+    add_num_or_null(j, "chemical_shift_mm", r->chemical_shift_mm);
+    if (p->sequence == KW_SEQ_EPI) {
+        cJSON_AddNumberToObject(j, "echo_spacing_s", r->echo_spacing_s);
+        cJSON_AddNumberToObject(j, "echo_train_length", r->echo_train_length);
+        cJSON_AddNumberToObject(j, "echo_train_duration_s", r->echo_train_s);
+        cJSON_AddNumberToObject(j, "effective_te_s", r->te_s);
+        cJSON_AddNumberToObject(j, "shots", p->shots);
+        cJSON_AddNumberToObject(j, "partial_fourier", p->partial_fourier);
+        cJSON_AddNumberToObject(j, "distortion_pixels_per_hz", r->distortion_pixels_per_hz);
+        cJSON_AddNumberToObject(j, "chemical_shift_phase_pixels", r->chemical_shift_phase_pixels);
+        cJSON_AddNumberToObject(j, "chemical_shift_phase_mm", r->chemical_shift_phase_mm);
+    }
+    if (p->sequence == KW_SEQ_RADIAL) {
+        cJSON_AddNumberToObject(j, "spokes_nyquist", r->spokes_nyquist);
+        cJSON_AddNumberToObject(j, "spokes", r->spokes);
+    }
+    if (p->sequence == KW_SEQ_SPIRAL) {
+        cJSON_AddNumberToObject(j, "interleaves", r->interleaves);
+        cJSON_AddNumberToObject(j, "readout_per_interleave_s", r->readout_per_interleave_s);
+        cJSON_AddNumberToObject(j, "samples_per_interleave", (double)r->spiral.samples);
+        cJSON_AddNumberToObject(j, "fat_water_cycles_per_readout",
+                                r->fat_water_hz * r->readout_per_interleave_s);
+    }
+    add_num_or_null(j, "readout_to_t2star", r->readout_to_t2star);
+    cJSON_AddNumberToObject(j, "voxel_volume_m3", r->voxel_volume_m3);
+    cJSON_AddNumberToObject(j, "total_sampling_time_s", r->total_sampling_time_s);
+    cJSON_AddNumberToObject(j, "snr_factor", r->snr_factor);
+    add_num_or_null(j, "relative_snr", ref_factor > 0 ? r->snr_factor / ref_factor : NAN);
+    cJSON *lobes = cJSON_AddObjectToObject(j, "lobes");
+    add_lobe_json(lobes, "slice_select", &r->slice_select);
+    add_lobe_json(lobes, "slice_rephaser", &r->slice_rephaser);
+    add_lobe_json(lobes, "readout", &r->readout);
+    add_lobe_json(lobes, "prephaser", &r->prephaser);
+    add_lobe_json(lobes, "phase_encode", &r->phase_encode);
+    add_lobe_json(lobes, "partition_encode", &r->partition_encode);
+    add_lobe_json(lobes, "spoiler", &r->spoiler);
+    add_lobe_json(lobes, "crusher", &r->crusher);
+    cJSON *lim = cJSON_AddArrayToObject(j, "limits");
+    for (int i = 0; i < r->nlimits; i++) {
+        const kw_limit *l = &r->limits[i];
+        cJSON *o = cJSON_CreateObject();
+        cJSON_AddStringToObject(o, "name", l->name);
+        cJSON_AddNumberToObject(o, "required", l->required);
+        cJSON_AddNumberToObject(o, "available", l->available);
+        cJSON_AddStringToObject(o, "unit", l->unit);
+        cJSON_AddNumberToObject(o, "margin", l->available - l->required);
+        cJSON_AddBoolToObject(o, "ok", l->ok);
+        cJSON_AddItemToArray(lim, o);
+    }
+    if (!r->feasible) {
+        const kw_nearest *n = &r->nearest;
+        cJSON *o = cJSON_AddObjectToObject(j, "nearest_feasible");
+        if (n->has_bandwidth) {
+            cJSON_AddNumberToObject(o, "bandwidth_hz", n->bandwidth_hz);
+            cJSON_AddNumberToObject(o, "bandwidth_per_pixel_hz", n->bandwidth_per_pixel_hz);
+        }
+        if (n->has_matrix) {
+            cJSON_AddNumberToObject(o, "matrix_x", n->matrix_x);
+            cJSON_AddNumberToObject(o, "pixel_size_x_m", n->pixel_size_x_m);
+        }
+        if (n->has_slice) {
+            cJSON_AddNumberToObject(o, p->ndim == 3 ? "slab_m" : "slice_m", n->slice_m);
+            cJSON_AddNumberToObject(o, "rf_duration_s", n->rf_duration_s);
+        }
+        if (n->has_te)
+            cJSON_AddNumberToObject(o, "te_s", n->te_s);
+        if (n->has_tr)
+            cJSON_AddNumberToObject(o, "tr_s", n->tr_s);
+        if (n->has_interleaves)
+            cJSON_AddNumberToObject(o, "interleaves", n->interleaves);
+        if (n->has_combined) {
+            const kw_protocol *q = &n->combined;
+            cJSON *c = cJSON_AddObjectToObject(o, "combined");
+            cJSON_AddNumberToObject(c, "bandwidth_hz", q->bandwidth_hz);
+            cJSON_AddNumberToObject(c, "slice_m", q->slice_m);
+            cJSON_AddNumberToObject(c, "rf_duration_s", q->rf_duration_s);
+            if (q->te_s > 0)
+                cJSON_AddNumberToObject(c, "te_s", q->te_s);
+            if (q->tr_s > 0)
+                cJSON_AddNumberToObject(c, "tr_s", q->tr_s);
+            if (q->interleaves > 0)
+                cJSON_AddNumberToObject(c, "interleaves", q->interleaves);
+        }
+    }
+    cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
+    return j;
+}
+
+static void report_text(const kw_plan_report *r, double ref_factor)
+{
+    const kw_protocol *p = &r->protocol;
+    const kw_plan_basic *b = &r->basic;
+    static const char *const label[] = {"spoiled gradient echo", "spin echo", "EPI", "radial",
+                                        "spiral"};
+    char u1[48], u2[48], u3[48];
+    printf("kweave plan: %s, %d-D\n", label[p->sequence], p->ndim);
+    printf("  B0 %.4g T: Larmor frequency %.6f MHz; polarization at %.2f K %.4g (%.3f per million)\n",
+           p->b0_t, b->larmor_hz / 1e6, p->temperature_k, b->polarization, b->polarization * 1e6);
+    printf("Resolution\n");
+    if (p->ndim == 3)
+        printf("  FOV %.1f x %.1f x %.1f mm, matrix %d x %d x %d, voxel %.4f x %.4f x %.4f mm\n",
+               p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->fov_m[2] * 1e3, p->matrix[0], p->matrix[1],
+               p->matrix[2], b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3,
+               b->pixel_size_m[2] * 1e3);
+    else
+        printf("  FOV %.1f x %.1f mm, matrix %d x %d, pixel %.4f x %.4f mm, slice %.3f mm\n",
+               p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->matrix[0], p->matrix[1],
+               b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3, p->slice_m * 1e3);
+    printf("  delta-k %.4f x %.4f 1/m, k-max %.3f x %.3f 1/m\n", b->delta_k_per_m[0],
+           b->delta_k_per_m[1], b->k_max_per_m[0], b->k_max_per_m[1]);
+    printf("Readout\n");
+    printf("  bandwidth %.1f Hz (%.2f Hz/pixel), dwell %.4f us, readout %.4f ms\n", b->bandwidth_hz,
+           b->bandwidth_per_pixel_hz, r->dwell_s * 1e6, r->readout_duration_s * 1e3);
+    if (p->sequence != KW_SEQ_SPIRAL)
+        printf("  readout gradient %.4f mT/m of %.4f mT/m\n", b->readout_gradient_T_per_m * 1e3,
+               p->gmax_T_per_m * 1e3);
+    printf("  %s gradient %.4f mT/m (TBW %.3g over %.3f ms)\n", p->ndim == 3 ? "slab-select" : "slice-select",
+           r->slice_gradient_T_per_m * 1e3, p->tbw, r->rf_duration_s * 1e3);
+    if (p->sequence == KW_SEQ_EPI)
+        printf("  EPI: %d shot(s), echo-train length %d, echo spacing %.4f ms, train %.3f ms, "
+               "partial Fourier %.3g\n", p->shots, r->echo_train_length, r->echo_spacing_s * 1e3,
+               r->echo_train_s * 1e3, p->partial_fourier);
+    if (p->sequence == KW_SEQ_RADIAL)
+        printf("  radial: %d spokes (Nyquist pi/2 x %d = %d)\n", r->spokes, p->matrix[0],
+               r->spokes_nyquist);
+    if (p->sequence == KW_SEQ_SPIRAL)
+        printf("  spiral: %d interleaves, %.4f ms readout per interleaf, %zu samples each\n",
+               r->interleaves, r->readout_per_interleave_s * 1e3, r->spiral.samples);
+    printf("Timing\n");
+    printf("  TE %.4f ms (minimum %.4f ms)%s, TR %.4f ms (minimum %.4f ms), scan %.3f s%s\n",
+           r->te_s * 1e3, r->min_te_s * 1e3, p->sequence == KW_SEQ_EPI ? " effective" : "",
+           r->tr_s * 1e3, r->min_tr_s * 1e3, r->scan_time_s, p->ndim == 2 ? " per slice" : "");
+    printf("  lobes (raster %.0f us):\n", p->raster_s * 1e6);
+    print_lobe("slice select", &r->slice_select);
+    print_lobe("slice rephaser", &r->slice_rephaser);
+    print_lobe("readout", &r->readout);
+    print_lobe("prephaser", &r->prephaser);
+    print_lobe("phase encode", &r->phase_encode);
+    print_lobe("partition encode", &r->partition_encode);
+    print_lobe("spoiler", &r->spoiler);
+    print_lobe("crusher", &r->crusher);
+    printf("Artefacts and signal\n");
+    if (p->sequence == KW_SEQ_SPIRAL)
+        printf("  fat-water %.1f Hz (%.1f ppm): a blur, %.2f cycles of phase by the end of the "
+               "readout\n", r->fat_water_hz, KW_FAT_WATER_PPM,
+               r->fat_water_hz * r->readout_per_interleave_s);
+    else
+        printf("  fat-water shift %.1f Hz (%.1f ppm): %.3f pixels = %.3f mm along the readout\n",
+               r->fat_water_hz, KW_FAT_WATER_PPM, r->chemical_shift_pixels, r->chemical_shift_mm);
+    if (p->sequence == KW_SEQ_EPI)
+        printf("  EPI phase direction: %.5f pixels per Hz off-resonance; fat-water %.2f pixels = "
+               "%.2f mm\n", r->distortion_pixels_per_hz, r->chemical_shift_phase_pixels,
+               r->chemical_shift_phase_mm);
+    if (isfinite(r->readout_to_t2star))
+        printf("  acquisition per excitation / T2* = %.3f (T2* %.2f ms)\n", r->readout_to_t2star,
+               p->t2star_s * 1e3);
+    printf("  voxel %.4g mm^3, total sampling time %.4g s: SNR factor (voxel x sqrt(time), the "
+           "usual proportionality) %.4g m^3 s^0.5", r->voxel_volume_m3 * 1e9,
+           r->total_sampling_time_s, r->snr_factor);
+    if (ref_factor > 0)
+        printf("; relative SNR %.4f", r->snr_factor / ref_factor);
+    printf("\nLimits\n  %-24s %16s %16s %16s  %s\n", "constraint", "required", "available",
+           "margin", "ok");
+    for (int i = 0; i < r->nlimits; i++) {
+        const kw_limit *l = &r->limits[i];
+        printf("  %-24s %16s %16s %16s  %s\n", l->name, fmt_unit(l->required, l->unit, u1, sizeof u1),
+               fmt_unit(l->available, l->unit, u2, sizeof u2),
+               fmt_unit(l->available - l->required, l->unit, u3, sizeof u3), l->ok ? "yes" : "NO");
+    }
+    if (r->feasible) {
+        printf("Feasible: yes\n");
+    } else {
+        const kw_nearest *n = &r->nearest;
+        printf("Feasible: NO. Failing:");
+        for (int i = 0; i < r->nlimits; i++)
+            if (!r->limits[i].ok)
+                printf(" %s (required %s, available %s, off by %s);", r->limits[i].name,
+                       fmt_unit(r->limits[i].required, r->limits[i].unit, u1, sizeof u1),
+                       fmt_unit(r->limits[i].available, r->limits[i].unit, u2, sizeof u2),
+                       fmt_unit(r->limits[i].required - r->limits[i].available, r->limits[i].unit,
+                                u3, sizeof u3));
+        printf("\nNearest feasible (each with the rest held):\n");
+        if (n->has_bandwidth)
+            printf("  bandwidth at most %.0f Hz (%.2f Hz/pixel)\n", n->bandwidth_hz,
+                   n->bandwidth_per_pixel_hz);
+        if (n->has_matrix)
+            printf("  or, at %.2f Hz/pixel, readout matrix at most %d (pixel at least %.4f mm)\n",
+                   r->bandwidth_per_pixel_hz, n->matrix_x, n->pixel_size_x_m * 1e3);
+        if (n->has_slice)
+            printf("  %s at least %.3f mm, or RF pulse at least %.3f ms\n",
+                   p->ndim == 3 ? "slab" : "slice", n->slice_m * 1e3, n->rf_duration_s * 1e3);
+        if (n->has_te)
+            printf("  TE at least %.4f ms\n", n->te_s * 1e3);
+        if (n->has_tr)
+            printf("  TR at least %.4f ms\n", n->tr_s * 1e3);
+        if (n->has_interleaves)
+            printf("  at least %d interleaves\n", n->interleaves);
+        if (n->has_combined) {
+            const kw_protocol *q = &n->combined;
+            printf("  all together (re-planned, feasible): bandwidth %.0f Hz, %s %.3f mm, RF %.3f ms",
+                   q->bandwidth_hz, p->ndim == 3 ? "slab" : "slice",
+                   (p->ndim == 3 ? q->fov_m[2] : q->slice_m) * 1e3, q->rf_duration_s * 1e3);
+            if (q->te_s > 0)
+                printf(", TE %.4f ms", q->te_s * 1e3);
+            if (q->tr_s > 0)
+                printf(", TR %.4f ms", q->tr_s * 1e3);
+            if (q->interleaves > 0)
+                printf(", %d interleaves", q->interleaves);
+            printf("\n");
+        }
+    }
+    printf("\n%s\n", KW_SAFETY_CAUTION);
+}
+
+static int report(const kw_protocol *p, const char *json_path, const char *plot,
+                  const char *kplot, double ref_factor)
+{
+    kw_plan_report *r = NULL;
+    kw_status st = kw_plan_create(&r, p);
     if (st)
         return kw_cli_status(st, "plan");
-    printf("kweave plan: %s, %d-D\n", seq_names[p->sequence], p->ndim);
-    printf("  B0 %.4g T, Larmor frequency %.6f MHz\n", p->b0_t, b.larmor_hz / 1e6);
-    printf("  FOV %.1f x %.1f mm, matrix %d x %d, pixel %.4f x %.4f mm\n", p->fov_m[0] * 1e3,
-           p->fov_m[1] * 1e3, p->matrix[0], p->matrix[1], b.pixel_size_m[0] * 1e3,
-           b.pixel_size_m[1] * 1e3);
-    printf("  delta-k %.4f x %.4f 1/m, k-max %.3f x %.3f 1/m\n", b.delta_k_per_m[0],
-           b.delta_k_per_m[1], b.k_max_per_m[0], b.k_max_per_m[1]);
-    printf("  bandwidth %.1f Hz (%.2f Hz/pixel), dwell %.4f us, readout %.4f ms\n",
-           b.bandwidth_hz, b.bandwidth_per_pixel_hz, b.dwell_s * 1e6,
-           b.readout_duration_s * 1e3);
-    printf("  readout gradient %.4f mT/m of %.4f mT/m available: %s\n",
-           b.readout_gradient_T_per_m * 1e3, p->gmax_T_per_m * 1e3,
-           b.readout_fits ? "fits" : "EXCEEDS the limit");
-    printf("  polarization at %.2f K: %.4g (%.3f per million)\n", p->temperature_k,
-           b.polarization, b.polarization * 1e6);
-    printf("  feasible: %s\n\n%s\n", b.readout_fits ? "yes" : "NO", KW_SAFETY_CAUTION);
     if (json_path) {
-        cJSON *j = cJSON_CreateObject();
-        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-        cJSON_AddStringToObject(j, "sequence", seq_names[p->sequence]);
-        cJSON_AddNumberToObject(j, "b0_t", p->b0_t);
-        cJSON_AddNumberToObject(j, "larmor_hz", b.larmor_hz);
-        kw_json_add_vec(j, "fov_m", p->fov_m, p->ndim);
-        double m[3] = {p->matrix[0], p->matrix[1], p->matrix[2]};
-        kw_json_add_vec(j, "matrix", m, p->ndim);
-        kw_json_add_vec(j, "pixel_size_m", b.pixel_size_m, p->ndim);
-        kw_json_add_vec(j, "delta_k_per_m", b.delta_k_per_m, p->ndim);
-        kw_json_add_vec(j, "k_max_per_m", b.k_max_per_m, p->ndim);
-        cJSON_AddNumberToObject(j, "dwell_s", b.dwell_s);
-        cJSON_AddNumberToObject(j, "readout_duration_s", b.readout_duration_s);
-        cJSON_AddNumberToObject(j, "bandwidth_hz", b.bandwidth_hz);
-        cJSON_AddNumberToObject(j, "bandwidth_per_pixel_hz", b.bandwidth_per_pixel_hz);
-        cJSON_AddNumberToObject(j, "readout_gradient_T_per_m", b.readout_gradient_T_per_m);
-        cJSON_AddNumberToObject(j, "gmax_T_per_m", p->gmax_T_per_m);
-        cJSON_AddNumberToObject(j, "slew_T_per_m_per_s", p->slew_T_per_m_per_s);
-        cJSON_AddNumberToObject(j, "temperature_k", p->temperature_k);
-        cJSON_AddNumberToObject(j, "polarization", b.polarization);
-        cJSON_AddBoolToObject(j, "feasible", b.readout_fits);
-        cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
-        st = kw_json_write(json_path, j);
+        cJSON *j = report_json(r, ref_factor);
+        st = j ? kw_json_write(json_path, j) : kw_set_error(KW_ENOMEM, "out of memory");
         cJSON_Delete(j);
-        if (st)
+        if (st) {
+            kw_plan_destroy(r);
             return kw_cli_status(st, "json");
+        }
     }
-    return b.readout_fits ? KW_EXIT_OK : KW_EXIT_INFEASIBLE;
+    if (plot && (st = kw_plot_timing(plot, r))) {
+        kw_plan_destroy(r);
+        return kw_cli_status(st, "plot");
+    }
+    if (kplot && (st = kw_plot_kspace(kplot, r))) {
+        kw_plan_destroy(r);
+        return kw_cli_status(st, "kplot");
+    }
+    report_text(r, ref_factor);
+    int feasible = r->feasible;
+    kw_plan_destroy(r);
+    return feasible ? KW_EXIT_OK : KW_EXIT_INFEASIBLE;
 }
 
 /* ---- the verb ----------------------------------------------------------------- */
@@ -331,7 +600,7 @@ int kw_cmd_plan(int argc, char **argv)
 
     const char *val[K_COUNT] = {0};
     int seen[K_COUNT] = {0};
-    const char *protocol = NULL, *json = NULL, *plot = NULL, *kplot = NULL;
+    const char *protocol = NULL, *json = NULL, *plot = NULL, *kplot = NULL, *reference = NULL;
     const char *bw_dummy = NULL;
     kw_opt table[] = {
         {"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
@@ -381,6 +650,8 @@ int kw_cmd_plan(int argc, char **argv)
          "radial spokes (default: Nyquist, pi/2 x N)"},
         {"averages", KW_OPT_STRING, &val[K_AVERAGES], KW_UNIT_NONE, &seen[K_AVERAGES],
          "signal averages (default 1)"},
+        {"reference", KW_OPT_STRING, &reference, KW_UNIT_NONE, NULL,
+         "protocol file of a reference protocol for the relative SNR"},
         {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON"},
         {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG"},
         {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG"},
@@ -395,16 +666,12 @@ int kw_cmd_plan(int argc, char **argv)
     free(av);
     if (rc >= 0)
         return rc;
-    (void)plot;
-    (void)kplot;
 
     kw_status st;
     if (protocol) {
-        in.in_file = 1;
         st = kw_protofile_read(protocol, file_key, &in);
         if (st)
             return kw_cli_status(st, "protocol");
-        in.in_file = 0;
     }
     if (nbw) { /* the command line's bandwidth replaces the file's */
         in.bw_set[0] = in.bw_set[1] = 0;
@@ -420,5 +687,20 @@ int kw_cmd_plan(int argc, char **argv)
     }
     if ((st = finish_protocol(&in)))
         return kw_cli_status(st, NULL);
-    return report_basics(&in.p, json);
+    double ref_factor = 0;
+    if (reference) {
+        plan_in ref;
+        memset(&ref, 0, sizeof ref);
+        kw_protocol_defaults(&ref.p);
+        if ((st = kw_protofile_read(reference, file_key, &ref)))
+            return kw_cli_status(st, "reference");
+        if ((st = finish_protocol(&ref)))
+            return kw_cli_status(st, "reference");
+        kw_plan_report *rr = NULL;
+        if ((st = kw_plan_create(&rr, &ref.p)))
+            return kw_cli_status(st, "reference");
+        ref_factor = rr->snr_factor;
+        kw_plan_destroy(rr);
+    }
+    return report(&in.p, json, plot, kplot, ref_factor);
 }

@@ -105,12 +105,14 @@ int kw_cmd_recon(int argc, char **argv)
     o.lambda = o.stop = o.tolerance = o.oversampling = NAN;
     o.seed = 1;
     int seen_seed = 0, seen_rep = 0;
+    const char *sens_out = NULL;
     const kw_opt table[] = {
         {"in", KW_OPT_STRING, &o.in, 0, NULL, "k-space .npy (- for stdin)"},
         {"out", KW_OPT_STRING, &o.out, 0, NULL, "image: .npy (float32, or complex64 with --keep-coils) or .png"},
         {"method", KW_OPT_STRING, &o.method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
         {"combine", KW_OPT_STRING, &o.combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
         {"sens", KW_OPT_STRING, &o.sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
+        {"sens-out", KW_OPT_STRING, &sens_out, 0, NULL, "write the sensitivities estimated from the calibration block (.npy)"},
         {"noise-cov", KW_OPT_STRING, &o.noise_cov, 0, NULL, "coil noise covariance .npy (coils, coils): prewhitening"},
         {"kernel", KW_OPT_STRING, &o.kernel, 0, NULL, "GRAPPA kernel KYxKX (source lines x readout points; default 2x5)"},
         {"lambda", KW_OPT_DOUBLE, &o.lambda, 0, NULL, "regularisation weight (relative; method-specific default)"},
@@ -164,6 +166,9 @@ int kw_cmd_recon(int argc, char **argv)
         return kw_cli_fail("seed", "must be >= 0");
     (void)seen_seed;
 
+    if (sens_out && !ends_with(sens_out, ".npy"))
+        return kw_cli_fail("sens-out", "'%s': give a .npy file name", sens_out);
+    kw_cart_sens_out = sens_out;
     kw_recon_job job;
     memset(&job, 0, sizeof job);
     job.opt = &o;

@@ -19,6 +19,16 @@ typedef struct kw_cart {
     kw_cart_sampling smp; /* acceleration, ACS, partial Fourier: from the data */
 } kw_cart;
 
+/* `kweave recon --sens-out FILE.npy`: where kw_cart_setup() writes the
+ * sensitivities it estimates (NULL: not written). Set by cmd_recon.c. */
+extern const char *kw_cart_sens_out;
+
+/*! kw_cart_cov_normalise(): divide a noise covariance (nc x nc) by its
+ * mean diagonal. Whitening with the result gives every coil the mean noise
+ * variance of the input instead of 1, so images keep the data's intensity
+ * scale (a scalar does not change any combination or unfolding). */
+void kw_cart_cov_normalise(float complex *cov, size_t nc);
+
 /*! kw_cart_setup(): copy and whiten the job's k-space and maps, analyse the
  * sampling (checked against the sidecar's "acceleration"/"acs_lines"). */
 kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c);

@@ -7,6 +7,9 @@
 #include <string.h>
 
 #include "kw_combine.h"
+#include "npy.h"
+
+const char *kw_cart_sens_out;
 
 /* Threshold of the estimated sensitivities' support: 4% of the maximum
  * low-resolution signal (common practice, no source). */
@@ -54,6 +57,16 @@ static int json_int(const cJSON *o, const char *key, int *v)
     return -1;
 }
 
+void kw_cart_cov_normalise(float complex *cov, size_t nc)
+{
+    double tr = 0;
+    for (size_t i = 0; i < nc; i++)
+        tr += crealf(cov[i * nc + i]);
+    if (tr > 0)
+        for (size_t i = 0; i < nc * nc; i++)
+            cov[i] /= (float)(tr / (double)nc);
+}
+
 kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
 {
     memset(c, 0, sizeof *c);
@@ -90,8 +103,9 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
         for (int a = 0; a < 3; a++)
             if (c->smp.accel[a] > 1)
                 found = (int)c->smp.acs_n[a];
-        KW_FAIL_IF(acs != found, KW_EINVAL,
-                   "acs_lines: the sidecar says %d but the data hold %d", acs, found);
+        /* the block found may include a neighbouring lattice line */
+        KW_FAIL_IF(acs > found, KW_EINVAL,
+                   "acs_lines: the sidecar says %d but the data hold only %d", acs, found);
     }
 
     if (job->sens.data) {
@@ -114,6 +128,7 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
         KW_FAIL_IF(!cov, KW_ENOMEM, "noise-cov: out of memory");
         for (size_t i = 0; i < c->nc * c->nc; i++)
             cov[i] = q->dtype == KW_C64 ? ((float complex *)q->data)[i] : ((float *)q->data)[i];
+        kw_cart_cov_normalise(cov, c->nc);
         st = kw_prewhiten_matrix(cov, c->nc, c->wht);
         free(cov);
         if (st)
@@ -123,6 +138,8 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
             kw_prewhiten_apply(c->wht, c->nc, c->npix, c->sens);
         cJSON_AddBoolToObject(job->report, "prewhitened", 1);
     }
+    if (kw_cart_sens_out && (st = kw_cart_need_sens(job, c)))
+        return st;
     cJSON *smp = cJSON_AddObjectToObject(job->report, "sampling");
     if (smp) {
         double acc[3] = {c->smp.accel[0], c->smp.accel[1], c->smp.accel[2]};
@@ -153,6 +170,21 @@ kw_status kw_cart_need_sens(kw_recon_job *job, kw_cart *c)
     if (st)
         return st;
     cJSON_AddStringToObject(job->report, "sens_source", "estimated (Walsh eigenvector, ACS)");
+    if (kw_cart_sens_out) {
+        /* the maps as estimated: in the whitened coil basis when a noise
+         * covariance was given */
+        kw_array a = {0};
+        a.dtype = KW_C64;
+        a.ndim = c->sdim + 1;
+        a.dims[0] = c->nc;
+        for (int i = 0; i < c->sdim; i++)
+            a.dims[1 + i] = c->d[3 - c->sdim + i];
+        a.data = c->sens;
+        if ((st = kw_npy_write(kw_cart_sens_out, &a)))
+            return st;
+        cJSON_AddStringToObject(job->report, "sens_file", kw_cart_sens_out);
+        kw_cart_sens_out = NULL; /* once per run (not for pseudo-replicas) */
+    }
     return KW_OK;
 }
 

@@ -46,11 +46,18 @@ kw_status kw_recon_pseudo_replica(kw_recon_job *job, const kw_recon_method *m)
         goto out;
     }
     if (job->noise_cov.data) {
+        /* the covariance normalised as kw_cart_setup() whitens with it, so
+         * that the whitened replica noise has variance sigma^2 */
         const kw_array *q = &job->noise_cov;
+        double tr = 0;
+        for (size_t i = 0; i < nc; i++)
+            tr += q->dtype == KW_C64 ? crealf(((float complex *)q->data)[i * nc + i])
+                                     : ((float *)q->data)[i * nc + i];
+        double nrm = tr > 0 ? tr / (double)nc : 1.0;
         for (size_t j = 0; j < nc; j++)
             for (size_t i = j; i < nc; i++) {
-                double complex s = q->dtype == KW_C64 ? ((float complex *)q->data)[i * nc + j]
-                                                      : ((float *)q->data)[i * nc + j];
+                double complex s = (q->dtype == KW_C64 ? ((float complex *)q->data)[i * nc + j]
+                                                       : ((float *)q->data)[i * nc + j]) / nrm;
                 for (size_t k = 0; k < j; k++)
                     s -= L[i * nc + k] * conj(L[j * nc + k]);
                 if (i == j) {
@@ -82,6 +89,8 @@ kw_status kw_recon_pseudo_replica(kw_recon_job *job, const kw_recon_method *m)
             const kw_array *q = &job->noise_cov;
             for (size_t i = 0; w && cov && i < nc * nc; i++)
                 cov[i] = q->dtype == KW_C64 ? ((float complex *)q->data)[i] : ((float *)q->data)[i];
+            if (cov)
+                kw_cart_cov_normalise(cov, nc);
             st = (w && cov) ? kw_prewhiten_matrix(cov, nc, w) : kw_set_error(KW_ENOMEM, "gfactor: out of memory");
             if (!st)
                 kw_prewhiten_apply(w, nc, npix, s);

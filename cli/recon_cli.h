@@ -56,6 +56,17 @@ typedef struct kw_recon_method {
 
 /* Method entry points (one per cli/recon_<name>.c). */
 kw_status kw_recon_run_fft(kw_recon_job *job);
+kw_status kw_recon_run_homodyne(kw_recon_job *job);
+kw_status kw_recon_run_pocs(kw_recon_job *job);
+kw_status kw_recon_run_sense(kw_recon_job *job);
+kw_status kw_recon_run_grappa(kw_recon_job *job);
+
+kw_status kw_recon_run_grid(kw_recon_job *job);        /* recon_grid.c */
+kw_status kw_recon_run_cg_sense(kw_recon_job *job);    /* recon_cgsense.c */
+kw_status kw_recon_run_cs_wavelet(kw_recon_job *job);  /* recon_cs.c (FISTA) */
+kw_status kw_recon_run_cs_tv(kw_recon_job *job);       /* recon_cs.c (FISTA) */
+kw_status kw_recon_run_cs_wavelet_admm(kw_recon_job *job); /* recon_cs.c */
+kw_status kw_recon_run_cs_tv_admm(kw_recon_job *job);  /* recon_cs.c */
 
 /* Terminated by an entry with name == NULL. */
 extern const kw_recon_method kw_recon_methods[];

@@ -2,7 +2,9 @@
  * of DESIGN.md over the spatial axes of every coil (one batched FFTW plan,
  * made once), then coil combination (root-sum-of-squares by default). For
  * partial-Fourier or undersampled data this is the zero-filled
- * reconstruction. */
+ * reconstruction. (The fused kw_rssrecon is not used here: its per-thread
+ * partial sums make the image depend on the thread count, and `kweave
+ * recon` promises byte-identical output for any thread count.) */
 #include <string.h>
 
 #include "kw_fft.h"

@@ -75,6 +75,53 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
             s->acs_lo[a] = b;
             s->acs_n[a] = e - b + 1;
         }
+    }
+    /* The runs through the centre may reach a neighbouring lattice line: keep
+     * the box only as large as it is fully sampled (shrink faces that are
+     * not). */
+    for (;;) {
+        /* the face with the largest share of unsampled points goes first */
+        int ba = -1, bs = 0;
+        double worst = 0;
+        for (int a = 0; a < 3; a++) {
+            if (s->acs_n[a] < 2)
+                continue;
+            for (int side = 0; side < 2; side++) {
+                size_t face = side ? s->acs_lo[a] + s->acs_n[a] - 1 : s->acs_lo[a];
+                size_t tot = 0, miss = 0;
+                for (size_t p = 0; p < npix; p++) {
+                    size_t c3[3] = {p / (d[1] * d[2]), (p / d[2]) % d[1], p % d[2]};
+                    if (c3[a] != face)
+                        continue;
+                    int in = 1;
+                    for (int b = 0; b < 3; b++)
+                        if (b != a && (c3[b] < s->acs_lo[b] || c3[b] >= s->acs_lo[b] + s->acs_n[b]))
+                            in = 0;
+                    tot += in;
+                    miss += in && !mask[p];
+                }
+                double frac = tot ? (double)miss / (double)tot : 0;
+                if (frac > worst) {
+                    worst = frac;
+                    ba = a;
+                    bs = side;
+                }
+            }
+        }
+        if (ba < 0)
+            break;
+        if (!bs)
+            s->acs_lo[ba]++;
+        s->acs_n[ba]--;
+    }
+    for (int a = 0; a < 3; a++) {
+        memset(proj, 0, maxd);
+        for (size_t p = 0; p < npix; p++)
+            if (mask[p]) {
+                size_t idx = a == 0 ? p / (d[1] * d[2]) : a == 1 ? (p / d[2]) % d[1] : p % d[2];
+                proj[idx] = 1;
+            }
+        size_t lo = s->lo[a], hi = s->hi[a];
         /* lattice outside the block */
         size_t g = 0, first = (size_t)-1, prev = (size_t)-1;
         for (size_t i = lo; i <= hi; i++) {
@@ -83,7 +130,9 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
                 continue;
             if (first == (size_t)-1)
                 first = i;
-            if (prev != (size_t)-1)
+            /* spacings on one side of the block only (not across it) */
+            int across = s->acs_n[a] && prev != (size_t)-1 && prev < s->acs_lo[a] && i > s->acs_lo[a];
+            if (prev != (size_t)-1 && !across)
                 g = gcd_sz(g, i - prev);
             prev = i;
         }
@@ -105,8 +154,8 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
                 s->uniform = 0;
         }
         size_t left = ctr[a] - lo, right = hi - ctr[a];
-        s->partial[a] = d[a] > 1 && (lo > 0 || hi < d[a] - 1) &&
-                        (left > right + 1 || right > left + 1);
+        /* asymmetric by more than one lattice step */
+        s->partial[a] = d[a] > 1 && (left > right + (size_t)R || right > left + (size_t)R);
     }
     free(proj);
     /* every lattice point sampled, nothing else outside the block */

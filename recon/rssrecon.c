@@ -16,7 +16,7 @@ struct kw_rssrecon {
     size_t d[3], n, coils;
     fftwf_plan plan;          /* one coil, out of place, unnormalised backward */
     float complex *scratch;   /* nthreads x n */
-    float *acc;               /* nthreads x n squared magnitudes */
+    float *acc;               /* n: sum of squared magnitudes over coils */
     kw_fft_plan *generic;     /* odd sizes: centered transform in place */
 };
 
@@ -58,7 +58,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
             goto fail;
     }
     r->scratch = kw_alloc((size_t)r->nthreads * r->n * sizeof(float complex));
-    r->acc = kw_alloc((size_t)r->nthreads * r->n * sizeof(float));
+    r->acc = kw_alloc(r->n * sizeof(float));
     KW_FAIL_GOTO(!r->scratch || !r->acc, st, KW_ENOMEM, fail, "rss recon: out of memory");
     if (r->even) {
         /* Plan on a scratch pair; executed later with fftwf_execute_dft on the
@@ -108,40 +108,50 @@ kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *i
                "rss recon: k-space must be 16-byte aligned");
     const size_t d0 = r->d[0], d1 = r->d[1], d2 = r->d[2];
     const size_t h0 = d0 / 2, h1 = d1 / 2, h2 = d2 / 2;
-    const double scale = 1.0 / (double)n; /* unitary: |x/sqrt(n)|^2 */
+    const float scale = 1.0f / (float)n; /* unitary: |x/sqrt(n)|^2 */
     const int nt = r->nthreads;
+    float *acc = r->acc;
+    /* Coils go through in chunks of nt: each thread transforms one coil of
+     * the chunk into its scratch; then every pixel adds the chunk's squared
+     * magnitudes in coil order. Each pixel's sum thus runs over the coils in
+     * the same order whatever the thread count: results are bit-identical
+     * across thread counts. */
 #pragma omp parallel num_threads(nt)
     {
         int t = 0;
 #ifdef _OPENMP
         t = omp_get_thread_num();
 #endif
-        float complex *s = r->scratch + (size_t)t * n;
-        float *a = r->acc + (size_t)t * n;
-        memset(a, 0, n * sizeof(float));
 #pragma omp for schedule(static)
-        for (long long c = 0; c < (long long)r->coils; c++) {
-            fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + (size_t)c * n),
-                              (fftwf_complex *)s);
-            for (size_t i = 0; i < n; i++) {
-                float re = crealf(s[i]), im = cimagf(s[i]);
-                a[i] += re * re + im * im;
+        for (long long i = 0; i < (long long)n; i++)
+            acc[i] = 0.0f;
+        for (size_t c0 = 0; c0 < r->coils; c0 += (size_t)nt) {
+            size_t m = r->coils - c0 < (size_t)nt ? r->coils - c0 : (size_t)nt;
+            if ((size_t)t < m)
+                fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + (c0 + (size_t)t) * n),
+                                  (fftwf_complex *)(r->scratch + (size_t)t * n));
+#pragma omp barrier
+#pragma omp for schedule(static)
+            for (long long i = 0; i < (long long)n; i++) {
+                float a = acc[i];
+                for (size_t u = 0; u < m; u++) {
+                    float complex v = r->scratch[u * n + (size_t)i];
+                    a += crealf(v) * crealf(v) + cimagf(v) * cimagf(v);
+                }
+                acc[i] = a;
             }
         }
-        /* Reduce the thread accumulators and apply the output shift:
-         * image index (i, j, k) reads transform index (i+h0, j+h1, k+h2). */
+        /* The output shift: image index (i, j, k) reads transform index
+         * (i + h0, j + h1, k + h2) modulo the sizes. */
 #pragma omp for schedule(static)
         for (long long row = 0; row < (long long)(d0 * d1); row++) {
             size_t i = (size_t)row / d1, j = (size_t)row % d1;
             size_t si = (i + h0) % d0, sj = (j + h1) % d1;
-            const size_t src = (si * d1 + sj) * d2;
+            const float *src = acc + (si * d1 + sj) * d2;
             float *o = img + (size_t)row * d2;
             for (size_t k = 0; k < d2; k++) {
                 size_t sk = k + h2 < d2 ? k + h2 : k + h2 - d2;
-                double v = 0;
-                for (int u = 0; u < nt; u++)
-                    v += r->acc[(size_t)u * n + src + sk];
-                o[k] = (float)sqrt(v * scale);
+                o[k] = sqrtf(src[sk] * scale);
             }
         }
     }

@@ -1,0 +1,294 @@
+/* coils.c: loop fields, a ring of receive coils, and the trigonometric-series
+ * fit of their sensitivities (Guerquin-Kern et al. 2012). */
+#include "kw_coils.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+kw_status kw_ellip_ke(double m, double *K, double *E)
+{
+    KW_FAIL_IF(!(m >= 0 && m < 1), KW_ERANGE, "ellip: parameter m = %g outside [0, 1)", m);
+    /* Arithmetic-geometric mean (Abramowitz & Stegun 17.6): K = pi/(2 a_N);
+     * E = K (1 - sum_n 2^(n-1) c_n^2), c_0^2 = m, c_{n+1} = (a_n - b_n)/2. */
+    double a = 1.0, b = sqrt(1.0 - m), sum = 0.5 * m, pow2 = 0.5;
+    for (int i = 0; i < 60; i++) {
+        double c = 0.5 * (a - b);
+        double an = 0.5 * (a + b);
+        b = sqrt(a * b);
+        a = an;
+        pow2 *= 2.0;
+        sum += pow2 * c * c;
+        if (fabs(c) < 1e-17 * a)
+            break;
+    }
+    *K = KW_PI / (2.0 * a);
+    *E = *K * (1.0 - sum);
+    return KW_OK;
+}
+
+kw_status kw_loop_field(const double c[3], const double n[3], double a, double current,
+                        const double r[3], double b[3])
+{
+    KW_FAIL_IF(!(a > 0), KW_EINVAL, "coil: loop radius must be positive");
+    double nn = sqrt(n[0] * n[0] + n[1] * n[1] + n[2] * n[2]);
+    KW_FAIL_IF(!(nn > 0), KW_EINVAL, "coil: zero normal");
+    double u[3] = {n[0] / nn, n[1] / nn, n[2] / nn};
+    double d[3] = {r[0] - c[0], r[1] - c[1], r[2] - c[2]};
+    double z = d[0] * u[0] + d[1] * u[1] + d[2] * u[2];
+    double rv[3] = {d[0] - z * u[0], d[1] - z * u[1], d[2] - z * u[2]};
+    double rho = sqrt(rv[0] * rv[0] + rv[1] * rv[1] + rv[2] * rv[2]);
+    double q = (a + rho) * (a + rho) + z * z;
+    double g = (a - rho) * (a - rho) + z * z;
+    KW_FAIL_IF(g < 1e-24 * a * a, KW_ERANGE, "coil: field point on the wire");
+    double m = 4.0 * a * rho / q;
+    double K, E;
+    kw_status st = kw_ellip_ke(m, &K, &E);
+    if (st)
+        return st;
+    /* Closed form of the Biot-Savart integral for a circular loop (e.g.
+     * Smythe, "Static and Dynamic Electricity", 1950, sec. 7.10; Simpson et
+     * al. 2001, NASA/TM-2013-217919 form), axial (along n) and radial parts. */
+    double k0 = KW_MU0 * current / (2.0 * KW_PI * sqrt(q));
+    double bz = k0 * (K + (a * a - rho * rho - z * z) / g * E);
+    double brho = 0.0;
+    if (rho > 1e-12 * a)
+        brho = k0 * z / rho * (-K + (a * a + rho * rho + z * z) / g * E);
+    for (int i = 0; i < 3; i++)
+        b[i] = bz * u[i] + (rho > 1e-12 * a ? brho * rv[i] / rho : 0.0);
+    return KW_OK;
+}
+
+static kw_status ring_check(const kw_coil_ring *ring)
+{
+    KW_FAIL_IF(!ring, KW_EINVAL, "coils: NULL ring");
+    KW_FAIL_IF(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL,
+               "coils: count must be 1..128 (got %d)", ring->ncoils);
+    KW_FAIL_IF(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL,
+               "coil-radius: must be positive");
+    KW_FAIL_IF(!(ring->fov[0] > 0 && ring->fov[1] > 0), KW_EINVAL, "fov: must be positive");
+    double half_diag = 0.5 * hypot(ring->fov[0], ring->fov[1]);
+    KW_FAIL_IF(!(ring->distance > half_diag) || !isfinite(ring->distance), KW_EINVAL,
+               "coil-distance: the loops must stand outside the FOV (more than %g m "
+               "from the centre)", half_diag);
+    return KW_OK;
+}
+
+static void ring_raw(const kw_coil_ring *ring, int cidx, double xm, double ym,
+                     double complex *s)
+{
+    double phi = 2.0 * KW_PI * cidx / ring->ncoils;
+    double c[3] = {ring->distance * cos(phi), ring->distance * sin(phi), 0};
+    double n[3] = {-cos(phi), -sin(phi), 0};
+    double r[3] = {xm, ym, 0}, b[3] = {0, 0, 0};
+    kw_loop_field(c, n, ring->radius, 1.0, r, b);
+    *s = b[0] - I * b[1];
+}
+
+kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
+                            double complex *s)
+{
+    kw_status st = ring_check(ring);
+    if (st)
+        return st;
+    double norm = 0;
+    for (int c = 0; c < ring->ncoils; c++) {
+        double complex s0;
+        ring_raw(ring, c, 0, 0, &s0);
+        norm += creal(s0 * conj(s0));
+    }
+    norm = 1.0 / sqrt(norm);
+    for (int c = 0; c < ring->ncoils; c++) {
+        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], &s[c]);
+        s[c] *= norm;
+    }
+    return KW_OK;
+}
+
+kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
+                            float complex *out)
+{
+    kw_status st = ring_check(ring);
+    if (st)
+        return st;
+    KW_FAIL_IF(!out || !nx || !ny, KW_EINVAL, "coils: empty grid");
+    int nc = ring->ncoils;
+    double complex s[128];
+    for (size_t r = 0; r < ny; r++)
+        for (size_t col = 0; col < nx; col++) {
+            double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
+            double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
+            kw_coil_ring_sens(ring, x, y, s);
+            for (int c = 0; c < nc; c++)
+                out[((size_t)c * ny + r) * nx + col] = (float complex)s[c];
+        }
+    return KW_OK;
+}
+
+double complex kw_coil_series_eval(const double complex *coef, int order,
+                                   double period, double u, double v)
+{
+    int side = 2 * order + 1;
+    double complex acc = 0;
+    for (int q = -order; q <= order; q++)
+        for (int p = -order; p <= order; p++) {
+            double ph = 2.0 * KW_PI * (p * u + q * v) / period;
+            acc += coef[(q + order) * side + (p + order)] * (cos(ph) + I * sin(ph));
+        }
+    return acc;
+}
+
+/* In-place Cholesky of the Hermitian positive-definite P x P matrix g (lower
+ * triangle used); 0 on success. */
+static int cholesky(double complex *g, int P)
+{
+    for (int j = 0; j < P; j++) {
+        double d = creal(g[j * P + j]);
+        for (int k = 0; k < j; k++)
+            d -= creal(g[j * P + k] * conj(g[j * P + k]));
+        if (!(d > 0))
+            return -1;
+        d = sqrt(d);
+        g[j * P + j] = d;
+        for (int i = j + 1; i < P; i++) {
+            double complex s = g[i * P + j];
+            for (int k = 0; k < j; k++)
+                s -= g[i * P + k] * conj(g[j * P + k]);
+            g[i * P + j] = s / d;
+        }
+    }
+    return 0;
+}
+
+static void chol_solve(const double complex *L, int P, double complex *x)
+{
+    for (int i = 0; i < P; i++) {
+        double complex s = x[i];
+        for (int k = 0; k < i; k++)
+            s -= L[i * P + k] * x[k];
+        x[i] = s / creal(L[i * P + i]);
+    }
+    for (int i = P - 1; i >= 0; i--) {
+        double complex s = x[i];
+        for (int k = i + 1; k < P; k++)
+            s -= conj(L[k * P + i]) * x[k];
+        x[i] = s / creal(L[i * P + i]);
+    }
+}
+
+kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                      const float *weight, int order, double period,
+                      double complex *coef, double *residual)
+{
+    KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny, KW_EINVAL, "coil fit: bad arguments");
+    KW_FAIL_IF(order < 0 || order > 8, KW_ERANGE, "coil-order: %d outside 0..8", order);
+    KW_FAIL_IF(!(period > 0) || !isfinite(period), KW_EINVAL, "coil fit: period must be positive");
+    const int side = 2 * order + 1, P = side * side;
+    size_t sx = (nx + 63) / 64, sy = (ny + 63) / 64;
+    size_t M = 0;
+    for (size_t r = 0; r < ny; r += sy)
+        for (size_t c = 0; c < nx; c += sx)
+            if (!weight || weight[r * nx + c] != 0)
+                M++;
+    KW_FAIL_IF(M < (size_t)P, KW_EINVAL,
+               "coil fit: %zu fit points for %d coefficients (object too small "
+               "or order too high)", M, P);
+    double complex *A = malloc(M * (size_t)P * sizeof *A);
+    double complex *G = calloc((size_t)P * P, sizeof *G);
+    double complex *h = malloc((size_t)P * sizeof *h);
+    size_t *idx = malloc(M * sizeof *idx);
+    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
+    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
+    kw_status st = KW_OK;
+    if (!A || !G || !h || !idx || !ex || !ey) {
+        st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
+        goto done;
+    }
+    /* separable basis tables: exp(i 2 pi p u / period) per column, per row */
+    for (size_t c = 0; c < nx; c++) {
+        double u = ((double)c - (double)(nx / 2)) / (double)nx;
+        for (int p = -order; p <= order; p++) {
+            double ph = 2.0 * KW_PI * p * u / period;
+            ex[c * side + (p + order)] = cos(ph) + I * sin(ph);
+        }
+    }
+    for (size_t r = 0; r < ny; r++) {
+        double v = ((double)r - (double)(ny / 2)) / (double)ny;
+        for (int q = -order; q <= order; q++) {
+            double ph = 2.0 * KW_PI * q * v / period;
+            ey[r * side + (q + order)] = cos(ph) + I * sin(ph);
+        }
+    }
+    M = 0;
+    for (size_t r = 0; r < ny; r += sy)
+        for (size_t c = 0; c < nx; c += sx) {
+            if (weight && weight[r * nx + c] == 0)
+                continue;
+            idx[M] = r * nx + c;
+            for (int q = 0; q < side; q++)
+                for (int p = 0; p < side; p++)
+                    A[M * P + q * side + p] = ey[r * side + q] * ex[c * side + p];
+            M++;
+        }
+    /* normal equations G = A^H A (lower triangle), small Tikhonov term for
+     * safety (1e-10 of the mean diagonal) */
+#pragma omp parallel for schedule(dynamic, 4)
+    for (int i = 0; i < P; i++)
+        for (int j = 0; j <= i; j++) {
+            double complex s = 0;
+            for (size_t m = 0; m < M; m++)
+                s += A[m * P + i] * conj(A[m * P + j]);
+            G[i * P + j] = s;
+        }
+    double tr = 0;
+    for (int i = 0; i < P; i++)
+        tr += creal(G[i * P + i]);
+    for (int i = 0; i < P; i++)
+        G[i * P + i] += 1e-10 * tr / P;
+    /* G above is sum conj(A_j) A_i = (A^H A)_{ji}; Hermitian: (A^H A)_{ij} = conj */
+    for (int i = 0; i < P; i++)
+        for (int j = 0; j <= i; j++)
+            G[i * P + j] = conj(G[i * P + j]);
+    if (cholesky(G, P)) {
+        st = kw_set_error(KW_ENUMERIC, "coil fit: normal equations not positive definite");
+        goto done;
+    }
+    for (int c = 0; c < ncoils; c++) {
+        const float complex *mp = maps + (size_t)c * nx * ny;
+        for (int i = 0; i < P; i++) {
+            double complex s = 0;
+            for (size_t m = 0; m < M; m++)
+                s += conj(A[m * P + i]) * mp[idx[m]];
+            h[i] = s;
+        }
+        chol_solve(G, P, h);
+        memcpy(coef + (size_t)c * P, h, (size_t)P * sizeof *h);
+        if (residual) {
+            double num = 0, den = 0;
+            for (size_t r = 0; r < ny; r++)
+                for (size_t col = 0; col < nx; col++) {
+                    if (weight && weight[r * nx + col] == 0)
+                        continue;
+                    double complex f = 0;
+                    for (int q = 0; q < side; q++) {
+                        double complex t = 0;
+                        for (int p = 0; p < side; p++)
+                            t += h[q * side + p] * ex[col * side + p];
+                        f += t * ey[r * side + q];
+                    }
+                    double complex e = f - mp[r * nx + col];
+                    num += creal(e * conj(e));
+                    den += creal(mp[r * nx + col] * conj(mp[r * nx + col]));
+                }
+            residual[c] = den > 0 ? sqrt(num / den) : 0.0;
+        }
+    }
+done:
+    free(A);
+    free(G);
+    free(h);
+    free(idx);
+    free(ex);
+    free(ey);
+    return st;
+}

@@ -1,0 +1,78 @@
+/* kw_coils.h: receive coils: the field of a circular loop (Biot-Savart, in
+ * closed form with complete elliptic integrals), a ring of loops around the
+ * object, sensitivity maps, and their fit by a low-order trigonometric series
+ * (Guerquin-Kern et al. 2012, IEEE TMI 31:626) that lets kw_simulate.h give
+ * the exact k-space of (sensitivity x phantom).
+ *
+ * Geometry: SI metres; B0 along z; the image plane is z = 0 with x right and
+ * y up (kw_phantom.h). The ring's loops stand on a cylinder around the z axis:
+ * loop c has its centre at distance `distance` from the axis, at azimuth
+ * 2 pi c / N (coil 0 on +x, counter-clockwise), its normal pointing at the
+ * axis, radius `radius`.
+ *
+ * Receive sensitivity (principle of reciprocity, Hoult 2000, Concepts Magn
+ * Reson 12:173): proportional to the transverse field per unit current,
+ * taken here as B1- = (Bx - i By); the sign of the imaginary part is a
+ * convention (sense of precession) that magnitude images and coil combination
+ * do not depend on. Maps are scaled so that the root-sum-of-squares over the
+ * coils is 1 at the centre of the FOV.
+ */
+#ifndef KW_COILS_H
+#define KW_COILS_H
+
+#include "kw_base.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/*! kw_ellip_ke(): complete elliptic integrals of the first and second kind
+ * K(m), E(m) with parameter m = k^2 in [0, 1) (the convention of
+ * scipy.special.ellipk/ellipe), by the arithmetic-geometric mean. */
+kw_status kw_ellip_ke(double m, double *K, double *E);
+
+/*! kw_loop_field(): magnetic field (T) at `r` of a circular loop of radius
+ * `a` (m) centred at `c` with unit normal `n`, carrying `current` (A),
+ * the current circulating counter-clockwise seen from the tip of n. b[3]
+ * receives Bx, By, Bz. KW_ERANGE on the wire itself. */
+kw_status kw_loop_field(const double c[3], const double n[3], double a, double current,
+                        const double r[3], double b[3]);
+
+typedef struct kw_coil_ring {
+    int ncoils;
+    double radius;   /* loop radius (m) */
+    double distance; /* loop centre to z axis (m) */
+    double fov[2];   /* FOV x, y (m), to place the image plane's pixels */
+} kw_coil_ring;
+
+/*! kw_coil_ring_sens(): complex sensitivity of every coil at the phantom
+ * point (x, y) in [-1, 1] (z = 0), normalised as above: s[ncoils]. The loop
+ * planes must lie outside the FOV square (distance > FOV diagonal / 2). */
+kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
+                            double complex *s);
+
+/*! kw_coil_ring_maps(): sensitivity maps on the pixel grid (kw_phantom.h
+ * grid, 2-D) of nx x ny: out = ncoils x ny x nx (C order). */
+kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
+                            float complex *out);
+
+/*! kw_coil_fit(): least-squares fit of each map (ncoils x ny x nx samples on
+ * the pixel grid) by the trigonometric series
+ *   s(u, v) = sum_{|p|,|q| <= order} c_pq exp(i 2 pi (p u + q v) / period),
+ * u = x/2 right, v = -y/2 down (FOV units, the array axes), over the pixels
+ * where weight[pixel] != 0 (NULL: all), subsampled to at most ~64 x 64
+ * points for the solve. coef receives ncoils x (2 order + 1)^2 values
+ * (index (q + order)(2 order + 1) + (p + order)); residual[c] the relative
+ * RMS misfit ||s - fit|| / ||s|| of coil c over all weighted pixels. */
+kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                      const float *weight, int order, double period,
+                      double complex *coef, double *residual);
+
+/*! kw_coil_series_eval(): the fitted series of one coil at (u, v). */
+double complex kw_coil_series_eval(const double complex *coef, int order,
+                                   double period, double u, double v);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_COILS_H */

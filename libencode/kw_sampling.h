@@ -1,0 +1,83 @@
+/* kw_sampling.h: Cartesian undersampling masks over the phase-encode plane.
+ *
+ * The plane is ny x nz points (C order (nz, ny): row = kz, column = ky); a
+ * 2-D acquisition has nz = 1 and its mask is one line of ny phase encodes
+ * (the CLI repeats it along the fully sampled readout x into (ny, nx)).
+ * Index i along an axis of n points is k = i - n/2 (integer division): k = 0
+ * sits at index n/2, as in the rest of kweave.
+ *
+ * Order of construction: the allowed region (partial Fourier along ky,
+ * elliptical corner cut-off in ky-kz), then the autocalibration (ACS) block,
+ * then the pattern inside the allowed region. Seeded patterns use kw_rng
+ * (xoshiro256**): the same seed gives the same mask on every machine.
+ */
+#ifndef KW_SAMPLING_H
+#define KW_SAMPLING_H
+
+#include <stdint.h>
+
+#include "kw_base.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef enum kw_mask_kind {
+    KW_MASK_FULL = 0,    /* every point (partial Fourier / ellipse still apply) */
+    KW_MASK_UNIFORM = 1, /* every Ry-th ky and Rz-th kz through k = 0 */
+    KW_MASK_RANDOM = 2,  /* variable-density random, polynomial density */
+    KW_MASK_POISSON = 3, /* variable-density Poisson-disc */
+    KW_MASK_LATTICE = 4  /* sheared 2-D lattice (CAIPIRINHA) */
+} kw_mask_kind;
+
+typedef struct kw_mask_opts {
+    kw_mask_kind kind;
+    size_t ny, nz;          /* phase-encode points; nz = 1 for 2-D */
+    double accel_y, accel_z; /* uniform/lattice: whole numbers >= 1 per axis;
+                               random/poisson: the target is accel_y*accel_z */
+    size_t acs_y, acs_z;    /* ACS block (0: none; acs_z ignored when nz = 1) */
+    double fraction;        /* partial Fourier fraction of ky kept, (0.5, 1] */
+    int ellipse;            /* 1: drop ky-kz corners outside the inscribed ellipse */
+    double power;           /* polynomial density exponent d (random, poisson) */
+    long shift;             /* lattice: ky shift per sampled kz row */
+    uint64_t seed;
+} kw_mask_opts;
+
+/*! kw_mask_opts_default(): full mask, no ACS, fraction 1, power 3, shift 1,
+ * seed 0; ny = nz = 0 (the caller sets the sizes). */
+void kw_mask_opts_default(kw_mask_opts *o);
+
+/*! kw_mask_density(): the polynomial density shape of Lustig, Donoho & Pauly
+ * 2007 (MRM 58:1182), q(rho) = (1 - rho)^power, where rho is the distance
+ * from k = 0 with each axis scaled to [-1, 1) and divided by the largest such
+ * distance on the grid (so rho = 1 at the farthest corner). */
+double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz);
+
+/*! kw_mask_make(): fill mask[nz*ny] (0/1) and, if `prob` is not NULL,
+ * prob[nz*ny] with the target probability of each point (random: the exact
+ * Bernoulli probability; every other kind: the mask itself). Returns KW_ERANGE for an acceleration or ACS larger than
+ * the matrix, a fraction outside (0.5, 1], a non-integer uniform/lattice
+ * factor; KW_EINFEASIBLE when the ACS block alone exceeds the sample budget
+ * of a random/poisson pattern. Allocates temporary work space itself. */
+kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob);
+
+/*! kw_poisson_radius(): the exclusion radius (in delta-k) of the Poisson-disc
+ * pattern at point (iy, iz) for scale s: r = max(1, s / sqrt(max(q, 1/16)))
+ * with q = kw_mask_density(). A candidate is accepted only when no earlier
+ * sample lies closer than its own radius, so no two samples are closer than
+ * the smaller of their two radii (tests/test_sampling.c checks it). */
+double kw_poisson_radius(const kw_mask_opts *o, double scale, size_t iy, size_t iz);
+
+/*! kw_mask_poisson_scale(): the scale s that kw_mask_make() uses for these
+ * options: found by bisection so that the sample count (ACS included) comes
+ * closest to ny nz / R; deterministic for a seed. */
+kw_status kw_mask_poisson_scale(const kw_mask_opts *o, double *scale);
+
+/*! kw_mask_allowed(): 1 when point (iy, iz) lies in the allowed region
+ * (partial Fourier and ellipse), else 0. */
+int kw_mask_allowed(const kw_mask_opts *o, size_t iy, size_t iz);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_SAMPLING_H */

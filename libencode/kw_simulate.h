@@ -1,0 +1,152 @@
+/* kw_simulate.h: the forward simulation of an acquisition: exact k-space of an
+ * analytic phantom at every sample (Cartesian grid, masked grid or arbitrary
+ * trajectory), with coil sensitivities as low-order trigonometric series
+ * (Guerquin-Kern et al. 2012), tissue contrast, relaxation and off-resonance
+ * at each sample's time, and complex Gaussian noise with a coil covariance.
+ *
+ * Conventions: kw_phantom.h (k in cycles/FOV along the array axes; unitary
+ * DFT scale). Sample times t are seconds after excitation. Off-resonance df
+ * (Hz) multiplies a sample by exp(-i 2 pi df tau) with tau the phase time of
+ * the sequence (kw_signal_phase_time()); with a Cartesian readout along x
+ * whose k-space centre is at TE and dwell 1/BW, this moves an object by
+ * +df/(BW/nx) pixels along +x (docs/simulator.md).
+ *
+ * Life cycle: kw_sim_create() checks and precomputes, kw_sim_execute() fills
+ * the output without allocating, kw_sim_destroy() frees (NULL-safe).
+ */
+#ifndef KW_SIMULATE_H
+#define KW_SIMULATE_H
+
+#include "kw_base.h"
+#include "kw_phantom.h"
+#include "kw_tissue.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct kw_sim_options {
+    const kw_phantom *phantom;
+    size_t n[3];            /* matrix nx, ny, nz (nz = 1 for 2-D) */
+
+    /* Sampling: a trajectory (nsamples x traj_ndim floats, cycles/FOV,
+     * columns kx, ky(, kz)) or, when traj is NULL, the Cartesian grid of n
+     * with an optional mask (prod(n) bytes, nonzero = sampled; NULL = all). */
+    const float *traj;
+    size_t nsamples;
+    int traj_ndim;
+    const uint8_t *mask;
+
+    /* Timing. times: per-sample times (s; nsamples for a trajectory; for
+     * Cartesian sampling nx values, one per readout column, or, with
+     * times_per_sample, prod(n) values, e.g. an EPI train) or NULL; then
+     * Cartesian samples get
+     * t = TE + (ix - nx/2) / bandwidth_hz when bandwidth_hz > 0, and every
+     * sample t = TE otherwise. */
+    const double *times;
+    int times_per_sample;
+    double bandwidth_hz;    /* full receiver bandwidth across the FOV (1/dwell) */
+
+    /* Contrast (used when the phantom carries tissues). */
+    kw_contrast contrast;
+    double df_hz;           /* global off-resonance added to every shape (Hz) */
+
+    /* Coils: ncoils >= 1 with coil_coef = ncoils x (2L+1)^2 trigonometric
+     * coefficients of order L = coil_order and period coil_period (FOV units),
+     * c[(q + L)(2L + 1) + (p + L)] multiplying exp(i 2 pi (p u + q v)/period)
+     * (u right, v down, FOV units); or ncoils = 0: one channel, sensitivity 1. */
+    int ncoils;
+    int coil_order;
+    double coil_period;
+    const double complex *coil_coef;
+
+    /* Noise: noise_chol = lower Cholesky factor (ncoils x ncoils, row major,
+     * or 1 x 1 for one channel) of the noise covariance; NULL: no noise.
+     * Each sample gets chol z with z complex normal, E|z|^2 = 1. */
+    const double complex *noise_chol;
+    uint64_t seed;
+} kw_sim_options;
+
+typedef struct kw_sim kw_sim;
+
+/*! kw_sim_create(): check the options and precompute the per-shape tissue
+ * terms. The options' arrays must outlive the simulation. */
+kw_status kw_sim_create(kw_sim **sim, const kw_sim_options *opt);
+
+/*! kw_sim_output_count(): samples per coil written by execute (prod(n) for
+ * Cartesian, nsamples for a trajectory); kw_sim_channels(): max(ncoils, 1). */
+size_t kw_sim_output_count(const kw_sim *sim);
+int kw_sim_channels(const kw_sim *sim);
+
+/*! kw_sim_execute(): write channels x count samples (C order) into out.
+ * Unsampled Cartesian points are zero. `progress` may be NULL. */
+kw_status kw_sim_execute(kw_sim *sim, float complex *out,
+                         kw_progress_fn progress, void *user);
+
+/*! kw_sim_destroy(): free (NULL-safe). */
+void kw_sim_destroy(kw_sim *sim);
+
+/*! kw_sim_shape_signal(): the own signal of each shape at time t (complex:
+ * contrast x relaxation x off-resonance phase), as kw_sim_execute uses it;
+ * `own` holds nshapes values. */
+void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own);
+
+/*! kw_sim_image_weights(): the real per-shape additive weights of the image
+ * at the echo (t = TE, no off-resonance phase): the "truth" that a perfect
+ * reconstruction shows. */
+void kw_sim_image_weights(const kw_sim *sim, double *w);
+
+/* ---- field maps: time-segmented, on an oversampled grid -------------------
+ *
+ * An arbitrary off-resonance map df(x) (Hz) has no analytic spectrum, so its
+ * effect is added as a perturbation computed on a fine grid: for a sample at
+ * k with phase time tau,
+ *   P(k, tau) = FT[m s (exp(-i 2 pi df tau) - 1)](k)
+ *             ~ sum_l b_l(tau) FT[m s exp(-i 2 pi df tau_l)](k) - FT[m s](k)
+ * (time segmentation with least-squares interpolators b_l(tau): Sutton,
+ * Noll & Fessler 2003, IEEE TMI 22:178), m the image at the echo rasterised
+ * on a grid `oversample` times finer than the matrix, s the coil's series,
+ * each FT a centered FFT of the fine grid (whose integer frequencies include
+ * the Cartesian samples). Decay and chemical shift inside the perturbation
+ * are those of the echo (they stay exact in the analytic term). 2-D
+ * Cartesian sampling only. */
+typedef struct kw_fieldmap_options {
+    const kw_sim *sim;       /* the simulation the perturbation is added to */
+    const float *field_hz;   /* ny x nx field map at the pixel centres (Hz) */
+    int oversample;          /* >= 4 */
+    int segments;            /* time segments L (0: chosen from the field range) */
+} kw_fieldmap_options;
+
+typedef struct kw_fieldmap kw_fieldmap;
+
+/*! kw_fieldmap_create(): plan the fine-grid FFT, rasterise the object and
+ * fit the interpolators. KW_ENOTSUP for trajectories or 3-D. */
+kw_status kw_fieldmap_create(kw_fieldmap **fm, const kw_fieldmap_options *opt);
+
+/*! kw_fieldmap_execute(): add the perturbation to `out` (the output of
+ * kw_sim_execute, before noise: run the simulation without noise, add this,
+ * then kw_sim_add_noise()). */
+kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out,
+                              kw_progress_fn progress, void *user);
+
+/*! kw_fieldmap_segments(): L used; kw_fieldmap_interp_error(): worst relative
+ * RMS error of the interpolated phase exp(-i 2 pi df tau) over the object's
+ * pixels and the readout's phase times. */
+int kw_fieldmap_segments(const kw_fieldmap *fm);
+double kw_fieldmap_interp_error(const kw_fieldmap *fm);
+
+void kw_fieldmap_destroy(kw_fieldmap *fm);
+
+/*! kw_sim_add_noise(): add the options' noise (noise_chol, seed) to `out`
+ * (kw_sim_execute adds it itself when noise_chol is set; this is for callers
+ * that add other terms first). */
+kw_status kw_sim_add_noise(const kw_sim *sim, const double complex *noise_chol,
+                           uint64_t seed, float complex *out);
+
+/*! Accessors for sim_*.c: the options the simulation was made with. */
+const kw_sim_options *kw_sim_get_options(const kw_sim *sim);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_SIMULATE_H */

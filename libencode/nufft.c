@@ -1,0 +1,845 @@
+/* nufft.c: non-uniform FFT by gridding on an oversampled grid.
+ *
+ * Kernel: Kaiser-Bessel, phi(t) = I0(beta sqrt(1 - (2t/W)^2)) / I0(beta) for
+ * |t| <= W/2 grid points (Jackson, Meyer, Nishimura & Macovski 1991), with
+ *   beta = pi sqrt((W/alpha)^2 (alpha - 1/2)^2 - 0.8)
+ * (Beatty, Nishimura & Pauly 2005, IEEE TMI 24:799, eq. 5). Its exact
+ * Fourier transform, for nu in cycles per grid point,
+ *   Phi(nu) = W sinh(sqrt(beta^2 - (pi W nu)^2)) / sqrt(beta^2 - (pi W nu)^2) / I0(beta)
+ * (sin and sqrt of the negated argument past the zero) divides the image
+ * (deapodisation), checked by quadrature in tests/test_nufft.c.
+ *
+ * Grid: M_d >= alpha N_d, even and a product of 2, 3, 5, 7. Image pixel n
+ * (centred) sits at grid index n mod M; a factor (-1)^n moves k = 0 to grid
+ * index M/2, so a sample k (cycles/FOV) sits at g = k M/N + M/2 in [0, M).
+ *
+ * Forward:  x * (-1)^n / (sqrt(prod N) prod_d Phi(n_d/M_d)) -> zero-padded grid
+ *           -> FFT -> interpolate y_j = sum_m G[m] prod_d phi(g_jd - m_d).
+ * Adjoint:  spread H[m] = sum_j y_j prod_d phi(g_jd - m_d) -> inverse FFT ->
+ *           crop, times the same factors. This is the exact adjoint of the
+ *           forward as implemented (same weights, same factors).
+ *
+ * Tiles: samples are sorted by the tile holding their first kernel point;
+ * a tile's samples touch only the tile grown by W - 1 points ("halo").
+ * Spreading accumulates in a per-thread double buffer over the halo and adds
+ * it into the grid; tiles are run in colour classes (parity of the tile index
+ * along each split axis, an even number of tiles per axis, each at least W
+ * wide) so the halos of tiles run at once never overlap: no write races.
+ */
+#include "kw_nufft.h"
+
+#include <fftw3.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "kw_fft.h"
+
+#ifdef _OPENMP
+#include <omp.h>
+#endif
+
+#define NUFFT_MAX_W 16
+#define NUFFT_ERR_CONST 6.0
+#define NUFFT_PREFETCH 16
+
+struct kw_nufft_plan {
+    int ndim, W, nthreads;
+    int par;             /* worth starting threads (large problems) */
+    double alpha, beta, tol;
+    size_t N[3], M[3];   /* C order; unused axes 1 */
+    size_t nsamples;
+    size_t mtotal;       /* prod M */
+    /* tiles */
+    size_t nt[3];        /* tiles per axis */
+    size_t *bound[3];    /* nt[d] + 1 boundaries per axis */
+    size_t ext[3];       /* halo buffer extent per axis (max tile + W - 1) */
+    size_t ntiles;
+    size_t *tile_start;  /* ntiles + 1 offsets into the sorted samples */
+    size_t *colour_tiles;/* tiles listed colour by colour */
+    size_t colour_start[9];
+    int ncolours;
+    /* sorted samples */
+    uint32_t *perm;      /* sorted position -> original sample index */
+    uint16_t *off;       /* (nsamples, ndim) first kernel point in its tile */
+    float *w;            /* (nsamples, ndim, W) kernel weights */
+    /* image factors per axis: (-1)^n / Phi(n/M) (axis 0 also 1/sqrt(prod N)) */
+    float *deap[3];
+    /* buffers */
+    float complex *grid; /* prod M */
+    double *tbuf;        /* nthreads x 2 x prod ext */
+    size_t tbuf_len;     /* doubles per thread */
+    fftwf_plan fwd, inv;
+};
+
+/* ---- kernel ---------------------------------------------------------------- */
+
+/* I0 by its power series sum ((x/2)^k / k!)^2 (Abramowitz & Stegun 9.6.10);
+ * in double it converges to full precision for the x <= 60 used here. */
+static double bessel_i0_to(double x, double rel)
+{
+    double t = 1.0, s = 1.0, q = 0.25 * x * x;
+    for (int k = 1; k < 500; k++) {
+        t *= q / ((double)k * k);
+        s += t;
+        if (t < rel * s)
+            break;
+    }
+    return s;
+}
+
+static double bessel_i0(double x) { return bessel_i0_to(x, 1e-17); }
+
+static double kb_beta(int W, double alpha)
+{
+    double a = (double)W / alpha * (alpha - 0.5);
+    return KW_PI * sqrt(a * a - 0.8);
+}
+
+static double kb_phi(double t, int W, double beta, double i0b)
+{
+    double z = 2.0 * t / W;
+    if (fabs(z) > 1.0)
+        return 0.0;
+    /* weights are stored in single precision: 1e-12 relative is plenty */
+    return bessel_i0_to(beta * sqrt(1.0 - z * z), 1e-12) / i0b;
+}
+
+/* Fourier transform of kb_phi at nu cycles per grid point. */
+static double kb_phi_hat(double nu, int W, double beta, double i0b)
+{
+    double a = beta * beta - (KW_PI * W * nu) * (KW_PI * W * nu);
+    double r;
+    if (a > 1e-12) {
+        double s = sqrt(a);
+        r = sinh(s) / s;
+    } else if (a < -1e-12) {
+        double s = sqrt(-a);
+        r = sin(s) / s;
+    } else {
+        r = 1.0;
+    }
+    return W * r / i0b;
+}
+
+/* Kernel width for a tolerance and an oversampling factor. The aliasing
+ * error of the Kaiser-Bessel kernel falls like exp(-pi W sqrt(1 - 1/alpha))
+ * (Barnett, Magland & af Klinteberg 2019, SIAM J Sci Comput 41:C479, sec. 4
+ * for the closely related "exponential of semicircle"; Fessler & Sutton 2003
+ * for KB); the constant in front was measured against the exact NDFT (the
+ * table in docs/noncartesian.md, regenerated by tests/test_nufft.c's
+ * accuracy checks), then a safety factor of 4 added. */
+kw_status kw_nufft_params(double tol, double alpha, int *width, double *beta)
+{
+    KW_FAIL_IF(!(tol >= 1e-6 && tol <= 1e-2), KW_ERANGE,
+               "tolerance: %g outside [1e-6, 1e-2]", tol);
+    KW_FAIL_IF(!(alpha >= 1.25 && alpha <= 2.0), KW_ERANGE,
+               "oversampling: %g outside [1.25, 2]", alpha);
+    /* Measured floor of single precision: the deapodisation amplifies the
+     * FFT's rounding by Phi(0)/Phi(1/(2 alpha)), which at alpha = 1.25 keeps
+     * the error above ~6e-6 whatever the width (docs/noncartesian.md). */
+    KW_FAIL_IF(tol < 2e-5 && alpha < 1.5, KW_ERANGE,
+               "tolerance: %g needs oversampling >= 1.5 in single precision (got %g)",
+               tol, alpha);
+    double rate = KW_PI * sqrt(1.0 - 1.0 / alpha);
+    int W = (int)ceil(log(NUFFT_ERR_CONST / tol) / rate);
+    if (W < 2)
+        W = 2;
+    KW_FAIL_IF(W > NUFFT_MAX_W, KW_ERANGE,
+               "tolerance: %g needs a kernel wider than %d at oversampling %g",
+               tol, NUFFT_MAX_W, alpha);
+    *width = W;
+    *beta = kb_beta(W, alpha);
+    return KW_OK;
+}
+
+/* Smallest even n >= x whose factors are 2, 3, 5, 7 (FFTW's fast sizes). */
+static size_t nice_size(double x)
+{
+    size_t n = (size_t)ceil(x - 1e-9);
+    if (n < 2)
+        n = 2;
+    for (;; n++) {
+        if (n % 2)
+            continue;
+        size_t m = n;
+        static const size_t f[] = {2, 3, 5, 7};
+        for (int i = 0; i < 4; i++)
+            while (m % f[i] == 0)
+                m /= f[i];
+        if (m == 1)
+            return n;
+    }
+}
+
+/* ---- plan ------------------------------------------------------------------ */
+
+static int plan_threads(int want)
+{
+    if (want > 0)
+        return want;
+#ifdef _OPENMP
+    return omp_get_max_threads();
+#else
+    return 1;
+#endif
+}
+
+kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
+                          size_t nsamples, const float *traj,
+                          const kw_nufft_opts *opts)
+{
+    KW_FAIL_IF(!plan, KW_EINVAL, "nufft: NULL plan pointer");
+    *plan = NULL;
+    KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "nufft: %d dimensions (2 or 3)", ndim);
+    KW_FAIL_IF(!dims, KW_EINVAL, "nufft: NULL dims");
+    KW_FAIL_IF(nsamples > 0 && !traj, KW_EINVAL, "trajectory: NULL");
+    KW_FAIL_IF(nsamples >= UINT32_MAX, KW_ERANGE, "trajectory: %zu samples (at most 2^32 - 2)",
+               nsamples);
+    double tol = opts && opts->tolerance > 0 ? opts->tolerance : 1e-3;
+    KW_FAIL_IF(opts && !(opts->tolerance >= 0), KW_ERANGE, "tolerance: not a number >= 0");
+    double alpha = opts && opts->oversampling != 0 ? opts->oversampling : 0;
+    KW_FAIL_IF(alpha != alpha, KW_ERANGE, "oversampling: not a number");
+    if (alpha == 0)
+        alpha = 2.0; /* fastest for MRI's dense sampling (docs/noncartesian.md) */
+    int W;
+    double beta;
+    kw_status st = kw_nufft_params(tol, alpha, &W, &beta);
+    if (st)
+        return st;
+    for (int d = 0; d < ndim; d++) {
+        KW_FAIL_IF(dims[d] < 2 || dims[d] > 65536, KW_ERANGE,
+                   "nufft: image axis %d has length %zu (2 to 65536)", d, dims[d]);
+    }
+    /* check the trajectory before anything is allocated */
+    for (size_t j = 0; j < nsamples; j++) {
+        for (int c = 0; c < ndim; c++) {
+            float k = traj[j * ndim + c];
+            double half = (double)dims[ndim - 1 - c] / 2.0;
+            KW_FAIL_IF(!isfinite(k), KW_ENUMERIC,
+                       "trajectory: sample %zu coordinate %d is not finite", j, c);
+            KW_FAIL_IF(k < -half || k >= half, KW_ERANGE,
+                       "trajectory: sample %zu coordinate %d = %g outside [-%g, %g)", j,
+                       c, (double)k, half, half);
+        }
+    }
+
+    kw_nufft_plan *p = calloc(1, sizeof *p);
+    KW_FAIL_IF(!p, KW_ENOMEM, "nufft: out of memory");
+    p->ndim = ndim;
+    p->W = W;
+    p->beta = beta;
+    p->alpha = alpha;
+    p->tol = tol;
+    p->nsamples = nsamples;
+    p->nthreads = plan_threads(opts ? opts->nthreads : 0);
+    double i0b = bessel_i0(beta);
+    p->mtotal = 1;
+    double ntot = 1;
+    for (int d = 0; d < 3; d++)
+        p->N[d] = p->M[d] = 1;
+    const int D0 = 3 - ndim; /* first real axis; axes are padded at the front */
+    for (int d = 0; d < ndim; d++) {
+        p->N[D0 + d] = dims[d];
+        size_t m = nice_size(alpha * (double)dims[d]);
+        if (m < (size_t)2 * W)
+            m = nice_size(2.0 * W);
+        p->M[D0 + d] = m;
+        p->mtotal *= m;
+        ntot *= (double)dims[d];
+    }
+    p->par = p->nthreads > 1 && p->mtotal + nsamples > 32768;
+    /* image factors */
+    for (int d = 0; d < 3; d++) {
+        p->deap[d] = malloc(p->N[d] * sizeof(float));
+        if (!p->deap[d])
+            goto fail;
+        if (d < D0) {
+            p->deap[d][0] = 1.0f;
+            continue;
+        }
+        for (size_t i = 0; i < p->N[d]; i++) {
+            long n = (long)i - (long)(p->N[d] / 2);
+            double v = 1.0 / kb_phi_hat((double)n / (double)p->M[d], W, beta, i0b);
+            if (n & 1)
+                v = -v;
+            if (d == D0)
+                v /= sqrt(ntot);
+            p->deap[d][i] = (float)v;
+        }
+    }
+    /* tiles: an even number per axis, each at least max(W, 16 or 8) wide */
+    size_t tmin = ndim == 2 ? 16 : 8;
+    if (tmin < (size_t)W)
+        tmin = (size_t)W;
+    p->ntiles = 1;
+    p->ncolours = 1;
+    for (int d = 0; d < 3; d++) {
+        size_t nt = p->M[d] / tmin;
+        nt &= ~(size_t)1;
+        if (nt < 2)
+            nt = 1;
+        p->nt[d] = nt;
+        p->bound[d] = malloc((nt + 1) * sizeof(size_t));
+        if (!p->bound[d])
+            goto fail;
+        size_t maxw = 0;
+        for (size_t t = 0; t <= nt; t++)
+            p->bound[d][t] = t * p->M[d] / nt;
+        for (size_t t = 0; t < nt; t++)
+            if (p->bound[d][t + 1] - p->bound[d][t] > maxw)
+                maxw = p->bound[d][t + 1] - p->bound[d][t];
+        p->ext[d] = d >= D0 ? maxw + (size_t)W - 1 : 1;
+        p->ntiles *= nt;
+        if (nt > 1)
+            p->ncolours *= 2;
+    }
+    /* sort samples by tile (counting sort) and precompute weights */
+    p->tile_start = calloc(p->ntiles + 1, sizeof(size_t));
+    p->colour_tiles = malloc(p->ntiles * sizeof(size_t));
+    size_t *tile_of = malloc((nsamples ? nsamples : 1) * sizeof(size_t));
+    size_t *tmap[3] = {NULL, NULL, NULL};
+    p->perm = malloc((nsamples ? nsamples : 1) * sizeof(uint32_t));
+    p->off = malloc((nsamples ? nsamples : 1) * ndim * sizeof(uint16_t));
+    p->w = malloc((nsamples ? nsamples : 1) * (size_t)ndim * W * sizeof(float));
+    if (!p->tile_start || !p->colour_tiles || !tile_of || !p->perm || !p->off || !p->w) {
+        free(tile_of);
+        goto fail;
+    }
+    for (int d = 0; d < 3; d++) {
+        tmap[d] = malloc(p->M[d] * sizeof(size_t));
+        if (!tmap[d]) {
+            free(tile_of);
+            for (int e = 0; e < d; e++)
+                free(tmap[e]);
+            goto fail;
+        }
+        for (size_t t = 0; t < p->nt[d]; t++)
+            for (size_t m = p->bound[d][t]; m < p->bound[d][t + 1]; m++)
+                tmap[d][m] = t;
+    }
+    for (size_t j = 0; j < nsamples; j++) {
+        size_t t = 0;
+        for (int d = 0; d < ndim; d++) {
+            const int D = D0 + d;
+            double g = (double)traj[j * ndim + (ndim - 1 - d)] * (double)p->M[D] /
+                           (double)p->N[D] + (double)(p->M[D] / 2);
+            long m0 = (long)ceil(g - 0.5 * W);
+            long mw = m0 % (long)p->M[D];
+            if (mw < 0)
+                mw += (long)p->M[D];
+            t = t * p->nt[D] + tmap[D][mw];
+        }
+        tile_of[j] = t;
+        p->tile_start[t + 1]++;
+    }
+    for (size_t t = 0; t < p->ntiles; t++)
+        p->tile_start[t + 1] += p->tile_start[t];
+    {
+        size_t *fill = tile_of; /* reuse: convert tile id to position */
+        size_t *next = malloc((p->ntiles ? p->ntiles : 1) * sizeof(size_t));
+        if (!next) {
+            free(tile_of);
+            for (int d = 0; d < 3; d++)
+                free(tmap[d]);
+            goto fail;
+        }
+        memcpy(next, p->tile_start, p->ntiles * sizeof(size_t));
+        for (size_t j = 0; j < nsamples; j++)
+            fill[j] = next[tile_of[j]]++;
+        free(next);
+    }
+    /* tile_of[j] is now the sorted position of sample j */
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (p->par)
+    for (size_t j = 0; j < nsamples; j++) {
+        size_t s = tile_of[j];
+        p->perm[s] = (uint32_t)j;
+        for (int d = 0; d < ndim; d++) {
+            const int D = D0 + d;
+            double g = (double)traj[j * ndim + (ndim - 1 - d)] * (double)p->M[D] /
+                           (double)p->N[D] + (double)(p->M[D] / 2);
+            long m0 = (long)ceil(g - 0.5 * W);
+            long mw = m0 % (long)p->M[D];
+            if (mw < 0)
+                mw += (long)p->M[D];
+            size_t t = tmap[D][mw];
+            p->off[s * ndim + d] = (uint16_t)((size_t)mw - p->bound[D][t]);
+            float *wd = p->w + (s * ndim + d) * W;
+            for (int k = 0; k < W; k++)
+                wd[k] = (float)kb_phi(g - (double)(m0 + k), W, beta, i0b);
+        }
+    }
+    free(tile_of);
+    for (int d = 0; d < 3; d++)
+        free(tmap[d]);
+    /* colour classes */
+    {
+        size_t pos = 0;
+        for (int c = 0; c < 8; c++) {
+            p->colour_start[c] = pos;
+            for (size_t t = 0; t < p->ntiles; t++) {
+                size_t r = t;
+                int col = 0;
+                for (int d = 2; d >= 0; d--) {
+                    size_t td = r % p->nt[d];
+                    r /= p->nt[d];
+                    if (p->nt[d] > 1)
+                        col |= (int)(td & 1) << d;
+                }
+                if (col == c)
+                    p->colour_tiles[pos++] = t;
+            }
+        }
+        p->colour_start[8] = pos;
+    }
+    /* buffers and FFT plans */
+    p->tbuf_len = 2 * p->ext[0] * p->ext[1] * p->ext[2];
+    p->tbuf = kw_alloc((size_t)p->nthreads * p->tbuf_len * sizeof(double));
+    p->grid = kw_alloc(p->mtotal * sizeof(float complex));
+    if (!p->tbuf || !p->grid)
+        goto fail;
+    {
+        int n_int[3];
+        for (int d = 0; d < ndim; d++)
+            n_int[d] = (int)p->M[D0 + d];
+        unsigned ff = opts && opts->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
+        if (p->nthreads > 1) {
+            st = kw_fft_setup(kw_fft_threads());
+            if (st)
+                goto fail_st;
+        }
+        fftwf_plan_with_nthreads(p->nthreads);
+        p->fwd = fftwf_plan_dft(ndim, n_int, (fftwf_complex *)p->grid,
+                                (fftwf_complex *)p->grid, FFTW_FORWARD, ff);
+        p->inv = fftwf_plan_dft(ndim, n_int, (fftwf_complex *)p->grid,
+                                (fftwf_complex *)p->grid, FFTW_BACKWARD, ff);
+        fftwf_plan_with_nthreads(kw_fft_threads());
+        if (!p->fwd || !p->inv) {
+            st = kw_set_error(KW_EINTERNAL, "nufft: FFTW could not make a plan");
+            goto fail_st;
+        }
+    }
+    *plan = p;
+    return KW_OK;
+fail:
+    st = kw_set_error(KW_ENOMEM, "nufft: out of memory for %zu samples", nsamples);
+fail_st:
+    kw_nufft_destroy(p);
+    return st;
+}
+
+void kw_nufft_destroy(kw_nufft_plan *p)
+{
+    if (!p)
+        return;
+    if (p->fwd)
+        fftwf_destroy_plan(p->fwd);
+    if (p->inv)
+        fftwf_destroy_plan(p->inv);
+    for (int d = 0; d < 3; d++) {
+        free(p->bound[d]);
+        free(p->deap[d]);
+    }
+    free(p->tile_start);
+    free(p->colour_tiles);
+    free(p->perm);
+    free(p->off);
+    free(p->w);
+    kw_free(p->tbuf);
+    kw_free(p->grid);
+    free(p);
+}
+
+kw_status kw_nufft_get_info(const kw_nufft_plan *p, kw_nufft_info *info)
+{
+    KW_FAIL_IF(!p || !info, KW_EINVAL, "nufft: NULL plan or info");
+    memset(info, 0, sizeof *info);
+    info->ndim = p->ndim;
+    for (int d = 0; d < p->ndim; d++) {
+        info->dims[d] = p->N[3 - p->ndim + d];
+        info->grid[d] = p->M[3 - p->ndim + d];
+    }
+    info->oversampling = p->alpha;
+    info->width = p->W;
+    info->beta = p->beta;
+    info->tolerance = p->tol;
+    info->nsamples = p->nsamples;
+    info->ntiles = p->ntiles;
+    info->nthreads = p->nthreads;
+    return KW_OK;
+}
+
+/* ---- execution --------------------------------------------------------------- */
+
+static int thread_id(void)
+{
+#ifdef _OPENMP
+    return omp_get_thread_num();
+#else
+    return 0;
+#endif
+}
+
+/* Grid index of image pixel i on axis d. */
+static inline size_t img_to_grid(const kw_nufft_plan *p, int d, size_t i)
+{
+    long n = (long)i - (long)(p->N[d] / 2);
+    return (size_t)(n < 0 ? n + (long)p->M[d] : n);
+}
+
+/* Place the deapodised image into the zeroed grid (store = 0), or crop the
+ * grid into the image with the same factors (store = 1). */
+static void image_grid(kw_nufft_plan *p, float complex *x, int store)
+{
+    if (!store)
+        memset(p->grid, 0, p->mtotal * sizeof(float complex));
+    const size_t N0 = p->N[0], N1 = p->N[1], N2 = p->N[2];
+    const size_t M1 = p->M[1], M2 = p->M[2];
+    const float *d0 = p->deap[0], *d1 = p->deap[1], *d2 = p->deap[2];
+    const long long rows = (long long)(N0 * N1);
+    const long h2 = (long)(N2 / 2);
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (p->par)
+    for (long long r = 0; r < rows; r++) {
+        size_t i0 = (size_t)r / N1, i1 = (size_t)r % N1;
+        size_t g0 = img_to_grid(p, 0, i0), g1 = img_to_grid(p, 1, i1);
+        float *xf = (float *)(x + (size_t)r * N2);
+        float *gf = (float *)(p->grid + (g0 * M1 + g1) * M2);
+        const float f = d0[i0] * d1[i1];
+        /* pixels n = i - N2/2 < 0 sit at the top of the grid row */
+        for (size_t i = 0; i < N2; i++) {
+            long n = (long)i - h2;
+            size_t gi = (size_t)(n < 0 ? n + (long)M2 : n);
+            float c = f * d2[i];
+            if (store) {
+                xf[2 * i] = gf[2 * gi] * c;
+                xf[2 * i + 1] = gf[2 * gi + 1] * c;
+            } else {
+                gf[2 * gi] = xf[2 * i] * c;
+                gf[2 * gi + 1] = xf[2 * i + 1] * c;
+            }
+        }
+    }
+}
+
+/* Tile t's position: first grid index and extent (tile + halo) per axis. */
+static void tile_box(const kw_nufft_plan *p, size_t t, size_t *b, size_t *e)
+{
+    size_t r = t;
+    for (int d = 2; d >= 0; d--) {
+        size_t td = r % p->nt[d];
+        r /= p->nt[d];
+        b[d] = p->bound[d][td];
+        e[d] = d >= 3 - p->ndim ? p->bound[d][td + 1] - b[d] + (size_t)p->W - 1 : 1;
+    }
+}
+
+/* Interpolate the samples of tile t from the grid (forward). */
+static void interp_tile(const kw_nufft_plan *p, size_t t, float *buf,
+                        float complex *y)
+{
+    size_t b[3], e[3];
+    tile_box(p, t, b, e);
+    const size_t *M = p->M;
+    const size_t E1 = p->ext[1], E2 = p->ext[2];
+    /* copy the halo box (with periodic wrap) into buf, rows of length E_last */
+    const float *g = (const float *)p->grid;
+    for (size_t a0 = 0; a0 < e[0]; a0++) {
+        size_t g0 = (b[0] + a0) % M[0];
+        for (size_t a1 = 0; a1 < e[1]; a1++) {
+            size_t g1 = (b[1] + a1) % M[1];
+            const float *row = g + 2 * (g0 * M[1] + g1) * M[2];
+            float *dst = buf + 2 * (a0 * E1 + a1) * E2;
+            size_t first = M[2] - b[2] < e[2] ? M[2] - b[2] : e[2];
+            memcpy(dst, row + 2 * b[2], 2 * first * sizeof(float));
+            for (size_t a2 = first; a2 < e[2]; a2++) {
+                size_t g2 = (b[2] + a2) % M[2];
+                dst[2 * a2] = row[2 * g2];
+                dst[2 * a2 + 1] = row[2 * g2 + 1];
+            }
+        }
+    }
+    const int W = p->W;
+    float *yf = (float *)y;
+    if (p->ndim == 2) {
+        /* 2-D: buffer is (E1 rows) x E2, axis 0 of the image is axis 1 here */
+        for (size_t s = p->tile_start[t]; s < p->tile_start[t + 1]; s++) {
+            const float *wy = p->w + s * 2 * W, *wx = wy + W;
+            const float *base = buf + 2 * ((size_t)p->off[2 * s] * E2 + p->off[2 * s + 1]);
+            double sr = 0, si = 0;
+            for (int a = 0; a < W; a++) {
+                const float *row = base + 2 * (size_t)a * E2;
+                float rr = 0, ri = 0;
+                for (int c = 0; c < W; c++) {
+                    rr += row[2 * c] * wx[c];
+                    ri += row[2 * c + 1] * wx[c];
+                }
+                sr += (double)rr * wy[a];
+                si += (double)ri * wy[a];
+            }
+            size_t j = p->perm[s];
+            yf[2 * j] = (float)sr;
+            yf[2 * j + 1] = (float)si;
+        }
+    } else {
+        for (size_t s = p->tile_start[t]; s < p->tile_start[t + 1]; s++) {
+            const float *wz = p->w + s * 3 * W, *wy = wz + W, *wx = wy + W;
+            const uint16_t *o = p->off + 3 * s;
+            const float *base = buf + 2 * (((size_t)o[0] * E1 + o[1]) * E2 + o[2]);
+            double sr = 0, si = 0;
+            for (int a = 0; a < W; a++) {
+                double pr = 0, pi = 0;
+                for (int bb = 0; bb < W; bb++) {
+                    const float *row = base + 2 * ((size_t)a * E1 * E2 + (size_t)bb * E2);
+                    float rr = 0, ri = 0;
+                    for (int c = 0; c < W; c++) {
+                        rr += row[2 * c] * wx[c];
+                        ri += row[2 * c + 1] * wx[c];
+                    }
+                    pr += (double)rr * wy[bb];
+                    pi += (double)ri * wy[bb];
+                }
+                sr += pr * wz[a];
+                si += pi * wz[a];
+            }
+            size_t j = p->perm[s];
+            yf[2 * j] = (float)sr;
+            yf[2 * j + 1] = (float)si;
+        }
+    }
+}
+
+/* Spread the samples of tile t into buf (double) and add buf into the grid. */
+static void spread_tile(kw_nufft_plan *p, size_t t, double *buf,
+                        const float complex *y)
+{
+    size_t b[3], e[3];
+    tile_box(p, t, b, e);
+    const size_t *M = p->M;
+    const size_t E1 = p->ext[1], E2 = p->ext[2];
+    const int W = p->W;
+    const float *yf = (const float *)y;
+    if (p->tile_start[t] == p->tile_start[t + 1])
+        return;
+    for (size_t a0 = 0; a0 < e[0]; a0++)
+        for (size_t a1 = 0; a1 < e[1]; a1++)
+            memset(buf + 2 * (a0 * E1 + a1) * E2, 0, 2 * e[2] * sizeof(double));
+    if (p->ndim == 2) {
+        for (size_t s = p->tile_start[t]; s < p->tile_start[t + 1]; s++) {
+            const float *wy = p->w + s * 2 * W, *wx = wy + W;
+            double *base = buf + 2 * ((size_t)p->off[2 * s] * E2 + p->off[2 * s + 1]);
+            size_t j = p->perm[s];
+            /* the gather through perm misses the cache for random
+             * trajectories: ask for a later sample's value early */
+            if (s + NUFFT_PREFETCH < p->tile_start[t + 1])
+                __builtin_prefetch(yf + 2 * (size_t)p->perm[s + NUFFT_PREFETCH]);
+            double vr = yf[2 * j], vi = yf[2 * j + 1];
+            double wxd[NUFFT_MAX_W];
+            for (int c = 0; c < W; c++)
+                wxd[c] = wx[c];
+            for (int a = 0; a < W; a++) {
+                double *row = base + 2 * (size_t)a * E2;
+                double ar = vr * wy[a], ai = vi * wy[a];
+                for (int c = 0; c < W; c++) {
+                    row[2 * c] += ar * wxd[c];
+                    row[2 * c + 1] += ai * wxd[c];
+                }
+            }
+        }
+    } else {
+        for (size_t s = p->tile_start[t]; s < p->tile_start[t + 1]; s++) {
+            const float *wz = p->w + s * 3 * W, *wy = wz + W, *wx = wy + W;
+            const uint16_t *o = p->off + 3 * s;
+            double *base = buf + 2 * (((size_t)o[0] * E1 + o[1]) * E2 + o[2]);
+            size_t j = p->perm[s];
+            if (s + NUFFT_PREFETCH < p->tile_start[t + 1])
+                __builtin_prefetch(yf + 2 * (size_t)p->perm[s + NUFFT_PREFETCH]);
+            double vr = yf[2 * j], vi = yf[2 * j + 1];
+            double wxd[NUFFT_MAX_W];
+            for (int c = 0; c < W; c++)
+                wxd[c] = wx[c];
+            for (int a = 0; a < W; a++) {
+                double zr = vr * wz[a], zi = vi * wz[a];
+                for (int bb = 0; bb < W; bb++) {
+                    double *row = base + 2 * ((size_t)a * E1 * E2 + (size_t)bb * E2);
+                    double ar = zr * wy[bb], ai = zi * wy[bb];
+                    for (int c = 0; c < W; c++) {
+                        row[2 * c] += ar * wxd[c];
+                        row[2 * c + 1] += ai * wxd[c];
+                    }
+                }
+            }
+        }
+    }
+    float *g = (float *)p->grid;
+    for (size_t a0 = 0; a0 < e[0]; a0++) {
+        size_t g0 = (b[0] + a0) % M[0];
+        for (size_t a1 = 0; a1 < e[1]; a1++) {
+            size_t g1 = (b[1] + a1) % M[1];
+            float *row = g + 2 * (g0 * M[1] + g1) * M[2];
+            const double *src = buf + 2 * (a0 * E1 + a1) * E2;
+            size_t a2 = 0, g2 = b[2];
+            while (a2 < e[2]) {
+                size_t run = M[2] - g2 < e[2] - a2 ? M[2] - g2 : e[2] - a2;
+                for (size_t q = 0; q < run; q++) {
+                    row[2 * (g2 + q)] += (float)src[2 * (a2 + q)];
+                    row[2 * (g2 + q) + 1] += (float)src[2 * (a2 + q) + 1];
+                }
+                a2 += run;
+                g2 = 0;
+            }
+        }
+    }
+}
+
+kw_status kw_nufft_forward(kw_nufft_plan *p, const float complex *img,
+                           float complex *ksp, size_t batch)
+{
+    KW_FAIL_IF(!p || (!img && batch) || (!ksp && batch), KW_EINVAL,
+               "nufft: NULL argument");
+    size_t nimg = p->N[0] * p->N[1] * p->N[2];
+    for (size_t c = 0; c < batch; c++) {
+        image_grid(p, (float complex *)(uintptr_t)(img + c * nimg), 0);
+        fftwf_execute_dft(p->fwd, (fftwf_complex *)p->grid, (fftwf_complex *)p->grid);
+        float complex *y = ksp + c * p->nsamples;
+        const long long nt = (long long)p->ntiles;
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4) if (p->par)
+        for (long long t = 0; t < nt; t++)
+            interp_tile(p, (size_t)t, (float *)(p->tbuf + (size_t)thread_id() * p->tbuf_len), y);
+    }
+    return KW_OK;
+}
+
+kw_status kw_nufft_adjoint(kw_nufft_plan *p, const float complex *ksp,
+                           float complex *img, size_t batch)
+{
+    KW_FAIL_IF(!p || (!img && batch) || (!ksp && batch), KW_EINVAL,
+               "nufft: NULL argument");
+    size_t nimg = p->N[0] * p->N[1] * p->N[2];
+    for (size_t c = 0; c < batch; c++) {
+        memset(p->grid, 0, p->mtotal * sizeof(float complex));
+        const float complex *y = ksp + c * p->nsamples;
+        for (int col = 0; col < 8; col++) {
+            const long long lo = (long long)p->colour_start[col];
+            const long long hi = (long long)p->colour_start[col + 1];
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2) if (p->par)
+            for (long long q = lo; q < hi; q++)
+                spread_tile(p, p->colour_tiles[q],
+                            p->tbuf + (size_t)thread_id() * p->tbuf_len, y);
+        }
+        fftwf_execute_dft(p->inv, (fftwf_complex *)p->grid, (fftwf_complex *)p->grid);
+        image_grid(p, img + c * nimg, 1);
+    }
+    return KW_OK;
+}
+
+/* ---- exact NDFT (double) --------------------------------------------------- */
+
+static kw_status ndft(int ndim, const size_t *dims, size_t ns, const float *traj,
+                      const float complex *in, float complex *out, int adjoint)
+{
+    KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "ndft: %d dimensions", ndim);
+    KW_FAIL_IF(!dims || (ns && (!traj || !in || !out)), KW_EINVAL, "ndft: NULL argument");
+    size_t N[3] = {1, 1, 1};
+    size_t maxn = 0;
+    for (int d = 0; d < ndim; d++) {
+        N[3 - ndim + d] = dims[d];
+        if (dims[d] > maxn)
+            maxn = dims[d];
+    }
+    size_t npix = N[0] * N[1] * N[2];
+    double scale = 1.0 / sqrt((double)npix);
+    double complex *e = malloc(3 * maxn * sizeof *e);
+    double complex *acc = adjoint ? calloc(npix, sizeof *acc) : NULL;
+    if (!e || (adjoint && !acc)) {
+        free(e);
+        free(acc);
+        return kw_set_error(KW_ENOMEM, "ndft: out of memory");
+    }
+    double sign = adjoint ? 1.0 : -1.0;
+    for (size_t j = 0; j < ns; j++) {
+        for (int d = 0; d < 3; d++) {
+            /* axis d of N (padded C order) <- trajectory column 2 - d */
+            double k = d >= 3 - ndim ? traj[j * ndim + (2 - d)] : 0.0;
+            for (size_t i = 0; i < N[d]; i++) {
+                double n = (double)i - (double)(N[d] / 2);
+                double ph = sign * 2.0 * KW_PI * k * n / (double)N[d];
+                e[d * maxn + i] = cos(ph) + I * sin(ph);
+            }
+        }
+        if (!adjoint) {
+            double complex s = 0;
+            for (size_t a = 0; a < N[0]; a++)
+                for (size_t b = 0; b < N[1]; b++) {
+                    double complex eab = e[a] * e[maxn + b];
+                    const float complex *row = in + (a * N[1] + b) * N[2];
+                    double complex r = 0;
+                    for (size_t c = 0; c < N[2]; c++)
+                        r += (double complex)row[c] * e[2 * maxn + c];
+                    s += eab * r;
+                }
+            out[j] = (float complex)(s * scale);
+        } else {
+            double complex v = in[j];
+            for (size_t a = 0; a < N[0]; a++)
+                for (size_t b = 0; b < N[1]; b++) {
+                    double complex eab = v * e[a] * e[maxn + b];
+                    double complex *row = acc + (a * N[1] + b) * N[2];
+                    for (size_t c = 0; c < N[2]; c++)
+                        row[c] += eab * e[2 * maxn + c];
+                }
+        }
+    }
+    if (adjoint)
+        for (size_t i = 0; i < npix; i++)
+            out[i] = (float complex)(acc[i] * scale);
+    free(e);
+    free(acc);
+    return KW_OK;
+}
+
+kw_status kw_ndft_forward(int ndim, const size_t *dims, size_t ns, const float *traj,
+                          const float complex *img, float complex *ksp)
+{
+    return ndft(ndim, dims, ns, traj, img, ksp, 0);
+}
+
+kw_status kw_ndft_adjoint(int ndim, const size_t *dims, size_t ns, const float *traj,
+                          const float complex *ksp, float complex *img)
+{
+    return ndft(ndim, dims, ns, traj, ksp, img, 1);
+}
+
+/* ---- kernel convolution for density compensation ------------------------ */
+
+kw_status kw_nufft_convolve(kw_nufft_plan *p, const float complex *in,
+                            float complex *out)
+{
+    KW_FAIL_IF(!p || !in || !out, KW_EINVAL, "nufft: NULL argument");
+    memset(p->grid, 0, p->mtotal * sizeof(float complex));
+    for (int col = 0; col < 8; col++) {
+        const long long lo = (long long)p->colour_start[col];
+        const long long hi = (long long)p->colour_start[col + 1];
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 2) if (p->par)
+        for (long long q = lo; q < hi; q++)
+            spread_tile(p, p->colour_tiles[q], p->tbuf + (size_t)thread_id() * p->tbuf_len,
+                        in);
+    }
+    const long long nt = (long long)p->ntiles;
+#pragma omp parallel for num_threads(p->nthreads) schedule(dynamic, 4) if (p->par)
+    for (long long t = 0; t < nt; t++)
+        interp_tile(p, (size_t)t, (float *)(p->tbuf + (size_t)thread_id() * p->tbuf_len), out);
+    /* Scale: a dense sampling of density rho (samples per unit k area)
+     * receives rho prod_d [sum_m phi(x - m)] Phi(0)/a_d, a_d = M_d/N_d grid
+     * points per cycle/FOV, and sum_m phi(x - m) = Phi(0) up to the
+     * kernel's stop-band aliases (Poisson summation): K = prod Phi(0)^2/a_d.
+     * A coarse lattice (spacing a_d >= 1 grid point) aliases the main lobe
+     * and deviates by a few per cent (tests/test_dcf.c). */
+    double i0b = bessel_i0(p->beta), K = 1.0;
+    double ph0 = kb_phi_hat(0.0, p->W, p->beta, i0b);
+    for (int d = 3 - p->ndim; d < 3; d++)
+        K *= ph0 * ph0 * (double)p->N[d] / (double)p->M[d];
+    float s = (float)(1.0 / K);
+    for (size_t j = 0; j < p->nsamples; j++)
+        out[j] *= s;
+    return KW_OK;
+}

@@ -1,0 +1,373 @@
+/* simulate.c: exact k-space of analytic phantoms at every sample, with coils
+ * (trigonometric-series sensitivities: M. Guerquin-Kern, L. Lejeune,
+ * K. P. Pruessmann, M. Unser, "Realistic analytical phantoms for parallel
+ * magnetic resonance imaging", IEEE Trans Med Imaging 31:626-636, 2012),
+ * tissue contrast, relaxation and off-resonance per sample, and noise. */
+#include "kw_simulate.h"
+
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "kw_rng.h"
+
+#define MAX_ORDER 8
+#define MAX_TERMS ((2 * MAX_ORDER + 1) * (2 * MAX_ORDER + 1))
+
+struct kw_sim {
+    kw_sim_options o;
+    int nshapes;
+    int channels;
+    int terms;               /* (2L+1)^2, 1 without coils */
+    double steady[KW_PHANTOM_MAX_SHAPES];
+    double t2[KW_PHANTOM_MAX_SHAPES], t2s[KW_PHANTOM_MAX_SHAPES];
+    double df[KW_PHANTOM_MAX_SHAPES];
+    size_t count;            /* samples per channel */
+    /* per shape, precomputed for the inner loop: rotation, axes, centre (in
+     * the frequency convention of kw_phantom_kspace_shape) and scale */
+    struct fast_shape {
+        int kind;
+        double ca, sa, a, b, c, cx, cy, cz, scale;
+    } fs[KW_PHANTOM_MAX_SHAPES];
+    double complex *shift_phase; /* nshapes x terms: exp(+i 2 pi delta.c) */
+};
+
+static double j1_over_f(double z)
+{
+    if (z < 1e-4)
+        return 0.5 - z * z / 16.0 + z * z * z * z / 384.0;
+    return j1(z) / z;
+}
+
+static double sj1_over_f(double z)
+{
+    if (z < 0.1) {
+        double z2 = z * z;
+        return 1.0 / 3.0 - z2 / 30.0 + z2 * z2 / 840.0 - z2 * z2 * z2 / 45360.0 +
+               z2 * z2 * z2 * z2 / 3991680.0;
+    }
+    return (sin(z) - z * cos(z)) / (z * z * z);
+}
+
+static double sinc_f(double t)
+{
+    double x = KW_PI * t;
+    if (fabs(x) < 1e-4)
+        return 1.0 - x * x / 6.0;
+    return sin(x) / x;
+}
+
+/* Real amplitude of shape i's spectrum at phantom frequency (fx, fy, fz)
+ * (the same formulas as kw_shape_ft(), without the centre's phase). */
+static double fast_mag(const struct fast_shape *f, double fx, double fy, double fz)
+{
+    double fu = fx * f->ca + fy * f->sa;
+    double fv = -fx * f->sa + fy * f->ca;
+    switch (f->kind) {
+    case KW_SHAPE_ELLIPSE:
+        return 2.0 * KW_PI * f->a * f->b * j1_over_f(2.0 * KW_PI * hypot(f->a * fu, f->b * fv));
+    case KW_SHAPE_RECT:
+        return 4.0 * f->a * f->b * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv);
+    case KW_SHAPE_ELLIPSOID: {
+        double q = sqrt(f->a * fu * f->a * fu + f->b * fv * f->b * fv + f->c * fz * f->c * fz);
+        return 4.0 * KW_PI * f->a * f->b * f->c * sj1_over_f(2.0 * KW_PI * q);
+    }
+    case KW_SHAPE_BOX:
+        return 8.0 * f->a * f->b * f->c * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv) *
+               sinc_f(2.0 * f->c * fz);
+    }
+    return 0.0;
+}
+
+kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
+{
+    KW_FAIL_IF(!out || !opt || !opt->phantom, KW_EINVAL, "simulate: NULL argument");
+    *out = NULL;
+    const kw_phantom *p = opt->phantom;
+    KW_FAIL_IF(p->nshapes < 1 || p->nshapes > KW_PHANTOM_MAX_SHAPES, KW_EINVAL,
+               "phantom: %d shapes", p->nshapes);
+    size_t nz = opt->n[2] ? opt->n[2] : 1;
+    KW_FAIL_IF(opt->n[0] < 1 || opt->n[1] < 1, KW_EINVAL, "matrix: must be positive");
+    KW_FAIL_IF(p->ndim == 2 && nz > 1, KW_ENOTSUP,
+               "matrix: a 2-D phantom gives one slice (nz must be 1)");
+    KW_FAIL_IF(p->ndim == 3 && !opt->traj && nz < 2, KW_EINVAL,
+               "matrix: a 3-D phantom needs nz >= 2");
+    if (opt->traj) {
+        KW_FAIL_IF(opt->nsamples < 1, KW_EINVAL, "trajectory: no samples");
+        KW_FAIL_IF(opt->traj_ndim < 2 || opt->traj_ndim > 3, KW_EINVAL,
+                   "trajectory: %d columns (2 or 3)", opt->traj_ndim);
+        KW_FAIL_IF(opt->traj_ndim != p->ndim, KW_EINVAL,
+                   "trajectory: %d-D trajectory for a %d-D phantom", opt->traj_ndim,
+                   p->ndim);
+        for (size_t i = 0; i < opt->nsamples * (size_t)opt->traj_ndim; i++)
+            KW_FAIL_IF(!isfinite(opt->traj[i]), KW_ENUMERIC,
+                       "trajectory: non-finite value at index %zu", i);
+    }
+    KW_FAIL_IF(opt->ncoils < 0 || opt->ncoils > 256, KW_EINVAL, "coils: %d", opt->ncoils);
+    if (opt->ncoils > 0) {
+        KW_FAIL_IF(!opt->coil_coef, KW_EINVAL, "coils: no coefficients");
+        KW_FAIL_IF(opt->coil_order < 0 || opt->coil_order > MAX_ORDER, KW_ERANGE,
+                   "coils: series order %d (0..%d)", opt->coil_order, MAX_ORDER);
+        KW_FAIL_IF(!(opt->coil_period > 0) || !isfinite(opt->coil_period), KW_EINVAL,
+                   "coils: period must be positive");
+    }
+    KW_FAIL_IF(!isfinite(opt->bandwidth_hz) || opt->bandwidth_hz < 0, KW_EINVAL,
+               "bandwidth: must be positive");
+    const kw_contrast *c = &opt->contrast;
+    KW_FAIL_IF(!isfinite(c->te_s) || c->te_s < 0, KW_EINVAL, "te: must be >= 0");
+
+    kw_sim *s = calloc(1, sizeof *s);
+    KW_FAIL_IF(!s, KW_ENOMEM, "simulate: out of memory");
+    s->o = *opt;
+    s->o.n[2] = nz;
+    s->nshapes = p->nshapes;
+    s->channels = opt->ncoils > 0 ? opt->ncoils : 1;
+    s->terms = opt->ncoils > 0 ? (2 * opt->coil_order + 1) * (2 * opt->coil_order + 1) : 1;
+    s->count = opt->traj ? opt->nsamples : opt->n[0] * opt->n[1] * nz;
+    double fat_hz = KW_FAT_SHIFT_PPM * 1e-6 * KW_GAMMA_BAR_P * c->b0_t;
+    for (int i = 0; i < p->nshapes; i++) {
+        const kw_shape *sh = &p->shapes[i];
+        s->df[i] = opt->df_hz + sh->df_hz;
+        s->t2[i] = s->t2s[i] = INFINITY;
+        if (p->tissue && sh->tissue >= 0) {
+            double t1, t2, t2s;
+            kw_status st = kw_tissue_relax(sh->tissue, c->b0_t, &t1, &t2, &t2s);
+            if (st) {
+                free(s);
+                return st;
+            }
+            const kw_tissue *tt = kw_tissue_get(sh->tissue);
+            s->steady[i] = kw_signal_steady(c, tt->pd, t1);
+            s->t2[i] = t2;
+            s->t2s[i] = t2s;
+            if (tt->species == KW_SPECIES_FAT)
+                s->df[i] += fat_hz;
+        } else {
+            s->steady[i] = sh->value;
+        }
+    }
+    double scale = sqrt((double)opt->n[0] * (double)opt->n[1]) * 0.25;
+    if (p->ndim == 3)
+        scale *= sqrt((double)nz) * 0.5;
+    for (int i = 0; i < p->nshapes; i++) {
+        const kw_shape *sh = &p->shapes[i];
+        struct fast_shape *f = &s->fs[i];
+        f->kind = sh->kind;
+        f->ca = cos(sh->angle);
+        f->sa = sin(sh->angle);
+        f->a = sh->axes[0];
+        f->b = sh->axes[1];
+        f->c = sh->axes[2];
+        f->cx = sh->center[0];
+        f->cy = sh->center[1];
+        f->cz = p->ndim == 3 ? sh->center[2] : 0.0;
+        f->scale = scale;
+        if (p->ndim == 3 && (sh->kind == KW_SHAPE_ELLIPSE || sh->kind == KW_SHAPE_RECT))
+            f->scale = 0; /* see kw_phantom_kspace_shape */
+    }
+    if (opt->ncoils > 0) {
+        s->shift_phase = malloc((size_t)p->nshapes * s->terms * sizeof *s->shift_phase);
+        if (!s->shift_phase) {
+            free(s);
+            return kw_set_error(KW_ENOMEM, "simulate: out of memory");
+        }
+        int L = opt->coil_order, side = 2 * L + 1;
+        for (int i = 0; i < p->nshapes; i++)
+            for (int q = -L; q <= L; q++)
+                for (int pp = -L; pp <= L; pp++) {
+                    /* k shifted by (p, q)/period cycles/FOV along (kx, kv) is
+                     * the phantom frequency shifted by (p/2, -q/2)/period */
+                    double dfx = 0.5 * pp / opt->coil_period, dfy = -0.5 * q / opt->coil_period;
+                    double ph = 2.0 * KW_PI * (dfx * s->fs[i].cx + dfy * s->fs[i].cy);
+                    s->shift_phase[(size_t)i * s->terms + (q + L) * side + (pp + L)] =
+                        cos(ph) + I * sin(ph);
+                }
+    }
+    *out = s;
+    return KW_OK;
+}
+
+size_t kw_sim_output_count(const kw_sim *sim) { return sim->count; }
+int kw_sim_channels(const kw_sim *sim) { return sim->channels; }
+
+void kw_sim_destroy(kw_sim *sim)
+{
+    if (!sim)
+        return;
+    free(sim->shift_phase);
+    free(sim);
+}
+
+void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own)
+{
+    const kw_contrast *c = &sim->o.contrast;
+    double tau = kw_signal_phase_time(c, t);
+    int tissue = sim->o.phantom->tissue;
+    for (int i = 0; i < sim->nshapes; i++) {
+        double a = sim->steady[i];
+        if (tissue && sim->o.phantom->shapes[i].tissue >= 0)
+            a *= kw_signal_decay(c, sim->t2[i], sim->t2s[i], t);
+        double ph = -2.0 * KW_PI * sim->df[i] * tau;
+        own[i] = a * (cos(ph) + I * sin(ph));
+    }
+}
+
+void kw_sim_image_weights(const kw_sim *sim, double *w)
+{
+    double complex own[KW_PHANTOM_MAX_SHAPES];
+    double re[KW_PHANTOM_MAX_SHAPES];
+    /* at the echo: no off-resonance phase (tau = 0 for echoes at TE; for GRE
+     * the phase at TE is a constant that magnitude images do not show) */
+    const kw_contrast *c = &sim->o.contrast;
+    for (int i = 0; i < sim->nshapes; i++) {
+        double a = sim->steady[i];
+        if (sim->o.phantom->tissue && sim->o.phantom->shapes[i].tissue >= 0)
+            a *= kw_signal_decay(c, sim->t2[i], sim->t2s[i], c->te_s);
+        own[i] = a;
+        re[i] = a;
+    }
+    (void)own;
+    kw_phantom_weights(sim->o.phantom, re, w);
+}
+
+/* Sample time of Cartesian sample i (column ix) or trajectory sample i. */
+static double sample_time(const kw_sim *s, size_t i, size_t idx_time)
+{
+    if (s->o.times)
+        return s->o.times[s->o.traj || s->o.times_per_sample ? i : idx_time];
+    if (!s->o.traj && s->o.bandwidth_hz > 0)
+        return s->o.contrast.te_s +
+               ((double)idx_time - (double)(s->o.n[0] / 2)) / s->o.bandwidth_hz;
+    return s->o.contrast.te_s;
+}
+
+/* All channels of one sample at (kx, kv, kz), time t. */
+static void one_sample(const kw_sim *s, double kx, double kv, double kz, double t,
+                       float complex *out, size_t stride)
+{
+    const kw_phantom *p = s->o.phantom;
+    double complex own[KW_PHANTOM_MAX_SHAPES];
+    double complex w[KW_PHANTOM_MAX_SHAPES];
+    kw_sim_shape_signal(s, t, own);
+    for (int i = 0; i < s->nshapes; i++) {
+        int par = p->shapes[i].parent;
+        w[i] = own[i];
+        if (p->tissue && par >= 0)
+            w[i] -= own[par];
+    }
+    if (s->o.ncoils == 0) {
+        double complex acc = 0;
+        for (int i = 0; i < s->nshapes; i++)
+            acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, s->o.n, kx, kv, kz);
+        out[0] = (float complex)acc;
+        return;
+    }
+    /* k-space of (sensitivity x object) = sum_pq c_pq F(k - (p, q)/period):
+     * the object spectra at the shifted frequencies are shared by all coils.
+     * F(f - d) = A(f - d) exp(-i 2 pi f.c) exp(+i 2 pi d.c): the centre's
+     * phase at f is computed once per shape, the shift's from a table. */
+    int L = s->o.coil_order, side = 2 * L + 1;
+    double inv = 1.0 / s->o.coil_period;
+    double complex g[MAX_TERMS];
+    double complex wph[KW_PHANTOM_MAX_SHAPES];
+    double fx = 0.5 * kx, fy = -0.5 * kv, fz = 0.5 * kz;
+    for (int i = 0; i < s->nshapes; i++) {
+        const struct fast_shape *f = &s->fs[i];
+        double ph = -2.0 * KW_PI * (fx * f->cx + fy * f->cy + fz * f->cz);
+        wph[i] = w[i] * f->scale * (cos(ph) + I * sin(ph));
+    }
+    for (int j = 0; j < s->terms; j++)
+        g[j] = 0;
+    for (int i = 0; i < s->nshapes; i++) {
+        if (wph[i] == 0)
+            continue;
+        const struct fast_shape *f = &s->fs[i];
+        const double complex *sp = s->shift_phase + (size_t)i * s->terms;
+        for (int q = -L; q <= L; q++) {
+            double fyq = fy + 0.5 * q * inv;
+            for (int pp = -L; pp <= L; pp++) {
+                int j = (q + L) * side + (pp + L);
+                g[j] += wph[i] * sp[j] * fast_mag(f, fx - 0.5 * pp * inv, fyq, fz);
+            }
+        }
+    }
+    for (int c = 0; c < s->o.ncoils; c++) {
+        const double complex *cc = s->o.coil_coef + (size_t)c * s->terms;
+        double complex acc = 0;
+        for (int j = 0; j < s->terms; j++)
+            acc += cc[j] * g[j];
+        out[(size_t)c * stride] = (float complex)acc;
+    }
+}
+
+kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
+                         void *user)
+{
+    KW_FAIL_IF(!s || !out, KW_EINVAL, "simulate: NULL argument");
+    const size_t nx = s->o.n[0], ny = s->o.n[1], nz = s->o.n[2];
+    const size_t count = s->count;
+    memset(out, 0, count * (size_t)s->channels * sizeof *out);
+    const size_t nchunk = 64;
+    const size_t chunk = (count + nchunk - 1) / nchunk;
+    for (size_t c0 = 0, it = 0; c0 < count; c0 += chunk, it++) {
+        size_t c1 = c0 + chunk < count ? c0 + chunk : count;
+#pragma omp parallel for schedule(dynamic, 64)
+        for (size_t i = c0; i < c1; i++) {
+            if (s->o.traj) {
+                const float *k = s->o.traj + i * (size_t)s->o.traj_ndim;
+                double kz = s->o.traj_ndim == 3 ? k[2] : 0.0;
+                one_sample(s, k[0], k[1], kz, sample_time(s, i, i), out + i, count);
+            } else {
+                if (s->o.mask && !s->o.mask[i])
+                    continue;
+                size_t ix = i % nx, iy = (i / nx) % ny, iz = i / (nx * ny);
+                double kx = (double)ix - (double)(nx / 2);
+                double kv = (double)iy - (double)(ny / 2);
+                double kz = nz > 1 ? (double)iz - (double)(nz / 2) : 0.0;
+                one_sample(s, kx, kv, kz, sample_time(s, i, ix), out + i, count);
+            }
+        }
+        if (progress) {
+            kw_progress pr = {"encode", (int)it + 1, (int)((count + chunk - 1) / chunk), NAN};
+            if (progress(user, &pr))
+                return kw_set_error(KW_ECANCELLED, "encode: cancelled");
+        }
+    }
+    if (s->o.noise_chol)
+        return kw_sim_add_noise(s, s->o.noise_chol, s->o.seed, out);
+    return KW_OK;
+}
+
+const kw_sim_options *kw_sim_get_options(const kw_sim *sim)
+{
+    return &sim->o;
+}
+
+kw_status kw_sim_add_noise(const kw_sim *s, const double complex *chol,
+                           uint64_t seed, float complex *out)
+{
+    KW_FAIL_IF(!s || !chol || !out, KW_EINVAL, "noise: NULL argument");
+    /* Serial, in sample-major order, so a seed gives the same noise on every
+     * machine and thread count. */
+    const size_t count = s->count;
+    kw_rng r;
+    kw_rng_seed(&r, seed);
+    int nc = s->channels;
+    double complex z[256];
+    const double h = sqrt(0.5);
+    for (size_t i = 0; i < count; i++) {
+        if (!s->o.traj && s->o.mask && !s->o.mask[i])
+            continue;
+        for (int c = 0; c < nc; c++) {
+            double re = kw_rng_normal(&r), im = kw_rng_normal(&r);
+            z[c] = h * (re + I * im);
+        }
+        for (int c = 0; c < nc; c++) {
+            double complex acc = 0;
+            for (int d = 0; d <= c; d++)
+                acc += chol[(size_t)c * nc + d] * z[d];
+            out[(size_t)c * count + i] += (float complex)acc;
+        }
+    }
+    return KW_OK;
+}

@@ -1,0 +1,95 @@
+/* traj.c: radial trajectories. Golden angle after Winkelmann et al. 2007
+ * (IEEE TMI 26:68-76); tiny golden angles after Wundrak et al. 2016 (MRM
+ * 75:2372-2378); the Nyquist spoke count pi N / 2 is textbook (Bernstein,
+ * King & Zhou 2004, sec. 17.1). */
+#include "kw_traj.h"
+
+#include <math.h>
+
+double kw_traj_golden_angle(int m)
+{
+    if (m < 1)
+        return NAN;
+    return KW_PI / (KW_GOLDEN_RATIO + (double)m - 1.0);
+}
+
+size_t kw_traj_nyquist_spokes(size_t n) { return (size_t)ceil(KW_PI * (double)n / 2.0 - 1e-9); }
+
+double kw_traj_angle(const kw_traj_opts *o, size_t r)
+{
+    if (o->tiny >= 1) {
+        /* fmod of the exact product in long double keeps 1e-12 rad over
+         * millions of readouts */
+        long double a = (long double)r * (long double)kw_traj_golden_angle(o->tiny);
+        return (double)fmodl(a, (long double)KW_PI);
+    }
+    size_t s = r % o->spokes;
+    return KW_PI * (double)s / (double)o->spokes;
+}
+
+kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim)
+{
+    KW_FAIL_IF(!o, KW_EINVAL, "trajectory: NULL options");
+    KW_FAIL_IF(o->n < 2 || o->n % 2, KW_ERANGE, "matrix: radial needs an even N >= 2 (got %zu)",
+               o->n);
+    KW_FAIL_IF(o->spokes < 1, KW_ERANGE, "spokes: at least one spoke");
+    KW_FAIL_IF(o->nz < 1, KW_ERANGE, "matrix: no partitions");
+    KW_FAIL_IF(o->kind != KW_TRAJ_STACK_OF_STARS && o->nz != 1, KW_ERANGE,
+               "matrix: a 3-D radial trajectory is a stack of stars");
+    KW_FAIL_IF(o->kind == KW_TRAJ_GOLDEN && o->tiny < 1, KW_ERANGE,
+               "tiny: golden-angle order must be >= 1");
+    KW_FAIL_IF(o->kind == KW_TRAJ_RADIAL && o->tiny != 0, KW_ERANGE,
+               "tiny: uniform radial has no golden-angle order (use --kind golden)");
+    KW_FAIL_IF(o->tiny < 0 || o->tiny > 1000, KW_ERANGE, "tiny: %d outside 1..1000", o->tiny);
+    KW_FAIL_IF(!(o->dwell_s > 0) || !isfinite(o->dwell_s), KW_ERANGE,
+               "dwell: must be a positive time");
+    KW_FAIL_IF(!(o->te_s >= 0) || !isfinite(o->te_s), KW_ERANGE, "te: must be >= 0");
+    KW_FAIL_IF(o->te_s < 0.5 * (double)o->n * o->dwell_s * (1 - 1e-12), KW_ERANGE,
+               "te: %g s is shorter than half the readout (N/2 x dwell = %g s)", o->te_s,
+               0.5 * (double)o->n * o->dwell_s);
+    double s = (double)o->n * (double)o->spokes * (double)o->nz;
+    KW_FAIL_IF(s > 2147483648.0, KW_ERANGE, "spokes: %.0f samples is too many", s);
+    *samples = o->n * o->spokes * o->nz;
+    *ndim = o->kind == KW_TRAJ_STACK_OF_STARS ? 3 : 2;
+    return KW_OK;
+}
+
+kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t)
+{
+    size_t ns;
+    int nd;
+    kw_status st = kw_traj_size(o, &ns, &nd);
+    if (st)
+        return st;
+    KW_FAIL_IF(!k, KW_EINVAL, "trajectory: NULL output");
+    const size_t n = o->n;
+    size_t r = 0, i = 0;
+    for (size_t z = 0; z < o->nz; z++)
+        for (size_t s = 0; s < o->spokes; s++, r++) {
+            double th = kw_traj_angle(o, r);
+            double c = cos(th), sn = sin(th);
+            for (size_t j = 0; j < n; j++, i++) {
+                double kr = (double)j - (double)(n / 2);
+                k[i * nd + 0] = (float)(kr * c);
+                k[i * nd + 1] = (float)(kr * sn);
+                if (nd == 3)
+                    k[i * nd + 2] = (float)((double)z - (double)(o->nz / 2));
+                if (t)
+                    t[i] = (float)(o->te_s + kr * o->dwell_s);
+            }
+        }
+    return KW_OK;
+}
+
+kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w)
+{
+    KW_FAIL_IF(!o || !w || o->spokes < 1 || o->n < 2, KW_EINVAL, "weights: bad arguments");
+    const double S = (double)o->spokes;
+    for (size_t s = 0; s < o->spokes; s++)
+        for (size_t j = 0; j < o->n; j++) {
+            double kr = fabs((double)j - (double)(o->n / 2));
+            w[s * o->n + j] = (float)(kr > 0 ? KW_PI * kr / S : KW_PI / (4.0 * S));
+        }
+    return KW_OK;
+}
+

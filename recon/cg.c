@@ -1,0 +1,294 @@
+/* cg.c: the solver object (kw_solvers.h), shared helpers, CG-SENSE. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "kw_tv.h"
+#include "nc_solver.h"
+
+double nc_dot_re(const float complex *a, const float complex *b, size_t n)
+{
+    const float *x = (const float *)a, *y = (const float *)b;
+    double s = 0;
+#pragma omp parallel for reduction(+ : s) schedule(static) if (n > 65536)
+    for (size_t i = 0; i < 2 * n; i++)
+        s += (double)x[i] * y[i];
+    return s;
+}
+
+double nc_norm(const float complex *a, size_t n) { return sqrt(nc_dot_re(a, a, n)); }
+
+kw_status nc_rhs(kw_solver *s, const float complex *y)
+{
+    const float *w = kw_encoder_weights(s->enc);
+    size_t nk = kw_encoder_kpoints(s->enc);
+    double ywy = 0;
+    for (size_t i = 0; i < s->ndata; i++) {
+        float wi = w ? w[i % nk] : 1.0f;
+        KW_FAIL_IF(!isfinite(crealf(y[i])) || !isfinite(cimagf(y[i])), KW_ENUMERIC,
+                   "k-space: sample %zu is not finite", i);
+        s->ybuf[i] = wi * y[i];
+        ywy += (double)wi * ((double)crealf(y[i]) * crealf(y[i]) +
+                             (double)cimagf(y[i]) * cimagf(y[i]));
+    }
+    s->ywy = ywy;
+    return kw_encoder_adjoint(s->enc, s->ybuf, s->b);
+}
+
+kw_status nc_wav_fwd(kw_solver *s, const float complex *x, float complex *c)
+{
+    for (size_t q = 0; q < s->nslices; q++) {
+        kw_status st = kw_wavelet_forward_c(s->wav, x + q * s->slice, c + q * s->slice);
+        if (st)
+            return st;
+    }
+    return KW_OK;
+}
+
+kw_status nc_wav_inv(kw_solver *s, const float complex *c, float complex *x)
+{
+    for (size_t q = 0; q < s->nslices; q++) {
+        kw_status st = kw_wavelet_inverse_c(s->wav, c + q * s->slice, x + q * s->slice);
+        if (st)
+            return st;
+    }
+    return KW_OK;
+}
+
+double nc_reg_value(kw_solver *s, const float complex *x)
+{
+    if (s->o.reg == KW_REG_TV)
+        return kw_tv_value(s->ndim, s->dims, x, s->g3);
+    if (s->o.reg == KW_REG_WAVELET) {
+        if (nc_wav_fwd(s, x, s->v6))
+            return NAN;
+        double r = 0;
+        for (size_t i = 0; i < s->n; i++)
+            r += cabsf(s->v6[i]);
+        return r;
+    }
+    return 0.0;
+}
+
+int nc_report(kw_solver *s, kw_progress_fn fn, void *user, const char *stage, int iter,
+              int niter, double objective, double change)
+{
+    if (s->nlog < (size_t)s->o.iterations) {
+        kw_iter_record *r = &s->log[s->nlog++];
+        r->iter = iter;
+        r->objective = objective;
+        r->change = change;
+    }
+    if (!fn)
+        return 0;
+    kw_progress p = {stage, iter, niter, change};
+    return fn(user, &p);
+}
+
+void kw_solver_destroy(kw_solver *s)
+{
+    if (!s)
+        return;
+    kw_wavelet_destroy(s->wav);
+    float complex *bufs[] = {s->b, s->v1, s->v2, s->v3, s->v4, s->v5, s->v6,
+                             s->g1, s->g2, s->g3, s->ybuf};
+    for (size_t i = 0; i < sizeof bufs / sizeof *bufs; i++)
+        kw_free(bufs[i]);
+    free(s->log);
+    free(s);
+}
+
+kw_status kw_solver_create(kw_solver **out, kw_encoder *enc, int ndim, const size_t *dims,
+                           const kw_solver_opts *opts)
+{
+    KW_FAIL_IF(!out || !enc || !dims, KW_EINVAL, "solver: NULL argument");
+    *out = NULL;
+    KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "solver: %d dimensions", ndim);
+    kw_solver_opts o = {0};
+    if (opts)
+        o = *opts;
+    KW_FAIL_IF(!(o.lambda >= 0) || !isfinite(o.lambda), KW_ERANGE,
+               "lambda: %g (must be >= 0)", o.lambda);
+    KW_FAIL_IF(!(o.stop < 1) || o.stop != o.stop, KW_ERANGE,
+               "stop: %g (must be below 1)", o.stop);
+    KW_FAIL_IF(o.iterations > 100000, KW_ERANGE, "iterations: %d (at most 100000)",
+               o.iterations);
+    if (o.iterations <= 0)
+        o.iterations = 100;
+    if (o.stop <= 0)
+        o.stop = 1e-5;
+    if (o.inner <= 0)
+        o.inner = 10;
+    if (o.wavelet_order == 0)
+        o.wavelet_order = 4;
+    kw_solver *s = calloc(1, sizeof *s);
+    KW_FAIL_IF(!s, KW_ENOMEM, "solver: out of memory");
+    s->enc = enc;
+    s->o = o;
+    s->ndim = ndim;
+    s->n = 1;
+    for (int d = 0; d < ndim; d++) {
+        s->dims[d] = dims[d];
+        s->n *= dims[d];
+    }
+    kw_status st = KW_OK;
+    KW_FAIL_GOTO(s->n != kw_encoder_image_size(enc), st, KW_EINVAL, fail,
+                 "solver: image size %zu differs from the encoder's %zu", s->n,
+                 kw_encoder_image_size(enc));
+    s->ndata = kw_encoder_coils(enc) * kw_encoder_kpoints(enc);
+    if (o.reg == KW_REG_WAVELET) {
+        size_t ny = dims[ndim - 2], nx = dims[ndim - 1];
+        int lv = o.wavelet_levels;
+        if (lv <= 0) {
+            lv = kw_wavelet_max_levels(ny, nx);
+            if (lv > 4)
+                lv = 4;
+        }
+        KW_FAIL_GOTO(lv < 1, st, KW_ENOTSUP, fail,
+                     "wavelet: image %zu x %zu has an odd side", ny, nx);
+        st = kw_wavelet_create(&s->wav, o.wavelet_order, ny, nx, lv);
+        if (st)
+            goto fail;
+        s->slice = ny * nx;
+        s->nslices = s->n / s->slice;
+    }
+    size_t nb = s->n * sizeof(float complex);
+    s->b = kw_alloc(nb);
+    s->v1 = kw_alloc(nb);
+    s->v2 = kw_alloc(nb);
+    s->v3 = kw_alloc(nb);
+    s->v4 = kw_alloc(nb);
+    s->v5 = kw_alloc(nb);
+    s->v6 = kw_alloc(nb);
+    s->ybuf = kw_alloc(s->ndata * sizeof(float complex));
+    s->log = calloc((size_t)o.iterations, sizeof *s->log);
+    KW_FAIL_GOTO(!s->b || !s->v1 || !s->v2 || !s->v3 || !s->v4 || !s->v5 || !s->v6 ||
+                     !s->ybuf || !s->log,
+                 st, KW_ENOMEM, fail, "solver: out of memory");
+    {
+        s->g1 = kw_alloc((size_t)ndim * nb);
+        s->g2 = kw_alloc((size_t)ndim * nb);
+        s->g3 = kw_alloc((size_t)ndim * nb);
+        KW_FAIL_GOTO(!s->g1 || !s->g2 || !s->g3, st, KW_ENOMEM, fail,
+                     "solver: out of memory");
+    }
+    *out = s;
+    return KW_OK;
+fail:
+    kw_solver_destroy(s);
+    return st;
+}
+
+size_t kw_solver_log(const kw_solver *s, const kw_iter_record **rec)
+{
+    if (!s) {
+        if (rec)
+            *rec = NULL;
+        return 0;
+    }
+    if (rec)
+        *rec = s->log;
+    return s->nlog;
+}
+
+/* Power iteration on N (Hermitian, PSD): 30 steps from a fixed pseudo-random
+ * start, then 5% headroom since it converges from below (common practice,
+ * no source). */
+kw_status kw_solver_lipschitz(kw_solver *s, double *L)
+{
+    KW_FAIL_IF(!s || !L, KW_EINVAL, "solver: NULL argument");
+    if (s->L > 0) {
+        *L = s->L;
+        return KW_OK;
+    }
+    uint32_t r = 12345u;
+    for (size_t i = 0; i < s->n; i++) {
+        r = r * 1664525u + 1013904223u;
+        float a = (float)(r >> 8) / 16777216.0f - 0.5f;
+        r = r * 1664525u + 1013904223u;
+        float b = (float)(r >> 8) / 16777216.0f - 0.5f;
+        s->v1[i] = a + I * b;
+    }
+    double lam = 0;
+    for (int it = 0; it < 30; it++) {
+        double nv = nc_norm(s->v1, s->n);
+        KW_FAIL_IF(!(nv > 0), KW_ENUMERIC, "solver: the normal operator is zero");
+        float inv = (float)(1.0 / nv);
+        for (size_t i = 0; i < s->n; i++)
+            s->v1[i] *= inv;
+        kw_status st = kw_encoder_normal(s->enc, s->v1, s->v2);
+        if (st)
+            return st;
+        lam = nc_norm(s->v2, s->n);
+        float complex *t = s->v1;
+        s->v1 = s->v2;
+        s->v2 = t;
+    }
+    KW_FAIL_IF(!(lam > 0) || !isfinite(lam), KW_ENUMERIC,
+               "solver: the normal operator is zero or not finite");
+    s->L = 1.05 * lam;
+    *L = s->L;
+    return KW_OK;
+}
+
+kw_status kw_solver_objective(kw_solver *s, const float complex *y,
+                              const float complex *x, double *F)
+{
+    KW_FAIL_IF(!s || !y || !x || !F, KW_EINVAL, "solver: NULL argument");
+    kw_status st = nc_rhs(s, y);
+    if (st)
+        return st;
+    st = kw_encoder_normal(s->enc, x, s->v5);
+    if (st)
+        return st;
+    *F = 0.5 * nc_dot_re(x, s->v5, s->n) - nc_dot_re(x, s->b, s->n) + 0.5 * s->ywy +
+         s->o.lambda * nc_reg_value(s, x);
+    return KW_OK;
+}
+
+kw_status kw_cg_sense(kw_solver *s, const float complex *y, float complex *x,
+                      kw_progress_fn progress, void *user)
+{
+    KW_FAIL_IF(!s || !y || !x, KW_EINVAL, "cg: NULL argument");
+    s->nlog = 0;
+    kw_status st = nc_rhs(s, y);
+    if (st)
+        return st;
+    float complex *r = s->v1, *p = s->v2, *Ap = s->v3;
+    const size_t n = s->n;
+    st = kw_encoder_normal(s->enc, x, Ap);
+    if (st)
+        return st;
+    for (size_t i = 0; i < n; i++)
+        p[i] = r[i] = s->b[i] - Ap[i];
+    double bn = nc_norm(s->b, n);
+    if (!(bn > 0))
+        return KW_OK; /* b = 0: x = 0 solves it if N is regular; keep x */
+    double rr = nc_dot_re(r, r, n);
+    for (int it = 1; it <= s->o.iterations; it++) {
+        if (sqrt(rr) / bn < s->o.stop)
+            break;
+        st = kw_encoder_normal(s->enc, p, Ap);
+        if (st)
+            return st;
+        double pAp = nc_dot_re(p, Ap, n);
+        KW_FAIL_IF(!(pAp > 0), KW_ENUMERIC,
+                   "cg: the normal operator is not positive definite (p^H N p = %g)", pAp);
+        float a = (float)(rr / pAp);
+        for (size_t i = 0; i < n; i++) {
+            x[i] += a * p[i];
+            r[i] -= a * Ap[i];
+        }
+        double rr_new = nc_dot_re(r, r, n);
+        /* 1/2 ||W^1/2 (E x - y)||^2 = 1/2 y^H W y - 1/2 Re x^H (b + r) */
+        double obj = 0.5 * s->ywy - 0.5 * (nc_dot_re(x, s->b, n) + nc_dot_re(x, r, n));
+        if (nc_report(s, progress, user, "cg-sense", it, s->o.iterations, obj,
+                      sqrt(rr_new) / bn))
+            return kw_set_error(KW_ECANCELLED, "cg: cancelled");
+        float beta = (float)(rr_new / rr);
+        for (size_t i = 0; i < n; i++)
+            p[i] = r[i] + beta * p[i];
+        rr = rr_new;
+    }
+    return KW_OK;
+}

@@ -1,0 +1,117 @@
+/* dcf.c: density compensation (kw_dcf.h). */
+#include "kw_dcf.h"
+
+#include <math.h>
+#include <stdlib.h>
+
+static int cmp_float(const void *a, const void *b)
+{
+    float x = *(const float *)a, y = *(const float *)b;
+    return (x > y) - (x < y);
+}
+
+kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
+{
+    KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "dcf: %d dimensions", ndim);
+    KW_FAIL_IF(ns == 0 || !traj || !w, KW_EINVAL, "dcf: empty trajectory");
+    double rmax = 0, rmin = INFINITY;
+    int centre = 0;
+    for (size_t j = 0; j < ns; j++) {
+        double kx = traj[j * ndim], ky = traj[j * ndim + 1];
+        KW_FAIL_IF(!isfinite(kx) || !isfinite(ky), KW_ENUMERIC,
+                   "trajectory: sample %zu is not finite", j);
+        double r = hypot(kx, ky);
+        if (r > rmax)
+            rmax = r;
+        if (r < 1e-6)
+            centre = 1;
+        else if (r < rmin)
+            rmin = r;
+    }
+    KW_FAIL_IF(!(rmax > 0) || !isfinite(rmin), KW_EINVAL,
+               "dcf: radial weights need samples away from the centre");
+    /* radial step: the innermost ring sits at dr, or at dr/2 when no sample
+     * falls on the centre (spokes shifted by half a step) */
+    double dr = centre ? rmin : 2 * rmin;
+    size_t nplanes = 1;
+    double dz = 1.0;
+    if (ndim == 3) {
+        /* stack of stars: count distinct kz values (sorted copy) */
+        float *z = malloc(ns * sizeof *z);
+        KW_FAIL_IF(!z, KW_ENOMEM, "dcf: out of memory");
+        for (size_t j = 0; j < ns; j++)
+            z[j] = traj[j * 3 + 2];
+        qsort(z, ns, sizeof *z, cmp_float);
+        nplanes = 1;
+        for (size_t j = 1; j < ns; j++)
+            if (z[j] != z[j - 1])
+                nplanes++;
+        dz = nplanes > 1 ? (double)(z[ns - 1] - z[0]) / (double)(nplanes - 1) : 1.0;
+        free(z);
+    }
+    /* samples per ring, counted on the innermost ring (radius rmin): a ring
+     * of radius r and width dr has area 2 pi r dr */
+    size_t ring = 0, ncentre = 0;
+    for (size_t j = 0; j < ns; j++) {
+        double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
+        if (r < 1e-6)
+            ncentre++;
+        else if (fabs(r - rmin) < 0.25 * dr)
+            ring++;
+    }
+    double per_plane = dz * (double)nplanes;
+    for (size_t j = 0; j < ns; j++) {
+        double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
+        /* the centre: not its Voronoi disc pi dr^2/4 but the weight that
+         * makes the ring sum sum_{m>=0} 2 pi (m dr) f(m dr) dr an accurate
+         * quadrature of the area integral: Euler-Maclaurin (Abramowitz &
+         * Stegun 23.1.30) with g(r) = 2 pi r f(r), g(0) = 0, g'(0) = 2 pi f(0)
+         * gives sum_{m>=1} g(m dr) dr = int g - 2 pi f(0) dr^2 / 12 + O(dr^4),
+         * so the centre carries pi dr^2 / 6 */
+        if (r < 1e-6)
+            w[j] = (float)(KW_PI * dr * dr / 6 * per_plane / (double)ncentre);
+        else
+            w[j] = (float)(2 * KW_PI * r * dr * per_plane / (double)ring);
+    }
+    return KW_OK;
+}
+
+
+kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
+                      int iterations, const kw_nufft_opts *opts, float *w)
+{
+    KW_FAIL_IF(!w || !traj || ns == 0, KW_EINVAL, "dcf: empty trajectory");
+    if (iterations <= 0)
+        iterations = 20;
+    /* A wide kernel (W = 8 at tolerance 1e-6, alpha = 2) keeps the
+     * grid-sampled convolution close to shift-invariant: with W = 4 the
+     * weights of radial sampling scatter by +-15%, with W = 8 by +-1%
+     * against the exact Voronoi areas (tests/test_dcf.c). */
+    kw_nufft_opts o = {1e-6, 2.0, opts ? opts->nthreads : 0, 0};
+    kw_nufft_plan *p;
+    kw_status st = kw_nufft_create(&p, ndim, dims, ns, traj, &o);
+    if (st)
+        return st;
+    float complex *a = malloc(ns * sizeof *a), *b = malloc(ns * sizeof *b);
+    if (!a || !b) {
+        free(a);
+        free(b);
+        kw_nufft_destroy(p);
+        return kw_set_error(KW_ENOMEM, "dcf: out of memory");
+    }
+    for (size_t j = 0; j < ns; j++)
+        a[j] = 1.0f;
+    for (int it = 0; it < iterations && !st; it++) {
+        st = kw_nufft_convolve(p, a, b);
+        for (size_t j = 0; j < ns && !st; j++) {
+            float c = crealf(b[j]);
+            a[j] = c > 0 ? crealf(a[j]) / c : 0.0f;
+        }
+    }
+    for (size_t j = 0; j < ns; j++)
+        w[j] = crealf(a[j]);
+    free(a);
+    free(b);
+    kw_nufft_destroy(p);
+    return st;
+}

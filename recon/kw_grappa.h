@@ -1,0 +1,60 @@
+/* kw_grappa.h: GRAPPA for uniformly undersampled Cartesian data, 1-D and
+ * 2-D (and 3-D) acceleration. Griswold MA, Jakob PM, Heidemann RM, Nittka M,
+ * Jellus V, Wang J, Kiefer B, Haase A, "Generalized autocalibrating
+ * partially parallel acquisitions (GRAPPA)", MRM 47:1202-1210, 2002.
+ *
+ * Every missing point t = base + o (base on the sampling lattice, o a
+ * nonzero offset with 0 <= o_a < R_a) is a linear combination, over all
+ * coils, of the acquired points base + R b, b_a = -((K_a - 1) / 2) ..
+ * K_a - 1 - (K_a - 1) / 2 (K_a source points along axis a; the readout and
+ * other unaccelerated axes use R_a = 1, i.e. neighbouring points). The
+ * weights of each offset o are fitted on the fully sampled autocalibration
+ * block by regularised least squares:
+ *   W = (A^H A + lambda' I)^-1 A^H B,  lambda' = lambda trace(A^H A) / ncols.
+ * Acquired points are kept as they are. */
+#ifndef KW_GRAPPA_H
+#define KW_GRAPPA_H
+
+#include "kw_base.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+typedef struct kw_grappa kw_grappa;
+
+typedef struct kw_grappa_opts {
+    int accel[3];      /* per axis (z, y, x) */
+    int offset[3];     /* lattice offset per axis */
+    size_t acs_lo[3];  /* autocalibration block */
+    size_t acs_n[3];
+    int kernel[3];     /* source points per axis (1 for an axis of length 1) */
+    double lambda;     /* relative Tikhonov weight (>= 0) */
+} kw_grappa_opts;
+
+/*! kw_grappa_create(): plan for nc coils on d = (nz, ny, nx): allocates the
+ * calibration system and the weights. KW_EINVAL when the block is too small
+ * for the kernel (fewer fitting positions than unknowns per coil). */
+kw_status kw_grappa_create(kw_grappa **g, size_t nc, const size_t d[3],
+                           const kw_grappa_opts *o);
+
+/*! kw_grappa_calibrate(): fit the weights on the block of `ksp` (nc, npix).
+ * KW_ENUMERIC when the system is singular (e.g. an empty block, lambda 0). */
+kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp);
+
+/*! kw_grappa_execute(): `out` (nc, npix) = `ksp` with every unsampled point
+ * (zero in all coils) on the lattice cells filled. Does not allocate. */
+kw_status kw_grappa_execute(const kw_grappa *g, const float complex *ksp,
+                            float complex *out);
+
+/*! kw_grappa_fit_count(), kw_grappa_unknowns(): fitting positions in the
+ * block, and weights per target coil and offset (nc x sources). */
+size_t kw_grappa_fit_count(const kw_grappa *g);
+size_t kw_grappa_unknowns(const kw_grappa *g);
+
+void kw_grappa_destroy(kw_grappa *g);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_GRAPPA_H */

@@ -1,0 +1,165 @@
+/* test_encoder.c: the encoding operator E, its adjoint and the normal
+ * operator, Cartesian and non-Cartesian, 2-D and 3-D.
+ * Adjointness <E x, y> = <x, E^H y> to 1e-5 relative (issue 7); the
+ * Toeplitz normal operator (Wajer & Pruessmann 2001; Fessler et al. 2005)
+ * against E^H W E applied directly; E on a full Cartesian grid with one
+ * coil of ones against kw_fft (the centered unitary DFT). */
+#include <criterion/criterion.h>
+#include <math.h>
+#include <stdlib.h>
+
+#include "kw_encoder.h"
+#include "kw_fft.h"
+
+static double urand(unsigned *s)
+{
+    *s = *s * 1664525u + 1013904223u;
+    return (*s >> 8) / 16777216.0;
+}
+
+static void fill(float complex *a, size_t n, unsigned seed)
+{
+    for (size_t i = 0; i < n; i++)
+        a[i] = (float)(urand(&seed) - 0.5) + I * (float)(urand(&seed) - 0.5);
+}
+
+static double complex dot(const float complex *a, const float complex *b, size_t n)
+{
+    double complex s = 0;
+    for (size_t i = 0; i < n; i++)
+        s += (double complex)a[i] * conj((double complex)b[i]);
+    return s;
+}
+
+static double rel(const float complex *a, const float complex *b, size_t n)
+{
+    double num = 0, den = 0;
+    for (size_t i = 0; i < n; i++) {
+        num += pow(cabs(a[i] - b[i]), 2);
+        den += pow(cabs(b[i]), 2);
+    }
+    return sqrt(num / den);
+}
+
+typedef struct {
+    int ndim;
+    size_t dims[3];
+    size_t ncoils;
+    int noncart;
+    int use_weights;
+} ecase;
+
+static void run_case(const ecase *c)
+{
+    size_t np = 1;
+    for (int d = 0; d < c->ndim; d++)
+        np *= c->dims[d];
+    unsigned seed = 3;
+    size_t ns = c->noncart ? np + np / 3 : np;
+    float complex *sens = malloc(c->ncoils * np * sizeof *sens);
+    fill(sens, c->ncoils * np, 21);
+    uint8_t *mask = NULL;
+    float *traj = NULL, *w = NULL;
+    if (c->noncart) {
+        traj = malloc(ns * c->ndim * sizeof *traj);
+        for (size_t j = 0; j < ns; j++)
+            for (int a = 0; a < c->ndim; a++) {
+                double h = c->dims[c->ndim - 1 - a] / 2.0;
+                float v = (float)(-h + 2 * h * urand(&seed));
+                traj[j * c->ndim + a] = v >= h ? (float)-h : v;
+            }
+    } else {
+        mask = malloc(np);
+        for (size_t k = 0; k < np; k++)
+            mask[k] = urand(&seed) < 0.4;
+    }
+    if (c->use_weights) {
+        w = malloc(ns * sizeof *w);
+        for (size_t j = 0; j < ns; j++)
+            w[j] = (float)(0.2 + urand(&seed));
+    }
+    kw_encoder *e, *ed = NULL;
+    kw_encoder_opts o = {1e-6, 0, 2, 0, 0};
+    cr_assert_eq(kw_encoder_create(&e, c->ndim, c->dims, c->ncoils, sens, mask, ns, traj,
+                                   w, &o), KW_OK, "%s", kw_last_error());
+    size_t nk = kw_encoder_kpoints(e);
+    float complex *x = malloc(np * sizeof *x), *x2 = malloc(np * sizeof *x);
+    float complex *y = malloc(c->ncoils * nk * sizeof *y), *ey = malloc(c->ncoils * nk * sizeof *y);
+    float complex *n1 = malloc(np * sizeof *x), *n2 = malloc(np * sizeof *x);
+    fill(x, np, 8);
+    fill(y, c->ncoils * nk, 9);
+    if (mask) /* data live on the sampled points */
+        for (size_t q = 0; q < c->ncoils; q++)
+            for (size_t k = 0; k < nk; k++)
+                if (!mask[k])
+                    y[q * nk + k] = 0;
+    cr_assert_eq(kw_encoder_forward(e, x, ey), KW_OK);
+    cr_assert_eq(kw_encoder_adjoint(e, y, x2), KW_OK);
+    double complex l = dot(ey, y, c->ncoils * nk), r = dot(x, x2, np);
+    cr_expect(cabs(l - r) <= 1e-5 * cabs(l), "adjointness %g", cabs(l - r) / cabs(l));
+    /* the normal operator against adjoint(W forward) */
+    cr_assert_eq(kw_encoder_normal(e, x, n1), KW_OK);
+    for (size_t q = 0; q < c->ncoils; q++)
+        for (size_t k = 0; k < nk; k++)
+            ey[q * nk + k] *= w ? w[k] : 1.0f;
+    cr_assert_eq(kw_encoder_adjoint(e, ey, n2), KW_OK);
+    double en = rel(n1, n2, np);
+    cr_expect(en <= 2e-5, "normal vs adjoint(forward): %g", en);
+    /* <N x, x> real and positive (Hermitian, positive semi-definite) */
+    double complex nxx = dot(n1, x, np);
+    cr_expect(fabs(cimag(nxx)) <= 1e-5 * fabs(creal(nxx)) && creal(nxx) > 0);
+    if (c->noncart) {
+        o.direct_normal = 1;
+        cr_assert_eq(kw_encoder_create(&ed, c->ndim, c->dims, c->ncoils, sens, NULL, ns,
+                                       traj, w, &o), KW_OK);
+        cr_assert_eq(kw_encoder_normal(ed, x, n2), KW_OK);
+        cr_expect(rel(n1, n2, np) <= 2e-5, "Toeplitz vs direct: %g", rel(n1, n2, np));
+        kw_encoder_destroy(ed);
+    }
+    kw_encoder_destroy(e);
+    free(sens); free(mask); free(traj); free(w); free(x); free(x2); free(y); free(ey);
+    free(n1); free(n2);
+}
+
+Test(encoder, cartesian_2d) { ecase c = {2, {12, 10, 0}, 3, 0, 0}; run_case(&c); }
+Test(encoder, cartesian_2d_weights) { ecase c = {2, {12, 10, 0}, 2, 0, 1}; run_case(&c); }
+Test(encoder, cartesian_3d) { ecase c = {3, {6, 8, 10}, 2, 0, 0}; run_case(&c); }
+Test(encoder, noncart_2d) { ecase c = {2, {16, 12, 0}, 3, 1, 0}; run_case(&c); }
+Test(encoder, noncart_2d_weights) { ecase c = {2, {16, 12, 0}, 2, 1, 1}; run_case(&c); }
+Test(encoder, noncart_2d_odd) { ecase c = {2, {15, 11, 0}, 2, 1, 1}; run_case(&c); }
+Test(encoder, noncart_3d) { ecase c = {3, {8, 6, 10}, 2, 1, 1}; run_case(&c); }
+
+/* One coil of ones, full grid: E is the centered unitary DFT. */
+Test(encoder, single_coil_is_fft)
+{
+    size_t d[2] = {8, 6};
+    kw_encoder *e;
+    cr_assert_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, NULL, NULL), KW_OK);
+    float complex x[48], y[48], f[48];
+    fill(x, 48, 4);
+    for (int i = 0; i < 48; i++)
+        f[i] = x[i];
+    kw_fft_plan *p;
+    kw_fft_create(&p, 2, d, 1, KW_FFT_ESTIMATE);
+    kw_fft_forward(p, f);
+    kw_encoder_forward(e, x, y);
+    cr_expect(rel(y, f, 48) < 1e-6);
+    kw_fft_destroy(p);
+    kw_encoder_destroy(e);
+}
+
+Test(encoder, bad_input)
+{
+    size_t d[2] = {8, 8};
+    kw_encoder *e = NULL;
+    float w[64];
+    for (int i = 0; i < 64; i++)
+        w[i] = 1;
+    w[5] = -1;
+    cr_expect_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, w, NULL), KW_ERANGE);
+    cr_expect_eq(kw_encoder_create(&e, 2, d, 2, NULL, NULL, 0, NULL, NULL, NULL), KW_EINVAL);
+    float tr[2] = {4.0f, 0.0f};
+    cr_expect_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 1, tr, NULL, NULL), KW_ERANGE);
+    cr_expect(e == NULL);
+    kw_encoder_destroy(NULL);
+}

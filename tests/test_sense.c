@@ -1,0 +1,73 @@
+/* test_sense.c: SENSE and GRAPPA life cycle and bad arguments; SENSE at
+ * R = 1 equals the optimal combination S^H m / S^H S (Pruessmann et al.
+ * 1999; Roemer et al. 1990). The numpy comparisons are in tests/ref/. */
+#include <criterion/criterion.h>
+#include <math.h>
+
+#include "kw_combine.h"
+#include "kw_fft.h"
+#include "kw_grappa.h"
+#include "kw_sense.h"
+
+Test(sense, r1_is_optimal_combination)
+{
+    enum { NC = 3, NY = 8, NX = 6, NP = NY * NX };
+    size_t d[3] = {1, NY, NX};
+    int acc[3] = {1, 1, 1}, off[3] = {0, 0, 0};
+    float complex *m = kw_alloc(NC * NP * sizeof *m), *s = kw_alloc(NC * NP * sizeof *s);
+    float complex *k = kw_alloc(NC * NP * sizeof *k), *img = kw_alloc(NP * sizeof *img),
+                  *opt = kw_alloc(NP * sizeof *opt);
+    for (int c = 0; c < NC; c++)
+        for (int p = 0; p < NP; p++) {
+            s[c * NP + p] = (float)(1 + c + 0.1 * p) + I * (float)(0.2 * c - 0.05 * p);
+            m[c * NP + p] = s[c * NP + p] * (float)(1 + p % 5) + 0.01f * (float)((c * 7 + p) % 3);
+            k[c * NP + p] = m[c * NP + p];
+        }
+    kw_fft_plan *f;
+    cr_assert_eq(kw_fft_create(&f, 2, d + 1, NC, KW_FFT_ESTIMATE), KW_OK);
+    kw_fft_forward(f, k);
+    kw_fft_destroy(f);
+    kw_sense *se;
+    cr_assert_eq(kw_sense_create(&se, NC, d, acc, off, 0.0), KW_OK, "%s", kw_last_error());
+    float g[NP];
+    cr_assert_eq(kw_sense_execute(se, k, s, img, g), KW_OK);
+    kw_combine_optimal(m, s, NC, NP, opt);
+    for (int p = 0; p < NP; p++) {
+        cr_expect(cabsf(img[p] - opt[p]) < 1e-4f * cabsf(opt[p]) + 1e-5f, "pixel %d", p);
+        cr_expect(fabsf(g[p] - 1) < 1e-5f, "g at R = 1 is 1, got %g", g[p]);
+    }
+    kw_sense_destroy(se);
+    kw_sense_destroy(NULL);
+    kw_free(m);
+    kw_free(s);
+    kw_free(k);
+    kw_free(img);
+    kw_free(opt);
+}
+
+Test(sense, bad_arguments)
+{
+    kw_sense *se;
+    size_t d[3] = {1, 30, 8};
+    int acc[3] = {1, 4, 1}, off[3] = {0, 0, 0};
+    cr_expect_eq(kw_sense_create(&se, 8, d, acc, off, 0.0), KW_EINVAL); /* 4 does not divide 30 */
+    acc[1] = 3;
+    cr_expect_eq(kw_sense_create(&se, 2, d, acc, off, 0.0), KW_EINVAL); /* R > coils */
+    cr_expect_eq(kw_sense_create(&se, 8, d, acc, off, -1.0), KW_EINVAL);
+}
+
+Test(grappa, block_too_small)
+{
+    kw_grappa *g;
+    size_t d[3] = {1, 32, 16};
+    kw_grappa_opts o = {{1, 2, 1}, {0, 0, 0}, {0, 15, 0}, {1, 3, 16}, {1, 2, 5}, 1e-4};
+    cr_expect_eq(kw_grappa_create(&g, 8, d, &o), KW_EINVAL);
+    o.acs_lo[1] = 10;
+    o.acs_n[1] = 12;
+    cr_assert_eq(kw_grappa_create(&g, 8, d, &o), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(kw_grappa_unknowns(g), 8 * 2 * 5);
+    /* bases b with b, b + 2 and b + 1 inside 10..21: 10..19, times 12 readout positions */
+    cr_expect_eq(kw_grappa_fit_count(g), 10 * 12);
+    kw_grappa_destroy(g);
+    kw_grappa_destroy(NULL);
+}
