@@ -44,10 +44,11 @@ def snapshot(d):
     return out
 
 
-def check(tmp_path, make_inputs, args, min_files=1):
-    """Run `args` (with {d} for the run's folder) four times; compare."""
+def check(tmp_path, make_inputs, args, min_files=1, threads=THREADS):
+    """Run `args` (with {d} for the run's folder) once per entry of
+    `threads` (OMP_NUM_THREADS); compare."""
     shots = []
-    for i, th in enumerate(THREADS):
+    for i, th in enumerate(threads):
         d = tmp_path / f"run{i}"
         d.mkdir()
         make_inputs(d)
@@ -61,7 +62,7 @@ def check(tmp_path, make_inputs, args, min_files=1):
         assert shots[i].keys() == shots[0].keys()
         for k in shots[0]:
             assert shots[i][k] == shots[0][k], \
-                f"{k} differs between run 0 (1 thread) and run {i} ({THREADS[i]} threads)"
+                f"{k} differs between run 0 (1 thread) and run {i} ({threads[i]} threads)"
 
 
 def kspace(d, coils=4, ny=48, nx=40, seed=3):
@@ -120,8 +121,28 @@ def test_encode_seeded(tmp_path):
            "--snr", "20", "--seed", "7", "--out", "ks.npy", "--truth", "t.npy"])
 
 
+def test_encode_coils_seeded(tmp_path):
+    check(tmp_path, lambda d: None,
+          ["encode", "--phantom", "weave", "--matrix", "64x48", "--fov", "256mm,192mm",
+           "--coils", "4", "--snr", "30", "--seed", "11", "--noise-corr", "0.2",
+           "--out", "ks.npy", "--sens-out", "s.npy"])
+
+
+@pytest.mark.parametrize("kind", [["--kind", "random", "--accel", "3", "--acs", "16"],
+                                  ["--kind", "poisson", "--accel", "4x2", "--matrix", "64x64x32"],
+                                  ["--kind", "golden", "--spokes", "55"],
+                                  ["--kind", "spiral", "--interleaves", "4"]])
+def test_pattern_seeded(tmp_path, kind):
+    args = ["pattern", "--matrix", "64x64", *kind, "--seed", "5", "--out", "p.npy",
+            "--json", "p.json", "--png", "p.png"]
+    if "--matrix" in kind:  # the case gives its own matrix
+        args = ["pattern", *kind, "--seed", "5", "--out", "p.npy", "--json", "p.json"]
+    check(tmp_path, lambda d: None, args)
+
+
 def test_demo(tmp_path):
-    check(tmp_path, lambda d: None, ["demo", "--out", "demo"], min_files=3)
+    # The longest case: two runs (1 and 2 threads) keep `make check` short.
+    check(tmp_path, lambda d: None, ["demo", "--out", "demo"], min_files=3, threads=["1", "2"])
 
 
 def test_recon_with_the_wisdom_cache(tmp_path, monkeypatch):
