@@ -352,3 +352,19 @@ def test_other_verbs_bad_input(tmp_path, name, args, field):
         pytest.skip(f"verb {args[0]} has not landed yet")
     bad(*args, field=field)
     assert sorted(os.listdir(tmp_path)) == before, "a file was left behind"
+
+
+@pytest.mark.parametrize("verb", ["recon", "score", "render", "pattern"])
+def test_max_memory_on_every_verb(tmp_path, verb):
+    # 2 x 512 x 512 complex64 = 4 MiB, above a 1 MiB limit: refused before
+    # allocation, naming the size it would need.
+    src = tmp_path / "ks.npy"
+    np.save(src, np.ones((2, 512, 512), np.complex64))
+    out = tmp_path / "o.npy"
+    args = {"recon": ["recon", "--in", src, "--out", out],
+            "score": ["score", "--ref", src, "--test", src],
+            "render": ["render", "--in", src, "--out", tmp_path / "o.png"],
+            "pattern": ["pattern", "--analyse", src]}[verb]
+    line = bad(*args, "--max-memory", "1MiB", field="shape")
+    assert "needs 4 MiB" in line and "limit of 1 MiB" in line
+    assert sorted(os.listdir(tmp_path)) == ["ks.npy"]
