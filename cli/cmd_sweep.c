@@ -161,6 +161,11 @@ int kw_sweep_finish(const kw_sweep_ctx *c, int ran, int failed_groups)
     int rc = kw_sweep_write_results(c, 1);
     if (rc)
         return rc;
+    if (!c->keep) {
+        char p[4200];
+        snprintf(p, sizeof p, "%s/scratch", c->out);
+        rmdir(p); /* only when empty: a group still running elsewhere keeps it */
+    }
     int ndone = 0;
     for (int r = 0; r < c->sw->nrows; r++)
         ndone += c->done[r];

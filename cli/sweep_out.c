@@ -23,7 +23,7 @@
 
 static const char *const columns[] = {
     "id", "phantom", "matrix", "fov_mm", "coils", "snr", "pattern", "acs", "power",
-    "fraction", "acceleration", "seed", "pattern_seed", "noise_seed", "method", "lambda",
+    "fraction", "acceleration", "acceleration_effective", "seed", "pattern_seed", "noise_seed", "method", "lambda",
     "iterations", "combine", "status", "nrmse", "psnr_db", "ssim", "run_time_s", "host", NULL};
 
 static void journal_path(const kw_sweep_ctx *c, char *b, size_t n)

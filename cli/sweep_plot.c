@@ -179,9 +179,20 @@ static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric
         amin--;
         amax++;
     }
+    /* one colour per method variant across the whole figure */
+    static char gs[MAXS][96];
+    int ngs = 0;
+    for (int p = 0; p < np; p++)
+        for (int si = 0; si < pn[p].ns; si++) {
+            int k = 0;
+            while (k < ngs && strcmp(gs[k], pn[p].series[si]))
+                k++;
+            if (k == ngs && ngs < MAXS)
+                snprintf(gs[ngs++], sizeof gs[0], "%s", pn[p].series[si]);
+        }
     int ncol = np < 4 ? np : 4, nrow = (np + ncol - 1) / ncol;
-    const double PW = 380, PH = 300, ML = 62, MR = 14, MT = 40, MB = 44, TOP = 36;
-    int W = (int)(ncol * PW), H = (int)(TOP + nrow * PH);
+    const double PW = 380, PH = 300, ML = 62, MR = 14, MT = 40, MB = 44, TOP = 36, LEG = 30;
+    int W = (int)(ncol * PW), H = (int)(TOP + nrow * PH + LEG);
     cairo_surface_t *s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
     cairo_t *cr = cairo_create(s);
     cairo_set_source_rgb(cr, 1, 1, 1);
@@ -229,7 +240,10 @@ static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric
         text(cr, 0, 0, metric, 0.5, 0.5);
         cairo_restore(cr);
         for (int si = 0; si < pn[p].ns; si++) {
-            const double *col = palette[si % 8];
+            int k = 0;
+            while (k < ngs && strcmp(gs[k], pn[p].series[si]))
+                k++;
+            const double *col = palette[k % 8];
             double dx = (si - (pn[p].ns - 1) / 2.0) * 4; /* bars side by side */
             cairo_set_source_rgb(cr, col[0], col[1], col[2]);
             cairo_set_line_width(cr, 1.6);
@@ -262,15 +276,23 @@ static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric
                 cairo_arc(cr, x, YP(c->sum / c->n), 2.6, 0, 2 * M_PI);
                 cairo_fill(cr);
             }
-            /* legend, top left of the panel */
-            double ly = y0 + 10 + si * 13;
-            cairo_rectangle(cr, x0 + 6, ly - 4, 14, 3);
-            cairo_fill(cr);
-            cairo_set_source_rgb(cr, 0, 0, 0);
-            text(cr, x0 + 24, ly - 2, pn[p].series[si], 0, 0.5);
         }
 #undef XP
 #undef YP
+    }
+    /* the legend, one row under the panels */
+    cairo_set_font_size(cr, 12);
+    double lx = 20, ly = TOP + nrow * PH + LEG / 2;
+    for (int k = 0; k < ngs; k++) {
+        const double *col = palette[k % 8];
+        cairo_set_source_rgb(cr, col[0], col[1], col[2]);
+        cairo_rectangle(cr, lx, ly - 2, 22, 4);
+        cairo_fill(cr);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        text(cr, lx + 28, ly, gs[k], 0, 0.5);
+        cairo_text_extents_t e;
+        cairo_text_extents(cr, gs[k], &e);
+        lx += 28 + e.x_advance + 26;
     }
     cairo_destroy(cr);
     kw_status st2 = save(s, path);

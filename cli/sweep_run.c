@@ -98,6 +98,7 @@ static cJSON *row_json(const kw_sweep *sw, int r)
     const kw_sweep_group *g = &sw->groups[R->group];
     cJSON *o = cJSON_CreateObject();
     cJSON_AddStringToObject(o, "id", R->id);
+    cJSON_AddStringToObject(o, "key", R->key);
     cJSON_AddStringToObject(o, "phantom", g->phantom);
     cJSON_AddNumberToObject(o, "matrix", g->matrix);
     cJSON_AddNumberToObject(o, "fov_mm", g->fov_mm);
@@ -274,6 +275,15 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
             snprintf(why, sizeof why, "cannot rewrite the sidecar of the k-space");
     }
     double t_data = now_s() - t0;
+    double r_eff = NAN;
+    if (!why[0]) {
+        char pj[4200];
+        snprintf(pj, sizeof pj, "%s/%s.json", dir, nc ? "traj" : "mask");
+        cJSON *j = NULL;
+        if (kw_json_read(pj, &j) == KW_OK)
+            kw_json_get_number(j, "acceleration", &r_eff);
+        cJSON_Delete(j);
+    }
     kw_array truth = {0};
     if (!why[0] && kw_npy_read(f_truth, &truth))
         snprintf(why, sizeof why, "truth: %s", kw_last_error());
@@ -283,6 +293,7 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
             continue;
         const kw_sweep_row *R = &sw->rows[r];
         cJSON *o = row_json(sw, r);
+        add_num_or_null(o, "acceleration_effective", r_eff);
         double t1 = now_s();
         char rwhy[400];
         snprintf(rwhy, sizeof rwhy, "%s", why);
