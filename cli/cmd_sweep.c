@@ -30,16 +30,16 @@ static const char usage_text[] =
 /* ---- children and signals --------------------------------------------------- */
 
 static volatile pid_t kids[MAX_JOBS];
-static struct sigaction old_term, old_int;
+static struct sigaction old_term, old_int, old_hup;
 
-/* SIGTERM / SIGINT: end the running experiments (their rows were never
+/* SIGTERM / SIGINT / SIGHUP: end the running experiments (their rows were never
  * journalled, so a restart runs them again), then die as before. */
 static void on_signal(int sig)
 {
     for (int i = 0; i < MAX_JOBS; i++)
         if (kids[i] > 0)
             kill(kids[i], SIGKILL);
-    const struct sigaction *old = sig == SIGTERM ? &old_term : &old_int;
+    const struct sigaction *old = sig == SIGTERM ? &old_term : sig == SIGINT ? &old_int : &old_hup;
     if (old->sa_handler != SIG_DFL && old->sa_handler != SIG_IGN &&
         !(old->sa_flags & SA_SIGINFO)) {
         old->sa_handler(sig);
@@ -56,6 +56,7 @@ static void install_signals(void)
     sigemptyset(&sa.sa_mask);
     sigaction(SIGTERM, &sa, &old_term);
     sigaction(SIGINT, &sa, &old_int);
+    sigaction(SIGHUP, &sa, &old_hup);
 }
 
 /* ---- shared by the local and the MPI runs ----------------------------------- */

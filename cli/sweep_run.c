@@ -27,6 +27,7 @@
 #include "jsonio.h"
 #include "kw_metrics.h"
 #include "npy.h"
+#include "outfile.h"
 #include "png.h"
 #include "sweep.h"
 
@@ -193,6 +194,9 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
         dup2(lf, STDERR_FILENO);
         close(lf);
     }
+    /* the parent's handler ends the parent's children; here a signal only
+     * needs to clear the temporary files, then end this child */
+    kw_outfile_install_signal_handlers();
     setenv("OMP_NUM_THREADS", "1", 1);
     omp_set_num_threads(1);
     kw_cli_quiet = 1;
