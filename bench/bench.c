@@ -8,7 +8,14 @@
  *   kw_bench fft   FILE THREADS REPS   kweave's centered transform + RSS in two
  *                                      steps (kw_fft in place on a copy), for
  *                                      comparison with the fused path
+ *   kw_bench run REPS CMD ARGS...      whole processes: wall time and peak
+ *                                      resident memory (ru_maxrss of the child,
+ *                                      forked from this small process so that
+ *                                      the parent's pages are not counted)
  */
+#include <sys/resource.h>
+#include <sys/wait.h>
+#include <unistd.h>
 #include <fftw3.h>
 #include <math.h>
 #include <stdio.h>
@@ -42,10 +49,51 @@ static void report(const char *name, int threads, double *t, int reps)
            name, threads, med, t[0], t[reps - 1], reps);
 }
 
+static int run_processes(int reps, char **cmd)
+{
+    double *t = malloc(sizeof(double) * (size_t)reps);
+    long peak = 0;
+    if (!t)
+        return 1;
+    for (int i = 0; i <= reps; i++) { /* run 0 warms caches and wisdom */
+        double t0 = now_ms();
+        pid_t pid = fork();
+        if (pid == 0) {
+            execvp(cmd[0], cmd);
+            _exit(127);
+        }
+        int status;
+        struct rusage ru;
+        if (pid < 0 || wait4(pid, &status, 0, &ru) < 0 || !WIFEXITED(status) ||
+            WEXITSTATUS(status) != 0) {
+            fprintf(stderr, "kw_bench: %s failed\n", cmd[0]);
+            free(t);
+            return 1;
+        }
+        if (i > 0)
+            t[i - 1] = now_ms() - t0;
+        if (ru.ru_maxrss > peak)
+            peak = ru.ru_maxrss;
+    }
+    qsort(t, (size_t)reps, sizeof *t, cmp);
+    double med = reps % 2 ? t[reps / 2] : 0.5 * (t[reps / 2 - 1] + t[reps / 2]);
+    printf("{\"case\": \"run\", \"median_ms\": %.4f, \"min_ms\": %.4f, \"max_ms\": %.4f, "
+           "\"reps\": %d, \"peak_rss_bytes\": %ld}\n",
+           med, t[0], t[reps - 1], reps, peak * 1024);
+    free(t);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
+    if (argc >= 4 && strcmp(argv[1], "run") == 0) {
+        int reps = atoi(argv[2]);
+        if (reps < 1 || reps > 1000)
+            return 2;
+        return run_processes(reps, argv + 3);
+    }
     if (argc != 5) {
-        fprintf(stderr, "usage: kw_bench floor|rss|fft FILE THREADS REPS\n");
+        fprintf(stderr, "usage: kw_bench floor|rss|fft FILE THREADS REPS | run REPS CMD...\n");
         return 2;
     }
     const char *mode = argv[1];

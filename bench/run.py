@@ -89,23 +89,14 @@ np.save(sys.argv[2], np.sqrt(np.sum(np.abs(y) ** 2, axis=0)).astype(np.float32))
 """
 
 
-def process_runs(cmd, reps, env=None):
-    """Wall time and peak resident memory (ru_maxrss) of whole processes."""
-    ts, peak = [], 0
-    for i in range(reps + 1):
-        t0 = time.perf_counter()
-        p = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, env=env)
-        _, status, ru = os.wait4(p.pid, 0)
-        dt = (time.perf_counter() - t0) * 1e3
-        if os.waitstatus_to_exitcode(status) != 0:
-            raise RuntimeError(f"{cmd} failed: {p.stderr.read().decode()}")
-        p.stderr.close()
-        if i:  # the first run warms the wisdom cache and the page cache
-            ts.append(dt)
-        peak = max(peak, ru.ru_maxrss * 1024)
-    r = stats(ts)
-    r["peak_rss_bytes"] = peak
-    return r
+def process_runs(build, cmd, reps, env=None):
+    """Wall time and peak resident memory of whole processes, measured by
+    kw_bench run (a small C parent: a child forked from this Python process
+    would inherit its resident pages into ru_maxrss)."""
+    out = subprocess.run([os.path.join(build, "kw_bench"), "run", str(reps), *cmd],
+                         capture_output=True, text=True, check=True, env=env).stdout
+    r = json.loads(out.strip().splitlines()[-1])
+    return {k: r[k] for k in ("median_ms", "min_ms", "max_ms", "reps", "peak_rss_bytes")}
 
 
 def fmt(r):
@@ -153,9 +144,9 @@ def main():
             row(f"recon RSS {label}, threads", two, "same, 1 thread", fused, ">= 1.7x")
             if shape == (32, 256, 256):
                 out = os.path.join(tmp, "img.npy")
-                kw = process_runs([kweave, "recon", "--in", path, "--out", out, "--quiet"],
+                kw = process_runs(build, [kweave, "recon", "--in", path, "--out", out, "--quiet"],
                                   max(3, 10 // q), env=env1)
-                py = process_runs([sys.executable, "-c", PY_PROCESS, path, out], max(3, 10 // q))
+                py = process_runs(build, [sys.executable, "-c", PY_PROCESS, path, out], max(3, 10 // q))
                 row("whole process recon .npy -> .npy (32x256x256)", kw, "numpy script process", py,
                     "faster than numpy")
                 inout = x.nbytes + x[0].real.nbytes

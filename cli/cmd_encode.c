@@ -2,6 +2,7 @@
  * phantom -> k-space .npy + JSON sidecar (+ truth image). Definitions of
  * SNR, noise and the k-space convention: docs/simulator.md. */
 #include <errno.h>
+#include <stddef.h>
 #include <libgen.h>
 #include <limits.h>
 #include <math.h>
@@ -16,7 +17,9 @@
 #include "kw_simulate.h"
 #include "kw_tissue.h"
 #include "kw_rng.h"
+#include "kw_sequence.h"
 #include "npy.h"
+#include "protofile.h"
 
 #define MAX_EDGE 8192
 /* Period of the trigonometric series of the coil maps, in FOV units: larger
@@ -257,15 +260,103 @@ done:
     return st;
 }
 
+/* ---- protocol files (the planner's `key = value` format, cli/protofile.h) --- */
+#define PF_MAX 40
+typedef struct proto_keys {
+    int n;
+    char key[PF_MAX][KW_PROTOFILE_MAX_KEY + 1];
+    char val[PF_MAX][KW_PROTOFILE_MAX_LINE + 1];
+} proto_keys;
+
+static kw_status proto_key(void *user, const char *key, const char *value, int line)
+{
+    (void)line;
+    proto_keys *pk = user;
+    for (int i = 0; i < pk->n; i++)
+        KW_FAIL_IF(strcmp(pk->key[i], key) == 0, KW_EINVAL, "%s: given more than once", key);
+    KW_FAIL_IF(pk->n >= PF_MAX, KW_EINVAL, "too many keys");
+    snprintf(pk->key[pk->n], sizeof pk->key[0], "%s", key);
+    snprintf(pk->val[pk->n], sizeof pk->val[0], "%s", value);
+    pk->n++;
+    return KW_OK;
+}
+
+static const char *proto_get(const proto_keys *pk, const char *key)
+{
+    for (int i = 0; pk && i < pk->n; i++)
+        if (strcmp(pk->key[i], key) == 0)
+            return pk->val[i];
+    return NULL;
+}
+
+/* The planner's keys this command does not use itself, into `p`; the rest
+ * (sequence, fov, matrix, bandwidth, b0, te, tr) are set by the caller. */
+static kw_status proto_fill(const proto_keys *pk, kw_protocol *p)
+{
+    static const struct {
+        const char *key;
+        kw_unit_kind kind;
+        size_t off;
+    } unit_keys[] = {
+        {"gmax", KW_UNIT_GRADIENT, offsetof(kw_protocol, gmax_T_per_m)},
+        {"slew", KW_UNIT_SLEW, offsetof(kw_protocol, slew_T_per_m_per_s)},
+        {"raster", KW_UNIT_TIME, offsetof(kw_protocol, raster_s)},
+        {"temperature", KW_UNIT_TEMPERATURE, offsetof(kw_protocol, temperature_k)},
+        {"rf-duration", KW_UNIT_TIME, offsetof(kw_protocol, rf_duration_s)},
+        {"tbw", KW_UNIT_NONE, offsetof(kw_protocol, tbw)},
+        {"slice", KW_UNIT_LENGTH, offsetof(kw_protocol, slice_m)},
+        {"spoiler", KW_UNIT_NONE, offsetof(kw_protocol, spoiler_cycles)},
+        {"crusher", KW_UNIT_NONE, offsetof(kw_protocol, crusher_cycles)},
+        {"t2star", KW_UNIT_TIME, offsetof(kw_protocol, t2star_s)},
+        {"partial-fourier", KW_UNIT_NONE, offsetof(kw_protocol, partial_fourier)},
+        {"max-readout", KW_UNIT_TIME, offsetof(kw_protocol, max_readout_s)},
+    };
+    static const struct {
+        const char *key;
+        size_t off;
+    } int_keys[] = {{"shots", offsetof(kw_protocol, shots)},
+                    {"interleaves", offsetof(kw_protocol, interleaves)},
+                    {"spokes", offsetof(kw_protocol, spokes)},
+                    {"averages", offsetof(kw_protocol, averages)}};
+    static const char *const own[] = {"sequence", "fov", "matrix", "bandwidth", "b0", "te",
+                                      "tr", "flip", "ti", NULL};
+    for (int i = 0; i < pk->n; i++) {
+        const char *k = pk->key[i], *v = pk->val[i];
+        int done = 0;
+        for (const char *const *o = own; *o && !done; o++)
+            done = strcmp(*o, k) == 0;
+        for (size_t u = 0; !done && u < sizeof unit_keys / sizeof unit_keys[0]; u++)
+            if (strcmp(unit_keys[u].key, k) == 0) {
+                char why[160];
+                double x;
+                if (kw_unit_parse(v, unit_keys[u].kind, &x, why, sizeof why))
+                    return kw_set_error(KW_EINVAL, "%s: %s", k, why);
+                *(double *)((char *)p + unit_keys[u].off) = x;
+                done = 1;
+            }
+        for (size_t u = 0; !done && u < sizeof int_keys / sizeof int_keys[0]; u++)
+            if (strcmp(int_keys[u].key, k) == 0) {
+                char *end;
+                long x = strtol(v, &end, 10);
+                KW_FAIL_IF(end == v || *end || x < 1 || x > 1000000, KW_EINVAL,
+                           "%s: '%s' is not a whole number >= 1", k, v);
+                *(int *)((char *)p + int_keys[u].off) = (int)x;
+                done = 1;
+            }
+        KW_FAIL_IF(!done, KW_EINVAL, "%s: unknown key", k);
+    }
+    return KW_OK;
+}
+
 typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
-    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map;
+    const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map, *protocol;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     double slice_thk, slice_gap;
     long seed, coils, coil_order, slices, slice_points;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
-        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp;
+        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -319,6 +410,8 @@ int kw_cmd_encode(int argc, char **argv)
          "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
         {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
          "off-resonance map (ny, nx) in Hz (Cartesian, time-segmented on a 4x grid)"},
+        {"protocol", KW_OPT_STRING, &a.protocol, 0, &a.s_prot,
+         "protocol file of `kweave plan` (options given here override its keys)"},
         {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
          "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0"},
         {"slice-thickness", KW_OPT_UNIT, &a.slice_thk, KW_UNIT_LENGTH, &a.s_slt,
@@ -330,6 +423,56 @@ int kw_cmd_encode(int argc, char **argv)
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
         return rc;
+
+    /* ---- protocol file: its keys fill the options not given here ---- */
+    static proto_keys pk;
+    memset(&pk, 0, sizeof pk);
+    const char *prot_seq = NULL;
+    if (a.s_prot) {
+        kw_status pst = kw_protofile_read(a.protocol, proto_key, &pk);
+        if (pst)
+            return kw_cli_status(pst, "protocol");
+        const char *v;
+        char why[200];
+        if ((v = proto_get(&pk, "sequence"))) {
+            prot_seq = v;
+            if (!a.s_seq) {
+                if (strcmp(v, "gre") == 0 || strcmp(v, "epi") == 0 || strcmp(v, "radial") == 0 ||
+                    strcmp(v, "spiral") == 0)
+                    a.sequence = "gre";
+                else if (strcmp(v, "se") == 0)
+                    a.sequence = "se";
+                else
+                    return kw_cli_fail("protocol", "sequence: '%s' is not gre, se, epi, radial or spiral", v);
+                a.s_seq = 1;
+            }
+        }
+        if (!a.s_fov && (v = proto_get(&pk, "fov"))) {
+            a.fov = v;
+            a.s_fov = 1;
+        }
+        if (!a.s_mx && (v = proto_get(&pk, "matrix"))) {
+            a.matrix = v;
+            a.s_mx = 1;
+        }
+        if (!a.s_bw && (v = proto_get(&pk, "bandwidth"))) {
+            a.bandwidth = v;
+            a.s_bw = 1;
+        }
+        static const struct {
+            const char *key;
+            kw_unit_kind kind;
+        } uk[] = {{"b0", KW_UNIT_FIELD}, {"te", KW_UNIT_TIME}, {"tr", KW_UNIT_TIME},
+                  {"flip", KW_UNIT_ANGLE}, {"ti", KW_UNIT_TIME}};
+        double *dst[] = {&a.b0, &a.te, &a.tr, &a.flip, &a.ti};
+        int *seen[] = {&a.s_b0, &a.s_te, &a.s_tr, &a.s_flip, &a.s_ti};
+        for (int i = 0; i < 5; i++)
+            if (!*seen[i] && (v = proto_get(&pk, uk[i].key))) {
+                if (kw_unit_parse(v, uk[i].kind, dst[i], why, sizeof why))
+                    return kw_cli_fail("protocol", "%s: %s", uk[i].key, why);
+                *seen[i] = 1;
+            }
+    }
 
     /* ---- phantom and grid ---- */
     if (!a.s_ph)
@@ -432,6 +575,67 @@ int kw_cmd_encode(int argc, char **argv)
     }
     double ro_dur = bw > 0 ? (double)n[0] / bw : 0; /* readout duration, dwell 1/BW */
     double te_min = bw > 0 ? (double)(n[0] / 2) / bw : 0; /* first sample at t >= 0 */
+    /* A protocol file: `kweave plan`'s own numbers (minimum TE and TR, EPI
+     * echo spacing) for the same protocol. */
+    double plan_min_te = 0, plan_esp = 0, plan_dwell = 0;
+    int plan_epi = 0, plan_shots = 1, plan_feasible = -1;
+    if (a.s_prot) {
+        kw_protocol pp;
+        kw_protocol_defaults(&pp);
+        kw_status pst = proto_fill(&pk, &pp);
+        if (pst)
+            return kw_cli_status(pst, "protocol");
+        /* the file's sequence gives the timing; without one, spin-echo timing
+         * for se/ir contrast and gradient-echo timing otherwise */
+        const char *sq = prot_seq ? prot_seq
+                                  : (con.seq == KW_CONTRAST_SE || con.seq == KW_CONTRAST_IR ? "se" : "gre");
+        static const char *const kinds[] = {"gre", "se", "epi", "radial", "spiral"};
+        for (int i = 0; i < 5; i++)
+            if (strcmp(sq, kinds[i]) == 0)
+                pp.sequence = (kw_sequence_kind)i;
+        pp.ndim = ndim;
+        for (int i = 0; i < 3; i++) {
+            pp.fov_m[i] = fov[i];
+            pp.matrix[i] = (int)n[i];
+        }
+        if (bw > 0)
+            pp.bandwidth_hz = bw;
+        pp.b0_t = a.b0;
+        pp.te_s = a.s_te ? a.te : 0;
+        pp.tr_s = a.s_tr ? a.tr : 0;
+        kw_plan_report *rep = NULL;
+        if ((pst = kw_plan_create(&rep, &pp)))
+            return kw_cli_status(pst, "protocol");
+        plan_min_te = rep->min_te_s;
+        plan_feasible = rep->feasible;
+        plan_epi = pp.sequence == KW_SEQ_EPI;
+        plan_esp = rep->echo_spacing_s;
+        plan_dwell = rep->dwell_s;
+        plan_shots = pp.shots;
+        if (plan_epi && pp.partial_fourier < 1)
+            plan_epi = -1;
+        if (!a.s_te) {
+            a.te = rep->te_s;
+            a.s_te = 1;
+        }
+        if (!a.s_tr) {
+            a.tr = rep->tr_s;
+            a.s_tr = 1;
+        }
+        if (bw <= 0) {
+            bw = rep->basic.bandwidth_hz;
+            ro_dur = (double)n[0] / bw;
+            te_min = (double)(n[0] / 2) / bw;
+        }
+        kw_plan_destroy(rep);
+        if (plan_epi < 0)
+            return kw_cli_fail("protocol", "partial-fourier EPI is not simulated");
+        if (a.te < plan_min_te * (1 - 1e-9))
+            return kw_cli_fail("te", "%.4g ms is shorter than the protocol allows (kweave plan's "
+                               "minimum TE is %.4g ms)", a.te * 1e3, plan_min_te * 1e3);
+        if (plan_epi)
+            te_min = 0; /* the planner's minimum covers the echo train */
+    }
     if (con.seq != KW_CONTRAST_PD) {
         if (!a.s_te)
             return kw_cli_fail("te", "missing for --sequence %s", seqname);
@@ -651,6 +855,29 @@ int kw_cmd_encode(int argc, char **argv)
     if (nsl && (a.s_traj || a.s_fmap)) {
         ret = kw_cli_fail("slices", "not with --trajectory or --field-map");
         goto done;
+    }
+
+    if (plan_epi > 0 && !a.s_times && !a.s_traj) {
+        if (ndim != 2) {
+            ret = kw_cli_fail("protocol", "EPI timing is simulated for 2-D phantoms only");
+            goto done;
+        }
+        /* EPI train (kweave plan's echo spacing and dwell): row r at
+         * TE + (r - ny/2) esp / shots, read alternately forwards and
+         * backwards along x; the centre row forwards, its centre at TE. */
+        tvals = malloc(n[0] * n[1] * sizeof *tvals);
+        if (!tvals) {
+            ret = kw_cli_fail("protocol", "out of memory");
+            goto done;
+        }
+        for (size_t r = 0; r < n[1]; r++) {
+            long e = (long)r - (long)(n[1] / 2);
+            double sgn = (e % 2 == 0) ? 1.0 : -1.0;
+            for (size_t c = 0; c < n[0]; c++)
+                tvals[r * n[0] + c] = a.te + (double)e * plan_esp / plan_shots +
+                                      sgn * ((double)c - (double)(n[0] / 2)) * plan_dwell;
+        }
+        times_full = 1;
     }
 
     /* ---- coils ---- */
@@ -1003,7 +1230,9 @@ int kw_cmd_encode(int argc, char **argv)
     } while (0)
     ADD_FILE("trajectory", a.s_traj, a.trajectory);
     ADD_FILE("sens", a.s_sout || a.s_sens, a.s_sout ? a.sens_out : a.sens);
-    int write_cov = (a.s_snr || a.s_ncov) && nch > 0;
+    /* the coil noise covariance, for prewhitening, is written for multi-coil
+     * data (a coil axis); one channel has just noise_sigma */
+    int write_cov = (a.s_snr || a.s_ncov) && ncoils > 0;
     if (write_cov) {
         covpath = derived_path(a.out, "noise_cov.npy");
         if (!covpath) {
@@ -1048,6 +1277,21 @@ int kw_cmd_encode(int argc, char **argv)
         cJSON_AddNullToObject(prot, "bandwidth_hz");
     }
     cJSON_AddNumberToObject(prot, "df_hz", so.df_hz);
+    if (a.s_prot) {
+        char *rp = rel_to_sidecar(a.protocol, a.out);
+        cJSON_AddStringToObject(prot, "file", rp ? rp : a.protocol);
+        free(rp);
+        if (prot_seq)
+            cJSON_AddStringToObject(prot, "plan_sequence", prot_seq);
+        cJSON_AddNumberToObject(prot, "min_te_s", plan_min_te);
+        cJSON_AddBoolToObject(prot, "feasible", plan_feasible == 1);
+        if (plan_epi > 0) {
+            cJSON_AddNumberToObject(prot, "echo_spacing_s", plan_esp);
+            cJSON_AddNumberToObject(prot, "shots", plan_shots);
+            cJSON_AddNumberToObject(prot, "distortion_pixels_per_hz",
+                                    (double)n[1] * plan_esp / plan_shots);
+        }
+    }
     if (a.s_fmap) {
         char *rp = rel_to_sidecar(a.field_map, a.out);
         cJSON_AddStringToObject(prot, "field_map", rp ? rp : a.field_map);

@@ -94,9 +94,11 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
     int Rd = c->smp.accel[0] * c->smp.accel[1] * c->smp.accel[2], Rs, acs;
     int h = json_int(job->sidecar, "acceleration", &Rs);
     KW_FAIL_IF(h < 0, KW_EFORMAT, "acceleration: sidecar value is not a number or list");
-    KW_FAIL_IF(h > 0 && Rs > 1 && Rs != Rd, KW_EINVAL,
-               "acceleration: the sidecar says %d but the data are sampled at R = %d%s", Rs, Rd,
-               c->smp.uniform ? "" : " (not a uniform lattice)");
+    /* Only a uniform lattice has an R the data can confirm; for random,
+     * Poisson-disc or lattice-shifted patterns the sidecar's acceleration is
+     * the nominal (or achieved) ratio and cannot contradict the data. */
+    KW_FAIL_IF(h > 0 && Rs > 1 && c->smp.uniform && Rs != Rd, KW_EINVAL,
+               "acceleration: the sidecar says %d but the data are sampled at R = %d", Rs, Rd);
     h = json_int(job->sidecar, "acs_lines", &acs);
     if (h > 0 && Rd > 1) {
         int found = 0;

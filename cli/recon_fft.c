@@ -42,6 +42,10 @@ kw_status kw_recon_run_fft(kw_recon_job *job)
         kw_cart_free(&c);
         return st;
     }
+    /* Sensitivities for --combine optimal are estimated from the k-space
+     * calibration block: before the transform overwrites c.k with images. */
+    if (!st && !job->opt->keep_coils && comb && strcmp(comb, "optimal") == 0 && c.nc > 1)
+        st = kw_cart_need_sens(job, &c);
     kw_fft_plan *plan = NULL;
     if (!st)
         st = kw_fft_create(&plan, c.sdim, c.sdim == 3 ? c.d : c.d + 1, c.nc, KW_FFT_MEASURE);

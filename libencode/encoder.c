@@ -114,7 +114,9 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
         for (int d = 0; d < nd; d++)
             n_int[d] = (int)e->big[d];
         unsigned ff = no->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
-        fftwf_plan_with_nthreads(no->nthreads > 0 ? no->nthreads : kw_fft_threads());
+        /* threads only where they pay: small grids stay on one */
+        int nth = no->nthreads > 0 ? no->nthreads : kw_fft_threads();
+        fftwf_plan_with_nthreads(e->nbig >= 65536 ? nth : 1);
         fftwf_plan pl = fftwf_plan_dft(nd, n_int, (fftwf_complex *)e->lambda,
                                        (fftwf_complex *)e->lambda, FFTW_FORWARD,
                                        FFTW_ESTIMATE);

@@ -118,7 +118,7 @@ kw_status kw_admm(kw_solver *s, const float complex *y, float complex *x,
             for (size_t i = 0; i < n; i++) {
                 float complex w = ax[i] + u[i];
                 float a = cabsf(w);
-                z[i] = a > th ? w * (1.0f - th / a) : 0.0f;
+                z[i] = nc_wav_approx(s, i) ? w : a > th ? w * (1.0f - th / a) : 0.0f;
             }
         }
         for (size_t i = 0; i < nz; i++)

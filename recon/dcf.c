@@ -10,6 +10,28 @@ static int cmp_float(const void *a, const void *b)
     return (x > y) - (x < y);
 }
 
+static int cmp_double(const void *a, const void *b)
+{
+    double x = *(const double *)a, y = *(const double *)b;
+    return (x > y) - (x < y);
+}
+
+/* index of the entry of sorted u[0..m) nearest to t */
+static size_t nearest(const double *u, size_t m, double t)
+{
+    size_t lo = 0, hi = m;
+    while (hi - lo > 1) {
+        size_t mid = (lo + hi) / 2;
+        if (u[mid] <= t)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    if (lo + 1 < m && fabs(u[lo + 1] - t) < fabs(u[lo] - t))
+        lo++;
+    return lo;
+}
+
 kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
 {
     KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "dcf: %d dimensions", ndim);
@@ -49,17 +71,44 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
         dz = nplanes > 1 ? (double)(z[ns - 1] - z[0]) / (double)(nplanes - 1) : 1.0;
         free(z);
     }
-    /* samples per ring, counted on the innermost ring (radius rmin): a ring
-     * of radius r and width dr has area 2 pi r dr */
-    size_t ring = 0, ncentre = 0;
+    /* Each full-diameter spoke direction theta (mod pi) owns the angular
+     * sector halfway to its neighbours, width dtheta; a sample at radius r
+     * owns r dtheta dr of it (uniform angles: dtheta = pi/Ns, w = pi r dr/Ns;
+     * golden-angle: the sectors differ). Directions repeated (several
+     * planes or repetitions) share: m = samples of the innermost ring at
+     * that angle / 2 (the +r and -r of one spoke). */
+    double *th = malloc(ns * sizeof *th), *u = malloc(ns * sizeof *u);
+    size_t *cnt = calloc(ns, sizeof *cnt);
+    if (!th || !u || !cnt) {
+        free(th);
+        free(u);
+        free(cnt);
+        return kw_set_error(KW_ENOMEM, "dcf: out of memory");
+    }
+    size_t nu = 0, ncentre = 0;
+    for (size_t j = 0; j < ns; j++) {
+        double kx = traj[j * ndim], ky = traj[j * ndim + 1];
+        double t = atan2(ky, kx);
+        if (t < 0)
+            t += KW_PI;
+        if (t >= KW_PI - 1e-9)
+            t -= KW_PI;
+        th[j] = t;
+        if (hypot(kx, ky) >= 1e-6)
+            u[nu++] = t;
+        else
+            ncentre++;
+    }
+    qsort(u, nu, sizeof *u, cmp_double);
+    size_t m = 0;
+    for (size_t i = 0; i < nu; i++)
+        if (m == 0 || u[i] - u[m - 1] > 1e-5)
+            u[m++] = u[i];
     for (size_t j = 0; j < ns; j++) {
         double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
-        if (r < 1e-6)
-            ncentre++;
-        else if (fabs(r - rmin) < 0.25 * dr)
-            ring++;
+        if (r >= 1e-6 && fabs(r - rmin) < 0.25 * dr)
+            cnt[nearest(u, m, th[j])]++;
     }
-    double per_plane = dz * (double)nplanes;
     for (size_t j = 0; j < ns; j++) {
         double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
         /* the centre: not its Voronoi disc pi dr^2/4 but the weight that
@@ -68,11 +117,20 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
          * Stegun 23.1.30) with g(r) = 2 pi r f(r), g(0) = 0, g'(0) = 2 pi f(0)
          * gives sum_{m>=1} g(m dr) dr = int g - 2 pi f(0) dr^2 / 12 + O(dr^4),
          * so the centre carries pi dr^2 / 6 */
-        if (r < 1e-6)
-            w[j] = (float)(KW_PI * dr * dr / 6 * per_plane / (double)ncentre);
-        else
-            w[j] = (float)(2 * KW_PI * r * dr * per_plane / (double)ring);
+        if (r < 1e-6) {
+            w[j] = (float)(KW_PI * dr * dr / 6 * dz * (double)nplanes / (double)ncentre);
+            continue;
+        }
+        size_t i = nearest(u, m, th[j]);
+        double lo = i > 0 ? u[i - 1] : u[m - 1] - KW_PI;
+        double hi = i + 1 < m ? u[i + 1] : u[0] + KW_PI;
+        double dth = m > 1 ? 0.5 * (hi - lo) : KW_PI;
+        double mult = cnt[i] >= 2 ? (double)cnt[i] / 2.0 : 1.0;
+        w[j] = (float)(r * dth * dr * dz / mult);
     }
+    free(th);
+    free(u);
+    free(cnt);
     return KW_OK;
 }
 

@@ -9,11 +9,14 @@
 #include "kw_tv.h"
 #include "nc_solver.h"
 
-/* c <- c max(0, 1 - t/|c|), returns sum |c| after shrinking */
-static double soft(float complex *c, size_t n, float t)
+/* c <- c max(0, 1 - t/|c|) except on the coarsest approximation band;
+ * returns the sum of |c| over the thresholded coefficients after shrinking */
+static double soft(const kw_solver *sv, float complex *c, size_t n, float t)
 {
     double s = 0;
     for (size_t i = 0; i < n; i++) {
+        if (nc_wav_approx(sv, i))
+            continue;
         float a = cabsf(c[i]);
         if (a <= t) {
             c[i] = 0;
@@ -64,7 +67,7 @@ kw_status kw_fista(kw_solver *s, const float complex *y, float complex *x,
         if (s->o.reg == KW_REG_WAVELET) {
             if ((st = nc_wav_fwd(s, v, c)))
                 return st;
-            reg = soft(c, n, mu); /* ||Psi x||_1 of the new x */
+            reg = soft(s, c, n, mu); /* ||Psi x||_1 of the new x */
             if ((st = nc_wav_inv(s, c, x)))
                 return st;
         } else if (s->o.reg == KW_REG_TV) {

@@ -15,9 +15,11 @@ extern "C" {
 #endif
 
 /*! kw_dcf_radial(): the analytic weights of radial sampling (the "ramp"):
- * w_j = 2 pi r_j dr / n_ring, the area of the ring of radius r_j = |k_j| in
- * the kx-ky plane and width dr (the radial step) shared by the n_ring
- * samples of a ring (counted on the innermost ring); a sample at the centre
+ * w_j = r_j dtheta_j dr, the part of the ring of radius r_j = |k_j| (in the
+ * kx-ky plane) and width dr (the radial step) in the angular sector of the
+ * sample's spoke direction (mod pi), halfway to the neighbouring directions
+ * (uniform angles: 2 pi r dr / 2 Ns; golden-angle: unequal sectors),
+ * shared among repeated directions; a sample at the centre
  * gets pi dr^2 / 6 / n_centre (Euler-Maclaurin end correction of the ring
  * sum, not the Voronoi disc pi dr^2/4: see dcf.c). Stack-of-stars in 3-D: columns x and y, times
  * the kz spacing. Exact for equally spaced spokes with equal samples.

@@ -7,8 +7,10 @@
  *             Boesiger 2001, Magn Reson Med 46:638; Hestenes & Stiefel 1952)
  *   CS        min_x F(x) = 1/2 ||W^1/2 (E x - y)||^2 + lambda R(x)
  *             (Lustig, Donoho & Pauly 2007, Magn Reson Med 58:1182) with
- *             R = ||Psi x||_1, Psi an orthogonal Daubechies wavelet
- *             (periodic; recon/kw_wavelet.h; 3-D: slice by slice), or
+ *             R = ||Psi x||_1 over the detail bands, Psi an orthogonal
+ *             Daubechies wavelet (periodic; recon/kw_wavelet.h; 3-D: slice
+ *             by slice; the coarsest approximation band is not penalised,
+ *             common practice: it is not sparse), or
  *             R = TV(x) (recon/kw_tv.h),
  *             by FISTA (Beck & Teboulle 2009, SIAM J Imaging Sci 2:183) or
  *             ADMM (Boyd, Parikh, Chu, Peleato & Eckstein 2011, sec. 6).

@@ -31,6 +31,9 @@ double nc_reg_value(kw_solver *s, const float complex *x);
 /* Psi x and Psi^H c, slice by slice; in place allowed */
 kw_status nc_wav_fwd(kw_solver *s, const float complex *x, float complex *c);
 kw_status nc_wav_inv(kw_solver *s, const float complex *c, float complex *x);
+/* coefficient i of the packed wavelet image lies in the coarsest
+ * approximation band, which is not thresholded (it is not sparse) */
+int nc_wav_approx(const kw_solver *s, size_t i);
 int nc_report(kw_solver *s, kw_progress_fn fn, void *user, const char *stage,
               int iter, int niter, double objective, double change);
 

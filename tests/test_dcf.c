@@ -88,3 +88,35 @@ Test(dcf, bad_input)
     t[0] = NAN;
     cr_expect_eq(kw_dcf_radial(2, 2, t, w), KW_ENUMERIC);
 }
+
+/* Golden-angle spokes (increment pi (sqrt 5 - 1) / 2, Winkelmann et al.
+ * 2007): unequal sectors, but on every ring the weights must add up to the
+ * ring's area 2 pi r dr (plane geometry), and a wider sector weighs more. */
+Test(dcf, radial_golden_ring_areas)
+{
+    size_t ns = 37, n = 16;
+    float *t = malloc(ns * n * 2 * sizeof *t), *w = malloc(ns * n * sizeof *w);
+    for (size_t s = 0; s < ns; s++) {
+        double a = fmod((double)s * KW_PI * (sqrt(5.0) - 1.0) / 2.0, KW_PI);
+        for (size_t i = 0; i < n; i++) {
+            double r = (double)i - (double)(n / 2);
+            t[2 * (s * n + i)] = (float)(r * cos(a));
+            t[2 * (s * n + i) + 1] = (float)(r * sin(a));
+        }
+    }
+    cr_assert_eq(kw_dcf_radial(2, ns * n, t, w), KW_OK, "%s", kw_last_error());
+    for (int r = 1; r < (int)n / 2; r++) {
+        double sum = 0, wmin = 1e9, wmax = 0;
+        for (size_t j = 0; j < ns * n; j++)
+            if (fabs(hypot(t[2 * j], t[2 * j + 1]) - r) < 1e-3) {
+                sum += w[j];
+                wmin = fmin(wmin, w[j]);
+                wmax = fmax(wmax, w[j]);
+            }
+        cr_expect(fabs(sum - 2 * KW_PI * r) < 1e-4 * 2 * KW_PI * r, "ring %d: %g vs %g", r, sum,
+                  2 * KW_PI * r);
+        cr_expect(wmax > 1.2 * wmin, "golden-angle sectors should differ");
+    }
+    free(t);
+    free(w);
+}

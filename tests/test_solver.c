@@ -131,6 +131,8 @@ static void closed_form_case(int admm)
     cr_assert_eq(kw_wavelet_create(&w, 4, ny, nx, 3), KW_OK);
     kw_wavelet_forward_c(w, ref, ref);
     for (size_t i = 0; i < n; i++) {
+        if (i / nx < (ny >> 3) && i % nx < (nx >> 3))
+            continue; /* the coarsest approximation band (3 levels) is kept */
         float a = cabsf(ref[i]);
         ref[i] = a > lambda ? ref[i] * (1.0f - (float)lambda / a) : 0.0f;
     }

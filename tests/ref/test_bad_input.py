@@ -239,7 +239,7 @@ def test_unknown_verb():
     bad("transmogrify", field="transmogrify")
 
 
-# ---- the other verbs (plan, recon, score), as they have landed ----------------------
+# ---- the other verbs (plan, encode, pattern, recon, score), as they have landed ----------------------
 
 
 def _verb_inputs(d):
@@ -261,12 +261,17 @@ def _verb_inputs(d):
     }.items():
         np.save(d / f"{stem}.npy", c)
         (d / f"{stem}.json").write_text(side)
+    np.save(d / "mask_bad.npy", np.ones((10, 10), np.uint8))
+    np.save(d / "sens_bad.npy", np.ones((2, 8, 8), np.complex64))
+    np.save(d / "traj_bad.npy", np.ones((10, 5), np.float32))
+    np.save(d / "traj_nan.npy", np.full((10, 2), np.nan, np.float32))
     (d / "proto.txt").write_text("fov = 256mm\nmatrix = 256\nbandwidth = 32kHz\nfov = 200mm\n")
     (d / "proto2.txt").write_text("fov 256mm\n")
     (d / "proto3.txt").write_text("fov = 256mm\nmatrix = 256\nbandwidth = 32kHz\nwarp = 9\n")
 
 
 PLAN = ["plan", "--fov", "256mm", "--matrix", "256", "--bandwidth", "32kHz"]
+ENC = ["encode", "--phantom", "shepp-logan", "--matrix", "64", "--fov", "256mm", "--out", "{d}/k.npy"]
 KNOWN_GAP = pytest.mark.xfail(strict=True, reason="recon does not yet check its sidecar "
                               "against the array (cmd_recon.c); reported to the integrator")
 
@@ -304,6 +309,30 @@ VERB_CASES = [
                  "shape", marks=KNOWN_GAP),
     pytest.param("recon-sidecar-not-kspace", ["recon", "--in", "{d}/notks.npy", "--out", "{d}/o.npy"],
                  "kind", marks=KNOWN_GAP),
+    ("encode-unknown-phantom", ENC[:2] + ["nope"] + ENC[3:], "phantom"),
+    ("encode-matrix-zero", ENC[:4] + ["0"] + ENC[5:], "matrix"),
+    ("encode-matrix-absurd", ENC[:4] + ["99999x99999"] + ENC[5:], "matrix"),
+    ("encode-fov-negative", ENC[:6] + ["-1mm"] + ENC[7:], "fov"),
+    ("encode-snr-negative", ENC + ["--snr", "-3"], "snr"),
+    ("encode-snr-nan", ENC + ["--snr", "nan"], "snr"),
+    ("encode-coils-zero", ENC + ["--coils", "0"], "coils"),
+    ("encode-pattern-wrong-shape", ENC + ["--pattern", "{d}/mask_bad.npy"], "pattern"),
+    ("encode-sens-wrong-shape", ENC + ["--sens", "{d}/sens_bad.npy"], "sens"),
+    ("encode-trajectory-wrong-shape", ENC + ["--trajectory", "{d}/traj_bad.npy"], "trajectory"),
+    ("encode-trajectory-nan", ENC + ["--trajectory", "{d}/traj_nan.npy"], "trajectory"),
+    ("encode-noise-corr-without-snr", ENC + ["--noise-corr", "0.5"], "noise-corr"),
+    ("encode-tr-shorter-than-te", ENC + ["--sequence", "gre", "--te", "10ms", "--tr", "5ms"], "tr"),
+    ("encode-out-missing", ENC[:7], "out"),
+    ("encode-out-full", ENC[:8] + ["/dev/full"], "/dev/full"),
+    ("pattern-unknown-kind", ["pattern", "--kind", "nope", "--matrix", "64x64"], "kind"),
+    ("pattern-accel-zero", ["pattern", "--kind", "random", "--matrix", "64x64", "--accel", "0"], "accel"),
+    ("pattern-accel-above-matrix", ["pattern", "--kind", "random", "--matrix", "64x64", "--accel", "100"], "accel"),
+    ("pattern-fraction-too-small", ["pattern", "--kind", "partial", "--matrix", "64x64", "--fraction", "0.3"], "fraction"),
+    ("pattern-spokes-negative", ["pattern", "--kind", "radial", "--matrix", "64x64", "--spokes", "-1"], "spokes"),
+    ("pattern-gmax-zero", ["pattern", "--kind", "spiral", "--matrix", "64x64", "--gmax", "0mT/m"], "gmax"),
+    ("pattern-analyse-missing", ["pattern", "--analyse", "{d}/missing.npy"], "analyse"),
+    ("pattern-analyse-nan", ["pattern", "--analyse", "{d}/traj_nan.npy"], "non-finite"),
+    ("pattern-compare-nothing", ["pattern", "--compare"], "compare"),
     ("score-shape-mismatch", ["score", "--ref", "{d}/real.npy", "--test", "{d}/small.npy"], "shape"),
     ("score-nan-test", ["score", "--ref", "{d}/real.npy", "--test", "{d}/nan.npy"], "test"),
     ("score-missing-ref", ["score", "--test", "{d}/real.npy"], "ref"),
@@ -323,3 +352,19 @@ def test_other_verbs_bad_input(tmp_path, name, args, field):
         pytest.skip(f"verb {args[0]} has not landed yet")
     bad(*args, field=field)
     assert sorted(os.listdir(tmp_path)) == before, "a file was left behind"
+
+
+@pytest.mark.parametrize("verb", ["recon", "score", "render", "pattern"])
+def test_max_memory_on_every_verb(tmp_path, verb):
+    # 2 x 512 x 512 complex64 = 4 MiB, above a 1 MiB limit: refused before
+    # allocation, naming the size it would need.
+    src = tmp_path / "ks.npy"
+    np.save(src, np.ones((2, 512, 512), np.complex64))
+    out = tmp_path / "o.npy"
+    args = {"recon": ["recon", "--in", src, "--out", out],
+            "score": ["score", "--ref", src, "--test", src],
+            "render": ["render", "--in", src, "--out", tmp_path / "o.png"],
+            "pattern": ["pattern", "--analyse", src]}[verb]
+    line = bad(*args, "--max-memory", "1MiB", field="shape")
+    assert "needs 4 MiB" in line and "limit of 1 MiB" in line
+    assert sorted(os.listdir(tmp_path)) == ["ks.npy"]

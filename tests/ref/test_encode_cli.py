@@ -93,6 +93,7 @@ def test_sidecar_keys(tmp_path):
     assert j["shape"] == [48, 64] and j["matrix"] == [64, 48]
     assert j["fov_m"] == pytest.approx([0.2, 0.15])
     assert j["snr"] == 20 and j["seed"] == 5 and j["noise_sigma"] > 0
+    assert j["noise_cov"] is None     # one channel: noise_sigma says it all
 
 
 def test_noise_level_and_seed(tmp_path):

@@ -495,3 +495,51 @@ def test_epi_distortion_where_the_planner_says(tmp_path, how):
     ys = np.arange(n)[:, None]
     d = np.sum(ys * (i1.real - i0)) / np.sum(i0)
     assert d == pytest.approx(40 * per_hz, abs=0.05), (d, 40 * per_hz)
+
+
+def test_protocol_file_gives_the_planners_timing(tmp_path):
+    """--protocol reads a `kweave plan` protocol file: TE/TR from the file,
+    the planner's minimum TE (the same number `kweave plan` reports) as the
+    floor: a shorter TE is refused."""
+    prot = "samples/weave-gre.protocol"
+    run("plan", "--protocol", prot, "--json", tmp_path / "plan.json")
+    plan = json.load(open(tmp_path / "plan.json"))
+    k, j = enc(tmp_path, "p", "--phantom", "weave", "--protocol", prot, "--flip", "15", "--quiet")
+    assert k.shape == (256, 256)
+    assert j["protocol"]["te_s"] == pytest.approx(0.005)
+    assert j["protocol"]["tr_s"] == pytest.approx(0.012)
+    assert j["protocol"]["min_te_s"] == pytest.approx(plan["min_te_s"])
+    assert j["protocol"]["bandwidth_per_pixel_hz"] == pytest.approx(250)
+    assert j["fov_m"] == pytest.approx([0.256, 0.256])
+    bad("encode", "--phantom", "weave", "--protocol", prot, "--flip", "15", "--te", "1ms",
+        "--out", tmp_path / "x.npy", field="te")
+    bad("encode", "--phantom", "weave", "--protocol", tmp_path / "none.protocol", "--out",
+        tmp_path / "x.npy", field="protocol")
+
+
+def test_epi_protocol_distortion(tmp_path):
+    """An EPI protocol (full Fourier) gets the planner's echo train as sample
+    times: row r at TE + (r - ny/2) esp, read forwards on even (r - ny/2) and
+    backwards on odd, dwell 1/BW, with `kweave plan`'s echo spacing for the
+    same file. Checked sample by sample: an off-resonance of 20 Hz multiplies
+    each sample by exp(-i 2 pi 20 Hz (t - TE)); the resulting distortion along
+    y, 20 x esp x ny pixels, is the planner's distortion_pixels_per_hz (the
+    image shift itself is measured in test_epi_distortion_where_the_planner_says)."""
+    prot = tmp_path / "epi.protocol"
+    prot.write_text("sequence = epi\nb0 = 3T\ngmax = 40mT/m\nslew = 200T/m/s\nfov = 240mm\n"
+                    "matrix = 64\nbandwidth = 2000Hz/pixel\nslice = 3mm\nshots = 1\n")
+    run("plan", "--protocol", prot, "--json", tmp_path / "plan.json")
+    plan = json.load(open(tmp_path / "plan.json"))
+    base = ["--phantom", "shepp-logan-modified", "--protocol", prot, "--sequence", "pd", "--quiet"]
+    k0, j = enc(tmp_path, "a", *base)
+    k1, _ = enc(tmp_path, "b", *base, "--df", "20Hz")
+    n, esp, dwell = 64, plan["echo_spacing_s"], plan["dwell_s"]
+    assert j["protocol"]["distortion_pixels_per_hz"] == pytest.approx(plan["distortion_pixels_per_hz"])
+    assert plan["distortion_pixels_per_hz"] == pytest.approx(n * esp)
+    te = j["protocol"]["te_s"]
+    assert te >= plan["min_te_s"] - 1e-12
+    e = np.arange(n)[:, None] - n // 2
+    c = np.arange(n)[None, :] - n // 2
+    t = te + e * esp + np.where(e % 2 == 0, 1, -1) * c * dwell
+    ref = k0 * np.exp(-2j * np.pi * 20 * (t - te))
+    assert np.max(np.abs(k1 - ref)) <= 1e-5 * np.max(np.abs(k0))

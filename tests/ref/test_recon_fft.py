@@ -91,3 +91,47 @@ def test_recon_bad_input(tmp_path):
     (tmp_path / "k.json").write_text(json.dumps({"kind": "kspace", "sens": "nowhere.npy"}))
     bad("recon", "--in", tmp_path / "k.npy", "--out", out, field="sens")
     assert not out.exists()
+
+
+def test_optimal_with_estimated_maps_does_not_depend_on_sens_out(tmp_path):
+    """Regression: --combine optimal estimates the maps from the k-space
+    calibration block whether or not --sens-out asks for them to be written
+    (the estimate once ran on the already transformed data). Reference: the
+    optimal combination computed with numpy from the maps kweave wrote
+    (Roemer et al. 1990: |S^H m| / (S^H S))."""
+    from conftest import run
+    run("encode", "--phantom", "weave", "--fov", "256mm", "--matrix", "96", "--coils", "4",
+        "--sequence", "gre", "--te", "5ms", "--tr", "30ms", "--flip", "25",
+        "--bandwidth", "250Hz/pixel", "--out", tmp_path / "k.npy", "--quiet")
+    run("recon", "--in", tmp_path / "k.npy", "--out", tmp_path / "a.npy", "--combine", "optimal",
+        "--sens-out", tmp_path / "s.npy", "--quiet")
+    run("recon", "--in", tmp_path / "k.npy", "--out", tmp_path / "b.npy", "--combine", "optimal", "--quiet")
+    a, b = np.load(tmp_path / "a.npy"), np.load(tmp_path / "b.npy")
+    np.testing.assert_allclose(a, b, rtol=1e-5, atol=1e-7 * abs(a).max())
+    k, s = np.load(tmp_path / "k.npy"), np.load(tmp_path / "s.npy")
+    ax = (-2, -1)
+    im = np.fft.fftshift(np.fft.ifft2(np.fft.ifftshift(k, axes=ax), norm="ortho"), axes=ax)
+    den = (abs(s) ** 2).sum(0)
+    ref = np.where(den > 0, abs((np.conj(s) * im).sum(0)) / np.where(den > 0, den, 1), 0)
+    assert np.linalg.norm(b - ref) / np.linalg.norm(ref) < 1e-4
+
+
+def test_random_pattern_sidecar_is_accepted(tmp_path):
+    """Regression: a random (variable-density) pattern's nominal acceleration in
+    the sidecar cannot be confirmed from the data (no lattice) and must not be
+    refused; the zero-filled image equals numpy's optimal combination with the
+    simulator's maps (Roemer et al. 1990)."""
+    from conftest import run
+    run("pattern", "--kind", "random", "--matrix", "64x64", "--accel", "4", "--acs", "12",
+        "--seed", "3", "--out", tmp_path / "m.npy", "--quiet")
+    run("encode", "--phantom", "weave", "--matrix", "64", "--fov", "256mm", "--coils", "4",
+        "--pattern", tmp_path / "m.npy", "--sens-out", tmp_path / "s.npy",
+        "--out", tmp_path / "k.npy", "--quiet")
+    run("recon", "--in", tmp_path / "k.npy", "--out", tmp_path / "z.npy", "--combine", "optimal",
+        "--quiet")
+    k, s, z = (np.load(tmp_path / f) for f in ("k.npy", "s.npy", "z.npy"))
+    ax = (-2, -1)
+    im = np.fft.fftshift(np.fft.ifft2(np.fft.ifftshift(k, axes=ax), norm="ortho"), axes=ax)
+    den = (abs(s) ** 2).sum(0)
+    ref = np.where(den > 0, abs((np.conj(s) * im).sum(0)) / np.where(den > 0, den, 1), 0)
+    assert np.linalg.norm(z - ref) / np.linalg.norm(ref) < 1e-4
