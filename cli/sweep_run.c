@@ -62,13 +62,23 @@ static void rm_tree(const char *dir)
     rmdir(dir);
 }
 
-/* The first line of the child's log: the reason a verb gave. */
-static void first_error(const char *log, char *why, size_t n)
+/* Where the next verb's output starts in the child's log. */
+static long log_mark(void)
+{
+    fflush(stdout);
+    fflush(stderr);
+    return (long)lseek(STDERR_FILENO, 0, SEEK_END);
+}
+
+/* The first error line the last verb wrote (from `from` on): its reason. */
+static void first_error(const char *log, long from, char *why, size_t n)
 {
     snprintf(why, n, "failed (no reason given)");
     FILE *f = fopen(log, "r");
     if (!f)
         return;
+    if (from > 0)
+        fseek(f, from, SEEK_SET);
     char line[512];
     while (fgets(line, sizeof line, f)) {
         if (strncmp(line, "kweave: error: ", 15) == 0) {
@@ -154,10 +164,11 @@ static void arg(argv_b *a, const char *fmt, ...)
     a->v[a->n] = NULL;
 }
 
-/* The recon sidecar check compares the nominal acceleration written by
- * `encode` with the lattice the data show; for random masks (and a
- * rounded effective R with ACS lines) the two differ by design, so the
- * sweep clears the key: the sampling is read from the data. */
+/* `encode` writes the pattern's effective acceleration into the sidecar
+ * (rounded to an integer by recon's reader); `recon` compares it with the
+ * lattice it finds in the data, so a uniform lattice with a calibration
+ * block (effective R below the lattice R) is refused. The sweep clears the
+ * key in its own sidecar and lets recon read the sampling from the data. */
 static int clear_sidecar_accel(const char *dir)
 {
     char p[4200];
@@ -188,7 +199,7 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
     char log[4200], res[4200];
     snprintf(log, sizeof log, "%s/log.txt", dir);
     snprintf(res, sizeof res, "%s/rows.jsonl", dir);
-    int lf = open(log, O_WRONLY | O_CREAT | O_TRUNC, 0644);
+    int lf = open(log, O_WRONLY | O_CREAT | O_TRUNC | O_APPEND, 0644);
     if (lf >= 0) {
         dup2(lf, STDOUT_FILENO);
         dup2(lf, STDERR_FILENO);
@@ -243,9 +254,10 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
     arg(&a, "--out");
     arg(&a, "%s", f_mask);
     arg(&a, "--quiet");
+    long mark = log_mark();
     int rc = run_verb(kw_cmd_pattern, &a);
     if (rc) {
-        first_error(log, why, sizeof why);
+        first_error(log, mark, why, sizeof why);
     } else {
         a.n = 0;
         arg(&a, "encode");
@@ -272,9 +284,10 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
         arg(&a, "--sens-out");
         arg(&a, "%s", f_sens);
         arg(&a, "--quiet");
+        mark = log_mark();
         rc = run_verb(kw_cmd_encode, &a);
         if (rc)
-            first_error(log, why, sizeof why);
+            first_error(log, mark, why, sizeof why);
         else if (!nc && clear_sidecar_accel(dir))
             snprintf(why, sizeof why, "cannot rewrite the sidecar of the k-space");
     }
@@ -331,8 +344,9 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
                 arg(&a, "%ld", R->m.iterations);
             }
             arg(&a, "--quiet");
+            mark = log_mark();
             if (run_verb(kw_cmd_recon, &a)) {
-                first_error(log, rwhy, sizeof rwhy);
+                first_error(log, mark, rwhy, sizeof rwhy);
             } else {
                 kw_array img = {0};
                 if (kw_npy_read(f_img, &img) || kw_metrics_compute(&truth, &img, &sc)) {
