@@ -105,7 +105,7 @@ def test_psf_of_oversampled_nyquist_radial(tmp_path):
     xh = optimize.brentq(lambda x: 2 * special.j1(x) / x - 0.5, 0.5, 3.5)
     airy = 2 * xh / np.pi
     assert abs(res[2]["psf_fwhm_pixels"] - airy) < 0.01 * airy
-    # measured at N = 32: 0.0232 (F = 1), 0.0044 (F = 2); at N = 64: 0.0107, 0.0022
+    # measured at N = 32: 0.0161 (F = 1), 0.0026 (F = 2); at N = 64: 0.0107, 0.0022
     # (docs/patterns.md); we require a 2x drop
     assert res[2]["psf_energy_outside_mainlobe"] < 0.5 * res[1]["psf_energy_outside_mainlobe"]
 
