@@ -1561,6 +1561,9 @@ int kw_cmd_pattern(int argc, char **argv)
         return kw_cli_fail("psf-size", "%ld outside 8..512", g.psf_size);
     if (g.seen_seed && g.seed < 0)
         return kw_cli_fail("seed", "must be >= 0");
+    if ((g.compare || g.analyse) && g.seen_ros)
+        return kw_cli_fail("readout-oversampling", "only when making a trajectory (--kind); "
+                           "the analysis reads it from the sidecar");
     if (g.compare) {
         if (g.kind || g.analyse)
             return kw_cli_fail("compare", "cannot be combined with --kind or --analyse");

@@ -171,6 +171,10 @@ def test_bad_oversampling_options(tmp_path):
     for v in ("0", "5", "-1", "1.5"):
         bad("pattern", "--kind", "radial", "--matrix", "32", "--readout-oversampling", v,
             field="readout-oversampling")
+    out = tmp_path / "r.npy"
+    run("pattern", "--kind", "radial", "--matrix", "16", "--out", out, "--psf-size", "16")
+    bad("pattern", "--analyse", out, "--readout-oversampling", "2", field="readout-oversampling")
+    bad("pattern", "--compare", out, "--readout-oversampling", "2", field="readout-oversampling")
     for kind, extra in (("uniform", ["--accel", "2"]), ("spiral", []), ("epi", [])):
         bad("pattern", "--kind", kind, "--matrix", "32", *extra, "--readout-oversampling", "2",
             field="readout-oversampling")
