@@ -1376,6 +1376,16 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
             float *tv = t.data;
             for (size_t r = 1; r < readouts; r++)
                 memcpy(tv + r * readout, tv, readout * sizeof *tv);
+            /* The design reaches k-max = N/2 exactly; the sampled grid is
+             * [-N/2, N/2) (a point at +N/2 is the same frequency as -N/2 on
+             * the image grid), so samples landing on +N/2 are moved inside by
+             * one float step (1e-5 cycles/FOV at N = 256). */
+            float *kv = k.data;
+            const float kmax[2] = {(float)nx / 2.0f, (float)ny / 2.0f};
+            for (size_t i = 0; i < readouts * readout; i++)
+                for (int c = 0; c < 2; c++)
+                    if (kv[2 * i + c] >= kmax[c])
+                        kv[2 * i + c] = nextafterf(kmax[c], 0.0f);
         }
         extra[0] = si.readout_s;
         extra[1] = si.gmax_design_T_per_m;
