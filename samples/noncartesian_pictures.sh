@@ -17,15 +17,15 @@
 #    maps and lands in the truth's intensity scale; a root-sum-of-squares
 #    image would carry the coil profile and not be comparable).
 # 3. kweave recon: grid and cg-sense for the trajectories; fft --combine
-#    optimal (zero-filled), cg-sense, cs-wavelet and cs-tv (default weight
-#    and a tenth of it) for the mask.
+#    optimal (zero-filled), cg-sense, cs-wavelet and cs-tv (ten times the
+#    default weight, and the default 0.003) for the mask.
 # 4. kweave score against the truth (magnitude): NRMSE, PSNR, SSIM; the table
 #    goes to stdout and OUTDIR/table.md.
 # 5. Pictures: every image as OUTDIR/<name>.png (window 0 .. 1.1 x the
 #    truth's maximum, shared by all), and two strips:
 #    OUTDIR/noncartesian.png (truth | golden grid | golden cg-sense |
 #    spiral grid | spiral cg-sense) and OUTDIR/cs.png (truth | zero-filled |
-#    cg-sense | cs-wavelet | cs-tv | cs-tv lambda 0.003), each with a row of
+#    cg-sense | cs-wavelet | cs-tv lambda 0.03 | cs-tv), each with a row of
 #    |image - truth| x 5 below in the same window.
 # Environment: KWEAVE (default build/kweave), PY (default /usr/bin/python3),
 # N (default 128), COILS (8), SNR (40), INTERLEAVES (8).
@@ -100,11 +100,11 @@ rec spiral_cg "$S" spiral "cg-sense (30 it.)" --method cg-sense
 rec full_fft "Cartesian, fully sampled" full "fft --combine optimal (reference)" --method fft --combine optimal
 rec vd4_zf "$C" vd4 "zero-filled (fft --combine optimal)" --method fft --combine optimal
 rec vd4_cg "$C" vd4 "cg-sense (30 it.)" --method cg-sense
-rec vd4_csw "$C" vd4 "cs-wavelet (db4, lambda 0.01)" --method cs-wavelet
-rec vd4_cstv "$C" vd4 "cs-tv (lambda 0.03, the default)" --method cs-tv
-# the default TV weight flattens the finest bars of the resolution insert;
-# a tenth of it keeps them
-rec vd4_cstv3 "$C" vd4 "cs-tv (lambda 0.003)" --method cs-tv --lambda 0.003
+rec vd4_csw "$C" vd4 "cs-wavelet (db4, lambda 0.003, the default)" --method cs-wavelet
+# ten times the default TV weight flattens the finest bars of the resolution
+# insert; the default keeps them
+rec vd4_cstv "$C" vd4 "cs-tv (lambda 0.03)" --method cs-tv --lambda 0.03
+rec vd4_cstv3 "$C" vd4 "cs-tv (lambda 0.003, the default)" --method cs-tv
 
 # 5. pictures: a shared window, strips with error rows
 "$PY" - "$OUT" <<'PYEOF'
