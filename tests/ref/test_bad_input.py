@@ -239,7 +239,7 @@ def test_unknown_verb():
     bad("transmogrify", field="transmogrify")
 
 
-# ---- the other verbs (plan, encode, pattern, recon, score), as they have landed ----------------------
+# ---- the other verbs (plan, encode, pattern, recon, score, sweep), as they have landed ----------------------
 
 
 def _verb_inputs(d):
@@ -265,6 +265,9 @@ def _verb_inputs(d):
     np.save(d / "sens_bad.npy", np.ones((2, 8, 8), np.complex64))
     np.save(d / "traj_bad.npy", np.ones((10, 5), np.float32))
     np.save(d / "traj_nan.npy", np.full((10, 2), np.nan, np.float32))
+    (d / "spec_bad.json").write_text('{"x": ')
+    (d / "spec_array.json").write_text("[1, 2]")
+    (d / "spec_axis.json").write_text('{"warp": [1, 2]}')
     (d / "proto.txt").write_text("fov = 256mm\nmatrix = 256\nbandwidth = 32kHz\nfov = 200mm\n")
     (d / "proto2.txt").write_text("fov 256mm\n")
     (d / "proto3.txt").write_text("fov = 256mm\nmatrix = 256\nbandwidth = 32kHz\nwarp = 9\n")
@@ -333,6 +336,11 @@ VERB_CASES = [
     ("pattern-analyse-missing", ["pattern", "--analyse", "{d}/missing.npy"], "analyse"),
     ("pattern-analyse-nan", ["pattern", "--analyse", "{d}/traj_nan.npy"], "non-finite"),
     ("pattern-compare-nothing", ["pattern", "--compare"], "compare"),
+    ("sweep-spec-not-json", ["sweep", "--spec", "{d}/spec_bad.json", "--out", "{d}/sw"], "spec"),
+    ("sweep-spec-missing", ["sweep", "--spec", "{d}/nope.json", "--out", "{d}/sw"], "spec"),
+    ("sweep-spec-not-object", ["sweep", "--spec", "{d}/spec_array.json", "--out", "{d}/sw"], "spec"),
+    ("sweep-spec-unknown-axis", ["sweep", "--spec", "{d}/spec_axis.json", "--out", "{d}/sw"], "warp"),
+    ("sweep-spec-directory", ["sweep", "--spec", "{d}", "--out", "{d}/sw"], "spec"),
     ("score-shape-mismatch", ["score", "--ref", "{d}/real.npy", "--test", "{d}/small.npy"], "shape"),
     ("score-nan-test", ["score", "--ref", "{d}/real.npy", "--test", "{d}/nan.npy"], "test"),
     ("score-missing-ref", ["score", "--test", "{d}/real.npy"], "ref"),
