@@ -1,9 +1,11 @@
 /* kw_rssrecon.h: the fused Cartesian multi-coil reconstruction
  *   image = sqrt(sum_c |centered unitary inverse DFT(k_c)|^2)
- * made for speed: the input k-space is read, never written; the threads
- * transform one coil each, out of place, into their own scratch images, and
- * the squared magnitudes are added pixel by pixel in coil order (so results
- * do not depend on the thread count). For even sizes the
+ * made for speed: the input k-space is read, never written; the coils are
+ * split into at most 8 fixed groups of consecutive coils, each thread takes
+ * whole groups, transforms their coils one by one out of place into its own
+ * scratch image and adds the squared magnitudes into the group's sum; the
+ * group sums are then added in order. The grouping depends on the coil count
+ * only, so the image is bit-identical for any number of threads. For even sizes the
  * input checkerboard of the centering shift changes only the phase, which the
  * magnitude never sees, and the output shift becomes an index offset in the
  * accumulation (see fft.c for the identity), so no pass over the data is

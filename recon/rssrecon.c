@@ -16,7 +16,8 @@ struct kw_rssrecon {
     size_t d[3], n, coils;
     fftwf_plan plan;          /* one coil, out of place, unnormalised backward */
     float complex *scratch;   /* nthreads x n */
-    float *acc;               /* n: sum of squared magnitudes over coils */
+    size_t group, ngroups;    /* coils per group, groups (even path) */
+    float *acc;               /* ngroups x n: each group's sum of |coil image|^2 */
     kw_fft_plan *generic;     /* odd sizes: centered transform in place */
 };
 
@@ -44,9 +45,17 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
         r->n *= dims[i];
         r->even &= dims[i] % 2 == 0;
     }
+    /* Coils are summed in fixed groups of `group` consecutive coils (at most
+     * KW_RSS_GROUPS groups), then the groups in order: the grouping depends
+     * on the coil count only, so the image is bit-identical for any number
+     * of threads, and the threads take whole groups without waiting for
+     * each other. */
+    enum { KW_RSS_GROUPS = 8 };
+    r->group = (coils + KW_RSS_GROUPS - 1) / KW_RSS_GROUPS;
+    r->ngroups = (coils + r->group - 1) / r->group;
     r->nthreads = kw_fft_threads();
-    if ((size_t)r->nthreads > coils)
-        r->nthreads = (int)coils;
+    if ((size_t)r->nthreads > r->ngroups)
+        r->nthreads = (int)r->ngroups;
     if (r->nthreads < 1)
         r->nthreads = 1;
     kw_status st = KW_OK;
@@ -58,7 +67,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
             goto fail;
     }
     r->scratch = kw_alloc((size_t)r->nthreads * r->n * sizeof(float complex));
-    r->acc = kw_alloc(r->n * sizeof(float));
+    r->acc = kw_alloc((r->even ? r->ngroups : 1) * r->n * sizeof(float));
     KW_FAIL_GOTO(!r->scratch || !r->acc, st, KW_ENOMEM, fail, "rss recon: out of memory");
     if (r->even) {
         /* Plan on a scratch pair; executed later with fftwf_execute_dft on the
@@ -111,34 +120,26 @@ kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *i
     const float scale = 1.0f / (float)n; /* unitary: |x/sqrt(n)|^2 */
     const int nt = r->nthreads;
     float *acc = r->acc;
-    /* Coils go through in chunks of nt: each thread transforms one coil of
-     * the chunk into its scratch; then every pixel adds the chunk's squared
-     * magnitudes in coil order. Each pixel's sum thus runs over the coils in
-     * the same order whatever the thread count: results are bit-identical
-     * across thread counts. */
+    const size_t group = r->group, ngroups = r->ngroups;
 #pragma omp parallel num_threads(nt)
     {
         int t = 0;
 #ifdef _OPENMP
         t = omp_get_thread_num();
 #endif
-#pragma omp for schedule(static)
-        for (long long i = 0; i < (long long)n; i++)
-            acc[i] = 0.0f;
-        for (size_t c0 = 0; c0 < r->coils; c0 += (size_t)nt) {
-            size_t m = r->coils - c0 < (size_t)nt ? r->coils - c0 : (size_t)nt;
-            if ((size_t)t < m)
-                fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + (c0 + (size_t)t) * n),
-                                  (fftwf_complex *)(r->scratch + (size_t)t * n));
-#pragma omp barrier
-#pragma omp for schedule(static)
-            for (long long i = 0; i < (long long)n; i++) {
-                float a = acc[i];
-                for (size_t u = 0; u < m; u++) {
-                    float complex v = r->scratch[u * n + (size_t)i];
-                    a += crealf(v) * crealf(v) + cimagf(v) * cimagf(v);
-                }
-                acc[i] = a;
+        float complex *s = r->scratch + (size_t)t * n;
+#pragma omp for schedule(dynamic, 1)
+        for (long long g = 0; g < (long long)ngroups; g++) {
+            float *a = acc + (size_t)g * n;
+            size_t c0 = (size_t)g * group, c1 = c0 + group < r->coils ? c0 + group : r->coils;
+            for (size_t c = c0; c < c1; c++) {
+                fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + c * n), (fftwf_complex *)s);
+                if (c == c0)
+                    for (size_t i = 0; i < n; i++)
+                        a[i] = crealf(s[i]) * crealf(s[i]) + cimagf(s[i]) * cimagf(s[i]);
+                else
+                    for (size_t i = 0; i < n; i++)
+                        a[i] += crealf(s[i]) * crealf(s[i]) + cimagf(s[i]) * cimagf(s[i]);
             }
         }
         /* The output shift: image index (i, j, k) reads transform index
@@ -151,7 +152,10 @@ kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *i
             float *o = img + (size_t)row * d2;
             for (size_t k = 0; k < d2; k++) {
                 size_t sk = k + h2 < d2 ? k + h2 : k + h2 - d2;
-                o[k] = sqrtf(src[sk] * scale);
+                float v = src[sk];
+                for (size_t g = 1; g < ngroups; g++)
+                    v += src[g * n + sk];
+                o[k] = sqrtf(v * scale);
             }
         }
     }
