@@ -11,10 +11,13 @@ References, all outside kweave:
   with gaussian_weights, sigma 1.5, population covariances) averaged over the
   slices, PSNR with data_range max|ref|; as tests/ref/test_score_skimage.py.
 """
+import glob
 import json
 import os
 import shutil
+import signal
 import subprocess
+import time
 
 import numpy as np
 import pytest
@@ -215,22 +218,49 @@ def peak_rss_kib(args):
     return int(p.stderr.strip().splitlines()[-1])
 
 
-@pytest.mark.skipif("asan" in KWEAVE, reason="AddressSanitizer's shadow memory and quarantine change the RSS")
-def test_peak_memory_is_bounded(tmp_path):
-    # 64 MiB of k-space: 8 coils x 64 slices x 128 x 128 complex64
+@pytest.fixture(scope="module")
+def big(tmp_path_factory):
+    # 64 MiB of k-space: 8 coils x 64 slices x 128 x 128 complex64, written
+    # coil by coil so that this process never holds it whole
     shape = (8, 64, 128, 128)
-    a = np.lib.format.open_memmap(tmp_path / "big.npy", mode="w+", dtype=np.complex64, shape=shape)
+    p = tmp_path_factory.mktemp("big") / "big.npy"
+    a = np.lib.format.open_memmap(p, mode="w+", dtype=np.complex64, shape=shape)
     rng = np.random.default_rng(3)
     for c in range(shape[0]):
         a[c] = (rng.standard_normal(shape[1:], dtype=np.float32)
                 + 1j * rng.standard_normal(shape[1:], dtype=np.float32))
     a.flush()
     del a
-    size_kib = os.path.getsize(tmp_path / "big.npy") // 1024
-    kib = peak_rss_kib(["recon", "--in", tmp_path / "big.npy", "--slices", 1, "--out", tmp_path / "i.npy",
-                        "--quiet"])
+    return p
+
+
+@pytest.mark.skipif("asan" in KWEAVE, reason="AddressSanitizer's shadow memory and quarantine change the RSS")
+def test_peak_memory_is_bounded(tmp_path, big):
+    size_kib = os.path.getsize(big) // 1024
+    kib = peak_rss_kib(["recon", "--in", big, "--slices", 1, "--out", tmp_path / "i.npy", "--quiet"])
     # bound: well below the input (half of it plus 40 MiB for the program,
     # FFTW and one slice; common practice, no source)
     assert kib < size_kib // 2 + 40 * 1024, (kib, size_kib)
     img = np.load(tmp_path / "i.npy", mmap_mode="r")
     assert img.shape == (64, 128, 128)
+
+
+def test_sigint_mid_stream_leaves_nothing(tmp_path, big):
+    # slices are being written into the hidden temporary file when SIGINT
+    # arrives: the process dies of it and leaves neither target nor temporary
+    out = tmp_path / "i.npy"
+    p = subprocess.Popen([KWEAVE, "recon", "--in", str(big), "--slices", "1", "--keep-coils", "--out", str(out),
+                          "--quiet"], stderr=subprocess.PIPE)
+    seen = False
+    t0 = time.monotonic()
+    while time.monotonic() - t0 < 120 and p.poll() is None:
+        tmps = glob.glob(str(tmp_path / ".i.npy.kw-*"))
+        if tmps and os.path.getsize(tmps[0]) > 0:
+            seen = True
+            p.send_signal(signal.SIGINT)
+            break
+        time.sleep(0.001)
+    p.communicate(timeout=120)
+    assert seen, "the run ended before its temporary file was seen; make the input larger"
+    assert p.returncode == -signal.SIGINT, p.returncode
+    assert os.listdir(tmp_path) == [], os.listdir(tmp_path)
