@@ -195,4 +195,23 @@ test: fuzz-replay
 .SECONDARY: $(FUZZ_OBJ) $(FUZZ_TARGETS:%=$(BUILD)/fuzz/obj/tests/fuzz/fuzz_%.o) \
             $(FUZZ_TARGETS:%=$(BUILD)/obj/tests/fuzz/fuzz_%.o) $(BUILD)/obj/tests/fuzz/replay.o
 
+# ---- MPI for `kweave sweep` (issue 10) ------------------------------------------
+# Built with MPI when mpicc is found (or `make MPI=1`; `make MPI=0` leaves it
+# out). Only cli/sweep_mpi.c includes <mpi.h>; the link takes mpicc's flags.
+# Sanitizer builds leave MPI out unless MPI=1 is given (Open MPI's own
+# allocations would drown the leak report).
+MPICC ?= mpicc
+ifeq ($(origin MPI),undefined)
+MPI := $(if $(filter 1,$(SAN)),0,$(if $(shell command -v $(MPICC) 2>/dev/null),1,0))
+endif
+ifeq ($(MPI),1)
+MPI_CFLAGS := $(shell $(MPICC) --showme:compile 2>/dev/null)
+MPI_LIBS := $(shell $(MPICC) --showme:link 2>/dev/null)
+$(BUILD)/obj/cli/sweep_mpi.o: ALL_CFLAGS += -DKW_WITH_MPI $(MPI_CFLAGS)
+LIBS += $(MPI_LIBS)
+endif
+$(BUILD)/obj/cli/sweep_mpi.o: $(BUILD)/mpi-$(MPI).stamp
+$(BUILD)/mpi-$(MPI).stamp:
+	@mkdir -p $(dir $@) && rm -f $(BUILD)/mpi-*.stamp && touch $@
+
 -include $(DEPS)

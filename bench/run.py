@@ -153,6 +153,34 @@ def main():
                 limit = 2.5 * inout + 30 * 2**20
                 results["memory"] = {"peak_rss_bytes": kw["peak_rss_bytes"], "input_plus_output_bytes": inout,
                                      "limit_bytes": limit, "ok": kw["peak_rss_bytes"] <= limit}
+        # Sweep throughput: the same small spec with 1 and 2 local workers, and
+        # with 1 and 2 MPI ranks when the MPI variant is built.
+        spec = os.path.join(HERE, "sweep-bench.json")
+        dry = subprocess.run([kweave, "sweep", "--spec", spec, "--out", os.path.join(tmp, "dry"),
+                              "--dry-run"], capture_output=True, text=True)
+        if dry.returncode == 0:
+            def sweep_cmd(extra, out):
+                return [kweave, "sweep", "--spec", spec, "--out", out, "--quiet", *extra]
+            reps = 3 if not args.quick else 1
+            runs = iter(range(10**6))
+            def timed(cmd_for):
+                ts = []
+                for _ in range(reps):
+                    out = os.path.join(tmp, f"sweep-{next(runs)}")  # a fresh folder: no journal
+                    t0 = time.perf_counter()
+                    subprocess.run(cmd_for(out), check=True, capture_output=True, env=env1)
+                    ts.append((time.perf_counter() - t0) * 1e3)
+                return stats(ts)
+            j1 = timed(lambda out: sweep_cmd(["--jobs", "1"], out))
+            j2 = timed(lambda out: sweep_cmd(["--jobs", "2"], out))
+            row("sweep (16 experiments), 2 local workers", j2, "same, 1 worker", j1, ">= 1.7x")
+            mpirun = "mpirun"
+            if "MPI: built in" in dry.stdout + dry.stderr and any(
+                    os.access(os.path.join(d, mpirun), os.X_OK) for d in os.environ.get("PATH", "").split(":")):
+                mp = [mpirun, "--oversubscribe", "--allow-run-as-root", "--bind-to", "none", "-np"]
+                m1 = timed(lambda out: mp + ["1"] + sweep_cmd([], out))
+                m2 = timed(lambda out: mp + ["2"] + sweep_cmd([], out))
+                row("sweep (16 experiments), 2 MPI ranks", m2, "same, 1 MPI rank", m1, "measured")
     print(f"\nkweave benchmark on {results['machine']['cpu']} ({results['machine']['cores']} cores)")
     print("median [min-max] over repeated runs; ratio = peer time / kweave time (> 1: kweave faster)\n")
     w = max(len(r[0]) for r in rows)

@@ -284,6 +284,7 @@ typedef struct traj_info {
     int ndim;
     int radial;  /* full-spoke radial family: Nyquist spokes pi N / 2 */
     int weights; /* W_NONE, W_RADIAL (area ramp), W_PIPE (Pipe-Menon) */
+    int oversampling; /* radial: readout oversampling F (readout = F n) */
 } traj_info;
 
 /* largest distance from a sample to the nearest sample of another readout,
@@ -395,8 +396,9 @@ static int analyse_traj(analysis *a, const kw_array *t, const traj_info *ti, siz
     if (ti->weights != W_NONE) {
         w = malloc(count * sizeof *w);
         KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
-        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->readout, .nz = 1,
-                          .spokes = a->spokes, .dwell_s = 1, .te_s = 1};
+        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->n, .nz = 1, .spokes = a->spokes,
+                          .dwell_s = 1, .te_s = 1,
+                          .oversampling = ti->radial ? ti->oversampling : 1};
         if (ti->weights == W_RADIAL) {
             st = kw_traj_radial_weights(&o, w);
         } else {
@@ -459,6 +461,44 @@ static int json_size(const cJSON *o, const char *k, size_t *v)
         return 0;
     *v = (size_t)it->valuedouble;
     return 1;
+}
+
+/* The readout oversampling F of a radial-family trajectory: the sidecar's
+ * "readout_oversampling" when present (files written before it existed
+ * have F = 1: readout_samples = matrix), else readout_samples / matrix;
+ * readout_samples must be F N and the first readout's samples 1/F cycle/FOV
+ * apart. Returns -1 or the exit code. */
+static int radial_oversampling(const cJSON *side, const kw_array *arr, traj_info *ti)
+{
+    const cJSON *it = cJSON_GetObjectItemCaseSensitive(side, "readout_oversampling");
+    long f;
+    if (it) {
+        if (!cJSON_IsNumber(it) || it->valuedouble != floor(it->valuedouble) ||
+            !(it->valuedouble >= 1 && it->valuedouble <= 4))
+            return kw_cli_fail("readout_oversampling", "must be a whole number in 1..4");
+        f = (long)it->valuedouble;
+    } else {
+        if (ti->readout % ti->n != 0 || ti->readout / ti->n > 4)
+            return kw_cli_fail("readout_samples", "%zu is not F x the matrix %zu (F = 1..4)",
+                               ti->readout, ti->n);
+        f = (long)(ti->readout / ti->n);
+    }
+    if (ti->readout != (size_t)f * ti->n)
+        return kw_cli_fail("readout_samples", "%zu differs from %ld x the matrix %zu",
+                           ti->readout, f, ti->n);
+    if (arr->dims[0] < ti->readout)
+        return kw_cli_fail("readout_samples", "%zu samples per readout, the file holds %zu",
+                           ti->readout, arr->dims[0]);
+    /* the step along the first spoke (samples n = FN/2 and FN/2 + 1) */
+    const float *k = arr->data;
+    const size_t c = arr->dims[1], j = ti->readout / 2;
+    double dx = (double)k[(j + 1) * c] - k[j * c], dy = (double)k[(j + 1) * c + 1] - k[j * c + 1];
+    double step = sqrt(dx * dx + dy * dy);
+    if (!(fabs(step * (double)f - 1.0) < 1e-3))
+        return kw_cli_fail("readout_oversampling", "samples are %g cycle/FOV apart along a "
+                           "readout, not 1/%ld", step, f);
+    ti->oversampling = (int)f;
+    return -1;
 }
 
 /* Analyse the file `path`; returns -1 on success or the exit code. */
@@ -536,10 +576,10 @@ static int analyse_file(const char *path, analysis *a, long psf_size)
         ti.radial = pk && (strcmp(pk, "radial") == 0 || strcmp(pk, "golden") == 0 ||
                            strcmp(pk, "stack-of-stars") == 0);
         ti.weights = ti.radial ? W_RADIAL : (pk && strcmp(pk, "spiral") == 0) ? W_PIPE : W_NONE;
-        if (ti.radial && ti.readout != ti.n) {
-            rc = kw_cli_fail("readout_samples", "%zu differs from the matrix %zu", ti.readout,
-                             ti.n);
-            goto out;
+        if (ti.radial) {
+            rc = radial_oversampling(side, &arr, &ti);
+            if (rc >= 0)
+                goto out;
         }
         size_t m = psf_size > 0 ? (size_t)psf_size : (ti.n < 128 ? ti.n : 128);
         a->cartesian = 0;
@@ -916,7 +956,8 @@ typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
     const char *times;
     double fraction, power, dwell, te, fov, gmax, slew, raster;
-    long shift, spokes, seed, tiny, psf_size, interleaves, shots;
+    long shift, spokes, seed, tiny, psf_size, interleaves, shots, ros;
+    int seen_ros;
     int seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
     int ellipse, compare;
     int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
@@ -1149,6 +1190,10 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
                                     : (g->seen_tiny ? (int)g->tiny : 0);
     if (g->seen_tiny && (g->tiny < 1 || g->tiny > 1000))
         return kw_cli_fail("tiny", "%ld outside 1..1000", g->tiny);
+    if (g->seen_ros && (g->ros < 1 || g->ros > 4))
+        return kw_cli_fail("readout-oversampling", "%ld outside 1..4", g->ros);
+    o.oversampling = g->seen_ros ? (int)g->ros : 1;
+    /* dwell: the time per image pixel; the ADC samples every dwell / F */
     o.dwell_s = g->seen_dwell ? g->dwell : 1.0 / (DEFAULT_BW_PER_PIXEL * (double)nx);
     o.te_s = g->seen_te ? g->te : 0.5 * (double)nx * o.dwell_s;
     size_t ns;
@@ -1205,7 +1250,8 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
         kw_json_add_vec(j, "matrix", mt, nd);
         add_num(j, "spokes", (double)o.spokes);
         add_num(j, "partitions", (double)o.nz);
-        add_num(j, "readout_samples", (double)o.n);
+        add_num(j, "readout_samples", (double)o.oversampling * (double)o.n);
+        add_num(j, "readout_oversampling", o.oversampling);
         add_num(j, "readouts", (double)(o.spokes * o.nz));
         add_num(j, "nyquist_spokes", (double)kw_traj_nyquist_spokes(nx));
         add_num(j, "acceleration", KW_PI * (double)nx / 2.0 / (double)o.spokes);
@@ -1216,7 +1262,9 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
             add_num(j, "angle_increment_deg", 180.0 / (double)o.spokes);
             cJSON_AddNullToObject(j, "tiny_golden_order");
         }
-        add_num(j, "dwell_s", o.dwell_s);
+        add_num(j, "dwell_s", o.dwell_s / o.oversampling); /* ADC: between samples */
+        add_num(j, "dwell_per_pixel_s", o.dwell_s);
+        add_num(j, "readout_duration_s", (double)o.n * o.dwell_s);
         add_num(j, "te_s", o.te_s);
         cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
         cJSON_AddNullToObject(j, "seed");
@@ -1232,8 +1280,9 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
         memset(&a, 0, sizeof a);
         snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
         snprintf(a.kind, sizeof a.kind, "%s", g->kind);
-        traj_info ti = {.n = nx, .nz = o.nz, .readout = nx, .spokes = o.spokes, .ndim = nd,
-                        .radial = 1, .weights = W_RADIAL};
+        traj_info ti = {.n = nx, .nz = o.nz, .readout = (size_t)o.oversampling * nx,
+                        .spokes = o.spokes, .ndim = nd, .radial = 1, .weights = W_RADIAL,
+                        .oversampling = o.oversampling};
         size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
         st = analyse_traj(&a, &k, &ti, m);
         if (st)
@@ -1244,8 +1293,11 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
                                : 180.0 / (double)o.spokes,
                    o.tiny == 1 ? "golden angle 180/phi" : o.tiny > 1 ? "tiny golden angle"
                                                                      : "uniform");
-            printf("  readout                 %zu samples, dwell %g us, k = 0 at %g ms\n", o.n,
-                   o.dwell_s * 1e6, o.te_s * 1e3);
+            printf("  readout                 %zu samples (oversampling %d: %g cycle/FOV apart), "
+                   "ADC dwell %g us, %g us per pixel, duration %g ms, k = 0 at %g ms\n",
+                   (size_t)o.oversampling * o.n, o.oversampling, 1.0 / o.oversampling,
+                   o.dwell_s / o.oversampling * 1e6, o.dwell_s * 1e6,
+                   (double)o.n * o.dwell_s * 1e3, o.te_s * 1e3);
             rc = report_generated(g, &a);
             printf("%s\n", KW_SAFETY_CAUTION);
         }
@@ -1324,6 +1376,16 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
             float *tv = t.data;
             for (size_t r = 1; r < readouts; r++)
                 memcpy(tv + r * readout, tv, readout * sizeof *tv);
+            /* The design reaches k-max = N/2 exactly; the sampled grid is
+             * [-N/2, N/2) (a point at +N/2 is the same frequency as -N/2 on
+             * the image grid), so samples landing on +N/2 are moved inside by
+             * one float step (1e-5 cycles/FOV at N = 256). */
+            float *kv = k.data;
+            const float kmax[2] = {(float)nx / 2.0f, (float)ny / 2.0f};
+            for (size_t i = 0; i < readouts * readout; i++)
+                for (int c = 0; c < 2; c++)
+                    if (kv[2 * i + c] >= kmax[c])
+                        kv[2 * i + c] = nextafterf(kmax[c], 0.0f);
         }
         extra[0] = si.readout_s;
         extra[1] = si.gmax_design_T_per_m;
@@ -1477,7 +1539,8 @@ int kw_cmd_pattern(int argc, char **argv)
         {"shift", KW_OPT_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift, "lattice: ky shift per kz row (default 1)"},
         {"spokes", KW_OPT_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes, "radial spokes (default ceil(pi N/2))"},
         {"tiny", KW_OPT_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (1 = 111.246 deg)"},
-        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "time between samples (radial 1/(250Hz x N), spiral/epi 4us)"},
+        {"readout-oversampling", KW_OPT_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros, "radial kinds: F x N samples per spoke, 1/F cycle/FOV apart (1..4, default 1)"},
+        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "radial: time per image pixel, 1/(250Hz x N) (samples every dwell/F); spiral/epi: time between samples, 4us"},
         {"fov", KW_OPT_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default 256mm)"},
         {"gmax", KW_OPT_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default 40mT/m)"},
         {"slew", KW_OPT_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default 150T/m/s)"},
@@ -1508,6 +1571,9 @@ int kw_cmd_pattern(int argc, char **argv)
         return kw_cli_fail("psf-size", "%ld outside 8..512", g.psf_size);
     if (g.seen_seed && g.seed < 0)
         return kw_cli_fail("seed", "must be >= 0");
+    if ((g.compare || g.analyse) && g.seen_ros)
+        return kw_cli_fail("readout-oversampling", "only when making a trajectory (--kind); "
+                           "the analysis reads it from the sidecar");
     if (g.compare) {
         if (g.kind || g.analyse)
             return kw_cli_fail("compare", "cannot be combined with --kind or --analyse");
@@ -1573,6 +1639,12 @@ int kw_cmd_pattern(int argc, char **argv)
     rc = parse_sizes("matrix", g.matrix, mat, 3, &nmat);
     if (rc >= 0)
         return rc;
+    if (g.seen_ros && (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi") ||
+                       !strcmp(g.kind, "full") || !strcmp(g.kind, "partial") ||
+                       !strcmp(g.kind, "uniform") || !strcmp(g.kind, "random") ||
+                       !strcmp(g.kind, "poisson") || !strcmp(g.kind, "lattice")))
+        return kw_cli_fail("readout-oversampling",
+                           "only for --kind radial, golden or stack-of-stars");
     if (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi")) {
         if (g.density)
             return kw_cli_fail("density", "only for Cartesian masks");

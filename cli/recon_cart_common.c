@@ -96,9 +96,16 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
     KW_FAIL_IF(h < 0, KW_EFORMAT, "acceleration: sidecar value is not a number or list");
     /* Only a uniform lattice has an R the data can confirm; for random,
      * Poisson-disc or lattice-shifted patterns the sidecar's acceleration is
-     * the nominal (or achieved) ratio and cannot contradict the data. */
-    KW_FAIL_IF(h > 0 && Rs > 1 && c->smp.uniform && Rs != Rd, KW_EINVAL,
-               "acceleration: the sidecar says %d but the data are sampled at R = %d", Rs, Rd);
+     * the nominal (or achieved) ratio and cannot contradict the data. Writers
+     * give either the lattice R or the effective one (1 / sampled fraction,
+     * lower with calibration lines): both agree with the data. */
+    const cJSON *jr = job->sidecar ? cJSON_GetObjectItemCaseSensitive(job->sidecar, "acceleration")
+                                   : NULL;
+    double reff = c->smp.fraction > 0 ? 1.0 / c->smp.fraction : 0;
+    int agrees = Rs == Rd || (cJSON_IsNumber(jr) && fabs(jr->valuedouble - reff) <= 0.05 * reff);
+    KW_FAIL_IF(h > 0 && Rs > 1 && c->smp.uniform && !agrees, KW_EINVAL,
+               "acceleration: the sidecar says %g but the data are sampled at R = %d "
+               "(effective %.2f)", cJSON_IsNumber(jr) ? jr->valuedouble : (double)Rs, Rd, reff);
     h = json_int(job->sidecar, "acs_lines", &acs);
     if (h > 0 && Rd > 1) {
         int found = 0;

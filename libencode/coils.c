@@ -1,6 +1,7 @@
 /* coils.c: loop fields, a ring of receive coils, and the trigonometric-series
  * fit of their sensitivities (Guerquin-Kern et al. 2012). */
 #include "kw_coils.h"
+#include "kw_linalg.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -140,42 +141,6 @@ double complex kw_coil_series_eval(const double complex *coef, int order,
 
 /* In-place Cholesky of the Hermitian positive-definite P x P matrix g (lower
  * triangle used); 0 on success. */
-static int cholesky(double complex *g, int P)
-{
-    for (int j = 0; j < P; j++) {
-        double d = creal(g[j * P + j]);
-        for (int k = 0; k < j; k++)
-            d -= creal(g[j * P + k] * conj(g[j * P + k]));
-        if (!(d > 0))
-            return -1;
-        d = sqrt(d);
-        g[j * P + j] = d;
-        for (int i = j + 1; i < P; i++) {
-            double complex s = g[i * P + j];
-            for (int k = 0; k < j; k++)
-                s -= g[i * P + k] * conj(g[j * P + k]);
-            g[i * P + j] = s / d;
-        }
-    }
-    return 0;
-}
-
-static void chol_solve(const double complex *L, int P, double complex *x)
-{
-    for (int i = 0; i < P; i++) {
-        double complex s = x[i];
-        for (int k = 0; k < i; k++)
-            s -= L[i * P + k] * x[k];
-        x[i] = s / creal(L[i * P + i]);
-    }
-    for (int i = P - 1; i >= 0; i--) {
-        double complex s = x[i];
-        for (int k = i + 1; k < P; k++)
-            s -= conj(L[k * P + i]) * x[k];
-        x[i] = s / creal(L[i * P + i]);
-    }
-}
-
 kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
                       const float *weight, int order, double period,
                       double complex *coef, double *residual)
@@ -249,7 +214,7 @@ kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t n
     for (int i = 0; i < P; i++)
         for (int j = 0; j <= i; j++)
             G[i * P + j] = conj(G[i * P + j]);
-    if (cholesky(G, P)) {
+    if (kw_chol(G, (size_t)P) != KW_OK) {
         st = kw_set_error(KW_ENUMERIC, "coil fit: normal equations not positive definite");
         goto done;
     }
@@ -261,7 +226,7 @@ kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t n
                 s += conj(A[m * P + i]) * mp[idx[m]];
             h[i] = s;
         }
-        chol_solve(G, P, h);
+        kw_chol_solve(G, (size_t)P, h);
         memcpy(coef + (size_t)c * P, h, (size_t)P * sizeof *h);
         if (residual) {
             double num = 0, den = 0;

@@ -5,10 +5,17 @@
  * -N/2 .. N/2-1 (kw_base.h). A trajectory is (samples, ndim) float, columns
  * (kx, ky) in 2-D and (kx, ky, kz) for a stack of stars, samples ordered
  * readout after readout. Spoke s at angle theta_s (from +kx towards +ky)
- * carries N samples k_n = (n - N/2) (cos theta_s, sin theta_s), n = 0..N-1:
- * a full diameter through k = 0 at n = N/2, like a Cartesian readout line.
- * Sample n of every readout is acquired at t_n = te + (n - N/2) dwell after
- * the excitation (k = 0 at the echo time te), in seconds.
+ * carries F N samples k_n = (n - F N/2) / F (cos theta_s, sin theta_s),
+ * n = 0..F N-1, F the readout oversampling (1..4): a full diameter through
+ * k = 0 at n = F N/2, from -N/2 to N/2 - 1/F, samples 1/F cycle/FOV apart
+ * (F = 1: like a Cartesian readout line; F = 2: the object is sampled over
+ * twice the FOV along the spoke, so its projections do not wrap around).
+ * Sample n of every readout is acquired at t_n = te + (n - F N/2) dwell / F
+ * after the excitation (k = 0 at the echo time te), in seconds: `dwell` is
+ * the time per image pixel (1 / (bandwidth per pixel x N)), the ADC samples
+ * every dwell / F, so oversampling keeps the readout duration N dwell and
+ * the readout gradient, and widens the receiver bandwidth F times (the
+ * scanners' convention: common practice, no source).
  *
  * Angle schemes:
  *  - uniform: theta_s = s pi / S over 180 degrees (full spokes cover 360);
@@ -44,8 +51,12 @@ typedef struct kw_traj_opts {
     size_t nz;      /* partitions (stack of stars); 1 otherwise */
     size_t spokes;  /* spokes per plane (per partition for a stack) */
     int tiny;       /* 0: uniform angles; m >= 1: increments psi_m */
-    double dwell_s; /* time between samples, s (> 0) */
+    double dwell_s; /* time per image pixel, s (> 0): the time between
+                     * samples is dwell_s / oversampling */
     double te_s;    /* time of k = 0 after the excitation, s (>= N/2 dwell) */
+    int oversampling; /* readout oversampling F, 1..4 (0 is taken as 1): F N
+                       * samples per spoke, 1/F cycle/FOV and dwell/F apart;
+                       * dwell_s stays the time per image pixel */
 } kw_traj_opts;
 
 /*! kw_traj_golden_angle(): psi_m = pi / (phi + m - 1) in radians for m >= 1
@@ -62,9 +73,14 @@ size_t kw_traj_nyquist_spokes(size_t n);
  * `r` (0-based, counted over the whole acquisition). */
 double kw_traj_angle(const kw_traj_opts *o, size_t r);
 
-/*! kw_traj_size(): samples and columns the options produce; KW_ERANGE with a
- * reason for absurd options (N < 2 or odd, no spokes, dwell <= 0, sizes that
- * overflow or exceed 2^31 samples). */
+/*! kw_traj_oversampling(): the readout oversampling F the options ask for
+ * (oversampling 0 gives 1). */
+int kw_traj_oversampling(const kw_traj_opts *o);
+
+/*! kw_traj_size(): samples and columns the options produce (F N spokes nz);
+ * KW_ERANGE with a reason for absurd options (N < 2 or odd, no spokes,
+ * dwell <= 0, oversampling outside 1..4, sizes that overflow or exceed 2^31
+ * samples). */
 kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);
 
 /*! kw_traj_make(): fill k[samples * ndim] (cycles/FOV) and t[samples]
@@ -72,11 +88,14 @@ kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);
 kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
 
 /*! kw_traj_radial_weights(): the area each sample of a full-spoke radial
- * trajectory represents, in delta-k^2: pi |k| / S at |k| > 0 and pi / (4 S)
- * at k = 0 (the central disc of radius 1/2 shared by all S spokes): the
- * density compensation of Lauterbur-style projection reconstruction (ramp),
- * summing to about the disc area pi N^2 / 4. w has one value per sample of
- * one plane (spokes * n). */
+ * trajectory represents, in delta-k^2, with the radial step dr = 1/F:
+ * pi |k| dr / S at |k| > 0 (the ring of width dr through |k|, area
+ * 2 pi |k| dr, shared by the 2 S half-spokes that cross it) and
+ * pi dr^2 / (4 S) at k = 0 (the central disc of radius dr/2 shared by all S
+ * spokes): the density compensation of Lauterbur-style projection
+ * reconstruction (ramp), summing to pi N^2 / 4 + pi dr^2 / 4, about the disc
+ * area. w has one value per sample of one plane (spokes * F n), in the
+ * order of kw_traj_make(). */
 kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w);
 
 #ifdef __cplusplus

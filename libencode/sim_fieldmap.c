@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "kw_fft.h"
+#include "kw_linalg.h"
 #include "kw_simulate.h"
 
 #define MAX_SEG 64
@@ -68,42 +69,6 @@ static double sample_tau(const kw_sim_options *o, size_t i, size_t ix)
     else
         t = o->contrast.te_s;
     return kw_signal_phase_time(&o->contrast, t);
-}
-
-static int chol(double complex *g, int P)
-{
-    for (int j = 0; j < P; j++) {
-        double d = creal(g[j * P + j]);
-        for (int k = 0; k < j; k++)
-            d -= creal(g[j * P + k] * conj(g[j * P + k]));
-        if (!(d > 0))
-            return -1;
-        d = sqrt(d);
-        g[j * P + j] = d;
-        for (int i = j + 1; i < P; i++) {
-            double complex s = g[i * P + j];
-            for (int k = 0; k < j; k++)
-                s -= g[i * P + k] * conj(g[j * P + k]);
-            g[i * P + j] = s / d;
-        }
-    }
-    return 0;
-}
-
-static void chol_solve(const double complex *L, int P, double complex *x)
-{
-    for (int i = 0; i < P; i++) {
-        double complex s = x[i];
-        for (int k = 0; k < i; k++)
-            s -= L[i * P + k] * x[k];
-        x[i] = s / creal(L[i * P + i]);
-    }
-    for (int i = P - 1; i >= 0; i--) {
-        double complex s = x[i];
-        for (int k = i + 1; k < P; k++)
-            s -= conj(L[k * P + i]) * x[k];
-        x[i] = s / creal(L[i * P + i]);
-    }
 }
 
 kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
@@ -238,7 +203,7 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
         trace += creal(G[l * nseg + l]);
     for (int l = 0; l < nseg; l++)
         G[l * nseg + l] += 1e-9 * trace / nseg;
-    if (chol(G, nseg)) {
+    if (kw_chol(G, (size_t)nseg) != KW_OK) {
         free(G);
         free(rhs);
         st = kw_set_error(KW_ENUMERIC, "field-map: segment interpolators are singular");
@@ -258,7 +223,7 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
             for (int l = 0; l < nseg; l++)
                 rhs[l] += cexp(2.0 * I * KW_PI * f * (fm->tau_seg[l] - tau));
         }
-        chol_solve(G, nseg, rhs);
+        kw_chol_solve(G, (size_t)nseg, rhs);
         double e2 = 0;
         for (size_t i = 0, k = 0; i < M; i++) {
             if (nobj && fm->obj[i] == 0)

@@ -15,6 +15,8 @@ double kw_traj_golden_angle(int m)
 
 size_t kw_traj_nyquist_spokes(size_t n) { return (size_t)ceil(KW_PI * (double)n / 2.0 - 1e-9); }
 
+int kw_traj_oversampling(const kw_traj_opts *o) { return o->oversampling == 0 ? 1 : o->oversampling; }
+
 double kw_traj_angle(const kw_traj_opts *o, size_t r)
 {
     if (o->tiny >= 1) {
@@ -41,15 +43,18 @@ kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim)
     KW_FAIL_IF(o->kind == KW_TRAJ_RADIAL && o->tiny != 0, KW_ERANGE,
                "tiny: uniform radial has no golden-angle order (use --kind golden)");
     KW_FAIL_IF(o->tiny < 0 || o->tiny > 1000, KW_ERANGE, "tiny: %d outside 1..1000", o->tiny);
+    KW_FAIL_IF(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE,
+               "readout-oversampling: %d outside 1..4", o->oversampling);
     KW_FAIL_IF(!(o->dwell_s > 0) || !isfinite(o->dwell_s), KW_ERANGE,
                "dwell: must be a positive time");
     KW_FAIL_IF(!(o->te_s >= 0) || !isfinite(o->te_s), KW_ERANGE, "te: must be >= 0");
     KW_FAIL_IF(o->te_s < 0.5 * (double)o->n * o->dwell_s * (1 - 1e-12), KW_ERANGE,
                "te: %g s is shorter than half the readout (N/2 x dwell = %g s)", o->te_s,
                0.5 * (double)o->n * o->dwell_s);
-    double s = (double)o->n * (double)o->spokes * (double)o->nz;
+    const size_t f = (size_t)kw_traj_oversampling(o);
+    double s = (double)f * (double)o->n * (double)o->spokes * (double)o->nz;
     KW_FAIL_IF(s > 2147483648.0, KW_ERANGE, "spokes: %.0f samples is too many", s);
-    *samples = o->n * o->spokes * o->nz;
+    *samples = f * o->n * o->spokes * o->nz;
     *ndim = o->kind == KW_TRAJ_STACK_OF_STARS ? 3 : 2;
     return KW_OK;
 }
@@ -62,20 +67,23 @@ kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t)
     if (st)
         return st;
     KW_FAIL_IF(!k, KW_EINVAL, "trajectory: NULL output");
-    const size_t n = o->n;
+    const size_t f = (size_t)kw_traj_oversampling(o), n = f * o->n;
+    const double dk = 1.0 / (double)f, dt = o->dwell_s / (double)f;
     size_t r = 0, i = 0;
     for (size_t z = 0; z < o->nz; z++)
         for (size_t s = 0; s < o->spokes; s++, r++) {
             double th = kw_traj_angle(o, r);
             double c = cos(th), sn = sin(th);
             for (size_t j = 0; j < n; j++, i++) {
-                double kr = (double)j - (double)(n / 2);
+                /* integer offset from k = 0 first, then the exact scale:
+                 * k is exact in float for F = 1, 2, 4 */
+                double kr = ((double)j - (double)(n / 2)) * dk;
                 k[i * nd + 0] = (float)(kr * c);
                 k[i * nd + 1] = (float)(kr * sn);
                 if (nd == 3)
                     k[i * nd + 2] = (float)((double)z - (double)(o->nz / 2));
                 if (t)
-                    t[i] = (float)(o->te_s + kr * o->dwell_s);
+                    t[i] = (float)(o->te_s + ((double)j - (double)(n / 2)) * dt);
             }
         }
     return KW_OK;
@@ -84,11 +92,14 @@ kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t)
 kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w)
 {
     KW_FAIL_IF(!o || !w || o->spokes < 1 || o->n < 2, KW_EINVAL, "weights: bad arguments");
-    const double S = (double)o->spokes;
+    KW_FAIL_IF(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE,
+               "readout-oversampling: %d outside 1..4", o->oversampling);
+    const double S = (double)o->spokes, dr = 1.0 / (double)kw_traj_oversampling(o);
+    const size_t n = (size_t)kw_traj_oversampling(o) * o->n;
     for (size_t s = 0; s < o->spokes; s++)
-        for (size_t j = 0; j < o->n; j++) {
-            double kr = fabs((double)j - (double)(o->n / 2));
-            w[s * o->n + j] = (float)(kr > 0 ? KW_PI * kr / S : KW_PI / (4.0 * S));
+        for (size_t j = 0; j < n; j++) {
+            double kr = fabs((double)j - (double)(n / 2)) * dr;
+            w[s * n + j] = (float)(kr > 0 ? KW_PI * kr * dr / S : KW_PI * dr * dr / (4.0 * S));
         }
     return KW_OK;
 }

@@ -1,6 +1,7 @@
 /* grappa.c: GRAPPA calibration and synthesis (Griswold et al. 2002, MRM
  * 47:1202; see kw_grappa.h for the kernel geometry). */
 #include "kw_grappa.h"
+#include "kw_linalg.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -133,25 +134,6 @@ static void gather(const kw_grappa *g, const float complex *ksp, const long base
                 }
 }
 
-static int chol(double complex *a, size_t n)
-{
-    for (size_t j = 0; j < n; j++) {
-        double dg = creal(a[j * n + j]);
-        for (size_t k = 0; k < j; k++)
-            dg -= creal(a[j * n + k] * conj(a[j * n + k]));
-        if (!(dg > 0))
-            return 0;
-        a[j * n + j] = sqrt(dg);
-        for (size_t i = j + 1; i < n; i++) {
-            double complex v = a[i * n + j];
-            for (size_t k = 0; k < j; k++)
-                v -= a[i * n + k] * conj(a[j * n + k]);
-            a[i * n + j] = v / creal(a[j * n + j]);
-        }
-    }
-    return 1;
-}
-
 static void tgt_offset(const kw_grappa *g, int t, int o[3])
 {
     int l = t + 1; /* skip the all-zero offset */
@@ -188,7 +170,7 @@ kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp)
     double lam = g->o.lambda * tr / (double)n;
     for (size_t i = 0; i < n; i++)
         g->aha[i * n + i] += lam;
-    KW_FAIL_IF(!chol(g->aha, n), KW_ENUMERIC,
+    KW_FAIL_IF(kw_chol(g->aha, n) != KW_OK, KW_ENUMERIC,
                "acs_lines: the calibration is singular (give --lambda > 0)");
     double complex *L = g->aha;
     for (int t = 0; t < g->ntgt; t++) {

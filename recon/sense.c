@@ -7,6 +7,7 @@
  * w = e^{2 pi i (off - N/2) / R}. Hence x(n) = (1/R) sum_l w^{-l} rho(n + l N/R)
  * for n in the first N/R pixels (indices mod N). */
 #include "kw_sense.h"
+#include "kw_linalg.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -98,43 +99,6 @@ kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
     return KW_OK;
 }
 
-/* Cholesky of the Hermitian n x n matrix in place (lower); 0 if not PD. */
-static int chol(double complex *a, int n)
-{
-    for (int j = 0; j < n; j++) {
-        double dg = creal(a[j * n + j]);
-        for (int k = 0; k < j; k++)
-            dg -= creal(a[j * n + k] * conj(a[j * n + k]));
-        if (!(dg > 0))
-            return 0;
-        a[j * n + j] = sqrt(dg);
-        for (int i = j + 1; i < n; i++) {
-            double complex v = a[i * n + j];
-            for (int k = 0; k < j; k++)
-                v -= a[i * n + k] * conj(a[j * n + k]);
-            a[i * n + j] = v / creal(a[j * n + j]);
-        }
-    }
-    return 1;
-}
-
-/* Solve L L^H x = b in place. */
-static void chol_solve(const double complex *L, int n, double complex *b)
-{
-    for (int i = 0; i < n; i++) {
-        double complex v = b[i];
-        for (int k = 0; k < i; k++)
-            v -= L[i * n + k] * b[k];
-        b[i] = v / creal(L[i * n + i]);
-    }
-    for (int i = n - 1; i >= 0; i--) {
-        double complex v = b[i];
-        for (int k = i + 1; k < n; k++)
-            v -= conj(L[k * n + i]) * b[k];
-        b[i] = v / creal(L[i * n + i]);
-    }
-}
-
 kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
                            const float complex *sens, float complex *img,
                            float *gfactor)
@@ -212,7 +176,7 @@ kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
         memcpy(Lm, A, (size_t)(nk * nk) * sizeof *Lm);
         for (int i = 0; i < nk; i++)
             Lm[i * nk + i] += lam;
-        if (!chol(Lm, nk)) {
+        if (kw_chol(Lm, (size_t)nk) != KW_OK) {
 #pragma omp critical
             {
                 bad = 1;
@@ -220,7 +184,7 @@ kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
             }
             continue;
         }
-        chol_solve(Lm, nk, x);
+        kw_chol_solve(Lm, (size_t)nk, x);
         for (int i = 0; i < nk; i++)
             img[pos[keep[i]]] = (float complex)x[i];
         if (gfactor) {
@@ -228,7 +192,7 @@ kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
             for (int j = 0; j < nk; j++) {
                 for (int i = 0; i < nk; i++)
                     b[i] = i == j;
-                chol_solve(Lm, nk, b);
+                kw_chol_solve(Lm, (size_t)nk, b);
                 for (int i = 0; i < nk; i++)
                     inv[i * nk + j] = b[i];
             }

@@ -3,6 +3,7 @@
 #include <criterion/criterion.h>
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "kw_traj.h"
 
@@ -102,4 +103,109 @@ Test(traj, bad_input)
     o.dwell_s = 1e-5;
     o.te_s = 1e-5; /* shorter than N/2 x dwell = 8e-5 */
     cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_ERANGE);
+}
+
+/* Readout oversampling F: F N samples per spoke at k_n = (n - F N/2) / F,
+ * acquired dwell / F apart with k = 0 at te (the construction stated in
+ * kw_traj.h, written out here independently). */
+Test(traj, oversampled_readout_geometry)
+{
+    const size_t n = 16, S = 7;
+    for (int f = 1; f <= 4; f++) {
+        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = n, .nz = 1, .spokes = S,
+                          .dwell_s = 8e-6, .te_s = 3e-3, .oversampling = f};
+        size_t ns;
+        int nd;
+        cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
+        cr_assert_eq(ns, (size_t)f * n * S);
+        float *k = malloc(ns * 2 * sizeof *k), *t = malloc(ns * sizeof *t);
+        cr_assert_eq(kw_traj_make(&o, k, t), KW_OK);
+        for (size_t s = 0; s < S; s++) {
+            double th = M_PI * (double)s / (double)S;
+            for (size_t j = 0; j < (size_t)f * n; j++) {
+                double kr = ((double)j - (double)f * (double)n / 2) / f;
+                size_t i = s * (size_t)f * n + j;
+                cr_expect(fabs(k[2 * i] - kr * cos(th)) < 1e-5, "F %d spoke %zu n %zu", f, s, j);
+                cr_expect(fabs(k[2 * i + 1] - kr * sin(th)) < 1e-5);
+                /* inside the NUFFT's [-N/2, N/2) */
+                cr_expect(k[2 * i] >= -(float)n / 2 && k[2 * i] < (float)n / 2);
+                double want = 3e-3 + ((double)j - (double)f * (double)n / 2) * 8e-6 / f;
+                cr_expect(fabs(t[i] - want) < 1e-9, "t %g vs %g", t[i], want);
+            }
+        }
+        /* the readout lasts N dwell whatever F: first to last sample
+         * (F N - 1) dwell / F */
+        cr_expect(fabs((t[f * n - 1] - t[0]) - ((double)f * n - 1) * 8e-6 / f) < 1e-9);
+        free(k);
+        free(t);
+    }
+    /* oversampling 0 (zero-initialised options) means 1 */
+    kw_traj_opts a = {.kind = KW_TRAJ_GOLDEN, .n = 8, .nz = 1, .spokes = 3, .tiny = 1,
+                      .dwell_s = 1e-5, .te_s = 1e-3};
+    kw_traj_opts b = a;
+    b.oversampling = 1;
+    float ka[48], kb[48];
+    cr_assert_eq(kw_traj_make(&a, ka, NULL), KW_OK);
+    cr_assert_eq(kw_traj_make(&b, kb, NULL), KW_OK);
+    cr_expect_eq(memcmp(ka, kb, sizeof ka), 0);
+}
+
+/* The ramp weights are ring areas (plane geometry: the annulus between
+ * r - dr/2 and r + dr/2 has area 2 pi r dr; the central disc of radius
+ * dr/2 has pi dr^2 / 4), and their total is the disc of radius N/2,
+ * pi N^2 / 4, plus pi dr^2 / 4 (the sum over the rings, worked out in
+ * kw_traj.h) -- for every oversampling. */
+Test(traj, oversampled_radial_weights_are_ring_areas)
+{
+    const size_t n = 32, S = 11;
+    for (int f = 1; f <= 4; f++) {
+        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = n, .nz = 1, .spokes = S,
+                          .dwell_s = 1e-5, .te_s = 1e-3, .oversampling = f};
+        size_t ns;
+        int nd;
+        cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
+        float *k = malloc(ns * 2 * sizeof *k), *w = malloc(ns * sizeof *w);
+        cr_assert_eq(kw_traj_make(&o, k, NULL), KW_OK);
+        cr_assert_eq(kw_traj_radial_weights(&o, w), KW_OK);
+        const double dr = 1.0 / f;
+        const size_t rings = (size_t)f * n / 2 + 1; /* radii m dr, m = 0 .. F N/2 */
+        double *area = calloc(rings, sizeof *area), total = 0;
+        for (size_t i = 0; i < ns; i++) {
+            double r = hypot(k[2 * i], k[2 * i + 1]);
+            size_t m = (size_t)lround(r / dr);
+            cr_assert(m < rings && fabs(r - (double)m * dr) < 1e-4);
+            area[m] += w[i];
+            total += w[i];
+        }
+        cr_expect(fabs(area[0] - M_PI * dr * dr / 4) < 1e-6 * M_PI * dr * dr);
+        for (size_t m = 1; m + 1 < rings; m++) {
+            double want = 2 * M_PI * ((double)m * dr) * dr;
+            cr_expect(fabs(area[m] - want) < 1e-5 * want, "F %d ring %zu: %g vs %g", f, m,
+                      area[m], want);
+        }
+        /* the edge ring |k| = N/2 is reached on one side of each spoke only */
+        double edge = M_PI * ((double)n / 2) * dr;
+        cr_expect(fabs(area[rings - 1] - edge) < 1e-5 * edge);
+        double want = M_PI * (double)(n * n) / 4 + M_PI * dr * dr / 4;
+        cr_expect(fabs(total - want) < 1e-6 * want, "F %d: sum %.8g vs %.8g", f, total, want);
+        free(area);
+        free(k);
+        free(w);
+    }
+}
+
+Test(traj, oversampling_out_of_range)
+{
+    kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = 16, .nz = 1, .spokes = 5, .dwell_s = 1e-5,
+                      .te_s = 1e-3, .oversampling = 5};
+    size_t ns;
+    int nd;
+    float w[16 * 5 * 5];
+    cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_ERANGE);
+    cr_expect_eq(kw_traj_radial_weights(&o, w), KW_ERANGE);
+    o.oversampling = -1;
+    cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_ERANGE);
+    o.oversampling = 4;
+    cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
+    cr_expect_eq(ns, 4 * 16 * 5);
 }

@@ -135,3 +135,19 @@ def test_random_pattern_sidecar_is_accepted(tmp_path):
     den = (abs(s) ** 2).sum(0)
     ref = np.where(den > 0, abs((np.conj(s) * im).sum(0)) / np.where(den > 0, den, 1), 0)
     assert np.linalg.norm(z - ref) / np.linalg.norm(ref) < 1e-4
+
+
+def test_uniform_lattice_with_acs_sidecar_is_accepted(tmp_path):
+    """Regression: the simulator's sidecar gives the effective acceleration of
+    a uniform lattice with calibration lines (1 / sampled fraction, here 2.9 for
+    R = 4 with 16 lines), which agrees with the data and must not be refused."""
+    from conftest import run
+    run("pattern", "--kind", "uniform", "--matrix", "64x64", "--accel", "4", "--acs", "8",
+        "--out", tmp_path / "u.npy", "--quiet")
+    run("encode", "--phantom", "weave", "--matrix", "64", "--fov", "256mm", "--coils", "4",
+        "--pattern", tmp_path / "u.npy", "--sens-out", tmp_path / "s.npy",
+        "--out", tmp_path / "k.npy", "--quiet")
+    side = json.load(open(tmp_path / "k.json"))
+    m = np.load(tmp_path / "u.npy")
+    assert abs(side["acceleration"] - m.size / m.astype(bool).sum()) < 1e-6
+    run("recon", "--in", tmp_path / "k.npy", "--method", "sense", "--out", tmp_path / "x.npy", "--quiet")
