@@ -14,13 +14,16 @@
 #include "png.h"
 #include "recon_cli.h"
 #include "recon_cart.h"
+#include "recon_multislice.h"
 
 static const char USAGE[] =
     "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png [--method M] [options]\n"
     "\n"
     "Reconstructs k-space (coils, [nz,] ny, nx) or non-Cartesian samples\n"
     "(coils, samples) with a trajectory. The sidecar KS.json is read when\n"
-    "present (trajectory, maps, noise covariance, acceleration). Methods:";
+    "present (trajectory, maps, noise covariance, acceleration). Multi-slice\n"
+    "2-D k-space (the sidecar's \"slices\", or --slices AXIS) is reconstructed\n"
+    "slice by slice from the file into (slices, ny, nx). Methods:";
 
 static int ends_with(const char *s, const char *suf)
 {
@@ -29,7 +32,7 @@ static int ends_with(const char *s, const char *suf)
 }
 
 /* A path from the sidecar is relative to the sidecar's directory. */
-static char *sidecar_rel(const char *sidecar, const char *name)
+char *kw_recon_sidecar_rel(const char *sidecar, const char *name)
 {
     if (name[0] == '/' || !strchr(sidecar, '/'))
         return strdup(name);
@@ -52,7 +55,7 @@ static int read_named(const char *opt_path, const cJSON *sc, const char *scpath,
     } else if (sc) {
         const cJSON *j = cJSON_GetObjectItemCaseSensitive(sc, key);
         if (j && cJSON_IsString(j) && j->valuestring[0])
-            path = sidecar_rel(scpath, j->valuestring);
+            path = kw_recon_sidecar_rel(scpath, j->valuestring);
         else if (j && !cJSON_IsNull(j) && !cJSON_IsString(j))
             return kw_cli_fail(field, "sidecar key \"%s\" is not a file name", key);
     }
@@ -104,7 +107,8 @@ int kw_cmd_recon(int argc, char **argv)
     memset(&o, 0, sizeof o);
     o.lambda = o.stop = o.tolerance = o.oversampling = NAN;
     o.seed = 1;
-    int seen_seed = 0, seen_rep = 0;
+    int seen_seed = 0, seen_rep = 0, seen_slices = 0;
+    long slice_axis = -1;
     const char *sens_out = NULL;
     const kw_opt table[] = {
         {"in", KW_OPT_STRING, &o.in, 0, NULL, "k-space .npy (- for stdin)"},
@@ -128,6 +132,9 @@ int kw_cmd_recon(int argc, char **argv)
         {"keep-coils", KW_OPT_FLAG, &o.keep_coils, 0, NULL, "write the coil images (complex64) instead of combining"},
         {"replicas", KW_OPT_INT, &o.replicas, 0, &seen_rep, "pseudo-replicas for --gfactor (default 50; forces the pseudo-replica map)"},
         {"seed", KW_OPT_INT, &o.seed, 0, &seen_seed, "seed of the pseudo-replica noise (default 1)"},
+        {"slices", KW_OPT_INT, &slice_axis, 0, &seen_slices,
+         "multi-slice 2-D input: the slice axis (1: (coils, slices, ny, nx), 0: (slices, [coils,] ny, nx));"
+         " default from the sidecar's \"slices\""},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
     char usage[2048];
@@ -183,19 +190,28 @@ int kw_cmd_recon(int argc, char **argv)
         goto done;                                                             \
     } while (0)
 
-    kw_status st = kw_npy_read(o.in, &job.ksp);
-    if (st)
-        FAIL(kw_cli_status(st, "in"));
-    if (job.ksp.dtype != KW_C64)
-        FAIL(kw_cli_fail("in", "k-space must be complex (complex64 or complex128)"));
-    if (kw_array_all_finite(&job.ksp))
-        FAIL(kw_cli_fail("in", "%s", kw_last_error()));
+    kw_status st;
+    if (seen_slices && (slice_axis < 0 || slice_axis > 1))
+        FAIL(kw_cli_fail("slices", "the slice axis must be 0 or 1 (got %ld)", slice_axis));
     if (strcmp(o.in, "-") != 0 && (scpath = kw_sidecar_path(o.in)) && access(scpath, F_OK) == 0) {
         if ((st = kw_json_read(scpath, &sidecar)))
             FAIL(kw_cli_status(st, "sidecar"));
         if (!cJSON_IsObject(sidecar))
             FAIL(kw_cli_fail("sidecar", "%s: not a JSON object", scpath));
     }
+    /* Multi-slice 2-D: streamed slice by slice, never read whole. */
+    if (seen_slices || (sidecar && cJSON_GetObjectItemCaseSensitive(sidecar, "slices"))) {
+        if (sens_out)
+            FAIL(kw_cli_fail("sens-out", "not with multi-slice input (the maps are per slice)"));
+        FAIL(kw_recon_multislice(&o, sidecar, scpath, seen_slices ? (int)slice_axis : -1));
+    }
+    st = kw_npy_read(o.in, &job.ksp);
+    if (st)
+        FAIL(kw_cli_status(st, "in"));
+    if (job.ksp.dtype != KW_C64)
+        FAIL(kw_cli_fail("in", "k-space must be complex (complex64 or complex128)"));
+    if (kw_array_all_finite(&job.ksp))
+        FAIL(kw_cli_fail("in", "%s", kw_last_error()));
     job.sidecar = sidecar;
 
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */

@@ -1,0 +1,360 @@
+/* npystream.c: block-wise .npy reading and writing (see npystream.h).
+ *
+ * The .npy layout (NEP 1, numpy.lib.format): magic "\x93NUMPY", a version
+ * byte pair, a little-endian header length (2 bytes for 1.0, 4 bytes for 2.0
+ * and 3.0), then a Python dict literal with exactly the keys 'descr',
+ * 'fortran_order' and 'shape'. cli/npy.c keeps its own parser private, so
+ * this file carries a small one of its own for the same checks. */
+#include "npystream.h"
+
+#include <ctype.h>
+#include <errno.h>
+#include <stdint.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+/* ---- the header dict ------------------------------------------------------ */
+
+static const char *blank(const char *p, const char *e)
+{
+    while (p < e && (*p == ' ' || *p == '\t' || *p == '\n' || *p == '\r'))
+        p++;
+    return p;
+}
+
+/* A quoted word (no escapes) into w[cap]; returns the position after it. */
+static const char *quoted(const char *p, const char *e, char *w, size_t cap)
+{
+    if (p >= e || (*p != '\'' && *p != '"'))
+        return NULL;
+    char q = *p++;
+    size_t k = 0;
+    for (; p < e && *p != q; p++) {
+        if (*p == '\\' || k + 1 >= cap)
+            return NULL;
+        w[k++] = *p;
+    }
+    if (p >= e)
+        return NULL;
+    w[k] = '\0';
+    return p + 1;
+}
+
+static kw_status take_descr(kw_npyr *r, const char *d)
+{
+    KW_FAIL_IF(d[0] != '<' && d[0] != '>' && d[0] != '=', KW_EFORMAT,
+               "dtype '%s': multi-slice k-space must be complex64 or complex128", d);
+    if (strcmp(d + 1, "c8") == 0)
+        r->isize = 8;
+    else if (strcmp(d + 1, "c16") == 0)
+        r->isize = 16;
+    else
+        return kw_set_error(KW_EFORMAT, "dtype '%s': multi-slice k-space must be "
+                            "complex64 or complex128", d);
+    r->wide = r->isize == 16;
+    r->big = d[0] == '>';
+    return KW_OK;
+}
+
+static kw_status take_shape(kw_npyr *r, const char *p, const char *e, const char **after)
+{
+    KW_FAIL_IF(p >= e || *p != '(', KW_EFORMAT, "header: 'shape' is not a tuple");
+    p++;
+    r->ndim = 0;
+    for (;;) {
+        p = blank(p, e);
+        KW_FAIL_IF(p >= e, KW_EFORMAT, "header: 'shape' is not closed");
+        if (*p == ')')
+            break;
+        KW_FAIL_IF(!isdigit((unsigned char)*p), KW_EFORMAT,
+                   "header: 'shape' holds something other than whole numbers");
+        KW_FAIL_IF(r->ndim >= KW_MAX_DIMS, KW_EFORMAT,
+                   "header: 'shape' has more than %d dimensions", KW_MAX_DIMS);
+        size_t v = 0;
+        for (; p < e && isdigit((unsigned char)*p); p++) {
+            KW_FAIL_IF(v > (SIZE_MAX - 9) / 10, KW_EFORMAT, "header: 'shape' dimension too large");
+            v = v * 10 + (size_t)(*p - '0');
+        }
+        r->dims[r->ndim++] = v;
+        p = blank(p, e);
+        if (p < e && *p == 'L')
+            p = blank(p + 1, e);
+        if (p < e && *p == ',') {
+            p++;
+            continue;
+        }
+        KW_FAIL_IF(p >= e || *p != ')', KW_EFORMAT, "header: 'shape' is malformed");
+    }
+    *after = p + 1;
+    return KW_OK;
+}
+
+static kw_status take_header(kw_npyr *r, const char *txt, size_t len)
+{
+    const char *p = blank(txt, txt + len), *e = txt + len;
+    int seen = 0; /* bits: 1 descr, 2 fortran_order, 4 shape */
+    KW_FAIL_IF(p >= e || *p != '{', KW_EFORMAT, "header: not a dictionary");
+    p++;
+    for (;;) {
+        p = blank(p, e);
+        KW_FAIL_IF(p >= e, KW_EFORMAT, "header: dictionary not closed");
+        if (*p == '}')
+            break;
+        char key[32], val[32];
+        KW_FAIL_IF(!(p = quoted(p, e, key, sizeof key)), KW_EFORMAT, "header: malformed key");
+        p = blank(p, e);
+        KW_FAIL_IF(p >= e || *p != ':', KW_EFORMAT, "header: missing ':' after '%s'", key);
+        p = blank(p + 1, e);
+        kw_status st = KW_OK;
+        if (strcmp(key, "descr") == 0) {
+            KW_FAIL_IF(p < e && *p == '[', KW_EFORMAT, "dtype: structured arrays are not supported");
+            KW_FAIL_IF(!(p = quoted(p, e, val, sizeof val)), KW_EFORMAT,
+                       "header: 'descr' is not a string");
+            st = take_descr(r, val);
+            seen |= 1;
+        } else if (strcmp(key, "fortran_order") == 0) {
+            if (e - p >= 5 && strncmp(p, "False", 5) == 0)
+                p += 5;
+            else if (e - p >= 4 && strncmp(p, "True", 4) == 0)
+                return kw_set_error(KW_EFORMAT, "fortran_order: Fortran-ordered arrays are "
+                                    "not supported (save np.ascontiguousarray(a))");
+            else
+                return kw_set_error(KW_EFORMAT, "header: 'fortran_order' is not a bool");
+            seen |= 2;
+        } else if (strcmp(key, "shape") == 0) {
+            st = take_shape(r, p, e, &p);
+            seen |= 4;
+        } else {
+            return kw_set_error(KW_EFORMAT, "header: unknown key '%s'", key);
+        }
+        if (st)
+            return st;
+        p = blank(p, e);
+        if (p < e && *p == ',') {
+            p++;
+            continue;
+        }
+        KW_FAIL_IF(p >= e || *p != '}', KW_EFORMAT, "header: malformed dictionary");
+    }
+    KW_FAIL_IF(!(seen & 1), KW_EFORMAT, "header: no 'descr'");
+    KW_FAIL_IF(!(seen & 2), KW_EFORMAT, "header: no 'fortran_order'");
+    KW_FAIL_IF(!(seen & 4), KW_EFORMAT, "header: no 'shape'");
+    return KW_OK;
+}
+
+/* ---- reading ----------------------------------------------------------------- */
+
+static kw_status open_header(kw_npyr *r)
+{
+    unsigned char pre[12];
+    size_t got = fread(pre, 1, 10, r->fp);
+    KW_FAIL_IF(got == 0, KW_EFORMAT, "empty file");
+    KW_FAIL_IF(got < 10 || memcmp(pre, "\x93NUMPY", 6) != 0, KW_EFORMAT, "not a .npy file (bad magic)");
+    size_t hlen, pre_len = 10;
+    if (pre[6] == 1) {
+        hlen = (size_t)pre[8] | (size_t)pre[9] << 8;
+    } else if (pre[6] == 2 || pre[6] == 3) {
+        KW_FAIL_IF(fread(pre + 10, 1, 2, r->fp) != 2, KW_EFORMAT, "truncated header");
+        hlen = (size_t)pre[8] | (size_t)pre[9] << 8 | (size_t)pre[10] << 16 | (size_t)pre[11] << 24;
+        pre_len = 12;
+    } else {
+        return kw_set_error(KW_EFORMAT, "format version %d.%d is not supported", pre[6], pre[7]);
+    }
+    KW_FAIL_IF(hlen == 0 || hlen > (1u << 20), KW_EFORMAT, "header length %zu is not plausible", hlen);
+    char *txt = malloc(hlen);
+    KW_FAIL_IF(!txt, KW_ENOMEM, "out of memory");
+    kw_status st = fread(txt, 1, hlen, r->fp) == hlen ? take_header(r, txt, hlen)
+                                                     : kw_set_error(KW_EFORMAT, "truncated header");
+    free(txt);
+    if (st)
+        return st;
+    size_t bytes;
+    KW_FAIL_IF(kw_checked_bytes(r->dims, r->ndim, r->isize, 0, &bytes), KW_EFORMAT,
+               "shape: the number of bytes overflows (the header is corrupt or lies)");
+    r->count = bytes / r->isize;
+    r->data_off = (off_t)(pre_len + hlen);
+    struct stat sb;
+    r->seekable = fstat(fileno(r->fp), &sb) == 0 && S_ISREG(sb.st_mode);
+    if (r->seekable && (uintmax_t)sb.st_size != (uintmax_t)r->data_off + bytes)
+        return kw_set_error(KW_EFORMAT, "shape: promises %zu bytes of data but the file holds %jd "
+                            "(the header lies about the shape, or the file is truncated)",
+                            bytes, (intmax_t)sb.st_size - (intmax_t)r->data_off);
+    return KW_OK;
+}
+
+kw_status kw_npyr_open(kw_npyr *r, const char *path)
+{
+    memset(r, 0, sizeof *r);
+    KW_FAIL_IF(!path || !*path, KW_EINVAL, "input: empty file name");
+    if (strcmp(path, "-") == 0) {
+        r->fp = stdin;
+    } else {
+        r->fp = fopen(path, "rb");
+        KW_FAIL_IF(!r->fp, KW_EIO, "%s: %s", path, strerror(errno));
+        r->own = 1;
+        struct stat sb;
+        if (fstat(fileno(r->fp), &sb) == 0 && S_ISDIR(sb.st_mode)) {
+            kw_npyr_close(r);
+            return kw_set_error(KW_EIO, "%s: is a directory, not a .npy file", path);
+        }
+    }
+    kw_status st = open_header(r);
+    if (st) {
+        char why[512];
+        snprintf(why, sizeof why, "%s", kw_last_error());
+        kw_npyr_close(r);
+        return kw_set_error(st, "%s: %s", path, why);
+    }
+    return KW_OK;
+}
+
+kw_status kw_npyr_read(kw_npyr *r, size_t first, size_t n, float complex *out)
+{
+    KW_FAIL_IF(!r->fp, KW_EINVAL, "in: not open");
+    KW_FAIL_IF(first > r->count || n > r->count - first, KW_EINVAL,
+               "in: elements %zu..%zu lie outside the array (%zu)", first, first + n, r->count);
+    if (r->seekable) {
+        KW_FAIL_IF(fseeko(r->fp, r->data_off + (off_t)(first * r->isize), SEEK_SET) != 0, KW_EIO,
+                   "in: seek failed: %s", strerror(errno));
+    } else {
+        KW_FAIL_IF(first < r->pos, KW_EINVAL,
+                   "in: a pipe reads forwards only (element %zu wanted, %zu already passed)",
+                   first, r->pos);
+        unsigned char skip[4096];
+        while (r->pos < first) {
+            size_t m = (first - r->pos) * r->isize;
+            m = m < sizeof skip ? m / r->isize : sizeof skip / r->isize;
+            KW_FAIL_IF(fread(skip, r->isize, m, r->fp) != m, KW_EFORMAT,
+                       "data: truncated (the stream ended before the shape's %zu values)", r->count);
+            r->pos += m;
+        }
+    }
+    enum { CHUNK = 1 << 14 };
+    if (!r->buf) {
+        r->bufcap = CHUNK;
+        r->buf = malloc(CHUNK * 16);
+        KW_FAIL_IF(!r->buf, KW_ENOMEM, "in: out of memory");
+    }
+    for (size_t done = 0; done < n;) {
+        size_t m = n - done < r->bufcap ? n - done : r->bufcap;
+        size_t got = fread(r->buf, r->isize, m, r->fp);
+        KW_FAIL_IF(got != m, KW_EFORMAT, "data: truncated (the stream ended before the shape's %zu values)",
+                   r->count);
+        if (r->big) { /* swap each real and imaginary part */
+            size_t w = r->isize / 2;
+            for (size_t i = 0; i < 2 * m; i++) {
+                unsigned char *b = r->buf + i * w;
+                for (size_t j = 0; j < w / 2; j++) {
+                    unsigned char t = b[j];
+                    b[j] = b[w - 1 - j];
+                    b[w - 1 - j] = t;
+                }
+            }
+        }
+        if (r->wide) {
+            for (size_t i = 0; i < m; i++) {
+                double re, im;
+                memcpy(&re, r->buf + 16 * i, 8);
+                memcpy(&im, r->buf + 16 * i + 8, 8);
+                out[done + i] = (float)re + I * (float)im;
+            }
+        } else {
+            memcpy(out + done, r->buf, m * 8);
+        }
+        done += m;
+    }
+    r->pos = first + n;
+    if (!r->seekable && r->pos == r->count && fgetc(r->fp) != EOF)
+        return kw_set_error(KW_EFORMAT, "data: more bytes than the shape says (the header lies about the shape)");
+    return KW_OK;
+}
+
+void kw_npyr_close(kw_npyr *r)
+{
+    if (!r)
+        return;
+    if (r->own && r->fp)
+        fclose(r->fp);
+    free(r->buf);
+    memset(r, 0, sizeof *r);
+}
+
+/* ---- writing ----------------------------------------------------------------- */
+
+kw_status kw_npyw_open(kw_npyw *w, const char *path, kw_dtype dt, int ndim, const size_t *dims)
+{
+    memset(w, 0, sizeof *w);
+    KW_FAIL_IF(dt != KW_C64 && dt != KW_F32, KW_EINVAL, "out: only complex64 or float32 are streamed");
+    KW_FAIL_IF(ndim < 1 || ndim > KW_MAX_DIMS, KW_EINVAL, "out: %d dimensions", ndim);
+    w->esize = dt == KW_C64 ? 8 : 4;
+    size_t bytes;
+    KW_FAIL_IF(kw_checked_bytes(dims, ndim, w->esize, 0, &bytes), KW_EINVAL, "out: size overflows");
+    w->count = bytes / w->esize;
+    /* the header exactly as kw_npy_write writes it: numpy's own spelling of
+     * the shape ("(3,)" but "(3, 4)") and padding to a multiple of 64 bytes */
+    char hdr[512];
+    int len = snprintf(hdr, sizeof hdr, "{'descr': '%s', 'fortran_order': False, 'shape': (",
+                       dt == KW_C64 ? "<c8" : "<f4");
+    for (int i = 0; i < ndim; i++)
+        len += snprintf(hdr + len, sizeof hdr - (size_t)len, "%zu%s", dims[i],
+                        ndim == 1 ? "," : i + 1 < ndim ? ", " : "");
+    len += snprintf(hdr + len, sizeof hdr - (size_t)len, "), }");
+    size_t pad = (64 - (10 + (size_t)len + 1) % 64) % 64;
+    memset(hdr + len, ' ', pad);
+    hdr[(size_t)len + pad] = '\n';
+    size_t hlen = (size_t)len + pad + 1;
+    unsigned char pre[10] = {0x93, 'N', 'U', 'M', 'P', 'Y', 1, 0, (unsigned char)(hlen & 0xff),
+                             (unsigned char)(hlen >> 8)};
+    kw_status st = kw_outfile_open(&w->of, path);
+    if (st)
+        return st;
+    w->open = 1;
+    if (fwrite(pre, 1, 10, w->of.fp) != 10 || fwrite(hdr, 1, hlen, w->of.fp) != hlen) {
+        kw_npyw_abort(w);
+        return kw_set_error(KW_EIO, "%s: write failed", path);
+    }
+    w->data_off = (off_t)(10 + hlen);
+    struct stat sb;
+    w->seekable = fstat(fileno(w->of.fp), &sb) == 0 && S_ISREG(sb.st_mode) &&
+                  ftello(w->of.fp) == w->data_off;
+    return KW_OK;
+}
+
+kw_status kw_npyw_write(kw_npyw *w, size_t first, const void *data, size_t n)
+{
+    KW_FAIL_IF(!w->open, KW_EINVAL, "out: not open");
+    KW_FAIL_IF(first > w->count || n > w->count - first, KW_EINVAL,
+               "out: elements %zu..%zu lie outside the array (%zu)", first, first + n, w->count);
+    if (first != w->next) {
+        KW_FAIL_IF(!w->seekable, KW_EINVAL,
+                   "out: this target cannot seek: blocks must come in order");
+        KW_FAIL_IF(fseeko(w->of.fp, w->data_off + (off_t)(first * w->esize), SEEK_SET) != 0,
+                   KW_EIO, "out: seek failed: %s", strerror(errno));
+    }
+    KW_FAIL_IF(n && fwrite(data, w->esize, n, w->of.fp) != n, KW_EIO, "out: write failed: %s",
+               strerror(errno));
+    w->next = first + n;
+    w->written += n;
+    return KW_OK;
+}
+
+kw_status kw_npyw_commit(kw_npyw *w)
+{
+    KW_FAIL_IF(!w->open, KW_EINVAL, "out: not open");
+    if (w->written != w->count) {
+        size_t a = w->written, b = w->count;
+        kw_npyw_abort(w);
+        return kw_set_error(KW_EINVAL, "out: %zu of %zu values written", a, b);
+    }
+    w->open = 0;
+    return kw_outfile_commit(&w->of);
+}
+
+void kw_npyw_abort(kw_npyw *w)
+{
+    if (!w || !w->open)
+        return;
+    kw_outfile_abort(&w->of);
+    w->open = 0;
+}
