@@ -198,6 +198,10 @@ int kw_cmd_recon(int argc, char **argv)
             FAIL(kw_cli_status(st, "sidecar"));
         if (!cJSON_IsObject(sidecar))
             FAIL(kw_cli_fail("sidecar", "%s: not a JSON object", scpath));
+        const cJSON *kind = cJSON_GetObjectItemCaseSensitive(sidecar, "kind");
+        if (kind && (!cJSON_IsString(kind) || strcmp(kind->valuestring, "kspace") != 0))
+            FAIL(kw_cli_fail("kind", "%s: the sidecar describes \"%s\", not k-space", scpath,
+                             cJSON_IsString(kind) ? kind->valuestring : "?"));
     }
     /* Multi-slice 2-D: streamed slice by slice, never read whole. */
     if (seen_slices || (sidecar && cJSON_GetObjectItemCaseSensitive(sidecar, "slices"))) {
@@ -212,6 +216,18 @@ int kw_cmd_recon(int argc, char **argv)
         FAIL(kw_cli_fail("in", "k-space must be complex (complex64 or complex128)"));
     if (kw_array_all_finite(&job.ksp))
         FAIL(kw_cli_fail("in", "%s", kw_last_error()));
+    /* The sidecar must describe this array: its "shape" is the array's. */
+    const cJSON *shp = sidecar ? cJSON_GetObjectItemCaseSensitive(sidecar, "shape") : NULL;
+    if (shp) {
+        int ok = cJSON_IsArray(shp) && cJSON_GetArraySize(shp) == job.ksp.ndim;
+        for (int i = 0; ok && i < job.ksp.ndim; i++) {
+            const cJSON *e = cJSON_GetArrayItem(shp, i);
+            ok = cJSON_IsNumber(e) && e->valuedouble == (double)job.ksp.dims[i];
+        }
+        if (!ok)
+            FAIL(kw_cli_fail("shape", "%s: the sidecar's shape does not match the k-space array "
+                             "(the sidecar belongs to another file?)", scpath));
+    }
     job.sidecar = sidecar;
 
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */
