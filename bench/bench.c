@@ -8,6 +8,19 @@
  *   kw_bench fft   FILE THREADS REPS   kweave's centered transform + RSS in two
  *                                      steps (kw_fft in place on a copy), for
  *                                      comparison with the fused path
+ *   kw_bench nufft NDIM N M TOL THREADS REPS COILS
+ *                                      NUFFT on M uniformly random samples
+ *                                      of an N^NDIM image, COILS through one
+ *                                      plan: plan time, forward and adjoint
+ *                                      time, samples per second, and the
+ *                                      error against the exact NDFT (forward:
+ *                                      256 samples; adjoint: 32 pixels)
+ *   kw_bench normal NDIM N M THREADS REPS COILS
+ *                                      one E^H W E application (Toeplitz
+ *                                      embedding, the cost of a CG-SENSE or
+ *                                      FISTA iteration) against its floor:
+ *                                      2 bare FFTW transforms per coil on the
+ *                                      doubled grid
  *   kw_bench run REPS CMD ARGS...      whole processes: wall time and peak
  *                                      resident memory (ru_maxrss of the child,
  *                                      forked from this small process so that
@@ -23,7 +36,10 @@
 #include <string.h>
 #include <time.h>
 
+#include "kw_encoder.h"
 #include "kw_fft.h"
+#include "kw_nufft.h"
+#include "kw_rng.h"
 #include "kw_rssrecon.h"
 #include "npy.h"
 
@@ -84,8 +100,188 @@ static int run_processes(int reps, char **cmd)
     return 0;
 }
 
+static double median(double *t, int reps)
+{
+    qsort(t, (size_t)reps, sizeof *t, cmp);
+    return reps % 2 ? t[reps / 2] : 0.5 * (t[reps / 2 - 1] + t[reps / 2]);
+}
+
+static float *random_traj(int ndim, size_t n, size_t m, uint64_t seed)
+{
+    float *k = malloc(m * (size_t)ndim * sizeof *k);
+    kw_rng g;
+    kw_rng_seed(&g, seed);
+    for (size_t i = 0; k && i < m * (size_t)ndim; i++)
+        k[i] = (float)((kw_rng_uniform(&g) - 0.5) * (double)n);
+    return k;
+}
+
+static int bench_nufft(int ndim, size_t n, size_t m, double tol, int threads, int reps,
+                       size_t coils)
+{
+    size_t dims[3] = {n, n, n}, np = 1;
+    for (int i = 0; i < ndim; i++)
+        np *= n;
+    float *traj = random_traj(ndim, n, m, 7);
+    float complex *img = kw_alloc(coils * np * sizeof *img), *img2 = kw_alloc(coils * np * sizeof *img);
+    float complex *ksp = kw_alloc(coils * m * sizeof *ksp);
+    double *t = malloc(sizeof(double) * (size_t)reps);
+    if (!traj || !img || !img2 || !ksp || !t)
+        return 1;
+    kw_rng g;
+    kw_rng_seed(&g, 3);
+    for (size_t i = 0; i < coils * np; i++)
+        img[i] = (float)kw_rng_normal(&g) + I * (float)kw_rng_normal(&g);
+    for (size_t i = 0; i < coils * m; i++)
+        ksp[i] = (float)kw_rng_normal(&g) + I * (float)kw_rng_normal(&g);
+    kw_nufft_opts o = {tol, 0, threads, 1};
+    kw_nufft_plan *p;
+    double t0 = now_ms();
+    if (kw_nufft_create(&p, ndim, dims, m, traj, &o)) {
+        fprintf(stderr, "kw_bench: %s\n", kw_last_error());
+        return 1;
+    }
+    double plan_ms = now_ms() - t0;
+    kw_nufft_forward(p, img, ksp, coils); /* warm-up */
+    for (int r = 0; r < reps; r++) {
+        t0 = now_ms();
+        kw_nufft_forward(p, img, ksp, coils);
+        t[r] = now_ms() - t0;
+    }
+    double fwd = median(t, reps);
+    kw_nufft_adjoint(p, ksp, img2, coils);
+    for (int r = 0; r < reps; r++) {
+        t0 = now_ms();
+        kw_nufft_adjoint(p, ksp, img2, coils);
+        t[r] = now_ms() - t0;
+    }
+    double adj = median(t, reps);
+    /* Errors of coil 0 against the exact NDFT (double): forward on the first
+     * 256 samples; adjoint at 32 pixels spread over the image. */
+    size_t ms = m < 256 ? m : 256;
+    float complex *ref = malloc(ms * sizeof *ref);
+    t0 = now_ms();
+    kw_ndft_forward(ndim, dims, ms, traj, img, ref);
+    double ndft_rate = (double)ms / ((now_ms() - t0) * 1e-3); /* one coil */
+    double num = 0, den = 0;
+    for (size_t j = 0; j < ms; j++) {
+        num += pow(cabs(ksp[j] - ref[j]), 2);
+        den += pow(cabs(ref[j]), 2);
+    }
+    double efwd = sqrt(num / den);
+    kw_nufft_forward(p, img, ksp, coils); /* ksp: forward of img again */
+    num = den = 0;
+    for (int q = 0; q < 32; q++) {
+        size_t pix = (size_t)q * (np / 32) + np / 64;
+        long idx[3] = {0, 0, 0};
+        size_t rem = pix;
+        for (int a = ndim - 1; a >= 0; a--) {
+            idx[a] = (long)(rem % n) - (long)(n / 2);
+            rem /= n;
+        }
+        double complex acc = 0;
+        for (size_t j = 0; j < m; j++) {
+            double ph = 0;
+            for (int c = 0; c < ndim; c++) /* column c runs along axis ndim-1-c */
+                ph += (double)traj[j * (size_t)ndim + (size_t)c] * (double)idx[ndim - 1 - c];
+            acc += ksp[j] * cexp(2 * KW_PI * I * ph / (double)n);
+        }
+        acc /= sqrt((double)np);
+        kw_nufft_adjoint(p, ksp, img2, 1);
+        num += pow(cabs(img2[pix] - acc), 2);
+        den += pow(cabs(acc), 2);
+    }
+    double eadj = sqrt(num / den);
+    printf("{\"case\": \"nufft\", \"ndim\": %d, \"n\": %zu, \"samples\": %zu, \"tolerance\": %g, "
+           "\"threads\": %d, \"coils\": %zu, \"plan_ms\": %.3f, \"forward_ms\": %.3f, "
+           "\"adjoint_ms\": %.3f, \"forward_samples_per_s\": %.4g, \"adjoint_samples_per_s\": %.4g, "
+           "\"forward_error\": %.3g, \"adjoint_error\": %.3g, \"ndft_samples_per_s\": %.4g}\n",
+           ndim, n, m, tol, threads, coils, plan_ms, fwd, adj, (double)(m * coils) / (fwd * 1e-3),
+           (double)(m * coils) / (adj * 1e-3), efwd, eadj, ndft_rate);
+    free(ref);
+    kw_nufft_destroy(p);
+    free(traj);
+    kw_free(img);
+    kw_free(img2);
+    kw_free(ksp);
+    free(t);
+    return 0;
+}
+
+static int bench_normal(int ndim, size_t n, size_t m, int threads, int reps, size_t coils)
+{
+    size_t dims[3] = {n, n, n}, np = 1, np2 = 1;
+    int n2[3];
+    for (int i = 0; i < ndim; i++) {
+        np *= n;
+        np2 *= 2 * n;
+        n2[i] = (int)(2 * n);
+    }
+    float *traj = random_traj(ndim, n, m, 9);
+    float complex *sens = kw_alloc(coils * np * sizeof *sens), *x = kw_alloc(np * sizeof *x),
+                  *y = kw_alloc(np * sizeof *y), *buf = kw_alloc(np2 * sizeof *buf);
+    double *t = malloc(sizeof(double) * (size_t)reps);
+    if (!traj || !sens || !x || !y || !buf || !t)
+        return 1;
+    for (size_t i = 0; i < coils * np; i++)
+        sens[i] = 1.0f / sqrtf((float)coils);
+    for (size_t i = 0; i < np; i++)
+        x[i] = 1.0f;
+    kw_encoder_opts o = {1e-3, 0, threads, 1, 0};
+    kw_encoder *e;
+    if (kw_encoder_create(&e, ndim, dims, coils, sens, NULL, m, traj, NULL, &o)) {
+        fprintf(stderr, "kw_bench: %s\n", kw_last_error());
+        return 1;
+    }
+    kw_encoder_normal(e, x, y);
+    for (int r = 0; r < reps; r++) {
+        double t0 = now_ms();
+        kw_encoder_normal(e, x, y);
+        t[r] = now_ms() - t0;
+    }
+    double nt = median(t, reps);
+    fftwf_plan_with_nthreads(threads);
+    fftwf_plan pf = fftwf_plan_dft(ndim, n2, (fftwf_complex *)buf, (fftwf_complex *)buf,
+                                   FFTW_FORWARD, FFTW_MEASURE);
+    fftwf_plan pb = fftwf_plan_dft(ndim, n2, (fftwf_complex *)buf, (fftwf_complex *)buf,
+                                   FFTW_BACKWARD, FFTW_MEASURE);
+    for (int r = 0; r < reps; r++) {
+        memset(buf, 0, np2 * sizeof *buf);
+        double t0 = now_ms();
+        for (size_t c = 0; c < coils; c++) {
+            fftwf_execute(pf);
+            fftwf_execute(pb);
+        }
+        t[r] = now_ms() - t0;
+    }
+    double ft = median(t, reps);
+    printf("{\"case\": \"normal\", \"ndim\": %d, \"n\": %zu, \"samples\": %zu, \"threads\": %d, "
+           "\"coils\": %zu, \"normal_ms\": %.3f, \"fft_floor_ms\": %.3f}\n",
+           ndim, n, m, threads, coils, nt, ft);
+    fftwf_destroy_plan(pf);
+    fftwf_destroy_plan(pb);
+    kw_encoder_destroy(e);
+    free(traj);
+    kw_free(sens);
+    kw_free(x);
+    kw_free(y);
+    kw_free(buf);
+    free(t);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
+    if (argc == 9 && strcmp(argv[1], "nufft") == 0) {
+        kw_fft_setup(atoi(argv[6]));
+        return bench_nufft(atoi(argv[2]), (size_t)atol(argv[3]), (size_t)atol(argv[4]),
+                           atof(argv[5]), atoi(argv[6]), atoi(argv[7]), (size_t)atol(argv[8]));
+    }
+    if (argc == 8 && strcmp(argv[1], "normal") == 0) {
+        kw_fft_setup(atoi(argv[5]));
+        return bench_normal(atoi(argv[2]), (size_t)atol(argv[3]), (size_t)atol(argv[4]),
+                            atoi(argv[5]), atoi(argv[6]), (size_t)atol(argv[7]));
+    }
     if (argc >= 4 && strcmp(argv[1], "run") == 0) {
         int reps = atoi(argv[2]);
         if (reps < 1 || reps > 1000)

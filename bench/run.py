@@ -153,6 +153,20 @@ def main():
                 limit = 2.5 * inout + 30 * 2**20
                 results["memory"] = {"peak_rss_bytes": kw["peak_rss_bytes"], "input_plus_output_bytes": inout,
                                      "limit_bytes": limit, "ok": kw["peak_rss_bytes"] <= limit}
+        # NUFFT: 8 coils through one plan, uniformly random samples; the peer
+        # is kweave's exact NDFT (double) on the same samples.
+        def kwb(*a):
+            out = subprocess.run([os.path.join(build, "kw_bench"), *map(str, a)],
+                                 capture_output=True, text=True, check=True).stdout
+            return json.loads(out.strip().splitlines()[-1])
+        nreps = 5 if not args.quick else 2
+        results["nufft"] = []
+        for ndim, n, m in ((2, 256, 1000000), (3, 64, 1000000)):
+            for tol in (1e-3, 1e-6):
+                for th in (1, 2):
+                    r = kwb("nufft", ndim, n, m, tol, th, nreps, 8)
+                    results["nufft"].append(r)
+        results["normal"] = [kwb("normal", 2, 256, 200000, th, max(3, nreps), 8) for th in (1, 2)]
         # Sweep throughput: the same small spec with 1 and 2 local workers, and
         # with 1 and 2 MPI ranks when the MPI variant is built.
         spec = os.path.join(HERE, "sweep-bench.json")
@@ -187,6 +201,22 @@ def main():
     print(f"{'case':<{w}}  {'kweave':<30} {'peer':<22} {'peer time':<30} {'ratio':>6}  target")
     for name, k, pn, p, ratio, target in rows:
         print(f"{name:<{w}}  {k:<30} {pn:<22} {p:<30} {ratio:6.2f}  {target or ''}")
+    if results.get("nufft"):
+        print("\nNUFFT, 8 coils through one plan, uniformly random samples (samples/s per direction;"
+              " error = relative l2 against the exact NDFT; ratio = speed-up over kweave's exact NDFT)")
+        print(f"{'case':<34} {'thr':>3} {'plan':>9} {'forward/s':>10} {'adjoint/s':>10} {'err fwd':>9} {'err adj':>9} {'vs NDFT':>9}")
+        for r in results["nufft"]:
+            name = f"{r['ndim']}-D {r['n']}^{r['ndim']}, {r['samples']:.0e} samples, tol {r['tolerance']:g}"
+            print(f"{name:<34} {r['threads']:>3} {r['plan_ms']:>7.0f}ms {r['forward_samples_per_s']:>10.3g} "
+                  f"{r['adjoint_samples_per_s']:>10.3g} {r['forward_error']:>9.2g} {r['adjoint_error']:>9.2g} "
+                  f"{r['forward_samples_per_s'] / r['ndft_samples_per_s']:>8.0f}x")
+        print("targets: >= 1.5e7 samples/s per direction at 2-D tol 1e-3, one thread; 2 threads >= 1.7x one")
+    if results.get("normal"):
+        print("\nIteration cost (one E^H W E by Toeplitz embedding, 2-D 256^2, 2e5 samples, 8 coils)"
+              " against its floor (2 bare FFTW transforms per coil on the 512^2 grid); target <= 1.5x")
+        for r in results["normal"]:
+            print(f"  {r['threads']} thread(s): {r['normal_ms']:.2f} ms vs floor {r['fft_floor_ms']:.2f} ms:"
+                  f" {r['normal_ms'] / r['fft_floor_ms']:.2f}x")
     if "memory" in results:
         m = results["memory"]
         print(f"\npeak resident memory of `kweave recon` (32x256x256): {m['peak_rss_bytes'] / 2**20:.1f} MiB; "
