@@ -1165,6 +1165,53 @@ static int gen_cartesian(const gen_opts *g, kw_mask_kind kind, const size_t *mat
     return rc;
 }
 
+/* Write a trajectory, its sample times and start its sidecar (the keys
+ * every trajectory has). Returns the sidecar object to complete, or NULL
+ * with *rc set (an exit code) when a file could not be written, or NULL
+ * with *rc = -1 when no --out was given. *tp and *sp receive the times and
+ * sidecar file names (free them). */
+static cJSON *traj_write_begin(const gen_opts *g, const kw_array *k, const kw_array *t,
+                               const char *const *columns, int *rc, char **tp, char **sp)
+{
+    *rc = -1;
+    *tp = *sp = NULL;
+    if (!g->out)
+        return NULL;
+    *tp = g->times ? strdup(g->times) : times_path(g->out);
+    kw_status st = kw_npy_write(g->out, k);
+    if (!st && *tp)
+        st = kw_npy_write(*tp, t);
+    if (st) {
+        *rc = kw_cli_status(st, "out");
+        return NULL;
+    }
+    *sp = kw_sidecar_path(g->out);
+    if (!*sp)
+        return NULL;
+    cJSON *j = cJSON_CreateObject();
+    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+    cJSON_AddStringToObject(j, "kind", "trajectory");
+    cJSON_AddStringToObject(j, "layout", "noncartesian");
+    cJSON_AddStringToObject(j, "pattern_kind", g->kind);
+    double sh[2] = {(double)k->dims[0], (double)k->dims[1]};
+    kw_json_add_vec(j, "shape", sh, 2);
+    cJSON *cols = cJSON_AddArrayToObject(j, "columns");
+    for (size_t i = 0; i < k->dims[1]; i++)
+        cJSON_AddItemToArray(cols, cJSON_CreateString(columns[i]));
+    cJSON_AddStringToObject(j, "units", "cycles/FOV");
+    return j;
+}
+
+/* Finish and write the sidecar started by traj_write_begin(). */
+static int traj_write_end(cJSON *j, const char *sp, const char *tp)
+{
+    cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
+    cJSON_AddNullToObject(j, "seed");
+    kw_status st = kw_json_write(sp, j);
+    cJSON_Delete(j);
+    return st ? kw_cli_status(st, "sidecar") : -1;
+}
+
 static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int nmat)
 {
     kw_traj_opts o = {0};
@@ -1222,30 +1269,11 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
         kw_array_free(&t);
         return kw_cli_status(st, "trajectory");
     }
-    int rc = -1;
-    char *tp = NULL;
-    if (g->out) {
-        tp = g->times ? strdup(g->times) : times_path(g->out);
-        st = kw_npy_write(g->out, &k);
-        if (!st && tp)
-            st = kw_npy_write(tp, &t);
-        if (st)
-            rc = kw_cli_status(st, "out");
-    }
-    char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
-    if (rc < 0 && sp) {
-        cJSON *j = cJSON_CreateObject();
-        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-        cJSON_AddStringToObject(j, "kind", "trajectory");
-        cJSON_AddStringToObject(j, "layout", "noncartesian");
-        cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-        double sh[2] = {(double)ns, (double)nd};
-        kw_json_add_vec(j, "shape", sh, 2);
-        cJSON *cols = cJSON_AddArrayToObject(j, "columns");
-        const char *cn[3] = {"kx", "ky", "kz"};
-        for (int i = 0; i < nd; i++)
-            cJSON_AddItemToArray(cols, cJSON_CreateString(cn[i]));
-        cJSON_AddStringToObject(j, "units", "cycles/FOV");
+    int rc;
+    char *tp, *sp;
+    static const char *const cn[3] = {"kx", "ky", "kz"};
+    cJSON *j = traj_write_begin(g, &k, &t, cn, &rc, &tp, &sp);
+    if (j) {
         double mt[3] = {(double)nx, (double)nx, (double)o.nz};
         kw_json_add_vec(j, "matrix", mt, nd);
         add_num(j, "spokes", (double)o.spokes);
@@ -1266,12 +1294,7 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
         add_num(j, "dwell_per_pixel_s", o.dwell_s);
         add_num(j, "readout_duration_s", (double)o.n * o.dwell_s);
         add_num(j, "te_s", o.te_s);
-        cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
-        cJSON_AddNullToObject(j, "seed");
-        st = kw_json_write(sp, j);
-        cJSON_Delete(j);
-        if (st)
-            rc = kw_cli_status(st, "sidecar");
+        rc = traj_write_end(j, sp, tp);
     }
     free(sp);
     free(tp);
@@ -1429,29 +1452,11 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
         for (size_t i = 0; i < ns; i++)
             tv[i] = (float)((double)tv[i] + g->te - origin);
     }
-    int rc = -1;
-    char *tp = NULL;
-    if (g->out) {
-        tp = g->times ? strdup(g->times) : times_path(g->out);
-        st = kw_npy_write(g->out, &k);
-        if (!st && tp)
-            st = kw_npy_write(tp, &t);
-        if (st)
-            rc = kw_cli_status(st, "out");
-    }
-    char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
-    if (rc < 0 && sp) {
-        cJSON *j = cJSON_CreateObject();
-        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-        cJSON_AddStringToObject(j, "kind", "trajectory");
-        cJSON_AddStringToObject(j, "layout", "noncartesian");
-        cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-        double sh[2] = {(double)ns, 2};
-        kw_json_add_vec(j, "shape", sh, 2);
-        cJSON *cols = cJSON_AddArrayToObject(j, "columns");
-        cJSON_AddItemToArray(cols, cJSON_CreateString("kx"));
-        cJSON_AddItemToArray(cols, cJSON_CreateString("ky"));
-        cJSON_AddStringToObject(j, "units", "cycles/FOV");
+    int rc;
+    char *tp, *sp;
+    static const char *const cn[2] = {"kx", "ky"};
+    cJSON *j = traj_write_begin(g, &k, &t, cn, &rc, &tp, &sp);
+    if (j) {
         double mt[2] = {(double)nx, (double)ny};
         kw_json_add_vec(j, "matrix", mt, 2);
         double fv[2] = {fov, fov};
@@ -1482,11 +1487,7 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
         cJSON_AddStringToObject(j, "times_origin", g->seen_te ? "excitation"
                                                    : spiral ? "readout start"
                                                             : "start of each shot's train");
-        cJSON_AddNullToObject(j, "seed");
-        st = kw_json_write(sp, j);
-        cJSON_Delete(j);
-        if (st)
-            rc = kw_cli_status(st, "sidecar");
+        rc = traj_write_end(j, sp, tp);
     }
     free(sp);
     free(tp);

@@ -389,15 +389,7 @@ int kw_cmd_recon(int argc, char **argv)
         if (st)
             FAIL(kw_cli_status(st, "ref"));
         cJSON *s = cJSON_AddObjectToObject(job.report, "scores");
-        cJSON_AddNumberToObject(s, "nrmse", sc.nrmse);
-        if (isfinite(sc.psnr_db))
-            cJSON_AddNumberToObject(s, "psnr_db", sc.psnr_db);
-        else
-            cJSON_AddNullToObject(s, "psnr_db");
-        if (isfinite(sc.ssim))
-            cJSON_AddNumberToObject(s, "ssim", sc.ssim);
-        else
-            cJSON_AddNullToObject(s, "ssim");
+        kw_json_add_scores(s, sc.nrmse, sc.psnr_db, sc.ssim);
         cJSON_AddStringToObject(s, "ref", o.ref);
         if ((!o.out || strcmp(o.out, "-")) && (!o.json || strcmp(o.json, "-")))
             printf("%s: nrmse %.4f  psnr %.2f dB  ssim %.4f\n", mname, sc.nrmse, sc.psnr_db, sc.ssim);

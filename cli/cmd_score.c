@@ -84,15 +84,7 @@ int kw_cmd_score(int argc, char **argv)
         }
     }
     root = cJSON_CreateObject();
-    cJSON_AddNumberToObject(root, "nrmse", s.nrmse);
-    if (isfinite(s.psnr_db))
-        cJSON_AddNumberToObject(root, "psnr_db", s.psnr_db);
-    else
-        cJSON_AddNullToObject(root, "psnr_db");
-    if (isfinite(s.ssim))
-        cJSON_AddNumberToObject(root, "ssim", s.ssim);
-    else
-        cJSON_AddNullToObject(root, "ssim");
+    kw_json_add_scores(root, s.nrmse, s.psnr_db, s.ssim);
     cJSON_AddStringToObject(root, "ref", refp);
     cJSON_AddStringToObject(root, "test", testp);
     if (json && (st = kw_json_write(json, root))) {

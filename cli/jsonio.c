@@ -121,6 +121,18 @@ cJSON *kw_json_add_vec(cJSON *obj, const char *key, const double *v, int n)
     return a;
 }
 
+cJSON *kw_json_add_number_or_null(cJSON *obj, const char *key, double v)
+{
+    return isfinite(v) ? cJSON_AddNumberToObject(obj, key, v) : cJSON_AddNullToObject(obj, key);
+}
+
+void kw_json_add_scores(cJSON *obj, double nrmse, double psnr_db, double ssim)
+{
+    kw_json_add_number_or_null(obj, "nrmse", nrmse);
+    kw_json_add_number_or_null(obj, "psnr_db", psnr_db);
+    kw_json_add_number_or_null(obj, "ssim", ssim);
+}
+
 kw_status kw_json_get_number(const cJSON *obj, const char *key, double *v)
 {
     const cJSON *it = cJSON_GetObjectItemCaseSensitive(obj, key);

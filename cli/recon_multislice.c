@@ -403,15 +403,7 @@ int kw_recon_multislice(const kw_recon_opts *o, const cJSON *sidecar, const char
         if ((st = kw_metrics_compute(&r4, &t, &sc)))
             FAIL(kw_cli_status(st, "ref"));
         cJSON *j = cJSON_AddObjectToObject(report, "scores");
-        cJSON_AddNumberToObject(j, "nrmse", sc.nrmse);
-        if (isfinite(sc.psnr_db))
-            cJSON_AddNumberToObject(j, "psnr_db", sc.psnr_db);
-        else
-            cJSON_AddNullToObject(j, "psnr_db");
-        if (isfinite(sc.ssim))
-            cJSON_AddNumberToObject(j, "ssim", sc.ssim);
-        else
-            cJSON_AddNullToObject(j, "ssim");
+        kw_json_add_scores(j, sc.nrmse, sc.psnr_db, sc.ssim);
         cJSON_AddStringToObject(j, "ref", o->ref);
         cJSON_AddStringToObject(j, "scored_as", "2-D slices");
         if ((!o->out || strcmp(o->out, "-")) && (!o->json || strcmp(o->json, "-")))

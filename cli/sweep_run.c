@@ -94,14 +94,6 @@ static void first_error(const char *log, long from, char *why, size_t n)
     fclose(f);
 }
 
-static void add_num_or_null(cJSON *o, const char *k, double v)
-{
-    if (isfinite(v))
-        cJSON_AddNumberToObject(o, k, v);
-    else
-        cJSON_AddNullToObject(o, k);
-}
-
 /* The row's parameters (everything but the scores and the run facts). */
 static cJSON *row_json(const kw_sweep *sw, int r)
 {
@@ -114,20 +106,20 @@ static cJSON *row_json(const kw_sweep *sw, int r)
     cJSON_AddNumberToObject(o, "matrix", g->matrix);
     cJSON_AddNumberToObject(o, "fov_mm", g->fov_mm);
     cJSON_AddNumberToObject(o, "coils", g->coils);
-    add_num_or_null(o, "snr", g->snr);
+    kw_json_add_number_or_null(o, "snr", g->snr);
     cJSON_AddStringToObject(o, "pattern", g->pat.kind);
     if (g->pat.acs >= 0)
         cJSON_AddNumberToObject(o, "acs", g->pat.acs);
     else
         cJSON_AddNullToObject(o, "acs");
-    add_num_or_null(o, "power", g->pat.power);
-    add_num_or_null(o, "fraction", g->pat.fraction);
+    kw_json_add_number_or_null(o, "power", g->pat.power);
+    kw_json_add_number_or_null(o, "fraction", g->pat.fraction);
     cJSON_AddNumberToObject(o, "acceleration", g->accel);
     cJSON_AddNumberToObject(o, "seed", (double)g->seed);
     cJSON_AddNumberToObject(o, "pattern_seed", (double)kw_sweep_pattern_seed(g));
     cJSON_AddNumberToObject(o, "noise_seed", (double)kw_sweep_noise_seed(g));
     cJSON_AddStringToObject(o, "method", R->m.name);
-    add_num_or_null(o, "lambda", R->m.lambda);
+    kw_json_add_number_or_null(o, "lambda", R->m.lambda);
     if (R->m.iterations > 0)
         cJSON_AddNumberToObject(o, "iterations", (double)R->m.iterations);
     else
@@ -310,7 +302,7 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
             continue;
         const kw_sweep_row *R = &sw->rows[r];
         cJSON *o = row_json(sw, r);
-        add_num_or_null(o, "acceleration_effective", r_eff);
+        kw_json_add_number_or_null(o, "acceleration_effective", r_eff);
         double t1 = now_s();
         char rwhy[400];
         snprintf(rwhy, sizeof rwhy, "%s", why);
@@ -366,9 +358,7 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
         }
         double t_row = t_data + (now_s() - t1);
         cJSON_AddStringToObject(o, "status", rwhy[0] ? rwhy : "ok");
-        add_num_or_null(o, "nrmse", sc.nrmse);
-        add_num_or_null(o, "psnr_db", sc.psnr_db);
-        add_num_or_null(o, "ssim", sc.ssim);
+        kw_json_add_scores(o, sc.nrmse, sc.psnr_db, sc.ssim);
         cJSON_AddNumberToObject(o, "run_time_s", round(t_row * 1000) / 1000);
         cJSON_AddStringToObject(o, "host", c->host);
         char *txt = cJSON_PrintUnformatted(o);

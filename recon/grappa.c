@@ -191,19 +191,8 @@ kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp)
             }
         }
         for (size_t c = 0; c < nc; c++) {
-            double complex *x = g->ahb + c * n;
-            for (size_t i = 0; i < n; i++) {
-                double complex s = x[i];
-                for (size_t k = 0; k < i; k++)
-                    s -= L[i * n + k] * x[k];
-                x[i] = s / creal(L[i * n + i]);
-            }
-            for (size_t i = n; i-- > 0;) {
-                double complex s = x[i];
-                for (size_t k = i + 1; k < n; k++)
-                    s -= conj(L[k * n + i]) * x[k];
-                x[i] = s / creal(L[i * n + i]);
-            }
+            const double complex *x = g->ahb + c * n;
+            kw_chol_solve(L, n, g->ahb + c * n);
             for (size_t i = 0; i < n; i++)
                 g->w[((size_t)t * nc + c) * n + i] = (float complex)x[i];
         }
