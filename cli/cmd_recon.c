@@ -125,6 +125,7 @@ int kw_cmd_recon(int argc, char **argv)
         {"gfactor", KW_OPT_STRING, &o.gfactor, 0, NULL, "g-factor map .png or .npy"},
         {"trajectory", KW_OPT_STRING, &o.trajectory, 0, NULL, "non-Cartesian trajectory .npy (samples, ndim), cycles/FOV"},
         {"dcf", KW_OPT_STRING, &o.dcf, 0, NULL, "density compensation: FILE.npy, radial or pipe"},
+        {"dcf-out", KW_OPT_STRING, &o.dcf_out, 0, NULL, "write the density weights used (.npy, one per sample)"},
         {"tolerance", KW_OPT_DOUBLE, &o.tolerance, 0, NULL, "NUFFT accuracy"},
         {"oversampling", KW_OPT_DOUBLE, &o.oversampling, 0, NULL, "NUFFT grid oversampling"},
         {"iterations", KW_OPT_INT, &o.iterations, 0, NULL, "iterations of iterative methods"},
@@ -235,6 +236,10 @@ int kw_cmd_recon(int argc, char **argv)
     if ((rc = read_named(o.trajectory, sidecar, scpath, "trajectory", "trajectory", &job.traj)) >= 0)
         FAIL(rc);
     int noncart = job.traj.data != NULL;
+    if (o.dcf_out && !noncart)
+        FAIL(kw_cli_fail("dcf-out", "density weights exist only for non-Cartesian data (a trajectory)"));
+    if (o.dcf_out && !ends_with(o.dcf_out, ".npy"))
+        FAIL(kw_cli_fail("dcf-out", "'%s': give a .npy file name", o.dcf_out));
     if (!noncart && lay && cJSON_IsString(lay) && strcmp(lay->valuestring, "noncartesian") == 0)
         FAIL(kw_cli_fail("trajectory", "the sidecar says non-Cartesian but names no trajectory (give --trajectory)"));
     if (noncart) {

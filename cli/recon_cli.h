@@ -16,6 +16,7 @@
 typedef struct kw_recon_opts {
     const char *in, *out, *method, *combine;
     const char *sens, *noise_cov, *trajectory, *dcf, *ref, *gfactor, *json;
+    const char *dcf_out;  /* write the density weights used (.npy), or NULL */
     const char *kernel;   /* "KYxKX" as given; parsed into kernel[] */
     int kernel_yx[2];     /* 0 when not given: the method's default */
     double lambda;        /* NaN when not given */

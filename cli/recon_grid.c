@@ -149,6 +149,16 @@ kw_status kw_nc_weights(kw_recon_job *job, int ndim, const size_t *dims, int dfl
         return st;
     }
     cJSON_AddStringToObject(job->report, "dcf", kind);
+    if (job->opt->dcf_out) {
+        kw_array a = {.dtype = KW_F32, .ndim = 1, .dims = {ns}, .data = *w};
+        st = kw_npy_write(job->opt->dcf_out, &a);
+        if (st) {
+            free(*w);
+            *w = NULL;
+            return kw_set_error(st, "dcf-out: %s", kw_last_error());
+        }
+        cJSON_AddStringToObject(job->report, "dcf_file", job->opt->dcf_out);
+    }
     return KW_OK;
 }
 
