@@ -33,7 +33,7 @@ static cairo_status_t png_sink(void *closure, const unsigned char *data, unsigne
     return fwrite(data, 1, len, fp) == len ? CAIRO_STATUS_SUCCESS : CAIRO_STATUS_WRITE_ERROR;
 }
 
-static kw_status write_surface(cairo_surface_t *s, const char *path)
+kw_status kw_plot_write_png(cairo_surface_t *s, const char *path)
 {
     cairo_surface_flush(s);
     KW_FAIL_IF(cairo_surface_status(s) != CAIRO_STATUS_SUCCESS, KW_EINTERNAL, "%s: cairo: %s",
@@ -326,7 +326,7 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
 
     free(sgx), free(sgy);
     cairo_destroy(cr);
-    kw_status st = write_surface(s, path);
+    kw_status st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
     release_font_caches();
     return st;
@@ -518,7 +518,7 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
     }
     cairo_destroy(cr);
     if (!st)
-        st = write_surface(s, path);
+        st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
     release_font_caches();
     return st;

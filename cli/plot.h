@@ -5,7 +5,13 @@
 #ifndef KW_PLOT_H
 #define KW_PLOT_H
 
+#include <cairo.h>
+
 #include "kw_sequence.h"
+
+/*! kw_plot_write_png(): flush a cairo image surface and write it as a PNG,
+ * atomically (kw_outfile). */
+kw_status kw_plot_write_png(cairo_surface_t *s, const char *path);
 
 /*! kw_plot_timing(): the timing diagram of `r` into the PNG `path`. */
 kw_status kw_plot_timing(const char *path, const kw_plan_report *r);

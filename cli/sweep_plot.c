@@ -13,34 +13,13 @@
 
 #include <cJSON.h>
 
+#include "plot.h"
 #include "outfile.h"
 #include "sweep.h"
 
 #define MAXP 32
 #define MAXS 16
 #define MAXA 33
-
-static cairo_status_t sink(void *closure, const unsigned char *data, unsigned int len)
-{
-    return fwrite(data, 1, len, (FILE *)closure) == len ? CAIRO_STATUS_SUCCESS
-                                                        : CAIRO_STATUS_WRITE_ERROR;
-}
-
-static kw_status save(cairo_surface_t *s, const char *path)
-{
-    cairo_surface_flush(s);
-    KW_FAIL_IF(cairo_surface_status(s) != CAIRO_STATUS_SUCCESS, KW_EINTERNAL, "%s: cairo: %s",
-               path, cairo_status_to_string(cairo_surface_status(s)));
-    kw_outfile o;
-    kw_status st = kw_outfile_open(&o, path);
-    if (st)
-        return st;
-    if (cairo_surface_write_to_png_stream(s, sink, o.fp) != CAIRO_STATUS_SUCCESS) {
-        kw_outfile_abort(&o);
-        return kw_set_error(KW_EIO, "%s: cannot write the picture", path);
-    }
-    return kw_outfile_commit(&o);
-}
 
 static void text(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
 {
@@ -295,7 +274,7 @@ static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric
         lx += 28 + e.x_advance + 26;
     }
     cairo_destroy(cr);
-    kw_status st2 = save(s, path);
+    kw_status st2 = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
     return st2;
 }

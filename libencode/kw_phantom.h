@@ -142,6 +142,13 @@ kw_status kw_phantom_section(const kw_phantom *p3, double z, kw_phantom *p2);
  * weights w on [-1, 1] (n <= 64). */
 kw_status kw_gauss_legendre(int n, double *x, double *w);
 
+/*! The radial kernels of the shape transforms, safe at 0 (series near 0):
+ * kw_ft_jinc(z) = J1(z)/z (limit 1/2), kw_ft_sjinc(z) = j1(z)/z =
+ * (sin z - z cos z)/z^3 (limit 1/3), kw_ft_sinc(t) = sin(pi t)/(pi t). */
+double kw_ft_jinc(double z);
+double kw_ft_sjinc(double z);
+double kw_ft_sinc(double t);
+
 #ifdef __cplusplus
 }
 #endif

@@ -13,7 +13,7 @@
 
 /* J1(z)/z for the ellipse (limit 1/2 at z = 0; series J1(z)/z = 1/2 - z^2/16
  * + z^4/384 below 1e-4 where j1()'s quotient would lose digits). */
-static double j1_over(double z)
+double kw_ft_jinc(double z)
 {
     if (z < 1e-4)
         return 0.5 - z * z / 16.0 + z * z * z * z / 384.0;
@@ -23,7 +23,7 @@ static double j1_over(double z)
 /* Spherical Bessel j1(z)/z = (sin z - z cos z)/z^3 (limit 1/3). Below 0.1
  * the difference cancels, so use its series sum_n (-1)^n (2n+2) z^2n/(2n+3)!
  * (from the series of sin and cos), five terms: error < 1e-21. */
-static double sj1_over(double z)
+double kw_ft_sjinc(double z)
 {
     if (z < 0.1) {
         double z2 = z * z;
@@ -33,8 +33,8 @@ static double sj1_over(double z)
     return (sin(z) - z * cos(z)) / (z * z * z);
 }
 
-/* sinc(t) = sin(pi t)/(pi t). */
-static double sinc(double t)
+/* kw_ft_sinc(t) = sin(pi t)/(pi t). */
+double kw_ft_sinc(double t)
 {
     double x = KW_PI * t;
     if (fabs(x) < 1e-4)
@@ -56,22 +56,22 @@ double complex kw_shape_ft(const kw_shape *s, double fx, double fy, double fz)
         /* unit disk: J1(2 pi |f|)/|f|; scaled: a b J1(2 pi q)/q
          *          = 2 pi a b J1(z)/z with z = 2 pi q */
         double q = hypot(a * fu, b * fv);
-        mag = 2.0 * KW_PI * a * b * j1_over(2.0 * KW_PI * q);
+        mag = 2.0 * KW_PI * a * b * kw_ft_jinc(2.0 * KW_PI * q);
         break;
     }
     case KW_SHAPE_RECT:
-        mag = 4.0 * a * b * sinc(2.0 * a * fu) * sinc(2.0 * b * fv);
+        mag = 4.0 * a * b * kw_ft_sinc(2.0 * a * fu) * kw_ft_sinc(2.0 * b * fv);
         break;
     case KW_SHAPE_ELLIPSOID: {
         /* unit ball: 4 pi j1(k)/k with k = 2 pi |f|; scaled by a b c */
         double q = sqrt(a * fu * a * fu + b * fv * b * fv + cz * fz * cz * fz);
-        mag = 4.0 * KW_PI * a * b * cz * sj1_over(2.0 * KW_PI * q);
+        mag = 4.0 * KW_PI * a * b * cz * kw_ft_sjinc(2.0 * KW_PI * q);
         ph += fz * s->center[2];
         break;
     }
     case KW_SHAPE_BOX:
-        mag = 8.0 * a * b * cz * sinc(2.0 * a * fu) * sinc(2.0 * b * fv) *
-              sinc(2.0 * cz * fz);
+        mag = 8.0 * a * b * cz * kw_ft_sinc(2.0 * a * fu) * kw_ft_sinc(2.0 * b * fv) *
+              kw_ft_sinc(2.0 * cz * fz);
         ph += fz * s->center[2];
         break;
     default:

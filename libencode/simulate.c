@@ -32,31 +32,6 @@ struct kw_sim {
     double complex *shift_phase; /* nshapes x terms: exp(+i 2 pi delta.c) */
 };
 
-static double j1_over_f(double z)
-{
-    if (z < 1e-4)
-        return 0.5 - z * z / 16.0 + z * z * z * z / 384.0;
-    return j1(z) / z;
-}
-
-static double sj1_over_f(double z)
-{
-    if (z < 0.1) {
-        double z2 = z * z;
-        return 1.0 / 3.0 - z2 / 30.0 + z2 * z2 / 840.0 - z2 * z2 * z2 / 45360.0 +
-               z2 * z2 * z2 * z2 / 3991680.0;
-    }
-    return (sin(z) - z * cos(z)) / (z * z * z);
-}
-
-static double sinc_f(double t)
-{
-    double x = KW_PI * t;
-    if (fabs(x) < 1e-4)
-        return 1.0 - x * x / 6.0;
-    return sin(x) / x;
-}
-
 /* Real amplitude of shape i's spectrum at phantom frequency (fx, fy, fz)
  * (the same formulas as kw_shape_ft(), without the centre's phase). */
 static double fast_mag(const struct fast_shape *f, double fx, double fy, double fz)
@@ -65,16 +40,16 @@ static double fast_mag(const struct fast_shape *f, double fx, double fy, double 
     double fv = -fx * f->sa + fy * f->ca;
     switch (f->kind) {
     case KW_SHAPE_ELLIPSE:
-        return 2.0 * KW_PI * f->a * f->b * j1_over_f(2.0 * KW_PI * hypot(f->a * fu, f->b * fv));
+        return 2.0 * KW_PI * f->a * f->b * kw_ft_jinc(2.0 * KW_PI * hypot(f->a * fu, f->b * fv));
     case KW_SHAPE_RECT:
-        return 4.0 * f->a * f->b * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv);
+        return 4.0 * f->a * f->b * kw_ft_sinc(2.0 * f->a * fu) * kw_ft_sinc(2.0 * f->b * fv);
     case KW_SHAPE_ELLIPSOID: {
         double q = sqrt(f->a * fu * f->a * fu + f->b * fv * f->b * fv + f->c * fz * f->c * fz);
-        return 4.0 * KW_PI * f->a * f->b * f->c * sj1_over_f(2.0 * KW_PI * q);
+        return 4.0 * KW_PI * f->a * f->b * f->c * kw_ft_sjinc(2.0 * KW_PI * q);
     }
     case KW_SHAPE_BOX:
-        return 8.0 * f->a * f->b * f->c * sinc_f(2.0 * f->a * fu) * sinc_f(2.0 * f->b * fv) *
-               sinc_f(2.0 * f->c * fz);
+        return 8.0 * f->a * f->b * f->c * kw_ft_sinc(2.0 * f->a * fu) * kw_ft_sinc(2.0 * f->b * fv) *
+               kw_ft_sinc(2.0 * f->c * fz);
     }
     return 0.0;
 }
