@@ -1165,6 +1165,18 @@ static int gen_cartesian(const gen_opts *g, kw_mask_kind kind, const size_t *mat
     return rc;
 }
 
+/* Analyse a trajectory just made (named after --out or the kind), on a PSF
+ * grid of --psf-size or min(N, 128). */
+static kw_status analyse_generated(const gen_opts *g, const kw_array *k, const traj_info *ti,
+                                   analysis *a)
+{
+    memset(a, 0, sizeof *a);
+    snprintf(a->name, sizeof a->name, "%s", g->out ? base_name(g->out) : g->kind);
+    snprintf(a->kind, sizeof a->kind, "%s", g->kind);
+    size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (ti->n < 128 ? ti->n : 128);
+    return analyse_traj(a, k, ti, m);
+}
+
 /* Write a trajectory, its sample times and start its sidecar (the keys
  * every trajectory has). Returns the sidecar object to complete, or NULL
  * with *rc set (an exit code) when a file could not be written, or NULL
@@ -1300,14 +1312,10 @@ static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int
     free(tp);
     if (rc < 0) {
         analysis a;
-        memset(&a, 0, sizeof a);
-        snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
-        snprintf(a.kind, sizeof a.kind, "%s", g->kind);
         traj_info ti = {.n = nx, .nz = o.nz, .readout = (size_t)o.oversampling * nx,
                         .spokes = o.spokes, .ndim = nd, .radial = 1, .weights = W_RADIAL,
                         .oversampling = o.oversampling};
-        size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
-        st = analyse_traj(&a, &k, &ti, m);
+        st = analyse_generated(g, &k, &ti, &a);
         if (st)
             rc = kw_cli_status(st, "analyse");
         else {
@@ -1493,13 +1501,9 @@ static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nm
     free(tp);
     if (rc < 0) {
         analysis a;
-        memset(&a, 0, sizeof a);
-        snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
-        snprintf(a.kind, sizeof a.kind, "%s", g->kind);
         traj_info ti = {.n = nx, .nz = 1, .readout = readout, .spokes = readouts, .ndim = 2,
                         .radial = 0, .weights = spiral ? W_PIPE : W_NONE};
-        size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (nx < 128 ? nx : 128);
-        st = analyse_traj(&a, &k, &ti, m);
+        st = analyse_generated(g, &k, &ti, &a);
         if (st)
             rc = kw_cli_status(st, "analyse");
         else {

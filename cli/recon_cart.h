@@ -33,6 +33,11 @@ void kw_cart_cov_normalise(float complex *cov, size_t nc);
  * sampling (checked against the sidecar's "acceleration"/"acs_lines"). */
 kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c);
 
+/*! kw_cart_require_lattice(): KW_EINVAL unless the data are a uniform
+ * lattice (plus an optional calibration block), KW_ENOTSUP when partial
+ * Fourier is combined with it; `method` names the method in the reason. */
+kw_status kw_cart_require_lattice(const kw_cart *c, const char *method);
+
 /*! kw_cart_need_sens(): make sure c->sens exists: the given maps, or maps
  * estimated from the autocalibration block (Walsh eigenvector method). */
 kw_status kw_cart_need_sens(kw_recon_job *job, kw_cart *c);

@@ -169,6 +169,16 @@ kw_status kw_cart_setup(kw_recon_job *job, kw_cart *c)
     return KW_OK;
 }
 
+kw_status kw_cart_require_lattice(const kw_cart *c, const char *method)
+{
+    KW_FAIL_IF(!c->smp.uniform, KW_EINVAL,
+               "acceleration: %s needs uniform undersampling (a regular lattice of lines "
+               "plus an optional calibration block); these samples are irregular", method);
+    KW_FAIL_IF(c->smp.partial[0] || c->smp.partial[1] || c->smp.partial[2], KW_ENOTSUP,
+               "acceleration: partial Fourier combined with %s is not supported", method);
+    return KW_OK;
+}
+
 kw_status kw_cart_need_sens(kw_recon_job *job, kw_cart *c)
 {
     if (c->sens)

@@ -14,16 +14,8 @@
 #include "kw_solvers.h"
 #include "recon_cart.h"
 #include "recon_cli.h"
+#include "recon_nc.h"
 
-/* recon_grid.c */
-kw_status kw_nc_geometry(kw_recon_job *job, int *ndim, size_t dims[3]);
-void kw_nc_nufft_opts(const kw_recon_job *job, kw_nufft_opts *no);
-kw_status kw_nc_weights(kw_recon_job *job, int ndim, const size_t *dims, int dflt,
-                        float **w);
-kw_status kw_nc_sens(kw_recon_job *job, int ndim, const size_t *dims, const float *w,
-                     float complex **sens);
-kw_status kw_nc_image(kw_recon_job *job, int ndim, const size_t *dims,
-                      const float complex *x);
 kw_status kw_nc_iterative(kw_recon_job *job, int kind);
 
 enum { K_CG = 0, K_FISTA_WAV, K_FISTA_TV, K_ADMM_WAV, K_ADMM_TV };

@@ -20,11 +20,8 @@ kw_status kw_recon_run_grappa(kw_recon_job *job)
     kw_status st = kw_cart_setup(job, &c);
     if (st)
         goto out;
-    KW_FAIL_GOTO(!c.smp.uniform, st, KW_EINVAL, out,
-                 "acceleration: GRAPPA needs uniform undersampling (a regular lattice of lines "
-                 "plus a calibration block); these samples are irregular");
-    KW_FAIL_GOTO(c.smp.partial[0] || c.smp.partial[1] || c.smp.partial[2], st, KW_ENOTSUP, out,
-                 "acceleration: partial Fourier combined with GRAPPA is not supported");
+    if ((st = kw_cart_require_lattice(&c, "GRAPPA")))
+        goto out;
     kw_grappa_opts o = {0};
     int ky = job->opt->kernel_yx[0] ? job->opt->kernel_yx[0] : 2;
     int kx = job->opt->kernel_yx[1] ? job->opt->kernel_yx[1] : 5;

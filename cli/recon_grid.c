@@ -14,16 +14,8 @@
 #include "kw_nufft.h"
 #include "npy.h"
 #include "recon_cli.h"
+#include "recon_nc.h"
 
-/* shared with recon_cs.c */
-kw_status kw_nc_geometry(kw_recon_job *job, int *ndim, size_t dims[3]);
-void kw_nc_nufft_opts(const kw_recon_job *job, kw_nufft_opts *no);
-kw_status kw_nc_weights(kw_recon_job *job, int ndim, const size_t *dims, int dflt,
-                        float **w);
-kw_status kw_nc_sens(kw_recon_job *job, int ndim, const size_t *dims, const float *w,
-                     float complex **sens);
-kw_status kw_nc_image(kw_recon_job *job, int ndim, const size_t *dims,
-                      const float complex *x);
 
 void kw_nc_nufft_opts(const kw_recon_job *job, kw_nufft_opts *no)
 {

@@ -16,11 +16,8 @@ kw_status kw_recon_run_sense(kw_recon_job *job)
     kw_status st = kw_cart_setup(job, &c);
     if (st)
         goto out;
-    KW_FAIL_GOTO(!c.smp.uniform, st, KW_EINVAL, out,
-                 "acceleration: SENSE needs uniform undersampling (a regular lattice of lines "
-                 "plus an optional calibration block); these samples are irregular");
-    KW_FAIL_GOTO(c.smp.partial[0] || c.smp.partial[1] || c.smp.partial[2], st, KW_ENOTSUP, out,
-                 "acceleration: partial Fourier combined with SENSE is not supported");
+    if ((st = kw_cart_require_lattice(&c, "SENSE")))
+        goto out;
     if ((st = kw_cart_need_sens(job, &c)))
         goto out;
     double lambda = isnan(job->opt->lambda) ? 0.0 : job->opt->lambda;
