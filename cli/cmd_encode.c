@@ -11,6 +11,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "kw_linalg.h"
 #include "jsonio.h"
 #include "kw_coils.h"
 #include "kw_phantom.h"
@@ -141,26 +142,16 @@ static char *derived_path(const char *out, const char *suffix)
     return p;
 }
 
-/* Lower Cholesky factor of the Hermitian matrix a (n x n); 0 when positive
- * definite. */
+/* Lower Cholesky factor of the Hermitian matrix a (n x n) into l, upper
+ * triangle zeroed (kw_chol); nonzero when not positive definite. */
 static int chol_c(const double complex *a, int n, double complex *l)
 {
-    memset(l, 0, (size_t)n * n * sizeof *l);
-    for (int j = 0; j < n; j++) {
-        double d = creal(a[j * n + j]);
-        for (int k = 0; k < j; k++)
-            d -= creal(l[j * n + k] * conj(l[j * n + k]));
-        if (!(d > 0))
-            return -1;
-        d = sqrt(d);
-        l[j * n + j] = d;
-        for (int i = j + 1; i < n; i++) {
-            double complex s = a[i * n + j];
-            for (int k = 0; k < j; k++)
-                s -= l[i * n + k] * conj(l[j * n + k]);
-            l[i * n + j] = s / d;
-        }
-    }
+    memcpy(l, a, (size_t)n * n * sizeof *l);
+    if (kw_chol(l, (size_t)n) != KW_OK)
+        return -1;
+    for (int i = 0; i < n; i++)
+        for (int j = i + 1; j < n; j++)
+            l[i * n + j] = 0;
     return 0;
 }
 

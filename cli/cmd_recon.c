@@ -298,10 +298,7 @@ int kw_cmd_recon(int argc, char **argv)
                          job.ksp.dims[0], job.ksp.dims[0]));
 
     const char *mname = o.method ? o.method : noncart ? "grid" : "fft";
-    const kw_recon_method *m = NULL;
-    for (const kw_recon_method *t = kw_recon_methods; t->name; t++)
-        if (strcmp(t->name, mname) == 0)
-            m = t;
+    const kw_recon_method *m = kw_recon_method_find(mname);
     if (!m)
         FAIL(kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", mname));
     if (noncart && !m->noncartesian)

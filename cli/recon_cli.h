@@ -69,6 +69,9 @@ kw_status kw_recon_run_cs_tv(kw_recon_job *job);       /* recon_cs.c (FISTA) */
 kw_status kw_recon_run_cs_wavelet_admm(kw_recon_job *job); /* recon_cs.c */
 kw_status kw_recon_run_cs_tv_admm(kw_recon_job *job);  /* recon_cs.c */
 
+/*! kw_recon_method_find(): the table entry named `name`, or NULL. */
+const kw_recon_method *kw_recon_method_find(const char *name);
+
 /* Terminated by an entry with name == NULL. */
 extern const kw_recon_method kw_recon_methods[];
 

@@ -1,4 +1,6 @@
 /* recon_methods.c: the methods `kweave recon --method` offers. */
+#include <string.h>
+
 #include "recon_cli.h"
 
 const kw_recon_method kw_recon_methods[] = {
@@ -18,3 +20,11 @@ const kw_recon_method kw_recon_methods[] = {
     {"cs-tv-admm", 1, 1, kw_recon_run_cs_tv_admm, "as cs-tv, solved by ADMM"},
     {NULL, 0, 0, NULL, NULL},
 };
+
+const kw_recon_method *kw_recon_method_find(const char *name)
+{
+    for (const kw_recon_method *t = kw_recon_methods; t->name; t++)
+        if (strcmp(t->name, name) == 0)
+            return t;
+    return NULL;
+}

@@ -154,10 +154,7 @@ int kw_recon_multislice(const kw_recon_opts *o, const cJSON *sidecar, const char
         FAIL(kw_cli_fail("out", "'%s': multi-slice images are written as .npy (slices, ny, nx)", o->out));
 
     const char *mname = o->method ? o->method : "fft";
-    const kw_recon_method *m = NULL;
-    for (const kw_recon_method *t = kw_recon_methods; t->name; t++)
-        if (strcmp(t->name, mname) == 0)
-            m = t;
+    const kw_recon_method *m = kw_recon_method_find(mname);
     if (!m)
         FAIL(kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", mname));
     if (!m->cartesian)

@@ -125,14 +125,6 @@ static int check_keys(const cJSON *obj, const char *const *allowed, const char *
     return 0;
 }
 
-static const kw_recon_method *find_method(const char *name)
-{
-    for (const kw_recon_method *m = kw_recon_methods; m->name; m++)
-        if (strcmp(m->name, name) == 0)
-            return m;
-    return NULL;
-}
-
 static const char *const kinds[] = {"full", "uniform", "random", "poisson", "partial",
                                     "radial", "golden", NULL};
 
@@ -347,7 +339,7 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
             name = cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(e, "name"));
         }
         snprintf(f, sizeof f, "spec.methods[%d].name", i);
-        const kw_recon_method *rm = name ? find_method(name) : NULL;
+        const kw_recon_method *rm = name ? kw_recon_method_find(name) : NULL;
         if (!rm) {
             rc = kw_cli_fail(f, "unknown method '%s' (kweave recon --help lists them)",
                              name ? name : "(not a string)");
