@@ -115,7 +115,8 @@ kw_status kw_nc_weights(kw_recon_job *job, int ndim, const size_t *dims, int dfl
         kw_array a = {0};
         st = kw_npy_read(kind, &a);
         if (st)
-            return kw_set_error(st, "dcf: %s", kw_last_error());
+            return kw_set_error(st, "dcf: expected radial, pipe or a weights .npy file; %s",
+                                kw_last_error());
         size_t n = kw_array_count(&a);
         if (a.dtype != KW_F32 || n != ns) {
             kw_array_free(&a);

@@ -33,10 +33,14 @@ void kw_clear_error(void) { last_error[0] = '\0'; }
 
 kw_status kw_set_error(kw_status s, const char *fmt, ...)
 {
+    /* format into a scratch buffer first: callers may pass kw_last_error()
+     * itself as an argument (wrapping a lower layer's message) */
+    char buf[sizeof last_error];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(last_error, sizeof last_error, fmt, ap);
+    vsnprintf(buf, sizeof buf, fmt, ap);
     va_end(ap);
+    memcpy(last_error, buf, sizeof last_error);
     return s;
 }
 

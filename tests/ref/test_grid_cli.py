@@ -218,3 +218,11 @@ def test_bad_dcf_length(data, tmp_path):
 def test_bad_lambda(data, tmp_path):
     bad("recon", "--in", data / "r2.npy", "--trajectory", data / "r2_traj.npy", "--method",
         "cs-tv", "--lambda", "-1", "--out", tmp_path / "o.npy", field="lambda")
+
+
+def test_bad_dcf_kind(data, tmp_path):
+    """An unknown --dcf word is named in the one error line (it was once
+    garbled: the message was formatted into the buffer it quoted)."""
+    line = bad("recon", "--in", data / "r2.npy", "--trajectory", data / "r2_traj.npy",
+               "--dcf", "voronoi", "--out", tmp_path / "o.npy", field="dcf")
+    assert "voronoi" in line and "radial, pipe" in line, line
