@@ -90,6 +90,40 @@ static int parse_fov(const char *s, double f[3], char *why, size_t wl)
     return k;
 }
 
+/* Up to three comma-separated values with units of `kind` (signs allowed);
+ * returns how many, or -1 with `why`. */
+static int parse_values(const char *s, kw_unit_kind kind, double f[3], char *why, size_t wl)
+{
+    char buf[256];
+    snprintf(buf, sizeof buf, "%s", s);
+    int k = 0;
+    char *save = NULL;
+    for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
+        if (k == 3) {
+            snprintf(why, wl, "at most three values");
+            return -1;
+        }
+        char *end = NULL;
+        double z = strtod(t, &end);
+        if (end != t && z == 0 && *end == '\0') {
+            f[k++] = 0; /* a bare zero needs no unit */
+            continue;
+        }
+        if (kw_unit_parse(t, kind, &f[k], why, wl))
+            return -1;
+        if (!isfinite(f[k])) {
+            snprintf(why, wl, "'%s' is not finite", t);
+            return -1;
+        }
+        k++;
+    }
+    if (k == 0) {
+        snprintf(why, wl, "empty");
+        return -1;
+    }
+    return k;
+}
+
 /* Mean |truth| over the object: pixels at >= 10% of the maximum. */
 static double object_mean(const float *img, size_t n)
 {
@@ -342,12 +376,13 @@ static kw_status proto_fill(const proto_keys *pk, kw_protocol *p)
 typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
     const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map, *protocol;
+    const char *field_grad;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     double slice_thk, slice_gap;
     long seed, coils, coil_order, slices, slice_points;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
-        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot;
+        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -400,7 +435,10 @@ int kw_cmd_encode(int argc, char **argv)
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
          "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
         {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
-         "off-resonance map (ny, nx) in Hz (Cartesian, time-segmented on a 4x grid)"},
+         "off-resonance map (ny, nx) in Hz (2-D; time-segmented on a 4x grid)"},
+        {"field-gradient", KW_OPT_STRING, &a.field_grad, 0, &a.s_fgrad,
+         "linear field GX,GY[,GZ] along the array axes, zero at the FOV centre "
+         "(e.g. 20uT/m,0): exact"},
         {"protocol", KW_OPT_STRING, &a.protocol, 0, &a.s_prot,
          "protocol file of `kweave plan` (options given here override its keys)"},
         {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
@@ -671,6 +709,25 @@ int kw_cmd_encode(int argc, char **argv)
     }
     if (a.s_df && !isfinite(a.df))
         return kw_cli_fail("df", "must be finite");
+    /* a linear field (T/m) -> off-resonance in Hz per FOV: gamma-bar G FOV */
+    double fgrad_t[3] = {0, 0, 0}, fgrad_hz[3] = {0, 0, 0};
+    if (a.s_fgrad) {
+        int k = parse_values(a.field_grad, KW_UNIT_GRADIENT, fgrad_t, why, sizeof why);
+        if (k < 0)
+            return kw_cli_fail("field-gradient", "%s", why);
+        if (k < ndim)
+            return kw_cli_fail("field-gradient", "give %d components (GX,GY%s)", ndim,
+                               ndim == 3 ? ",GZ" : "");
+        if (k > ndim)
+            return kw_cli_fail("field-gradient", "%d components for a %d-D phantom%s", k, ndim,
+                               a.s_sl ? " (multi-slice: in-plane GX,GY only)" : "");
+        for (int d = 0; d < ndim; d++) {
+            if (fabs(fgrad_t[d]) > 0.1)
+                return kw_cli_fail("field-gradient", "%g mT/m is not a field inhomogeneity "
+                                   "(at most 100 mT/m)", fgrad_t[d] * 1e3);
+            fgrad_hz[d] = KW_GAMMA_BAR_P * fgrad_t[d] * fov[d];
+        }
+    }
 
     /* ---- sampling ---- */
     if (a.s_pat && a.s_traj)
@@ -821,8 +878,9 @@ int kw_cmd_encode(int argc, char **argv)
         }
     }
     if (a.s_fmap) {
-        if (a.s_traj) {
-            ret = kw_cli_fail("field-map", "only with Cartesian sampling (not with --trajectory)");
+        if (a.s_fgrad) {
+            ret = kw_cli_fail("field-map", "give --field-map or --field-gradient, not both "
+                              "(add the linear field to the map)");
             goto done;
         }
         if (ndim != 2) {
@@ -1047,6 +1105,8 @@ int kw_cmd_encode(int argc, char **argv)
     so.contrast = con;
     so.bandwidth_hz = bw;
     so.df_hz = a.s_df ? a.df : 0.0;
+    for (int d = 0; d < 3; d++)
+        so.df_grad_hz[d] = fgrad_hz[d];
     so.seed = (uint64_t)a.seed;
     so.mask = mfull;
     if (a.s_traj) {
@@ -1268,6 +1328,14 @@ int kw_cmd_encode(int argc, char **argv)
         cJSON_AddNullToObject(prot, "bandwidth_hz");
     }
     cJSON_AddNumberToObject(prot, "df_hz", so.df_hz);
+    if (a.s_fgrad) {
+        cJSON *fg = cJSON_AddArrayToObject(prot, "field_gradient_T_per_m");
+        cJSON *fh = cJSON_AddArrayToObject(prot, "field_gradient_hz_per_fov");
+        for (int d = 0; d < ndim; d++) {
+            cJSON_AddItemToArray(fg, cJSON_CreateNumber(fgrad_t[d]));
+            cJSON_AddItemToArray(fh, cJSON_CreateNumber(fgrad_hz[d]));
+        }
+    }
     if (a.s_prot) {
         char *rp = rel_to_sidecar(a.protocol, a.out);
         cJSON_AddStringToObject(prot, "file", rp ? rp : a.protocol);

@@ -17,7 +17,7 @@ static const unit_def u_length[] = {{"m", 1, 0}, {"cm", 1e-2, 0}, {"mm", 1e-3, 0
                                     {"um", 1e-6, 0}, {NULL, 0, 0}};
 static const unit_def u_field[] = {{"T", 1, 0}, {"mT", 1e-3, 0}, {NULL, 0, 0}};
 /* 1 G/cm = 1e-4 T / 1e-2 m = 0.01 T/m. */
-static const unit_def u_grad[] = {{"T/m", 1, 0}, {"mT/m", 1e-3, 0},
+static const unit_def u_grad[] = {{"T/m", 1, 0}, {"mT/m", 1e-3, 0}, {"uT/m", 1e-6, 0},
                                   {"G/cm", 1e-2, 0}, {NULL, 0, 0}};
 static const unit_def u_slew[] = {{"T/m/s", 1, 0}, {"mT/m/ms", 1, 0},
                                   {"T/m/ms", 1e3, 0}, {"G/cm/ms", 10, 0},

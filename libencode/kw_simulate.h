@@ -50,6 +50,12 @@ typedef struct kw_sim_options {
     /* Contrast (used when the phantom carries tissues). */
     kw_contrast contrast;
     double df_hz;           /* global off-resonance added to every shape (Hz) */
+    /* Linear off-resonance (a field gradient): df(n) = sum_d g_d n_d / N_d Hz
+     * at centred pixel index n (zero at the centre pixel N/2), g = df_grad_hz
+     * in Hz per FOV along the array's x, y(, z). Exact at every sample: the
+     * phase exp(-i 2 pi df(n) tau) moves the sample's k to k + g tau (the
+     * Fourier shift theorem), tau the phase time of the sample. */
+    double df_grad_hz[3];
 
     /* Coils: ncoils >= 1 with coil_coef = ncoils x (2L+1)^2 trigonometric
      * coefficients of order L = coil_order and period coil_period (FOV units),
@@ -107,9 +113,15 @@ void kw_sim_image_weights(const kw_sim *sim, double *w);
  * Noll & Fessler 2003, IEEE TMI 22:178), m the image at the echo rasterised
  * on a grid `oversample` times finer than the matrix, s the coil's series,
  * each FT a centered FFT of the fine grid (whose integer frequencies include
- * the Cartesian samples). Decay and chemical shift inside the perturbation
- * are those of the echo (they stay exact in the analytic term). 2-D
- * Cartesian sampling only. */
+ * the Cartesian samples; for a trajectory each FT is evaluated at the
+ * samples' k by a NUFFT of tolerance 1e-6 on the fine grid). Shapes whose
+ * relaxation and chemical shift differ are rasterised apart (one image m_c
+ * per class of kw_sim_shape_classes()) and each class's perturbation is
+ * multiplied by its own factor r_c(t) (relaxation and chemical-shift phase
+ * at the sample's time), so P = sum_c r_c(t) FT[m_c s (exp(-i 2 pi df tau)
+ * - 1)](k): exact apart from the time segmentation and the fine grid.
+ * 2-D phantoms only; not together with df_grad_hz (add a linear field to
+ * the map instead). */
 typedef struct kw_fieldmap_options {
     const kw_sim *sim;       /* the simulation the perturbation is added to */
     const float *field_hz;   /* ny x nx field map at the pixel centres (Hz) */
@@ -119,8 +131,8 @@ typedef struct kw_fieldmap_options {
 
 typedef struct kw_fieldmap kw_fieldmap;
 
-/*! kw_fieldmap_create(): plan the fine-grid FFT, rasterise the object and
- * fit the interpolators. KW_ENOTSUP for trajectories or 3-D. */
+/*! kw_fieldmap_create(): plan the fine-grid FFT (or NUFFT), rasterise the
+ * object and fit the interpolators. KW_ENOTSUP for 3-D. */
 kw_status kw_fieldmap_create(kw_fieldmap **fm, const kw_fieldmap_options *opt);
 
 /*! kw_fieldmap_execute(): add the perturbation to `out` (the output of
@@ -145,6 +157,20 @@ kw_status kw_sim_add_noise(const kw_sim *sim, const double complex *noise_chol,
 
 /*! Accessors for sim_*.c: the options the simulation was made with. */
 const kw_sim_options *kw_sim_get_options(const kw_sim *sim);
+
+/*! kw_sim_sample_time(): the time (s after excitation) of Cartesian sample i
+ * (readout column ix) or trajectory sample i, as kw_sim_execute uses it. */
+double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix);
+
+/*! kw_sim_shape_factor(): shape i's signal at time t per unit steady-state
+ * amplitude (relaxation during the readout x off-resonance phase);
+ * kw_sim_shape_steady(): the steady-state amplitude (contrast x density);
+ * own signal = steady x factor. kw_sim_shape_classes(): group the shapes
+ * whose factors are the same function of t (same relaxation and
+ * off-resonance): cls[i] = class of shape i; returns the number of classes. */
+double complex kw_sim_shape_factor(const kw_sim *sim, int i, double t);
+double kw_sim_shape_steady(const kw_sim *sim, int i);
+int kw_sim_shape_classes(const kw_sim *sim, int *cls);
 
 #ifdef __cplusplus
 }

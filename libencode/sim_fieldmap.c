@@ -8,13 +8,14 @@
 
 #include "kw_fft.h"
 #include "kw_linalg.h"
+#include "kw_nufft.h"
 #include "kw_simulate.h"
 
 #define MAX_SEG 64
 /* Subsamples per fine pixel edge. A pixel that is the mean of S x S point
  * samples has the transfer function D(k) = sin(pi k / M) / (S sin(pi k / (S M)))
  * per axis (a Dirichlet kernel); gather() divides it out. */
-#define FINE_SUPER 4
+#define FINE_SUPER 8
 
 static double dirichlet(double k, size_t m)
 {
@@ -33,11 +34,21 @@ struct kw_fieldmap {
     size_t nt;              /* time nodes: the columns, or a grid over tau */
     double tau0, dtau;      /* grid nodes tau0 + j dtau (per-sample times) */
     double *b_re, *b_im;    /* nseg x nt interpolator weights */
-    float *obj;             /* my x mx image at the echo */
+    int ncls;               /* shape classes (kw_sim_shape_classes) */
+    float *cls;             /* ncls x my x mx: each class's image (steady amplitudes) */
+    float *obj;             /* my x mx: sum of |class images| (the object's support) */
+    float complex *rt;      /* ncls x nsamp: each class's factor r_c(t) at each sample */
+    unsigned char cls_used[KW_PHANTOM_MAX_SHAPES]; /* class image not all zero */
+    float complex *sens;    /* my x mx: the current coil's sensitivity */
+    float complex *sphase;  /* my x mx: sensitivity x the current segment's phase */
     float *field;           /* my x mx field map (Hz) */
     float complex *work;    /* my x mx */
     double complex *ex, *ey; /* coil series tables */
-    kw_fft_plan *plan;
+    kw_fft_plan *plan;      /* Cartesian sampling: the fine grid's FFT */
+    kw_nufft_plan *nu;      /* a trajectory: the fine grid's NUFFT ... */
+    float complex *kvals;   /* ... and its output at the samples */
+    int per_sample;         /* weights interpolated per sample (trajectory, EPI) */
+    size_t nsamp;           /* samples per coil written by the simulation */
     double err;
 };
 
@@ -51,24 +62,24 @@ void kw_fieldmap_destroy(kw_fieldmap *fm)
     free(fm->b_re);
     free(fm->b_im);
     kw_free(fm->obj);
+    kw_free(fm->cls);
+    kw_free(fm->rt);
+    kw_free(fm->sens);
+    kw_free(fm->sphase);
     kw_free(fm->field);
     kw_free(fm->work);
     free(fm->ex);
     free(fm->ey);
     kw_fft_destroy(fm->plan);
+    kw_nufft_destroy(fm->nu);
+    kw_free(fm->kvals);
     free(fm);
 }
 
+/* Phase time of Cartesian sample i (column ix) or trajectory sample i. */
 static double sample_tau(const kw_sim_options *o, size_t i, size_t ix)
 {
-    double t;
-    if (o->times)
-        t = o->times[o->times_per_sample ? i : ix];
-    else if (o->bandwidth_hz > 0)
-        t = o->contrast.te_s + ((double)ix - (double)(o->n[0] / 2)) / o->bandwidth_hz;
-    else
-        t = o->contrast.te_s;
-    return kw_signal_phase_time(&o->contrast, t);
+    return kw_signal_phase_time(&o->contrast, kw_sim_sample_time(o, i, ix));
 }
 
 kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
@@ -76,8 +87,10 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     KW_FAIL_IF(!out || !opt || !opt->sim || !opt->field_hz, KW_EINVAL, "field-map: NULL argument");
     *out = NULL;
     const kw_sim_options *o = kw_sim_get_options(opt->sim);
-    KW_FAIL_IF(o->traj, KW_ENOTSUP, "field-map: only for Cartesian sampling (not with a trajectory)");
-    KW_FAIL_IF(o->phantom->ndim != 2, KW_ENOTSUP, "field-map: only for 2-D phantoms");
+    KW_FAIL_IF(o->phantom->ndim != 2 || (o->traj && o->traj_ndim != 2), KW_ENOTSUP,
+               "field-map: only for 2-D phantoms");
+    KW_FAIL_IF(o->df_grad_hz[0] != 0 || o->df_grad_hz[1] != 0, KW_ENOTSUP,
+               "field-map: not together with a field gradient (add the linear field to the map)");
     KW_FAIL_IF(opt->oversample < 4 || opt->oversample > 16, KW_EINVAL,
                "field-map: oversampling %d (4..16)", opt->oversample);
     KW_FAIL_IF(opt->segments < 0 || opt->segments > MAX_SEG, KW_EINVAL,
@@ -98,24 +111,65 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     fm->my = ny * (size_t)fm->ov;
     size_t M = fm->mx * fm->my;
     int L = o->ncoils > 0 ? o->coil_order : 0, side = 2 * L + 1;
+    int shape_cls[KW_PHANTOM_MAX_SHAPES];
+    fm->ncls = kw_sim_shape_classes(opt->sim, shape_cls);
+    fm->per_sample = o->traj || o->times_per_sample;
+    fm->nsamp = o->traj ? o->nsamples : nx * ny;
+    fm->cls = kw_alloc((size_t)fm->ncls * M * sizeof *fm->cls);
+    fm->rt = kw_alloc((size_t)fm->ncls * fm->nsamp * sizeof *fm->rt);
     fm->obj = kw_alloc(M * sizeof *fm->obj);
+    fm->sens = kw_alloc(M * sizeof *fm->sens);
+    fm->sphase = kw_alloc(M * sizeof *fm->sphase);
     fm->field = kw_alloc(M * sizeof *fm->field);
     fm->work = kw_alloc(M * sizeof *fm->work);
     fm->ex = malloc(fm->mx * (size_t)side * sizeof *fm->ex);
     fm->ey = malloc(fm->my * (size_t)side * sizeof *fm->ey);
-    if (!fm->obj || !fm->field || !fm->work || !fm->ex || !fm->ey) {
+    if (!fm->obj || !fm->field || !fm->work || !fm->ex || !fm->ey || !fm->cls || !fm->rt ||
+        !fm->sens || !fm->sphase) {
         st = kw_set_error(KW_ENOMEM, "field-map: out of memory for the %zux%zu grid", fm->mx, fm->my);
         goto fail;
     }
     size_t dims[2] = {fm->my, fm->mx};
-    if ((st = kw_fft_create(&fm->plan, 2, dims, 1, KW_FFT_ESTIMATE)))
+    if (o->traj) {
+        /* the fine grid's spectrum at the samples: its integer frequencies
+         * span [-2N, 2N), the trajectory [-N/2, N/2) */
+        kw_nufft_opts no = {1e-6, 0, 0, 0};
+        if ((st = kw_nufft_create(&fm->nu, 2, dims, o->nsamples, o->traj, &no)))
+            goto fail;
+        fm->kvals = kw_alloc(o->nsamples * sizeof *fm->kvals);
+        if (!fm->kvals) {
+            st = kw_set_error(KW_ENOMEM, "field-map: out of memory");
+            goto fail;
+        }
+    } else if ((st = kw_fft_create(&fm->plan, 2, dims, 1, KW_FFT_ESTIMATE))) {
         goto fail;
-    /* the object at the echo on the fine grid */
-    double w[KW_PHANTOM_MAX_SHAPES];
-    kw_sim_image_weights(opt->sim, w);
+    }
+    /* each class's image on the fine grid (additive weights of the shapes'
+     * steady amplitudes, the other classes' shapes set to zero), the
+     * object's support, and each class's factor at every sample */
     size_t fn[3] = {fm->mx, fm->my, 1};
-    if ((st = kw_phantom_rasterize(o->phantom, fn, w, FINE_SUPER, fm->obj)))
-        goto fail;
+    memset(fm->obj, 0, M * sizeof *fm->obj);
+    for (int q = 0; q < fm->ncls; q++) {
+        double own[KW_PHANTOM_MAX_SHAPES], w[KW_PHANTOM_MAX_SHAPES];
+        int rep = -1;
+        for (int i = 0; i < o->phantom->nshapes; i++) {
+            own[i] = shape_cls[i] == q ? kw_sim_shape_steady(opt->sim, i) : 0.0;
+            if (shape_cls[i] == q && rep < 0)
+                rep = i;
+        }
+        kw_phantom_weights(o->phantom, own, w);
+        float *img = fm->cls + (size_t)q * M;
+        if ((st = kw_phantom_rasterize(o->phantom, fn, w, FINE_SUPER, img)))
+            goto fail;
+        for (size_t i = 0; i < M; i++) {
+            fm->obj[i] += fabsf(img[i]);
+            fm->cls_used[q] |= img[i] != 0;
+        }
+        float complex *r = fm->rt + (size_t)q * fm->nsamp;
+        for (size_t j = 0; j < fm->nsamp; j++)
+            r[j] = (float complex)kw_sim_shape_factor(opt->sim, rep,
+                                                      kw_sim_sample_time(o, j, o->traj ? j : j % nx));
+    }
     /* the field map, bilinear between the matrix's pixel centres */
     for (size_t r = 0; r < fm->my; r++) {
         double yr = ((double)r - (double)(fm->my / 2)) / (double)fm->ov + (double)(ny / 2);
@@ -139,15 +193,15 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     }
     /* phase times of the readout and the field range over the object */
     double tmin = INFINITY, tmax = -INFINITY, fmin = INFINITY, fmax = -INFINITY;
-    for (size_t i = 0; i < (o->times_per_sample ? nx * ny : nx); i++) {
-        double t = sample_tau(o, i, i % nx);
+    for (size_t i = 0; i < (fm->per_sample ? fm->nsamp : nx); i++) {
+        double t = sample_tau(o, i, o->traj ? i : i % nx);
         tmin = t < tmin ? t : tmin;
         tmax = t > tmax ? t : tmax;
     }
     /* time nodes: each column (one time per readout column), or for
      * per-sample times a grid of 512 nodes over the range, the weights of a
      * sample then interpolated linearly between its two nodes */
-    fm->nt = o->times_per_sample ? 512 : nx;
+    fm->nt = fm->per_sample ? 512 : nx;
     fm->tau0 = tmin;
     fm->dtau = (tmax - tmin) / 511.0;
     size_t nobj = 0;
@@ -211,7 +265,7 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     }
     double worst = 0;
     for (size_t ix = 0; ix < fm->nt; ix++) {
-        double tau = o->times_per_sample ? fm->tau0 + fm->dtau * (double)ix : sample_tau(o, ix, ix);
+        double tau = fm->per_sample ? fm->tau0 + fm->dtau * (double)ix : sample_tau(o, ix, ix);
         for (int l = 0; l < nseg; l++)
             rhs[l] = 0;
         for (size_t i = 0, k = 0; i < M; i++) {
@@ -253,10 +307,43 @@ fail:
     return st;
 }
 
+/* The interpolator weight of segment l (columns bre/bim) at sample i, column
+ * ix: the column's own, or linear between the two time nodes around the
+ * sample's phase time. */
+static double complex seg_weight(const kw_fieldmap *fm, const double *bre, const double *bim,
+                                 size_t i, size_t ix)
+{
+    if (!fm->per_sample)
+        return bre[ix] + I * bim[ix];
+    double pos = fm->dtau > 0 ? (sample_tau(fm->o, i, ix) - fm->tau0) / fm->dtau : 0.0;
+    size_t j = pos <= 0 ? 0 : (size_t)pos;
+    if (j > fm->nt - 2)
+        j = fm->nt - 2;
+    double al = pos - (double)j;
+    al = al < 0 ? 0 : (al > 1 ? 1 : al);
+    return (1 - al) * (bre[j] + I * bim[j]) + al * (bre[j + 1] + I * bim[j + 1]);
+}
+
+/* Trajectory: add coef x NUFFT_fine(work)(k_j) / ov to every sample of coil
+ * c (bre NULL: -1, the subtracted reference). */
+static void gather_traj(const kw_fieldmap *fm, int c, const float complex *rt,
+                        const double *bre, const double *bim, float complex *out)
+{
+    const kw_sim_options *o = fm->o;
+    double inv = 1.0 / fm->ov;
+    for (size_t j = 0; j < o->nsamples; j++) {
+        const float *k = o->traj + 2 * j;
+        double d = dirichlet(k[0], fm->mx) * dirichlet(k[1], fm->my);
+        double complex b = bre ? seg_weight(fm, bre, bim, j, j) : -1.0;
+        out[(size_t)c * o->nsamples + j] +=
+            (float complex)(b * (double complex)rt[j] * fm->kvals[j] * inv / d);
+    }
+}
+
 /* Add coef x FT_fine(work) / ov at every sampled Cartesian point of coil c;
  * bl: per-column complex weights (NULL: -1, the subtracted reference). */
-static void gather(const kw_fieldmap *fm, int c, const double *bre, const double *bim,
-                   float complex *out)
+static void gather(const kw_fieldmap *fm, int c, const float complex *rt, const double *bre,
+                   const double *bim, float complex *out)
 {
     const kw_sim_options *o = fm->o;
     size_t nx = fm->nx, ny = fm->ny, count = nx * ny;
@@ -271,19 +358,8 @@ static void gather(const kw_fieldmap *fm, int c, const double *bre, const double
             size_t C = ix - nx / 2 + fm->mx / 2;
             double dx = dirichlet((double)ix - (double)(nx / 2), fm->mx);
             double complex v = fm->work[R * fm->mx + C] * inv / (dx * dy);
-            double complex b = -1.0;
-            if (bre && !o->times_per_sample) {
-                b = bre[ix] + I * bim[ix];
-            } else if (bre) {
-                double pos = fm->dtau > 0 ? (sample_tau(o, i, ix) - fm->tau0) / fm->dtau : 0.0;
-                size_t j = pos <= 0 ? 0 : (size_t)pos;
-                if (j > fm->nt - 2)
-                    j = fm->nt - 2;
-                double al = pos - (double)j;
-                al = al < 0 ? 0 : (al > 1 ? 1 : al);
-                b = (1 - al) * (bre[j] + I * bim[j]) + al * (bre[j + 1] + I * bim[j + 1]);
-            }
-            out[(size_t)c * count + i] += (float complex)(b * v);
+            double complex b = bre ? seg_weight(fm, bre, bim, i, ix) : -1.0;
+            out[(size_t)c * count + i] += (float complex)(b * (double complex)rt[i] * v);
         }
     }
 }
@@ -310,39 +386,55 @@ kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out, kw_progress_f
     }
     int step = 0, nstep = nc * (fm->nseg + 1);
     for (int c = 0; c < nc; c++) {
+        /* coil c's sensitivity on the fine grid (once per coil) */
         const double complex *cc = o->ncoils > 0 ? o->coil_coef + (size_t)c * side * side : NULL;
+#pragma omp parallel for schedule(static)
+        for (size_t r = 0; r < fm->my; r++)
+            for (size_t x = 0; x < fm->mx; x++) {
+                size_t i = r * fm->mx + x;
+                double complex sv = 1.0;
+                if (cc && fm->obj[i] != 0) {
+                    sv = 0;
+                    for (int q = 0; q < side; q++) {
+                        double complex t = 0;
+                        for (int p = 0; p < side; p++)
+                            t += cc[q * side + p] * fm->ex[x * side + p];
+                        sv += t * fm->ey[r * side + q];
+                    }
+                }
+                fm->sens[i] = (float complex)sv;
+            }
         for (int l = -1; l < fm->nseg; l++) {
+            /* sensitivity x the segment's field phase (once per segment) */
             double tau = l >= 0 ? fm->tau_seg[l] : 0.0;
 #pragma omp parallel for schedule(static)
-            for (size_t r = 0; r < fm->my; r++)
-                for (size_t x = 0; x < fm->mx; x++) {
-                    size_t i = r * fm->mx + x;
-                    double complex v = fm->obj[i];
-                    if (v == 0) {
-                        fm->work[i] = 0;
-                        continue;
-                    }
-                    if (cc) {
-                        double complex s = 0;
-                        for (int q = 0; q < side; q++) {
-                            double complex t = 0;
-                            for (int p = 0; p < side; p++)
-                                t += cc[q * side + p] * fm->ex[x * side + p];
-                            s += t * fm->ey[r * side + q];
-                        }
-                        v *= s;
-                    }
-                    if (l >= 0)
-                        v *= cexp(-2.0 * I * KW_PI * fm->field[i] * tau);
-                    fm->work[i] = (float complex)v;
+            for (size_t i = 0; i < M; i++) {
+                double complex v = fm->sens[i];
+                if (l >= 0 && fm->obj[i] != 0)
+                    v *= cexp(-2.0 * I * KW_PI * fm->field[i] * tau);
+                fm->sphase[i] = (float complex)v;
+            }
+            const double *bre = l < 0 ? NULL : fm->b_re + (size_t)l * fm->nt;
+            const double *bim = l < 0 ? NULL : fm->b_im + (size_t)l * fm->nt;
+            for (int cq = 0; cq < fm->ncls; cq++) {
+                if (!fm->cls_used[cq])
+                    continue;
+                const float *obj = fm->cls + (size_t)cq * M;
+                const float complex *rt = fm->rt + (size_t)cq * fm->nsamp;
+#pragma omp parallel for schedule(static)
+                for (size_t i = 0; i < M; i++)
+                    fm->work[i] = obj[i] * fm->sphase[i];
+                kw_status st;
+                if (fm->nu) {
+                    if ((st = kw_nufft_forward(fm->nu, fm->work, fm->kvals, 1)))
+                        return st;
+                    gather_traj(fm, c, rt, bre, bim, out);
+                } else {
+                    if ((st = kw_fft_forward(fm->plan, fm->work)))
+                        return st;
+                    gather(fm, c, rt, bre, bim, out);
                 }
-            kw_status st = kw_fft_forward(fm->plan, fm->work);
-            if (st)
-                return st;
-            if (l < 0)
-                gather(fm, c, NULL, NULL, out);
-            else
-                gather(fm, c, fm->b_re + (size_t)l * fm->nt, fm->b_im + (size_t)l * fm->nt, out);
+            }
             if (progress) {
                 kw_progress pr = {"field-map", ++step, nstep, NAN};
                 if (progress(user, &pr))
@@ -350,6 +442,5 @@ kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out, kw_progress_f
             }
         }
     }
-    (void)M;
     return KW_OK;
 }

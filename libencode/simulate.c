@@ -86,6 +86,12 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
         KW_FAIL_IF(!(opt->coil_period > 0) || !isfinite(opt->coil_period), KW_EINVAL,
                    "coils: period must be positive");
     }
+    for (int d = 0; d < 3; d++)
+        KW_FAIL_IF(!isfinite(opt->df_grad_hz[d]) || fabs(opt->df_grad_hz[d]) > 1e7, KW_ERANGE,
+                   "field-gradient: %g Hz per FOV is not a finite, physical value",
+                   opt->df_grad_hz[d]);
+    KW_FAIL_IF(p->ndim == 2 && opt->df_grad_hz[2] != 0, KW_EINVAL,
+               "field-gradient: a z component for a 2-D phantom");
     KW_FAIL_IF(!isfinite(opt->bandwidth_hz) || opt->bandwidth_hz < 0, KW_EINVAL,
                "bandwidth: must be positive");
     const kw_contrast *c = &opt->contrast;
@@ -173,18 +179,43 @@ void kw_sim_destroy(kw_sim *sim)
     free(sim);
 }
 
-void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own)
+static int has_decay(const kw_sim *sim, int i)
+{
+    return sim->o.phantom->tissue && sim->o.phantom->shapes[i].tissue >= 0;
+}
+
+double complex kw_sim_shape_factor(const kw_sim *sim, int i, double t)
 {
     const kw_contrast *c = &sim->o.contrast;
-    double tau = kw_signal_phase_time(c, t);
-    int tissue = sim->o.phantom->tissue;
+    double a = has_decay(sim, i) ? kw_signal_decay(c, sim->t2[i], sim->t2s[i], t) : 1.0;
+    double ph = -2.0 * KW_PI * sim->df[i] * kw_signal_phase_time(c, t);
+    return a * (cos(ph) + I * sin(ph));
+}
+
+double kw_sim_shape_steady(const kw_sim *sim, int i) { return sim->steady[i]; }
+
+int kw_sim_shape_classes(const kw_sim *sim, int *cls)
+{
+    int n = 0, rep[KW_PHANTOM_MAX_SHAPES];
     for (int i = 0; i < sim->nshapes; i++) {
-        double a = sim->steady[i];
-        if (tissue && sim->o.phantom->shapes[i].tissue >= 0)
-            a *= kw_signal_decay(c, sim->t2[i], sim->t2s[i], t);
-        double ph = -2.0 * KW_PI * sim->df[i] * tau;
-        own[i] = a * (cos(ph) + I * sin(ph));
+        int c = 0;
+        for (; c < n; c++) {
+            int j = rep[c];
+            if (has_decay(sim, i) == has_decay(sim, j) && sim->df[i] == sim->df[j] &&
+                (!has_decay(sim, i) || (sim->t2[i] == sim->t2[j] && sim->t2s[i] == sim->t2s[j])))
+                break;
+        }
+        if (c == n)
+            rep[n++] = i;
+        cls[i] = c;
     }
+    return n;
+}
+
+void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own)
+{
+    for (int i = 0; i < sim->nshapes; i++)
+        own[i] = sim->steady[i] * kw_sim_shape_factor(sim, i, t);
 }
 
 void kw_sim_image_weights(const kw_sim *sim, double *w)
@@ -205,15 +236,18 @@ void kw_sim_image_weights(const kw_sim *sim, double *w)
     kw_phantom_weights(sim->o.phantom, re, w);
 }
 
-/* Sample time of Cartesian sample i (column ix) or trajectory sample i. */
-static double sample_time(const kw_sim *s, size_t i, size_t idx_time)
+double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix)
 {
-    if (s->o.times)
-        return s->o.times[s->o.traj || s->o.times_per_sample ? i : idx_time];
-    if (!s->o.traj && s->o.bandwidth_hz > 0)
-        return s->o.contrast.te_s +
-               ((double)idx_time - (double)(s->o.n[0] / 2)) / s->o.bandwidth_hz;
-    return s->o.contrast.te_s;
+    if (o->times)
+        return o->times[o->traj || o->times_per_sample ? i : ix];
+    if (!o->traj && o->bandwidth_hz > 0)
+        return o->contrast.te_s + ((double)ix - (double)(o->n[0] / 2)) / o->bandwidth_hz;
+    return o->contrast.te_s;
+}
+
+static double sample_time(const kw_sim *s, size_t i, size_t ix)
+{
+    return kw_sim_sample_time(&s->o, i, ix);
 }
 
 /* All channels of one sample at (kx, kv, kz), time t. */
@@ -281,6 +315,8 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
     KW_FAIL_IF(!s || !out, KW_EINVAL, "simulate: NULL argument");
     const size_t nx = s->o.n[0], ny = s->o.n[1], nz = s->o.n[2];
     const size_t count = s->count;
+    const double *g = s->o.df_grad_hz;
+    const int grad = g[0] != 0 || g[1] != 0 || (nz > 1 || s->o.traj_ndim == 3 ? g[2] != 0 : 0);
     memset(out, 0, count * (size_t)s->channels * sizeof *out);
     const size_t nchunk = 64;
     const size_t chunk = (count + nchunk - 1) / nchunk;
@@ -288,19 +324,30 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
         size_t c1 = c0 + chunk < count ? c0 + chunk : count;
 #pragma omp parallel for schedule(dynamic, 64)
         for (size_t i = c0; i < c1; i++) {
+            double kx, kv, kz, t;
             if (s->o.traj) {
                 const float *k = s->o.traj + i * (size_t)s->o.traj_ndim;
-                double kz = s->o.traj_ndim == 3 ? k[2] : 0.0;
-                one_sample(s, k[0], k[1], kz, sample_time(s, i, i), out + i, count);
+                kx = k[0];
+                kv = k[1];
+                kz = s->o.traj_ndim == 3 ? k[2] : 0.0;
+                t = sample_time(s, i, i);
             } else {
                 if (s->o.mask && !s->o.mask[i])
                     continue;
                 size_t ix = i % nx, iy = (i / nx) % ny, iz = i / (nx * ny);
-                double kx = (double)ix - (double)(nx / 2);
-                double kv = (double)iy - (double)(ny / 2);
-                double kz = nz > 1 ? (double)iz - (double)(nz / 2) : 0.0;
-                one_sample(s, kx, kv, kz, sample_time(s, i, ix), out + i, count);
+                kx = (double)ix - (double)(nx / 2);
+                kv = (double)iy - (double)(ny / 2);
+                kz = nz > 1 ? (double)iz - (double)(nz / 2) : 0.0;
+                t = sample_time(s, i, ix);
             }
+            if (grad) {
+                /* linear off-resonance: k -> k + g tau (kw_simulate.h) */
+                double tau = kw_signal_phase_time(&s->o.contrast, t);
+                kx += g[0] * tau;
+                kv += g[1] * tau;
+                kz += g[2] * tau;
+            }
+            one_sample(s, kx, kv, kz, t, out + i, count);
         }
         if (progress) {
             kw_progress pr = {"encode", (int)it + 1, (int)((count + chunk - 1) / chunk), NAN};
