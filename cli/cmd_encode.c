@@ -607,7 +607,8 @@ int kw_cmd_encode(int argc, char **argv)
     /* A protocol file: `kweave plan`'s own numbers (minimum TE and TR, EPI
      * echo spacing) for the same protocol. */
     double plan_min_te = 0, plan_esp = 0, plan_dwell = 0;
-    int plan_epi = 0, plan_shots = 1, plan_feasible = -1;
+    int plan_epi = 0, plan_shots = 1, plan_feasible = -1, plan_first_row = 0;
+    double plan_pf = 1.0;
     if (a.s_prot) {
         kw_protocol pp;
         kw_protocol_defaults(&pp);
@@ -641,8 +642,13 @@ int kw_cmd_encode(int argc, char **argv)
         plan_esp = rep->echo_spacing_s;
         plan_dwell = rep->dwell_s;
         plan_shots = pp.shots;
-        if (plan_epi && pp.partial_fourier < 1)
-            plan_epi = -1;
+        if (plan_epi) {
+            /* the train's rows: the last ETL x shots of ny (kw_epi_size) */
+            plan_pf = pp.partial_fourier;
+            plan_first_row = (int)n[1] - rep->echo_train_length * pp.shots;
+            if (plan_first_row < 0)
+                plan_first_row = 0;
+        }
         if (!a.s_te) {
             a.te = rep->te_s;
             a.s_te = 1;
@@ -657,8 +663,6 @@ int kw_cmd_encode(int argc, char **argv)
             te_min = (double)(n[0] / 2) / bw;
         }
         kw_plan_destroy(rep);
-        if (plan_epi < 0)
-            return kw_cli_fail("protocol", "partial-fourier EPI is not simulated");
         if (a.te < plan_min_te * (1 - 1e-9))
             return kw_cli_fail("te", "%.4g ms is shorter than the protocol allows (kweave plan's "
                                "minimum TE is %.4g ms)", a.te * 1e3, plan_min_te * 1e3);
@@ -911,9 +915,19 @@ int kw_cmd_encode(int argc, char **argv)
             ret = kw_cli_fail("protocol", "EPI timing is simulated for 2-D phantoms only");
             goto done;
         }
-        /* EPI train (kweave plan's echo spacing and dwell): row r at
-         * TE + (r - ny/2) esp / shots, read alternately forwards and
-         * backwards along x; the centre row forwards, its centre at TE. */
+        if (plan_first_row > 0 && a.s_pat) {
+            ret = kw_cli_fail("pattern", "the protocol's partial-Fourier EPI train sets the "
+                              "sampled rows; give no --pattern");
+            goto done;
+        }
+        /* EPI train (kweave plan's echo spacing and dwell, kw_epi_design's
+         * order): the rows first_row .. ny-1 (partial Fourier leaves out the
+         * first, negative-ky rows: stored as zeros), row r on line
+         * m = (r - first_row) / shots of its shot, read forwards along x
+         * when m is even and backwards when odd; times TE + (r - ny/2)
+         * esp / shots (the ky = 0 row's centre at TE, the effective TE;
+         * several shots interleaved with their echo times shifted, as the
+         * distortion_pixels_per_hz of the planner assumes). */
         tvals = malloc(n[0] * n[1] * sizeof *tvals);
         if (!tvals) {
             ret = kw_cli_fail("protocol", "out of memory");
@@ -921,12 +935,23 @@ int kw_cmd_encode(int argc, char **argv)
         }
         for (size_t r = 0; r < n[1]; r++) {
             long e = (long)r - (long)(n[1] / 2);
-            double sgn = (e % 2 == 0) ? 1.0 : -1.0;
+            long m = ((long)r - plan_first_row) / plan_shots;
+            double sgn = (r < (size_t)plan_first_row || m % 2 == 0) ? 1.0 : -1.0;
             for (size_t c = 0; c < n[0]; c++)
                 tvals[r * n[0] + c] = a.te + (double)e * plan_esp / plan_shots +
                                       sgn * ((double)c - (double)(n[0] / 2)) * plan_dwell;
         }
         times_full = 1;
+        if (plan_first_row > 0) {
+            mfull = malloc(npix);
+            if (!mfull) {
+                ret = kw_cli_fail("protocol", "out of memory");
+                goto done;
+            }
+            for (size_t i = 0; i < npix; i++)
+                mfull[i] = (uint8_t)(i / n[0] >= (size_t)plan_first_row);
+            acceleration = (double)n[1] / (double)(n[1] - (size_t)plan_first_row);
+        }
     }
 
     /* ---- coils ---- */
@@ -1347,6 +1372,9 @@ int kw_cmd_encode(int argc, char **argv)
         if (plan_epi > 0) {
             cJSON_AddNumberToObject(prot, "echo_spacing_s", plan_esp);
             cJSON_AddNumberToObject(prot, "shots", plan_shots);
+            cJSON_AddNumberToObject(prot, "partial_fourier", plan_pf);
+            cJSON_AddNumberToObject(prot, "first_row", plan_first_row);
+            cJSON_AddNumberToObject(prot, "rows_acquired", (double)n[1] - plan_first_row);
             cJSON_AddNumberToObject(prot, "distortion_pixels_per_hz",
                                     (double)n[1] * plan_esp / plan_shots);
         }
