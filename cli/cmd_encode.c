@@ -379,10 +379,12 @@ typedef struct enc_args {
     const char *field_grad;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     double slice_thk, slice_gap;
-    long seed, coils, coil_order, slices, slice_points;
+    long seed, coils, coil_order, coil_order_z, coil_rings, slices, slice_points;
+    double coil_ring_gap;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
-        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad;
+        s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad, s_coz, s_crings,
+        s_crgap;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -420,7 +422,13 @@ int kw_cmd_encode(int argc, char **argv)
         {"coil-distance", KW_OPT_UNIT, &a.coil_distance, KW_UNIT_LENGTH, &a.s_cd,
          "loop centre to the axis (default 0.75 FOV)"},
         {"coil-order", KW_OPT_INT, &a.coil_order, 0, &a.s_co,
-         "order L of the trigonometric series of each sensitivity (0..8, default 4)"},
+         "order L of the trigonometric series of each sensitivity (0..8, default 4; 3-D: 3)"},
+        {"coil-order-z", KW_OPT_INT, &a.coil_order_z, 0, &a.s_coz,
+         "3-D phantoms: the series' order along z (0..8, default 2)"},
+        {"coil-rings", KW_OPT_INT, &a.coil_rings, 0, &a.s_crings,
+         "1 (default) or 2 rings of --coils loops each (3-D: at z = -gap/2, +gap/2)"},
+        {"coil-ring-gap", KW_OPT_UNIT, &a.coil_ring_gap, KW_UNIT_LENGTH, &a.s_crgap,
+         "distance between the two rings' centres along z (default the z FOV / 2)"},
         {"sens", KW_OPT_STRING, &a.sens, 0, &a.s_sens, "sensitivity maps (coils, ny, nx) .npy"},
         {"sens-out", KW_OPT_STRING, &a.sens_out, 0, &a.s_sout,
          "write the sensitivities the data were made with (.npy complex64)"},
@@ -976,9 +984,45 @@ int kw_cmd_encode(int argc, char **argv)
         ret = kw_cli_fail("sens-out", "needs --coils or --sens");
         goto done;
     }
-    if ((a.s_coils || a.s_sens) && ndim == 3) {
-        ret = kw_cli_fail(a.s_coils ? "coils" : "sens", "coil maps are 2-D: use a 2-D phantom");
+    if ((a.s_coz || a.s_crings || a.s_crgap) && !a.s_coils && !a.s_sens) {
+        ret = kw_cli_fail(a.s_coz ? "coil-order-z" : a.s_crings ? "coil-rings" : "coil-ring-gap",
+                          "only with --coils or --sens");
         goto done;
+    }
+    if ((a.s_crings || a.s_crgap) && !a.s_coils) {
+        ret = kw_cli_fail(a.s_crings ? "coil-rings" : "coil-ring-gap", "only with --coils");
+        goto done;
+    }
+    if (a.s_coz && ndim != 3) {
+        ret = kw_cli_fail("coil-order-z", "only for 3-D phantoms");
+        goto done;
+    }
+    if (a.s_coz && (a.coil_order_z < 0 || a.coil_order_z > 8)) {
+        ret = kw_cli_fail("coil-order-z", "must be 0..8");
+        goto done;
+    }
+    if (a.s_crings && a.coil_rings != 1 && a.coil_rings != 2) {
+        ret = kw_cli_fail("coil-rings", "must be 1 or 2");
+        goto done;
+    }
+    if (a.s_crgap && (a.coil_rings != 2 || !(a.coil_ring_gap > 0) || !isfinite(a.coil_ring_gap))) {
+        ret = kw_cli_fail("coil-ring-gap", "a positive length, with --coil-rings 2");
+        goto done;
+    }
+    if (a.coil_rings == 2 && a.coils * 2 > 128) {
+        ret = kw_cli_fail("coils", "2 rings of %ld loops: at most 128 channels", a.coils);
+        goto done;
+    }
+    if (ndim == 3) {
+        if (!a.s_co)
+            a.coil_order = 3;
+        if (!a.s_coz)
+            a.coil_order_z = 2;
+        if ((2 * a.coil_order_z + 1) * (2 * a.coil_order + 1) * (2 * a.coil_order + 1) > 1024) {
+            ret = kw_cli_fail("coil-order", "3-D series of orders %ld, %ld: more than 1024 "
+                              "terms per coil", a.coil_order, a.coil_order_z);
+            goto done;
+        }
     }
     /* object support (pixels any shape covers) for fits and the SNR */
     {
@@ -989,22 +1033,34 @@ int kw_cmd_encode(int argc, char **argv)
         }
     }
     if (a.s_coils || a.s_sens) {
-        size_t md[3] = {0, n[1], n[0]};
+        /* maps (coils, [nz,] ny, nx) */
+        size_t md[4] = {0, n[2], n[1], n[0]};
+        const int mnd = ndim == 3 ? 4 : 3;
+        if (ndim == 2)
+            md[1] = n[1], md[2] = n[0];
+        const size_t nvox = n[0] * n[1] * (ndim == 3 ? n[2] : 1);
         double ones[KW_PHANTOM_MAX_SHAPES];
         for (int i = 0; i < ph.nshapes; i++)
             ones[i] = 1.0;
         kw_phantom_rasterize(&ph, n, ones, 2, cover.data);
         if (a.s_coils) {
-            ncoils = (int)a.coils;
-            kw_coil_ring ring = {ncoils, a.s_cr ? a.coil_radius : 0.25 * fov[0],
+            kw_coil_ring ring = {(int)a.coils, a.s_cr ? a.coil_radius : 0.25 * fov[0],
                                  a.s_cd ? a.coil_distance : 0.75 * (fov[0] > fov[1] ? fov[0] : fov[1]),
-                                 {fov[0], fov[1]}};
+                                 {fov[0], fov[1]},
+                                 a.s_crings ? (int)a.coil_rings : 1,
+                                 a.coil_rings == 2 ? (a.s_crgap ? a.coil_ring_gap : 0.5 * fov[2]) : 0.0,
+                                 fov[2]};
+            ncoils = kw_coil_ring_channels(&ring);
             md[0] = (size_t)ncoils;
-            if ((st = kw_array_alloc(&maps, KW_C64, 3, md))) {
+            if ((st = kw_array_alloc(&maps, KW_C64, mnd, md))) {
                 ret = kw_cli_status(st, "coils");
                 goto done;
             }
-            if ((st = kw_coil_ring_maps(&ring, n[0], n[1], maps.data))) {
+            if (ndim == 3)
+                st = kw_coil_ring_maps3(&ring, n[0], n[1], n[2], maps.data);
+            else
+                st = kw_coil_ring_maps(&ring, n[0], n[1], maps.data);
+            if (st) {
                 ret = kw_cli_status(st, "coils");
                 goto done;
             }
@@ -1017,52 +1073,79 @@ int kw_cmd_encode(int argc, char **argv)
                 ret = kw_cli_fail("sens", "expected complex64 or real maps");
                 goto done;
             }
-            int ok = (sensin.ndim == 3 && sensin.dims[1] == n[1] && sensin.dims[2] == n[0] &&
+            int ok;
+            if (ndim == 3)
+                ok = (sensin.ndim == 4 && sensin.dims[1] == n[2] && sensin.dims[2] == n[1] &&
+                      sensin.dims[3] == n[0] && sensin.dims[0] >= 1 && sensin.dims[0] <= 128) ||
+                     (sensin.ndim == 3 && sensin.dims[0] == n[2] && sensin.dims[1] == n[1] &&
+                      sensin.dims[2] == n[0]);
+            else
+                ok = (sensin.ndim == 3 && sensin.dims[1] == n[1] && sensin.dims[2] == n[0] &&
                       sensin.dims[0] >= 1 && sensin.dims[0] <= 128) ||
                      (sensin.ndim == 2 && sensin.dims[0] == n[1] && sensin.dims[1] == n[0]);
             if (!ok) {
-                ret = kw_cli_fail("sens", "shape does not match: expected (coils, %zu, %zu)", n[1],
-                                  n[0]);
+                if (ndim == 3)
+                    ret = kw_cli_fail("sens", "shape does not match: expected (coils, %zu, %zu, %zu)",
+                                      n[2], n[1], n[0]);
+                else
+                    ret = kw_cli_fail("sens", "shape does not match: expected (coils, %zu, %zu)",
+                                      n[1], n[0]);
                 goto done;
             }
             if ((st = kw_array_all_finite(&sensin))) {
                 ret = kw_cli_status(st, "sens");
                 goto done;
             }
-            ncoils = sensin.ndim == 3 ? (int)sensin.dims[0] : 1;
+            ncoils = sensin.ndim == mnd ? (int)sensin.dims[0] : 1;
             md[0] = (size_t)ncoils;
-            if ((st = kw_array_alloc(&maps, KW_C64, 3, md))) {
+            if ((st = kw_array_alloc(&maps, KW_C64, mnd, md))) {
                 ret = kw_cli_status(st, "sens");
                 goto done;
             }
-            size_t cnt = (size_t)ncoils * n[0] * n[1];
+            size_t cnt = (size_t)ncoils * nvox;
             for (size_t i = 0; i < cnt; i++)
                 ((float complex *)maps.data)[i] =
                     sensin.dtype == KW_C64 ? ((float complex *)sensin.data)[i]
                                            : (float complex)((float *)sensin.data)[i];
         }
-        int side2 = (int)(2 * a.coil_order + 1) * (int)(2 * a.coil_order + 1);
-        coef = malloc((size_t)ncoils * side2 * sizeof *coef);
+        int L = (int)a.coil_order, sd = 2 * L + 1;
+        int Lz = ndim == 3 ? (int)a.coil_order_z : 0, sidez = 2 * Lz + 1;
+        int nterm = sd * sd * sidez;
+        coef = malloc((size_t)ncoils * nterm * sizeof *coef);
         resid = malloc((size_t)ncoils * sizeof *resid);
         if (!coef || !resid) {
             ret = kw_cli_fail("coils", "out of memory");
             goto done;
         }
-        if ((st = kw_coil_fit(maps.data, ncoils, n[0], n[1], cover.data, (int)a.coil_order,
-                              COIL_PERIOD, coef, resid))) {
+        if (ndim == 3)
+            st = kw_coil_fit3(maps.data, ncoils, n[0], n[1], n[2], cover.data, L, Lz, COIL_PERIOD,
+                              coef, resid);
+        else
+            st = kw_coil_fit(maps.data, ncoils, n[0], n[1], cover.data, L, COIL_PERIOD, coef,
+                             resid);
+        if (st) {
             ret = kw_cli_status(st, a.s_coils ? "coils" : "sens");
             goto done;
         }
         /* The data are exact for the fitted series: write those maps. */
         for (int c = 0; c < ncoils; c++)
-            for (size_t r = 0; r < n[1]; r++)
-                for (size_t x = 0; x < n[0]; x++) {
-                    double u = ((double)x - (double)(n[0] / 2)) / (double)n[0];
-                    double v = ((double)r - (double)(n[1] / 2)) / (double)n[1];
-                    ((float complex *)maps.data)[((size_t)c * n[1] + r) * n[0] + x] =
-                        (float complex)kw_coil_series_eval(coef + (size_t)c * side2,
-                                                           (int)a.coil_order, COIL_PERIOD, u, v);
-                }
+            for (size_t k = 0; k < (ndim == 3 ? n[2] : 1); k++)
+                for (size_t r = 0; r < n[1]; r++)
+                    for (size_t x = 0; x < n[0]; x++) {
+                        double u = ((double)x - (double)(n[0] / 2)) / (double)n[0];
+                        double v = ((double)r - (double)(n[1] / 2)) / (double)n[1];
+                        double w3 = ndim == 3 ? ((double)k - (double)(n[2] / 2)) / (double)n[2] : 0;
+                        const double complex *cc = coef + (size_t)c * nterm;
+                        double complex f = 0;
+                        for (int zz = -Lz; zz <= Lz; zz++) {
+                            double phz = 2.0 * KW_PI * zz * w3 / COIL_PERIOD;
+                            f += kw_coil_series_eval(cc + (size_t)(zz + Lz) * sd * sd, L,
+                                                     COIL_PERIOD, u, v) *
+                                 (cos(phz) + I * sin(phz));
+                        }
+                        ((float complex *)maps.data)[(size_t)c * nvox + (k * n[1] + r) * n[0] + x] =
+                            (float complex)f;
+                    }
     }
 
     /* ---- noise covariance ---- */
@@ -1143,6 +1226,7 @@ int kw_cmd_encode(int argc, char **argv)
     so.times_per_sample = times_full;
     so.ncoils = ncoils;
     so.coil_order = (int)a.coil_order;
+    so.coil_order_z = ndim == 3 ? (int)a.coil_order_z : 0;
     so.coil_period = COIL_PERIOD;
     so.coil_coef = coef;
 
@@ -1395,8 +1479,14 @@ int kw_cmd_encode(int argc, char **argv)
             cJSON_AddNumberToObject(co, "distance_m",
                                     a.s_cd ? a.coil_distance
                                            : 0.75 * (fov[0] > fov[1] ? fov[0] : fov[1]));
+            cJSON_AddNumberToObject(co, "rings", a.coil_rings == 2 ? 2 : 1);
+            cJSON_AddNumberToObject(co, "loops_per_ring", (double)a.coils);
+            if (a.coil_rings == 2)
+                cJSON_AddNumberToObject(co, "ring_gap_m", a.s_crgap ? a.coil_ring_gap : 0.5 * fov[2]);
         }
         cJSON_AddNumberToObject(co, "series_order", (double)a.coil_order);
+        if (ndim == 3)
+            cJSON_AddNumberToObject(co, "order_z", (double)a.coil_order_z);
         cJSON_AddNumberToObject(co, "series_period_fov", COIL_PERIOD);
         kw_json_add_vec(co, "fit_residual", resid, ncoils);
     }
@@ -1440,9 +1530,15 @@ int kw_cmd_encode(int argc, char **argv)
         goto done;
     }
     if (ncoils > 0 && !kw_cli_quiet) {
-        printf("coil sensitivities: trigonometric series of order %ld (%ld terms), fit residual "
-               "(relative RMS over the object):\n", a.coil_order,
-               (2 * a.coil_order + 1) * (2 * a.coil_order + 1));
+        long lz = ndim == 3 ? a.coil_order_z : 0;
+        if (ndim == 3)
+            printf("coil sensitivities: 3-D trigonometric series of orders %ld (x, y) and %ld (z) "
+                   "(%ld terms), fit residual (relative RMS over the object):\n", a.coil_order, lz,
+                   (2 * a.coil_order + 1) * (2 * a.coil_order + 1) * (2 * lz + 1));
+        else
+            printf("coil sensitivities: trigonometric series of order %ld (%ld terms), fit residual "
+                   "(relative RMS over the object):\n", a.coil_order,
+                   (2 * a.coil_order + 1) * (2 * a.coil_order + 1));
         for (int c = 0; c < ncoils; c++)
             printf("  coil %d: %.3g%%\n", c, 100.0 * resid[c]);
     }

@@ -60,9 +60,19 @@ kw_status kw_loop_field(const double c[3], const double n[3], double a, double c
     return KW_OK;
 }
 
+int kw_coil_ring_channels(const kw_coil_ring *ring)
+{
+    return ring->ncoils * (ring->rings > 1 ? ring->rings : 1);
+}
+
 static kw_status ring_check(const kw_coil_ring *ring)
 {
     KW_FAIL_IF(!ring, KW_EINVAL, "coils: NULL ring");
+    KW_FAIL_IF(ring->rings < 0 || ring->rings > 2, KW_EINVAL, "coil-rings: 1 or 2 (got %d)",
+               ring->rings);
+    KW_FAIL_IF(ring->rings == 2 && (!(ring->ring_gap > 0) || !isfinite(ring->ring_gap)),
+               KW_EINVAL, "coil-ring-gap: must be positive for two rings");
+    KW_FAIL_IF(ring->fov_z < 0 || !isfinite(ring->fov_z), KW_EINVAL, "fov: z must be positive");
     KW_FAIL_IF(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL,
                "coils: count must be 1..128 (got %d)", ring->ncoils);
     KW_FAIL_IF(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL,
@@ -75,15 +85,65 @@ static kw_status ring_check(const kw_coil_ring *ring)
     return KW_OK;
 }
 
-static void ring_raw(const kw_coil_ring *ring, int cidx, double xm, double ym,
+static void ring_raw(const kw_coil_ring *ring, int cidx, double xm, double ym, double zm,
                      double complex *s)
 {
-    double phi = 2.0 * KW_PI * cidx / ring->ncoils;
-    double c[3] = {ring->distance * cos(phi), ring->distance * sin(phi), 0};
+    int g = cidx / ring->ncoils, k = cidx % ring->ncoils;
+    double phi = 2.0 * KW_PI * k / ring->ncoils + (g == 1 ? KW_PI / ring->ncoils : 0.0);
+    double zc = ring->rings == 2 ? (g == 0 ? -0.5 : 0.5) * ring->ring_gap : 0.0;
+    double c[3] = {ring->distance * cos(phi), ring->distance * sin(phi), zc};
     double n[3] = {-cos(phi), -sin(phi), 0};
-    double r[3] = {xm, ym, 0}, b[3] = {0, 0, 0};
+    double r[3] = {xm, ym, zm}, b[3] = {0, 0, 0};
     kw_loop_field(c, n, ring->radius, 1.0, r, b);
     *s = b[0] - I * b[1];
+}
+
+kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
+                             double complex *s)
+{
+    kw_status st = ring_check(ring);
+    if (st)
+        return st;
+    int nch = kw_coil_ring_channels(ring);
+    double norm = 0;
+    for (int c = 0; c < nch; c++) {
+        double complex s0;
+        ring_raw(ring, c, 0, 0, 0, &s0);
+        norm += creal(s0 * conj(s0));
+    }
+    norm = 1.0 / sqrt(norm);
+    for (int c = 0; c < nch; c++) {
+        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], 0.5 * z * ring->fov_z,
+                 &s[c]);
+        s[c] *= norm;
+    }
+    return KW_OK;
+}
+
+kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
+                             float complex *out)
+{
+    kw_status st = ring_check(ring);
+    if (st)
+        return st;
+    KW_FAIL_IF(!out || !nx || !ny || !nz, KW_EINVAL, "coils: empty grid");
+    KW_FAIL_IF(!(ring->fov_z > 0), KW_EINVAL, "fov: z must be positive for 3-D maps");
+    int nch = kw_coil_ring_channels(ring);
+    size_t nv = nx * ny * nz;
+#pragma omp parallel for schedule(static)
+    for (size_t zr = 0; zr < nz * ny; zr++) {
+        size_t iz = zr / ny, r = zr % ny;
+        double complex s[256];
+        double z = ((double)iz - (double)(nz / 2)) * 2.0 / (double)nz;
+        double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
+        for (size_t col = 0; col < nx; col++) {
+            double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
+            kw_coil_ring_sens3(ring, x, y, z, s);
+            for (int c = 0; c < nch; c++)
+                out[(size_t)c * nv + zr * nx + col] = (float complex)s[c];
+        }
+    }
+    return KW_OK;
 }
 
 kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
@@ -92,18 +152,7 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
     kw_status st = ring_check(ring);
     if (st)
         return st;
-    double norm = 0;
-    for (int c = 0; c < ring->ncoils; c++) {
-        double complex s0;
-        ring_raw(ring, c, 0, 0, &s0);
-        norm += creal(s0 * conj(s0));
-    }
-    norm = 1.0 / sqrt(norm);
-    for (int c = 0; c < ring->ncoils; c++) {
-        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], &s[c]);
-        s[c] *= norm;
-    }
-    return KW_OK;
+    return kw_coil_ring_sens3(ring, x, y, 0.0, s);
 }
 
 kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
@@ -113,8 +162,8 @@ kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
     if (st)
         return st;
     KW_FAIL_IF(!out || !nx || !ny, KW_EINVAL, "coils: empty grid");
-    int nc = ring->ncoils;
-    double complex s[128];
+    int nc = kw_coil_ring_channels(ring);
+    double complex s[256];
     for (size_t r = 0; r < ny; r++)
         for (size_t col = 0; col < nx; col++) {
             double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
@@ -255,5 +304,133 @@ done:
     free(idx);
     free(ex);
     free(ey);
+    return st;
+}
+
+/* exp(i 2 pi m t / period) for m = -order..order at the n positions
+ * t = (i - n/2) / n: n x (2 order + 1) values. */
+static void basis_table(size_t n, int order, double period, double complex *e)
+{
+    int side = 2 * order + 1;
+    for (size_t i = 0; i < n; i++) {
+        double t = ((double)i - (double)(n / 2)) / (double)n;
+        for (int m = -order; m <= order; m++) {
+            double ph = 2.0 * KW_PI * m * t / period;
+            e[i * side + (m + order)] = cos(ph) + I * sin(ph);
+        }
+    }
+}
+
+kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
+                       const float *weight, int order, int order_z, double period,
+                       double complex *coef, double *residual)
+{
+    KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny || !nz, KW_EINVAL,
+               "coil fit: bad arguments");
+    KW_FAIL_IF(order < 0 || order > 8 || order_z < 0 || order_z > 8, KW_ERANGE,
+               "coil-order: %d, %d outside 0..8", order, order_z);
+    KW_FAIL_IF(!(period > 0) || !isfinite(period), KW_EINVAL, "coil fit: period must be positive");
+    const int side = 2 * order + 1, sz = 2 * order_z + 1, P = side * side * sz;
+    KW_FAIL_IF(P > 1024, KW_ERANGE, "coil-order: %d coefficients per coil (at most 1024)", P);
+    const size_t nv = nx * ny * nz;
+    size_t sx = (nx + 19) / 20, sy = (ny + 19) / 20, szs = (nz + 19) / 20;
+    size_t M = 0;
+    for (size_t k = 0; k < nz; k += szs)
+        for (size_t r = 0; r < ny; r += sy)
+            for (size_t c = 0; c < nx; c += sx)
+                if (!weight || weight[(k * ny + r) * nx + c] != 0)
+                    M++;
+    KW_FAIL_IF(M < (size_t)P, KW_EINVAL,
+               "coil fit: %zu fit points for %d coefficients (object too small "
+               "or order too high)", M, P);
+    double complex *G = calloc((size_t)P * P, sizeof *G);
+    double complex *H = calloc((size_t)P * ncoils, sizeof *H);
+    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
+    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
+    double complex *ez = malloc(nz * (size_t)sz * sizeof *ez);
+    double complex *a = malloc((size_t)P * sizeof *a);
+    double complex *t = malloc((size_t)side * sizeof *t);
+    kw_status st = KW_OK;
+    if (!G || !H || !ex || !ey || !ez || !a || !t) {
+        st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
+        goto done;
+    }
+    basis_table(nx, order, period, ex);
+    basis_table(ny, order, period, ey);
+    basis_table(nz, order_z, period, ez);
+    /* normal equations G = A^H A and right-hand sides A^H s, one fit point
+     * (one basis row a) at a time */
+    for (size_t k = 0; k < nz; k += szs)
+        for (size_t r = 0; r < ny; r += sy)
+            for (size_t c = 0; c < nx; c += sx) {
+                size_t v = (k * ny + r) * nx + c;
+                if (weight && weight[v] == 0)
+                    continue;
+                for (int w = 0; w < sz; w++)
+                    for (int q = 0; q < side; q++)
+                        for (int p = 0; p < side; p++)
+                            a[(w * side + q) * side + p] =
+                                ez[k * sz + w] * ey[r * side + q] * ex[c * side + p];
+                for (int i = 0; i < P; i++) {
+                    double complex ci = conj(a[i]);
+                    for (int j = 0; j <= i; j++)
+                        G[i * P + j] += ci * a[j];
+                }
+                for (int ch = 0; ch < ncoils; ch++) {
+                    double complex m = maps[(size_t)ch * nv + v];
+                    for (int i = 0; i < P; i++)
+                        H[(size_t)ch * P + i] += conj(a[i]) * m;
+                }
+            }
+    double tr = 0;
+    for (int i = 0; i < P; i++)
+        tr += creal(G[i * P + i]);
+    for (int i = 0; i < P; i++)
+        G[i * P + i] += 1e-10 * tr / P;
+    if (kw_chol(G, (size_t)P) != KW_OK) {
+        st = kw_set_error(KW_ENUMERIC, "coil fit: normal equations not positive definite");
+        goto done;
+    }
+    for (int ch = 0; ch < ncoils; ch++) {
+        double complex *h = H + (size_t)ch * P;
+        kw_chol_solve(G, (size_t)P, h);
+        memcpy(coef + (size_t)ch * P, h, (size_t)P * sizeof *h);
+        if (!residual)
+            continue;
+        /* the fit on every weighted voxel: per (z, y) row the x-series
+         * coefficients t_p, then side terms per voxel */
+        double num = 0, den = 0;
+        const float complex *mp = maps + (size_t)ch * nv;
+        for (size_t k = 0; k < nz; k++)
+            for (size_t r = 0; r < ny; r++) {
+                for (int p = 0; p < side; p++) {
+                    double complex acc = 0;
+                    for (int w = 0; w < sz; w++)
+                        for (int q = 0; q < side; q++)
+                            acc += h[(w * side + q) * side + p] * ez[k * sz + w] * ey[r * side + q];
+                    t[p] = acc;
+                }
+                for (size_t c = 0; c < nx; c++) {
+                    size_t v = (k * ny + r) * nx + c;
+                    if (weight && weight[v] == 0)
+                        continue;
+                    double complex f = 0;
+                    for (int p = 0; p < side; p++)
+                        f += t[p] * ex[c * side + p];
+                    double complex e = f - mp[v];
+                    num += creal(e * conj(e));
+                    den += creal(mp[v] * conj(mp[v]));
+                }
+            }
+        residual[ch] = den > 0 ? sqrt(num / den) : 0.0;
+    }
+done:
+    free(G);
+    free(H);
+    free(ex);
+    free(ey);
+    free(ez);
+    free(a);
+    free(t);
     return st;
 }

@@ -39,11 +39,20 @@ kw_status kw_loop_field(const double c[3], const double n[3], double a, double c
                         const double r[3], double b[3]);
 
 typedef struct kw_coil_ring {
-    int ncoils;
+    int ncoils;      /* loops per ring */
     double radius;   /* loop radius (m) */
     double distance; /* loop centre to z axis (m) */
     double fov[2];   /* FOV x, y (m), to place the image plane's pixels */
+    /* Optional (zero: one ring in the plane z = 0). rings = 2: two rings of
+     * ncoils loops with centres at z = -gap/2 and +gap/2, the second turned
+     * by half a loop spacing (pi / ncoils); channels ring by ring. */
+    int rings;
+    double ring_gap; /* m */
+    double fov_z;    /* FOV along z (m), to place 3-D voxels */
 } kw_coil_ring;
+
+/*! kw_coil_ring_channels(): ncoils x max(rings, 1). */
+int kw_coil_ring_channels(const kw_coil_ring *ring);
 
 /*! kw_coil_ring_sens(): complex sensitivity of every coil at the phantom
  * point (x, y) in [-1, 1] (z = 0), normalised as above: s[ncoils]. The loop
@@ -52,9 +61,30 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
                             double complex *s);
 
 /*! kw_coil_ring_maps(): sensitivity maps on the pixel grid (kw_phantom.h
- * grid, 2-D) of nx x ny: out = ncoils x ny x nx (C order). */
+ * grid, 2-D) of nx x ny: out = channels x ny x nx (C order). */
 kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
                             float complex *out);
+
+/*! kw_coil_ring_sens3()/kw_coil_ring_maps3(): the same in 3-D: the point
+ * (x, y, z) in [-1, 1]^3 (z along B0, scaled by fov_z / 2; voxel iz at
+ * z = (iz - nz/2) 2 / nz), maps channels x nz x ny x nx. Normalised so that
+ * the root-sum-of-squares over all channels is 1 at the centre. */
+kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
+                             double complex *s);
+kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
+                             float complex *out);
+
+/*! kw_coil_fit3(): the 3-D series
+ *   s(u, v, w) = sum_{|p|,|q| <= order, |r| <= order_z} c_pqr
+ *                exp(i 2 pi (p u + q v + r w) / period),
+ * w = z/2 along the array's z axis (FOV units), fitted by least squares
+ * over the voxels where weight != 0, subsampled to at most ~20 per axis
+ * for the solve; coef = channels x (2 order_z + 1)(2 order + 1)^2 values,
+ * index ((r + order_z)(2 order + 1) + (q + order))(2 order + 1) + (p + order);
+ * residual[c] over all weighted voxels. */
+kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
+                       const float *weight, int order, int order_z, double period,
+                       double complex *coef, double *residual);
 
 /*! kw_coil_fit(): least-squares fit of each map (ncoils x ny x nx samples on
  * the pixel grid) by the trigonometric series

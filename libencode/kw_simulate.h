@@ -63,6 +63,11 @@ typedef struct kw_sim_options {
      * (u right, v down, FOV units); or ncoils = 0: one channel, sensitivity 1. */
     int ncoils;
     int coil_order;
+    /* 3-D phantoms: order Lz along z; coil_coef then holds ncoils x
+     * (2 Lz + 1)(2L+1)^2 coefficients of kw_coil_fit3's series (index
+     * ((r + Lz)(2L + 1) + (q + L))(2L + 1) + (p + L), w = z/2 along the
+     * array's z axis); at most 1024 per coil. Ignored for 2-D. */
+    int coil_order_z;
     double coil_period;
     const double complex *coil_coef;
 

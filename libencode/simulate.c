@@ -12,13 +12,14 @@
 #include "kw_rng.h"
 
 #define MAX_ORDER 8
-#define MAX_TERMS ((2 * MAX_ORDER + 1) * (2 * MAX_ORDER + 1))
+#define MAX_TERMS 1024 /* (2L+1)^2 in 2-D, (2Lz+1)(2L+1)^2 in 3-D */
 
 struct kw_sim {
     kw_sim_options o;
     int nshapes;
     int channels;
-    int terms;               /* (2L+1)^2, 1 without coils */
+    int terms;               /* (2L+1)^2 (3-D: (2Lz+1)(2L+1)^2), 1 without coils */
+    int lz;                  /* Lz: the series' order along z (0 in 2-D) */
     double steady[KW_PHANTOM_MAX_SHAPES];
     double t2[KW_PHANTOM_MAX_SHAPES], t2s[KW_PHANTOM_MAX_SHAPES];
     double df[KW_PHANTOM_MAX_SHAPES];
@@ -83,6 +84,13 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
         KW_FAIL_IF(!opt->coil_coef, KW_EINVAL, "coils: no coefficients");
         KW_FAIL_IF(opt->coil_order < 0 || opt->coil_order > MAX_ORDER, KW_ERANGE,
                    "coils: series order %d (0..%d)", opt->coil_order, MAX_ORDER);
+        if (p->ndim == 3) {
+            int sd = 2 * opt->coil_order + 1;
+            KW_FAIL_IF(opt->coil_order_z < 0 || opt->coil_order_z > MAX_ORDER ||
+                           (2 * opt->coil_order_z + 1) * sd * sd > MAX_TERMS,
+                       KW_ERANGE, "coils: 3-D series orders %d, %d (at most %d terms)",
+                       opt->coil_order, opt->coil_order_z, MAX_TERMS);
+        }
         KW_FAIL_IF(!(opt->coil_period > 0) || !isfinite(opt->coil_period), KW_EINVAL,
                    "coils: period must be positive");
     }
@@ -103,7 +111,10 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
     s->o.n[2] = nz;
     s->nshapes = p->nshapes;
     s->channels = opt->ncoils > 0 ? opt->ncoils : 1;
-    s->terms = opt->ncoils > 0 ? (2 * opt->coil_order + 1) * (2 * opt->coil_order + 1) : 1;
+    s->lz = opt->ncoils > 0 && p->ndim == 3 ? opt->coil_order_z : 0;
+    s->terms = opt->ncoils > 0
+                   ? (2 * s->lz + 1) * (2 * opt->coil_order + 1) * (2 * opt->coil_order + 1)
+                   : 1;
     s->count = opt->traj ? opt->nsamples : opt->n[0] * opt->n[1] * nz;
     double fat_hz = KW_FAT_SHIFT_PPM * 1e-6 * KW_GAMMA_BAR_P * c->b0_t;
     for (int i = 0; i < p->nshapes; i++) {
@@ -152,17 +163,21 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
             free(s);
             return kw_set_error(KW_ENOMEM, "simulate: out of memory");
         }
-        int L = opt->coil_order, side = 2 * L + 1;
+        int L = opt->coil_order, side = 2 * L + 1, Lz = s->lz;
         for (int i = 0; i < p->nshapes; i++)
-            for (int q = -L; q <= L; q++)
-                for (int pp = -L; pp <= L; pp++) {
-                    /* k shifted by (p, q)/period cycles/FOV along (kx, kv) is
-                     * the phantom frequency shifted by (p/2, -q/2)/period */
-                    double dfx = 0.5 * pp / opt->coil_period, dfy = -0.5 * q / opt->coil_period;
-                    double ph = 2.0 * KW_PI * (dfx * s->fs[i].cx + dfy * s->fs[i].cy);
-                    s->shift_phase[(size_t)i * s->terms + (q + L) * side + (pp + L)] =
-                        cos(ph) + I * sin(ph);
-                }
+            for (int r = -Lz; r <= Lz; r++)
+                for (int q = -L; q <= L; q++)
+                    for (int pp = -L; pp <= L; pp++) {
+                        /* k shifted by (p, q, r)/period cycles/FOV along
+                         * (kx, kv, kz) is the phantom frequency shifted by
+                         * (p/2, -q/2, r/2)/period */
+                        double dfx = 0.5 * pp / opt->coil_period, dfy = -0.5 * q / opt->coil_period;
+                        double dfz = 0.5 * r / opt->coil_period;
+                        double ph = 2.0 * KW_PI *
+                                    (dfx * s->fs[i].cx + dfy * s->fs[i].cy + dfz * s->fs[i].cz);
+                        s->shift_phase[(size_t)i * s->terms + ((r + Lz) * side + (q + L)) * side +
+                                       (pp + L)] = cos(ph) + I * sin(ph);
+                    }
     }
     *out = s;
     return KW_OK;
@@ -275,7 +290,7 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
      * the object spectra at the shifted frequencies are shared by all coils.
      * F(f - d) = A(f - d) exp(-i 2 pi f.c) exp(+i 2 pi d.c): the centre's
      * phase at f is computed once per shape, the shift's from a table. */
-    int L = s->o.coil_order, side = 2 * L + 1;
+    int L = s->o.coil_order, side = 2 * L + 1, Lz = s->lz;
     double inv = 1.0 / s->o.coil_period;
     double complex g[MAX_TERMS];
     double complex wph[KW_PHANTOM_MAX_SHAPES];
@@ -292,11 +307,35 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
             continue;
         const struct fast_shape *f = &s->fs[i];
         const double complex *sp = s->shift_phase + (size_t)i * s->terms;
-        for (int q = -L; q <= L; q++) {
-            double fyq = fy + 0.5 * q * inv;
-            for (int pp = -L; pp <= L; pp++) {
-                int j = (q + L) * side + (pp + L);
-                g[j] += wph[i] * sp[j] * fast_mag(f, fx - 0.5 * pp * inv, fyq, fz);
+        if ((f->kind == KW_SHAPE_BOX || f->kind == KW_SHAPE_RECT) && f->sa == 0) {
+            /* an axis-aligned box or rectangle: its spectrum is a product of
+             * sincs, one table per axis (19 sincs instead of 3 x 245) */
+            double tx[2 * MAX_ORDER + 1], ty[2 * MAX_ORDER + 1], tz[2 * MAX_ORDER + 1];
+            for (int pp = -L; pp <= L; pp++)
+                tx[pp + L] = kw_ft_sinc(2.0 * f->a * (fx - 0.5 * pp * inv) * f->ca);
+            for (int q = -L; q <= L; q++)
+                ty[q + L] = kw_ft_sinc(2.0 * f->b * (fy + 0.5 * q * inv) * f->ca);
+            double amp = f->kind == KW_SHAPE_BOX ? 8.0 * f->a * f->b * f->c : 4.0 * f->a * f->b;
+            for (int r = -Lz; r <= Lz; r++)
+                tz[r + Lz] = f->kind == KW_SHAPE_BOX ? amp * kw_ft_sinc(2.0 * f->c * (fz - 0.5 * r * inv))
+                                                     : amp;
+            for (int r = 0; r < 2 * Lz + 1; r++)
+                for (int q = 0; q < side; q++) {
+                    double zy = tz[r] * ty[q];
+                    int j0 = (r * side + q) * side;
+                    for (int pp = 0; pp < side; pp++)
+                        g[j0 + pp] += wph[i] * sp[j0 + pp] * (zy * tx[pp]);
+                }
+            continue;
+        }
+        for (int r = -Lz; r <= Lz; r++) {
+            double fzr = fz - 0.5 * r * inv;
+            for (int q = -L; q <= L; q++) {
+                double fyq = fy + 0.5 * q * inv;
+                for (int pp = -L; pp <= L; pp++) {
+                    int j = ((r + Lz) * side + (q + L)) * side + (pp + L);
+                    g[j] += wph[i] * sp[j] * fast_mag(f, fx - 0.5 * pp * inv, fyq, fzr);
+                }
             }
         }
     }
