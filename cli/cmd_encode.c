@@ -64,63 +64,15 @@ static int parse_matrix(const char *s, size_t n[3])
 }
 
 /* "256mm" / "256mm,200mm[,120mm]" -> metres. */
+/* FOV: one to three positive lengths. */
 static int parse_fov(const char *s, double f[3], char *why, size_t wl)
 {
-    char buf[256];
-    snprintf(buf, sizeof buf, "%s", s);
-    int k = 0;
-    char *save = NULL;
-    for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
-        if (k == 3) {
-            snprintf(why, wl, "at most three lengths");
+    int k = kw_unit_parse_list(s, KW_UNIT_LENGTH, f, 3, why, wl);
+    for (int i = 0; i < k; i++)
+        if (!(f[i] > 0)) {
+            snprintf(why, wl, "must be positive (got %g m)", f[i]);
             return -1;
         }
-        if (kw_unit_parse(t, KW_UNIT_LENGTH, &f[k], why, wl))
-            return -1;
-        if (!(f[k] > 0)) {
-            snprintf(why, wl, "must be positive (got '%s')", t);
-            return -1;
-        }
-        k++;
-    }
-    if (k == 0) {
-        snprintf(why, wl, "empty");
-        return -1;
-    }
-    return k;
-}
-
-/* Up to three comma-separated values with units of `kind` (signs allowed);
- * returns how many, or -1 with `why`. */
-static int parse_values(const char *s, kw_unit_kind kind, double f[3], char *why, size_t wl)
-{
-    char buf[256];
-    snprintf(buf, sizeof buf, "%s", s);
-    int k = 0;
-    char *save = NULL;
-    for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
-        if (k == 3) {
-            snprintf(why, wl, "at most three values");
-            return -1;
-        }
-        char *end = NULL;
-        double z = strtod(t, &end);
-        if (end != t && z == 0 && *end == '\0') {
-            f[k++] = 0; /* a bare zero needs no unit */
-            continue;
-        }
-        if (kw_unit_parse(t, kind, &f[k], why, wl))
-            return -1;
-        if (!isfinite(f[k])) {
-            snprintf(why, wl, "'%s' is not finite", t);
-            return -1;
-        }
-        k++;
-    }
-    if (k == 0) {
-        snprintf(why, wl, "empty");
-        return -1;
-    }
     return k;
 }
 
@@ -724,7 +676,7 @@ int kw_cmd_encode(int argc, char **argv)
     /* a linear field (T/m) -> off-resonance in Hz per FOV: gamma-bar G FOV */
     double fgrad_t[3] = {0, 0, 0}, fgrad_hz[3] = {0, 0, 0};
     if (a.s_fgrad) {
-        int k = parse_values(a.field_grad, KW_UNIT_GRADIENT, fgrad_t, why, sizeof why);
+        int k = kw_unit_parse_list(a.field_grad, KW_UNIT_GRADIENT, fgrad_t, 3, why, sizeof why);
         if (k < 0)
             return kw_cli_fail("field-gradient", "%s", why);
         if (k < ndim)

@@ -72,22 +72,11 @@ static kw_status parse_count(const char *key, const char *val, long lo, long hi,
 /* "256mm" or "256mm,192mm" or "256mm,192mm,64mm". */
 static kw_status parse_fov(const char *val, double *fov, int *n)
 {
-    char buf[256];
-    KW_FAIL_IF(strlen(val) >= sizeof buf, KW_EINVAL, "fov: too long");
-    KW_FAIL_IF(val[0] == ',' || strstr(val, ",,"), KW_EINVAL, "fov: empty entry in '%s'", val);
-    strcpy(buf, val);
-    *n = 0;
-    char *save = NULL;
-    for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
-        KW_FAIL_IF(*n >= 3, KW_EINVAL, "fov: at most three lengths x,y,z");
-        kw_status st = parse_unit("fov", t, KW_UNIT_LENGTH, &fov[*n]);
-        if (st)
-            return st;
-        KW_FAIL_IF(!(fov[*n] > 0), KW_EINVAL, "fov: must be positive (got '%s')", t);
-        (*n)++;
-    }
-    KW_FAIL_IF(*n == 0, KW_EINVAL, "fov: empty");
-    KW_FAIL_IF(strchr(val, ',') && val[strlen(val) - 1] == ',', KW_EINVAL, "fov: trailing ','");
+    char why[200];
+    *n = kw_unit_parse_list(val, KW_UNIT_LENGTH, fov, 3, why, sizeof why);
+    KW_FAIL_IF(*n < 0, KW_EINVAL, "fov: %s", why);
+    for (int i = 0; i < *n; i++)
+        KW_FAIL_IF(!(fov[i] > 0), KW_EINVAL, "fov: must be positive (got %g m)", fov[i]);
     return KW_OK;
 }
 

@@ -194,3 +194,39 @@ kw_status kw_unit_parse_bandwidth(const char *s, double *hz, int *per_pixel,
              unit, pp ? "/pixel" : "");
     return KW_EINVAL;
 }
+
+int kw_unit_parse_list(const char *s, kw_unit_kind kind, double *si, int max, char *why,
+                       size_t whylen)
+{
+    char buf[256];
+    size_t len = strlen(s);
+    if (len >= sizeof buf) {
+        snprintf(why, whylen, "too long");
+        return -1;
+    }
+    if (len == 0 || s[0] == ',' || s[len - 1] == ',' || strstr(s, ",,")) {
+        snprintf(why, whylen, "an empty entry in '%s'", s);
+        return -1;
+    }
+    memcpy(buf, s, len + 1);
+    int k = 0;
+    char *save = NULL;
+    for (char *t = strtok_r(buf, ",", &save); t; t = strtok_r(NULL, ",", &save)) {
+        if (k == max) {
+            snprintf(why, whylen, "at most %d values", max);
+            return -1;
+        }
+        char *end = NULL;
+        double z = strtod(t, &end);
+        while (end && (*end == ' ' || *end == '\t'))
+            end++;
+        if (end != t && z == 0 && *end == '\0') {
+            si[k++] = 0; /* a bare zero needs no unit */
+            continue;
+        }
+        if (kw_unit_parse(t, kind, &si[k], why, whylen))
+            return -1;
+        k++;
+    }
+    return k;
+}

@@ -32,6 +32,13 @@ kw_status kw_unit_parse(const char *s, kw_unit_kind kind, double *si,
 kw_status kw_unit_parse_bandwidth(const char *s, double *hz, int *per_pixel,
                                   char *why, size_t whylen);
 
+/*! kw_unit_parse_list(): one to `max` comma-separated values of `kind`
+ * ("256mm,192mm", "20uT/m,0,-5uT/m"; a bare 0 needs no unit). Returns the
+ * count, or -1 with a reason in `why` (an empty entry, a trailing comma,
+ * too many values, a bad value). */
+int kw_unit_parse_list(const char *s, kw_unit_kind kind, double *si, int max, char *why,
+                       size_t whylen);
+
 /*! kw_unit_name(): the SI unit written for `kind` ("m", "T/m/s", ...). */
 const char *kw_unit_name(kw_unit_kind kind);
 

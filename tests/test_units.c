@@ -70,3 +70,27 @@ Test(units, wrong_or_missing_unit_is_clear)
     parse_bad("mm", KW_UNIT_LENGTH, "not a number");
     parse_bad("12 m m", KW_UNIT_LENGTH, "single word");
 }
+
+/* Lists: "256mm,192mm", signs, a bare zero, and the malformed forms. The
+ * SI values by hand: 20 uT/m = 2e-5 T/m; 1 G/cm = 0.01 T/m. */
+Test(units, lists)
+{
+    double v[3];
+    char why[200];
+    cr_assert_eq(kw_unit_parse_list("256mm,192mm", KW_UNIT_LENGTH, v, 3, why, sizeof why), 2);
+    NEAR(v[0], 0.256);
+    NEAR(v[1], 0.192);
+    cr_assert_eq(kw_unit_parse_list("20uT/m,0,-1G/cm", KW_UNIT_GRADIENT, v, 3, why, sizeof why), 3);
+    NEAR(v[0], 2e-5);
+    cr_expect_eq(v[1], 0.0);
+    NEAR(v[2], -0.01);
+    cr_expect_eq(kw_unit_parse_list("1mm,2mm,3mm,4mm", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+    cr_expect(strstr(why, "at most 3") != NULL, "%s", why);
+    cr_expect_eq(kw_unit_parse_list("1mm,,2mm", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+    cr_expect(strstr(why, "empty") != NULL, "%s", why);
+    cr_expect_eq(kw_unit_parse_list("1mm,", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+    cr_expect_eq(kw_unit_parse_list("", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+    cr_expect_eq(kw_unit_parse_list("1mm,2", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+    cr_expect(strstr(why, "missing unit") != NULL, "%s", why);
+    cr_expect_eq(kw_unit_parse_list("nanmm", KW_UNIT_LENGTH, v, 3, why, sizeof why), -1);
+}
