@@ -5,6 +5,7 @@ KWEAVE_LIB path of libkweave.so (ctypes checks; unset under sanitizers, where
            those checks are skipped)
 """
 import ctypes
+import json
 import os
 import subprocess
 
@@ -22,6 +23,21 @@ def run(*args, input=None, check=True):
     if check and p.returncode != 0:
         raise AssertionError(f"kweave {' '.join(map(str, args))} exited {p.returncode}: {p.stderr}")
     return p
+
+
+def centered_ifft2(k):
+    """The centered unitary inverse DFT over the last two axes (DESIGN.md's
+    convention, numpy.fft)."""
+    ax = (-2, -1)
+    return np.fft.fftshift(np.fft.ifftn(np.fft.ifftshift(k, axes=ax), axes=ax, norm="ortho"), axes=ax)
+
+
+def encode(d, name, *args):
+    """kweave encode --out d/name.npy ARGS; returns (k-space, sidecar dict)."""
+    out = d / f"{name}.npy"
+    run("encode", "--out", out, *args)
+    with open(d / f"{name}.json") as f:
+        return np.load(out), json.load(f)
 
 
 def bad(*args, field=None, code=2, input=None):

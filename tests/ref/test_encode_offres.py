@@ -14,25 +14,15 @@ References outside the simulator:
 - two independent computations inside kweave must agree: the analytic
   gradient (every sample's k moved to k + g tau) and the same linear field
   given as a map (fine-grid FFT/NUFFT with time segments)."""
-import json
 
 import numpy as np
 import pytest
 
 from conftest import bad, run
+from conftest import centered_ifft2 as recon
+from conftest import encode as enc
 
 GAMMA_BAR = 42.577478518e6  # CODATA 2018, Hz/T
-
-
-def recon(k):
-    ax = (-2, -1)
-    return np.fft.fftshift(np.fft.ifftn(np.fft.ifftshift(k, axes=ax), axes=ax, norm="ortho"), axes=ax)
-
-
-def enc(d, name, *args):
-    out = d / f"{name}.npy"
-    run("encode", "--out", out, *args)
-    return np.load(out), json.load(open(d / f"{name}.json"))
 
 
 def rel(a, b):

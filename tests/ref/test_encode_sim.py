@@ -7,20 +7,11 @@ import numpy as np
 import pytest
 
 from conftest import bad, run
+from conftest import centered_ifft2 as recon
+from conftest import encode as enc
 
 GAMMA_BAR = 42.577478518e6  # CODATA 2018, Hz/T
 FAT_PPM = -3.4               # main fat peak vs water (Hamilton et al. 2011; recalled from memory)
-
-
-def recon(k):
-    ax = (-2, -1)
-    return np.fft.fftshift(np.fft.ifftn(np.fft.ifftshift(k, axes=ax), axes=ax, norm="ortho"), axes=ax)
-
-
-def enc(tmp_path, name, *args):
-    out = tmp_path / f"{name}.npy"
-    run("encode", "--out", out, *args)
-    return np.load(out), json.load(open(tmp_path / f"{name}.json"))
 
 
 def test_off_resonance_of_one_over_readout_shifts_one_pixel(tmp_path):
