@@ -152,11 +152,18 @@ static double slice_centre(int i, int n, double t, double g)
  * the slice, `npts` points; each cut is an exact 2-D phantom). With `truth`
  * it writes the slab-averaged images (nsl x ny x nx); with `out` the k-space
  * (channels x nsl x ny x nx), plus noise when `chol` is given (slice s seeded
- * with kw_rng_mix(seed, s)). `base` gives grid, contrast, coils and mask. */
+ * with kw_rng_mix(seed, s)). `base` gives grid, contrast, coils and mask;
+ * `coef_sl`, when not NULL, each slice's own coil series (slice s at
+ * coef_sl + s x coils x terms). */
 static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, int nsl,
                             double fovz, double thk, double gap, int npts, float *truth,
-                            float complex *out, const double complex *chol, uint64_t seed)
+                            float complex *out, const double complex *chol, uint64_t seed,
+                            const double complex *coef_sl)
 {
+    const size_t cstride = base->ncoils > 0 ? (size_t)base->ncoils *
+                                                  (size_t)(2 * base->coil_order + 1) *
+                                                  (size_t)(2 * base->coil_order + 1)
+                                            : 0;
     double gx[32], gw[32];
     kw_status st = kw_gauss_legendre(npts, gx, gw);
     if (st)
@@ -187,6 +194,8 @@ static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, in
             kw_sim_options o = *base;
             o.phantom = &p2;
             o.noise_chol = NULL;
+            if (coef_sl && o.ncoils > 0)
+                o.coil_coef = coef_sl + (size_t)sl * cstride;
             if ((st = kw_sim_create(&sim, &o)))
                 goto done;
             double wt = 0.5 * gw[g]; /* the profile's mean: weights sum to 2 */
@@ -915,7 +924,8 @@ int kw_cmd_encode(int argc, char **argv)
     }
 
     /* ---- coils ---- */
-    int ncoils = 0;
+    int ncoils = 0, per_slice = 0;
+    const double complex *coef_sl = NULL;
     if (a.s_coils && a.s_sens) {
         ret = kw_cli_fail("coils", "give --coils (a ring of loops) or --sens (maps), not both");
         goto done;
@@ -985,12 +995,16 @@ int kw_cmd_encode(int argc, char **argv)
         }
     }
     if (a.s_coils || a.s_sens) {
-        /* maps (coils, [nz,] ny, nx) */
-        size_t md[4] = {0, n[2], n[1], n[0]};
-        const int mnd = ndim == 3 ? 4 : 3;
-        if (ndim == 2)
+        /* maps (coils, [nz,] ny, nx); multi-slice with a ring of loops: each
+         * slice's own maps, the loops' field in the plane of its centre,
+         * (coils, slices, ny, nx) */
+        per_slice = nsl > 0 && a.s_coils;
+        const int mnd = ndim == 3 || per_slice ? 4 : 3;
+        size_t md[4] = {0, ndim == 3 ? n[2] : (size_t)nsl, n[1], n[0]};
+        if (mnd == 3)
             md[1] = n[1], md[2] = n[0];
         const size_t nvox = n[0] * n[1] * (ndim == 3 ? n[2] : 1);
+        const size_t mvox = nvox * (per_slice ? (size_t)nsl : 1); /* one coil's maps */
         double ones[KW_PHANTOM_MAX_SHAPES];
         for (int i = 0; i < ph.nshapes; i++)
             ones[i] = 1.0;
@@ -1008,10 +1022,24 @@ int kw_cmd_encode(int argc, char **argv)
                 ret = kw_cli_status(st, "coils");
                 goto done;
             }
-            if (ndim == 3)
+            if (ndim == 3) {
                 st = kw_coil_ring_maps3(&ring, n[0], n[1], n[2], maps.data);
-            else
+            } else if (per_slice) {
+                /* slice-major scratch, reordered to (coils, slices, ny, nx) */
+                size_t pl = n[0] * n[1];
+                float complex *tmpm = malloc((size_t)ncoils * pl * sizeof *tmpm);
+                st = tmpm ? KW_OK : kw_set_error(KW_ENOMEM, "coils: out of memory");
+                for (int sl = 0; !st && sl < nsl; sl++) {
+                    double zc = slice_centre(sl, nsl, a.slice_thk, a.s_slg ? a.slice_gap : 0.0);
+                    st = kw_coil_ring_maps_at(&ring, n[0], n[1], zc / (0.5 * fov[2]), tmpm);
+                    for (int c = 0; !st && c < ncoils; c++)
+                        memcpy((float complex *)maps.data + ((size_t)c * nsl + sl) * pl,
+                               tmpm + (size_t)c * pl, pl * sizeof *tmpm);
+                }
+                free(tmpm);
+            } else {
                 st = kw_coil_ring_maps(&ring, n[0], n[1], maps.data);
+            }
             if (st) {
                 ret = kw_cli_status(st, "coils");
                 goto done;
@@ -1063,31 +1091,66 @@ int kw_cmd_encode(int argc, char **argv)
         int L = (int)a.coil_order, sd = 2 * L + 1;
         int Lz = ndim == 3 ? (int)a.coil_order_z : 0, sidez = 2 * Lz + 1;
         int nterm = sd * sd * sidez;
-        coef = malloc((size_t)ncoils * nterm * sizeof *coef);
+        int nfit = per_slice ? nsl : 1;
+        coef = malloc((size_t)nfit * ncoils * nterm * sizeof *coef);
         resid = malloc((size_t)ncoils * sizeof *resid);
-        if (!coef || !resid) {
+        double *rs = malloc((size_t)ncoils * sizeof *rs);
+        float complex *plane = per_slice ? malloc((size_t)ncoils * n[0] * n[1] * sizeof *plane) : NULL;
+        if (!coef || !resid || !rs || (per_slice && !plane)) {
+            free(rs);
+            free(plane);
             ret = kw_cli_fail("coils", "out of memory");
             goto done;
         }
-        if (ndim == 3)
+        if (ndim == 3) {
             st = kw_coil_fit3(maps.data, ncoils, n[0], n[1], n[2], cover.data, L, Lz, COIL_PERIOD,
                               coef, resid);
-        else
+        } else if (per_slice) {
+            /* each slice's maps over its own cut of the object; the residual
+             * reported per coil is the worst over the slices */
+            size_t pl = n[0] * n[1];
+            for (int c = 0; c < ncoils; c++)
+                resid[c] = 0;
+            for (int sl = 0; !st && sl < nsl; sl++) {
+                double zc = slice_centre(sl, nsl, a.slice_thk, a.s_slg ? a.slice_gap : 0.0);
+                kw_phantom cut;
+                st = kw_phantom_section(&ph3, zc / (0.5 * fov[2]), &cut);
+                if (!st)
+                    st = kw_phantom_rasterize(&cut, n, ones, 2, cover.data);
+                for (int c = 0; !st && c < ncoils; c++)
+                    memcpy(plane + (size_t)c * pl,
+                           (float complex *)maps.data + ((size_t)c * nsl + sl) * pl,
+                           pl * sizeof *plane);
+                if (!st)
+                    st = kw_coil_fit(plane, ncoils, n[0], n[1], cover.data, L, COIL_PERIOD,
+                                     coef + (size_t)sl * ncoils * nterm, rs);
+                for (int c = 0; !st && c < ncoils; c++)
+                    resid[c] = rs[c] > resid[c] ? rs[c] : resid[c];
+            }
+            /* the object support for the SNR: the centre slice's cut */
+            if (!st)
+                st = kw_phantom_rasterize(&ph, n, ones, 2, cover.data);
+            coef_sl = coef;
+        } else {
             st = kw_coil_fit(maps.data, ncoils, n[0], n[1], cover.data, L, COIL_PERIOD, coef,
                              resid);
+        }
+        free(rs);
+        free(plane);
         if (st) {
             ret = kw_cli_status(st, a.s_coils ? "coils" : "sens");
             goto done;
         }
         /* The data are exact for the fitted series: write those maps. */
         for (int c = 0; c < ncoils; c++)
-            for (size_t k = 0; k < (ndim == 3 ? n[2] : 1); k++)
+            for (size_t k = 0; k < (ndim == 3 ? n[2] : per_slice ? (size_t)nsl : 1); k++)
                 for (size_t r = 0; r < n[1]; r++)
                     for (size_t x = 0; x < n[0]; x++) {
                         double u = ((double)x - (double)(n[0] / 2)) / (double)n[0];
                         double v = ((double)r - (double)(n[1] / 2)) / (double)n[1];
                         double w3 = ndim == 3 ? ((double)k - (double)(n[2] / 2)) / (double)n[2] : 0;
-                        const double complex *cc = coef + (size_t)c * nterm;
+                        const double complex *cc =
+                            coef + ((per_slice ? k * (size_t)ncoils : 0) + (size_t)c) * nterm;
                         double complex f = 0;
                         for (int zz = -Lz; zz <= Lz; zz++) {
                             double phz = 2.0 * KW_PI * zz * w3 / COIL_PERIOD;
@@ -1095,7 +1158,7 @@ int kw_cmd_encode(int argc, char **argv)
                                                      COIL_PERIOD, u, v) *
                                  (cos(phz) + I * sin(phz));
                         }
-                        ((float complex *)maps.data)[(size_t)c * nvox + (k * n[1] + r) * n[0] + x] =
+                        ((float complex *)maps.data)[(size_t)c * mvox + (k * n[1] + r) * n[0] + x] =
                             (float complex)f;
                     }
     }
@@ -1200,7 +1263,7 @@ int kw_cmd_encode(int argc, char **argv)
     double w[KW_PHANTOM_MAX_SHAPES];
     if (nsl) {
         if ((st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
-                             (int)a.slice_points, truth.data, NULL, NULL, 0))) {
+                             (int)a.slice_points, truth.data, NULL, NULL, 0, coef_sl))) {
             ret = kw_cli_status(st, "slices");
             goto done;
         }
@@ -1275,7 +1338,7 @@ int kw_cmd_encode(int argc, char **argv)
     if (nsl)
         st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
                         (int)a.slice_points, NULL, ks.data,
-                        (a.s_snr || a.s_ncov) ? chol : NULL, (uint64_t)a.seed);
+                        (a.s_snr || a.s_ncov) ? chol : NULL, (uint64_t)a.seed, coef_sl);
     else
         st = kw_sim_execute(sim, ks.data, kw_cli_progress, NULL);
     if (!st && fmp)
@@ -1315,7 +1378,9 @@ int kw_cmd_encode(int argc, char **argv)
         kw_json_add_vec(so_, "centres_m", zc, nsl);
         cJSON_AddStringToObject(so_, "profile", "rectangular");
         cJSON_AddNumberToObject(so_, "gauss_legendre_points", (double)a.slice_points);
-        cJSON_AddStringToObject(so_, "coil_maps", "the same 2-D maps in every slice");
+        cJSON_AddStringToObject(so_, "coil_maps",
+                                per_slice ? "per slice: the loops' field in the plane of its centre"
+                                          : "the same 2-D maps in every slice");
     }
     cJSON_AddNumberToObject(js, "coils", nch);
     if (a.s_snr)

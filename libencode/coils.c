@@ -158,6 +158,12 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
 kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
                             float complex *out)
 {
+    return kw_coil_ring_maps_at(ring, nx, ny, 0.0, out);
+}
+
+kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+                               float complex *out)
+{
     kw_status st = ring_check(ring);
     if (st)
         return st;
@@ -168,7 +174,7 @@ kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
         for (size_t col = 0; col < nx; col++) {
             double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
             double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
-            kw_coil_ring_sens(ring, x, y, s);
+            kw_coil_ring_sens3(ring, x, y, z, s);
             for (int c = 0; c < nc; c++)
                 out[((size_t)c * ny + r) * nx + col] = (float complex)s[c];
         }

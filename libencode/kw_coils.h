@@ -65,6 +65,11 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
 kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
                             float complex *out);
 
+/*! kw_coil_ring_maps_at(): the 2-D maps of the plane at height z (phantom
+ * units, [-1, 1] spans fov_z; kw_coil_ring_maps() is z = 0). */
+kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+                               float complex *out);
+
 /*! kw_coil_ring_sens3()/kw_coil_ring_maps3(): the same in 3-D: the point
  * (x, y, z) in [-1, 1]^3 (z along B0, scaled by fov_z / 2; voxel iz at
  * z = (iz - nz/2) 2 / nz), maps channels x nz x ny x nx. Normalised so that

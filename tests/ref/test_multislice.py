@@ -60,7 +60,7 @@ def test_encode_writes_what_recon_reads(ms):
 @pytest.mark.parametrize("combine", ["rss", "optimal"])
 def test_fft_slice_by_slice_matches_numpy(ms, combine):
     k = np.load(ms / "ks.npy")
-    s = np.load(ms / "sens.npy").astype(np.complex128)  # (coils, ny, nx): the same maps in every slice
+    s = np.load(ms / "sens.npy").astype(np.complex128)  # (coils, slices, ny, nx): each slice's maps
     run("recon", "--in", ms / "ks.npy", "--out", ms / f"i_{combine}.npy", "--combine", combine,
         "--ref", ms / "truth.npy", "--json", ms / f"r_{combine}.json")
     img = np.load(ms / f"i_{combine}.npy")
@@ -70,8 +70,9 @@ def test_fft_slice_by_slice_matches_numpy(ms, combine):
         if combine == "rss":
             ref = np.sqrt((np.abs(m) ** 2).sum(0))
         else:
-            den = (np.abs(s) ** 2).sum(0)
-            ref = np.abs(np.where(den > 0, (np.conj(s) * m).sum(0) / np.where(den > 0, den, 1), 0))
+            ss = s[:, sl]
+            den = (np.abs(ss) ** 2).sum(0)
+            ref = np.abs(np.where(den > 0, (np.conj(ss) * m).sum(0) / np.where(den > 0, den, 1), 0))
         assert relerr(img[sl], ref) <= 1e-5, sl
     rep = json.loads((ms / f"r_{combine}.json").read_text())
     assert rep["multislice"] is True and rep["slices"] == NS and rep["slice_axis"] == 1
@@ -126,15 +127,15 @@ def test_sense_r2_per_slice(ms, tmp_path):
     w0, w1 = psf[0, 0], psf[h, 0]  # weight of the pixel itself and of its alias
     # the encoding of pixel pair (y, y + h) for coil rows y and y + h:
     # a(y) = w0 S(y) x(y) + w1 S(y+h) x(y+h), a(y+h) = w1 S(y) x(y) + w0 S(y+h) x(y+h)
-    top, bot = s[:, :h, :], s[:, h:, :]  # (coils, h, nx)
-    A = np.concatenate([np.stack([w0 * top, w1 * bot], -1), np.stack([w1 * top, w0 * bot], -1)], 0)
-    A = A.transpose(1, 2, 0, 3)  # (h, nx, 2*coils, 2)
-    P = np.linalg.pinv(A)  # least squares, batched: (h, nx, 2, 2*coils)
     for sl in range(NS):
+        top, bot = s[:, sl, :h, :], s[:, sl, h:, :]  # (coils, h, nx): this slice's maps
+        A = np.concatenate([np.stack([w0 * top, w1 * bot], -1), np.stack([w1 * top, w0 * bot], -1)], 0)
+        A = A.transpose(1, 2, 0, 3)  # (h, nx, 2*coils, 2)
+        P = np.linalg.pinv(A)  # least squares, batched: (h, nx, 2, 2*coils)
         b = np.concatenate([a[:, sl, :h, :], a[:, sl, h:, :]], 0).transpose(1, 2, 0)  # (h, nx, 2*coils)
         sol = np.einsum("yxij,yxj->yxi", P, b)
         out = np.abs(np.concatenate([sol[..., 0], sol[..., 1]], 0))
-        sup = (np.abs(s) ** 2).sum(0) > 0
+        sup = (np.abs(s[:, sl]) ** 2).sum(0) > 0
         assert relerr(img[sl][sup], out[sup]) <= 1e-3, sl
     rep = json.loads((tmp_path / "r.json").read_text())
     assert rep["slices"] == NS and rep["sampling"]["acceleration"] == 2
@@ -264,3 +265,34 @@ def test_sigint_mid_stream_leaves_nothing(tmp_path, big):
     assert seen, "the run ended before its temporary file was seen; make the input larger"
     assert p.returncode == -signal.SIGINT, p.returncode
     assert os.listdir(tmp_path) == [], os.listdir(tmp_path)
+
+
+def test_two_rings_give_each_slice_its_own_maps(tmp_path):
+    """Multi-slice with two rings of 4 loops (at z = -60 mm and +60 mm, the
+    default gap of half the z FOV): each slice gets the loops' field in the
+    plane of its centre (Biot-Savart at that z), so the lower ring's coil
+    fades from the lowest slice to the highest and the upper ring's grows;
+    the optimal combination with those maps (numpy-free: kweave recon reads
+    them from the sidecar) recovers the slab truth (noise-free; measured
+    NRMSE 0.030), while the centre slice's maps used for every slice miss by
+    far more (measured 0.114)."""
+    d = tmp_path
+    run("encode", "--phantom", "weave3d", "--matrix", "64", "--fov", "240mm", "--slices", "3",
+        "--slice-thickness", "5mm", "--slice-gap", "40mm", "--coils", "4", "--coil-rings", "2",
+        "--sens-out", d / "s.npy", "--out", d / "k.npy", "--truth", d / "t.npy", "--quiet")
+    s = np.load(d / "s.npy")
+    assert s.shape == (8, 3, 64, 64) and np.load(d / "k.npy").shape == (8, 3, 64, 64)
+    lower = [np.abs(s[0, i]).mean() for i in range(3)]
+    upper = [np.abs(s[4, i]).mean() for i in range(3)]
+    assert lower[0] > lower[1] > lower[2] and upper[0] < upper[1] < upper[2], (lower, upper)
+    side = json.loads((d / "k.json").read_text())
+    assert side["slices"]["coil_maps"].startswith("per slice")
+    run("recon", "--in", d / "k.npy", "--method", "fft", "--combine", "optimal",
+        "--out", d / "r.npy", "--quiet")
+    np.save(d / "s_mid.npy", np.repeat(s[:, 1:2], 3, axis=1))
+    run("recon", "--in", d / "k.npy", "--method", "fft", "--combine", "optimal",
+        "--sens", d / "s_mid.npy", "--out", d / "r_mid.npy", "--quiet")
+    t = np.load(d / "t.npy")
+    e = np.linalg.norm(np.abs(np.load(d / "r.npy")) - t) / np.linalg.norm(t)
+    e_mid = np.linalg.norm(np.abs(np.load(d / "r_mid.npy")) - t) / np.linalg.norm(t)
+    assert e < 0.04 and e_mid > 2 * e, (e, e_mid)
