@@ -20,6 +20,7 @@
 #include "kw_rng.h"
 #include "kw_sequence.h"
 #include "npy.h"
+#include "npystream.h"
 #include "protofile.h"
 
 #define MAX_EDGE 8192
@@ -920,6 +921,38 @@ int kw_cmd_encode(int argc, char **argv)
             for (size_t i = 0; i < npix; i++)
                 mfull[i] = (uint8_t)(i / n[0] >= (size_t)plan_first_row);
             acceleration = (double)n[1] / (double)(n[1] - (size_t)plan_first_row);
+        }
+    }
+
+    /* ---- the working set, against --max-memory, before the large arrays:
+     * k-space, truth, support, maps (per slice when sliced), trajectory
+     * buffers, and the field-map grid (4x4 finer: class images bounded by
+     * the shape count, sensitivity, phase and FFT buffers, class factors) */
+    {
+        double chan = a.s_coils ? (double)a.coils * (a.coil_rings == 2 ? 2 : 1) : 1;
+        if (a.s_sens && strcmp(a.sens, "-") != 0) {
+            /* the maps' header says the channel count (errors: below) */
+            kw_npyr r;
+            if (kw_npyr_open(&r, a.sens) == KW_OK) {
+                if (r.ndim == ndim + 1)
+                    chan = (double)r.dims[0];
+                kw_npyr_close(&r);
+            }
+        }
+        double vox = (double)npix * (nsl ? nsl : 1);
+        double count = a.s_traj ? (double)nsamples : vox;
+        double need = chan * count * 8 + vox * 8 +
+                      ((a.s_coils || a.s_sens) ? chan * vox * 8 : 0) +
+                      (a.s_traj ? (double)nsamples * 24 : 0);
+        if (a.s_fmap) {
+            double m = 16.0 * (double)n[0] * (double)n[1];
+            need += m * (4.0 * ph.nshapes + 4 + 4 + 8 * 3) + (double)ph.nshapes * count * 8;
+        }
+        if (need > (double)kw_cli_memory_limit()) {
+            ret = kw_cli_fail("shape", "this simulation needs about %.0f MiB, above the limit of "
+                              "%.0f MiB (--max-memory)", need / 1048576.0,
+                              (double)kw_cli_memory_limit() / 1048576.0);
+            goto done;
         }
     }
 

@@ -372,3 +372,14 @@ def test_max_memory_on_every_verb(tmp_path, verb):
     line = bad(*args, "--max-memory", "1MiB", field="shape")
     assert "needs 4 MiB" in line and "limit of 1 MiB" in line
     assert sorted(os.listdir(tmp_path)) == ["ks.npy"]
+
+
+def test_max_memory_on_encode(tmp_path):
+    """encode estimates its working set (k-space, truth, maps, field-map grid)
+    before it allocates: 8 coils x 512 x 512 complex64 k-space (16 MiB) and
+    as much again for the maps are refused under 16 MiB, nothing written."""
+    out = tmp_path / "k.npy"
+    line = bad("encode", "--phantom", "weave", "--matrix", "512", "--fov", "240mm", "--coils", "8",
+               "--out", out, "--max-memory", "16MiB", field="shape")
+    assert "needs about 34 MiB" in line and "limit of 16 MiB" in line, line
+    assert os.listdir(tmp_path) == []
