@@ -335,10 +335,90 @@ static kw_status proto_fill(const proto_keys *pk, kw_protocol *p)
     return KW_OK;
 }
 
+/* ---- --tissue: the built-in table, or the caller's values from JSON ------ */
+static void tissue_list(void)
+{
+    static const char *const src[KW_TISSUE_COUNT] = {
+        "T1/T2: Stanisz et al. 2005, Table 1 (recalled)", "T1/T2: Stanisz et al. 2005, Table 1 (recalled)",
+        "representative (recalled)",                     "T1/T2: Stanisz et al. 2005, Table 1 (recalled)",
+        "T1/T2: Stanisz et al. 2005, Table 1 (recalled)", "T1/T2: Stanisz et al. 2005, Table 1 (recalled)",
+        "representative, cf. Gold et al. 2004 (recalled)"};
+    printf("tissue         species  PD    T1 1.5T/3T (ms)   T2 1.5T/3T (ms)   T2* 1.5T/3T (ms)  source\n");
+    for (int i = 0; i < KW_TISSUE_COUNT; i++) {
+        const kw_tissue *t = kw_tissue_get(i);
+        printf("%-14s %-7s  %.2f  %6.0f / %6.0f   %6.0f / %6.0f   %6.0f / %6.0f   %s\n", t->name,
+               t->species == KW_SPECIES_FAT ? "fat" : "water", t->pd, t->t1[0] * 1e3, t->t1[1] * 1e3,
+               t->t2[0] * 1e3, t->t2[1] * 1e3, t->t2s[0] * 1e3, t->t2s[1] * 1e3, src[i]);
+    }
+    printf("PD and T2* of every tissue: representative values (recalled). Give your own with\n"
+           "--tissue FILE.json: {\"white-matter\": {\"pd\": 0.69, \"t1_s\": 1.084, \"t2_s\": 0.069, "
+           "\"t2star_s\": 0.045}, ...}\n");
+}
+
+/* Read --tissue FILE.json into v[KW_TISSUE_COUNT]; an exit code or -1. */
+static int tissue_read(const char *path, kw_tissue_values *v)
+{
+    cJSON *root = NULL;
+    kw_status st = kw_json_read(path, &root);
+    if (st)
+        return kw_cli_status(st, "tissue");
+    int ret = -1;
+    if (!cJSON_IsObject(root)) {
+        ret = kw_cli_fail("tissue", "%s: expected an object of tissues", path);
+        goto out;
+    }
+    const cJSON *t;
+    cJSON_ArrayForEach(t, root) {
+        int id = -1;
+        for (int i = 0; i < KW_TISSUE_COUNT; i++)
+            if (strcmp(t->string, kw_tissue_get(i)->name) == 0)
+                id = i;
+        if (id < 0) {
+            ret = kw_cli_fail("tissue", "unknown tissue '%s' (white-matter, grey-matter, csf, "
+                              "muscle, liver, blood, fat)", t->string);
+            goto out;
+        }
+        if (!cJSON_IsObject(t)) {
+            ret = kw_cli_fail("tissue", "%s: expected an object of values", t->string);
+            goto out;
+        }
+        static const char *const keys[4] = {"pd", "t1_s", "t2_s", "t2star_s"};
+        double *dst[4] = {&v[id].pd, &v[id].t1_s, &v[id].t2_s, &v[id].t2s_s};
+        static const double hi[4] = {2.0, 100.0, 100.0, 100.0};
+        const cJSON *k;
+        cJSON_ArrayForEach(k, t) {
+            int j = 0;
+            while (j < 4 && strcmp(k->string, keys[j]) != 0)
+                j++;
+            if (j == 4) {
+                ret = kw_cli_fail("tissue", "%s: unknown key '%s' (pd, t1_s, t2_s, t2star_s)",
+                                  t->string, k->string);
+                goto out;
+            }
+            if (!cJSON_IsNumber(k) || !isfinite(k->valuedouble) || !(k->valuedouble > 0) ||
+                k->valuedouble > hi[j]) {
+                ret = kw_cli_fail("tissue", "%s: %s must be a number in (0, %g]%s", t->string,
+                                  keys[j], hi[j], j ? " seconds" : "");
+                goto out;
+            }
+            *dst[j] = k->valuedouble;
+        }
+        int nt = (v[id].t1_s > 0) + (v[id].t2_s > 0) + (v[id].t2s_s > 0);
+        if (nt != 0 && nt != 3) {
+            ret = kw_cli_fail("tissue", "%s: give t1_s, t2_s and t2star_s together (or none)",
+                              t->string);
+            goto out;
+        }
+    }
+out:
+    cJSON_Delete(root);
+    return ret;
+}
+
 typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
     const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map, *protocol;
-    const char *field_grad;
+    const char *field_grad, *tissue;
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     double slice_thk, slice_gap;
     long seed, coils, coil_order, coil_order_z, coil_rings, slices, slice_points;
@@ -346,7 +426,7 @@ typedef struct enc_args {
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
         s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad, s_coz, s_crings,
-        s_crgap;
+        s_crgap, s_tissue;
 } enc_args;
 
 int kw_cmd_encode(int argc, char **argv)
@@ -409,6 +489,9 @@ int kw_cmd_encode(int argc, char **argv)
         {"field-gradient", KW_OPT_STRING, &a.field_grad, 0, &a.s_fgrad,
          "linear field GX,GY[,GZ] along the array axes, zero at the FOV centre "
          "(e.g. 20uT/m,0): exact"},
+        {"tissue", KW_OPT_STRING, &a.tissue, 0, &a.s_tissue,
+         "FILE.json: tissue values {name: {pd, t1_s, t2_s, t2star_s}} instead of the table's "
+         "(at any B0); list: print the table"},
         {"protocol", KW_OPT_STRING, &a.protocol, 0, &a.s_prot,
          "protocol file of `kweave plan` (options given here override its keys)"},
         {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
@@ -421,6 +504,14 @@ int kw_cmd_encode(int argc, char **argv)
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
+        return rc;
+    if (a.s_tissue && strcmp(a.tissue, "list") == 0) {
+        tissue_list();
+        return KW_EXIT_OK;
+    }
+    static kw_tissue_values tvals_given[KW_TISSUE_COUNT];
+    memset(tvals_given, 0, sizeof tvals_given);
+    if (a.s_tissue && (rc = tissue_read(a.tissue, tvals_given)) >= 0)
         return rc;
 
     /* ---- protocol file: its keys fill the options not given here ---- */
@@ -560,8 +651,19 @@ int kw_cmd_encode(int argc, char **argv)
     }
     if (!(a.b0 > 0))
         return kw_cli_fail("b0", "must be positive");
-    if (ph.tissue && fabs(a.b0 - 1.5) > 0.05 && fabs(a.b0 - 3.0) > 0.05)
-        return kw_cli_fail("b0", "tissue relaxation times are tabulated at 1.5T and 3T only");
+    if (ph.tissue) {
+        /* every tissue of the phantom: the table's values exist at 1.5 and
+         * 3 T; the caller's (--tissue) at any field */
+        for (int i = 0; i < ph.nshapes; i++) {
+            kw_tissue_values tv;
+            if (ph.shapes[i].tissue >= 0 &&
+                kw_tissue_lookup(ph.shapes[i].tissue, a.b0, tvals_given, &tv) != KW_OK)
+                return kw_cli_status(KW_EINVAL, "");
+        }
+    } else if (a.s_tissue) {
+        return kw_cli_fail("tissue", "phantom '%s' carries no tissues (weave, weave3d do)",
+                           a.phantom);
+    }
     double bw = 0;
     int bw_pp = 0;
     if (a.s_bw) {
@@ -1259,6 +1361,7 @@ int kw_cmd_encode(int argc, char **argv)
     so.n[1] = n[1];
     so.n[2] = n[2];
     so.contrast = con;
+    so.tissue_values = tvals_given;
     so.bandwidth_hz = bw;
     so.df_hz = a.s_df ? a.df : 0.0;
     for (int d = 0; d < 3; d++)
@@ -1290,7 +1393,7 @@ int kw_cmd_encode(int argc, char **argv)
         goto done;
     }
     if ((st = kw_sim_create(&sim, &so))) {
-        ret = kw_cli_status(st, "encode");
+        ret = kw_cli_status(st, ""); /* its message names the field */
         goto done;
     }
     double w[KW_PHANTOM_MAX_SHAPES];
@@ -1400,6 +1503,32 @@ int kw_cmd_encode(int argc, char **argv)
     kw_json_add_vec(js, "matrix", mat, ndim);
     kw_json_add_vec(js, "fov_m", fv, ndim);
     cJSON_AddStringToObject(js, "phantom", nsl ? ph3.name : ph.name);
+    if (ph.tissue) {
+        /* the tissue values the data were made with, and where they came from */
+        cJSON *tj = cJSON_AddObjectToObject(js, "tissues");
+        for (int i = 0; i < ph.nshapes; i++) {
+            int id = ph.shapes[i].tissue;
+            kw_tissue_values tv;
+            const kw_tissue *tt = kw_tissue_get(id);
+            if (id < 0 || cJSON_GetObjectItemCaseSensitive(tj, tt->name) ||
+                kw_tissue_lookup(id, a.b0, tvals_given, &tv) != KW_OK)
+                continue;
+            cJSON *e = cJSON_AddObjectToObject(tj, tt->name);
+            cJSON_AddStringToObject(e, "species", tt->species == KW_SPECIES_FAT ? "fat" : "water");
+            cJSON_AddNumberToObject(e, "pd", tv.pd);
+            cJSON_AddNumberToObject(e, "t1_s", tv.t1_s);
+            cJSON_AddNumberToObject(e, "t2_s", tv.t2_s);
+            cJSON_AddNumberToObject(e, "t2star_s", tv.t2s_s);
+            const kw_tissue_values *g = &tvals_given[id];
+            cJSON_AddStringToObject(e, "source",
+                                    g->pd > 0 || g->t1_s > 0 ? "--tissue" : "kweave table");
+        }
+        if (a.s_tissue) {
+            char *rp = rel_to_sidecar(a.tissue, a.out);
+            cJSON_AddStringToObject(js, "tissue_file", rp ? rp : a.tissue);
+            free(rp);
+        }
+    }
     if (nsl) {
         cJSON *so_ = cJSON_AddObjectToObject(js, "slices");
         cJSON_AddNumberToObject(so_, "count", nsl);

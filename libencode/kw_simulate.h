@@ -47,8 +47,11 @@ typedef struct kw_sim_options {
     int times_per_sample;
     double bandwidth_hz;    /* full receiver bandwidth across the FOV (1/dwell) */
 
-    /* Contrast (used when the phantom carries tissues). */
+    /* Contrast (used when the phantom carries tissues); tissue_values: the
+     * caller's tissue values (KW_TISSUE_COUNT entries, kw_tissue_lookup())
+     * or NULL for the table's. */
     kw_contrast contrast;
+    const kw_tissue_values *tissue_values;
     double df_hz;           /* global off-resonance added to every shape (Hz) */
     /* Linear off-resonance (a field gradient): df(n) = sum_d g_d n_d / N_d Hz
      * at centred pixel index n (zero at the centre pixel N/2), g = df_grad_hz

@@ -67,6 +67,20 @@ const kw_tissue *kw_tissue_get(int id);
 kw_status kw_tissue_relax(int id, double b0_t, double *t1, double *t2,
                           double *t2s);
 
+/* Tissue values a caller gives instead of the table's (one per table entry,
+ * KW_TISSUE_COUNT of them): each field > 0 replaces the table's value, at
+ * any field strength; 0 keeps the table's. */
+typedef struct kw_tissue_values {
+    double pd, t1_s, t2_s, t2s_s;
+} kw_tissue_values;
+
+/*! kw_tissue_lookup(): proton density, T1, T2, T2* of tissue `id` at b0_t:
+ * the caller's values `given` (NULL: none) where set, the table's elsewhere.
+ * KW_ERANGE when a table value is needed at a field other than 1.5 or 3 T;
+ * KW_EINVAL for T2* above T2 or a value that is not finite and positive. */
+kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
+                           kw_tissue_values *out);
+
 /*! kw_signal_steady(): the magnitude of the transverse magnetisation right
  * after excitation (relative to the proton density scale 1), i.e. the signal
  * equation without the echo-time decay:

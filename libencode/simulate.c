@@ -122,16 +122,16 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
         s->df[i] = opt->df_hz + sh->df_hz;
         s->t2[i] = s->t2s[i] = INFINITY;
         if (p->tissue && sh->tissue >= 0) {
-            double t1, t2, t2s;
-            kw_status st = kw_tissue_relax(sh->tissue, c->b0_t, &t1, &t2, &t2s);
+            kw_tissue_values tv;
+            kw_status st = kw_tissue_lookup(sh->tissue, c->b0_t, opt->tissue_values, &tv);
             if (st) {
                 free(s);
                 return st;
             }
             const kw_tissue *tt = kw_tissue_get(sh->tissue);
-            s->steady[i] = kw_signal_steady(c, tt->pd, t1);
-            s->t2[i] = t2;
-            s->t2s[i] = t2s;
+            s->steady[i] = kw_signal_steady(c, tv.pd, tv.t1_s);
+            s->t2[i] = tv.t2_s;
+            s->t2s[i] = tv.t2s_s;
             if (tt->species == KW_SPECIES_FAT)
                 s->df[i] += fat_hz;
         } else {
