@@ -155,11 +155,21 @@ static double slice_centre(int i, int n, double t, double g)
  * (channels x nsl x ny x nx), plus noise when `chol` is given (slice s seeded
  * with kw_rng_mix(seed, s)). `base` gives grid, contrast, coils and mask;
  * `coef_sl`, when not NULL, each slice's own coil series (slice s at
- * coef_sl + s x coils x terms). */
+ * coef_sl + s x coils x terms). `fm`, when not NULL, adds a field map to the
+ * k-space (kw_fieldmap over the slice's profile-weighted cuts): slice s's map
+ * at fm->map + s x fm->stride; the worst interpolation error and the most
+ * segments come back in fm. */
+typedef struct slice_fieldmap {
+    const float *map;
+    size_t stride; /* 0: one map for every slice */
+    double err;
+    int seg;
+} slice_fieldmap;
+
 static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, int nsl,
                             double fovz, double thk, double gap, int npts, float *truth,
                             float complex *out, const double complex *chol, uint64_t seed,
-                            const double complex *coef_sl)
+                            const double complex *coef_sl, slice_fieldmap *fm)
 {
     const size_t cstride = base->ncoils > 0 ? (size_t)base->ncoils *
                                                   (size_t)(2 * base->coil_order + 1) *
@@ -174,8 +184,15 @@ static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, in
     float *img = NULL;
     float complex *tmp = NULL, *acc = NULL;
     kw_sim *sim = NULL;
+    kw_fieldmap *fmp = NULL;
+    kw_phantom *cuts = NULL; /* the slice's cuts, for the field map */
+    double cw[32];
     if (truth && !(img = malloc(cnt * sizeof *img)))
         return kw_set_error(KW_ENOMEM, "slices: out of memory");
+    if (fm && out && !(cuts = malloc((size_t)npts * sizeof *cuts))) {
+        st = kw_set_error(KW_ENOMEM, "slices: out of memory");
+        goto done;
+    }
     if (out && (!(tmp = malloc(cnt * nch * sizeof *tmp)) || !(acc = malloc(cnt * nch * sizeof *acc)))) {
         st = kw_set_error(KW_ENOMEM, "slices: out of memory");
         goto done;
@@ -200,6 +217,10 @@ static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, in
             if ((st = kw_sim_create(&sim, &o)))
                 goto done;
             double wt = 0.5 * gw[g]; /* the profile's mean: weights sum to 2 */
+            if (cuts) {
+                cuts[g] = p2;
+                cw[g] = wt;
+            }
             if (truth) {
                 double w[KW_PHANTOM_MAX_SHAPES];
                 kw_sim_image_weights(sim, w);
@@ -214,6 +235,28 @@ static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, in
                 for (size_t i = 0; i < cnt * nch; i++)
                     acc[i] += (float complex)(wt * tmp[i]);
             }
+            kw_sim_destroy(sim);
+            sim = NULL;
+        }
+        if (out && fm) {
+            /* the field map's perturbation for the whole slab at once: the
+             * class images are the profile-weighted sums of the cuts' */
+            kw_sim_options o = *base;
+            o.phantom = &cuts[npts / 2];
+            o.noise_chol = NULL;
+            if (coef_sl && o.ncoils > 0)
+                o.coil_coef = coef_sl + (size_t)sl * cstride;
+            if ((st = kw_sim_create(&sim, &o)))
+                goto done;
+            kw_fieldmap_options fo = {sim, fm->map + (size_t)sl * fm->stride, 4, 0, npts, cuts, cw};
+            if ((st = kw_fieldmap_create(&fmp, &fo)) || (st = kw_fieldmap_execute(fmp, acc, NULL, NULL)))
+                goto done;
+            double e = kw_fieldmap_interp_error(fmp);
+            fm->err = e > fm->err ? e : fm->err;
+            if (kw_fieldmap_segments(fmp) > fm->seg)
+                fm->seg = kw_fieldmap_segments(fmp);
+            kw_fieldmap_destroy(fmp);
+            fmp = NULL;
             kw_sim_destroy(sim);
             sim = NULL;
         }
@@ -240,7 +283,9 @@ static kw_status slices_run(const kw_phantom *p3, const kw_sim_options *base, in
         }
     }
 done:
+    kw_fieldmap_destroy(fmp);
     kw_sim_destroy(sim);
+    free(cuts);
     free(img);
     free(tmp);
     free(acc);
@@ -485,7 +530,7 @@ int kw_cmd_encode(int argc, char **argv)
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
          "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
         {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
-         "off-resonance map (ny, nx) in Hz (2-D; time-segmented on a 4x grid)"},
+         "off-resonance map (ny, nx) in Hz (2-D; multi-slice: (slices, ny, nx) or one for all; time-segmented on a 4x grid)"},
         {"field-gradient", KW_OPT_STRING, &a.field_grad, 0, &a.s_fgrad,
          "linear field GX,GY[,GZ] along the array axes, zero at the FOV centre "
          "(e.g. 20uT/m,0): exact"},
@@ -967,8 +1012,16 @@ int kw_cmd_encode(int argc, char **argv)
             ret = kw_cli_status(st, "field-map");
             goto done;
         }
-        if (fmap.dtype != KW_F32 || fmap.ndim != 2 || fmap.dims[0] != n[1] || fmap.dims[1] != n[0]) {
-            ret = kw_cli_fail("field-map", "expected a real array (%zu, %zu) in Hz", n[1], n[0]);
+        int okf = fmap.dtype == KW_F32 &&
+                  ((fmap.ndim == 2 && fmap.dims[0] == n[1] && fmap.dims[1] == n[0]) ||
+                   (nsl && fmap.ndim == 3 && fmap.dims[0] == (size_t)nsl && fmap.dims[1] == n[1] &&
+                    fmap.dims[2] == n[0]));
+        if (!okf) {
+            if (nsl)
+                ret = kw_cli_fail("field-map", "expected a real array (%zu, %zu) or (%d, %zu, %zu) "
+                                  "in Hz", n[1], n[0], nsl, n[1], n[0]);
+            else
+                ret = kw_cli_fail("field-map", "expected a real array (%zu, %zu) in Hz", n[1], n[0]);
             goto done;
         }
         if ((st = kw_array_all_finite(&fmap))) {
@@ -977,8 +1030,8 @@ int kw_cmd_encode(int argc, char **argv)
         }
     }
 
-    if (nsl && (a.s_traj || a.s_fmap)) {
-        ret = kw_cli_fail("slices", "not with --trajectory or --field-map");
+    if (nsl && a.s_traj) {
+        ret = kw_cli_fail("slices", "not with --trajectory");
         goto done;
     }
 
@@ -1399,7 +1452,7 @@ int kw_cmd_encode(int argc, char **argv)
     double w[KW_PHANTOM_MAX_SHAPES];
     if (nsl) {
         if ((st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
-                             (int)a.slice_points, truth.data, NULL, NULL, 0, coef_sl))) {
+                             (int)a.slice_points, truth.data, NULL, NULL, 0, coef_sl, NULL))) {
             ret = kw_cli_status(st, "slices");
             goto done;
         }
@@ -1442,8 +1495,10 @@ int kw_cmd_encode(int argc, char **argv)
             goto done;
         }
     }
-    if (a.s_fmap) {
-        kw_fieldmap_options fo = {sim, fmap.data, 4, 0};
+    slice_fieldmap sfm = {a.s_fmap ? (const float *)fmap.data : NULL,
+                          a.s_fmap && fmap.ndim == 3 ? n[0] * n[1] : 0, 0.0, 0};
+    if (a.s_fmap && !nsl) {
+        kw_fieldmap_options fo = {sim, fmap.data, 4, 0, 0, NULL, NULL};
         if ((st = kw_fieldmap_create(&fmp, &fo))) {
             ret = kw_cli_status(st, "field-map");
             goto done;
@@ -1474,11 +1529,16 @@ int kw_cmd_encode(int argc, char **argv)
     if (nsl)
         st = slices_run(&ph3, &so, nsl, fov[2], a.slice_thk, a.s_slg ? a.slice_gap : 0.0,
                         (int)a.slice_points, NULL, ks.data,
-                        (a.s_snr || a.s_ncov) ? chol : NULL, (uint64_t)a.seed, coef_sl);
+                        (a.s_snr || a.s_ncov) ? chol : NULL, (uint64_t)a.seed, coef_sl,
+                        a.s_fmap ? &sfm : NULL);
     else
         st = kw_sim_execute(sim, ks.data, kw_cli_progress, NULL);
     if (!st && fmp)
         st = kw_fieldmap_execute(fmp, ks.data, kw_cli_progress, NULL);
+    if (!st && nsl && a.s_fmap) {
+        fm_err = sfm.err;
+        fm_seg = sfm.seg;
+    }
     if (!st && !nsl && (a.s_snr || a.s_ncov))
         st = kw_sim_add_noise(sim, chol, (uint64_t)a.seed, ks.data);
     kw_cli_progress_done();

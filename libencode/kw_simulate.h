@@ -135,6 +135,13 @@ typedef struct kw_fieldmap_options {
     const float *field_hz;   /* ny x nx field map at the pixel centres (Hz) */
     int oversample;          /* >= 4 */
     int segments;            /* time segments L (0: chosen from the field range) */
+    /* Multi-slice: the object is the weighted sum of `nsections` 2-D cuts
+     * (kw_phantom_section() of one 3-D phantom, the same shapes in the same
+     * order as the simulation's phantom) with weights section_weights (the
+     * slice profile's quadrature); 0: the simulation's own phantom. */
+    int nsections;
+    const kw_phantom *sections;
+    const double *section_weights;
 } kw_fieldmap_options;
 
 typedef struct kw_fieldmap kw_fieldmap;

@@ -95,6 +95,11 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
                "field-map: oversampling %d (4..16)", opt->oversample);
     KW_FAIL_IF(opt->segments < 0 || opt->segments > MAX_SEG, KW_EINVAL,
                "field-map: segments %d (0..%d)", opt->segments, MAX_SEG);
+    KW_FAIL_IF(opt->nsections < 0 || (opt->nsections > 0 && (!opt->sections || !opt->section_weights)),
+               KW_EINVAL, "field-map: sections without phantoms or weights");
+    for (int g = 0; g < opt->nsections; g++)
+        KW_FAIL_IF(opt->sections[g].nshapes != o->phantom->nshapes || opt->sections[g].ndim != 2,
+                   KW_EINVAL, "field-map: section %d is not a 2-D cut of the same phantom", g);
     size_t nx = o->n[0], ny = o->n[1];
     for (size_t i = 0; i < nx * ny; i++)
         KW_FAIL_IF(!isfinite(opt->field_hz[i]), KW_ENUMERIC,
@@ -159,8 +164,20 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
         }
         kw_phantom_weights(o->phantom, own, w);
         float *img = fm->cls + (size_t)q * M;
-        if ((st = kw_phantom_rasterize(o->phantom, fn, w, FINE_SUPER, img)))
+        if (opt->nsections > 0) {
+            /* a slab: the profile-weighted sum of the cuts' images (work
+             * holds one cut's image as floats meanwhile) */
+            float *cut = (float *)fm->work;
+            memset(img, 0, M * sizeof *img);
+            for (int g = 0; g < opt->nsections; g++) {
+                if ((st = kw_phantom_rasterize(&opt->sections[g], fn, w, FINE_SUPER, cut)))
+                    goto fail;
+                for (size_t i = 0; i < M; i++)
+                    img[i] += (float)(opt->section_weights[g] * cut[i]);
+            }
+        } else if ((st = kw_phantom_rasterize(o->phantom, fn, w, FINE_SUPER, img))) {
             goto fail;
+        }
         for (size_t i = 0; i < M; i++) {
             fm->obj[i] += fabsf(img[i]);
             fm->cls_used[q] |= img[i] != 0;
