@@ -45,18 +45,6 @@ Q=--quiet
     --out "$OUT/golden.npy" --psf-size 32 >/dev/null
 "$KWEAVE" pattern --kind spiral --matrix "$N" --fov 240mm --interleaves "$INTERLEAVES" \
     --out "$OUT/spiral.npy" --psf-size 32 >/dev/null
-# The spiral design ends its readouts at |k| = N/2; a sample exactly at
-# kx or ky = +N/2 (2 of ~18000 at N = 128) lies outside the NUFFT's
-# [-N/2, N/2) and is dropped here (spiral_in.npy) before encoding.
-"$PY" - "$OUT" "$N" <<'PYEOF'
-import sys
-import numpy as np
-out, n = sys.argv[1], int(sys.argv[2])
-k = np.load(f"{out}/spiral.npy")
-keep = ((k >= -n / 2) & (k < n / 2)).all(1)
-np.save(f"{out}/spiral_in.npy", k[keep])
-print(f"spiral: {int((~keep).sum())} of {len(k)} samples on +N/2 dropped", file=sys.stderr)
-PYEOF
 "$KWEAVE" pattern --kind random --matrix "${N}x$N" --accel 4 --acs 12 --seed 1 \
     --out "$OUT/vd4.npy" >/dev/null
 
@@ -68,7 +56,7 @@ enc() { # name, sampling options...
         --out "$OUT/ks_$name.npy" "$@" >/dev/null
 }
 enc golden --trajectory "$OUT/golden.npy"
-enc spiral --trajectory "$OUT/spiral_in.npy"
+enc spiral --trajectory "$OUT/spiral.npy"
 enc vd4 --pattern "$OUT/vd4.npy"
 enc full
 

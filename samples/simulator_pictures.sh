@@ -75,20 +75,11 @@ $E --protocol "$OUT/epi.protocol" --sequence pd --field-map "$OUT/bump.npy" --ou
 "$KWEAVE" pattern $Q --kind golden --matrix "$N" --readout-oversampling 2 --out "$OUT/golden.npy" >/dev/null
 "$KWEAVE" pattern $Q --kind spiral --matrix "$N" --fov 240mm --interleaves 16 --te 2ms \
     --out "$OUT/spiral.npy" >/dev/null
-"$PY" - "$OUT" "$N" <<'PYEOF'
-import sys
-import numpy as np
-out, n = sys.argv[1], int(sys.argv[2])
-k, t = np.load(f"{out}/spiral.npy"), np.load(f"{out}/spiral_times.npy")
-keep = ((k >= -n / 2) & (k < n / 2)).all(1)  # samples on +N/2 are outside the grid
-np.save(f"{out}/spiral_in.npy", k[keep])
-np.save(f"{out}/spiral_in_times.npy", t[keep])
-PYEOF
 $E --trajectory "$OUT/golden.npy" --times "$OUT/golden_times.npy" --out "$OUT/rad0.npy"
 $E --trajectory "$OUT/golden.npy" --times "$OUT/golden_times.npy" --field-map "$OUT/bump.npy" \
     --out "$OUT/rad1.npy"
-$E --trajectory "$OUT/spiral_in.npy" --times "$OUT/spiral_in_times.npy" --te 2ms --out "$OUT/sp0.npy"
-$E --trajectory "$OUT/spiral_in.npy" --times "$OUT/spiral_in_times.npy" --te 2ms \
+$E --trajectory "$OUT/spiral.npy" --times "$OUT/spiral_times.npy" --te 2ms --out "$OUT/sp0.npy"
+$E --trajectory "$OUT/spiral.npy" --times "$OUT/spiral_times.npy" --te 2ms \
     --field-map "$OUT/bump.npy" --out "$OUT/sp1.npy"
 $E --bandwidth 250Hz/pixel --sens-out "$OUT/noise_sens.npy" --out "$OUT/nz0.npy"
 $E --bandwidth 250Hz/pixel --snr 15 --noise-corr 0.5 --seed 3 --sens-out "$OUT/noise_sens.npy" \
@@ -133,8 +124,8 @@ with open(f"{out}/predictions.txt", "w") as o:
             % (np.ptp(np.load(f"{out}/golden_times.npy")) * 1e3,
                150 * np.ptp(np.load(f"{out}/golden_times.npy"))))
     o.write("spiral: readout %.2f ms per interleaf; 150 Hz -> %.2f cycles by the end: a blur\n"
-            % (np.ptp(np.load(f"{out}/spiral_in_times.npy")) * 1e3,
-               150 * np.ptp(np.load(f"{out}/spiral_in_times.npy"))))
+            % (np.ptp(np.load(f"{out}/spiral_times.npy")) * 1e3,
+               150 * np.ptp(np.load(f"{out}/spiral_times.npy"))))
 PYEOF
 "$KWEAVE" render $Q --in "$OUT/strip_contrast.npy" --out "$OUT/contrast.png" --window 0:1
 "$KWEAVE" render $Q --in "$OUT/strip_offres.npy" --out "$OUT/offres.png" --window 0:1.1

@@ -44,7 +44,8 @@ def linear_map(n, gx, gy):
 def trajs(tmp_path_factory):
     """A radial (2x readout oversampling) and a spiral (planner's design,
     8 interleaves, k = 0 at 3 ms) trajectory with sample times, made by
-    `kweave pattern`; spiral samples on +N/2 dropped (outside [-N/2, N/2))."""
+    `kweave pattern`, every sample inside the grid [-N/2, N/2) (the pattern
+    moves a design's samples that end exactly on +N/2 one float step in)."""
     d = tmp_path_factory.mktemp("offres")
     n = 64
     run("pattern", "--kind", "radial", "--matrix", str(n), "--readout-oversampling", "2",
@@ -53,9 +54,9 @@ def trajs(tmp_path_factory):
         "--te", "3ms", "--out", d / "spiral.npy")
     for kind in ("radial", "spiral"):
         k, t = np.load(d / f"{kind}.npy"), np.load(d / f"{kind}_times.npy")
-        keep = ((k >= -n / 2) & (k < n / 2)).all(1)
-        np.save(d / f"{kind}_in.npy", k[keep])
-        np.save(d / f"{kind}_in_times.npy", t[keep])
+        assert ((k >= -n / 2) & (k < n / 2)).all() and len(t) == len(k)
+        np.save(d / f"{kind}_in.npy", k)
+        np.save(d / f"{kind}_in_times.npy", t)
     return d
 
 
