@@ -1144,7 +1144,9 @@ int kw_cmd_encode(int argc, char **argv)
         goto done;
     }
     if (a.s_coz && ndim != 3) {
-        ret = kw_cli_fail("coil-order-z", "only for 3-D phantoms");
+        ret = kw_cli_fail("coil-order-z", nsl ? "not with --slices (each slice has its own 2-D "
+                                                "series)"
+                                              : "only for 3-D phantoms");
         goto done;
     }
     if (a.s_coz && (a.coil_order_z < 0 || a.coil_order_z > 8)) {
