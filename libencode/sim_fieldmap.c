@@ -247,75 +247,77 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
         fm->tau_seg[l] = nseg == 1 ? tmin : tmin + (tmax - tmin) * l / (nseg - 1);
     fm->b_re = malloc((size_t)nseg * fm->nt * sizeof *fm->b_re);
     fm->b_im = malloc((size_t)nseg * fm->nt * sizeof *fm->b_im);
+    /* The least-squares interpolators of Sutton et al. over the object's
+     * pixels (every pixel when the object is empty), subsampled to at most
+     * ~20000: with e_l(x) = exp(-i 2 pi f_x tau_l) once per fit pixel,
+     *   G_lm = sum_x conj(e_l) e_m,  rhs_l(tau) = sum_x conj(e_l) y(tau),
+     * y(tau) = exp(-i 2 pi f_x tau), b(tau) = G^-1 rhs(tau). */
+    size_t stride = nobj > 20000 ? nobj / 20000 : 1;
+    size_t used = 0;
+    double worst = 0;
+    for (size_t i = 0, k = 0; i < M; i++)
+        if ((!nobj || fm->obj[i] != 0) && k++ % stride == 0)
+            used++;
     double complex *G = calloc((size_t)nseg * nseg, sizeof *G);
     double complex *rhs = malloc((size_t)nseg * sizeof *rhs);
-    size_t stride = nobj > 20000 ? nobj / 20000 : 1;
-    if (!fm->b_re || !fm->b_im || !G || !rhs) {
-        free(G);
-        free(rhs);
+    double complex *e = malloc(used * (size_t)nseg * sizeof *e);
+    double *fx = malloc(used * sizeof *fx);
+    double complex *y = malloc(used * sizeof *y); /* y(tau) of the node at hand */
+    if (!fm->b_re || !fm->b_im || !G || !rhs || !e || !fx || !y) {
         st = kw_set_error(KW_ENOMEM, "field-map: out of memory");
-        goto fail;
+        goto fit_done;
     }
-    /* G_lm = sum_x exp(i 2 pi f_x (tau_l - tau_m)) over sampled object pixels */
-    size_t used = 0;
-    for (size_t i = 0, k = 0; i < M; i++) {
-        if (nobj && fm->obj[i] == 0)
-            continue;
-        if (k++ % stride)
-            continue;
-        used++;
-        double f = fm->field[i];
+    for (size_t i = 0, k = 0, u = 0; i < M; i++)
+        if ((!nobj || fm->obj[i] != 0) && k++ % stride == 0)
+            fx[u++] = fm->field[i];
+    for (size_t u = 0; u < used; u++)
+        for (int l = 0; l < nseg; l++)
+            e[u * nseg + l] = cexp(-2.0 * I * KW_PI * fx[u] * fm->tau_seg[l]);
+    for (size_t u = 0; u < used; u++)
         for (int l = 0; l < nseg; l++)
             for (int m = 0; m <= l; m++)
-                G[l * nseg + m] += cexp(2.0 * I * KW_PI * f * (fm->tau_seg[l] - fm->tau_seg[m]));
-    }
+                G[l * nseg + m] += conj(e[u * nseg + l]) * e[u * nseg + m];
     double trace = 0;
     for (int l = 0; l < nseg; l++)
         trace += creal(G[l * nseg + l]);
     for (int l = 0; l < nseg; l++)
         G[l * nseg + l] += 1e-9 * trace / nseg;
     if (kw_chol(G, (size_t)nseg) != KW_OK) {
-        free(G);
-        free(rhs);
         st = kw_set_error(KW_ENUMERIC, "field-map: segment interpolators are singular");
-        goto fail;
+        goto fit_done;
     }
-    double worst = 0;
     for (size_t ix = 0; ix < fm->nt; ix++) {
         double tau = fm->per_sample ? fm->tau0 + fm->dtau * (double)ix : sample_tau(o, ix, ix);
         for (int l = 0; l < nseg; l++)
             rhs[l] = 0;
-        for (size_t i = 0, k = 0; i < M; i++) {
-            if (nobj && fm->obj[i] == 0)
-                continue;
-            if (k++ % stride)
-                continue;
-            double f = fm->field[i];
+        for (size_t u = 0; u < used; u++) {
+            y[u] = cexp(-2.0 * I * KW_PI * fx[u] * tau);
             for (int l = 0; l < nseg; l++)
-                rhs[l] += cexp(2.0 * I * KW_PI * f * (fm->tau_seg[l] - tau));
+                rhs[l] += conj(e[u * nseg + l]) * y[u];
         }
         kw_chol_solve(G, (size_t)nseg, rhs);
         double e2 = 0;
-        for (size_t i = 0, k = 0; i < M; i++) {
-            if (nobj && fm->obj[i] == 0)
-                continue;
-            if (k++ % stride)
-                continue;
-            double f = fm->field[i];
-            double complex y = cexp(-2.0 * I * KW_PI * f * tau);
+        for (size_t u = 0; u < used; u++) {
+            double complex r = y[u];
             for (int l = 0; l < nseg; l++)
-                y -= rhs[l] * cexp(-2.0 * I * KW_PI * f * fm->tau_seg[l]);
-            e2 += creal(y * conj(y));
+                r -= rhs[l] * e[u * nseg + l];
+            e2 += creal(r * conj(r));
         }
-        double e = sqrt(e2 / (double)(used ? used : 1));
-        worst = e > worst ? e : worst;
+        double err = sqrt(e2 / (double)(used ? used : 1));
+        worst = err > worst ? err : worst;
         for (int l = 0; l < nseg; l++) {
             fm->b_re[(size_t)l * fm->nt + ix] = creal(rhs[l]);
             fm->b_im[(size_t)l * fm->nt + ix] = cimag(rhs[l]);
         }
     }
+fit_done:
     free(G);
     free(rhs);
+    free(e);
+    free(fx);
+    free(y);
+    if (st)
+        goto fail;
     fm->err = worst;
     *out = fm;
     return KW_OK;
