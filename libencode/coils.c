@@ -194,123 +194,12 @@ double complex kw_coil_series_eval(const double complex *coef, int order,
     return acc;
 }
 
-/* In-place Cholesky of the Hermitian positive-definite P x P matrix g (lower
- * triangle used); 0 on success. */
 kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
                       const float *weight, int order, double period,
                       double complex *coef, double *residual)
 {
-    KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny, KW_EINVAL, "coil fit: bad arguments");
-    KW_FAIL_IF(order < 0 || order > 8, KW_ERANGE, "coil-order: %d outside 0..8", order);
-    KW_FAIL_IF(!(period > 0) || !isfinite(period), KW_EINVAL, "coil fit: period must be positive");
-    const int side = 2 * order + 1, P = side * side;
-    size_t sx = (nx + 63) / 64, sy = (ny + 63) / 64;
-    size_t M = 0;
-    for (size_t r = 0; r < ny; r += sy)
-        for (size_t c = 0; c < nx; c += sx)
-            if (!weight || weight[r * nx + c] != 0)
-                M++;
-    KW_FAIL_IF(M < (size_t)P, KW_EINVAL,
-               "coil fit: %zu fit points for %d coefficients (object too small "
-               "or order too high)", M, P);
-    double complex *A = malloc(M * (size_t)P * sizeof *A);
-    double complex *G = calloc((size_t)P * P, sizeof *G);
-    double complex *h = malloc((size_t)P * sizeof *h);
-    size_t *idx = malloc(M * sizeof *idx);
-    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
-    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
-    kw_status st = KW_OK;
-    if (!A || !G || !h || !idx || !ex || !ey) {
-        st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
-        goto done;
-    }
-    /* separable basis tables: exp(i 2 pi p u / period) per column, per row */
-    for (size_t c = 0; c < nx; c++) {
-        double u = ((double)c - (double)(nx / 2)) / (double)nx;
-        for (int p = -order; p <= order; p++) {
-            double ph = 2.0 * KW_PI * p * u / period;
-            ex[c * side + (p + order)] = cos(ph) + I * sin(ph);
-        }
-    }
-    for (size_t r = 0; r < ny; r++) {
-        double v = ((double)r - (double)(ny / 2)) / (double)ny;
-        for (int q = -order; q <= order; q++) {
-            double ph = 2.0 * KW_PI * q * v / period;
-            ey[r * side + (q + order)] = cos(ph) + I * sin(ph);
-        }
-    }
-    M = 0;
-    for (size_t r = 0; r < ny; r += sy)
-        for (size_t c = 0; c < nx; c += sx) {
-            if (weight && weight[r * nx + c] == 0)
-                continue;
-            idx[M] = r * nx + c;
-            for (int q = 0; q < side; q++)
-                for (int p = 0; p < side; p++)
-                    A[M * P + q * side + p] = ey[r * side + q] * ex[c * side + p];
-            M++;
-        }
-    /* normal equations G = A^H A (lower triangle), small Tikhonov term for
-     * safety (1e-10 of the mean diagonal) */
-#pragma omp parallel for schedule(dynamic, 4)
-    for (int i = 0; i < P; i++)
-        for (int j = 0; j <= i; j++) {
-            double complex s = 0;
-            for (size_t m = 0; m < M; m++)
-                s += A[m * P + i] * conj(A[m * P + j]);
-            G[i * P + j] = s;
-        }
-    double tr = 0;
-    for (int i = 0; i < P; i++)
-        tr += creal(G[i * P + i]);
-    for (int i = 0; i < P; i++)
-        G[i * P + i] += 1e-10 * tr / P;
-    /* G above is sum conj(A_j) A_i = (A^H A)_{ji}; Hermitian: (A^H A)_{ij} = conj */
-    for (int i = 0; i < P; i++)
-        for (int j = 0; j <= i; j++)
-            G[i * P + j] = conj(G[i * P + j]);
-    if (kw_chol(G, (size_t)P) != KW_OK) {
-        st = kw_set_error(KW_ENUMERIC, "coil fit: normal equations not positive definite");
-        goto done;
-    }
-    for (int c = 0; c < ncoils; c++) {
-        const float complex *mp = maps + (size_t)c * nx * ny;
-        for (int i = 0; i < P; i++) {
-            double complex s = 0;
-            for (size_t m = 0; m < M; m++)
-                s += conj(A[m * P + i]) * mp[idx[m]];
-            h[i] = s;
-        }
-        kw_chol_solve(G, (size_t)P, h);
-        memcpy(coef + (size_t)c * P, h, (size_t)P * sizeof *h);
-        if (residual) {
-            double num = 0, den = 0;
-            for (size_t r = 0; r < ny; r++)
-                for (size_t col = 0; col < nx; col++) {
-                    if (weight && weight[r * nx + col] == 0)
-                        continue;
-                    double complex f = 0;
-                    for (int q = 0; q < side; q++) {
-                        double complex t = 0;
-                        for (int p = 0; p < side; p++)
-                            t += h[q * side + p] * ex[col * side + p];
-                        f += t * ey[r * side + q];
-                    }
-                    double complex e = f - mp[r * nx + col];
-                    num += creal(e * conj(e));
-                    den += creal(mp[r * nx + col] * conj(mp[r * nx + col]));
-                }
-            residual[c] = den > 0 ? sqrt(num / den) : 0.0;
-        }
-    }
-done:
-    free(A);
-    free(G);
-    free(h);
-    free(idx);
-    free(ex);
-    free(ey);
-    return st;
+    /* the 3-D fit with one slice and order 0 along z: the same series */
+    return kw_coil_fit3(maps, ncoils, nx, ny, 1, weight, order, 0, period, coef, residual);
 }
 
 /* exp(i 2 pi m t / period) for m = -order..order at the n positions
@@ -339,7 +228,9 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
     const int side = 2 * order + 1, sz = 2 * order_z + 1, P = side * side * sz;
     KW_FAIL_IF(P > 1024, KW_ERANGE, "coil-order: %d coefficients per coil (at most 1024)", P);
     const size_t nv = nx * ny * nz;
-    size_t sx = (nx + 19) / 20, sy = (ny + 19) / 20, szs = (nz + 19) / 20;
+    /* fit points: at most 64 per axis in 2-D, 20 per axis in 3-D */
+    const size_t cap = nz == 1 ? 64 : 20;
+    size_t sx = (nx + cap - 1) / cap, sy = (ny + cap - 1) / cap, szs = (nz + cap - 1) / cap;
     size_t M = 0;
     for (size_t k = 0; k < nz; k += szs)
         for (size_t r = 0; r < ny; r += sy)

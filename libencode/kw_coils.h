@@ -84,7 +84,8 @@ kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, siz
  *                exp(i 2 pi (p u + q v + r w) / period),
  * w = z/2 along the array's z axis (FOV units), fitted by least squares
  * over the voxels where weight != 0, subsampled to at most ~20 per axis
- * for the solve; coef = channels x (2 order_z + 1)(2 order + 1)^2 values,
+ * for the solve (~64 per axis when nz = 1: kw_coil_fit() is this fit with
+ * nz = 1, order_z = 0); coef = channels x (2 order_z + 1)(2 order + 1)^2 values,
  * index ((r + order_z)(2 order + 1) + (q + order))(2 order + 1) + (p + order);
  * residual[c] over all weighted voxels. */
 kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
