@@ -98,25 +98,53 @@ static void ring_raw(const kw_coil_ring *ring, int cidx, double xm, double ym, d
     *s = b[0] - I * b[1];
 }
 
+/* 1 / root-sum-of-squares of the raw sensitivities at the centre. */
+static double ring_norm(const kw_coil_ring *ring)
+{
+    double norm = 0;
+    for (int c = 0; c < kw_coil_ring_channels(ring); c++) {
+        double complex s0;
+        ring_raw(ring, c, 0, 0, 0, &s0);
+        norm += creal(s0 * conj(s0));
+    }
+    return 1.0 / sqrt(norm);
+}
+
+static void ring_sens(const kw_coil_ring *ring, double norm, double x, double y, double z,
+                      double complex *s)
+{
+    for (int c = 0; c < kw_coil_ring_channels(ring); c++) {
+        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], 0.5 * z * ring->fov_z,
+                 &s[c]);
+        s[c] *= norm;
+    }
+}
+
+/* One plane at height z: coil c's map at out + c x coil_stride (ny x nx). */
+static void ring_plane(const kw_coil_ring *ring, double norm, size_t nx, size_t ny, double z,
+                       float complex *out, size_t coil_stride)
+{
+    int nch = kw_coil_ring_channels(ring);
+#pragma omp parallel for schedule(static)
+    for (size_t r = 0; r < ny; r++) {
+        double complex s[256];
+        double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
+        for (size_t col = 0; col < nx; col++) {
+            double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
+            ring_sens(ring, norm, x, y, z, s);
+            for (int c = 0; c < nch; c++)
+                out[(size_t)c * coil_stride + r * nx + col] = (float complex)s[c];
+        }
+    }
+}
+
 kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
                              double complex *s)
 {
     kw_status st = ring_check(ring);
     if (st)
         return st;
-    int nch = kw_coil_ring_channels(ring);
-    double norm = 0;
-    for (int c = 0; c < nch; c++) {
-        double complex s0;
-        ring_raw(ring, c, 0, 0, 0, &s0);
-        norm += creal(s0 * conj(s0));
-    }
-    norm = 1.0 / sqrt(norm);
-    for (int c = 0; c < nch; c++) {
-        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], 0.5 * z * ring->fov_z,
-                 &s[c]);
-        s[c] *= norm;
-    }
+    ring_sens(ring, ring_norm(ring), x, y, z, s);
     return KW_OK;
 }
 
@@ -128,30 +156,16 @@ kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, siz
         return st;
     KW_FAIL_IF(!out || !nx || !ny || !nz, KW_EINVAL, "coils: empty grid");
     KW_FAIL_IF(!(ring->fov_z > 0), KW_EINVAL, "fov: z must be positive for 3-D maps");
-    int nch = kw_coil_ring_channels(ring);
-    size_t nv = nx * ny * nz;
-#pragma omp parallel for schedule(static)
-    for (size_t zr = 0; zr < nz * ny; zr++) {
-        size_t iz = zr / ny, r = zr % ny;
-        double complex s[256];
-        double z = ((double)iz - (double)(nz / 2)) * 2.0 / (double)nz;
-        double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
-        for (size_t col = 0; col < nx; col++) {
-            double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
-            kw_coil_ring_sens3(ring, x, y, z, s);
-            for (int c = 0; c < nch; c++)
-                out[(size_t)c * nv + zr * nx + col] = (float complex)s[c];
-        }
-    }
+    double norm = ring_norm(ring);
+    for (size_t iz = 0; iz < nz; iz++)
+        ring_plane(ring, norm, nx, ny, ((double)iz - (double)(nz / 2)) * 2.0 / (double)nz,
+                   out + iz * nx * ny, nx * ny * nz);
     return KW_OK;
 }
 
 kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
                             double complex *s)
 {
-    kw_status st = ring_check(ring);
-    if (st)
-        return st;
     return kw_coil_ring_sens3(ring, x, y, 0.0, s);
 }
 
@@ -168,16 +182,7 @@ kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, d
     if (st)
         return st;
     KW_FAIL_IF(!out || !nx || !ny, KW_EINVAL, "coils: empty grid");
-    int nc = kw_coil_ring_channels(ring);
-    double complex s[256];
-    for (size_t r = 0; r < ny; r++)
-        for (size_t col = 0; col < nx; col++) {
-            double x = ((double)col - (double)(nx / 2)) * 2.0 / (double)nx;
-            double y = ((double)(ny / 2) - (double)r) * 2.0 / (double)ny;
-            kw_coil_ring_sens3(ring, x, y, z, s);
-            for (int c = 0; c < nc; c++)
-                out[((size_t)c * ny + r) * nx + col] = (float complex)s[c];
-        }
+    ring_plane(ring, ring_norm(ring), nx, ny, z, out, nx * ny);
     return KW_OK;
 }
 
