@@ -1332,25 +1332,17 @@ int kw_cmd_encode(int argc, char **argv)
             goto done;
         }
         /* The data are exact for the fitted series: write those maps. */
-        for (int c = 0; c < ncoils; c++)
-            for (size_t k = 0; k < (ndim == 3 ? n[2] : per_slice ? (size_t)nsl : 1); k++)
-                for (size_t r = 0; r < n[1]; r++)
-                    for (size_t x = 0; x < n[0]; x++) {
-                        double u = ((double)x - (double)(n[0] / 2)) / (double)n[0];
-                        double v = ((double)r - (double)(n[1] / 2)) / (double)n[1];
-                        double w3 = ndim == 3 ? ((double)k - (double)(n[2] / 2)) / (double)n[2] : 0;
-                        const double complex *cc =
-                            coef + ((per_slice ? k * (size_t)ncoils : 0) + (size_t)c) * nterm;
-                        double complex f = 0;
-                        for (int zz = -Lz; zz <= Lz; zz++) {
-                            double phz = 2.0 * KW_PI * zz * w3 / COIL_PERIOD;
-                            f += kw_coil_series_eval(cc + (size_t)(zz + Lz) * sd * sd, L,
-                                                     COIL_PERIOD, u, v) *
-                                 (cos(phz) + I * sin(phz));
-                        }
-                        ((float complex *)maps.data)[(size_t)c * mvox + (k * n[1] + r) * n[0] + x] =
-                            (float complex)f;
-                    }
+        size_t planes = ndim == 3 ? n[2] : per_slice ? (size_t)nsl : 1;
+        for (int c = 0; c < ncoils && !st; c++)
+            for (size_t k = 0; k < (per_slice ? planes : 1) && !st; k++)
+                st = kw_coil_series_grid(coef + ((per_slice ? k * (size_t)ncoils : 0) + (size_t)c) * nterm,
+                                         L, Lz, COIL_PERIOD, n[0], n[1], per_slice ? 1 : planes,
+                                         (float complex *)maps.data + (size_t)c * mvox +
+                                             (per_slice ? k * n[0] * n[1] : 0));
+        if (st) {
+            ret = kw_cli_status(st, "coils");
+            goto done;
+        }
     }
 
     /* ---- noise covariance ---- */

@@ -186,19 +186,6 @@ kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, d
     return KW_OK;
 }
 
-double complex kw_coil_series_eval(const double complex *coef, int order,
-                                   double period, double u, double v)
-{
-    int side = 2 * order + 1;
-    double complex acc = 0;
-    for (int q = -order; q <= order; q++)
-        for (int p = -order; p <= order; p++) {
-            double ph = 2.0 * KW_PI * (p * u + q * v) / period;
-            acc += coef[(q + order) * side + (p + order)] * (cos(ph) + I * sin(ph));
-        }
-    return acc;
-}
-
 kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
                       const float *weight, int order, double period,
                       double complex *coef, double *residual)
@@ -219,6 +206,47 @@ static void basis_table(size_t n, int order, double period, double complex *e)
             e[i * side + (m + order)] = cos(ph) + I * sin(ph);
         }
     }
+}
+
+kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, double period,
+                              size_t nx, size_t ny, size_t nz, float complex *out)
+{
+    KW_FAIL_IF(!h || !out || order < 0 || order_z < 0, KW_EINVAL, "coil series: bad arguments");
+    const int side = 2 * order + 1, sz = 2 * order_z + 1;
+    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
+    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
+    double complex *ez = malloc(nz * (size_t)sz * sizeof *ez);
+    if (!ex || !ey || !ez) {
+        free(ex);
+        free(ey);
+        free(ez);
+        return kw_set_error(KW_ENOMEM, "coil series: out of memory");
+    }
+    basis_table(nx, order, period, ex);
+    basis_table(ny, order, period, ey);
+    basis_table(nz, order_z, period, ez);
+#pragma omp parallel for schedule(static)
+    for (size_t row = 0; row < nz * ny; row++) {
+        size_t k = row / ny, r = row % ny;
+        double complex t[2 * 8 + 1]; /* order <= 8 */
+        for (int p = 0; p < side; p++) {
+            double complex acc = 0;
+            for (int w = 0; w < sz; w++)
+                for (int q = 0; q < side; q++)
+                    acc += h[(w * side + q) * side + p] * ez[k * sz + w] * ey[r * side + q];
+            t[p] = acc;
+        }
+        for (size_t c = 0; c < nx; c++) {
+            double complex f = 0;
+            for (int p = 0; p < side; p++)
+                f += t[p] * ex[c * side + p];
+            out[row * nx + c] = (float complex)f;
+        }
+    }
+    free(ex);
+    free(ey);
+    free(ez);
+    return KW_OK;
 }
 
 kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
@@ -251,9 +279,9 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
     double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
     double complex *ez = malloc(nz * (size_t)sz * sizeof *ez);
     double complex *a = malloc((size_t)P * sizeof *a);
-    double complex *t = malloc((size_t)side * sizeof *t);
+    float complex *fit = NULL; /* one coil's fitted map, for the residual */
     kw_status st = KW_OK;
-    if (!G || !H || !ex || !ey || !ez || !a || !t) {
+    if (!G || !H || !ex || !ey || !ez || !a) {
         st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
         goto done;
     }
@@ -299,31 +327,22 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
         memcpy(coef + (size_t)ch * P, h, (size_t)P * sizeof *h);
         if (!residual)
             continue;
-        /* the fit on every weighted voxel: per (z, y) row the x-series
-         * coefficients t_p, then side terms per voxel */
+        /* the fit on every weighted voxel */
+        if (!fit && !(fit = malloc(nv * sizeof *fit))) {
+            st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
+            goto done;
+        }
+        if ((st = kw_coil_series_grid(h, order, order_z, period, nx, ny, nz, fit)))
+            goto done;
         double num = 0, den = 0;
         const float complex *mp = maps + (size_t)ch * nv;
-        for (size_t k = 0; k < nz; k++)
-            for (size_t r = 0; r < ny; r++) {
-                for (int p = 0; p < side; p++) {
-                    double complex acc = 0;
-                    for (int w = 0; w < sz; w++)
-                        for (int q = 0; q < side; q++)
-                            acc += h[(w * side + q) * side + p] * ez[k * sz + w] * ey[r * side + q];
-                    t[p] = acc;
-                }
-                for (size_t c = 0; c < nx; c++) {
-                    size_t v = (k * ny + r) * nx + c;
-                    if (weight && weight[v] == 0)
-                        continue;
-                    double complex f = 0;
-                    for (int p = 0; p < side; p++)
-                        f += t[p] * ex[c * side + p];
-                    double complex e = f - mp[v];
-                    num += creal(e * conj(e));
-                    den += creal(mp[v] * conj(mp[v]));
-                }
-            }
+        for (size_t v = 0; v < nv; v++) {
+            if (weight && weight[v] == 0)
+                continue;
+            double complex e = (double complex)fit[v] - mp[v];
+            num += creal(e * conj(e));
+            den += creal(mp[v] * conj(mp[v]));
+        }
         residual[ch] = den > 0 ? sqrt(num / den) : 0.0;
     }
 done:
@@ -333,6 +352,6 @@ done:
     free(ey);
     free(ez);
     free(a);
-    free(t);
+    free(fit);
     return st;
 }

@@ -104,9 +104,13 @@ kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t n
                       const float *weight, int order, double period,
                       double complex *coef, double *residual);
 
-/*! kw_coil_series_eval(): the fitted series of one coil at (u, v). */
-double complex kw_coil_series_eval(const double complex *coef, int order,
-                                   double period, double u, double v);
+/*! kw_coil_series_grid(): one coil's 3-D series (kw_coil_fit3's layout;
+ * order_z = 0 and nz = 1 for the 2-D series) on the voxel grid nz x ny x nx
+ * (C order) into out, evaluated separably (per row the x coefficients, then
+ * 2 order + 1 terms per voxel). Returns KW_ENOMEM if its row tables cannot
+ * be allocated. */
+kw_status kw_coil_series_grid(const double complex *coef, int order, int order_z, double period,
+                              size_t nx, size_t ny, size_t nz, float complex *out);
 
 #ifdef __cplusplus
 }
