@@ -36,7 +36,7 @@ DEPS := $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(TEST_OBJ:.o=.d) $(BUILD)/obj/cli/mai
 
 VERSION := $(shell sed -n 's/^\#define KW_VERSION_STRING "\(.*\)"/\1/p' libencode/kw_base.h)
 
-.PHONY: all deps deps-test check test test-c test-ref asan valgrind demo install clean bench fuzz
+.PHONY: FORCE all deps deps-test check test test-c test-ref asan valgrind demo install clean bench fuzz
 
 all: deps $(BUILD)/kweave $(BUILD)/libkweave.a $(BUILD)/libkweave.so $(BUILD)/kweave.pc $(BUILD)/include/kweave.h
 
@@ -46,7 +46,7 @@ deps:
 deps-test:
 	@sh scripts/deps.sh test
 
-$(BUILD)/obj/%.o: %.c
+$(BUILD)/obj/%.o: %.c | deps
 	@mkdir -p $(dir $@)
 	@echo "CC $<"
 	@$(CC) $(ALL_CFLAGS) -MMD -MP -c $< -o $@
@@ -55,8 +55,13 @@ $(BUILD)/libkweave.a: $(LIB_OBJ)
 	@rm -f $@
 	ar rcs $@ $^
 
+# The library's objects hide every symbol that KW_API does not mark.
+$(LIB_OBJ): ALL_CFLAGS += -fvisibility=hidden
+
+SOMAJOR := $(firstword $(subst ., ,$(VERSION)))
 $(BUILD)/libkweave.so: $(LIB_OBJ)
-	$(CC) -shared -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) -shared -Wl,-soname,libkweave.so.$(SOMAJOR) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	@ln -sf libkweave.so $(BUILD)/libkweave.so.$(SOMAJOR)
 
 $(BUILD)/libkwcli.a: $(CLI_OBJ)
 	@rm -f $@
@@ -76,13 +81,17 @@ $(BUILD)/include/kweave.h: $(PUB_HDR) Makefile
 	   for h in $(notdir $(PUB_HDR)); do echo "#include \"$$h\""; done; \
 	   echo '#endif'; } > $@
 
-$(BUILD)/kweave.pc: Makefile
+# Rewritten whenever its text changes (a new PREFIX included), so that
+# `make` then `make install PREFIX=...` installs the right prefix.
+$(BUILD)/kweave.pc: FORCE
 	@mkdir -p $(dir $@)
 	@printf '%s\n' 'prefix=$(PREFIX)' 'libdir=$${prefix}/lib' 'includedir=$${prefix}/include/kweave' '' \
 	  'Name: kweave' 'Description: MRI k-space encoding and image reconstruction' \
 	  'Version: $(VERSION)' 'Requires.private: fftw3f libpng libcjson' \
 	  'Libs: -L$${libdir} -lkweave' 'Libs.private: -lfftw3f_omp -lm -fopenmp' \
-	  'Cflags: -I$${includedir}' > $@
+	  'Cflags: -I$${includedir}' > $@.tmp
+	@if cmp -s $@.tmp $@; then rm -f $@.tmp; else mv -f $@.tmp $@; fi
+FORCE:
 
 # ---- tests ---------------------------------------------------------------------
 $(BUILD)/kw_tests: $(TEST_OBJ) $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
@@ -103,7 +112,18 @@ test-ref: $(BUILD)/kweave $(BUILD)/libkweave.so $(BUILD)/libkwcli.so
 	$(if $(filter 1,$(SAN)),,KWEAVE_LIB=$(abspath $(BUILD)/libkweave.so) KWEAVE_CLI_LIB=$(abspath $(BUILD)/libkwcli.so)) \
 	$(PY) -m pytest -q -p no:cacheprovider tests/ref
 
-test: test-c test-ref
+# The public headers compile as C++ (every one, through kweave.h) and the
+# shared library exports only what they declare (tests/api/).
+CXX ?= c++
+$(BUILD)/cxx_include: tests/api/cxx_include.cpp $(BUILD)/include/kweave.h $(PUB_HDR) $(BUILD)/libkweave.so
+	$(CXX) -std=c++11 -Wall -Wextra -Werror -I$(BUILD)/include -Ilibencode -Irecon \
+	  -o $@ $< $(BUILD)/libkweave.so $(SAN_LDFLAGS)
+
+test-api: $(BUILD)/cxx_include $(BUILD)/libkweave.so
+	LD_LIBRARY_PATH=$(BUILD) $(BUILD)/cxx_include
+	sh tests/api/exports.sh $(BUILD)/libkweave.so $(PUB_HDR)
+
+test: test-c test-ref test-api
 
 check: deps-test
 	$(MAKE) all
@@ -141,7 +161,9 @@ install: all
 	install -d $(DESTDIR)$(PREFIX)/bin $(DESTDIR)$(PREFIX)/lib/pkgconfig $(DESTDIR)$(PREFIX)/include/kweave
 	install -m 755 $(BUILD)/kweave $(DESTDIR)$(PREFIX)/bin/
 	install -m 644 $(BUILD)/libkweave.a $(DESTDIR)$(PREFIX)/lib/
-	install -m 755 $(BUILD)/libkweave.so $(DESTDIR)$(PREFIX)/lib/
+	install -m 755 $(BUILD)/libkweave.so $(DESTDIR)$(PREFIX)/lib/libkweave.so.$(VERSION)
+	ln -sf libkweave.so.$(VERSION) $(DESTDIR)$(PREFIX)/lib/libkweave.so.$(SOMAJOR)
+	ln -sf libkweave.so.$(SOMAJOR) $(DESTDIR)$(PREFIX)/lib/libkweave.so
 	install -m 644 $(PUB_HDR) $(BUILD)/include/kweave.h $(DESTDIR)$(PREFIX)/include/kweave/
 	install -m 644 $(BUILD)/kweave.pc $(DESTDIR)$(PREFIX)/lib/pkgconfig/
 

@@ -8,6 +8,10 @@
 #include <string.h>
 
 static _Thread_local char last_error[256];
+static _Thread_local char last_param[64];
+static _Thread_local const char *last_reason = "";
+
+const char *kw_version(void) { return KW_VERSION_STRING; }
 
 const char *kw_strerror(kw_status s)
 {
@@ -28,20 +32,70 @@ const char *kw_strerror(kw_status s)
 }
 
 const char *kw_last_error(void) { return last_error; }
+const char *kw_last_error_param(void) { return last_param; }
+const char *kw_last_error_reason(void) { return last_reason[0] ? last_reason : last_error; }
 
-void kw_clear_error(void) { last_error[0] = '\0'; }
+void kw_clear_error(void)
+{
+    last_error[0] = '\0';
+    last_param[0] = '\0';
+    last_reason = "";
+}
+
+/* Format into a scratch buffer first: callers may pass kw_last_error() (or
+ * the reason) itself as an argument, wrapping a lower layer's message. */
+static void set_error_v(const char *param, const char *fmt, va_list ap)
+{
+    char buf[sizeof last_error], reason[sizeof last_error];
+    vsnprintf(reason, sizeof reason, fmt, ap);
+    size_t np = 0;
+    if (param && param[0]) {
+        snprintf(last_param, sizeof last_param, "%s", param);
+        np = strlen(last_param) + 2;
+        memcpy(buf, last_param, np - 2);
+        memcpy(buf + np - 2, ": ", 2);
+        size_t nr = strnlen(reason, sizeof buf - np - 1);
+        memcpy(buf + np, reason, nr);
+        buf[np + nr] = '\0';
+    } else {
+        memcpy(buf, reason, sizeof buf);
+        last_param[0] = '\0';
+    }
+    memcpy(last_error, buf, sizeof last_error);
+    last_reason = np < strlen(last_error) ? last_error + np : "";
+}
 
 kw_status kw_set_error(kw_status s, const char *fmt, ...)
 {
-    /* format into a scratch buffer first: callers may pass kw_last_error()
-     * itself as an argument (wrapping a lower layer's message) */
-    char buf[sizeof last_error];
     va_list ap;
     va_start(ap, fmt);
-    vsnprintf(buf, sizeof buf, fmt, ap);
+    set_error_v(NULL, fmt, ap);
     va_end(ap);
-    memcpy(last_error, buf, sizeof last_error);
     return s;
+}
+
+kw_status kw_set_error_param(kw_status s, const char *param, const char *fmt, ...)
+{
+    va_list ap;
+    va_start(ap, fmt);
+    set_error_v(param, fmt, ap);
+    va_end(ap);
+    return s;
+}
+
+kw_status kw_options_take(void *dst, size_t dst_size, const void *src, const char *what)
+{
+    KW_FAIL_PARAM(!src, KW_EINVAL, what, "NULL options (fill them with the _init() call first)");
+    size_t n;
+    memcpy(&n, src, sizeof n);
+    KW_FAIL_PARAM(n < sizeof(size_t), KW_EINVAL, what,
+                  "options not initialised (struct_size %zu; call the _init() first)", n);
+    KW_FAIL_PARAM(n > dst_size, KW_EINVAL, what,
+                  "options struct of %zu bytes, larger than this library's %zu "
+                  "(built against a newer kweave)", n, dst_size);
+    memcpy(dst, src, n);
+    memcpy(dst, &dst_size, sizeof dst_size);
+    return KW_OK;
 }
 
 size_t kw_dtype_size(kw_dtype t)

@@ -16,15 +16,43 @@
 #ifndef KW_BASE_H
 #define KW_BASE_H
 
-#include <complex.h>
 #include <stddef.h>
 #include <stdint.h>
+
+/* Complex samples: C99 `float complex` in C; in C++ std::complex<float>,
+ * which the C++ standard makes layout-compatible with float[2] (and so with
+ * C's float complex and fftwf_complex). The headers use these names only. */
+#ifdef __cplusplus
+#include <complex>
+typedef std::complex<float> kw_cfloat;
+typedef std::complex<double> kw_cdouble;
+#else
+#include <complex.h>
+typedef float complex kw_cfloat;
+typedef double complex kw_cdouble;
+#endif
+
+/* KW_API marks the library's public functions: the shared library exports
+ * these and hides everything else (built with -fvisibility=hidden). */
+#if defined(__GNUC__) && !defined(KW_STATIC_ONLY)
+#define KW_API __attribute__((visibility("default")))
+#else
+#define KW_API
+#endif
 
 #ifdef __cplusplus
 extern "C" {
 #endif
 
+#define KW_VERSION_MAJOR 0
+#define KW_VERSION_MINOR 1
+#define KW_VERSION_PATCH 0
 #define KW_VERSION_STRING "0.1.0"
+
+/*! kw_version(): the library's version at run time ("MAJOR.MINOR.PATCH");
+ * compare with KW_VERSION_STRING to detect a header/library mismatch. The
+ * shared library's SONAME carries the major number (libkweave.so.MAJOR). */
+KW_API const char *kw_version(void);
 
 /* Fixed numbers: scripts and bindings may rely on them. */
 typedef enum kw_status {
@@ -42,28 +70,55 @@ typedef enum kw_status {
 } kw_status;
 
 /*! kw_strerror(): a short constant description of a status (never NULL). */
-const char *kw_strerror(kw_status s);
+KW_API const char *kw_strerror(kw_status s);
 
 /*! kw_last_error(): the one-line reason the last failing call on this thread
- * gave ("" if none). Valid until the next failing call on the same thread. */
-const char *kw_last_error(void);
+ * gave ("" if none). Valid until the next failing call on the same thread.
+ * When the failure concerns one parameter, the line is "PARAM: REASON". */
+KW_API const char *kw_last_error(void);
+
+/*! kw_last_error_param(): the name of the parameter the last failure on this
+ * thread concerns: a field of the call's options struct or argument, in the
+ * library's own words (e.g. "lambda", "acs_lines", "sens"), or "" when the
+ * failure names none. Front ends map it to their own option names;
+ * kw_last_error_reason() gives the reason without the name. Both are valid
+ * until the next failing call on the same thread. */
+KW_API const char *kw_last_error_param(void);
+KW_API const char *kw_last_error_reason(void);
 
 /*! kw_set_error(): record a reason (printf format) and return `s`. Every
- * failure in the library passes through here: one breakpoint catches all. */
-kw_status kw_set_error(kw_status s, const char *fmt, ...)
+ * failure in the library passes through here: one breakpoint catches all.
+ * The failure names no parameter (kw_last_error_param() is ""). */
+KW_API kw_status kw_set_error(kw_status s, const char *fmt, ...)
 #if defined(__GNUC__)
     __attribute__((format(printf, 2, 3)))
 #endif
     ;
 
+/*! kw_set_error_param(): the same for a failure about one parameter: records
+ * `param` apart and the line "param: reason". */
+KW_API kw_status kw_set_error_param(kw_status s, const char *param, const char *fmt, ...)
+#if defined(__GNUC__)
+    __attribute__((format(printf, 3, 4)))
+#endif
+    ;
+
 /*! kw_clear_error(): forget the last reason on this thread. */
-void kw_clear_error(void);
+KW_API void kw_clear_error(void);
 
 /* KW_FAIL_IF: return `st` with a reason when `cond` holds. */
 #define KW_FAIL_IF(cond, st, ...)                                              \
     do {                                                                       \
         if (cond)                                                              \
             return kw_set_error((st), __VA_ARGS__);                            \
+    } while (0)
+
+/* KW_FAIL_PARAM: the same for a failure about parameter `param` (a string
+ * literal, the library's own name of the field). */
+#define KW_FAIL_PARAM(cond, st, param, ...)                                    \
+    do {                                                                       \
+        if (cond)                                                              \
+            return kw_set_error_param((st), (param), __VA_ARGS__);             \
     } while (0)
 
 /* KW_FAIL_GOTO: the same for functions that must clean up: sets `var`. */
@@ -74,6 +129,22 @@ void kw_clear_error(void);
             goto label;                                                        \
         }                                                                      \
     } while (0)
+
+/* ---- options structs ------------------------------------------------------
+ * Every object's options struct starts with `size_t struct_size`, which its
+ * kw_X_options_init() sets to sizeof the struct as the caller was compiled
+ * (libpng's image.version): a library with more fields reads only what an
+ * older caller has and takes its own defaults for the rest, so adding a
+ * field never breaks a compiled caller. */
+
+/*! kw_options_take(): copy a caller's options struct `src` (whose first
+ * field is its struct_size) over `dst`, which the library has filled with
+ * its defaults and whose size is `dst_size`. KW_EINVAL naming `what` when
+ * src is NULL, was never initialised (struct_size 0 or under a size_t) or
+ * is larger than the library's struct (a caller built against a newer
+ * library). */
+KW_API kw_status kw_options_take(void *dst, size_t dst_size, const void *src,
+                                 const char *what);
 
 /* ---- arrays ------------------------------------------------------------- */
 
@@ -95,32 +166,32 @@ typedef struct kw_array {
 } kw_array;
 
 /*! kw_dtype_size(): bytes per element (0 for an unknown dtype). */
-size_t kw_dtype_size(kw_dtype t);
+KW_API size_t kw_dtype_size(kw_dtype t);
 
 /*! kw_array_count(): number of elements (product of dims; 1 for ndim 0).
  * Returns 0 if the product overflows size_t. */
-size_t kw_array_count(const kw_array *a);
+KW_API size_t kw_array_count(const kw_array *a);
 
 /*! kw_checked_count(): product of n sizes times `elem` bytes, or KW_ENOMEM
  * (with a reason) when it overflows or exceeds `limit` bytes (0: no limit). */
-kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
+KW_API kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
                            size_t limit, size_t *bytes);
 
 /*! kw_array_alloc(): allocate a zero-filled array (64-byte aligned, suitable
  * for FFTW's SIMD). `a` is overwritten; free with kw_array_free(). */
-kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims);
+KW_API kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims);
 
 /*! kw_array_free(): free the data and reset `a` (NULL-safe, idempotent). */
-void kw_array_free(kw_array *a);
+KW_API void kw_array_free(kw_array *a);
 
 /*! kw_alloc(): 64-byte aligned, zeroed allocation of n bytes (NULL on
  * failure or n == 0); kw_free() releases it (NULL-safe). */
-void *kw_alloc(size_t n);
-void kw_free(void *p);
+KW_API void *kw_alloc(size_t n);
+KW_API void kw_free(void *p);
 
 /*! kw_array_all_finite(): KW_OK if every value is finite, else KW_ENUMERIC
  * with the index of the first bad value in the reason. */
-kw_status kw_array_all_finite(const kw_array *a);
+KW_API kw_status kw_array_all_finite(const kw_array *a);
 
 /* ---- physical constants (SI) --------------------------------------------- */
 

@@ -29,13 +29,13 @@ extern "C" {
 /*! kw_ellip_ke(): complete elliptic integrals of the first and second kind
  * K(m), E(m) with parameter m = k^2 in [0, 1) (the convention of
  * scipy.special.ellipk/ellipe), by the arithmetic-geometric mean. */
-kw_status kw_ellip_ke(double m, double *K, double *E);
+KW_API kw_status kw_ellip_ke(double m, double *K, double *E);
 
 /*! kw_loop_field(): magnetic field (T) at `r` of a circular loop of radius
  * `a` (m) centred at `c` with unit normal `n`, carrying `current` (A),
  * the current circulating counter-clockwise seen from the tip of n. b[3]
  * receives Bx, By, Bz. KW_ERANGE on the wire itself. */
-kw_status kw_loop_field(const double c[3], const double n[3], double a, double current,
+KW_API kw_status kw_loop_field(const double c[3], const double n[3], double a, double current,
                         const double r[3], double b[3]);
 
 typedef struct kw_coil_ring {
@@ -52,32 +52,32 @@ typedef struct kw_coil_ring {
 } kw_coil_ring;
 
 /*! kw_coil_ring_channels(): ncoils x max(rings, 1). */
-int kw_coil_ring_channels(const kw_coil_ring *ring);
+KW_API int kw_coil_ring_channels(const kw_coil_ring *ring);
 
 /*! kw_coil_ring_sens(): complex sensitivity of every coil at the phantom
  * point (x, y) in [-1, 1] (z = 0), normalised as above: s[ncoils]. The loop
  * planes must lie outside the FOV square (distance > FOV diagonal / 2). */
-kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
-                            double complex *s);
+KW_API kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
+                            kw_cdouble *s);
 
 /*! kw_coil_ring_maps(): sensitivity maps on the pixel grid (kw_phantom.h
  * grid, 2-D) of nx x ny: out = channels x ny x nx (C order). */
-kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
-                            float complex *out);
+KW_API kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
+                            kw_cfloat *out);
 
 /*! kw_coil_ring_maps_at(): the 2-D maps of the plane at height z (phantom
  * units, [-1, 1] spans fov_z; kw_coil_ring_maps() is z = 0). */
-kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
-                               float complex *out);
+KW_API kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+                               kw_cfloat *out);
 
 /*! kw_coil_ring_sens3()/kw_coil_ring_maps3(): the same in 3-D: the point
  * (x, y, z) in [-1, 1]^3 (z along B0, scaled by fov_z / 2; voxel iz at
  * z = (iz - nz/2) 2 / nz), maps channels x nz x ny x nx. Normalised so that
  * the root-sum-of-squares over all channels is 1 at the centre. */
-kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
-                             double complex *s);
-kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
-                             float complex *out);
+KW_API kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
+                             kw_cdouble *s);
+KW_API kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
+                             kw_cfloat *out);
 
 /*! kw_coil_fit3(): the 3-D series
  *   s(u, v, w) = sum_{|p|,|q| <= order, |r| <= order_z} c_pqr
@@ -88,9 +88,9 @@ kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, siz
  * nz = 1, order_z = 0); coef = channels x (2 order_z + 1)(2 order + 1)^2 values,
  * index ((r + order_z)(2 order + 1) + (q + order))(2 order + 1) + (p + order);
  * residual[c] over all weighted voxels. */
-kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
+KW_API kw_status kw_coil_fit3(const kw_cfloat *maps, int ncoils, size_t nx, size_t ny, size_t nz,
                        const float *weight, int order, int order_z, double period,
-                       double complex *coef, double *residual);
+                       kw_cdouble *coef, double *residual);
 
 /*! kw_coil_fit(): least-squares fit of each map (ncoils x ny x nx samples on
  * the pixel grid) by the trigonometric series
@@ -100,17 +100,17 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
  * points for the solve. coef receives ncoils x (2 order + 1)^2 values
  * (index (q + order)(2 order + 1) + (p + order)); residual[c] the relative
  * RMS misfit ||s - fit|| / ||s|| of coil c over all weighted pixels. */
-kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
+KW_API kw_status kw_coil_fit(const kw_cfloat *maps, int ncoils, size_t nx, size_t ny,
                       const float *weight, int order, double period,
-                      double complex *coef, double *residual);
+                      kw_cdouble *coef, double *residual);
 
 /*! kw_coil_series_grid(): one coil's 3-D series (kw_coil_fit3's layout;
  * order_z = 0 and nz = 1 for the 2-D series) on the voxel grid nz x ny x nx
  * (C order) into out, evaluated separably (per row the x coefficients, then
  * 2 order + 1 terms per voxel). Returns KW_ENOMEM if its row tables cannot
  * be allocated. */
-kw_status kw_coil_series_grid(const double complex *coef, int order, int order_z, double period,
-                              size_t nx, size_t ny, size_t nz, float complex *out);
+KW_API kw_status kw_coil_series_grid(const kw_cdouble *coef, int order, int order_z, double period,
+                              size_t nx, size_t ny, size_t nz, kw_cfloat *out);
 
 #ifdef __cplusplus
 }

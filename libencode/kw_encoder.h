@@ -2,7 +2,7 @@
  * its adjoint E^H and the normal operator E^H W E, for Cartesian (masked)
  * and non-Cartesian sampling, 2-D and 3-D.
  *
- * Image x: dims (C order, (ny, nx) or (nz, ny, nx)), float complex.
+ * Image x: dims (C order, (ny, nx) or (nz, ny, nx)), kw_cfloat.
  * Data y: (coils, nk), nk = prod(dims) for Cartesian data (the full k-space
  * grid; unsampled points are zero), nk = nsamples for a trajectory.
  *   (E x)_c = M F (S_c x)      F: centered unitary DFT (kw_fft.h), M: mask
@@ -46,33 +46,33 @@ typedef struct kw_encoder_opts {
  * NULL = all). Non-Cartesian: `traj` (nsamples x ndim, cycles/FOV, see
  * kw_nufft.h), mask must be NULL. `weights`: W (nk floats >= 0) or NULL.
  * `opts` may be NULL. */
-kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
-                            size_t ncoils, const float complex *sens,
+KW_API kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
+                            size_t ncoils, const kw_cfloat *sens,
                             const uint8_t *mask, size_t nsamples,
                             const float *traj, const float *weights,
                             const kw_encoder_opts *opts);
 
 /*! kw_encoder_forward(): y = E x. x: prod(dims); y: ncoils x nk. */
-kw_status kw_encoder_forward(kw_encoder *enc, const float complex *x,
-                             float complex *y);
+KW_API kw_status kw_encoder_forward(kw_encoder *enc, const kw_cfloat *x,
+                             kw_cfloat *y);
 
 /*! kw_encoder_adjoint(): x = E^H y (no weights). */
-kw_status kw_encoder_adjoint(kw_encoder *enc, const float complex *y,
-                             float complex *x);
+KW_API kw_status kw_encoder_adjoint(kw_encoder *enc, const kw_cfloat *y,
+                             kw_cfloat *x);
 
 /*! kw_encoder_normal(): out = E^H W E x (x and out may not alias). */
-kw_status kw_encoder_normal(kw_encoder *enc, const float complex *x,
-                            float complex *out);
+KW_API kw_status kw_encoder_normal(kw_encoder *enc, const kw_cfloat *x,
+                            kw_cfloat *out);
 
 /*! Sizes: image samples prod(dims), k points per coil nk, coils, and the
  * weights (NULL when none were given). */
-size_t kw_encoder_image_size(const kw_encoder *enc);
-size_t kw_encoder_kpoints(const kw_encoder *enc);
-size_t kw_encoder_coils(const kw_encoder *enc);
-const float *kw_encoder_weights(const kw_encoder *enc);
+KW_API size_t kw_encoder_image_size(const kw_encoder *enc);
+KW_API size_t kw_encoder_kpoints(const kw_encoder *enc);
+KW_API size_t kw_encoder_coils(const kw_encoder *enc);
+KW_API const float *kw_encoder_weights(const kw_encoder *enc);
 
 /*! kw_encoder_destroy(): free (NULL-safe). */
-void kw_encoder_destroy(kw_encoder *enc);
+KW_API void kw_encoder_destroy(kw_encoder *enc);
 
 #ifdef __cplusplus
 }

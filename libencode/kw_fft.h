@@ -30,39 +30,39 @@ enum {
 
 /*! kw_fft_setup(): once per process before any plan: enables FFTW's threads
  * with `nthreads` (<= 0: one per core as OpenMP sees them). Not thread-safe. */
-kw_status kw_fft_setup(int nthreads);
+KW_API kw_status kw_fft_setup(int nthreads);
 
 /*! kw_fft_threads(): the thread count plans are made with. */
-int kw_fft_threads(void);
+KW_API int kw_fft_threads(void);
 
 /*! kw_fft_threads_ready(): nonzero once kw_fft_setup() has run (FFTW's
  * threads are initialised); before that every plan is single-threaded. */
-int kw_fft_threads_ready(void);
+KW_API int kw_fft_threads_ready(void);
 
 /*! kw_fft_create(): plan `batch` transforms of rank 1..3 over contiguous
  * blocks of shape dims[0..rank-1]. flags: KW_FFT_ESTIMATE or KW_FFT_MEASURE. */
-kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
+KW_API kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
                         size_t batch, unsigned flags);
 
 /*! kw_fft_forward(): centered unitary forward DFT (image -> k-space), in
  * place over batch x prod(dims) samples. */
-kw_status kw_fft_forward(const kw_fft_plan *plan, float complex *data);
+KW_API kw_status kw_fft_forward(const kw_fft_plan *plan, kw_cfloat *data);
 
 /*! kw_fft_inverse(): centered unitary inverse DFT (k-space -> image). */
-kw_status kw_fft_inverse(const kw_fft_plan *plan, float complex *data);
+KW_API kw_status kw_fft_inverse(const kw_fft_plan *plan, kw_cfloat *data);
 
 /*! kw_fft_size(): samples per transform (prod(dims)); kw_fft_batch(): batch. */
-size_t kw_fft_size(const kw_fft_plan *plan);
-size_t kw_fft_batch(const kw_fft_plan *plan);
+KW_API size_t kw_fft_size(const kw_fft_plan *plan);
+KW_API size_t kw_fft_batch(const kw_fft_plan *plan);
 
 /*! kw_fft_destroy(): free the plan (NULL-safe). */
-void kw_fft_destroy(kw_fft_plan *plan);
+KW_API void kw_fft_destroy(kw_fft_plan *plan);
 
 /*! kw_fft_wisdom_export(): FFTW wisdom as a string (free with free()), or
  * NULL. kw_fft_wisdom_import(): merge a string made by it; KW_EFORMAT if
  * FFTW rejects it. The caller does the file I/O. */
-char *kw_fft_wisdom_export(void);
-kw_status kw_fft_wisdom_import(const char *wisdom);
+KW_API char *kw_fft_wisdom_export(void);
+KW_API kw_status kw_fft_wisdom_import(const char *wisdom);
 
 #ifdef __cplusplus
 }

@@ -35,10 +35,10 @@ typedef struct kw_trapezoid {
 } kw_trapezoid;
 
 /*! kw_trapezoid_duration(): ramp + flat + ramp (s). */
-double kw_trapezoid_duration(const kw_trapezoid *t);
+KW_API double kw_trapezoid_duration(const kw_trapezoid *t);
 
 /*! kw_trapezoid_area(): the signed area amplitude x (ramp + flat) (T s/m). */
-double kw_trapezoid_area(const kw_trapezoid *t);
+KW_API double kw_trapezoid_area(const kw_trapezoid *t);
 
 /*! kw_trapezoid_for_area(): the shortest lobe on the raster whose area is
  * `area_T_s_per_m` exactly (sign included), with |G| <= gmax and ramps no
@@ -46,25 +46,25 @@ double kw_trapezoid_area(const kw_trapezoid *t);
  * a trapezoid (continuous durations 2 sqrt(A/S), resp. A/gmax + gmax/S,
  * rounded up to the raster, then the amplitude lowered to keep the area).
  * Area 0 gives the empty lobe (duration 0). */
-kw_status kw_trapezoid_for_area(double area_T_s_per_m, const kw_gradient_limits *lim,
+KW_API kw_status kw_trapezoid_for_area(double area_T_s_per_m, const kw_gradient_limits *lim,
                                 kw_trapezoid *out);
 
 /*! kw_trapezoid_flat(): a lobe with flat-top amplitude `amplitude_T_per_m`
  * held for at least `flat_s` (rounded up to the raster), ramps at the slew
  * limit rounded up to the raster. The amplitude is NOT checked against gmax
  * (the planner reports that limit); it must be finite. */
-kw_status kw_trapezoid_flat(double amplitude_T_per_m, double flat_s,
+KW_API kw_status kw_trapezoid_flat(double amplitude_T_per_m, double flat_s,
                             const kw_gradient_limits *lim, kw_trapezoid *out);
 
 /*! kw_trapezoid_raster_count(): number of raster points of the lobe,
  * duration / raster + 1 (corners fall on raster points). */
-size_t kw_trapezoid_raster_count(const kw_trapezoid *t, double raster_s);
+KW_API size_t kw_trapezoid_raster_count(const kw_trapezoid *t, double raster_s);
 
 /*! kw_trapezoid_raster(): the lobe at t = i x raster, i = 0 .. n-1 into `g`
  * (n = kw_trapezoid_raster_count()); KW_ERANGE when cap < n. The waveform is
  * piecewise linear between these points (its area by the trapezoid rule is
  * exact). */
-kw_status kw_trapezoid_raster(const kw_trapezoid *t, double raster_s, double *g, size_t cap);
+KW_API kw_status kw_trapezoid_raster(const kw_trapezoid *t, double raster_s, double *g, size_t cap);
 
 /* ---- spiral ------------------------------------------------------------- */
 
@@ -98,7 +98,7 @@ typedef struct kw_spiral_info {
  * waveform is verified against the limits and redesigned with slightly lower
  * limits if a raster step breaks one. KW_ERANGE if the design would exceed
  * 4 million raster points or 64 million ADC samples (all interleaves). */
-kw_status kw_spiral_size(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
+KW_API kw_status kw_spiral_size(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
                          kw_spiral_info *info);
 
 /*! kw_spiral_design(): the same design, filling any of the caller's arrays
@@ -110,14 +110,14 @@ kw_status kw_spiral_size(const kw_spiral_spec *spec, const kw_gradient_limits *l
  *            by interleaf, (kx, ky) pairs; sample m at time m x dwell;
  *   times    samples floats: time of sample m from the start of the readout (s).
  * `info` (may be NULL) receives the sizes again. */
-kw_status kw_spiral_design(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
+KW_API kw_status kw_spiral_design(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
                            kw_spiral_info *info, double *gx, double *gy, float *traj,
                            float *times);
 
 /*! kw_spiral_interleaves_for(): the fewest interleaves (1 .. 4096) whose
  * readout per interleaf is at most `max_readout_s`; KW_EINFEASIBLE when even
  * 4096 do not fit. `info` (may be NULL) receives that design. */
-kw_status kw_spiral_interleaves_for(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
+KW_API kw_status kw_spiral_interleaves_for(const kw_spiral_spec *spec, const kw_gradient_limits *lim,
                                     double max_readout_s, int *interleaves,
                                     kw_spiral_info *info);
 
@@ -160,13 +160,13 @@ typedef struct kw_epi_info {
  * with a reason for a malformed spec. The readout amplitude
  * 1 / (gamma-bar FOVx dwell) is not checked against gmax (the planner reports
  * it); the blip is the shortest lobe of area shots / (gamma-bar FOVy). */
-kw_status kw_epi_size(const kw_epi_spec *spec, const kw_gradient_limits *lim, kw_epi_info *info);
+KW_API kw_status kw_epi_size(const kw_epi_spec *spec, const kw_gradient_limits *lim, kw_epi_info *info);
 
 /*! kw_epi_design(): fill `traj` ((shots x samples_per_shot, 2) floats, cycles
  * per FOV, shot by shot in acquisition order) and `times` (shots x
  * samples_per_shot floats: seconds from the start of each shot's train);
  * either may be NULL. */
-kw_status kw_epi_design(const kw_epi_spec *spec, const kw_gradient_limits *lim,
+KW_API kw_status kw_epi_design(const kw_epi_spec *spec, const kw_gradient_limits *lim,
                         kw_epi_info *info, float *traj, float *times);
 
 #ifdef __cplusplus

@@ -14,10 +14,10 @@ extern "C" {
 /*! kw_chol(): A = L L^H in place (L in the lower triangle; the upper
  * triangle is left as it was). KW_ENUMERIC, with the pivot in the reason,
  * when A is not positive definite. */
-kw_status kw_chol(double complex *a, size_t n);
+KW_API kw_status kw_chol(kw_cdouble *a, size_t n);
 
 /*! kw_chol_solve(): solve L L^H x = b in place (b becomes x), L from kw_chol. */
-void kw_chol_solve(const double complex *l, size_t n, double complex *b);
+KW_API void kw_chol_solve(const kw_cdouble *l, size_t n, kw_cdouble *b);
 
 #ifdef __cplusplus
 }

@@ -46,18 +46,18 @@ typedef struct kw_nufft_opts {
  * trajectory is copied. Fails with KW_ERANGE for a point outside
  * [-N/2, N/2) or a tolerance/oversampling out of range, KW_ENUMERIC for
  * NaN/Inf coordinates. */
-kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
+KW_API kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
                           size_t nsamples, const float *traj,
                           const kw_nufft_opts *opts);
 
 /*! kw_nufft_forward(): image -> samples for `batch` coils: img is
  * (batch, dims...), ksp is (batch, nsamples). */
-kw_status kw_nufft_forward(kw_nufft_plan *plan, const float complex *img,
-                           float complex *ksp, size_t batch);
+KW_API kw_status kw_nufft_forward(kw_nufft_plan *plan, const kw_cfloat *img,
+                           kw_cfloat *ksp, size_t batch);
 
 /*! kw_nufft_adjoint(): samples -> image (the exact adjoint of forward). */
-kw_status kw_nufft_adjoint(kw_nufft_plan *plan, const float complex *ksp,
-                           float complex *img, size_t batch);
+KW_API kw_status kw_nufft_adjoint(kw_nufft_plan *plan, const kw_cfloat *ksp,
+                           kw_cfloat *img, size_t batch);
 
 /* What the plan chose. */
 typedef struct kw_nufft_info {
@@ -74,11 +74,11 @@ typedef struct kw_nufft_info {
 } kw_nufft_info;
 
 /*! kw_nufft_get_info(): fill `info` from a plan. */
-kw_status kw_nufft_get_info(const kw_nufft_plan *plan, kw_nufft_info *info);
+KW_API kw_status kw_nufft_get_info(const kw_nufft_plan *plan, kw_nufft_info *info);
 
 /*! kw_nufft_params(): the kernel width and beta the plan would choose for a
  * tolerance and an oversampling factor (both validated). */
-kw_status kw_nufft_params(double tolerance, double oversampling, int *width,
+KW_API kw_status kw_nufft_params(double tolerance, double oversampling, int *width,
                           double *beta);
 
 /*! kw_nufft_convolve(): out_j = sum_l in_l c(k_j - k_l), c the kernel
@@ -86,21 +86,21 @@ kw_status kw_nufft_params(double tolerance, double oversampling, int *width,
  * fully sampled Cartesian trajectory of ones gives ~1 (no FFT; used by the
  * density compensation of Pipe & Menon 1999). One coil; in and out may not
  * alias. */
-kw_status kw_nufft_convolve(kw_nufft_plan *plan, const float complex *in,
-                            float complex *out);
+KW_API kw_status kw_nufft_convolve(kw_nufft_plan *plan, const kw_cfloat *in,
+                            kw_cfloat *out);
 
 /*! kw_nufft_destroy(): free (NULL-safe). */
-void kw_nufft_destroy(kw_nufft_plan *plan);
+KW_API void kw_nufft_destroy(kw_nufft_plan *plan);
 
 /*! kw_ndft_forward()/kw_ndft_adjoint(): the same transforms evaluated
  * directly in double (O(samples x pixels)): the exact reference for tests
  * and small problems. One coil. */
-kw_status kw_ndft_forward(int ndim, const size_t *dims, size_t nsamples,
-                          const float *traj, const float complex *img,
-                          float complex *ksp);
-kw_status kw_ndft_adjoint(int ndim, const size_t *dims, size_t nsamples,
-                          const float *traj, const float complex *ksp,
-                          float complex *img);
+KW_API kw_status kw_ndft_forward(int ndim, const size_t *dims, size_t nsamples,
+                          const float *traj, const kw_cfloat *img,
+                          kw_cfloat *ksp);
+KW_API kw_status kw_ndft_adjoint(int ndim, const size_t *dims, size_t nsamples,
+                          const float *traj, const kw_cfloat *ksp,
+                          kw_cfloat *img);
 
 #ifdef __cplusplus
 }

@@ -66,7 +66,7 @@ typedef struct kw_phantom {
 } kw_phantom;
 
 /*! kw_phantom_names(): NULL-terminated list of built-in phantom names. */
-const char *const *kw_phantom_names(void);
+KW_API const char *const *kw_phantom_names(void);
 
 /*! kw_phantom_make(): fill `p` with the built-in phantom `name`:
  *  "shepp-logan"           Shepp & Logan 1974 (2-D, additive intensities)
@@ -77,7 +77,7 @@ const char *const *kw_phantom_names(void);
  *                          vials, box-shaped bars (3-D)
  * KW_EINVAL for an unknown name. Tissue phantoms come with value = proton
  * density of their tissue (so a PD image results without a protocol). */
-kw_status kw_phantom_make(kw_phantom *p, const char *name);
+KW_API kw_status kw_phantom_make(kw_phantom *p, const char *name);
 
 /*! kw_shape_ft(): the continuous Fourier transform of the shape's indicator
  * (value 1 inside), in phantom units, at spatial frequency (fx, fy, fz)
@@ -86,32 +86,32 @@ kw_status kw_phantom_make(kw_phantom *p, const char *name);
  * Ellipse: a b J1(2 pi q)/q, q = |diag(a, b) R^T f|; ellipsoid:
  * 4 pi a b c j1(2 pi q)/(2 pi q) (spherical Bessel j1); rectangle/box: products
  * of sinc. For a 2-D shape fz is ignored. */
-double complex kw_shape_ft(const kw_shape *s, double fx, double fy, double fz);
+KW_API kw_cdouble kw_shape_ft(const kw_shape *s, double fx, double fy, double fz);
 
 /*! kw_shape_ft_many(): kw_shape_ft() at n frequencies f[3i..3i+2], written
  * as out[2i] = real, out[2i+1] = imaginary part (for bindings). */
-kw_status kw_shape_ft_many(const kw_shape *s, size_t n, const double *f,
+KW_API kw_status kw_shape_ft_many(const kw_shape *s, size_t n, const double *f,
                            double *out);
 
 /*! kw_shape_contains(): 1 if the point (x, y, z) lies inside the shape (z
  * ignored for 2-D shapes). */
-int kw_shape_contains(const kw_shape *s, double x, double y, double z);
+KW_API int kw_shape_contains(const kw_shape *s, double x, double y, double z);
 
 /*! kw_phantom_kspace_shape(): the k-space (module convention above) of one
  * shape's indicator at (kx, ky, kz) cycles/FOV on a grid of n[0] = nx,
  * n[1] = ny (, n[2] = nz) points (scale sqrt(prod n)). */
-double complex kw_phantom_kspace_shape(const kw_shape *s, int ndim,
+KW_API kw_cdouble kw_phantom_kspace_shape(const kw_shape *s, int ndim,
                                        const size_t *n, double kx, double ky,
                                        double kz);
 
 /*! kw_phantom_weights(): additive weight of each shape. `own` gives each
  * shape's own signal (NULL: its `value`). Plain phantoms add: w = own; in a
  * tissue phantom a shape replaces its parent: w = own - own[parent]. */
-void kw_phantom_weights(const kw_phantom *p, const double *own, double *w);
+KW_API void kw_phantom_weights(const kw_phantom *p, const double *own, double *w);
 
 /*! kw_phantom_kspace(): the plain phantom (weights from `value`) at the sample
  * (kx, ky, kz), same convention. */
-double complex kw_phantom_kspace(const kw_phantom *p, const size_t *n,
+KW_API kw_cdouble kw_phantom_kspace(const kw_phantom *p, const size_t *n,
                                  double kx, double ky, double kz);
 
 /*! kw_phantom_rasterize(): area-averaged image of the phantom on the
@@ -121,14 +121,14 @@ double complex kw_phantom_kspace(const kw_phantom *p, const size_t *n,
  * x = (c - nx/2) 2/nx, y = (ny/2 - r) 2/ny (z = (sl - nz/2) 2/nz), the grid
  * of the centered DFT. Each pixel is the mean over `super`^ndim subsamples
  * (super >= 1). */
-kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *n,
+KW_API kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *n,
                                const double *w, int super, float *out);
 
 /*! kw_phantom_rasterize_grid(): the same on a grid moved by `offset` pixels
  * (|offset| <= 1): pixel centres at x = (c - nx/2 + offset) 2/nx,
  * y = (ny/2 - r - offset) 2/ny (z likewise +offset). offset = 0.5 gives the
  * symmetric grid, centres at +-(N-1)/N, that some other tools use. */
-kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
+KW_API kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
                                     const double *w, int super, double offset,
                                     float *out);
 
@@ -136,18 +136,18 @@ kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
  * height z (phantom units): ellipsoids become ellipses scaled by
  * sqrt(1 - ((z - cz)/c)^2), boxes rectangles; shapes the plane misses get
  * zero axes (no signal). Tissues and parents are kept. */
-kw_status kw_phantom_section(const kw_phantom *p3, double z, kw_phantom *p2);
+KW_API kw_status kw_phantom_section(const kw_phantom *p3, double z, kw_phantom *p2);
 
 /*! kw_gauss_legendre(): n-point Gauss-Legendre nodes x (descending) and
  * weights w on [-1, 1] (n <= 64). */
-kw_status kw_gauss_legendre(int n, double *x, double *w);
+KW_API kw_status kw_gauss_legendre(int n, double *x, double *w);
 
 /*! The radial kernels of the shape transforms, safe at 0 (series near 0):
  * kw_ft_jinc(z) = J1(z)/z (limit 1/2), kw_ft_sjinc(z) = j1(z)/z =
  * (sin z - z cos z)/z^3 (limit 1/3), kw_ft_sinc(t) = sin(pi t)/(pi t). */
-double kw_ft_jinc(double z);
-double kw_ft_sjinc(double z);
-double kw_ft_sinc(double t);
+KW_API double kw_ft_jinc(double z);
+KW_API double kw_ft_sjinc(double z);
+KW_API double kw_ft_sinc(double t);
 
 #ifdef __cplusplus
 }

@@ -60,21 +60,21 @@ typedef struct kw_protocol {
  * of TBW 4, 5 mm slice, no spoiler, 2-cycle crushers, 1 shot, full Fourier,
  * automatic interleaves with 16 ms longest spiral readout, Nyquist spokes,
  * 1 average. (Common practice values, no source.) */
-void kw_protocol_defaults(kw_protocol *p);
+KW_API void kw_protocol_defaults(kw_protocol *p);
 
 /*! kw_protocol_check(): KW_OK when every field is usable, else KW_EINVAL
  * with "<field>: <why>" in kw_last_error() (zero/negative/NaN values, matrix
  * too large, partial Fourier out of range, a non-square in-plane FOV or
  * matrix for radial and spiral). A protocol that is well formed but breaks a
  * hardware limit passes: that is the planner's job to report. */
-kw_status kw_protocol_check(const kw_protocol *p);
+KW_API kw_status kw_protocol_check(const kw_protocol *p);
 
 /*! kw_larmor_hz(): proton Larmor frequency gamma-bar x B0 (CODATA 2018). */
-double kw_larmor_hz(double b0_t);
+KW_API double kw_larmor_hz(double b0_t);
 
 /*! kw_polarization(): equilibrium spin-1/2 polarization of protons,
  * tanh(gamma hbar B0 / (2 k T)) (Boltzmann distribution of the two levels). */
-double kw_polarization(double b0_t, double temperature_k);
+KW_API double kw_polarization(double b0_t, double temperature_k);
 
 /* The Cartesian numbers of a protocol (issue "Cartesian basics"). */
 typedef struct kw_plan_basic {
@@ -92,7 +92,7 @@ typedef struct kw_plan_basic {
 } kw_plan_basic;
 
 /*! kw_plan_basics(): fill `out` from `p` (checked with kw_protocol_check). */
-kw_status kw_plan_basics(const kw_protocol *p, kw_plan_basic *out);
+KW_API kw_status kw_plan_basics(const kw_protocol *p, kw_plan_basic *out);
 
 #ifdef __cplusplus
 }

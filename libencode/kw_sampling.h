@@ -45,13 +45,13 @@ typedef struct kw_mask_opts {
 
 /*! kw_mask_opts_default(): full mask, no ACS, fraction 1, power 3, shift 1,
  * seed 0; ny = nz = 0 (the caller sets the sizes). */
-void kw_mask_opts_default(kw_mask_opts *o);
+KW_API void kw_mask_opts_default(kw_mask_opts *o);
 
 /*! kw_mask_density(): the polynomial density shape of Lustig, Donoho & Pauly
  * 2007 (MRM 58:1182), q(rho) = (1 - rho)^power, where rho is the distance
  * from k = 0 with each axis scaled to [-1, 1) and divided by the largest such
  * distance on the grid (so rho = 1 at the farthest corner). */
-double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz);
+KW_API double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz);
 
 /*! kw_mask_make(): fill mask[nz*ny] (0/1) and, if `prob` is not NULL,
  * prob[nz*ny] with the target probability of each point (random: the exact
@@ -59,23 +59,23 @@ double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz);
  * the matrix, a fraction outside (0.5, 1], a non-integer uniform/lattice
  * factor; KW_EINFEASIBLE when the ACS block alone exceeds the sample budget
  * of a random/poisson pattern. Allocates temporary work space itself. */
-kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob);
+KW_API kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob);
 
 /*! kw_poisson_radius(): the exclusion radius (in delta-k) of the Poisson-disc
  * pattern at point (iy, iz) for scale s: r = max(1, s / sqrt(max(q, 1/16)))
  * with q = kw_mask_density(). A candidate is accepted only when no earlier
  * sample lies closer than its own radius, so no two samples are closer than
  * the smaller of their two radii (tests/test_sampling.c checks it). */
-double kw_poisson_radius(const kw_mask_opts *o, double scale, size_t iy, size_t iz);
+KW_API double kw_poisson_radius(const kw_mask_opts *o, double scale, size_t iy, size_t iz);
 
 /*! kw_mask_poisson_scale(): the scale s that kw_mask_make() uses for these
  * options: found by bisection so that the sample count (ACS included) comes
  * closest to ny nz / R; deterministic for a seed. */
-kw_status kw_mask_poisson_scale(const kw_mask_opts *o, double *scale);
+KW_API kw_status kw_mask_poisson_scale(const kw_mask_opts *o, double *scale);
 
 /*! kw_mask_allowed(): 1 when point (iy, iz) lies in the allowed region
  * (partial Fourier and ellipse), else 0. */
-int kw_mask_allowed(const kw_mask_opts *o, size_t iy, size_t iz);
+KW_API int kw_mask_allowed(const kw_mask_opts *o, size_t iy, size_t iz);
 
 #ifdef __cplusplus
 }

@@ -145,18 +145,18 @@ typedef struct kw_plan_report {
  * kw_plan_destroy). KW_EINVAL with "<field>: <why>" for a malformed protocol;
  * an infeasible protocol is NOT an error: the report says so (feasible = 0,
  * the failing limits, the nearest feasible protocol). */
-kw_status kw_plan_create(kw_plan_report **out, const kw_protocol *p);
+KW_API kw_status kw_plan_create(kw_plan_report **out, const kw_protocol *p);
 
 /*! kw_plan_destroy(): free a report (NULL-safe). */
-void kw_plan_destroy(kw_plan_report *r);
+KW_API void kw_plan_destroy(kw_plan_report *r);
 
 /*! kw_plan_spiral_spec() / kw_plan_epi_spec(): the trajectory specs the
  * report was planned with (for drawing and for trajectory export). */
-void kw_plan_spiral_spec(const kw_plan_report *r, kw_spiral_spec *s);
-void kw_plan_epi_spec(const kw_plan_report *r, kw_epi_spec *s);
+KW_API void kw_plan_spiral_spec(const kw_plan_report *r, kw_spiral_spec *s);
+KW_API void kw_plan_epi_spec(const kw_plan_report *r, kw_epi_spec *s);
 
 /*! kw_plan_limits(): the hardware limits of a protocol as kw_gradient_limits. */
-kw_gradient_limits kw_plan_limits(const kw_protocol *p);
+KW_API kw_gradient_limits kw_plan_limits(const kw_protocol *p);
 
 #ifdef __cplusplus
 }

@@ -72,12 +72,12 @@ typedef struct kw_sim_options {
      * array's z axis); at most 1024 per coil. Ignored for 2-D. */
     int coil_order_z;
     double coil_period;
-    const double complex *coil_coef;
+    const kw_cdouble *coil_coef;
 
     /* Noise: noise_chol = lower Cholesky factor (ncoils x ncoils, row major,
      * or 1 x 1 for one channel) of the noise covariance; NULL: no noise.
      * Each sample gets chol z with z complex normal, E|z|^2 = 1. */
-    const double complex *noise_chol;
+    const kw_cdouble *noise_chol;
     uint64_t seed;
 } kw_sim_options;
 
@@ -85,30 +85,30 @@ typedef struct kw_sim kw_sim;
 
 /*! kw_sim_create(): check the options and precompute the per-shape tissue
  * terms. The options' arrays must outlive the simulation. */
-kw_status kw_sim_create(kw_sim **sim, const kw_sim_options *opt);
+KW_API kw_status kw_sim_create(kw_sim **sim, const kw_sim_options *opt);
 
 /*! kw_sim_output_count(): samples per coil written by execute (prod(n) for
  * Cartesian, nsamples for a trajectory); kw_sim_channels(): max(ncoils, 1). */
-size_t kw_sim_output_count(const kw_sim *sim);
-int kw_sim_channels(const kw_sim *sim);
+KW_API size_t kw_sim_output_count(const kw_sim *sim);
+KW_API int kw_sim_channels(const kw_sim *sim);
 
 /*! kw_sim_execute(): write channels x count samples (C order) into out.
  * Unsampled Cartesian points are zero. `progress` may be NULL. */
-kw_status kw_sim_execute(kw_sim *sim, float complex *out,
+KW_API kw_status kw_sim_execute(kw_sim *sim, kw_cfloat *out,
                          kw_progress_fn progress, void *user);
 
 /*! kw_sim_destroy(): free (NULL-safe). */
-void kw_sim_destroy(kw_sim *sim);
+KW_API void kw_sim_destroy(kw_sim *sim);
 
 /*! kw_sim_shape_signal(): the own signal of each shape at time t (complex:
  * contrast x relaxation x off-resonance phase), as kw_sim_execute uses it;
  * `own` holds nshapes values. */
-void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own);
+KW_API void kw_sim_shape_signal(const kw_sim *sim, double t, kw_cdouble *own);
 
 /*! kw_sim_image_weights(): the real per-shape additive weights of the image
  * at the echo (t = TE, no off-resonance phase): the "truth" that a perfect
  * reconstruction shows. */
-void kw_sim_image_weights(const kw_sim *sim, double *w);
+KW_API void kw_sim_image_weights(const kw_sim *sim, double *w);
 
 /* ---- field maps: time-segmented, on an oversampled grid -------------------
  *
@@ -148,34 +148,34 @@ typedef struct kw_fieldmap kw_fieldmap;
 
 /*! kw_fieldmap_create(): plan the fine-grid FFT (or NUFFT), rasterise the
  * object and fit the interpolators. KW_ENOTSUP for 3-D. */
-kw_status kw_fieldmap_create(kw_fieldmap **fm, const kw_fieldmap_options *opt);
+KW_API kw_status kw_fieldmap_create(kw_fieldmap **fm, const kw_fieldmap_options *opt);
 
 /*! kw_fieldmap_execute(): add the perturbation to `out` (the output of
  * kw_sim_execute, before noise: run the simulation without noise, add this,
  * then kw_sim_add_noise()). */
-kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out,
+KW_API kw_status kw_fieldmap_execute(kw_fieldmap *fm, kw_cfloat *out,
                               kw_progress_fn progress, void *user);
 
 /*! kw_fieldmap_segments(): L used; kw_fieldmap_interp_error(): worst relative
  * RMS error of the interpolated phase exp(-i 2 pi df tau) over the object's
  * pixels and the readout's phase times. */
-int kw_fieldmap_segments(const kw_fieldmap *fm);
-double kw_fieldmap_interp_error(const kw_fieldmap *fm);
+KW_API int kw_fieldmap_segments(const kw_fieldmap *fm);
+KW_API double kw_fieldmap_interp_error(const kw_fieldmap *fm);
 
-void kw_fieldmap_destroy(kw_fieldmap *fm);
+KW_API void kw_fieldmap_destroy(kw_fieldmap *fm);
 
 /*! kw_sim_add_noise(): add the options' noise (noise_chol, seed) to `out`
  * (kw_sim_execute adds it itself when noise_chol is set; this is for callers
  * that add other terms first). */
-kw_status kw_sim_add_noise(const kw_sim *sim, const double complex *noise_chol,
-                           uint64_t seed, float complex *out);
+KW_API kw_status kw_sim_add_noise(const kw_sim *sim, const kw_cdouble *noise_chol,
+                           uint64_t seed, kw_cfloat *out);
 
 /*! Accessors for sim_*.c: the options the simulation was made with. */
-const kw_sim_options *kw_sim_get_options(const kw_sim *sim);
+KW_API const kw_sim_options *kw_sim_get_options(const kw_sim *sim);
 
 /*! kw_sim_sample_time(): the time (s after excitation) of Cartesian sample i
  * (readout column ix) or trajectory sample i, as kw_sim_execute uses it. */
-double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix);
+KW_API double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix);
 
 /*! kw_sim_shape_factor(): shape i's signal at time t per unit steady-state
  * amplitude (relaxation during the readout x off-resonance phase);
@@ -183,9 +183,9 @@ double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix);
  * own signal = steady x factor. kw_sim_shape_classes(): group the shapes
  * whose factors are the same function of t (same relaxation and
  * off-resonance): cls[i] = class of shape i; returns the number of classes. */
-double complex kw_sim_shape_factor(const kw_sim *sim, int i, double t);
-double kw_sim_shape_steady(const kw_sim *sim, int i);
-int kw_sim_shape_classes(const kw_sim *sim, int *cls);
+KW_API kw_cdouble kw_sim_shape_factor(const kw_sim *sim, int i, double t);
+KW_API double kw_sim_shape_steady(const kw_sim *sim, int i);
+KW_API int kw_sim_shape_classes(const kw_sim *sim, int *cls);
 
 #ifdef __cplusplus
 }

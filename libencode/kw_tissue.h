@@ -60,11 +60,11 @@ typedef struct kw_contrast {
 } kw_contrast;
 
 /*! kw_tissue_get(): the table entry of `id` (NULL if out of range). */
-const kw_tissue *kw_tissue_get(int id);
+KW_API const kw_tissue *kw_tissue_get(int id);
 
 /*! kw_tissue_relax(): T1, T2, T2* (s) of tissue `id` at b0_t (1.5 or 3 T,
  * within 0.05 T); KW_ERANGE for another field strength. */
-kw_status kw_tissue_relax(int id, double b0_t, double *t1, double *t2,
+KW_API kw_status kw_tissue_relax(int id, double b0_t, double *t1, double *t2,
                           double *t2s);
 
 /* Tissue values a caller gives instead of the table's (one per table entry,
@@ -78,7 +78,7 @@ typedef struct kw_tissue_values {
  * the caller's values `given` (NULL: none) where set, the table's elsewhere.
  * KW_ERANGE when a table value is needed at a field other than 1.5 or 3 T;
  * KW_EINVAL for T2* above T2 or a value that is not finite and positive. */
-kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
+KW_API kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
                            kw_tissue_values *out);
 
 /*! kw_signal_steady(): the magnitude of the transverse magnetisation right
@@ -90,22 +90,22 @@ kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
  *   IR:  pd |1 - 2 exp(-TI/T1) + exp(-TR/T1)|     (TE << TR form)
  * IR returns the signed value (negative before the null) so that a
  * phase-sensitive reconstruction shows it; magnitude images take |.|. */
-double kw_signal_steady(const kw_contrast *c, double pd, double t1);
+KW_API double kw_signal_steady(const kw_contrast *c, double pd, double t1);
 
 /*! kw_signal_decay(): the relaxation factor at time t after excitation:
  *   GRE: exp(-t/T2*)
  *   SE, IR: exp(-t/T2) exp(-|t - TE| (1/T2* - 1/T2))  (refocused at TE)
  *   PD: 1.
  * At t = TE this gives the textbook exp(-TE/T2*) or exp(-TE/T2). */
-double kw_signal_decay(const kw_contrast *c, double t2, double t2s, double t);
+KW_API double kw_signal_decay(const kw_contrast *c, double t2, double t2s, double t);
 
 /*! kw_signal_phase_time(): the time over which off-resonance accrues phase
  * at sample time t: t for GRE; t - TE for spin echoes and for PD (an ideal
  * echo at TE, as if refocused). */
-double kw_signal_phase_time(const kw_contrast *c, double t);
+KW_API double kw_signal_phase_time(const kw_contrast *c, double t);
 
 /*! kw_ernst_angle(): arccos(exp(-TR/T1)) in radians. */
-double kw_ernst_angle(double tr_s, double t1_s);
+KW_API double kw_ernst_angle(double tr_s, double t1_s);
 
 #ifdef __cplusplus
 }

@@ -61,31 +61,31 @@ typedef struct kw_traj_opts {
 
 /*! kw_traj_golden_angle(): psi_m = pi / (phi + m - 1) in radians for m >= 1
  * (m = 1: the golden angle 111.246 deg); NaN for m < 1. */
-double kw_traj_golden_angle(int m);
+KW_API double kw_traj_golden_angle(int m);
 
 /*! kw_traj_nyquist_spokes(): the number of full spokes that keeps the
  * azimuthal spacing at the edge of k-space (|k| = N/2) within one delta-k:
  * ceil(pi N / 2) (e.g. Bernstein, King & Zhou, Handbook of MRI Pulse
  * Sequences, 2004, sec. 17.1). */
-size_t kw_traj_nyquist_spokes(size_t n);
+KW_API size_t kw_traj_nyquist_spokes(size_t n);
 
 /*! kw_traj_angle(): the angle theta (radians, in [0, pi)) of readout number
  * `r` (0-based, counted over the whole acquisition). */
-double kw_traj_angle(const kw_traj_opts *o, size_t r);
+KW_API double kw_traj_angle(const kw_traj_opts *o, size_t r);
 
 /*! kw_traj_oversampling(): the readout oversampling F the options ask for
  * (oversampling 0 gives 1). */
-int kw_traj_oversampling(const kw_traj_opts *o);
+KW_API int kw_traj_oversampling(const kw_traj_opts *o);
 
 /*! kw_traj_size(): samples and columns the options produce (F N spokes nz);
  * KW_ERANGE with a reason for absurd options (N < 2 or odd, no spokes,
  * dwell <= 0, oversampling outside 1..4, sizes that overflow or exceed 2^31
  * samples). */
-kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);
+KW_API kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);
 
 /*! kw_traj_make(): fill k[samples * ndim] (cycles/FOV) and t[samples]
  * (seconds; t may be NULL). Buffers are sized by kw_traj_size(). */
-kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
+KW_API kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
 
 /*! kw_traj_radial_weights(): the area each sample of a full-spoke radial
  * trajectory represents, in delta-k^2, with the radial step dr = 1/F:
@@ -96,7 +96,7 @@ kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
  * reconstruction (ramp), summing to pi N^2 / 4 + pi dr^2 / 4, about the disc
  * area. w has one value per sample of one plane (spokes * F n), in the
  * order of kw_traj_make(). */
-kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w);
+KW_API kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w);
 
 #ifdef __cplusplus
 }

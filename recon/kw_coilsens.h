@@ -30,12 +30,12 @@ typedef struct kw_cart_sampling {
  * npix = d[0] d[1] d[2] bytes). KW_EFORMAT when nothing is sampled. A mask
  * that is not a uniform lattice (random, Poisson-disc, shifted lattices)
  * is reported with uniform = 0 and accel[] = 1. */
-kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
+KW_API kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
                                    kw_cart_sampling *s);
 
 /*! kw_cart_mask(): the sampling mask of k-space (nc, npix): 1 where any coil
  * holds a nonzero sample (DESIGN.md: unsampled points are zeros). */
-void kw_cart_mask(const float complex *ksp, size_t nc, size_t npix, uint8_t *mask);
+KW_API void kw_cart_mask(const kw_cfloat *ksp, size_t nc, size_t npix, uint8_t *mask);
 
 /*! kw_coilsens_walsh(): relative coil sensitivities (nc, npix) from the
  * autocalibration block of `ksp` (nc, npix): the block is Hann-windowed
@@ -47,9 +47,9 @@ void kw_cart_mask(const float complex *ksp, size_t nc, size_t npix, uint8_t *mas
  * low-resolution root-sum-of-squares is below `thresh` times its maximum are
  * set to zero (outside the object). KW_EINVAL when there is no block (fewer
  * than 4 lines along an accelerated axis). Allocates scratch and an FFT plan. */
-kw_status kw_coilsens_walsh(const float complex *ksp, size_t nc, const size_t d[3],
+KW_API kw_status kw_coilsens_walsh(const kw_cfloat *ksp, size_t nc, const size_t d[3],
                             const kw_cart_sampling *s, double thresh,
-                            float complex *sens);
+                            kw_cfloat *sens);
 
 #ifdef __cplusplus
 }

@@ -1,6 +1,6 @@
 /* kw_combine.h: noise prewhitening and coil combination.
  *
- * Coil data are (ncoil, npix) blocks, C order, float complex. Sensitivities
+ * Coil data are (ncoil, npix) blocks, C order, kw_cfloat. Sensitivities
  * have the same layout. Every routine works in place or into caller buffers
  * and allocates nothing except where stated.
  *
@@ -28,23 +28,23 @@ typedef enum kw_combine_mode {
  * Hermitian positive definite) the whitening matrix W = L^-1 (lower
  * triangular, ncoil x ncoil, written to `w`). KW_ENUMERIC when `cov` is not
  * positive definite or not Hermitian (relative tolerance 1e-4). */
-kw_status kw_prewhiten_matrix(const float complex *cov, size_t ncoil,
-                              float complex *w);
+KW_API kw_status kw_prewhiten_matrix(const kw_cfloat *cov, size_t ncoil,
+                              kw_cfloat *w);
 
 /*! kw_prewhiten_apply(): data (ncoil, npts) <- W data, in place. */
-void kw_prewhiten_apply(const float complex *w, size_t ncoil, size_t npts,
-                        float complex *data);
+KW_API void kw_prewhiten_apply(const kw_cfloat *w, size_t ncoil, size_t npts,
+                        kw_cfloat *data);
 
 /*! kw_combine_rss(): out[p] = sqrt(sum_c |m_c(p)|^2). */
-void kw_combine_rss(const float complex *coil, size_t ncoil, size_t npix,
+KW_API void kw_combine_rss(const kw_cfloat *coil, size_t ncoil, size_t npix,
                     float *out);
 
 /*! kw_combine_optimal(): the SNR-optimal combination of Roemer et al. 1990
  * for whitened data and whitened sensitivities:
  * out[p] = sum_c conj(S_c) m_c / sum_c |S_c|^2, 0 where sum_c |S_c|^2 = 0.
  * The result is the object in the intensity scale of the sensitivities. */
-void kw_combine_optimal(const float complex *coil, const float complex *sens,
-                        size_t ncoil, size_t npix, float complex *out);
+KW_API void kw_combine_optimal(const kw_cfloat *coil, const kw_cfloat *sens,
+                        size_t ncoil, size_t npix, kw_cfloat *out);
 
 /*! kw_combine_adaptive(): adaptive combination after Walsh et al. 2000: at
  * every pixel the weights are the dominant eigenvector v of the signal
@@ -54,9 +54,9 @@ void kw_combine_optimal(const float complex *coil, const float complex *sens,
  * `vec` (ncoil x npix, may be NULL) receives the unit-norm weight vectors:
  * these are the relative sensitivities of the Walsh eigenvector method.
  * Allocates its own scratch (ncoil^2 doubles per thread). */
-kw_status kw_combine_adaptive(const float complex *coil, size_t ncoil,
+KW_API kw_status kw_combine_adaptive(const kw_cfloat *coil, size_t ncoil,
                               const size_t dims[3], int radius,
-                              float complex *out, float complex *vec);
+                              kw_cfloat *out, kw_cfloat *vec);
 
 #ifdef __cplusplus
 }

@@ -24,14 +24,14 @@ extern "C" {
  * sum, not the Voronoi disc pi dr^2/4: see dcf.c). Stack-of-stars in 3-D: columns x and y, times
  * the kz spacing. Exact for equally spaced spokes with equal samples.
  * traj: (ns, ndim) cycles/FOV. */
-kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w);
+KW_API kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w);
 
 /*! kw_dcf_pipe(): the iterative weights of Pipe & Menon 1999 (Magn Reson
  * Med 41:179): w <- w / (C w), C the gridding kernel's self-convolution
  * (kw_nufft_convolve) with a wide kernel (W = 8, alpha = 2, whatever the
  * NUFFT's tolerance), starting from ones, `iterations` times (<= 0: 20).
  * `opts` gives the thread count only (NULL: default). */
-kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
+KW_API kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
                       int iterations, const kw_nufft_opts *opts, float *w);
 
 #ifdef __cplusplus

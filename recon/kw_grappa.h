@@ -35,24 +35,24 @@ typedef struct kw_grappa_opts {
 /*! kw_grappa_create(): plan for nc coils on d = (nz, ny, nx): allocates the
  * calibration system and the weights. KW_EINVAL when the block is too small
  * for the kernel (fewer fitting positions than unknowns per coil). */
-kw_status kw_grappa_create(kw_grappa **g, size_t nc, const size_t d[3],
+KW_API kw_status kw_grappa_create(kw_grappa **g, size_t nc, const size_t d[3],
                            const kw_grappa_opts *o);
 
 /*! kw_grappa_calibrate(): fit the weights on the block of `ksp` (nc, npix).
  * KW_ENUMERIC when the system is singular (e.g. an empty block, lambda 0). */
-kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp);
+KW_API kw_status kw_grappa_calibrate(kw_grappa *g, const kw_cfloat *ksp);
 
 /*! kw_grappa_execute(): `out` (nc, npix) = `ksp` with every unsampled point
  * (zero in all coils) on the lattice cells filled. Does not allocate. */
-kw_status kw_grappa_execute(const kw_grappa *g, const float complex *ksp,
-                            float complex *out);
+KW_API kw_status kw_grappa_execute(const kw_grappa *g, const kw_cfloat *ksp,
+                            kw_cfloat *out);
 
 /*! kw_grappa_fit_count(), kw_grappa_unknowns(): fitting positions in the
  * block, and weights per target coil and offset (nc x sources). */
-size_t kw_grappa_fit_count(const kw_grappa *g);
-size_t kw_grappa_unknowns(const kw_grappa *g);
+KW_API size_t kw_grappa_fit_count(const kw_grappa *g);
+KW_API size_t kw_grappa_unknowns(const kw_grappa *g);
 
-void kw_grappa_destroy(kw_grappa *g);
+KW_API void kw_grappa_destroy(kw_grappa *g);
 
 #ifdef __cplusplus
 }

@@ -32,14 +32,14 @@ typedef struct kw_scores {
  * batch of images). Allocates its own scratch (a one-off call, not a compute
  * loop). KW_EFORMAT on shape mismatch, KW_ENUMERIC on non-finite values or
  * an all-zero reference. */
-kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
+KW_API kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
                              kw_scores *out);
 
 /*! kw_metrics_ssim(): mean SSIM of two real images given as doubles
  * (ndim 1-3, C order, dims[]), with the data range L; the per-pixel SSIM map
  * (same shape) is written to `map` unless it is NULL. KW_ERANGE when no axis
  * is at least 11 samples long; KW_ENUMERIC when L <= 0. */
-kw_status kw_metrics_ssim(const double *ref, const double *test, int ndim,
+KW_API kw_status kw_metrics_ssim(const double *ref, const double *test, int ndim,
                           const size_t *dims, double data_range, double *map,
                           double *mean);
 

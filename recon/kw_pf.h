@@ -30,23 +30,23 @@ typedef struct kw_pf kw_pf;
 /*! kw_pf_create(): plan for `batch` images on d = (nz, ny, nx) sampled in
  * the box lo..hi: one batched FFT plan and the buffers. KW_EINVAL when no
  * axis is partial or the symmetric band is empty. */
-kw_status kw_pf_create(kw_pf **p, size_t batch, const size_t d[3],
+KW_API kw_status kw_pf_create(kw_pf **p, size_t batch, const size_t d[3],
                        const size_t lo[3], const size_t hi[3]);
 
 /*! kw_pf_homodyne(): `img` (batch, npix) from `ksp` (batch, npix). */
-kw_status kw_pf_homodyne(kw_pf *p, const float complex *ksp, float complex *img);
+KW_API kw_status kw_pf_homodyne(kw_pf *p, const kw_cfloat *ksp, kw_cfloat *img);
 
 /*! kw_pf_pocs(): at most `iters` iterations, stopping when the relative
  * change of the image falls below `stop`; *done = iterations made (may be
  * NULL). */
-kw_status kw_pf_pocs(kw_pf *p, const float complex *ksp, float complex *img,
+KW_API kw_status kw_pf_pocs(kw_pf *p, const kw_cfloat *ksp, kw_cfloat *img,
                      int iters, double stop, int *done);
 
 /*! kw_pf_fraction(): the sampled fraction of each partial axis (1 for
  * full axes) into frac[3]. */
-void kw_pf_fraction(const kw_pf *p, double frac[3]);
+KW_API void kw_pf_fraction(const kw_pf *p, double frac[3]);
 
-void kw_pf_destroy(kw_pf *p);
+KW_API void kw_pf_destroy(kw_pf *p);
 
 #ifdef __cplusplus
 }

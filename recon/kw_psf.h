@@ -59,26 +59,26 @@ typedef struct kw_psf_metrics {
 typedef struct kw_psf_plan kw_psf_plan;
 
 /*! kw_psf_create(): plan Cartesian PSFs of rank 1..3 over dims (C order). */
-kw_status kw_psf_create(kw_psf_plan **plan, int rank, const size_t *dims);
+KW_API kw_status kw_psf_create(kw_psf_plan **plan, int rank, const size_t *dims);
 
 /*! kw_psf_execute(): psf[prod dims] from the weights w[prod dims] (a 0/1
  * mask or float weights, k = 0 at index N/2 on every axis). No allocation. */
-kw_status kw_psf_execute(const kw_psf_plan *plan, const float *w, float complex *psf);
+KW_API kw_status kw_psf_execute(const kw_psf_plan *plan, const float *w, kw_cfloat *psf);
 
 /*! kw_psf_destroy(): NULL-safe. */
-void kw_psf_destroy(kw_psf_plan *plan);
+KW_API void kw_psf_destroy(kw_psf_plan *plan);
 
 /*! kw_psf_ndft(): the non-Cartesian PSF on an m x m pixel grid (pixel size
  * FOV/n, so k in cycles/FOV and x in pixels of an n-point matrix), from the
  * first two columns of k[samples * stride] and weights w (NULL: all 1), by
  * the direct sum in double precision (allocates its own work space: an
  * analysis call, not an inner loop). `progress` may be NULL. */
-kw_status kw_psf_ndft(const float *k, size_t stride, const float *w, size_t samples,
-                      size_t n, size_t m, float complex *psf,
+KW_API kw_status kw_psf_ndft(const float *k, size_t stride, const float *w, size_t samples,
+                      size_t n, size_t m, kw_cfloat *psf,
                       kw_progress_fn progress, void *user);
 
 /*! kw_psf_measure(): the figures above for a centred PSF. */
-kw_status kw_psf_measure(const float complex *psf, int rank, const size_t *dims,
+KW_API kw_status kw_psf_measure(const kw_cfloat *psf, int rank, const size_t *dims,
                          kw_psf_metrics *m);
 
 typedef struct kw_tpsf_plan kw_tpsf_plan;
@@ -86,14 +86,14 @@ typedef struct kw_tpsf_plan kw_tpsf_plan;
 /*! kw_tpsf_create(): plan the transform point spread of ny x nx weights with
  * the dbN wavelet (`order`) over `levels` levels (sizes divisible by
  * 2^levels). */
-kw_status kw_tpsf_create(kw_tpsf_plan **plan, size_t ny, size_t nx, int order, int levels);
+KW_API kw_status kw_tpsf_create(kw_tpsf_plan **plan, size_t ny, size_t nx, int order, int levels);
 
 /*! kw_tpsf_execute(): coherence[l - 1] for l = 1 .. levels (finest first),
  * from the weights w[ny * nx] (k = 0 at the centre). No allocation. */
-kw_status kw_tpsf_execute(const kw_tpsf_plan *plan, const float *w, double *coherence);
+KW_API kw_status kw_tpsf_execute(const kw_tpsf_plan *plan, const float *w, double *coherence);
 
 /*! kw_tpsf_destroy(): NULL-safe. */
-void kw_tpsf_destroy(kw_tpsf_plan *plan);
+KW_API void kw_tpsf_destroy(kw_tpsf_plan *plan);
 
 /*! kw_psf_fwhm_cartesian(): the FWHM of |psf| on the line through x = 0
  * along each axis, measured on the continuous PSF (the DFT of the weights
@@ -101,11 +101,11 @@ void kw_tpsf_destroy(kw_tpsf_plan *plan);
  * pixel), in pixels; NaN on axes of length 1, N when it never falls to
  * half. A full grid gives the FWHM of the Dirichlet kernel sin(pi y) /
  * (N sin(pi y / N)), 1.207 pixels for large N. */
-kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, double *fwhm);
+KW_API kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, double *fwhm);
 
 /*! kw_psf_fwhm_ndft(): the same for a non-Cartesian PSF (pixels of an
  * n-point matrix), fwhm[0] along y (k column 1) and fwhm[1] along x. */
-kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t samples,
+KW_API kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t samples,
                            size_t n, double *fwhm);
 
 /*! kw_mask_gap(): the largest gap of a Cartesian pattern w[ny * nx] (w > 0:
@@ -115,7 +115,7 @@ kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t
  * (the step between neighbouring samples); a full grid gives 1, a 2x2
  * lattice 2; the unsampled edges of partial Fourier and of an elliptical
  * cut-off do not count. 0 when nothing is sampled. */
-kw_status kw_mask_gap(const float *w, size_t ny, size_t nx, double *gap);
+KW_API kw_status kw_mask_gap(const float *w, size_t ny, size_t nx, double *gap);
 
 #ifdef __cplusplus
 }

@@ -24,15 +24,15 @@ typedef struct kw_rssrecon kw_rssrecon;
 /*! kw_rssrecon_create(): plan for `coils` images of ny x nx (rank 2) or
  * nz x ny x nx (rank 3, dims = {nz, ny, nx}). flags: KW_FFT_ESTIMATE or
  * KW_FFT_MEASURE (kw_fft.h). Uses kw_fft_threads() threads. */
-kw_status kw_rssrecon_create(kw_rssrecon **r, int rank, const size_t *dims,
+KW_API kw_status kw_rssrecon_create(kw_rssrecon **r, int rank, const size_t *dims,
                              size_t coils, unsigned flags);
 
 /*! kw_rssrecon_execute(): ksp (coils, dims...) complex64, 16-byte aligned,
  * unchanged; img (dims...) float32 root-sum-of-squares. No allocation. */
-kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *img);
+KW_API kw_status kw_rssrecon_execute(kw_rssrecon *r, const kw_cfloat *ksp, float *img);
 
 /*! kw_rssrecon_destroy(): NULL-safe. */
-void kw_rssrecon_destroy(kw_rssrecon *r);
+KW_API void kw_rssrecon_destroy(kw_rssrecon *r);
 
 #ifdef __cplusplus
 }

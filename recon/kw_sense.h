@@ -35,19 +35,19 @@ typedef struct kw_sense kw_sense;
  * relative Tikhonov weight lambda >= 0. Makes the FFT plan and every buffer.
  * KW_EINVAL when an axis is not divisible by its acceleration, or the total
  * acceleration exceeds KW_SENSE_MAX_R or the coil count. */
-kw_status kw_sense_create(kw_sense **s, size_t nc, const size_t d[3],
+KW_API kw_status kw_sense_create(kw_sense **s, size_t nc, const size_t d[3],
                           const int accel[3], const int offset[3], double lambda);
 
 /*! kw_sense_execute(): unfold `ksp` (nc, npix) with the sensitivities `sens`
  * (nc, npix) into `img` (npix, complex, in the intensity scale of sens);
  * `gfactor` (npix floats) may be NULL. Does not allocate. KW_ENUMERIC when a
  * pixel's system is singular (lambda = 0 and dependent sensitivities). */
-kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
-                           const float complex *sens, float complex *img,
+KW_API kw_status kw_sense_execute(kw_sense *s, const kw_cfloat *ksp,
+                           const kw_cfloat *sens, kw_cfloat *img,
                            float *gfactor);
 
 /*! kw_sense_destroy(): free (NULL-safe). */
-void kw_sense_destroy(kw_sense *s);
+KW_API void kw_sense_destroy(kw_sense *s);
 
 #ifdef __cplusplus
 }

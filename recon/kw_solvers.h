@@ -60,35 +60,35 @@ typedef struct kw_solver kw_solver;
 /*! kw_solver_create(): a solver for `enc` whose image has `ndim` axes
  * `dims` (as the encoder's). KW_ERANGE for a negative lambda or a stop
  * outside [0, 1); KW_ENOTSUP for a wavelet on sizes not divisible by 2. */
-kw_status kw_solver_create(kw_solver **s, kw_encoder *enc, int ndim,
+KW_API kw_status kw_solver_create(kw_solver **s, kw_encoder *enc, int ndim,
                            const size_t *dims, const kw_solver_opts *opts);
 
 /*! kw_cg_sense(): x = N^-1 b from x's content as the start (zero it for
  * the usual start). y: the data (coils x nk). */
-kw_status kw_cg_sense(kw_solver *s, const float complex *y, float complex *x,
+KW_API kw_status kw_cg_sense(kw_solver *s, const kw_cfloat *y, kw_cfloat *x,
                       kw_progress_fn progress, void *user);
 
 /*! kw_fista() / kw_admm(): the CS problem above, from x's content. */
-kw_status kw_fista(kw_solver *s, const float complex *y, float complex *x,
+KW_API kw_status kw_fista(kw_solver *s, const kw_cfloat *y, kw_cfloat *x,
                    kw_progress_fn progress, void *user);
-kw_status kw_admm(kw_solver *s, const float complex *y, float complex *x,
+KW_API kw_status kw_admm(kw_solver *s, const kw_cfloat *y, kw_cfloat *x,
                   kw_progress_fn progress, void *user);
 
 /*! kw_solver_log(): the last solve's records (valid until the next solve);
  * returns their count. */
-size_t kw_solver_log(const kw_solver *s, const kw_iter_record **rec);
+KW_API size_t kw_solver_log(const kw_solver *s, const kw_iter_record **rec);
 
 /*! kw_solver_lipschitz(): ||N|| estimated by power iteration (cached after
  * the first call; FISTA's step is 1/L). */
-kw_status kw_solver_lipschitz(kw_solver *s, double *L);
+KW_API kw_status kw_solver_lipschitz(kw_solver *s, double *L);
 
 /*! kw_solver_objective(): F(x) for the solver's problem and data y (one
  * normal-operator application). */
-kw_status kw_solver_objective(kw_solver *s, const float complex *y,
-                              const float complex *x, double *F);
+KW_API kw_status kw_solver_objective(kw_solver *s, const kw_cfloat *y,
+                              const kw_cfloat *x, double *F);
 
 /*! kw_solver_destroy(): free (NULL-safe). */
-void kw_solver_destroy(kw_solver *s);
+KW_API void kw_solver_destroy(kw_solver *s);
 
 #ifdef __cplusplus
 }

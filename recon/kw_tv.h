@@ -18,22 +18,22 @@ extern "C" {
 #endif
 
 /*! kw_tv_grad(): g (ndim x n) = D u, n = prod(dims) (dims C order). */
-void kw_tv_grad(int ndim, const size_t *dims, const float complex *u,
-                float complex *g);
+KW_API void kw_tv_grad(int ndim, const size_t *dims, const kw_cfloat *u,
+                kw_cfloat *g);
 
 /*! kw_tv_grad_adjoint(): u = D^H g (overwrites u). */
-void kw_tv_grad_adjoint(int ndim, const size_t *dims, const float complex *g,
-                        float complex *u);
+KW_API void kw_tv_grad_adjoint(int ndim, const size_t *dims, const kw_cfloat *g,
+                        kw_cfloat *u);
 
 /*! kw_tv_value(): TV(u) in double; g: ndim x n scratch. */
-double kw_tv_value(int ndim, const size_t *dims, const float complex *u,
-                   float complex *g);
+KW_API double kw_tv_value(int ndim, const size_t *dims, const kw_cfloat *u,
+                   kw_cfloat *g);
 
 /*! kw_tv_prox(): u = prox_{mu TV}(v) with `iters` dual steps; p (ndim x n,
  * kept between calls as a warm start, zero it before the first call) and
  * g (ndim x n) are caller scratch. u and v may not alias. */
-void kw_tv_prox(int ndim, const size_t *dims, const float complex *v, double mu,
-                int iters, float complex *p, float complex *g, float complex *u);
+KW_API void kw_tv_prox(int ndim, const size_t *dims, const kw_cfloat *v, double mu,
+                int iters, kw_cfloat *p, kw_cfloat *g, kw_cfloat *u);
 
 #ifdef __cplusplus
 }

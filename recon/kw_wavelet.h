@@ -50,42 +50,42 @@ typedef struct kw_wavelet_plan kw_wavelet_plan;
  * `order` = N, written to h[0 .. 2N-1] (sum sqrt(2), unit norm); *len = 2N.
  * It equals pywt.Wavelet('dbN').rec_lo; pywt's dec_lo is its reverse.
  * KW_EINVAL for an unsupported order. */
-kw_status kw_wavelet_filter(int order, double *h, int *len);
+KW_API kw_status kw_wavelet_filter(int order, double *h, int *len);
 
 /*! kw_wavelet_max_levels(): the largest L such that ny and nx are both
  * divisible by 2^L (at most 30). 0 when either is odd. */
-int kw_wavelet_max_levels(size_t ny, size_t nx);
+KW_API int kw_wavelet_max_levels(size_t ny, size_t nx);
 
 /*! kw_wavelet_create(): plan a `levels`-level transform of ny x nx images
  * with the dbN wavelet (`order` = N in 1..4). `levels` = 0 is the identity.
  * KW_EINVAL when a size is not divisible by 2^levels or the order is
  * unsupported; KW_ENOMEM when the scratch cannot be allocated. */
-kw_status kw_wavelet_create(kw_wavelet_plan **plan, int order, size_t ny,
+KW_API kw_status kw_wavelet_create(kw_wavelet_plan **plan, int order, size_t ny,
                             size_t nx, int levels);
 
 /*! kw_wavelet_forward(): real image (ny x nx) -> packed coefficients
  * (ny x nx). `in` and `out` may be the same buffer. */
-kw_status kw_wavelet_forward(const kw_wavelet_plan *plan, const float *in,
+KW_API kw_status kw_wavelet_forward(const kw_wavelet_plan *plan, const float *in,
                              float *out);
 
 /*! kw_wavelet_inverse(): packed coefficients -> real image. In place allowed. */
-kw_status kw_wavelet_inverse(const kw_wavelet_plan *plan, const float *in,
+KW_API kw_status kw_wavelet_inverse(const kw_wavelet_plan *plan, const float *in,
                              float *out);
 
 /*! kw_wavelet_forward_c() / kw_wavelet_inverse_c(): the same for complex
  * data: the real and imaginary parts are transformed independently (the
  * filters are real). In place allowed. */
-kw_status kw_wavelet_forward_c(const kw_wavelet_plan *plan,
-                               const float complex *in, float complex *out);
-kw_status kw_wavelet_inverse_c(const kw_wavelet_plan *plan,
-                               const float complex *in, float complex *out);
+KW_API kw_status kw_wavelet_forward_c(const kw_wavelet_plan *plan,
+                               const kw_cfloat *in, kw_cfloat *out);
+KW_API kw_status kw_wavelet_inverse_c(const kw_wavelet_plan *plan,
+                               const kw_cfloat *in, kw_cfloat *out);
 
 /*! kw_wavelet_levels(), kw_wavelet_order(): what the plan was made with. */
-int kw_wavelet_levels(const kw_wavelet_plan *plan);
-int kw_wavelet_order(const kw_wavelet_plan *plan);
+KW_API int kw_wavelet_levels(const kw_wavelet_plan *plan);
+KW_API int kw_wavelet_order(const kw_wavelet_plan *plan);
 
 /*! kw_wavelet_destroy(): free the plan (NULL-safe). */
-void kw_wavelet_destroy(kw_wavelet_plan *plan);
+KW_API void kw_wavelet_destroy(kw_wavelet_plan *plan);
 
 #ifdef __cplusplus
 }
