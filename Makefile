@@ -122,6 +122,10 @@ $(BUILD)/cxx_include: tests/api/cxx_include.cpp $(BUILD)/include/kweave.h $(PUB_
 test-api: $(BUILD)/cxx_include $(BUILD)/libkweave.so
 	LD_LIBRARY_PATH=$(BUILD) $(BUILD)/cxx_include
 	sh tests/api/exports.sh $(BUILD)/libkweave.so $(PUB_HDR)
+	$(PY) tests/api/shape.py --report
+ifneq ($(SAN),1)
+	sh tests/api/installed.sh $(MAKE) $(BUILD)
+endif
 
 test: test-c test-ref test-api
 
