@@ -100,16 +100,8 @@ int kw_cli_fail(const char *what, const char *fmt, ...)
     return KW_EXIT_USAGE;
 }
 
-int kw_cli_status(kw_status st, const char *context)
+static int exit_code(kw_status st)
 {
-    const char *why = kw_last_error();
-    if (!why || !*why)
-        why = kw_strerror(st);
-    kw_cli_progress_done();
-    if (context && *context)
-        fprintf(stderr, "kweave: error: %s: %s\n", context, why);
-    else
-        fprintf(stderr, "kweave: error: %s\n", why);
     switch (st) {
     case KW_EINVAL:
     case KW_EFORMAT:
@@ -123,6 +115,33 @@ int kw_cli_status(kw_status st, const char *context)
     default:
         return KW_EXIT_INTERNAL;
     }
+}
+
+int kw_cli_status(kw_status st, const char *context)
+{
+    const char *why = kw_last_error();
+    if (!why || !*why)
+        why = kw_strerror(st);
+    kw_cli_progress_done();
+    if (context && *context)
+        fprintf(stderr, "kweave: error: %s: %s\n", context, why);
+    else
+        fprintf(stderr, "kweave: error: %s\n", why);
+    return exit_code(st);
+}
+
+int kw_cli_lib_status(kw_status st, const char *context, const kw_cli_param *map)
+{
+    const char *param = kw_last_error_param();
+    for (const kw_cli_param *m = map; m && param[0] && m->param; m++) {
+        if (strcmp(m->param, param) == 0) {
+            const char *why = kw_last_error_reason();
+            kw_cli_progress_done();
+            fprintf(stderr, "kweave: error: --%s: %s\n", m->option, why[0] ? why : kw_strerror(st));
+            return exit_code(st);
+        }
+    }
+    return kw_cli_status(st, context);
 }
 
 static void print_help(const kw_opt *table, const char *usage)

@@ -38,6 +38,19 @@ int kw_cli_fail(const char *what, const char *fmt, ...)
  * the status (2 for bad input, 1 for internal failures). */
 int kw_cli_status(kw_status st, const char *context);
 
+/* One entry of a verb's table from library parameter names
+ * (kw_last_error_param()) to its option names (without "--"); the table ends
+ * with {NULL, NULL}. */
+typedef struct kw_cli_param {
+    const char *param;
+    const char *option;
+} kw_cli_param;
+
+/*! kw_cli_lib_status(): report a failed library call: when the library names
+ * a parameter that `map` knows, prints "kweave: error: --OPTION: <reason>";
+ * otherwise as kw_cli_status(). Returns the exit code for the status. */
+int kw_cli_lib_status(kw_status st, const char *context, const kw_cli_param *map);
+
 /* ---- option tables -------------------------------------------------------- */
 
 typedef enum kw_opt_type {
