@@ -27,8 +27,9 @@ def strip_comments_strings(text):
     return re.sub(r'"(\\.|[^"\\\n])*"', '""', text)
 
 
-def functions(path):
-    """(name, first line, length) of each function definition at file scope."""
+def functions(path, with_static=True):
+    """(name, first line, length) of each function definition at file scope
+    (without the file-local `static` ones when with_static is false)."""
     text = strip_comments_strings(open(path, errors="ignore").read())
     out, depth, start, name = [], 0, None, None
     lines = text.split("\n")
@@ -37,7 +38,9 @@ def functions(path):
             head = " ".join(lines[max(0, i - 4):i + 1])
             head = head.split(";")[-1].split("}")[-1]
             m = re.search(r"(\w+)\s*\([^;{}()]*(\([^;{}()]*\)[^;{}()]*)*\)\s*\{", head)
-            if m and m.group(1) not in ("if", "for", "while", "switch", "sizeof"):
+            static = re.match(r"\s*static\b", head[:m.start()].strip().split("\n")[-1]) if m else None
+            if m and m.group(1) not in ("if", "for", "while", "switch", "sizeof") \
+                    and (with_static or not static):
                 start, name = i, m.group(1)
         depth += line.count("{") - line.count("}")
         if depth == 0 and start is not None and "}" in line:
@@ -47,7 +50,8 @@ def functions(path):
 
 
 def defined_functions(path):
-    return {n for n, _, _ in functions(path)}
+    """Functions a file defines for other files (not its static ones)."""
+    return {n for n, _, _ in functions(path, with_static=False)}
 
 
 def main():
@@ -74,15 +78,17 @@ def main():
                 findings.append(f"{f}:{first}: {name} is {n} lines (at most 200)")
     print(f"shape: longest function {longest[0]} lines ({longest[1]})")
     defs = {f: defined_functions(f) for f in files if f.endswith(".c")}
+    own = {f: {n for n, _, _ in functions(f)} for f in defs}
     uses = {}
     for f in defs:
         text = strip_comments_strings(open(f, errors="ignore").read())
-        uses[f] = set(re.findall(r"\b(\w+)\s*\(", text))
+        # calls, not member calls through a struct's function pointer
+        uses[f] = set(re.findall(r"(?<![.>\w])(\w+)\s*\(", text))
     srcs = sorted(defs)
     for i, a in enumerate(srcs):
         for b in srcs[i + 1:]:
-            ab = (uses[a] & defs[b]) - defs[a]
-            ba = (uses[b] & defs[a]) - defs[b]
+            ab = (uses[a] & defs[b]) - own[a]
+            ba = (uses[b] & defs[a]) - own[b]
             if ab and ba:
                 findings.append(f"{a} and {b} use names defined in each other "
                                 f"({sorted(ab)[0]}, {sorted(ba)[0]})")
