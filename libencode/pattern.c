@@ -87,7 +87,7 @@ static kw_status mask_opts(const kw_pattern_options *po, kw_mask_opts *o)
     }
     size_t ay = nd == 3 ? po->acs[1] : po->acs[0], az = nd == 3 ? po->acs[0] : 0;
     KW_FAIL_PARAM(nd == 2 && po->acs[1] != 0, KW_EINVAL, "acs",
-                  "a 2-D ACS block AYxAZ needs a 3-D matrix");
+                  "a 2-D matrix has no ACS block along its readout axis");
     o->acs_y = ay;
     o->acs_z = az;
     o->fraction = po->fraction;
