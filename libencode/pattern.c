@@ -46,7 +46,8 @@ void kw_pattern_options_init(kw_pattern_options *o)
     o->shots = 1;
 }
 
-kw_status kw_pattern_rename_param(kw_status st, const char *from, const char *to)
+/* re-label the last failure's parameter `from` as `to` (returns st) */
+static kw_status rename_param(kw_status st, const char *from, const char *to)
 {
     if (strcmp(kw_last_error_param(), from) != 0)
         return st;
@@ -167,9 +168,9 @@ static kw_status make_radial(kw_pattern *p)
     kw_status st = kw_traj_size(&o, &ns, &ndk);
     if (st)
     {
-        st = kw_pattern_rename_param(st, "oversampling", "readout_oversampling");
-        st = kw_pattern_rename_param(st, "n", "dims");
-        return kw_pattern_rename_param(st, "nz", "dims");
+        st = rename_param(st, "oversampling", "readout_oversampling");
+        st = rename_param(st, "n", "dims");
+        return rename_param(st, "nz", "dims");
     }
     p->k = malloc(ns * (size_t)ndk * sizeof *p->k);
     p->t = malloc(ns * sizeof *p->t);

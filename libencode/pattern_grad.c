@@ -13,11 +13,12 @@
 
 static kw_status check_limits(const kw_pattern_options *o, size_t n)
 {
+    const char *kind = o->kind == KW_PATTERN_SPIRAL ? "spiral" : "epi";
     KW_FAIL_PARAM(o->ndim > 2, KW_EINVAL, "dims", "the %s kind is 2-D: NX or NXxNY",
-                  kw_pattern_kind_name(o->kind));
+                  kind);
     KW_FAIL_PARAM(o->dims[0] != o->dims[1], KW_EINVAL, "dims",
                   "%s trajectories here need a square matrix (got %zux%zu)",
-                  kw_pattern_kind_name(o->kind), o->dims[1], o->dims[0]);
+                  kind, o->dims[1], o->dims[0]);
     KW_FAIL_PARAM(n < 8 || n > 1024 || n % 2, KW_ERANGE, "dims", "N = %zu outside 8..1024 or odd",
                   n);
     KW_FAIL_PARAM(!(o->gmax > 0), KW_ERANGE, "gmax", "must be positive");

@@ -16,7 +16,4 @@ struct kw_pattern {
 /* spiral / EPI: fill p->k, p->t and p->info (pattern_grad.c) */
 kw_status kw_pattern_make_gradient(struct kw_pattern *p);
 
-/* re-label the last failure's parameter `from` as `to` (returns st) */
-kw_status kw_pattern_rename_param(kw_status st, const char *from, const char *to);
-
 #endif
