@@ -1,43 +1,23 @@
-/* cmd_pattern.c: `kweave pattern`: make Cartesian masks and radial
- * trajectories, analyse them (point spread, gaps, incoherence), compare
- * several side by side. Methods live in libencode/sampling.c,
- * libencode/traj.c and recon/psf.c; this file reads, writes and reports.
+/* cmd_pattern.c: `kweave pattern`: make Cartesian masks and trajectories
+ * (libencode/kw_pattern.h), analyse them (recon/kw_pattern_analysis.h),
+ * compare several side by side. This file parses the options, writes the
+ * files (.npy, sidecar JSON, times) and reports; reading a pattern file is
+ * in cli/pattern_read.c, the reports in cli/pattern_report.c.
  * Documentation: docs/patterns.md. */
 #define _POSIX_C_SOURCE 200809L
-#include <cairo.h>
+#include <limits.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "cli.h"
-#include "jsonio.h"
-#include "kw_dcf.h"
-#include "kw_psf.h"
-#include "kw_sampling.h"
-#include "kw_traj.h"
-#include "kw_wavelet.h"
+#include "kw_pattern.h"
 #include "npy.h"
 #include "outfile.h"
-#include "png.h"
-
-/* Spiral and EPI come from the planner's gradient design (kw_gradient.h),
- * so that a trajectory is one the hardware can play. */
-#include "kw_gradient.h"
-#include <dlfcn.h>
+#include "pattern_cli.h"
 
 #define MAX_COMPARE 8
-#define PSF_DB_FLOOR -60.0  /* picture window: common practice, no source */
-#define TPSF_ORDER 4        /* db4, as in the compressed-sensing literature */
-#define TPSF_MAX_LEVELS 4
-/* defaults shared with `kweave plan` (common practice, no source) */
-#define DEFAULT_BW_PER_PIXEL 250.0 /* Hz/pixel: dwell = 1 / (250 N) */
-#define DEFAULT_FOV_M 0.256
-#define DEFAULT_GMAX 40e-3
-#define DEFAULT_SLEW 150.0
-#define DEFAULT_RASTER 10e-6
-#define DEFAULT_FAST_DWELL 4e-6    /* spiral/EPI ADC dwell, s: common practice, no source */
-#define DEFAULT_MAX_READOUT 10e-3 /* spiral interleaf, s: common practice, no source */
 
 static const char *USAGE =
     "usage: kweave pattern --kind KIND --matrix NXxNY[xNZ] [options] [--out F.npy]\n"
@@ -92,865 +72,8 @@ static int parse_sizes(const char *field, const char *s, size_t *v, int max, int
     return -1;
 }
 
-static cJSON *num_or_null(double v) { return isfinite(v) ? cJSON_CreateNumber(v) : cJSON_CreateNull(); }
 
-static void add_num(cJSON *o, const char *k, double v) { cJSON_AddItemToObject(o, k, num_or_null(v)); }
-
-/* ---- the analysis of one pattern ---------------------------------------------- */
-
-typedef struct analysis {
-    char name[256];        /* file or kind */
-    char kind[32];         /* pattern kind if known */
-    int cartesian;
-    int plane;             /* Cartesian: 1 = ky-kz plane (nz, ny), 0 = lines (ny, nx) */
-    const char *axes[3];   /* axis names in array order */
-    int rank;
-    size_t dims[3];
-    double acceleration, sampled_fraction;
-    double acs_lines;      /* NaN when not applicable */
-    size_t acs_block[2];   /* along axes 0, 1 */
-    double max_gap, gap_axis[3];
-    kw_psf_metrics psf;
-    float complex *psfbuf; /* the PSF itself (owned) */
-    size_t psfdims[3];
-    int psfrank;
-    double tpsf[TPSF_MAX_LEVELS];
-    int tpsf_levels;       /* 0: not computed */
-    double nyquist_spokes; /* radial: pi N / 2, else NaN */
-    int weights;           /* non-Cartesian PSF weights: W_* */
-    size_t spokes;
-    float *picture;        /* mask or trajectory picture, values 0..1 (owned) */
-    size_t pic_h, pic_w;
-} analysis;
-
-static void analysis_free(analysis *a)
-{
-    kw_free(a->psfbuf);
-    kw_free(a->picture);
-    a->psfbuf = NULL;
-    a->picture = NULL;
-}
-
-/* contiguous sampled run through the centre of axis `ax` (other index at its
- * centre), lo/hi offsets from the centre */
-static void centre_run(const float *w, const size_t *dims, int ax, long *lo, long *hi)
-{
-    size_t c0 = dims[0] / 2, c1 = dims[1] / 2;
-    long n = (long)dims[ax];
-    long c = (long)(dims[ax] / 2);
-#define AT(i) (ax == 0 ? w[(size_t)(i) * dims[1] + c1] : w[c0 * dims[1] + (size_t)(i)])
-    *lo = 0;
-    *hi = -1;
-    if (!(AT(c) > 0))
-        return;
-    long a = c, b = c;
-    while (a - 1 >= 0 && AT(a - 1) > 0)
-        a--;
-    while (b + 1 < n && AT(b + 1) > 0)
-        b++;
-#undef AT
-    *lo = a - c;
-    *hi = b - c;
-}
-
-static int rect_full(const float *w, const size_t *dims, long y0, long y1, long x0, long x1)
-{
-    for (long y = y0; y <= y1; y++)
-        for (long x = x0; x <= x1; x++)
-            if (!(w[(size_t)y * dims[1] + (size_t)x] > 0))
-                return 0;
-    return 1;
-}
-
-/* Cartesian figures that need no PSF: acceleration, ACS, gaps */
-static void cartesian_counts(analysis *a, const float *w)
-{
-    const size_t *d = a->dims;
-    size_t n = d[0] * d[1], s = 0;
-    for (size_t i = 0; i < n; i++)
-        s += w[i] > 0;
-    a->sampled_fraction = (double)s / (double)n;
-    a->acceleration = s ? (double)n / (double)s : INFINITY;
-    /* ACS: the contiguous fully sampled block through k = 0; for line masks
-     * the run of whole rows along ky; a run of one line is no ACS */
-    long lo0, hi0, lo1, hi1;
-    centre_run(w, d, 0, &lo0, &hi0);
-    if (!a->plane) {
-        long len = hi0 - lo0 + 1;
-        /* every row of the run must be fully sampled */
-        if (len > 0 && !rect_full(w, d, (long)(d[0] / 2) + lo0, (long)(d[0] / 2) + hi0, 0,
-                                  (long)d[1] - 1))
-            len = 0;
-        a->acs_block[0] = len >= 2 ? (size_t)len : 0;
-        a->acs_block[1] = d[1];
-        a->acs_lines = (double)a->acs_block[0];
-    } else {
-        centre_run(w, d, 1, &lo1, &hi1);
-        long cy = (long)(d[0] / 2), cx = (long)(d[1] / 2);
-        /* shrink the larger side until the rectangle is fully sampled */
-        while (hi0 >= lo0 && hi1 >= lo1 &&
-               !rect_full(w, d, cy + lo0, cy + hi0, cx + lo1, cx + hi1)) {
-            if (hi0 - lo0 >= hi1 - lo1) {
-                if (-lo0 > hi0) lo0++; else hi0--;
-            } else {
-                if (-lo1 > hi1) lo1++; else hi1--;
-            }
-        }
-        long ly = hi0 - lo0 + 1, lx = hi1 - lo1 + 1;
-        if (ly < 2 || lx < 2)
-            ly = lx = 0;
-        a->acs_block[0] = (size_t)(ly > 0 ? ly : 0);
-        a->acs_block[1] = (size_t)(lx > 0 ? lx : 0);
-        a->acs_lines = (double)(a->acs_block[0] * a->acs_block[1]);
-    }
-    /* largest step between neighbouring samples along each axis (lines of
-     * the other axis), in delta-k; shown per axis for line masks */
-    for (int ax = 0; ax < 2; ax++) {
-        size_t nl = d[1 - ax], len = d[ax];
-        double g = 0;
-        for (size_t l = 0; l < nl; l++) {
-            long last = -1;
-            for (size_t i = 0; i < len; i++) {
-                size_t idx = ax == 0 ? i * d[1] + l : l * d[1] + i;
-                if (w[idx] > 0) {
-                    if (last >= 0 && (double)((long)i - last) > g)
-                        g = (double)((long)i - last);
-                    last = (long)i;
-                }
-            }
-        }
-        a->gap_axis[ax] = g;
-    }
-}
-
-static int analyse_cartesian(analysis *a, const float *w)
-{
-    cartesian_counts(a, w);
-    KW_FAIL_IF(a->sampled_fraction == 0, KW_EFORMAT, "mask: nothing is sampled");
-    kw_status gst = kw_mask_gap(w, a->dims[0], a->dims[1], &a->max_gap);
-    if (gst)
-        return gst;
-    a->psfrank = 2;
-    a->psfdims[0] = a->dims[0];
-    a->psfdims[1] = a->dims[1];
-    size_t n = a->dims[0] * a->dims[1];
-    a->psfbuf = kw_alloc(n * sizeof *a->psfbuf);
-    KW_FAIL_IF(!a->psfbuf, KW_ENOMEM, "psf: out of memory");
-    kw_psf_plan *pp;
-    kw_status st = kw_psf_create(&pp, 2, a->dims);
-    if (st)
-        return st;
-    st = kw_psf_execute(pp, w, a->psfbuf);
-    kw_psf_destroy(pp);
-    if (!st)
-        st = kw_psf_measure(a->psfbuf, 2, a->dims, &a->psf);
-    if (!st) /* the continuous FWHM replaces the grid-interpolated one */
-        st = kw_psf_fwhm_cartesian(w, 2, a->dims, a->psf.fwhm);
-    if (st)
-        return st;
-    /* transform point spread in the db4 wavelet domain */
-    int L = kw_wavelet_max_levels(a->dims[0], a->dims[1]);
-    if (L > TPSF_MAX_LEVELS)
-        L = TPSF_MAX_LEVELS;
-    a->tpsf_levels = 0;
-    if (L >= 1) {
-        kw_tpsf_plan *tp;
-        st = kw_tpsf_create(&tp, a->dims[0], a->dims[1], TPSF_ORDER, L);
-        if (!st)
-            st = kw_tpsf_execute(tp, w, a->tpsf);
-        kw_tpsf_destroy(tp);
-        if (st)
-            return st;
-        a->tpsf_levels = L;
-    }
-    a->nyquist_spokes = NAN;
-    a->picture = kw_alloc(n * sizeof *a->picture);
-    KW_FAIL_IF(!a->picture, KW_ENOMEM, "picture: out of memory");
-    float wmax = 0;
-    for (size_t i = 0; i < n; i++)
-        wmax = w[i] > wmax ? w[i] : wmax;
-    for (size_t i = 0; i < n; i++)
-        a->picture[i] = wmax > 0 ? w[i] / wmax : 0;
-    a->pic_h = a->dims[0];
-    a->pic_w = a->dims[1];
-    return KW_OK;
-}
-
-enum { W_NONE = 0, W_RADIAL = 1, W_PIPE = 2 };
-
-/* trajectory information from its sidecar */
-typedef struct traj_info {
-    size_t n, nz, readout, spokes;
-    int ndim;
-    int radial;  /* full-spoke radial family: Nyquist spokes pi N / 2 */
-    int weights; /* W_NONE, W_RADIAL (area ramp), W_PIPE (Pipe-Menon) */
-    int oversampling; /* radial: readout oversampling F (readout = F n) */
-} traj_info;
-
-/* largest distance from a sample to the nearest sample of another readout,
- * and the largest step along a readout, in delta-k (in-plane) */
-static kw_status traj_gap(const float *k, size_t stride, size_t ns, size_t readout, size_t n,
-                          double *gap)
-{
-    const long half = (long)n / 2 + 2, side = 2 * half + 1;
-    size_t ncell = (size_t)(side * side);
-    size_t *head = malloc(ncell * sizeof *head), *next = malloc(ns * sizeof *next);
-    if (!head || !next) {
-        free(head);
-        free(next);
-        return kw_set_error(KW_ENOMEM, "gap: out of memory");
-    }
-    for (size_t c = 0; c < ncell; c++)
-        head[c] = SIZE_MAX;
-    for (size_t s = 0; s < ns; s++) {
-        long cx = lround(floor(k[s * stride])) + half, cy = lround(floor(k[s * stride + 1])) + half;
-        if (cx < 0) cx = 0;
-        if (cy < 0) cy = 0;
-        if (cx >= side) cx = side - 1;
-        if (cy >= side) cy = side - 1;
-        size_t c = (size_t)(cy * side + cx);
-        next[s] = head[c];
-        head[c] = s;
-    }
-    double g = 0;
-    for (size_t s = 0; s < ns; s++) {
-        if ((s + 1) % readout != 0) { /* along the readout */
-            double dx = k[(s + 1) * stride] - k[s * stride];
-            double dy = k[(s + 1) * stride + 1] - k[s * stride + 1];
-            double d = sqrt(dx * dx + dy * dy);
-            if (d > g)
-                g = d;
-        }
-        long cx = lround(floor(k[s * stride])) + half, cy = lround(floor(k[s * stride + 1])) + half;
-        double best = INFINITY;
-        for (long r = 0; r < side; r++) {
-            for (long y = cy - r; y <= cy + r; y++)
-                for (long x = cx - r; x <= cx + r; x++) {
-                    if (labs(y - cy) != r && labs(x - cx) != r)
-                        continue;
-                    if (x < 0 || y < 0 || x >= side || y >= side)
-                        continue;
-                    for (size_t q = head[(size_t)(y * side + x)]; q != SIZE_MAX; q = next[q]) {
-                        if (q / readout == s / readout)
-                            continue;
-                        double dx = k[q * stride] - k[s * stride];
-                        double dy = k[q * stride + 1] - k[s * stride + 1];
-                        double d = sqrt(dx * dx + dy * dy);
-                        if (d < best)
-                            best = d;
-                    }
-                }
-            if (best <= (double)r)
-                break;
-        }
-        if (isfinite(best) && best > g)
-            g = best;
-    }
-    free(head);
-    free(next);
-    *gap = g;
-    return KW_OK;
-}
-
-static int analyse_traj(analysis *a, const kw_array *t, const traj_info *ti, size_t psf_size)
-{
-    const float *k = t->data;
-    const size_t ns = t->dims[0], stride = t->dims[1];
-    /* one plane: the kz = 0 partition of a stack of stars */
-    size_t first = 0, count = ns;
-    if (stride == 3) {
-        first = ns;
-        count = 0;
-        for (size_t s = 0; s < ns; s++)
-            if (k[s * 3 + 2] == 0.0f) {
-                if (first == ns)
-                    first = s;
-                count++;
-            }
-        KW_FAIL_IF(count == 0, KW_EFORMAT, "trajectory: no samples in the kz = 0 partition");
-        for (size_t s = first; s < first + count; s++)
-            KW_FAIL_IF(s >= ns || k[s * 3 + 2] != 0.0f, KW_EFORMAT,
-                       "trajectory: the kz = 0 partition is not contiguous");
-    }
-    KW_FAIL_IF(count % ti->readout != 0, KW_EFORMAT,
-               "trajectory: %zu samples per plane are not whole readouts of %zu", count,
-               ti->readout);
-    const float *kp = k + first * stride;
-    a->rank = 2;
-    a->dims[0] = a->dims[1] = ti->n;
-    a->axes[0] = "y";
-    a->axes[1] = "x";
-    a->sampled_fraction = (double)count / ((double)ti->n * (double)ti->n);
-    a->spokes = count / ti->readout;
-    a->nyquist_spokes = ti->radial ? (double)kw_traj_nyquist_spokes(ti->n) : NAN;
-    a->acceleration = ti->radial ? KW_PI * (double)ti->n / 2.0 / (double)a->spokes : NAN;
-    if (!ti->radial && ti->weights == W_NONE) /* EPI: a Cartesian subset */
-        a->acceleration = (double)ti->n * (double)ti->n / (double)count;
-    a->weights = ti->weights;
-    a->acs_lines = NAN;
-    kw_status st = traj_gap(kp, stride, count, ti->readout, ti->n, &a->max_gap);
-    if (st)
-        return st;
-    a->gap_axis[0] = a->gap_axis[1] = NAN;
-    float *w = NULL;
-    if (ti->weights != W_NONE) {
-        w = malloc(count * sizeof *w);
-        KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
-        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->n, .nz = 1, .spokes = a->spokes,
-                          .dwell_s = 1, .te_s = 1,
-                          .oversampling = ti->radial ? ti->oversampling : 1};
-        if (ti->weights == W_RADIAL) {
-            st = kw_traj_radial_weights(&o, w);
-        } else {
-            /* Pipe & Menon 1999 iterative weights (recon/kw_dcf.h); the grid
-             * is 4 points wider so k-max = N/2 lies inside [-M/2, M/2) */
-            size_t dd[2] = {ti->n + 4, ti->n + 4};
-            st = kw_dcf_pipe(2, dd, count, kp, 0, NULL, w);
-        }
-        if (st) {
-            free(w);
-            return st;
-        }
-    }
-    size_t m = psf_size;
-    a->psfrank = 2;
-    a->psfdims[0] = a->psfdims[1] = m;
-    a->psfbuf = kw_alloc(m * m * sizeof *a->psfbuf);
-    if (!a->psfbuf) {
-        free(w);
-        return kw_set_error(KW_ENOMEM, "psf: out of memory");
-    }
-    st = kw_psf_ndft(kp, stride, w, count, ti->n, m, a->psfbuf, kw_cli_progress, NULL);
-    kw_cli_progress_done();
-    if (!st)
-        st = kw_psf_measure(a->psfbuf, 2, a->psfdims, &a->psf);
-    if (!st) /* the continuous FWHM replaces the grid-interpolated one */
-        st = kw_psf_fwhm_ndft(kp, stride, w, count, ti->n, a->psf.fwhm);
-    free(w);
-    if (st)
-        return st;
-    a->tpsf_levels = 0;
-    /* picture: the plane's samples on a 512 x 512 canvas over [-N/2, N/2) */
-    const size_t P = 512;
-    a->picture = kw_alloc(P * P * sizeof *a->picture);
-    KW_FAIL_IF(!a->picture, KW_ENOMEM, "picture: out of memory");
-    a->pic_h = a->pic_w = P;
-    for (size_t s = 0; s < count; s++) {
-        double x = (kp[s * stride] / (double)ti->n + 0.5) * (double)P;
-        double y = (0.5 - kp[s * stride + 1] / (double)ti->n) * (double)P; /* ky up */
-        long ix = (long)floor(x), iy = (long)floor(y);
-        if (ix >= 0 && iy >= 0 && ix < (long)P && iy < (long)P)
-            a->picture[(size_t)iy * P + (size_t)ix] = 1.0f;
-    }
-    return KW_OK;
-}
-
-/* ---- reading a pattern file ---------------------------------------------------------- */
-
-static const char *json_str(const cJSON *o, const char *k)
-{
-    const cJSON *it = cJSON_GetObjectItemCaseSensitive(o, k);
-    return cJSON_IsString(it) ? it->valuestring : NULL;
-}
-
-static int json_size(const cJSON *o, const char *k, size_t *v)
-{
-    const cJSON *it = cJSON_GetObjectItemCaseSensitive(o, k);
-    if (!cJSON_IsNumber(it) || !(it->valuedouble >= 1) || it->valuedouble > 1e9 ||
-        it->valuedouble != floor(it->valuedouble))
-        return 0;
-    *v = (size_t)it->valuedouble;
-    return 1;
-}
-
-/* The readout oversampling F of a radial-family trajectory: the sidecar's
- * "readout_oversampling" when present (files written before it existed
- * have F = 1: readout_samples = matrix), else readout_samples / matrix;
- * readout_samples must be F N and the first readout's samples 1/F cycle/FOV
- * apart. Returns -1 or the exit code. */
-static int radial_oversampling(const cJSON *side, const kw_array *arr, traj_info *ti)
-{
-    const cJSON *it = cJSON_GetObjectItemCaseSensitive(side, "readout_oversampling");
-    long f;
-    if (it) {
-        if (!cJSON_IsNumber(it) || it->valuedouble != floor(it->valuedouble) ||
-            !(it->valuedouble >= 1 && it->valuedouble <= 4))
-            return kw_cli_fail("readout_oversampling", "must be a whole number in 1..4");
-        f = (long)it->valuedouble;
-    } else {
-        if (ti->readout % ti->n != 0 || ti->readout / ti->n > 4)
-            return kw_cli_fail("readout_samples", "%zu is not F x the matrix %zu (F = 1..4)",
-                               ti->readout, ti->n);
-        f = (long)(ti->readout / ti->n);
-    }
-    if (ti->readout != (size_t)f * ti->n)
-        return kw_cli_fail("readout_samples", "%zu differs from %ld x the matrix %zu",
-                           ti->readout, f, ti->n);
-    if (arr->dims[0] < ti->readout)
-        return kw_cli_fail("readout_samples", "%zu samples per readout, the file holds %zu",
-                           ti->readout, arr->dims[0]);
-    /* the step along the first spoke (samples n = FN/2 and FN/2 + 1) */
-    const float *k = arr->data;
-    const size_t c = arr->dims[1], j = ti->readout / 2;
-    double dx = (double)k[(j + 1) * c] - k[j * c], dy = (double)k[(j + 1) * c + 1] - k[j * c + 1];
-    double step = sqrt(dx * dx + dy * dy);
-    if (!(fabs(step * (double)f - 1.0) < 1e-3))
-        return kw_cli_fail("readout_oversampling", "samples are %g cycle/FOV apart along a "
-                           "readout, not 1/%ld", step, f);
-    ti->oversampling = (int)f;
-    return -1;
-}
-
-/* Analyse the file `path`; returns -1 on success or the exit code. */
-static int analyse_file(const char *path, analysis *a, long psf_size)
-{
-    memset(a, 0, sizeof *a);
-    snprintf(a->name, sizeof a->name, "%s", path);
-    const char *slash = strrchr(path, '/');
-    snprintf(a->name, sizeof a->name, "%s", slash ? slash + 1 : path);
-    kw_array arr = {0};
-    kw_status st = kw_npy_read(path, &arr);
-    if (st)
-        return kw_cli_status(st, "analyse");
-    cJSON *side = NULL;
-    char *sp = kw_sidecar_path(path);
-    FILE *probe = sp ? fopen(sp, "rb") : NULL;
-    if (probe) {
-        fclose(probe);
-        st = kw_json_read(sp, &side);
-        if (st) {
-            free(sp);
-            kw_array_free(&arr);
-            return kw_cli_status(st, "sidecar");
-        }
-    }
-    free(sp);
-    int rc = -1;
-    const char *skind = side ? json_str(side, "kind") : NULL;
-    const char *pk = side ? json_str(side, "pattern_kind") : NULL;
-    snprintf(a->kind, sizeof a->kind, "%s", pk ? pk : "");
-    st = kw_array_all_finite(&arr);
-    if (st && arr.dtype != KW_U8) {
-        rc = kw_cli_status(st, path);
-        goto out;
-    }
-    if (arr.dtype == KW_C64) {
-        rc = kw_cli_fail(path, "a pattern is uint8 or float32, not complex");
-        goto out;
-    }
-    int is_traj = skind && strcmp(skind, "trajectory") == 0;
-    if (!skind && arr.dtype == KW_F32 && arr.ndim == 2 && (arr.dims[1] == 2 || arr.dims[1] == 3)) {
-        const float *v = arr.data;
-        for (size_t i = 0; i < kw_array_count(&arr); i++)
-            if (v[i] < 0)
-                is_traj = 1;
-    }
-    if (is_traj) {
-        if (arr.dtype != KW_F32 || arr.ndim != 2 || (arr.dims[1] != 2 && arr.dims[1] != 3) ||
-            arr.dims[0] < 2) {
-            rc = kw_cli_fail(path, "a trajectory must be float32 of shape (samples, 2 or 3)");
-            goto out;
-        }
-        traj_info ti = {0};
-        const cJSON *mat = side ? cJSON_GetObjectItemCaseSensitive(side, "matrix") : NULL;
-        if (!side || !cJSON_IsArray(mat) || !cJSON_IsNumber(cJSON_GetArrayItem(mat, 0)) ||
-            !json_size(side, "readout_samples", &ti.readout)) {
-            rc = kw_cli_fail(path, "a trajectory needs its sidecar JSON with \"matrix\" "
-                                   "and \"readout_samples\"");
-            goto out;
-        }
-        double nn = cJSON_GetArrayItem(mat, 0)->valuedouble;
-        if (!(nn >= 2 && nn <= 4096 && nn == floor(nn))) {
-            rc = kw_cli_fail("matrix", "sidecar matrix %g outside 2..4096", nn);
-            goto out;
-        }
-        ti.n = (size_t)nn;
-        const cJSON *cols = cJSON_GetObjectItemCaseSensitive(side, "shape");
-        if (cJSON_IsArray(cols) && cJSON_GetArraySize(cols) == 2 &&
-            (cJSON_GetArrayItem(cols, 0)->valuedouble != (double)arr.dims[0] ||
-             cJSON_GetArrayItem(cols, 1)->valuedouble != (double)arr.dims[1])) {
-            rc = kw_cli_fail(path, "shape (%zu, %zu) differs from the sidecar's", arr.dims[0],
-                             arr.dims[1]);
-            goto out;
-        }
-        ti.radial = pk && (strcmp(pk, "radial") == 0 || strcmp(pk, "golden") == 0 ||
-                           strcmp(pk, "stack-of-stars") == 0);
-        ti.weights = ti.radial ? W_RADIAL : (pk && strcmp(pk, "spiral") == 0) ? W_PIPE : W_NONE;
-        if (ti.radial) {
-            rc = radial_oversampling(side, &arr, &ti);
-            if (rc >= 0)
-                goto out;
-        }
-        size_t m = psf_size > 0 ? (size_t)psf_size : (ti.n < 128 ? ti.n : 128);
-        a->cartesian = 0;
-        st = analyse_traj(a, &arr, &ti, m);
-        if (st)
-            rc = kw_cli_status(st, path);
-        goto out;
-    }
-    if (skind && strcmp(skind, "mask") != 0) {
-        rc = kw_cli_fail(path, "sidecar kind \"%s\" is not a mask or trajectory", skind);
-        goto out;
-    }
-    if (arr.ndim != 2 || arr.dims[0] < 1 || arr.dims[1] < 1) {
-        rc = kw_cli_fail(path, "a mask must be 2-D: (ny, nx) or (nz, ny), got %d dimensions",
-                         arr.ndim);
-        goto out;
-    }
-    a->cartesian = 1;
-    a->rank = 2;
-    a->dims[0] = arr.dims[0];
-    a->dims[1] = arr.dims[1];
-    size_t n = a->dims[0] * a->dims[1];
-    float *w = malloc(n * sizeof *w);
-    if (!w) {
-        rc = kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), path);
-        goto out;
-    }
-    for (size_t i = 0; i < n; i++) {
-        float v = arr.dtype == KW_U8 ? (float)((uint8_t *)arr.data)[i] : ((float *)arr.data)[i];
-        if (v < 0) {
-            free(w);
-            rc = kw_cli_fail(path, "negative weight %g at index %zu", v, i);
-            goto out;
-        }
-        w[i] = arr.dtype == KW_U8 ? (v > 0) : v;
-    }
-    const char *plane = side ? json_str(side, "plane") : NULL;
-    if (plane)
-        a->plane = strcmp(plane, "kz-ky") == 0;
-    else {
-        a->plane = 0; /* rows constant along x: ky lines */
-        for (size_t y = 0; y < a->dims[0] && !a->plane; y++)
-            for (size_t x = 1; x < a->dims[1]; x++)
-                if (w[y * a->dims[1] + x] != w[y * a->dims[1]]) {
-                    a->plane = 1;
-                    break;
-                }
-    }
-    a->axes[0] = a->plane ? "z" : "y";
-    a->axes[1] = a->plane ? "y" : "x";
-    st = analyse_cartesian(a, w);
-    free(w);
-    if (st)
-        rc = kw_cli_status(st, path);
-out:
-    cJSON_Delete(side);
-    kw_array_free(&arr);
-    return rc;
-}
-
-/* ---- reports -------------------------------------------------------------------------- */
-
-static double fwhm_main(const analysis *a)
-{
-    /* the worst (widest) of the phase-encode axes; lines: along y only */
-    if (a->cartesian && !a->plane)
-        return a->psf.fwhm[0];
-    double f = 0;
-    for (int i = 0; i < a->psfrank; i++)
-        if (isfinite(a->psf.fwhm[i]) && a->psf.fwhm[i] > f)
-            f = a->psf.fwhm[i];
-    return f;
-}
-
-static double tpsf_max(const analysis *a)
-{
-    double t = 0;
-    for (int l = 0; l < a->tpsf_levels; l++)
-        if (a->tpsf[l] > t)
-            t = a->tpsf[l];
-    return a->tpsf_levels ? t : NAN;
-}
-
-static cJSON *analysis_json(const analysis *a)
-{
-    cJSON *o = cJSON_CreateObject();
-    cJSON_AddStringToObject(o, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(o, "file", a->name);
-    if (a->kind[0])
-        cJSON_AddStringToObject(o, "pattern_kind", a->kind);
-    else
-        cJSON_AddNullToObject(o, "pattern_kind");
-    cJSON_AddStringToObject(o, "layout", a->cartesian ? "cartesian" : "noncartesian");
-    cJSON *ax = cJSON_AddArrayToObject(o, "axes");
-    for (int i = 0; i < 2; i++)
-        cJSON_AddItemToArray(ax, cJSON_CreateString(a->axes[i]));
-    double d[3] = {(double)a->dims[0], (double)a->dims[1], 0};
-    kw_json_add_vec(o, "shape", d, 2);
-    add_num(o, "acceleration", a->acceleration);
-    add_num(o, "sampled_fraction", a->sampled_fraction);
-    add_num(o, "acs_lines", a->acs_lines);
-    if (a->cartesian) {
-        double b[2] = {(double)a->acs_block[0], (double)a->acs_block[1]};
-        kw_json_add_vec(o, "acs_block", b, 2);
-    } else {
-        cJSON_AddNullToObject(o, "acs_block");
-    }
-    add_num(o, "max_gap_dk", a->max_gap);
-    if (a->cartesian && !a->plane) {
-        cJSON *g = cJSON_AddObjectToObject(o, "max_gap_dk_by_axis");
-        for (int i = 0; i < 2; i++)
-            add_num(g, a->axes[i], a->gap_axis[i]);
-    }
-    add_num(o, "psf_fwhm_pixels", fwhm_main(a));
-    cJSON *f = cJSON_AddObjectToObject(o, "psf_fwhm_pixels_by_axis");
-    cJSON *lobe = cJSON_AddObjectToObject(o, "psf_mainlobe_halfwidth_pixels");
-    cJSON *at = cJSON_AddObjectToObject(o, "psf_peak_sidelobe_at_pixels");
-    for (int i = 0; i < a->psfrank; i++) {
-        add_num(f, a->axes[i], a->psf.fwhm[i]);
-        add_num(lobe, a->axes[i], a->psf.lobe[i]);
-        add_num(at, a->axes[i], (double)a->psf.sidelobe_at[i]);
-    }
-    add_num(o, "psf_peak", a->psf.peak);
-    add_num(o, "psf_peak_sidelobe", a->psf.peak_sidelobe);
-    add_num(o, "psf_energy_outside_mainlobe", a->psf.energy_outside);
-    double pg[2] = {(double)a->psfdims[0], (double)a->psfdims[1]};
-    kw_json_add_vec(o, "psf_grid", pg, 2);
-    cJSON_AddStringToObject(o, "psf_method", a->cartesian ? "fft" : "ndft");
-    if (!a->cartesian)
-        cJSON_AddStringToObject(o, "psf_weights",
-                                a->weights == W_RADIAL ? "radial area (ramp)"
-                                : a->weights == W_PIPE ? "Pipe-Menon 1999 (iterative)"
-                                                       : "none");
-    add_num(o, "tpsf_incoherence", tpsf_max(a));
-    if (a->tpsf_levels) {
-        cJSON_AddStringToObject(o, "tpsf_wavelet", "db4");
-        kw_json_add_vec(o, "tpsf_by_level", a->tpsf, a->tpsf_levels);
-    } else {
-        cJSON_AddNullToObject(o, "tpsf_wavelet");
-        cJSON_AddNullToObject(o, "tpsf_by_level");
-    }
-    if (!a->cartesian) {
-        add_num(o, "spokes", (double)a->spokes);
-        add_num(o, "nyquist_spokes", a->nyquist_spokes);
-    }
-    return o;
-}
-
-static void analysis_text(FILE *f, const analysis *a)
-{
-    fprintf(f, "pattern %s (%s, %s %zux%zu)\n", a->name, a->kind[0] ? a->kind : "unknown kind",
-            a->cartesian ? "Cartesian" : "non-Cartesian", a->dims[0], a->dims[1]);
-    if (a->cartesian) {
-        fprintf(f, "  acceleration            %.3f (sampled fraction %.4f)\n", a->acceleration,
-                a->sampled_fraction);
-        if (a->plane)
-            fprintf(f, "  ACS block               %zu x %zu (%g readout lines)\n",
-                    a->acs_block[1], a->acs_block[0], a->acs_lines);
-        else
-            fprintf(f, "  ACS lines               %g\n", a->acs_lines);
-        fprintf(f, "  largest gap             %g delta-k\n", a->max_gap);
-    } else {
-        if (a->weights == W_RADIAL) {
-            fprintf(f, "  spokes                  %zu per plane (Nyquist: %g)\n", a->spokes,
-                    a->nyquist_spokes);
-            fprintf(f, "  acceleration            %.3f (pi N/2 over spokes); sampled fraction "
-                       "%.4f of the N x N grid\n", a->acceleration, a->sampled_fraction);
-        } else {
-            fprintf(f, "  readouts                %zu\n", a->spokes);
-            if (isfinite(a->acceleration))
-                fprintf(f, "  acceleration            %.3f (grid points over samples)\n",
-                        a->acceleration);
-            fprintf(f, "  sampled fraction        %.4f of the N x N grid\n", a->sampled_fraction);
-        }
-        fprintf(f, "  largest gap             %.3f delta-k\n", a->max_gap);
-    }
-    fprintf(f, "  PSF main lobe (FWHM)    %.2f pixels", fwhm_main(a));
-    fprintf(f, " (%s %.2f, %s %.2f)\n", a->axes[0], a->psf.fwhm[0], a->axes[1], a->psf.fwhm[1]);
-    fprintf(f, "  peak sidelobe           %.4f of the peak (%.1f dB) at %s %+ld, %s %+ld px\n",
-            a->psf.peak_sidelobe, 20 * log10(a->psf.peak_sidelobe > 0 ? a->psf.peak_sidelobe : 1e-30),
-            a->axes[0], a->psf.sidelobe_at[0], a->axes[1], a->psf.sidelobe_at[1]);
-    fprintf(f, "  energy outside lobe     %.4f\n", a->psf.energy_outside);
-    if (a->tpsf_levels) {
-        fprintf(f, "  TPSF coherence (db4)    %.4f (by level, finest first:", tpsf_max(a));
-        for (int l = 0; l < a->tpsf_levels; l++)
-            fprintf(f, " %.4f", a->tpsf[l]);
-        fprintf(f, ")\n");
-    }
-    if (!a->cartesian)
-        fprintf(f, "  PSF by direct NDFT on %zu x %zu pixels%s\n", a->psfdims[0], a->psfdims[1],
-                a->weights == W_RADIAL ? ", radial area weights"
-                : a->weights == W_PIPE ? ", Pipe-Menon weights" : ", unit weights");
-}
-
-/* |psf| in dB over the peak, floored at PSF_DB_FLOOR, mapped to 0..1 */
-static float *psf_db(const analysis *a)
-{
-    size_t n = a->psfdims[0] * a->psfdims[1];
-    float *v = kw_alloc(n * sizeof *v);
-    if (!v)
-        return NULL;
-    for (size_t i = 0; i < n; i++) {
-        double m = cabs((double complex)a->psfbuf[i]) / a->psf.peak;
-        double db = m > 0 ? 20 * log10(m) : PSF_DB_FLOOR;
-        if (db < PSF_DB_FLOOR)
-            db = PSF_DB_FLOOR;
-        v[i] = (float)((db - PSF_DB_FLOOR) / -PSF_DB_FLOOR);
-    }
-    return v;
-}
-
-static kw_status write_gray(const char *path, const float *v, size_t h, size_t w)
-{
-    kw_array arr = {.dtype = KW_F32, .ndim = 2, .dims = {h, w}, .data = (void *)v};
-    kw_png_opts o;
-    kw_png_opts_default(&o);
-    o.auto_window = 0;
-    o.lo = 0;
-    o.hi = 1;
-    o.part = KW_PART_REAL;
-    return kw_png_write_array(path, &arr, &o);
-}
-
-static int write_psf_png(const char *path, const analysis *a)
-{
-    float *v = psf_db(a);
-    if (!v)
-        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "psf");
-    kw_status st = write_gray(path, v, a->psfdims[0], a->psfdims[1]);
-    kw_free(v);
-    return st ? kw_cli_status(st, "psf") : -1;
-}
-
-/* ---- compare: one picture and one table -------------------------------------------------- */
-
-#define PANEL 256
-#define LABEL 28
-
-/* Release cairo's and fontconfig's process-wide caches after the picture so
- * leak checkers (make asan) see nothing held by the font system (the same
- * measure as cli/plot.c); FcFini is looked up at run time because kweave
- * does not link fontconfig itself. */
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
-}
-
-/* draw a gray picture (values 0..1, h x w) scaled into a PANEL square */
-static void draw_panel(cairo_t *cr, const float *v, size_t h, size_t w, double x0, double y0)
-{
-    int stride = cairo_format_stride_for_width(CAIRO_FORMAT_RGB24, (int)w);
-    unsigned char *buf = calloc((size_t)stride * h, 1);
-    if (!buf)
-        return;
-    for (size_t y = 0; y < h; y++) {
-        uint32_t *row = (uint32_t *)(buf + y * (size_t)stride);
-        for (size_t x = 0; x < w; x++) {
-            float t = v[y * w + x];
-            unsigned g = (unsigned)lround(255.0 * (t < 0 ? 0 : t > 1 ? 1 : t));
-            row[x] = (g << 16) | (g << 8) | g;
-        }
-    }
-    cairo_surface_t *s = cairo_image_surface_create_for_data(buf, CAIRO_FORMAT_RGB24, (int)w,
-                                                             (int)h, stride);
-    cairo_save(cr);
-    cairo_translate(cr, x0, y0);
-    double sc = (double)PANEL / (double)(h > w ? h : w);
-    cairo_scale(cr, sc, sc);
-    cairo_set_source_surface(cr, s, 0, 0);
-    cairo_pattern_set_filter(cairo_get_source(cr), CAIRO_FILTER_NEAREST);
-    cairo_paint(cr);
-    cairo_restore(cr);
-    cairo_surface_destroy(s);
-    free(buf);
-}
-
-static int compare_png(const char *path, analysis *as, int n)
-{
-    const int pad = 8;
-    int W = n * (PANEL + pad) + pad, H = 2 * (PANEL + LABEL) + pad + LABEL;
-    cairo_surface_t *surf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
-    cairo_t *cr = cairo_create(surf);
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_paint(cr);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_font_size(cr, 13);
-    for (int i = 0; i < n; i++) {
-        double x0 = pad + i * (PANEL + pad);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        cairo_move_to(cr, x0, 18);
-        cairo_show_text(cr, as[i].name);
-        draw_panel(cr, as[i].picture, as[i].pic_h, as[i].pic_w, x0, LABEL);
-        float *db = psf_db(&as[i]);
-        if (db) {
-            draw_panel(cr, db, as[i].psfdims[0], as[i].psfdims[1], x0, 2 * LABEL + PANEL);
-            kw_free(db);
-        }
-        char line[128];
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        snprintf(line, sizeof line, "R %.2f  FWHM %.2f px  PSR %.3f", as[i].acceleration,
-                 fwhm_main(&as[i]), as[i].psf.peak_sidelobe);
-        cairo_move_to(cr, x0, LABEL + PANEL + 18);
-        cairo_show_text(cr, line);
-    }
-    cairo_move_to(cr, pad, H - 10);
-    cairo_show_text(cr, "top: pattern (mask rows = ky; trajectory kx right, ky up); "
-                        "bottom: |PSF| in dB, 0 (white) to -60 (black)");
-    cairo_surface_flush(surf);
-    const unsigned char *data = cairo_image_surface_get_data(surf);
-    int stride = cairo_image_surface_get_stride(surf);
-    uint8_t *rgb = malloc((size_t)W * (size_t)H * 3);
-    kw_status st = KW_OK;
-    if (!rgb || !data) {
-        st = kw_set_error(KW_ENOMEM, "out of memory");
-    } else {
-        for (int y = 0; y < H; y++)
-            for (int x = 0; x < W; x++) {
-                uint32_t p = ((const uint32_t *)(data + (size_t)y * (size_t)stride))[x];
-                uint8_t *q = rgb + ((size_t)y * (size_t)W + (size_t)x) * 3;
-                q[0] = (uint8_t)(p >> 16);
-                q[1] = (uint8_t)(p >> 8);
-                q[2] = (uint8_t)p;
-            }
-        st = kw_png_write_rgb8(path, rgb, (size_t)W, (size_t)H);
-    }
-    free(rgb);
-    cairo_destroy(cr);
-    cairo_surface_destroy(surf);
-    release_font_caches();
-    return st ? kw_cli_status(st, "png") : -1;
-}
-
-static void fmt_num(char *b, size_t n, const char *fmt, double v)
-{
-    if (isfinite(v))
-        snprintf(b, n, fmt, v);
-    else
-        snprintf(b, n, "n/a");
-}
-
-static void compare_table(FILE *f, const analysis *as, int n)
-{
-    fprintf(f, "| Pattern | Kind | R | Sampled | ACS | Max gap (dk) | PSF FWHM (px) | "
-               "Peak sidelobe | Sidelobe at (px) | Energy outside main lobe | "
-               "TPSF coherence (db4) |\n");
-    fprintf(f, "|---|---|---:|---:|---:|---:|---:|---:|---|---:|---:|\n");
-    for (int i = 0; i < n; i++) {
-        const analysis *a = &as[i];
-        char r[32], s[32], acs[32], g[32], fw[32], ps[32], eo[32], tp[32];
-        fmt_num(r, sizeof r, "%.2f", a->acceleration);
-        fmt_num(s, sizeof s, "%.3f", a->sampled_fraction);
-        if (a->cartesian && a->plane && a->acs_lines > 0)
-            snprintf(acs, sizeof acs, "%zux%zu", a->acs_block[1], a->acs_block[0]);
-        else
-            fmt_num(acs, sizeof acs, "%.0f", a->acs_lines);
-        fmt_num(g, sizeof g, "%.2f", a->max_gap);
-        fmt_num(fw, sizeof fw, "%.2f", fwhm_main(a));
-        fmt_num(ps, sizeof ps, "%.3f", a->psf.peak_sidelobe);
-        fmt_num(eo, sizeof eo, "%.3f", a->psf.energy_outside);
-        fmt_num(tp, sizeof tp, "%.3f", tpsf_max(a));
-        fprintf(f, "| %s | %s | %s | %s | %s | %s | %s | %s | %s %+ld, %s %+ld | %s | %s |\n",
-                a->name, a->kind[0] ? a->kind : "?", r, s, acs, g, fw, ps, a->axes[0],
-                a->psf.sidelobe_at[0], a->axes[1], a->psf.sidelobe_at[1], eo, tp);
-    }
-}
-
-/* ---- generation ------------------------------------------------------------------------ */
+#define add_num kw_pattern_cli_add_num
 
 typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
@@ -963,6 +86,34 @@ typedef struct gen_opts {
     int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
         seen_dwell, seen_ellipse, seen_accel, seen_acs;
 } gen_opts;
+
+/* the library's parameter names (kw_pattern_options) and our options */
+static const struct {
+    const char *param, *option;
+} PARAM_OPTION[] = {
+    {"dims", "matrix"},       {"accel", "accel"},
+    {"acs", "acs"},           {"fraction", "fraction"},
+    {"ellipse", "ellipse"},   {"power", "power"},
+    {"shift", "shift"},       {"seed", "seed"},
+    {"spokes", "spokes"},     {"tiny", "tiny"},
+    {"readout_oversampling", "readout-oversampling"},
+    {"dwell_s", "dwell"},     {"te_s", "te"},
+    {"fov_m", "fov"},         {"gmax", "gmax"},
+    {"slew", "slew"},         {"raster", "raster"},
+    {"interleaves", "interleaves"}, {"shots", "shots"},
+    {"kind", "kind"},
+};
+
+/* A failed library call: blame the option of the parameter at fault, or
+ * report it under `context`. */
+static int pattern_fail(kw_status st, const char *context)
+{
+    const char *param = kw_last_error_param();
+    for (size_t i = 0; i < sizeof PARAM_OPTION / sizeof PARAM_OPTION[0]; i++)
+        if (strcmp(param, PARAM_OPTION[i].param) == 0)
+            return kw_cli_fail(PARAM_OPTION[i].option, "%s", kw_last_error_reason());
+    return kw_cli_status(st, context);
+}
 
 static char *times_path(const char *out)
 {
@@ -984,53 +135,25 @@ static const char *base_name(const char *p)
     return s ? s + 1 : p;
 }
 
-/* After writing the pattern: analyse it, print, write --json / --psf / --png. */
-static int report_generated(const gen_opts *g, analysis *a)
-{
-    analysis_text(stdout, a);
-    int rc;
-    if (g->json) {
-        cJSON *j = analysis_json(a);
-        kw_status st = kw_json_write(g->json, j);
-        cJSON_Delete(j);
-        if (st)
-            return kw_cli_status(st, "json");
-    }
-    if (g->psf && (rc = write_psf_png(g->psf, a)) >= 0)
-        return rc;
-    if (g->png) {
-        kw_status st = write_gray(g->png, a->picture, a->pic_h, a->pic_w);
-        if (st)
-            return kw_cli_status(st, "png");
-    }
-    return KW_EXIT_OK;
-}
+static int clamp_int(long v) { return v > INT_MAX ? INT_MAX : v < INT_MIN ? INT_MIN : (int)v; }
 
-static int gen_cartesian(const gen_opts *g, kw_mask_kind kind, const size_t *mat, int nmat)
+/* ---- options -> kw_pattern_options ----------------------------------------------------- */
+
+/* --accel R or RYxRZ, --acs N or NYxNZ into the C-order arrays */
+static int cartesian_options(const gen_opts *g, kw_pattern_options *o, int three_d)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
-    o.kind = kind;
-    size_t nx = mat[0], ny = nmat > 1 ? mat[1] : mat[0], nz = nmat > 2 ? mat[2] : 1;
-    if (nx < 1 || ny < 1 || nz < 1)
-        return kw_cli_fail("matrix", "sizes must be >= 1");
-    if ((double)nx * (double)ny * (double)nz > 1e8)
-        return kw_cli_fail("matrix", "%zux%zux%zu is too large", nx, ny, nz);
-    o.ny = ny;
-    o.nz = nz;
     if (g->accel) {
         double r[2];
         int n;
         int rc = parse_list("accel", g->accel, r, 2, &n);
         if (rc >= 0)
             return rc;
-        o.accel_y = r[0];
-        o.accel_z = n > 1 ? r[1] : 1.0;
-        if (!(o.accel_y > 0) || !(o.accel_z > 0))
+        double ry = r[0], rz = n > 1 ? r[1] : 1.0;
+        if (!(ry > 0) || !(rz > 0))
             return kw_cli_fail("accel", "must be positive");
-    } else if (kind == KW_MASK_UNIFORM || kind == KW_MASK_RANDOM || kind == KW_MASK_POISSON ||
-               kind == KW_MASK_LATTICE) {
-        return kw_cli_fail("accel", "required for --kind %s", g->kind);
+        o->accel[0] = three_d ? rz : ry;
+        o->accel[1] = three_d ? ry : rz; /* 2-D: the library rejects RZ != 1 */
+        o->accel[2] = three_d ? 1.0 : 0.0;
     }
     if (g->acs) {
         size_t v[2];
@@ -1038,161 +161,224 @@ static int gen_cartesian(const gen_opts *g, kw_mask_kind kind, const size_t *mat
         int rc = parse_sizes("acs", g->acs, v, 2, &n);
         if (rc >= 0)
             return rc;
-        o.acs_y = v[0];
-        o.acs_z = n > 1 ? v[1] : (nz > 1 ? v[0] : 0);
-        if (n > 1 && nz == 1)
+        if (n > 1 && !three_d)
             return kw_cli_fail("acs", "a 2-D ACS block AYxAZ needs a 3-D matrix");
+        o->acs[0] = three_d ? (n > 1 ? v[1] : v[0]) : v[0];
+        o->acs[1] = three_d ? v[0] : 0;
     }
-    if (g->seen_fraction)
-        o.fraction = g->fraction;
-    if (kind == KW_MASK_FULL && !strcmp(g->kind, "partial") && !g->seen_fraction)
+    if (o->kind == KW_PATTERN_PARTIAL && !g->seen_fraction)
         return kw_cli_fail("fraction", "required for --kind partial");
+    if (g->seen_fraction)
+        o->fraction = g->fraction;
     if (g->seen_power)
-        o.power = g->power;
+        o->power = g->power;
     if (g->seen_shift)
-        o.shift = g->shift;
-    o.ellipse = g->ellipse;
-    o.seed = (uint64_t)g->seed;
-    size_t np = ny * nz;
-    uint8_t *m = malloc(np);
-    float *prob = malloc(np * sizeof *prob);
-    if (!m || !prob) {
-        free(m);
-        free(prob);
-        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "mask");
-    }
-    kw_status st = kw_mask_make(&o, m, prob);
-    if (st) {
-        free(m);
-        free(prob);
-        const char *why = kw_last_error();
-        const char *colon = strchr(why, ':');
-        char field[32] = "pattern";
-        if (colon && (size_t)(colon - why) < sizeof field) {
-            memcpy(field, why, (size_t)(colon - why));
-            field[colon - why] = 0;
-            char msg[400];
-            snprintf(msg, sizeof msg, "%s", colon + 2);
-            return kw_cli_fail(field, "%s", msg);
-        }
-        return kw_cli_status(st, "pattern");
-    }
-    /* the file: (ny, nx) rows repeated along the readout, or (nz, ny) */
-    kw_array arr = {0};
-    size_t dims[2] = {nz > 1 ? nz : ny, nz > 1 ? ny : nx};
-    st = kw_array_alloc(&arr, KW_U8, 2, dims);
-    float *w = st ? NULL : malloc(dims[0] * dims[1] * sizeof *w);
-    if (st || !w) {
-        free(m);
-        free(prob);
-        kw_array_free(&arr);
-        return kw_cli_status(st ? st : kw_set_error(KW_ENOMEM, "out of memory"), "mask");
-    }
-    uint8_t *d = arr.data;
-    for (size_t r = 0; r < dims[0]; r++)
-        for (size_t c = 0; c < dims[1]; c++) {
-            uint8_t v = nz > 1 ? m[r * ny + c] : m[r];
-            d[r * dims[1] + c] = v;
-            w[r * dims[1] + c] = v;
-        }
-    int rc = -1;
-    if (g->out) {
-        st = kw_npy_write(g->out, &arr);
-        if (st)
-            rc = kw_cli_status(st, "out");
-    }
-    if (rc < 0 && g->density) {
-        kw_array pa = {.dtype = KW_F32, .ndim = 2, .dims = {nz > 1 ? nz : 1, ny}, .data = prob};
-        st = kw_npy_write(g->density, &pa);
-        if (st)
-            rc = kw_cli_status(st, "density");
-    }
-    size_t count = 0;
-    for (size_t i = 0; i < np; i++)
-        count += m[i];
-    char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
-    if (rc < 0 && sp) {
-        cJSON *j = cJSON_CreateObject();
-        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-        cJSON_AddStringToObject(j, "kind", "mask");
-        cJSON_AddStringToObject(j, "layout", "cartesian");
-        cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-        cJSON_AddStringToObject(j, "plane", nz > 1 ? "kz-ky" : "ky-kx");
-        double sh[2] = {(double)dims[0], (double)dims[1]};
-        kw_json_add_vec(j, "shape", sh, 2);
-        double mt[3] = {(double)nx, (double)ny, (double)nz};
-        kw_json_add_vec(j, "matrix", mt, nz > 1 ? 3 : 2);
-        add_num(j, "acceleration", (double)np / (double)(count ? count : 1));
-        double rq[2] = {o.accel_y, o.accel_z};
-        kw_json_add_vec(j, "accel_requested", rq, nz > 1 ? 2 : 1);
-        add_num(j, "acs_lines", nz > 1 ? (double)(o.acs_y * o.acs_z) : (double)o.acs_y);
-        double ab[2] = {(double)o.acs_y, (double)o.acs_z};
-        kw_json_add_vec(j, "acs_requested", ab, nz > 1 ? 2 : 1);
-        add_num(j, "fraction", o.fraction);
-        cJSON_AddBoolToObject(j, "ellipse", o.ellipse);
-        if (kind == KW_MASK_RANDOM || kind == KW_MASK_POISSON)
-            add_num(j, "density_power", o.power);
-        if (kind == KW_MASK_LATTICE)
-            add_num(j, "shift", (double)o.shift);
-        add_num(j, "seed", (double)g->seed);
-        add_num(j, "sampled_points", (double)count);
-        st = kw_json_write(sp, j);
-        cJSON_Delete(j);
-        if (st)
-            rc = kw_cli_status(st, "sidecar");
-    }
-    free(sp);
-    if (rc < 0) {
-        analysis a;
-        memset(&a, 0, sizeof a);
-        snprintf(a.name, sizeof a.name, "%s", g->out ? base_name(g->out) : g->kind);
-        snprintf(a.kind, sizeof a.kind, "%s", g->kind);
-        a.cartesian = 1;
-        a.plane = nz > 1;
-        a.rank = 2;
-        a.dims[0] = dims[0];
-        a.dims[1] = dims[1];
-        a.axes[0] = a.plane ? "z" : "y";
-        a.axes[1] = a.plane ? "y" : "x";
-        st = analyse_cartesian(&a, w);
-        rc = st ? kw_cli_status(st, "analyse") : report_generated(g, &a);
-        analysis_free(&a);
-    }
-    free(m);
-    free(prob);
-    free(w);
-    kw_array_free(&arr);
-    return rc;
+        o->shift = g->shift;
+    o->ellipse = g->ellipse;
+    o->seed = (uint64_t)g->seed;
+    return -1;
 }
 
-/* Analyse a trajectory just made (named after --out or the kind), on a PSF
- * grid of --psf-size or min(N, 128). */
-static kw_status analyse_generated(const gen_opts *g, const kw_array *k, const traj_info *ti,
-                                   analysis *a)
+static int traj_options(const gen_opts *g, kw_pattern_options *o)
+{
+    const char *what = g->kind;
+    int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
+    if (!grad && (g->seen_accel || g->seen_acs || g->seen_fraction || g->ellipse))
+        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
+                           : g->seen_fraction ? "fraction" : "ellipse",
+                           "not used by --kind %s (set --spokes)", what);
+    if (grad && (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny))
+        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
+                           : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
+                           "not used by --kind %s", what);
+    if (o->kind == KW_PATTERN_SPIRAL && (g->seen_shots || g->seen_fraction))
+        return kw_cli_fail(g->seen_shots ? "shots" : "fraction", "not used by --kind spiral");
+    if (o->kind == KW_PATTERN_EPI && g->seen_interleaves)
+        return kw_cli_fail("interleaves", "not used by --kind epi (use --shots)");
+    /* 0 asks the library for its default: an explicit 0 is an error here */
+    if (g->seen_spokes && g->spokes < 1)
+        return kw_cli_fail("spokes", "%ld outside 1..10000000", g->spokes);
+    if (g->seen_tiny && g->tiny < 1)
+        return kw_cli_fail("tiny", "%ld outside 1..1000", g->tiny);
+    if (g->seen_ros && g->ros < 1)
+        return kw_cli_fail("readout-oversampling", "%ld outside 1..4", g->ros);
+    if (g->seen_interleaves && g->interleaves < 1)
+        return kw_cli_fail("interleaves", "%ld outside 1..4096", g->interleaves);
+    if (g->seen_dwell && !(g->dwell > 0))
+        return kw_cli_fail("dwell", grad ? "must be positive" : "must be a positive time");
+    o->spokes = g->seen_spokes ? (size_t)g->spokes : 0;
+    o->tiny = g->seen_tiny ? clamp_int(g->tiny) : 0;
+    o->readout_oversampling = g->seen_ros ? clamp_int(g->ros) : 0;
+    if (g->seen_dwell)
+        o->dwell_s = g->dwell;
+    if (g->seen_te)
+        o->te_s = g->te;
+    if (g->seen_fov)
+        o->fov_m = g->fov;
+    if (g->seen_gmax)
+        o->gmax = g->gmax;
+    if (g->seen_slew)
+        o->slew = g->slew;
+    if (g->seen_raster)
+        o->raster = g->raster;
+    if (g->seen_interleaves)
+        o->interleaves = clamp_int(g->interleaves);
+    if (g->seen_shots)
+        o->shots = clamp_int(g->shots);
+    if (g->seen_fraction)
+        o->fraction = g->fraction;
+    return -1;
+}
+
+/* ---- reports after generation ----------------------------------------------------------- */
+
+/* After writing the pattern: print the analysis, write --json / --psf / --png. */
+static int report_generated(const gen_opts *g, kw_pattern_report *a)
+{
+    kw_pattern_cli_text(stdout, a);
+    int rc;
+    if (g->json) {
+        cJSON *j = kw_pattern_cli_json(a);
+        kw_status st = kw_json_write(g->json, j);
+        cJSON_Delete(j);
+        if (st)
+            return kw_cli_status(st, "json");
+    }
+    if (g->psf && (rc = kw_pattern_cli_psf_png(g->psf, a)) >= 0)
+        return rc;
+    if (g->png) {
+        kw_status st = kw_pattern_cli_gray_png(g->png, a->r.picture, a->r.pic_h, a->r.pic_w);
+        if (st)
+            return kw_cli_status(st, "png");
+    }
+    return KW_EXIT_OK;
+}
+
+static void report_names(const gen_opts *g, kw_pattern_report *a)
 {
     memset(a, 0, sizeof *a);
     snprintf(a->name, sizeof a->name, "%s", g->out ? base_name(g->out) : g->kind);
     snprintf(a->kind, sizeof a->kind, "%s", g->kind);
-    size_t m = g->psf_size > 0 ? (size_t)g->psf_size : (ti->n < 128 ? ti->n : 128);
-    return analyse_traj(a, k, ti, m);
 }
+
+/* ---- masks ------------------------------------------------------------------------------ */
+
+static int mask_sidecar(const gen_opts *g, const kw_pattern_options *o,
+                        const kw_pattern_info *in, const char *sp)
+{
+    const int plane = in->plane;
+    const size_t nx = o->dims[o->ndim - 1], ny = in->density_shape[1],
+                 nz = in->density_shape[0];
+    cJSON *j = cJSON_CreateObject();
+    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+    cJSON_AddStringToObject(j, "kind", "mask");
+    cJSON_AddStringToObject(j, "layout", "cartesian");
+    cJSON_AddStringToObject(j, "pattern_kind", g->kind);
+    cJSON_AddStringToObject(j, "plane", plane ? "kz-ky" : "ky-kx");
+    double sh[2] = {(double)in->shape[0], (double)in->shape[1]};
+    kw_json_add_vec(j, "shape", sh, 2);
+    double mt[3] = {(double)nx, (double)ny, (double)nz};
+    kw_json_add_vec(j, "matrix", mt, plane ? 3 : 2);
+    add_num(j, "acceleration", in->acceleration);
+    kw_json_add_vec(j, "accel_requested", in->accel_requested, plane ? 2 : 1);
+    add_num(j, "acs_lines", in->acs_lines);
+    double ab[2] = {(double)in->acs_requested[0], (double)in->acs_requested[1]};
+    kw_json_add_vec(j, "acs_requested", ab, plane ? 2 : 1);
+    add_num(j, "fraction", o->fraction);
+    cJSON_AddBoolToObject(j, "ellipse", o->ellipse);
+    if (o->kind == KW_PATTERN_RANDOM || o->kind == KW_PATTERN_POISSON)
+        add_num(j, "density_power", o->power);
+    if (o->kind == KW_PATTERN_LATTICE)
+        add_num(j, "shift", (double)o->shift);
+    add_num(j, "seed", (double)g->seed);
+    add_num(j, "sampled_points", (double)in->sampled_points);
+    kw_status st = kw_json_write(sp, j);
+    cJSON_Delete(j);
+    return st ? kw_cli_status(st, "sidecar") : -1;
+}
+
+static int mask_files(const gen_opts *g, const kw_pattern_options *o, const kw_pattern *p)
+{
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    int rc = -1;
+    if (g->out) {
+        kw_array arr = {.dtype = KW_U8, .ndim = 2, .dims = {in->shape[0], in->shape[1]},
+                        .data = (void *)kw_pattern_mask(p)};
+        kw_status st = kw_npy_write(g->out, &arr);
+        if (st)
+            return kw_cli_status(st, "out");
+    }
+    if (g->density) {
+        kw_array pa = {.dtype = KW_F32, .ndim = 2,
+                       .dims = {in->density_shape[0], in->density_shape[1]},
+                       .data = (void *)kw_pattern_density(p)};
+        kw_status st = kw_npy_write(g->density, &pa);
+        if (st)
+            return kw_cli_status(st, "density");
+    }
+    char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
+    if (sp)
+        rc = mask_sidecar(g, o, in, sp);
+    free(sp);
+    return rc;
+}
+
+static int gen_mask(const gen_opts *g, kw_pattern_options *o)
+{
+    int rc = cartesian_options(g, o, o->ndim == 3);
+    if (rc >= 0)
+        return rc;
+    kw_pattern *p;
+    kw_status st = kw_pattern_create(&p, o);
+    if (st)
+        return pattern_fail(st, "pattern");
+    rc = mask_files(g, o, p);
+    if (rc < 0) {
+        const kw_pattern_info *in = kw_pattern_info_of(p);
+        const size_t n = in->shape[0] * in->shape[1];
+        const uint8_t *m = kw_pattern_mask(p);
+        float *w = malloc(n * sizeof *w);
+        kw_pattern_report a;
+        report_names(g, &a);
+        if (!w) {
+            st = kw_set_error(KW_ENOMEM, "out of memory");
+        } else {
+            for (size_t i = 0; i < n; i++)
+                w[i] = m[i];
+            st = kw_pattern_analyse_mask(&a.r, w, in->shape[0], in->shape[1], in->plane);
+        }
+        rc = st ? kw_cli_status(st, "analyse") : report_generated(g, &a);
+        kw_pattern_analysis_free(&a.r);
+        free(w);
+    }
+    kw_pattern_destroy(p);
+    return rc;
+}
+
+/* ---- trajectories ----------------------------------------------------------------------- */
 
 /* Write a trajectory, its sample times and start its sidecar (the keys
  * every trajectory has). Returns the sidecar object to complete, or NULL
  * with *rc set (an exit code) when a file could not be written, or NULL
  * with *rc = -1 when no --out was given. *tp and *sp receive the times and
  * sidecar file names (free them). */
-static cJSON *traj_write_begin(const gen_opts *g, const kw_array *k, const kw_array *t,
-                               const char *const *columns, int *rc, char **tp, char **sp)
+static cJSON *traj_write_begin(const gen_opts *g, const kw_pattern *p, int *rc, char **tp,
+                               char **sp)
 {
+    static const char *const columns[3] = {"kx", "ky", "kz"};
+    const kw_pattern_info *in = kw_pattern_info_of(p);
     *rc = -1;
     *tp = *sp = NULL;
     if (!g->out)
         return NULL;
     *tp = g->times ? strdup(g->times) : times_path(g->out);
-    kw_status st = kw_npy_write(g->out, k);
+    kw_array k = {.dtype = KW_F32, .ndim = 2, .dims = {in->shape[0], in->shape[1]},
+                  .data = (void *)kw_pattern_trajectory(p)};
+    kw_array t = {.dtype = KW_F32, .ndim = 1, .dims = {in->shape[0]},
+                  .data = (void *)kw_pattern_times(p)};
+    kw_status st = kw_npy_write(g->out, &k);
     if (!st && *tp)
-        st = kw_npy_write(*tp, t);
+        st = kw_npy_write(*tp, &t);
     if (st) {
         *rc = kw_cli_status(st, "out");
         return NULL;
@@ -1205,10 +391,10 @@ static cJSON *traj_write_begin(const gen_opts *g, const kw_array *k, const kw_ar
     cJSON_AddStringToObject(j, "kind", "trajectory");
     cJSON_AddStringToObject(j, "layout", "noncartesian");
     cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-    double sh[2] = {(double)k->dims[0], (double)k->dims[1]};
+    double sh[2] = {(double)in->shape[0], (double)in->shape[1]};
     kw_json_add_vec(j, "shape", sh, 2);
     cJSON *cols = cJSON_AddArrayToObject(j, "columns");
-    for (size_t i = 0; i < k->dims[1]; i++)
+    for (size_t i = 0; i < in->shape[1]; i++)
         cJSON_AddItemToArray(cols, cJSON_CreateString(columns[i]));
     cJSON_AddStringToObject(j, "units", "cycles/FOV");
     return j;
@@ -1224,308 +410,258 @@ static int traj_write_end(cJSON *j, const char *sp, const char *tp)
     return st ? kw_cli_status(st, "sidecar") : -1;
 }
 
-static int gen_traj(const gen_opts *g, kw_traj_kind kind, const size_t *mat, int nmat)
+static void radial_sidecar(cJSON *j, const kw_pattern_options *o, const kw_pattern_info *in)
 {
-    kw_traj_opts o = {0};
-    o.kind = kind;
-    size_t nx = mat[0], ny = nmat > 1 ? mat[1] : mat[0];
-    if (nx != ny)
-        return kw_cli_fail("matrix", "radial trajectories need a square in-plane matrix "
-                                     "(got %zux%zu)", nx, ny);
-    if (kind == KW_TRAJ_STACK_OF_STARS && nmat < 3)
-        return kw_cli_fail("matrix", "a stack of stars needs NxNxNZ");
-    if (kind != KW_TRAJ_STACK_OF_STARS && nmat > 2)
-        return kw_cli_fail("matrix", "--kind %s is 2-D (use stack-of-stars for 3-D)", g->kind);
-    if (g->seen_accel || g->seen_acs || g->seen_fraction || g->ellipse)
-        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                           : g->seen_fraction ? "fraction" : "ellipse",
-                           "not used by --kind %s (set --spokes)", g->kind);
-    o.n = nx;
-    o.nz = nmat > 2 ? mat[2] : 1;
-    if (g->seen_spokes && (g->spokes < 1 || g->spokes > 10000000))
-        return kw_cli_fail("spokes", "%ld outside 1..10000000", g->spokes);
-    o.spokes = g->seen_spokes ? (size_t)g->spokes : kw_traj_nyquist_spokes(nx);
-    o.tiny = kind == KW_TRAJ_GOLDEN ? (g->seen_tiny ? (int)g->tiny : 1)
-                                    : (g->seen_tiny ? (int)g->tiny : 0);
-    if (g->seen_tiny && (g->tiny < 1 || g->tiny > 1000))
-        return kw_cli_fail("tiny", "%ld outside 1..1000", g->tiny);
-    if (g->seen_ros && (g->ros < 1 || g->ros > 4))
-        return kw_cli_fail("readout-oversampling", "%ld outside 1..4", g->ros);
-    o.oversampling = g->seen_ros ? (int)g->ros : 1;
-    /* dwell: the time per image pixel; the ADC samples every dwell / F */
-    o.dwell_s = g->seen_dwell ? g->dwell : 1.0 / (DEFAULT_BW_PER_PIXEL * (double)nx);
-    o.te_s = g->seen_te ? g->te : 0.5 * (double)nx * o.dwell_s;
-    size_t ns;
-    int nd;
-    kw_status st = kw_traj_size(&o, &ns, &nd);
-    if (st) {
-        const char *why = kw_last_error();
-        const char *colon = strchr(why, ':');
-        char field[32] = "pattern";
-        if (colon && (size_t)(colon - why) < sizeof field) {
-            memcpy(field, why, (size_t)(colon - why));
-            field[colon - why] = 0;
-            return kw_cli_fail(field, "%s", colon + 2);
-        }
-        return kw_cli_status(st, "trajectory");
+    const size_t nx = o->dims[o->ndim - 1];
+    double mt[3] = {(double)nx, (double)nx, (double)in->partitions};
+    kw_json_add_vec(j, "matrix", mt, (int)in->shape[1]);
+    add_num(j, "spokes", (double)in->spokes);
+    add_num(j, "partitions", (double)in->partitions);
+    add_num(j, "readout_samples", (double)in->readout_samples);
+    add_num(j, "readout_oversampling", in->oversampling);
+    add_num(j, "readouts", (double)in->readouts);
+    add_num(j, "nyquist_spokes", (double)in->nyquist_spokes);
+    add_num(j, "acceleration", in->acceleration);
+    add_num(j, "angle_increment_deg", in->angle_increment_deg);
+    if (in->tiny >= 1)
+        add_num(j, "tiny_golden_order", in->tiny);
+    else
+        cJSON_AddNullToObject(j, "tiny_golden_order");
+    add_num(j, "dwell_s", in->dwell_s); /* ADC: between samples */
+    add_num(j, "dwell_per_pixel_s", in->dwell_per_pixel_s);
+    add_num(j, "readout_duration_s", in->readout_duration_s);
+    add_num(j, "te_s", in->te_s);
+}
+
+static void gradient_sidecar(cJSON *j, const kw_pattern_options *o, const kw_pattern_info *in,
+                             const char *tp)
+{
+    const int spiral = o->kind == KW_PATTERN_SPIRAL;
+    double mt[2] = {(double)o->dims[1], (double)o->dims[0]};
+    kw_json_add_vec(j, "matrix", mt, 2);
+    double fv[2] = {in->fov_m, in->fov_m};
+    kw_json_add_vec(j, "fov_m", fv, 2);
+    add_num(j, "readout_samples", (double)in->readout_samples);
+    add_num(j, "readouts", (double)in->readouts);
+    if (spiral) {
+        add_num(j, "interleaves", in->interleaves);
+        add_num(j, "readout_s", in->spiral_readout_s);
+        add_num(j, "gmax_design_T_per_m", in->gmax_design);
+        add_num(j, "slew_design_T_per_m_per_s", in->slew_design);
+    } else {
+        add_num(j, "shots", in->shots);
+        add_num(j, "fraction", in->epi_fraction);
+        add_num(j, "echo_spacing_s", in->echo_spacing_s);
+        add_num(j, "train_s", in->train_s);
+        add_num(j, "center_time_s", in->center_time_s);
     }
-    kw_array k = {0}, t = {0};
-    size_t kd[2] = {ns, (size_t)nd}, td[1] = {ns};
-    st = kw_array_alloc(&k, KW_F32, 2, kd);
-    if (!st)
-        st = kw_array_alloc(&t, KW_F32, 1, td);
-    if (!st)
-        st = kw_traj_make(&o, k.data, t.data);
-    if (st) {
-        kw_array_free(&k);
-        kw_array_free(&t);
-        return kw_cli_status(st, "trajectory");
+    add_num(j, "dwell_s", in->dwell_s);
+    add_num(j, "gmax_T_per_m", in->gmax);
+    add_num(j, "slew_T_per_m_per_s", in->slew);
+    add_num(j, "raster_s", in->raster);
+    add_num(j, "te_s", in->te_s); /* null without --te */
+    /* "times" here and again from traj_write_end(): the files have always
+     * carried it twice; kept for byte-identical sidecars */
+    cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
+    cJSON_AddStringToObject(j, "times_origin", in->times_origin);
+}
+
+/* the lines a trajectory's report starts with */
+static void traj_lines(const kw_pattern_options *o, const kw_pattern_info *in)
+{
+    if (o->kind == KW_PATTERN_SPIRAL) {
+        printf("  spiral                  %d interleaves, %zu samples each, readout "
+               "%.3f ms (design |G| %.2f mT/m, slew %.1f T/m/s)\n", in->interleaves,
+               in->readout_samples, in->spiral_readout_s * 1e3, in->gmax_design * 1e3,
+               in->slew_design);
+    } else if (o->kind == KW_PATTERN_EPI) {
+        printf("  EPI                     %d shot(s), %d lines each, echo spacing "
+               "%.3f ms, train %.3f ms, k = 0 at %.3f ms\n", in->shots,
+               in->lines_per_shot, in->echo_spacing_s * 1e3, in->train_s * 1e3,
+               in->center_time_s * 1e3);
+    } else {
+        printf("  angle increment         %.6f deg (%s)\n", in->angle_increment_deg,
+               in->tiny == 1 ? "golden angle 180/phi" : in->tiny > 1 ? "tiny golden angle"
+                                                                    : "uniform");
+        printf("  readout                 %zu samples (oversampling %d: %g cycle/FOV apart), "
+               "ADC dwell %g us, %g us per pixel, duration %g ms, k = 0 at %g ms\n",
+               in->readout_samples, in->oversampling, 1.0 / in->oversampling,
+               in->dwell_s * 1e6, in->dwell_per_pixel_s * 1e6, in->readout_duration_s * 1e3,
+               in->te_s * 1e3);
+        return;
     }
+    printf("  limits                  %.1f mT/m, %.1f T/m/s, raster %g us, dwell %g us\n",
+           in->gmax * 1e3, in->slew, in->raster * 1e6, in->dwell_s * 1e6);
+}
+
+static int traj_report(const gen_opts *g, const kw_pattern_options *o, const kw_pattern *p)
+{
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    const int radial = o->kind != KW_PATTERN_SPIRAL && o->kind != KW_PATTERN_EPI;
+    kw_pattern_traj_desc d = {
+        .n = o->dims[o->ndim - 1], .readout = in->readout_samples, .radial = radial,
+        .weights = radial ? KW_PATTERN_WEIGHTS_RADIAL
+                   : o->kind == KW_PATTERN_SPIRAL ? KW_PATTERN_WEIGHTS_PIPE
+                                                  : KW_PATTERN_WEIGHTS_NONE,
+        .oversampling = radial ? in->oversampling : 1,
+        .psf_size = g->psf_size > 0 ? (size_t)g->psf_size : 0};
+    kw_pattern_report a;
+    report_names(g, &a);
+    kw_status st = kw_pattern_analyse_trajectory(&a.r, kw_pattern_trajectory(p), in->shape[0],
+                                                 (int)in->shape[1], &d, kw_cli_progress, NULL);
+    kw_cli_progress_done();
     int rc;
-    char *tp, *sp;
-    static const char *const cn[3] = {"kx", "ky", "kz"};
-    cJSON *j = traj_write_begin(g, &k, &t, cn, &rc, &tp, &sp);
-    if (j) {
-        double mt[3] = {(double)nx, (double)nx, (double)o.nz};
-        kw_json_add_vec(j, "matrix", mt, nd);
-        add_num(j, "spokes", (double)o.spokes);
-        add_num(j, "partitions", (double)o.nz);
-        add_num(j, "readout_samples", (double)o.oversampling * (double)o.n);
-        add_num(j, "readout_oversampling", o.oversampling);
-        add_num(j, "readouts", (double)(o.spokes * o.nz));
-        add_num(j, "nyquist_spokes", (double)kw_traj_nyquist_spokes(nx));
-        add_num(j, "acceleration", KW_PI * (double)nx / 2.0 / (double)o.spokes);
-        if (o.tiny >= 1) {
-            add_num(j, "angle_increment_deg", kw_traj_golden_angle(o.tiny) * 180.0 / KW_PI);
-            add_num(j, "tiny_golden_order", o.tiny);
-        } else {
-            add_num(j, "angle_increment_deg", 180.0 / (double)o.spokes);
-            cJSON_AddNullToObject(j, "tiny_golden_order");
-        }
-        add_num(j, "dwell_s", o.dwell_s / o.oversampling); /* ADC: between samples */
-        add_num(j, "dwell_per_pixel_s", o.dwell_s);
-        add_num(j, "readout_duration_s", (double)o.n * o.dwell_s);
-        add_num(j, "te_s", o.te_s);
-        rc = traj_write_end(j, sp, tp);
+    if (st) {
+        rc = kw_cli_status(st, "analyse");
+    } else {
+        traj_lines(o, in);
+        rc = report_generated(g, &a);
+        printf("%s\n", KW_SAFETY_CAUTION);
     }
-    free(sp);
-    free(tp);
-    if (rc < 0) {
-        analysis a;
-        traj_info ti = {.n = nx, .nz = o.nz, .readout = (size_t)o.oversampling * nx,
-                        .spokes = o.spokes, .ndim = nd, .radial = 1, .weights = W_RADIAL,
-                        .oversampling = o.oversampling};
-        st = analyse_generated(g, &k, &ti, &a);
-        if (st)
-            rc = kw_cli_status(st, "analyse");
-        else {
-            printf("  angle increment         %.6f deg (%s)\n",
-                   o.tiny >= 1 ? kw_traj_golden_angle(o.tiny) * 180.0 / KW_PI
-                               : 180.0 / (double)o.spokes,
-                   o.tiny == 1 ? "golden angle 180/phi" : o.tiny > 1 ? "tiny golden angle"
-                                                                     : "uniform");
-            printf("  readout                 %zu samples (oversampling %d: %g cycle/FOV apart), "
-                   "ADC dwell %g us, %g us per pixel, duration %g ms, k = 0 at %g ms\n",
-                   (size_t)o.oversampling * o.n, o.oversampling, 1.0 / o.oversampling,
-                   o.dwell_s / o.oversampling * 1e6, o.dwell_s * 1e6,
-                   (double)o.n * o.dwell_s * 1e3, o.te_s * 1e3);
-            rc = report_generated(g, &a);
-            printf("%s\n", KW_SAFETY_CAUTION);
-        }
-        analysis_free(&a);
-    }
-    kw_array_free(&k);
-    kw_array_free(&t);
+    kw_pattern_analysis_free(&a.r);
     return rc;
 }
 
-/* Spiral (interleaved Archimedean) and EPI from the planner's gradient
- * design: the trajectory the hardware plays under --gmax / --slew, with the
- * ADC sample times. */
-static int gen_gradient(const gen_opts *g, int spiral, const size_t *mat, int nmat)
+static int gen_traj(const gen_opts *g, kw_pattern_options *o)
 {
-    size_t nx = mat[0], ny = nmat > 1 ? mat[1] : mat[0];
-    if (nmat > 2)
-        return kw_cli_fail("matrix", "--kind %s is 2-D: NX or NXxNY", g->kind);
-    if (nx != ny)
-        return kw_cli_fail("matrix", "%s trajectories here need a square matrix (got %zux%zu)",
-                           g->kind, nx, ny);
-    if (nx < 8 || nx > 1024 || nx % 2)
-        return kw_cli_fail("matrix", "N = %zu outside 8..1024 or odd", nx);
-    if (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny)
-        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                           : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
-                           "not used by --kind %s", g->kind);
-    if (spiral && (g->seen_shots || g->seen_fraction))
-        return kw_cli_fail(g->seen_shots ? "shots" : "fraction", "not used by --kind spiral");
-    if (!spiral && g->seen_interleaves)
-        return kw_cli_fail("interleaves", "not used by --kind epi (use --shots)");
-    kw_gradient_limits lim = {g->seen_gmax ? g->gmax : DEFAULT_GMAX,
-                              g->seen_slew ? g->slew : DEFAULT_SLEW,
-                              g->seen_raster ? g->raster : DEFAULT_RASTER};
-    if (!(lim.gmax_T_per_m > 0) || !(lim.slew_T_per_m_per_s > 0) || !(lim.raster_s > 0))
-        return kw_cli_fail(!(lim.gmax_T_per_m > 0) ? "gmax" : !(lim.slew_T_per_m_per_s > 0)
-                                                              ? "slew" : "raster",
-                           "must be positive");
-    double fov = g->seen_fov ? g->fov : DEFAULT_FOV_M;
-    if (!(fov > 0))
-        return kw_cli_fail("fov", "must be positive");
-    double dwell = g->seen_dwell ? g->dwell : DEFAULT_FAST_DWELL;
-    if (!(dwell > 0))
-        return kw_cli_fail("dwell", "must be positive");
-    kw_array k = {0}, t = {0};
-    size_t readout = 0, readouts = 0, ns = 0;
-    double extra[4] = {0};
-    kw_status st;
-    int interleaves = 0;
-    kw_epi_spec es;
-    kw_epi_info ei;
-    if (spiral) {
-        kw_spiral_spec sp = {fov, (int)nx, 1, dwell};
-        kw_spiral_info si;
-        if (g->seen_interleaves) {
-            if (g->interleaves < 1 || g->interleaves > 4096)
-                return kw_cli_fail("interleaves", "%ld outside 1..4096", g->interleaves);
-            sp.interleaves = (int)g->interleaves;
-            st = kw_spiral_size(&sp, &lim, &si);
-        } else {
-            st = kw_spiral_interleaves_for(&sp, &lim, DEFAULT_MAX_READOUT, &sp.interleaves, &si);
-        }
-        if (st)
-            return kw_cli_status(st, "spiral");
-        interleaves = sp.interleaves;
-        readout = si.samples;
-        readouts = (size_t)sp.interleaves;
-        ns = readout * readouts;
-        size_t kd[2] = {ns, 2}, td[1] = {ns};
-        st = kw_array_alloc(&k, KW_F32, 2, kd);
-        if (!st)
-            st = kw_array_alloc(&t, KW_F32, 1, td);
-        if (!st)
-            st = kw_spiral_design(&sp, &lim, &si, NULL, NULL, k.data, t.data);
-        if (!st) {
-            float *tv = t.data;
-            for (size_t r = 1; r < readouts; r++)
-                memcpy(tv + r * readout, tv, readout * sizeof *tv);
-            /* The design reaches k-max = N/2 exactly; the sampled grid is
-             * [-N/2, N/2) (a point at +N/2 is the same frequency as -N/2 on
-             * the image grid), so samples landing on +N/2 are moved inside by
-             * one float step (1e-5 cycles/FOV at N = 256). */
-            float *kv = k.data;
-            const float kmax[2] = {(float)nx / 2.0f, (float)ny / 2.0f};
-            for (size_t i = 0; i < readouts * readout; i++)
-                for (int c = 0; c < 2; c++)
-                    if (kv[2 * i + c] >= kmax[c])
-                        kv[2 * i + c] = nextafterf(kmax[c], 0.0f);
-        }
-        extra[0] = si.readout_s;
-        extra[1] = si.gmax_design_T_per_m;
-        extra[2] = si.slew_design_T_per_m_per_s;
-    } else {
-        if (g->seen_shots && (g->shots < 1 || g->shots > (long)ny))
-            return kw_cli_fail("shots", "%ld outside 1..%zu", g->shots, ny);
-        es = (kw_epi_spec){{fov, fov}, {(int)nx, (int)ny}, dwell,
-                           g->seen_shots ? (int)g->shots : 1,
-                           g->seen_fraction ? g->fraction : 1.0};
-        if (!(es.partial_fourier > 0.5 && es.partial_fourier <= 1.0))
-            return kw_cli_fail("fraction", "%g outside (0.5, 1]", es.partial_fourier);
-        st = kw_epi_size(&es, &lim, &ei);
-        if (st)
-            return kw_cli_status(st, "epi");
-        readout = nx;
-        readouts = ei.lines_per_shot * (size_t)es.shots;
-        ns = ei.samples_per_shot * (size_t)es.shots;
-        size_t kd[2] = {ns, 2}, td[1] = {ns};
-        st = kw_array_alloc(&k, KW_F32, 2, kd);
-        if (!st)
-            st = kw_array_alloc(&t, KW_F32, 1, td);
-        if (!st)
-            st = kw_epi_design(&es, &lim, &ei, k.data, t.data);
-        extra[0] = ei.echo_spacing_s;
-        extra[1] = ei.train_s;
-        extra[2] = ei.center_time_s;
-    }
-    if (st) {
-        kw_array_free(&k);
-        kw_array_free(&t);
-        return kw_cli_status(st, g->kind);
-    }
-    if (g->seen_te) { /* times from the excitation: k = 0 at TE */
-        double origin = spiral ? 0.0 : extra[2];
-        if (g->te < origin)
-            return kw_array_free(&k), kw_array_free(&t),
-                   kw_cli_fail("te", "%g s is earlier than the start of k = 0 (%g s into "
-                                     "the readout)", g->te, origin);
-        float *tv = t.data;
-        for (size_t i = 0; i < ns; i++)
-            tv[i] = (float)((double)tv[i] + g->te - origin);
-    }
-    int rc;
+    int rc = traj_options(g, o);
+    if (rc >= 0)
+        return rc;
+    const int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
+    kw_pattern *p;
+    kw_status st = kw_pattern_create(&p, o);
+    if (st)
+        return pattern_fail(st, grad ? g->kind : "trajectory");
     char *tp, *sp;
-    static const char *const cn[2] = {"kx", "ky"};
-    cJSON *j = traj_write_begin(g, &k, &t, cn, &rc, &tp, &sp);
+    cJSON *j = traj_write_begin(g, p, &rc, &tp, &sp);
     if (j) {
-        double mt[2] = {(double)nx, (double)ny};
-        kw_json_add_vec(j, "matrix", mt, 2);
-        double fv[2] = {fov, fov};
-        kw_json_add_vec(j, "fov_m", fv, 2);
-        add_num(j, "readout_samples", (double)readout);
-        add_num(j, "readouts", (double)readouts);
-        if (spiral) {
-            add_num(j, "interleaves", interleaves);
-            add_num(j, "readout_s", extra[0]);
-            add_num(j, "gmax_design_T_per_m", extra[1]);
-            add_num(j, "slew_design_T_per_m_per_s", extra[2]);
-        } else {
-            add_num(j, "shots", es.shots);
-            add_num(j, "fraction", es.partial_fourier);
-            add_num(j, "echo_spacing_s", extra[0]);
-            add_num(j, "train_s", extra[1]);
-            add_num(j, "center_time_s", extra[2]);
-        }
-        add_num(j, "dwell_s", dwell);
-        add_num(j, "gmax_T_per_m", lim.gmax_T_per_m);
-        add_num(j, "slew_T_per_m_per_s", lim.slew_T_per_m_per_s);
-        add_num(j, "raster_s", lim.raster_s);
-        if (g->seen_te)
-            add_num(j, "te_s", g->te);
+        if (grad)
+            gradient_sidecar(j, o, kw_pattern_info_of(p), tp);
         else
-            cJSON_AddNullToObject(j, "te_s");
-        cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
-        cJSON_AddStringToObject(j, "times_origin", g->seen_te ? "excitation"
-                                                   : spiral ? "readout start"
-                                                            : "start of each shot's train");
+            radial_sidecar(j, o, kw_pattern_info_of(p));
         rc = traj_write_end(j, sp, tp);
     }
     free(sp);
     free(tp);
-    if (rc < 0) {
-        analysis a;
-        traj_info ti = {.n = nx, .nz = 1, .readout = readout, .spokes = readouts, .ndim = 2,
-                        .radial = 0, .weights = spiral ? W_PIPE : W_NONE};
-        st = analyse_generated(g, &k, &ti, &a);
-        if (st)
-            rc = kw_cli_status(st, "analyse");
-        else {
-            if (spiral)
-                printf("  spiral                  %d interleaves, %zu samples each, readout "
-                       "%.3f ms (design |G| %.2f mT/m, slew %.1f T/m/s)\n", interleaves,
-                       readout, extra[0] * 1e3, extra[1] * 1e3, extra[2]);
-            else
-                printf("  EPI                     %d shot(s), %zu lines each, echo spacing "
-                       "%.3f ms, train %.3f ms, k = 0 at %.3f ms\n", es.shots,
-                       ei.lines_per_shot, extra[0] * 1e3, extra[1] * 1e3, extra[2] * 1e3);
-            printf("  limits                  %.1f mT/m, %.1f T/m/s, raster %g us, dwell %g us\n",
-                   lim.gmax_T_per_m * 1e3, lim.slew_T_per_m_per_s, lim.raster_s * 1e6,
-                   dwell * 1e6);
-            rc = report_generated(g, &a);
-            printf("%s\n", KW_SAFETY_CAUTION);
-        }
-        analysis_free(&a);
-    }
-    kw_array_free(&k);
-    kw_array_free(&t);
+    if (rc < 0)
+        rc = traj_report(g, o, p);
+    kw_pattern_destroy(p);
     return rc;
+}
+
+/* ---- --analyse and --compare -------------------------------------------------------------- */
+
+static int run_compare(const gen_opts *g, const char **files, int nfiles)
+{
+    if (g->kind || g->analyse)
+        return kw_cli_fail("compare", "cannot be combined with --kind or --analyse");
+    if (nfiles < 1)
+        return kw_cli_fail("compare", "no files given");
+    kw_pattern_report as[MAX_COMPARE];
+    memset(as, 0, sizeof as);
+    int n = 0, rc = -1;
+    for (; n < nfiles; n++) {
+        rc = kw_pattern_cli_analyse_file(files[n], &as[n], g->psf_size);
+        if (rc >= 0)
+            break;
+    }
+    if (rc < 0) {
+        kw_pattern_cli_compare_table(stdout, as, n);
+        if (g->json) {
+            cJSON *arr = cJSON_CreateArray();
+            for (int i = 0; i < n; i++)
+                cJSON_AddItemToArray(arr, kw_pattern_cli_json(&as[i]));
+            kw_status st = kw_json_write(g->json, arr);
+            cJSON_Delete(arr);
+            if (st)
+                rc = kw_cli_status(st, "json");
+        }
+        if (rc < 0 && g->png)
+            rc = kw_pattern_cli_compare_png(g->png, as, n);
+    }
+    for (int i = 0; i <= n && i < MAX_COMPARE; i++)
+        kw_pattern_analysis_free(&as[i].r);
+    return rc < 0 ? KW_EXIT_OK : rc;
+}
+
+static int run_analyse(const gen_opts *g)
+{
+    if (g->kind)
+        return kw_cli_fail("analyse", "cannot be combined with --kind");
+    kw_pattern_report a;
+    int rc = kw_pattern_cli_analyse_file(g->analyse, &a, g->psf_size);
+    if (rc < 0) {
+        kw_pattern_cli_text(stdout, &a);
+        if (g->json) {
+            cJSON *j = kw_pattern_cli_json(&a);
+            kw_status st = kw_json_write(g->json, j);
+            cJSON_Delete(j);
+            if (st)
+                rc = kw_cli_status(st, "json");
+        }
+        if (rc < 0 && g->psf)
+            rc = kw_pattern_cli_psf_png(g->psf, &a);
+        if (rc < 0 && g->png) {
+            kw_status st = kw_pattern_cli_gray_png(g->png, a.r.picture, a.r.pic_h, a.r.pic_w);
+            if (st)
+                rc = kw_cli_status(st, "png");
+        }
+    }
+    kw_pattern_analysis_free(&a.r);
+    return rc < 0 ? KW_EXIT_OK : rc;
+}
+
+/* --kind and --matrix into the options; then the mask or the trajectory */
+static int run_generate(const gen_opts *g)
+{
+    if (!g->kind)
+        return kw_cli_fail("kind", "missing (or give --analyse FILE or --compare FILES)");
+    if (!g->matrix)
+        return kw_cli_fail("matrix", "missing (e.g. --matrix 256x256)");
+    size_t mat[3];
+    int nmat;
+    int rc = parse_sizes("matrix", g->matrix, mat, 3, &nmat);
+    if (rc >= 0)
+        return rc;
+    kw_pattern_options o;
+    kw_pattern_options_init(&o);
+    int k = 0;
+    while (kw_pattern_kind_name((kw_pattern_kind)k) &&
+           strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
+        k++;
+    if (!kw_pattern_kind_name((kw_pattern_kind)k))
+        return kw_cli_fail("kind", "unknown kind '%s' (see --help)", g->kind);
+    o.kind = (kw_pattern_kind)k;
+    /* --matrix NXxNY[xNZ] into C order */
+    o.ndim = nmat > 2 ? 3 : 2;
+    o.dims[o.ndim - 1] = mat[0];
+    o.dims[o.ndim - 2] = nmat > 1 ? mat[1] : mat[0];
+    if (nmat > 2)
+        o.dims[0] = mat[2];
+    const int grad = o.kind == KW_PATTERN_SPIRAL || o.kind == KW_PATTERN_EPI;
+    const int mask = kw_pattern_kind_is_mask(o.kind);
+    if (g->seen_ros && !(o.kind == KW_PATTERN_RADIAL || o.kind == KW_PATTERN_GOLDEN ||
+                         o.kind == KW_PATTERN_STACK_OF_STARS))
+        return kw_cli_fail("readout-oversampling",
+                           "only for --kind radial, golden or stack-of-stars");
+    if (!mask && g->density)
+        return kw_cli_fail("density", "only for Cartesian masks");
+    if (!grad) {
+        const char *hw = g->seen_fov ? "fov" : g->seen_gmax ? "gmax" : g->seen_slew ? "slew"
+                         : g->seen_raster ? "raster" : g->seen_interleaves ? "interleaves"
+                         : g->seen_shots ? "shots" : NULL;
+        if (hw)
+            return kw_cli_fail(hw, "only used by --kind spiral or epi");
+    }
+    if (!mask)
+        return gen_traj(g, &o);
+    if (g->seen_spokes || g->seen_tiny || g->seen_dwell || g->seen_te)
+        return kw_cli_fail(g->seen_spokes ? "spokes" : g->seen_tiny ? "tiny"
+                           : g->seen_dwell ? "dwell" : "te",
+                           "not used by the Cartesian --kind %s", g->kind);
+    if (g->times)
+        return kw_cli_fail("times", "a Cartesian mask has no sample times");
+    return gen_mask(g, &o);
 }
 
 int kw_cmd_pattern(int argc, char **argv)
@@ -1579,111 +715,9 @@ int kw_cmd_pattern(int argc, char **argv)
     if ((g.compare || g.analyse) && g.seen_ros)
         return kw_cli_fail("readout-oversampling", "only when making a trajectory (--kind); "
                            "the analysis reads it from the sidecar");
-    if (g.compare) {
-        if (g.kind || g.analyse)
-            return kw_cli_fail("compare", "cannot be combined with --kind or --analyse");
-        if (nfiles < 1)
-            return kw_cli_fail("compare", "no files given");
-        analysis as[MAX_COMPARE];
-        memset(as, 0, sizeof as);
-        int n = 0;
-        for (; n < nfiles; n++) {
-            rc = analyse_file(files[n], &as[n], g.psf_size);
-            if (rc >= 0)
-                break;
-        }
-        if (rc < 0) {
-            compare_table(stdout, as, n);
-            if (g.json) {
-                cJSON *arr = cJSON_CreateArray();
-                for (int i = 0; i < n; i++)
-                    cJSON_AddItemToArray(arr, analysis_json(&as[i]));
-                kw_status st = kw_json_write(g.json, arr);
-                cJSON_Delete(arr);
-                if (st)
-                    rc = kw_cli_status(st, "json");
-            }
-            if (rc < 0 && g.png)
-                rc = compare_png(g.png, as, n);
-        }
-        for (int i = 0; i <= n && i < MAX_COMPARE; i++)
-            analysis_free(&as[i]);
-        return rc < 0 ? KW_EXIT_OK : rc;
-    }
-    if (g.analyse) {
-        if (g.kind)
-            return kw_cli_fail("analyse", "cannot be combined with --kind");
-        analysis a;
-        rc = analyse_file(g.analyse, &a, g.psf_size);
-        if (rc < 0) {
-            analysis_text(stdout, &a);
-            if (g.json) {
-                cJSON *j = analysis_json(&a);
-                kw_status st = kw_json_write(g.json, j);
-                cJSON_Delete(j);
-                if (st)
-                    rc = kw_cli_status(st, "json");
-            }
-            if (rc < 0 && g.psf)
-                rc = write_psf_png(g.psf, &a);
-            if (rc < 0 && g.png) {
-                kw_status st = write_gray(g.png, a.picture, a.pic_h, a.pic_w);
-                if (st)
-                    rc = kw_cli_status(st, "png");
-            }
-        }
-        analysis_free(&a);
-        return rc < 0 ? KW_EXIT_OK : rc;
-    }
-    if (!g.kind)
-        return kw_cli_fail("kind", "missing (or give --analyse FILE or --compare FILES)");
-    if (!g.matrix)
-        return kw_cli_fail("matrix", "missing (e.g. --matrix 256x256)");
-    size_t mat[3];
-    int nmat;
-    rc = parse_sizes("matrix", g.matrix, mat, 3, &nmat);
-    if (rc >= 0)
-        return rc;
-    if (g.seen_ros && (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi") ||
-                       !strcmp(g.kind, "full") || !strcmp(g.kind, "partial") ||
-                       !strcmp(g.kind, "uniform") || !strcmp(g.kind, "random") ||
-                       !strcmp(g.kind, "poisson") || !strcmp(g.kind, "lattice")))
-        return kw_cli_fail("readout-oversampling",
-                           "only for --kind radial, golden or stack-of-stars");
-    if (!strcmp(g.kind, "spiral") || !strcmp(g.kind, "epi")) {
-        if (g.density)
-            return kw_cli_fail("density", "only for Cartesian masks");
-        return gen_gradient(&g, !strcmp(g.kind, "spiral"), mat, nmat);
-    }
-    static const struct {
-        const char *name;
-        int cart;
-        int k;
-    } kinds[] = {{"full", 1, KW_MASK_FULL},       {"partial", 1, KW_MASK_FULL},
-                 {"uniform", 1, KW_MASK_UNIFORM}, {"random", 1, KW_MASK_RANDOM},
-                 {"poisson", 1, KW_MASK_POISSON}, {"lattice", 1, KW_MASK_LATTICE},
-                 {"radial", 0, KW_TRAJ_RADIAL},   {"golden", 0, KW_TRAJ_GOLDEN},
-                 {"stack-of-stars", 0, KW_TRAJ_STACK_OF_STARS}};
-    for (size_t i = 0; i < sizeof kinds / sizeof kinds[0]; i++) {
-        if (strcmp(g.kind, kinds[i].name) != 0)
-            continue;
-        const char *hw = g.seen_fov ? "fov" : g.seen_gmax ? "gmax" : g.seen_slew ? "slew"
-                         : g.seen_raster ? "raster" : g.seen_interleaves ? "interleaves"
-                         : g.seen_shots ? "shots" : NULL;
-        if (hw)
-            return kw_cli_fail(hw, "only used by --kind spiral or epi");
-        if (kinds[i].cart) {
-            if (g.seen_spokes || g.seen_tiny || g.seen_dwell || g.seen_te)
-                return kw_cli_fail(g.seen_spokes ? "spokes" : g.seen_tiny ? "tiny"
-                                   : g.seen_dwell ? "dwell" : "te",
-                                   "not used by the Cartesian --kind %s", g.kind);
-            if (g.times)
-                return kw_cli_fail("times", "a Cartesian mask has no sample times");
-            return gen_cartesian(&g, (kw_mask_kind)kinds[i].k, mat, nmat);
-        }
-        if (g.density)
-            return kw_cli_fail("density", "only for Cartesian masks");
-        return gen_traj(&g, (kw_traj_kind)kinds[i].k, mat, nmat);
-    }
-    return kw_cli_fail("kind", "unknown kind '%s' (see --help)", g.kind);
+    if (g.compare)
+        return run_compare(&g, files, nfiles);
+    if (g.analyse)
+        return run_analyse(&g);
+    return run_generate(&g);
 }

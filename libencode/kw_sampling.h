@@ -1,8 +1,12 @@
 /* kw_sampling.h: Cartesian undersampling masks over the phase-encode plane.
  *
  * The plane is ny x nz points (C order (nz, ny): row = kz, column = ky); a
- * 2-D acquisition has nz = 1 and its mask is one line of ny phase encodes
- * (the CLI repeats it along the fully sampled readout x into (ny, nx)).
+ * 2-D acquisition has nz = 1. kw_mask_fill() gives the whole mask in C
+ * order, (ny, nx), (nz, ny) or (nz, ny, nx) (the readout x fully sampled);
+ * kw_mask_make() only the (nz, ny) plane (one line of ny points in 2-D).
+ * Failures name the field at fault in kw_last_error_param() ("dims" for
+ * ny / nz, "accel" for accel_y / accel_z, "acs", "fraction", "power",
+ * "ellipse", "kind").
  * Index i along an axis of n points is k = i - n/2 (integer division): k = 0
  * sits at index n/2, as in the rest of kweave.
  *
@@ -60,6 +64,15 @@ KW_API double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz);
  * factor; KW_EINFEASIBLE when the ACS block alone exceeds the sample budget
  * of a random/poisson pattern. Allocates temporary work space itself. */
 KW_API kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob);
+
+/*! kw_mask_fill(): the whole mask in C order, dims[ndim] (slowest first):
+ * (ny, nx) for a 2-D options plane (nz = 1: every ky line repeated along the
+ * fully sampled readout x), (nz, ny) for the ky-kz plane itself, or
+ * (nz, ny, nx) for the plane repeated along x. prob (may be NULL) receives
+ * the plane's probabilities, nz x ny values, as kw_mask_make(). KW_EINVAL
+ * naming "dims" when dims do not match o->ny / o->nz. */
+KW_API kw_status kw_mask_fill(const kw_mask_opts *o, int ndim, const size_t *dims, uint8_t *mask,
+                              float *prob);
 
 /*! kw_poisson_radius(): the exclusion radius (in delta-k) of the Poisson-disc
  * pattern at point (iy, iz) for scale s: r = max(1, s / sqrt(max(q, 1/16)))

@@ -78,7 +78,8 @@ KW_API double kw_traj_angle(const kw_traj_opts *o, size_t r);
 KW_API int kw_traj_oversampling(const kw_traj_opts *o);
 
 /*! kw_traj_size(): samples and columns the options produce (F N spokes nz);
- * KW_ERANGE with a reason for absurd options (N < 2 or odd, no spokes,
+ * KW_ERANGE with a reason, and kw_last_error_param() naming the field ("n",
+ * "nz", "spokes", "tiny", "oversampling", "dwell_s", "te_s"), for absurd options (N < 2 or odd, no spokes,
  * dwell <= 0, oversampling outside 1..4, sizes that overflow or exceed 2^31
  * samples). */
 KW_API kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);

@@ -95,39 +95,39 @@ static int in_acs(const kw_mask_opts *o, size_t iy, size_t iz)
 
 static kw_status check_opts(const kw_mask_opts *o)
 {
-    KW_FAIL_IF(o->ny < 1 || o->nz < 1, KW_EINVAL, "matrix: empty phase-encode plane");
-    KW_FAIL_IF(!(o->fraction > 0.5 && o->fraction <= 1.0), KW_ERANGE,
-               "fraction: %g outside (0.5, 1]", o->fraction);
-    KW_FAIL_IF(!(o->accel_y >= 1.0) || !(o->accel_z >= 1.0) || !isfinite(o->accel_y) ||
+    KW_FAIL_PARAM(o->ny < 1 || o->nz < 1, KW_EINVAL, "dims", "empty phase-encode plane");
+    KW_FAIL_PARAM(!(o->fraction > 0.5 && o->fraction <= 1.0), KW_ERANGE,
+               "fraction", "%g outside (0.5, 1]", o->fraction);
+    KW_FAIL_PARAM(!(o->accel_y >= 1.0) || !(o->accel_z >= 1.0) || !isfinite(o->accel_y) ||
                    !isfinite(o->accel_z),
-               KW_ERANGE, "accel: must be a number >= 1");
-    KW_FAIL_IF(o->accel_y > (double)o->ny, KW_ERANGE,
-               "accel: R %g larger than the matrix (%zu phase encodes)", o->accel_y, o->ny);
-    KW_FAIL_IF(o->nz == 1 && o->accel_z != 1.0, KW_ERANGE,
-               "accel: a 2-D acceleration RYxRZ needs a 3-D matrix");
-    KW_FAIL_IF(o->accel_z > (double)o->nz, KW_ERANGE,
-               "accel: RZ %g larger than the matrix (%zu partitions)", o->accel_z, o->nz);
+               KW_ERANGE, "accel", "must be a number >= 1");
+    KW_FAIL_PARAM(o->accel_y > (double)o->ny, KW_ERANGE,
+               "accel", "R %g larger than the matrix (%zu phase encodes)", o->accel_y, o->ny);
+    KW_FAIL_PARAM(o->nz == 1 && o->accel_z != 1.0, KW_ERANGE,
+               "accel", "a 2-D acceleration RYxRZ needs a 3-D matrix");
+    KW_FAIL_PARAM(o->accel_z > (double)o->nz, KW_ERANGE,
+               "accel", "RZ %g larger than the matrix (%zu partitions)", o->accel_z, o->nz);
     double total = o->accel_y * o->accel_z;
-    KW_FAIL_IF(total > (double)(o->ny * o->nz), KW_ERANGE,
-               "accel: R %g larger than the matrix (%zu points)", total, o->ny * o->nz);
-    KW_FAIL_IF(o->acs_y > o->ny, KW_ERANGE, "acs: %zu larger than the matrix (%zu)",
+    KW_FAIL_PARAM(total > (double)(o->ny * o->nz), KW_ERANGE,
+               "accel", "R %g larger than the matrix (%zu points)", total, o->ny * o->nz);
+    KW_FAIL_PARAM(o->acs_y > o->ny, KW_ERANGE, "acs", "%zu larger than the matrix (%zu)",
                o->acs_y, o->ny);
-    KW_FAIL_IF(o->nz > 1 && o->acs_z > o->nz, KW_ERANGE,
-               "acs: %zu larger than the matrix (%zu partitions)", o->acs_z, o->nz);
-    KW_FAIL_IF(o->nz > 1 && o->acs_z == 0 && o->acs_y > o->nz, KW_ERANGE,
-               "acs: %zu larger than the matrix (%zu partitions)", o->acs_y, o->nz);
-    KW_FAIL_IF(o->ellipse && o->nz == 1, KW_EINVAL,
-               "ellipse: the corner cut-off needs a 3-D (ky-kz) matrix");
-    KW_FAIL_IF(!(o->power >= 0.0) || o->power > 100.0, KW_ERANGE,
-               "power: %g outside [0, 100]", o->power);
+    KW_FAIL_PARAM(o->nz > 1 && o->acs_z > o->nz, KW_ERANGE,
+               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_z, o->nz);
+    KW_FAIL_PARAM(o->nz > 1 && o->acs_z == 0 && o->acs_y > o->nz, KW_ERANGE,
+               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_y, o->nz);
+    KW_FAIL_PARAM(o->ellipse && o->nz == 1, KW_EINVAL,
+               "ellipse", "the corner cut-off needs a 3-D (ky-kz) matrix");
+    KW_FAIL_PARAM(!(o->power >= 0.0) || o->power > 100.0, KW_ERANGE,
+               "power", "%g outside [0, 100]", o->power);
     if (o->kind == KW_MASK_UNIFORM || o->kind == KW_MASK_LATTICE) {
-        KW_FAIL_IF(o->accel_y != floor(o->accel_y) || o->accel_z != floor(o->accel_z),
-                   KW_ERANGE, "accel: %s undersampling needs whole numbers (got %gx%g)",
+        KW_FAIL_PARAM(o->accel_y != floor(o->accel_y) || o->accel_z != floor(o->accel_z),
+                   KW_ERANGE, "accel", "%s undersampling needs whole numbers (got %gx%g)",
                    o->kind == KW_MASK_UNIFORM ? "uniform" : "lattice", o->accel_y,
                    o->accel_z);
     }
     if (o->kind == KW_MASK_LATTICE)
-        KW_FAIL_IF(o->nz == 1, KW_EINVAL, "kind: a lattice (CAIPIRINHA) needs a 3-D matrix");
+        KW_FAIL_PARAM(o->nz == 1, KW_EINVAL, "kind", "a lattice (CAIPIRINHA) needs a 3-D matrix");
     return KW_OK;
 }
 
@@ -170,13 +170,13 @@ static kw_status make_random(const kw_mask_opts *o, uint8_t *mask, float *prob,
     mark_fixed(o, fixed);
     double lo = 0, hi = 1;
     double acs = budget_sum(o, 0.0, fixed);
-    KW_FAIL_IF(acs > target + 1e-9, KW_EINFEASIBLE,
-               "acs: the %g ACS points exceed the budget of %.1f samples for R %g", acs,
+    KW_FAIL_PARAM(acs > target + 1e-9, KW_EINFEASIBLE,
+               "acs", "the %g ACS points exceed the budget of %.1f samples for R %g", acs,
                target, o->accel_y * o->accel_z);
     while (budget_sum(o, hi, fixed) < target && hi < 1e12)
         hi *= 2;
-    KW_FAIL_IF(budget_sum(o, hi, fixed) < target - 1e-6, KW_ERANGE,
-               "accel: R %g cannot be reached inside the allowed region",
+    KW_FAIL_PARAM(budget_sum(o, hi, fixed) < target - 1e-6, KW_ERANGE,
+               "accel", "R %g cannot be reached inside the allowed region",
                o->accel_y * o->accel_z);
     for (int it = 0; it < 200 && hi - lo > 1e-14 * hi; it++) {
         double mid = 0.5 * (lo + hi);
@@ -306,8 +306,8 @@ static kw_status poisson_scale(const kw_mask_opts *o, uint8_t *mask, uint8_t *fi
     size_t nacs = 0;
     for (size_t i = 0; i < n; i++)
         nacs += fixed[i] == 1;
-    KW_FAIL_IF((double)nacs > target + 1e-9, KW_EINFEASIBLE,
-               "acs: the %zu ACS points exceed the budget of %.1f samples for R %g", nacs,
+    KW_FAIL_PARAM((double)nacs > target + 1e-9, KW_EINFEASIBLE,
+               "acs", "the %zu ACS points exceed the budget of %.1f samples for R %g", nacs,
                target, o->accel_y * o->accel_z);
     /* count(s) falls as s grows; bisection in log s */
     double lo = 0.25, hi = (double)(o->ny > o->nz ? o->ny : o->nz);
@@ -406,8 +406,44 @@ kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob)
         break;
     }
     default:
-        st = kw_set_error(KW_EINVAL, "kind: unknown mask kind %d", (int)o->kind);
+        st = kw_set_error_param(KW_EINVAL, "kind", "unknown mask kind %d", (int)o->kind);
     }
     free(fixed);
+    return st;
+}
+
+kw_status kw_mask_fill(const kw_mask_opts *o, int ndim, const size_t *dims, uint8_t *mask,
+                       float *prob)
+{
+    KW_FAIL_IF(!o || !dims || !mask, KW_EINVAL, "mask: NULL argument");
+    KW_FAIL_PARAM(ndim != 2 && ndim != 3, KW_EINVAL, "dims", "ndim %d: a mask is 2-D or 3-D",
+                  ndim);
+    const size_t nx = dims[ndim - 1];
+    /* the plane (nz, ny) repeated along x, the plane itself, or ky lines */
+    size_t ny, nz, rep;
+    if (ndim == 3) {
+        nz = dims[0];
+        ny = dims[1];
+        rep = nx;
+    } else if (o->nz > 1) {
+        nz = dims[0];
+        ny = dims[1];
+        rep = 1;
+    } else {
+        nz = 1;
+        ny = dims[0];
+        rep = nx;
+    }
+    KW_FAIL_PARAM(ny != o->ny || nz != o->nz || rep < 1, KW_EINVAL, "dims",
+                  "mask dims differ from the options' %zu x %zu phase encodes", o->nz, o->ny);
+    const size_t np = ny * nz;
+    uint8_t *plane = rep == 1 ? mask : malloc(np);
+    KW_FAIL_IF(!plane, KW_ENOMEM, "mask: out of memory");
+    kw_status st = kw_mask_make(o, plane, prob);
+    if (!st && rep > 1)
+        for (size_t i = 0; i < np; i++)
+            memset(mask + i * rep, plane[i], rep);
+    if (plane != mask)
+        free(plane);
     return st;
 }

@@ -32,28 +32,28 @@ double kw_traj_angle(const kw_traj_opts *o, size_t r)
 kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim)
 {
     KW_FAIL_IF(!o, KW_EINVAL, "trajectory: NULL options");
-    KW_FAIL_IF(o->n < 2 || o->n % 2, KW_ERANGE, "matrix: radial needs an even N >= 2 (got %zu)",
+    KW_FAIL_PARAM(o->n < 2 || o->n % 2, KW_ERANGE, "n", "radial needs an even N >= 2 (got %zu)",
                o->n);
-    KW_FAIL_IF(o->spokes < 1, KW_ERANGE, "spokes: at least one spoke");
-    KW_FAIL_IF(o->nz < 1, KW_ERANGE, "matrix: no partitions");
-    KW_FAIL_IF(o->kind != KW_TRAJ_STACK_OF_STARS && o->nz != 1, KW_ERANGE,
-               "matrix: a 3-D radial trajectory is a stack of stars");
-    KW_FAIL_IF(o->kind == KW_TRAJ_GOLDEN && o->tiny < 1, KW_ERANGE,
-               "tiny: golden-angle order must be >= 1");
-    KW_FAIL_IF(o->kind == KW_TRAJ_RADIAL && o->tiny != 0, KW_ERANGE,
-               "tiny: uniform radial has no golden-angle order (use --kind golden)");
-    KW_FAIL_IF(o->tiny < 0 || o->tiny > 1000, KW_ERANGE, "tiny: %d outside 1..1000", o->tiny);
-    KW_FAIL_IF(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE,
-               "readout-oversampling: %d outside 1..4", o->oversampling);
-    KW_FAIL_IF(!(o->dwell_s > 0) || !isfinite(o->dwell_s), KW_ERANGE,
-               "dwell: must be a positive time");
-    KW_FAIL_IF(!(o->te_s >= 0) || !isfinite(o->te_s), KW_ERANGE, "te: must be >= 0");
-    KW_FAIL_IF(o->te_s < 0.5 * (double)o->n * o->dwell_s * (1 - 1e-12), KW_ERANGE,
-               "te: %g s is shorter than half the readout (N/2 x dwell = %g s)", o->te_s,
+    KW_FAIL_PARAM(o->spokes < 1, KW_ERANGE, "spokes", "at least one spoke");
+    KW_FAIL_PARAM(o->nz < 1, KW_ERANGE, "nz", "no partitions");
+    KW_FAIL_PARAM(o->kind != KW_TRAJ_STACK_OF_STARS && o->nz != 1, KW_ERANGE, "nz",
+               "a 3-D radial trajectory is a stack of stars");
+    KW_FAIL_PARAM(o->kind == KW_TRAJ_GOLDEN && o->tiny < 1, KW_ERANGE, "tiny",
+               "golden-angle order must be >= 1");
+    KW_FAIL_PARAM(o->kind == KW_TRAJ_RADIAL && o->tiny != 0, KW_ERANGE, "tiny",
+               "uniform radial has no golden-angle order (only the golden kind has one)");
+    KW_FAIL_PARAM(o->tiny < 0 || o->tiny > 1000, KW_ERANGE, "tiny", "%d outside 1..1000", o->tiny);
+    KW_FAIL_PARAM(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE, "oversampling",
+               "%d outside 1..4", o->oversampling);
+    KW_FAIL_PARAM(!(o->dwell_s > 0) || !isfinite(o->dwell_s), KW_ERANGE, "dwell_s",
+               "must be a positive time");
+    KW_FAIL_PARAM(!(o->te_s >= 0) || !isfinite(o->te_s), KW_ERANGE, "te_s", "must be >= 0");
+    KW_FAIL_PARAM(o->te_s < 0.5 * (double)o->n * o->dwell_s * (1 - 1e-12), KW_ERANGE, "te_s",
+               "%g s is shorter than half the readout (N/2 x dwell = %g s)", o->te_s,
                0.5 * (double)o->n * o->dwell_s);
     const size_t f = (size_t)kw_traj_oversampling(o);
     double s = (double)f * (double)o->n * (double)o->spokes * (double)o->nz;
-    KW_FAIL_IF(s > 2147483648.0, KW_ERANGE, "spokes: %.0f samples is too many", s);
+    KW_FAIL_PARAM(s > 2147483648.0, KW_ERANGE, "spokes", "%.0f samples is too many", s);
     *samples = f * o->n * o->spokes * o->nz;
     *ndim = o->kind == KW_TRAJ_STACK_OF_STARS ? 3 : 2;
     return KW_OK;
@@ -92,8 +92,8 @@ kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t)
 kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w)
 {
     KW_FAIL_IF(!o || !w || o->spokes < 1 || o->n < 2, KW_EINVAL, "weights: bad arguments");
-    KW_FAIL_IF(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE,
-               "readout-oversampling: %d outside 1..4", o->oversampling);
+    KW_FAIL_PARAM(o->oversampling < 0 || o->oversampling > 4, KW_ERANGE, "oversampling",
+               "%d outside 1..4", o->oversampling);
     const double S = (double)o->spokes, dr = 1.0 / (double)kw_traj_oversampling(o);
     const size_t n = (size_t)kw_traj_oversampling(o) * o->n;
     for (size_t s = 0; s < o->spokes; s++)
