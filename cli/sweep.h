@@ -131,24 +131,4 @@ int kw_sweep_mpi_built(void);
  * groups and writes; every rank also runs groups). Returns the exit code. */
 int kw_sweep_mpi_main(int argc, char **argv);
 
-/* The verb in one process (cmd_sweep.c), parameterised for MPI. */
-typedef struct kw_sweep_opts {
-    const char *spec, *out;
-    long jobs;
-    int pictures, keep, dry_run;
-} kw_sweep_opts;
-
-/*! kw_sweep_parse(): options and spec; returns -1 when all went well. */
-int kw_sweep_parse(int argc, char **argv, kw_sweep_opts *o, kw_sweep *sw);
-
-/*! kw_sweep_prepare(): make the output folder, load the journal, fill ctx.
- * Returns -1 when all went well, else an exit code. */
-int kw_sweep_prepare(const kw_sweep_opts *o, const kw_sweep *sw, kw_sweep_ctx *c, int primary);
-
-/*! kw_sweep_progress(): progress line (done / total, ETA). */
-void kw_sweep_progress(int done, int total);
-
-/*! kw_sweep_finish(): results + plots + the closing line; the exit code. */
-int kw_sweep_finish(const kw_sweep_ctx *c, int ran, int failed_groups);
-
 #endif

@@ -11,6 +11,7 @@
 
 #include "cli.h"
 #include "sweep.h"
+#include "sweep_verb.h"
 
 static int env_size(void)
 {
@@ -219,7 +220,7 @@ int kw_sweep_mpi_main(int argc, char **argv)
     }
     kw_sweep_opts o;
     kw_sweep sw;
-    int rc = kw_sweep_parse(argc, argv, &o, &sw);
+    int rc = kw_sweep_parse(argc, argv, &o, &sw, 1);
     if (rc >= 0) {
         MPI_Finalize();
         return rc;

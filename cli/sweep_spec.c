@@ -172,6 +172,234 @@ static int by_id(const void *a, const void *b)
     return strcmp(sort_rows[*(const int *)a].id, sort_rows[*(const int *)b].id);
 }
 
+/* The spec's top-level axes (values and counts). */
+typedef struct top_axes {
+    const char *phantoms[MAX_AXIS]; /* strings of the parsed spec */
+    long matrix[MAX_AXIS], coils[MAX_AXIS], accel[MAX_AXIS], seeds[MAX_AXIS];
+    double fov[MAX_AXIS], snr[MAX_AXIS];
+    int nph, nmat, nfov, ncoil, nsnr, nacc, nseed;
+} top_axes;
+
+/* Read the top-level axes; 0, or the exit code (error line printed). */
+static int read_axes(const cJSON *root, top_axes *x)
+{
+    axis a;
+    int rc;
+    if ((rc = get_axis(root, "phantom", "spec.phantom", 1, &a)))
+        return rc;
+    x->nph = a.n;
+    for (int i = 0; i < a.n; i++) {
+        const char *s = cJSON_GetStringValue(a.v[i]);
+        if (!s || (strcmp(s, "weave") && strcmp(s, "shepp-logan") &&
+                   strcmp(s, "shepp-logan-modified")))
+            return kw_cli_fail("spec.phantom", "value %d: expected weave, shepp-logan or "
+                               "shepp-logan-modified", i + 1);
+        x->phantoms[i] = s;
+    }
+    x->nfov = 1;
+    if ((rc = get_axis(root, "matrix", "spec.matrix", 1, &a)) ||
+        (rc = axis_ints(&a, "spec.matrix", 16, 1024, x->matrix)))
+        return rc;
+    x->nmat = a.n;
+    x->fov[0] = 256;
+    if ((rc = get_axis(root, "fov_mm", "spec.fov_mm", 0, &a)) ||
+        (rc = axis_nums(&a, "spec.fov_mm", 0, 1, 2000, 0, x->fov)))
+        return rc;
+    if (a.n)
+        x->nfov = a.n;
+    if ((rc = get_axis(root, "coils", "spec.coils", 1, &a)) ||
+        (rc = axis_ints(&a, "spec.coils", 1, 64, x->coils)))
+        return rc;
+    x->ncoil = a.n;
+    if ((rc = get_axis(root, "snr", "spec.snr", 1, &a)) ||
+        (rc = axis_nums(&a, "spec.snr", 0, 1, 1e6, 1, x->snr)))
+        return rc;
+    x->nsnr = a.n;
+    if ((rc = get_axis(root, "acceleration", "spec.acceleration", 1, &a)) ||
+        (rc = axis_ints(&a, "spec.acceleration", 1, 32, x->accel)))
+        return rc;
+    x->nacc = a.n;
+    if ((rc = get_axis(root, "seeds", "spec.seeds", 1, &a)) ||
+        (rc = axis_ints(&a, "spec.seeds", 0, 2147483647L, x->seeds)))
+        return rc;
+    x->nseed = a.n;
+    return 0;
+}
+
+/* Pattern i of the spec: a kind name, or an object {kind, acs, power,
+ * fraction, acceleration}; 0, or the exit code (error line printed). */
+static int read_pattern(const cJSON *e, int i, pat_spec *p)
+{
+    int rc;
+    char f[96];
+    p->p.acs = -1;
+    p->p.power = NAN;
+    p->p.fraction = NAN;
+    const char *kind = cJSON_GetStringValue(e);
+    if (cJSON_IsObject(e)) {
+        static const char *const pk[] = {"kind", "acs", "power", "fraction",
+                                         "acceleration", NULL};
+        snprintf(f, sizeof f, "spec.patterns[%d].", i);
+        if ((rc = check_keys(e, pk, f, "key")))
+            return rc;
+        kind = cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(e, "kind"));
+    }
+    snprintf(f, sizeof f, "spec.patterns[%d].kind", i);
+    int known = 0;
+    for (const char *const *k = kinds; kind && *k; k++)
+        known |= strcmp(kind, *k) == 0;
+    if (!kind || !known)
+        return kw_cli_fail(f, "expected one of full uniform random poisson partial radial "
+                              "golden");
+    snprintf(p->p.kind, sizeof p->p.kind, "%s", kind);
+    if (!cJSON_IsObject(e))
+        return 0;
+    axis b;
+    long iv[MAX_AXIS];
+    double dv[MAX_AXIS];
+    snprintf(f, sizeof f, "spec.patterns[%d].acs", i);
+    if ((rc = get_axis(e, "acs", f, 0, &b)))
+        return rc;
+    if (b.n > 1)
+        return kw_cli_fail(f, "one value, not a list");
+    if (b.n && (rc = axis_ints(&b, f, 0, 1024, iv)))
+        return rc;
+    if (b.n)
+        p->p.acs = (int)iv[0];
+    snprintf(f, sizeof f, "spec.patterns[%d].power", i);
+    if ((rc = get_axis(e, "power", f, 0, &b)))
+        return rc;
+    if (b.n > 1)
+        return kw_cli_fail(f, "one value, not a list");
+    if (b.n && (rc = axis_nums(&b, f, 0, 0, 20, 0, dv)))
+        return rc;
+    if (b.n)
+        p->p.power = dv[0];
+    snprintf(f, sizeof f, "spec.patterns[%d].fraction", i);
+    if ((rc = get_axis(e, "fraction", f, 0, &b)))
+        return rc;
+    if (b.n > 1)
+        return kw_cli_fail(f, "one value, not a list");
+    if (b.n && (rc = axis_nums(&b, f, 0.5, 1, 1, 0, dv)))
+        return rc;
+    if (b.n)
+        p->p.fraction = dv[0];
+    snprintf(f, sizeof f, "spec.patterns[%d].acceleration", i);
+    if ((rc = get_axis(e, "acceleration", f, 0, &b)) ||
+        (rc = axis_ints(&b, f, 1, 32, p->accel)))
+        return rc;
+    p->naccel = b.n;
+    return 0;
+}
+
+/* Count the groups and rows, then expand them in a fixed nesting order;
+ * 0, or the exit code (error line printed). */
+static int expand(kw_sweep *sw, const top_axes *x, const pat_spec *pats, int np,
+                  const meth_spec *meths, int nm)
+{
+    long ngroups = 0, nrows = 0;
+    for (int p = 0; p < np; p++) {
+        long na = pats[p].naccel ? pats[p].naccel : x->nacc;
+        long per = 0;
+        for (int m = 0; m < nm; m++) {
+            int nc = kind_noncartesian(pats[p].p.kind);
+            if (nc ? meths[m].noncart : meths[m].cart)
+                per += (long)meths[m].nl * meths[m].ni;
+            else
+                sw->skipped +=
+                    x->nph * x->nmat * x->nfov * x->ncoil * x->nsnr * (int)na * x->nseed;
+        }
+        long g = (long)x->nph * x->nmat * x->nfov * x->ncoil * x->nsnr * na * x->nseed;
+        ngroups += g;
+        nrows += g * per;
+        if (nrows > MAX_ROWS)
+            return kw_cli_fail("spec", "more than %d experiments; split the sweep", MAX_ROWS);
+    }
+    if (nrows == 0)
+        return kw_cli_fail("spec.methods", "no method can reconstruct any of the patterns "
+                                           "(Cartesian vs non-Cartesian)");
+    sw->groups = calloc((size_t)ngroups, sizeof *sw->groups);
+    sw->rows = calloc((size_t)nrows, sizeof *sw->rows);
+    if (!sw->groups || !sw->rows)
+        return kw_cli_status(KW_ENOMEM, "spec");
+    for (int ip = 0; ip < np; ip++) {
+        const pat_spec *P = &pats[ip];
+        const long *acc = P->naccel ? P->accel : x->accel;
+        int na = P->naccel ? P->naccel : x->nacc;
+        int nc = kind_noncartesian(P->p.kind);
+        for (int iph = 0; iph < x->nph; iph++)
+        for (int im = 0; im < x->nmat; im++)
+        for (int ifv = 0; ifv < x->nfov; ifv++)
+        for (int ic = 0; ic < x->ncoil; ic++)
+        for (int is = 0; is < x->nsnr; is++)
+        for (int ia = 0; ia < na; ia++)
+        for (int ie = 0; ie < x->nseed; ie++) {
+            kw_sweep_group *g = &sw->groups[sw->ngroups];
+            snprintf(g->phantom, sizeof g->phantom, "%s", x->phantoms[iph]);
+            g->matrix = (int)x->matrix[im];
+            g->fov_mm = x->fov[ifv];
+            g->coils = (int)x->coils[ic];
+            g->snr = x->snr[is];
+            g->pat = P->p;
+            g->accel = (int)acc[ia];
+            g->seed = x->seeds[ie];
+            char t1[32], t2[32], t3[32], t4[32];
+            kw_sweep_numtxt(t1, sizeof t1, g->fov_mm);
+            kw_sweep_numtxt(t2, sizeof t2, g->snr);
+            kw_sweep_numtxt(t3, sizeof t3, g->pat.power);
+            kw_sweep_numtxt(t4, sizeof t4, g->pat.fraction);
+            snprintf(g->key, sizeof g->key,
+                     "phantom=%s matrix=%d fov_mm=%s coils=%d snr=%s pattern=%s acs=%d "
+                     "power=%s fraction=%s acceleration=%d seed=%ld",
+                     g->phantom, g->matrix, t1, g->coils, t2, g->pat.kind, g->pat.acs, t3, t4,
+                     g->accel, g->seed);
+            g->hash = kw_sweep_hash(g->key);
+            g->first_row = sw->nrows;
+            for (int m = 0; m < nm; m++) {
+                const meth_spec *M = &meths[m];
+                if (nc ? !M->noncart : !M->cart)
+                    continue;
+                for (int il = 0; il < M->nl; il++)
+                for (int ii = 0; ii < M->ni; ii++) {
+                    kw_sweep_row *r = &sw->rows[sw->nrows++];
+                    r->group = sw->ngroups;
+                    snprintf(r->m.name, sizeof r->m.name, "%s", M->name);
+                    r->m.lambda = M->lambda[il];
+                    r->m.iterations = M->iters[ii];
+                    snprintf(r->m.combine, sizeof r->m.combine, "%s", M->combine);
+                    char tl[32];
+                    kw_sweep_numtxt(tl, sizeof tl, r->m.lambda);
+                    snprintf(r->key, sizeof r->key, "%s method=%s lambda=%s iterations=%ld "
+                             "combine=%s", g->key, r->m.name, tl, r->m.iterations,
+                             r->m.combine[0] ? r->m.combine : "default");
+                    snprintf(r->id, sizeof r->id, "%016llx",
+                             (unsigned long long)kw_sweep_hash(r->key));
+                }
+            }
+            g->nrows = sw->nrows - g->first_row;
+            sw->ngroups++;
+        }
+    }
+    return 0;
+}
+
+/* The rows sorted by id (journal look-ups); two equal ids are an error. */
+static int order_rows(kw_sweep *sw)
+{
+    sw->order = malloc((size_t)sw->nrows * sizeof *sw->order);
+    if (!sw->order)
+        return kw_cli_status(KW_ENOMEM, "spec");
+    for (int i = 0; i < sw->nrows; i++)
+        sw->order[i] = i;
+    sort_rows = sw->rows;
+    qsort(sw->order, (size_t)sw->nrows, sizeof *sw->order, by_id);
+    for (int i = 1; i < sw->nrows; i++)
+        if (!strcmp(sw->rows[sw->order[i]].id, sw->rows[sw->order[i - 1]].id))
+            return kw_cli_fail("spec", "two experiments are the same (a value repeated in "
+                               "an axis?): %s", sw->rows[sw->order[i]].key);
+    return 0;
+}
+
 int kw_sweep_load(const char *path, kw_sweep *sw)
 {
     memset(sw, 0, sizeof *sw);
@@ -191,51 +419,9 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
     if ((rc = check_keys(root, top, "spec.", "axis")))
         goto done;
 
-    axis a;
-    const char *phantoms[MAX_AXIS];
-    int nph;
-    if ((rc = get_axis(root, "phantom", "spec.phantom", 1, &a)))
+    top_axes ax;
+    if ((rc = read_axes(root, &ax)))
         goto done;
-    nph = a.n;
-    for (int i = 0; i < a.n; i++) {
-        const char *s = cJSON_GetStringValue(a.v[i]);
-        if (!s || (strcmp(s, "weave") && strcmp(s, "shepp-logan") &&
-                   strcmp(s, "shepp-logan-modified"))) {
-            rc = kw_cli_fail("spec.phantom", "value %d: expected weave, shepp-logan or "
-                             "shepp-logan-modified", i + 1);
-            goto done;
-        }
-        phantoms[i] = s;
-    }
-    long matrix[MAX_AXIS], coils[MAX_AXIS], accel[MAX_AXIS], seeds[MAX_AXIS];
-    double fov[MAX_AXIS], snr[MAX_AXIS];
-    int nmat, ncoil, nacc, nseed, nfov = 1, nsnr;
-    if ((rc = get_axis(root, "matrix", "spec.matrix", 1, &a)) ||
-        (rc = axis_ints(&a, "spec.matrix", 16, 1024, matrix)))
-        goto done;
-    nmat = a.n;
-    fov[0] = 256;
-    if ((rc = get_axis(root, "fov_mm", "spec.fov_mm", 0, &a)) ||
-        (rc = axis_nums(&a, "spec.fov_mm", 0, 1, 2000, 0, fov)))
-        goto done;
-    if (a.n)
-        nfov = a.n;
-    if ((rc = get_axis(root, "coils", "spec.coils", 1, &a)) ||
-        (rc = axis_ints(&a, "spec.coils", 1, 64, coils)))
-        goto done;
-    ncoil = a.n;
-    if ((rc = get_axis(root, "snr", "spec.snr", 1, &a)) ||
-        (rc = axis_nums(&a, "spec.snr", 0, 1, 1e6, 1, snr)))
-        goto done;
-    nsnr = a.n;
-    if ((rc = get_axis(root, "acceleration", "spec.acceleration", 1, &a)) ||
-        (rc = axis_ints(&a, "spec.acceleration", 1, 32, accel)))
-        goto done;
-    nacc = a.n;
-    if ((rc = get_axis(root, "seeds", "spec.seeds", 1, &a)) ||
-        (rc = axis_ints(&a, "spec.seeds", 0, 2147483647L, seeds)))
-        goto done;
-    nseed = a.n;
 
     /* patterns: objects {kind, acs, power, fraction, acceleration} or names */
     axis pa;
@@ -246,76 +432,9 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
         rc = kw_cli_status(KW_ENOMEM, "spec");
         goto done;
     }
-    for (int i = 0; i < pa.n; i++) {
-        char f[96];
-        const cJSON *e = pa.v[i];
-        pat_spec *p = &pats[i];
-        p->p.acs = -1;
-        p->p.power = NAN;
-        p->p.fraction = NAN;
-        const char *kind = cJSON_GetStringValue(e);
-        if (cJSON_IsObject(e)) {
-            static const char *const pk[] = {"kind", "acs", "power", "fraction",
-                                             "acceleration", NULL};
-            snprintf(f, sizeof f, "spec.patterns[%d].", i);
-            if ((rc = check_keys(e, pk, f, "key")))
-                goto done;
-            kind = cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(e, "kind"));
-        }
-        snprintf(f, sizeof f, "spec.patterns[%d].kind", i);
-        int known = 0;
-        for (const char *const *k = kinds; kind && *k; k++)
-            known |= strcmp(kind, *k) == 0;
-        if (!kind || !known) {
-            rc = kw_cli_fail(f, "expected one of full uniform random poisson partial radial "
-                                "golden");
+    for (int i = 0; i < pa.n; i++)
+        if ((rc = read_pattern(pa.v[i], i, &pats[i])))
             goto done;
-        }
-        snprintf(p->p.kind, sizeof p->p.kind, "%s", kind);
-        if (!cJSON_IsObject(e))
-            continue;
-        axis b;
-        long iv[MAX_AXIS];
-        double dv[MAX_AXIS];
-        snprintf(f, sizeof f, "spec.patterns[%d].acs", i);
-        if ((rc = get_axis(e, "acs", f, 0, &b)))
-            goto done;
-        if (b.n > 1) {
-            rc = kw_cli_fail(f, "one value, not a list");
-            goto done;
-        }
-        if (b.n && (rc = axis_ints(&b, f, 0, 1024, iv)))
-            goto done;
-        if (b.n)
-            p->p.acs = (int)iv[0];
-        snprintf(f, sizeof f, "spec.patterns[%d].power", i);
-        if ((rc = get_axis(e, "power", f, 0, &b)))
-            goto done;
-        if (b.n > 1) {
-            rc = kw_cli_fail(f, "one value, not a list");
-            goto done;
-        }
-        if (b.n && (rc = axis_nums(&b, f, 0, 0, 20, 0, dv)))
-            goto done;
-        if (b.n)
-            p->p.power = dv[0];
-        snprintf(f, sizeof f, "spec.patterns[%d].fraction", i);
-        if ((rc = get_axis(e, "fraction", f, 0, &b)))
-            goto done;
-        if (b.n > 1) {
-            rc = kw_cli_fail(f, "one value, not a list");
-            goto done;
-        }
-        if (b.n && (rc = axis_nums(&b, f, 0.5, 1, 1, 0, dv)))
-            goto done;
-        if (b.n)
-            p->p.fraction = dv[0];
-        snprintf(f, sizeof f, "spec.patterns[%d].acceleration", i);
-        if ((rc = get_axis(e, "acceleration", f, 0, &b)) ||
-            (rc = axis_ints(&b, f, 1, 32, p->accel)))
-            goto done;
-        p->naccel = b.n;
-    }
 
     /* methods: objects {name, lambda, iterations, combine} or names */
     axis ma;
@@ -379,110 +498,8 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
         }
     }
 
-    /* count, then expand in a fixed nesting order */
-    long ngroups = 0, nrows = 0;
-    for (int p = 0; p < pa.n; p++) {
-        long na = pats[p].naccel ? pats[p].naccel : nacc;
-        long per = 0;
-        for (int m = 0; m < ma.n; m++) {
-            int nc = kind_noncartesian(pats[p].p.kind);
-            if (nc ? meths[m].noncart : meths[m].cart)
-                per += (long)meths[m].nl * meths[m].ni;
-            else
-                sw->skipped += nph * nmat * nfov * ncoil * nsnr * (int)na * nseed;
-        }
-        long g = (long)nph * nmat * nfov * ncoil * nsnr * na * nseed;
-        ngroups += g;
-        nrows += g * per;
-        if (nrows > MAX_ROWS) {
-            rc = kw_cli_fail("spec", "more than %d experiments; split the sweep", MAX_ROWS);
-            goto done;
-        }
-    }
-    if (nrows == 0) {
-        rc = kw_cli_fail("spec.methods", "no method can reconstruct any of the patterns "
-                                         "(Cartesian vs non-Cartesian)");
+    if ((rc = expand(sw, &ax, pats, pa.n, meths, ma.n)) || (rc = order_rows(sw)))
         goto done;
-    }
-    sw->groups = calloc((size_t)ngroups, sizeof *sw->groups);
-    sw->rows = calloc((size_t)nrows, sizeof *sw->rows);
-    if (!sw->groups || !sw->rows) {
-        rc = kw_cli_status(KW_ENOMEM, "spec");
-        goto done;
-    }
-    for (int ip = 0; ip < pa.n; ip++) {
-        const pat_spec *P = &pats[ip];
-        const long *acc = P->naccel ? P->accel : accel;
-        int na = P->naccel ? P->naccel : nacc;
-        int nc = kind_noncartesian(P->p.kind);
-        for (int iph = 0; iph < nph; iph++)
-        for (int im = 0; im < nmat; im++)
-        for (int ifv = 0; ifv < nfov; ifv++)
-        for (int ic = 0; ic < ncoil; ic++)
-        for (int is = 0; is < nsnr; is++)
-        for (int ia = 0; ia < na; ia++)
-        for (int ie = 0; ie < nseed; ie++) {
-            kw_sweep_group *g = &sw->groups[sw->ngroups];
-            snprintf(g->phantom, sizeof g->phantom, "%s", phantoms[iph]);
-            g->matrix = (int)matrix[im];
-            g->fov_mm = fov[ifv];
-            g->coils = (int)coils[ic];
-            g->snr = snr[is];
-            g->pat = P->p;
-            g->accel = (int)acc[ia];
-            g->seed = seeds[ie];
-            char t1[32], t2[32], t3[32], t4[32];
-            kw_sweep_numtxt(t1, sizeof t1, g->fov_mm);
-            kw_sweep_numtxt(t2, sizeof t2, g->snr);
-            kw_sweep_numtxt(t3, sizeof t3, g->pat.power);
-            kw_sweep_numtxt(t4, sizeof t4, g->pat.fraction);
-            snprintf(g->key, sizeof g->key,
-                     "phantom=%s matrix=%d fov_mm=%s coils=%d snr=%s pattern=%s acs=%d "
-                     "power=%s fraction=%s acceleration=%d seed=%ld",
-                     g->phantom, g->matrix, t1, g->coils, t2, g->pat.kind, g->pat.acs, t3, t4,
-                     g->accel, g->seed);
-            g->hash = kw_sweep_hash(g->key);
-            g->first_row = sw->nrows;
-            for (int m = 0; m < ma.n; m++) {
-                const meth_spec *M = &meths[m];
-                if (nc ? !M->noncart : !M->cart)
-                    continue;
-                for (int il = 0; il < M->nl; il++)
-                for (int ii = 0; ii < M->ni; ii++) {
-                    kw_sweep_row *r = &sw->rows[sw->nrows++];
-                    r->group = sw->ngroups;
-                    snprintf(r->m.name, sizeof r->m.name, "%s", M->name);
-                    r->m.lambda = M->lambda[il];
-                    r->m.iterations = M->iters[ii];
-                    snprintf(r->m.combine, sizeof r->m.combine, "%s", M->combine);
-                    char tl[32];
-                    kw_sweep_numtxt(tl, sizeof tl, r->m.lambda);
-                    snprintf(r->key, sizeof r->key, "%s method=%s lambda=%s iterations=%ld "
-                             "combine=%s", g->key, r->m.name, tl, r->m.iterations,
-                             r->m.combine[0] ? r->m.combine : "default");
-                    snprintf(r->id, sizeof r->id, "%016llx",
-                             (unsigned long long)kw_sweep_hash(r->key));
-                }
-            }
-            g->nrows = sw->nrows - g->first_row;
-            sw->ngroups++;
-        }
-    }
-    sw->order = malloc((size_t)sw->nrows * sizeof *sw->order);
-    if (!sw->order) {
-        rc = kw_cli_status(KW_ENOMEM, "spec");
-        goto done;
-    }
-    for (int i = 0; i < sw->nrows; i++)
-        sw->order[i] = i;
-    sort_rows = sw->rows;
-    qsort(sw->order, (size_t)sw->nrows, sizeof *sw->order, by_id);
-    for (int i = 1; i < sw->nrows; i++)
-        if (!strcmp(sw->rows[sw->order[i]].id, sw->rows[sw->order[i - 1]].id)) {
-            rc = kw_cli_fail("spec", "two experiments are the same (a value repeated in "
-                             "an axis?): %s", sw->rows[sw->order[i]].key);
-            goto done;
-        }
 done:
     free(pats);
     free(meths);

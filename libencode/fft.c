@@ -13,6 +13,9 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#ifdef _OPENMP
+#include <omp.h>
+#endif
 
 struct kw_fft_plan {
     int rank;
@@ -22,6 +25,7 @@ struct kw_fft_plan {
     float post_sign; /* (-1)^(sum N/2) for the even path */
     fftwf_plan fwd, inv;
     float complex *scratch; /* odd path: one transform */
+    int nthreads;           /* OpenMP threads at create: the modulation's cap */
 };
 
 static int fft_nthreads = 1;
@@ -31,7 +35,6 @@ kw_status kw_fft_setup(int nthreads)
 {
     if (nthreads <= 0) {
 #ifdef _OPENMP
-        extern int omp_get_max_threads(void);
         nthreads = omp_get_max_threads();
 #else
         nthreads = 1;
@@ -51,11 +54,11 @@ int kw_fft_threads(void) { return fft_nthreads; }
 int kw_fft_threads_ready(void) { return fft_ready; }
 
 /* data[b, i, j, k] *= c * (-1)^(i + j + k) over batch blocks of d0 x d1 x d2. */
-static void modulate(float complex *data, size_t batch, const size_t *d, float c)
+static void modulate(float complex *data, size_t batch, const size_t *d, float c, int nt)
 {
     const size_t d0 = d[0], d1 = d[1], d2 = d[2];
     const long long rows = (long long)(batch * d0 * d1);
-#pragma omp parallel for schedule(static) if (rows * (long long)d2 > 65536)
+#pragma omp parallel for num_threads(nt) schedule(static) if (rows * (long long)d2 > 65536)
     for (long long r = 0; r < rows; r++) {
         size_t j = (size_t)r % d1, i = ((size_t)r / d1) % d0;
         float s = ((i + j) & 1) ? -c : c;
@@ -112,6 +115,11 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
         half += (int)(v / 2);
     }
     p->batch = batch;
+#ifdef _OPENMP
+    p->nthreads = omp_get_max_threads();
+#else
+    p->nthreads = 1;
+#endif
     p->post_sign = (half & 1) ? -1.0f : 1.0f;
     unsigned ff = (flags & KW_FFT_MEASURE) ? FFTW_MEASURE : FFTW_ESTIMATE;
     size_t howmany = p->even ? batch : 1;
@@ -153,9 +161,9 @@ static kw_status run(const kw_fft_plan *p, float complex *data, int forward)
     fftwf_plan fp = forward ? p->fwd : p->inv;
     float scale = (float)(1.0 / sqrt((double)p->n));
     if (p->even) {
-        modulate(data, p->batch, p->d, 1.0f);
+        modulate(data, p->batch, p->d, 1.0f, p->nthreads);
         fftwf_execute_dft(fp, (fftwf_complex *)data, (fftwf_complex *)data);
-        modulate(data, p->batch, p->d, p->post_sign * scale);
+        modulate(data, p->batch, p->d, p->post_sign * scale, p->nthreads);
         return KW_OK;
     }
     size_t pre[3], post[3];

@@ -11,6 +11,14 @@
  * batch x prod(dims) samples without allocating (buffers must be 16-byte
  * aligned, which malloc and kw_alloc guarantee); kw_fft_destroy() frees.
  * Planning is not thread-safe (FFTW's rule): make plans from one thread.
+ *
+ * Threads: a plan is sized for the threads at create and never runs more:
+ * FFTW's threads are fixed in the plan (kw_fft_setup()), and the centering
+ * modulation runs at most the OpenMP threads of create (omp_get_max_threads()),
+ * whatever omp_set_num_threads() says later. The modulation is elementwise,
+ * so the result depends on the FFTW plan only. Execute on one plan from one
+ * thread at a time (odd sizes use the plan's scratch): one plan per thread
+ * for execute.
  */
 #ifndef KW_FFT_H
 #define KW_FFT_H

@@ -21,6 +21,16 @@
  * number of times, without allocating (OpenMP threads over tiles; no two
  * threads write the same grid point: tiles are processed in 2^ndim colour
  * classes whose halos do not overlap). A plan is used by one caller at a time.
+ *
+ * Threads: the plan records its thread count at create (opts->nthreads, or
+ * omp_get_max_threads() then; kw_nufft_get_info() reports it), sizes its
+ * per-thread spreading buffers and its FFTW plans for it, and every parallel
+ * loop of forward, adjoint and convolve runs num_threads of that count: sized
+ * for the threads at create; never runs more, whatever omp_set_num_threads()
+ * says later. Spreading adds the tiles colour by colour and interpolation
+ * writes each sample once, so results depend on the create-time count only
+ * through FFTW's plan (bit-identical for the same plan; tests/test_threads.c).
+ * One plan per thread for execute.
  */
 #ifndef KW_NUFFT_H
 #define KW_NUFFT_H

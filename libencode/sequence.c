@@ -93,72 +93,45 @@ static double dur(const kw_trapezoid *t) { return kw_trapezoid_duration(t); }
 
 static double max3(double a, double b, double c) { return fmax(a, fmax(b, c)); }
 
-/* Plan without the nearest-feasible search. */
-static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
+/* What the four steps of plan_core share: the protocol's numbers and the
+ * lobes one step makes for the next. */
+typedef struct plan_ctx {
+    const kw_protocol *p;
+    kw_gradient_limits lim;
+    double gb, dt;
+    int nx, ny, nz, is3d;
+    kw_sequence_kind seq;
+    double kz_area;     /* largest 3-D partition encode area (0 in 2-D) */
+    kw_epi_info epi;    /* the echo train (EPI only) */
+    kw_trapezoid rewind; /* phase rewinder (GRE, SE) */
+} plan_ctx;
+
+/* The EPI echo train, or the spiral's interleaves and readout. */
+static kw_status plan_train(kw_plan_report *r, plan_ctx *x)
 {
-    memset(r, 0, sizeof *r);
-    r->protocol = *p;
-    kw_status st = kw_plan_basics(p, &r->basic);
-    if (st)
-        return st;
-    const kw_gradient_limits lim = kw_plan_limits(p);
-    const double gb = KW_GAMMA_BAR_P, dt = p->raster_s;
-    const int nx = p->matrix[0], ny = p->matrix[1], nz = p->ndim == 3 ? p->matrix[2] : 1;
-    const int is3d = p->ndim == 3;
-    const kw_sequence_kind seq = p->sequence;
-
-    r->dwell_s = r->basic.dwell_s;
-    r->bandwidth_per_pixel_hz = r->basic.bandwidth_per_pixel_hz;
-    r->readout_duration_s = r->basic.readout_duration_s;
-
-    /* excitation: slice (2-D) or slab (3-D) select */
-    r->rf_duration_s = steps_up(p->rf_duration_s, dt) * dt;
-    r->slice_m = is3d ? p->fov_m[2] : p->slice_m;
-    r->slice_gradient_T_per_m = (p->tbw / r->rf_duration_s) / (gb * r->slice_m);
-    if ((st = kw_trapezoid_flat(r->slice_gradient_T_per_m, r->rf_duration_s, &lim,
-                                &r->slice_select)))
-        return st;
-    const kw_trapezoid ss = r->slice_select;
-    const double kz_area = is3d ? (nz / 2.0) / (gb * p->fov_m[2]) : 0.0;
-    /* rephaser: half the flat top plus the ramp down; 3-D adds the largest
-     * partition encode on the same axis */
-    const double reph_area = -ss.amplitude_T_per_m * (ss.flat_s / 2 + ss.ramp_s / 2);
-    if ((st = kw_trapezoid_for_area(reph_area - kz_area, &lim, &r->slice_rephaser)))
-        return st;
-    if (is3d && (st = kw_trapezoid_for_area(-kz_area, &lim, &r->partition_encode)))
-        return st;
-
-    /* readout */
-    const double G = r->basic.readout_gradient_T_per_m;
-    if ((st = kw_trapezoid_flat(G, nx * r->dwell_s, &lim, &r->readout)))
-        return st;
-    const kw_trapezoid ro = r->readout;
-    const double half_ro = G * (ro.ramp_s + ro.flat_s) / 2;
-
-    /* EPI echo train */
-    kw_epi_info epi = {0};
-    if (seq == KW_SEQ_EPI) {
+    const kw_protocol *p = x->p;
+    kw_status st = KW_OK;
+    if (x->seq == KW_SEQ_EPI) {
         kw_epi_spec es;
         kw_plan_epi_spec(r, &es);
-        if ((st = kw_epi_size(&es, &lim, &epi)))
+        if ((st = kw_epi_size(&es, &x->lim, &x->epi)))
             return st;
-        r->echo_spacing_s = epi.echo_spacing_s;
-        r->echo_train_length = (int)epi.lines_per_shot;
-        r->echo_train_s = epi.train_s;
-        r->distortion_pixels_per_hz = ny * epi.echo_spacing_s / p->shots;
+        r->echo_spacing_s = x->epi.echo_spacing_s;
+        r->echo_train_length = (int)x->epi.lines_per_shot;
+        r->echo_train_s = x->epi.train_s;
+        r->distortion_pixels_per_hz = x->ny * x->epi.echo_spacing_s / p->shots;
     }
-    /* spiral */
-    if (seq == KW_SEQ_SPIRAL) {
-        kw_spiral_spec sp = {p->fov_m[0], nx, p->interleaves ? p->interleaves : 1, r->dwell_s};
+    if (x->seq == KW_SEQ_SPIRAL) {
+        kw_spiral_spec sp = {p->fov_m[0], x->nx, p->interleaves ? p->interleaves : 1, r->dwell_s};
         if (p->interleaves) {
-            st = kw_spiral_size(&sp, &lim, &r->spiral);
+            st = kw_spiral_size(&sp, &x->lim, &r->spiral);
             r->interleaves = p->interleaves;
         } else {
             int n = 0;
-            st = kw_spiral_interleaves_for(&sp, &lim, p->max_readout_s, &n, &r->spiral);
+            st = kw_spiral_interleaves_for(&sp, &x->lim, p->max_readout_s, &n, &r->spiral);
             if (st == KW_EINFEASIBLE) { /* report the best there is */
                 sp.interleaves = 4096;
-                st = kw_spiral_size(&sp, &lim, &r->spiral);
+                st = kw_spiral_size(&sp, &x->lim, &r->spiral);
                 n = 4096;
             }
             r->interleaves = n;
@@ -168,10 +141,49 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
         r->readout_per_interleave_s = r->spiral.readout_s;
         r->readout_duration_s = r->spiral.readout_s;
     }
-    if (seq == KW_SEQ_RADIAL) {
-        r->spokes_nyquist = (int)ceil(KW_PI / 2 * nx - 1e-9);
+    if (x->seq == KW_SEQ_RADIAL) {
+        r->spokes_nyquist = (int)ceil(KW_PI / 2 * x->nx - 1e-9);
         r->spokes = p->spokes ? p->spokes : r->spokes_nyquist;
     }
+    return KW_OK;
+}
+
+/* Every gradient lobe: excitation, readout, the train, prephasers,
+ * spoiler, rewinder and crusher. */
+static kw_status plan_lobes(kw_plan_report *r, plan_ctx *x)
+{
+    const kw_protocol *p = x->p;
+    const kw_gradient_limits *lim = &x->lim;
+    const double gb = x->gb;
+    const kw_sequence_kind seq = x->seq;
+    kw_status st;
+
+    /* excitation: slice (2-D) or slab (3-D) select */
+    r->rf_duration_s = steps_up(p->rf_duration_s, x->dt) * x->dt;
+    r->slice_m = x->is3d ? p->fov_m[2] : p->slice_m;
+    r->slice_gradient_T_per_m = (p->tbw / r->rf_duration_s) / (gb * r->slice_m);
+    if ((st = kw_trapezoid_flat(r->slice_gradient_T_per_m, r->rf_duration_s, lim,
+                                &r->slice_select)))
+        return st;
+    const kw_trapezoid ss = r->slice_select;
+    x->kz_area = x->is3d ? (x->nz / 2.0) / (gb * p->fov_m[2]) : 0.0;
+    /* rephaser: half the flat top plus the ramp down; 3-D adds the largest
+     * partition encode on the same axis */
+    const double reph_area = -ss.amplitude_T_per_m * (ss.flat_s / 2 + ss.ramp_s / 2);
+    if ((st = kw_trapezoid_for_area(reph_area - x->kz_area, lim, &r->slice_rephaser)))
+        return st;
+    if (x->is3d && (st = kw_trapezoid_for_area(-x->kz_area, lim, &r->partition_encode)))
+        return st;
+
+    /* readout */
+    const double G = r->basic.readout_gradient_T_per_m;
+    if ((st = kw_trapezoid_flat(G, x->nx * r->dwell_s, lim, &r->readout)))
+        return st;
+    const kw_trapezoid ro = r->readout;
+    const double half_ro = G * (ro.ramp_s + ro.flat_s) / 2;
+
+    if ((st = plan_train(r, x)))
+        return st;
 
     /* prephasing lobes */
     double preph_area = 0, pe_area = 0;
@@ -183,26 +195,33 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
     case KW_SEQ_SPIRAL: preph_area = 0; break;
     }
     if (seq == KW_SEQ_GRE || seq == KW_SEQ_SE)
-        pe_area = -(ny / 2.0) / (gb * p->fov_m[1]);
+        pe_area = -(x->ny / 2.0) / (gb * p->fov_m[1]);
     else if (seq == KW_SEQ_EPI)
-        pe_area = (epi.first_row - ny / 2.0) / (gb * p->fov_m[1]);
-    if ((st = kw_trapezoid_for_area(preph_area, &lim, &r->prephaser)))
+        pe_area = (x->epi.first_row - x->ny / 2.0) / (gb * p->fov_m[1]);
+    if ((st = kw_trapezoid_for_area(preph_area, lim, &r->prephaser)))
         return st;
-    if ((st = kw_trapezoid_for_area(pe_area, &lim, &r->phase_encode)))
+    if ((st = kw_trapezoid_for_area(pe_area, lim, &r->phase_encode)))
         return st;
     /* after the readout: spoiler (+ 3-D partition rewinder) and phase rewinder */
     const double spoil_area = p->spoiler_cycles / (gb * r->slice_m);
-    if ((st = kw_trapezoid_for_area(spoil_area + kz_area, &lim, &r->spoiler)))
+    if ((st = kw_trapezoid_for_area(spoil_area + x->kz_area, lim, &r->spoiler)))
         return st;
-    kw_trapezoid rewind = {0};
     if (seq == KW_SEQ_GRE || seq == KW_SEQ_SE)
-        if ((st = kw_trapezoid_for_area(-pe_area, &lim, &rewind)))
+        if ((st = kw_trapezoid_for_area(-pe_area, lim, &x->rewind)))
             return st;
     if (seq == KW_SEQ_SE &&
-        (st = kw_trapezoid_for_area(p->crusher_cycles / (gb * r->slice_m), &lim, &r->crusher)))
+        (st = kw_trapezoid_for_area(p->crusher_cycles / (gb * r->slice_m), lim, &r->crusher)))
         return st;
+    return KW_OK;
+}
 
-    /* ---- the timeline of one TR ---- */
+/* The timeline of one TR: the events, minimum TE and TR. */
+static void plan_timeline(kw_plan_report *r, const plan_ctx *x)
+{
+    const kw_protocol *p = x->p;
+    const kw_sequence_kind seq = x->seq;
+    const kw_trapezoid ss = r->slice_select, ro = r->readout;
+    const double dt = x->dt;
     const double c = ss.ramp_s + r->rf_duration_s / 2; /* excitation centre */
     const double t1 = dur(&ss);
     add_lobe(r, KW_AX_SLICE, 0, &ss, "slice select");
@@ -213,7 +232,7 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
     switch (seq) {
     case KW_SEQ_GRE:
     case KW_SEQ_RADIAL: echo_off = ro.ramp_s + ro.flat_s / 2; block = dur(&ro); break;
-    case KW_SEQ_EPI: echo_off = epi.center_time_s; block = epi.train_s; break;
+    case KW_SEQ_EPI: echo_off = x->epi.center_time_s; block = x->epi.train_s; break;
     case KW_SEQ_SPIRAL:
         echo_off = 0;
         block = (double)(r->spiral.readout_points + r->spiral.rampdown_points) * dt;
@@ -255,12 +274,12 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
     case KW_SEQ_SE:
     case KW_SEQ_RADIAL: {
         add_lobe(r, KW_AX_READ, ro_start, &ro, "readout");
-        double w = nx * r->dwell_s, a0 = ro_start + ro.ramp_s + (ro.flat_s - w) / 2;
+        double w = x->nx * r->dwell_s, a0 = ro_start + ro.ramp_s + (ro.flat_s - w) / 2;
         add_event(r, KW_AX_ADC, KW_EV_ADC, a0, a0 + w, NULL, "ADC");
         break;
     }
     case KW_SEQ_EPI:
-        add_event(r, KW_AX_READ, KW_EV_EPI_TRAIN, ro_start, ro_start + epi.train_s, NULL,
+        add_event(r, KW_AX_READ, KW_EV_EPI_TRAIN, ro_start, ro_start + x->epi.train_s, NULL,
                   "EPI train");
         break;
     case KW_SEQ_SPIRAL:
@@ -269,13 +288,18 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
         break;
     }
     const double post_start = ro_start + block;
-    add_lobe(r, KW_AX_SLICE, post_start, &r->spoiler, is3d ? "spoiler/rewinder" : "spoiler");
-    add_lobe(r, KW_AX_PHASE, post_start, &rewind, "rewinder");
-    r->min_tr_s = post_start + fmax(dur(&r->spoiler), dur(&rewind));
+    add_lobe(r, KW_AX_SLICE, post_start, &r->spoiler, x->is3d ? "spoiler/rewinder" : "spoiler");
+    add_lobe(r, KW_AX_PHASE, post_start, &x->rewind, "rewinder");
+    r->min_tr_s = post_start + fmax(dur(&r->spoiler), dur(&x->rewind));
     r->tr_s = p->tr_s > 0 ? p->tr_s : r->min_tr_s;
     r->timeline_s = fmax(r->tr_s, r->min_tr_s);
+}
 
-    /* ---- derived numbers ---- */
+/* Chemical shift, sampling time, SNR factor, scan time. */
+static void plan_derived(kw_plan_report *r, const plan_ctx *x)
+{
+    const kw_protocol *p = x->p;
+    const kw_sequence_kind seq = x->seq;
     r->fat_water_hz = KW_FAT_WATER_PPM * 1e-6 * r->basic.larmor_hz;
     if (seq == KW_SEQ_SPIRAL) {
         r->chemical_shift_pixels = NAN; /* a blur, not a shift */
@@ -288,28 +312,34 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
         r->chemical_shift_phase_pixels = r->fat_water_hz * r->distortion_pixels_per_hz;
         r->chemical_shift_phase_mm = r->chemical_shift_phase_pixels * r->basic.pixel_size_m[1] * 1e3;
     }
-    const double acq = seq == KW_SEQ_EPI ? (double)epi.lines_per_shot * nx * r->dwell_s
+    const double acq = seq == KW_SEQ_EPI ? (double)x->epi.lines_per_shot * x->nx * r->dwell_s
                                          : r->readout_duration_s;
     r->readout_to_t2star = p->t2star_s > 0 ? acq / p->t2star_s : NAN;
     r->voxel_volume_m3 = r->basic.pixel_size_m[0] * r->basic.pixel_size_m[1] *
-                         (is3d ? r->basic.pixel_size_m[2] : p->slice_m);
+                         (x->is3d ? r->basic.pixel_size_m[2] : p->slice_m);
     double reps = 0; /* excitations per scan (per slice in 2-D) */
     switch (seq) {
     case KW_SEQ_GRE:
-    case KW_SEQ_SE: reps = (double)ny * nz; break;
-    case KW_SEQ_EPI: reps = (double)p->shots * nz; break;
-    case KW_SEQ_RADIAL: reps = (double)r->spokes * nz; break;
-    case KW_SEQ_SPIRAL: reps = (double)r->interleaves * nz; break;
+    case KW_SEQ_SE: reps = (double)x->ny * x->nz; break;
+    case KW_SEQ_EPI: reps = (double)p->shots * x->nz; break;
+    case KW_SEQ_RADIAL: reps = (double)r->spokes * x->nz; break;
+    case KW_SEQ_SPIRAL: reps = (double)r->interleaves * x->nz; break;
     }
     reps *= p->averages;
     r->total_sampling_time_s = reps * acq;
     r->snr_factor = r->voxel_volume_m3 * sqrt(r->total_sampling_time_s);
     r->scan_time_s = reps * r->tr_s;
+}
 
-    /* ---- limits ---- */
+/* The table of limits and the verdict. */
+static kw_status plan_limit_table(kw_plan_report *r, const plan_ctx *x)
+{
+    const kw_protocol *p = x->p;
+    const kw_sequence_kind seq = x->seq;
     if (seq != KW_SEQ_SPIRAL)
-        add_limit(r, "readout_gradient", G, p->gmax_T_per_m, "T/m");
-    add_limit(r, is3d ? "slab_select_gradient" : "slice_select_gradient",
+        add_limit(r, "readout_gradient", r->basic.readout_gradient_T_per_m, p->gmax_T_per_m,
+                  "T/m");
+    add_limit(r, x->is3d ? "slab_select_gradient" : "slice_select_gradient",
               r->slice_gradient_T_per_m, p->gmax_T_per_m, "T/m");
     if (seq == KW_SEQ_SPIRAL) {
         kw_spiral_spec sp;
@@ -320,11 +350,11 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
             free(gx), free(gy);
             return kw_set_error(KW_ENOMEM, "spiral: out of memory");
         }
-        st = kw_spiral_design(&sp, &lim, NULL, gx, gy, NULL, NULL);
+        kw_status st = kw_spiral_design(&sp, &x->lim, NULL, gx, gy, NULL, NULL);
         double gm = 0, sm = 0, px = 0, py = 0;
         for (size_t j = 0; j < n && !st; j++) {
             gm = fmax(gm, hypot(gx[j], gy[j]));
-            sm = fmax(sm, hypot(gx[j] - px, gy[j] - py) / dt);
+            sm = fmax(sm, hypot(gx[j] - px, gy[j] - py) / x->dt);
             px = gx[j], py = gy[j];
         }
         free(gx), free(gy);
@@ -344,6 +374,37 @@ static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
         if (!r->limits[i].ok)
             r->feasible = 0;
     return KW_OK;
+}
+
+/* Plan without the nearest-feasible search: the lobes, the timeline of one
+ * TR, the derived numbers, the limits. */
+static kw_status plan_core(kw_plan_report *r, const kw_protocol *p)
+{
+    memset(r, 0, sizeof *r);
+    r->protocol = *p;
+    kw_status st = kw_plan_basics(p, &r->basic);
+    if (st)
+        return st;
+    plan_ctx x = {0};
+    x.p = p;
+    x.lim = kw_plan_limits(p);
+    x.gb = KW_GAMMA_BAR_P;
+    x.dt = p->raster_s;
+    x.nx = p->matrix[0];
+    x.ny = p->matrix[1];
+    x.nz = p->ndim == 3 ? p->matrix[2] : 1;
+    x.is3d = p->ndim == 3;
+    x.seq = p->sequence;
+
+    r->dwell_s = r->basic.dwell_s;
+    r->bandwidth_per_pixel_hz = r->basic.bandwidth_per_pixel_hz;
+    r->readout_duration_s = r->basic.readout_duration_s;
+
+    if ((st = plan_lobes(r, &x)))
+        return st;
+    plan_timeline(r, &x);
+    plan_derived(r, &x);
+    return plan_limit_table(r, &x);
 }
 
 static const kw_limit *find_limit(const kw_plan_report *r, const char *name)

@@ -78,11 +78,11 @@ kw_status kw_admm(kw_solver *s, const float complex *y, float complex *x,
             return st;
         for (size_t i = 0; i < n; i++)
             p[i] = r[i] = rhs[i] - Ap[i];
-        double rr = nc_dot_re(r, r, n);
+        double rr = nc_dot_re(s, r, r, n);
         for (int k = 0; k < s->o.inner && rr > 0; k++) {
             if ((st = apply_m(s, rho, p, Ap, tmp)))
                 return st;
-            double pap = nc_dot_re(p, Ap, n);
+            double pap = nc_dot_re(s, p, Ap, n);
             if (!(pap > 0))
                 break;
             float a = (float)(rr / pap);
@@ -90,7 +90,7 @@ kw_status kw_admm(kw_solver *s, const float complex *y, float complex *x,
                 x[i] += a * p[i];
                 r[i] -= a * Ap[i];
             }
-            double rn = nc_dot_re(r, r, n);
+            double rn = nc_dot_re(s, r, r, n);
             float b = (float)(rn / rr);
             for (size_t i = 0; i < n; i++)
                 p[i] = r[i] + b * p[i];
@@ -128,11 +128,11 @@ kw_status kw_admm(kw_solver *s, const float complex *y, float complex *x,
             float complex d = x[i] - xold[i];
             dx += (double)crealf(d) * crealf(d) + (double)cimagf(d) * cimagf(d);
         }
-        double xn = nc_norm(x, n);
+        double xn = nc_norm(s, x, n);
         double change = xn > 0 ? sqrt(dx) / xn : 0.0;
         if ((st = kw_encoder_normal(s->enc, x, tmp)))
             return st;
-        double F = 0.5 * nc_dot_re(x, tmp, n) - nc_dot_re(x, s->b, n) + 0.5 * s->ywy +
+        double F = 0.5 * nc_dot_re(s, x, tmp, n) - nc_dot_re(s, x, s->b, n) + 0.5 * s->ywy +
                    s->o.lambda * nc_reg_value(s, x);
         KW_FAIL_IF(!isfinite(F), KW_ENUMERIC, "admm: the objective is not finite");
         if (nc_report(s, progress, user, "admm", it, s->o.iterations, F, change))

@@ -78,14 +78,14 @@ kw_status kw_fista(kw_solver *s, const float complex *y, float complex *x,
         }
         if ((st = kw_encoder_normal(s->enc, x, Nx)))
             return st;
-        double F = 0.5 * nc_dot_re(x, Nx, n) - nc_dot_re(x, s->b, n) + 0.5 * s->ywy +
+        double F = 0.5 * nc_dot_re(s, x, Nx, n) - nc_dot_re(s, x, s->b, n) + 0.5 * s->ywy +
                    s->o.lambda * reg;
         double dx = 0;
         for (size_t i = 0; i < n; i++) {
             float complex d = x[i] - xp[i];
             dx += (double)crealf(d) * crealf(d) + (double)cimagf(d) * cimagf(d);
         }
-        double xn = nc_norm(x, n);
+        double xn = nc_norm(s, x, n);
         double change = xn > 0 ? sqrt(dx) / xn : 0.0;
         KW_FAIL_IF(!isfinite(F), KW_ENUMERIC, "fista: the objective is not finite");
         if (nc_report(s, progress, user, "fista", it, s->o.iterations, F, change))

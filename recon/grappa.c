@@ -22,7 +22,7 @@ struct kw_grappa {
     double complex *row; /* ncols */
     float complex *w;    /* ntgt x nc x ncols */
     float complex *src;  /* nthreads x ncols */
-    int nthreads;
+    int nthreads;        /* the threads src is sized for (at create) */
 };
 
 size_t kw_grappa_fit_count(const kw_grappa *g) { return g ? g->nfit : 0; }
@@ -45,7 +45,7 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
 {
     KW_FAIL_IF(!out || !d || !o || nc == 0, KW_EINVAL, "grappa: NULL argument");
     *out = NULL;
-    KW_FAIL_IF(!(o->lambda >= 0) || !isfinite(o->lambda), KW_EINVAL, "lambda: must be >= 0");
+    KW_FAIL_PARAM(!(o->lambda >= 0) || !isfinite(o->lambda), KW_EINVAL, "lambda", "must be >= 0");
     kw_grappa *g = calloc(1, sizeof *g);
     KW_FAIL_IF(!g, KW_ENOMEM, "grappa: out of memory");
     g->nc = nc;
@@ -60,7 +60,7 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
         g->o.kernel[a] = K;
         g->o.offset[a] = R > 0 ? ((o->offset[a] % R) + R) % R : 0;
         if (R < 1 || K < 1) {
-            st = kw_set_error(KW_EINVAL, "kernel: sizes and accelerations must be >= 1");
+            st = kw_set_error_param(KW_EINVAL, "kernel", "sizes and accelerations must be >= 1");
             break;
         }
         rtot *= R;
@@ -73,10 +73,10 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
         if (hi - (R - 1) < bmax)
             bmax = hi - (R - 1);
         if (o->acs_n[a] == 0 || bmax < bmin) {
-            st = kw_set_error(KW_EINVAL,
-                              "acs_lines: the autocalibration block (%zu points along axis %d) "
-                              "is too small for a kernel of %d sources at R = %d",
-                              o->acs_n[a], a, K, R);
+            st = kw_set_error_param(KW_EINVAL, "acs_lines",
+                                    "the autocalibration block (%zu points along axis %d) "
+                                    "is too small for a kernel of %d sources at R = %d",
+                                    o->acs_n[a], a, K, R);
             break;
         }
         g->fit_lo[a] = (size_t)bmin;
@@ -92,10 +92,11 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
     if (g->nfit < g->ncols) {
         size_t nfit = g->nfit, ncols = g->ncols;
         kw_grappa_destroy(g);
-        return kw_set_error(KW_EINVAL,
-                            "acs_lines: the autocalibration block gives %zu fitting positions "
-                            "for %zu weights per coil; use a larger block or a smaller --kernel",
-                            nfit, ncols);
+        return kw_set_error_param(KW_EINVAL, "acs_lines",
+                                  "the autocalibration block gives %zu fitting positions "
+                                  "for %zu weights per coil; use a larger block or a smaller "
+                                  "kernel",
+                                  nfit, ncols);
     }
 #ifdef _OPENMP
     g->nthreads = omp_get_max_threads();
@@ -166,12 +167,13 @@ kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp)
         for (size_t j = i + 1; j < n; j++)
             g->aha[i * n + j] = conj(g->aha[j * n + i]);
     }
-    KW_FAIL_IF(!(tr > 0), KW_ENUMERIC, "acs_lines: the autocalibration block is empty");
+    KW_FAIL_PARAM(!(tr > 0), KW_ENUMERIC, "acs_lines", "the autocalibration block is empty");
     double lam = g->o.lambda * tr / (double)n;
     for (size_t i = 0; i < n; i++)
         g->aha[i * n + i] += lam;
-    KW_FAIL_IF(kw_chol(g->aha, n) != KW_OK, KW_ENUMERIC,
-               "acs_lines: the calibration is singular (give --lambda > 0)");
+    KW_FAIL_PARAM(kw_chol(g->aha, n) != KW_OK, KW_ENUMERIC, "acs_lines",
+                  "the calibration is singular; a regularisation weight lambda > 0 makes "
+                  "it solvable");
     double complex *L = g->aha;
     for (int t = 0; t < g->ntgt; t++) {
         int o[3];
@@ -200,7 +202,7 @@ kw_status kw_grappa_calibrate(kw_grappa *g, const float complex *ksp)
     return KW_OK;
 }
 
-kw_status kw_grappa_execute(const kw_grappa *g, const float complex *ksp, float complex *out)
+kw_status kw_grappa_execute(kw_grappa *g, const float complex *ksp, float complex *out)
 {
     KW_FAIL_IF(!g || !ksp || !out, KW_EINVAL, "grappa: NULL argument");
     size_t nc = g->nc, npix = g->npix, n = g->ncols;
@@ -215,7 +217,8 @@ kw_status kw_grappa_execute(const kw_grappa *g, const float complex *ksp, float 
         nb[a] = ((long)d[a] - b0[a] + R - 1) / R;
     }
     long total = nb[0] * nb[1] * nb[2];
-#pragma omp parallel for schedule(dynamic, 32)
+    /* num_threads: never more threads than src was sized for at create */
+#pragma omp parallel for num_threads(g->nthreads) schedule(dynamic, 32)
     for (long q = 0; q < total; q++) {
         int tid = 0;
 #ifdef _OPENMP

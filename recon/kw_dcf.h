@@ -3,6 +3,11 @@
  * Weights are in units of k-space area (or volume) per sample, in
  * (cycles/FOV)^ndim, so that a unit Cartesian grid has weight 1 and the
  * gridding reconstruction E^H W y keeps the image's scale.
+ *
+ * Threads: functions; kw_dcf_pipe() makes its own NUFFT plan (kw_nufft.h)
+ * with opts->nthreads (default: omp_get_max_threads() at the call) and
+ * allocates its own work space, so any thread may call it. Its result is
+ * bit-identical for any thread count (no FFT is involved).
  */
 #ifndef KW_DCF_H
 #define KW_DCF_H

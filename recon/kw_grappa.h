@@ -11,7 +11,14 @@
  * weights of each offset o are fitted on the fully sampled autocalibration
  * block by regularised least squares:
  *   W = (A^H A + lambda' I)^-1 A^H B,  lambda' = lambda trace(A^H A) / ncols.
- * Acquired points are kept as they are. */
+ * Acquired points are kept as they are.
+ *
+ * Threads: kw_grappa_create() sizes the per-thread source buffers for the
+ * OpenMP threads at create (omp_get_max_threads()); kw_grappa_execute() never
+ * runs more, whatever omp_set_num_threads() says later (sized for the threads
+ * at create; never runs more). Each missing point is synthesised by one
+ * thread: the result is bit-identical for any thread count. One plan per
+ * thread for calibrate and execute (both write the plan's buffers). */
 #ifndef KW_GRAPPA_H
 #define KW_GRAPPA_H
 
@@ -39,12 +46,14 @@ KW_API kw_status kw_grappa_create(kw_grappa **g, size_t nc, const size_t d[3],
                            const kw_grappa_opts *o);
 
 /*! kw_grappa_calibrate(): fit the weights on the block of `ksp` (nc, npix).
- * KW_ENUMERIC when the system is singular (e.g. an empty block, lambda 0). */
+ * KW_ENUMERIC naming "acs_lines" when the system is singular (e.g. an empty
+ * block, or lambda 0 with dependent coils). */
 KW_API kw_status kw_grappa_calibrate(kw_grappa *g, const kw_cfloat *ksp);
 
 /*! kw_grappa_execute(): `out` (nc, npix) = `ksp` with every unsampled point
- * (zero in all coils) on the lattice cells filled. Does not allocate. */
-KW_API kw_status kw_grappa_execute(const kw_grappa *g, const kw_cfloat *ksp,
+ * (zero in all coils) on the lattice cells filled. Does not allocate; writes
+ * the plan's scratch (hence the non-const plan). */
+KW_API kw_status kw_grappa_execute(kw_grappa *g, const kw_cfloat *ksp,
                             kw_cfloat *out);
 
 /*! kw_grappa_fit_count(), kw_grappa_unknowns(): fitting positions in the

@@ -31,6 +31,12 @@
  * max_{j != i} |TPSF(i; j)| / |TPSF(i; i)| for i the centre coefficient of
  * the level's diagonal band: 1 for uniform undersampling (coherent aliasing),
  * small for incoherent random patterns.
+ *
+ * Threads: kw_psf_plan and kw_tpsf_plan own an FFT plan (and a wavelet plan
+ * and a buffer for kw_tpsf): sized for the threads at create; never runs
+ * more (kw_fft.h, kw_wavelet.h); one plan per thread for execute. Their
+ * loops are elementwise: bit-identical for any thread count. kw_psf_ndft()
+ * allocates its own work space: any thread may call it at any time.
  */
 #ifndef KW_PSF_H
 #define KW_PSF_H

@@ -9,7 +9,12 @@
  * input checkerboard of the centering shift changes only the phase, which the
  * magnitude never sees, and the output shift becomes an index offset in the
  * accumulation (see fft.c for the identity), so no pass over the data is
- * spent on shifts. Odd sizes fall back on kw_fft. */
+ * spent on shifts. Odd sizes fall back on kw_fft.
+ *
+ * Threads: the plan is sized for the threads at create (kw_fft_threads(), at
+ * most the number of groups; one for odd sizes) and never runs more, whatever
+ * omp_set_num_threads() says later. One plan per thread for execute (the
+ * scratch and group sums are the plan's). */
 #ifndef KW_RSSRECON_H
 #define KW_RSSRECON_H
 

@@ -16,7 +16,14 @@
  * g_l = sqrt([(E^H E)^-1]_ll [E^H E]_ll) (Pruessmann 1999, eq. 23), and with
  * lambda > 0 its regularised form sqrt([X]_ll [E^H E]_ll),
  * X = (A + lambda' I)^-1 A (A + lambda' I)^-1, A = E^H E.
- * Unknowns whose sensitivities are all zero are left out (rho = 0, g = 0). */
+ * Unknowns whose sensitivities are all zero are left out (rho = 0, g = 0).
+ *
+ * Threads: kw_sense_create() sizes the per-thread scratch for the OpenMP
+ * threads at create (omp_get_max_threads()); kw_sense_execute() never runs
+ * more, whatever omp_set_num_threads() says later (sized for the threads at
+ * create; never runs more). Each folded pixel is solved by one thread, so the
+ * result is bit-identical for any thread count. One plan per thread for
+ * execute (the plan's buffers are written). */
 #ifndef KW_SENSE_H
 #define KW_SENSE_H
 
@@ -40,8 +47,9 @@ KW_API kw_status kw_sense_create(kw_sense **s, size_t nc, const size_t d[3],
 
 /*! kw_sense_execute(): unfold `ksp` (nc, npix) with the sensitivities `sens`
  * (nc, npix) into `img` (npix, complex, in the intensity scale of sens);
- * `gfactor` (npix floats) may be NULL. Does not allocate. KW_ENUMERIC when a
- * pixel's system is singular (lambda = 0 and dependent sensitivities). */
+ * `gfactor` (npix floats) may be NULL. Does not allocate. KW_ENUMERIC naming
+ * "lambda" (kw_last_error_param()) when a pixel's system is singular
+ * (lambda = 0 and dependent sensitivities). */
 KW_API kw_status kw_sense_execute(kw_sense *s, const kw_cfloat *ksp,
                            const kw_cfloat *sens, kw_cfloat *img,
                            float *gfactor);

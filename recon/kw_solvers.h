@@ -21,6 +21,15 @@
  * plan); the solve calls allocate nothing and may be repeated. Each solve
  * records an iteration log (iteration, objective, change) and reports each
  * iteration through the progress callback (nonzero return: KW_ECANCELLED).
+ *
+ * Threads: a solver is sized for the threads at create; never runs more: its
+ * inner products run at most the omp_get_max_threads() of kw_solver_create(),
+ * whatever omp_set_num_threads() says later (the encoder and wavelet plans
+ * keep their own counts, made at their create). The inner products add one
+ * partial sum per thread in thread order, so a solve is bit-identical from
+ * run to run for the same create-time count; other counts differ by
+ * rounding (tests/test_threads.c). One solver per thread for the solves
+ * (vectors, log and the encoder are written).
  */
 #ifndef KW_SOLVERS_H
 #define KW_SOLVERS_H

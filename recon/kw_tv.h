@@ -7,6 +7,10 @@
  * is computed by Chambolle's projection algorithm on the dual (Chambolle
  * 2004, J Math Imaging Vis 20:89), p <- P(p + D(v - mu D^H p) / (4 ndim mu)),
  * P the pixelwise projection on the unit ball, u = v - mu D^H p.
+ *
+ * Threads: plain functions without state; their OpenMP loops are elementwise
+ * (TV's sum is serial), so results are bit-identical for any thread count
+ * and any thread may call them on its own buffers.
  */
 #ifndef KW_TV_H
 #define KW_TV_H

@@ -30,6 +30,12 @@
  * one scratch image; execute calls do not allocate. One plan must not run two
  * transforms at the same time (the scratch is shared): use one plan per
  * thread. Every dimension must be divisible by 2^levels.
+ *
+ * Threads: the plan is sized for the threads at create and never runs more
+ * (its loops run at most omp_get_max_threads() of create, whatever
+ * omp_set_num_threads() says later). Each coefficient is computed by one
+ * thread in a fixed order: bit-identical for any thread count. One plan per
+ * thread for execute.
  */
 #ifndef KW_WAVELET_H
 #define KW_WAVELET_H

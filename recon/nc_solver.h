@@ -19,11 +19,15 @@ struct kw_solver {
     float complex *ybuf;           /* ndata */
     kw_iter_record *log;
     size_t nlog;
+    int nthreads;                  /* OpenMP threads at create: the loops' cap */
+    double *part;                  /* nthreads partial sums (nc_dot_re) */
 };
 
-/* vector helpers, double accumulation */
-double nc_dot_re(const float complex *a, const float complex *b, size_t n);
-double nc_norm(const float complex *a, size_t n);
+/* vector helpers, double accumulation: Re a^H b over n samples, summed per
+ * thread over fixed static blocks (at most s->nthreads threads), then the
+ * partial sums in thread order: deterministic for the solver's thread count */
+double nc_dot_re(kw_solver *s, const float complex *a, const float complex *b, size_t n);
+double nc_norm(kw_solver *s, const float complex *a, size_t n);
 /* b = E^H W y and ywy (uses s->ybuf) */
 kw_status nc_rhs(kw_solver *s, const float complex *y);
 /* R(x) for the regulariser (uses v6 / g3 as scratch) */

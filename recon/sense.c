@@ -25,8 +25,8 @@ struct kw_sense {
     kw_fft_plan *plan;
     float complex *fold; /* (nc, npix) */
     double complex *ph[3]; /* (1/R) w^{-l} per axis */
-    int nthreads;
-    double complex *work; /* per thread */
+    int nthreads;         /* the threads the scratch is sized for (at create) */
+    double complex *work; /* nthreads x wsize */
     size_t wsize;
 };
 
@@ -47,7 +47,7 @@ kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
 {
     KW_FAIL_IF(!out || !d || !accel || !offset || nc == 0, KW_EINVAL, "sense: NULL argument");
     *out = NULL;
-    KW_FAIL_IF(!(lambda >= 0) || !isfinite(lambda), KW_EINVAL, "lambda: must be >= 0");
+    KW_FAIL_PARAM(!(lambda >= 0) || !isfinite(lambda), KW_EINVAL, "lambda", "must be >= 0");
     int rtot = 1;
     for (int a = 0; a < 3; a++) {
         KW_FAIL_IF(accel[a] < 1 || d[a] % (size_t)accel[a], KW_EINVAL,
@@ -122,7 +122,9 @@ kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
     int r = s->rtot;
     int bad = 0;
     size_t badpix = 0;
-#pragma omp parallel for schedule(dynamic, 64)
+    /* num_threads: never more threads than the scratch was sized for at
+     * create, whatever omp_set_num_threads() says now */
+#pragma omp parallel for num_threads(s->nthreads) schedule(dynamic, 64)
     for (size_t q = 0; q < nred; q++) {
         int tid = 0;
 #ifdef _OPENMP
@@ -212,8 +214,9 @@ kw_status kw_sense_execute(kw_sense *s, const float complex *ksp,
             }
         }
     }
-    KW_FAIL_IF(bad, KW_ENUMERIC,
-               "sens: the unfolding is singular at pixel (%zu, %zu, %zu) (give --lambda)",
-               badpix / (d[1] * d[2]), (badpix / d[2]) % d[1], badpix % d[2]);
+    KW_FAIL_PARAM(bad, KW_ENUMERIC, "lambda",
+                  "the unfolding is singular at pixel (%zu, %zu, %zu) of the sensitivities; "
+                  "a regularisation weight > 0 makes it solvable",
+                  badpix / (d[1] * d[2]), (badpix / d[2]) % d[1], badpix % d[2]);
     return KW_OK;
 }

@@ -7,6 +7,9 @@
 
 #include <math.h>
 #include <string.h>
+#ifdef _OPENMP
+#include <omp.h>
+#endif
 
 #define KW_WAVELET_MAX_TAPS (2 * KW_WAVELET_MAX_ORDER)
 
@@ -16,6 +19,7 @@ struct kw_wavelet_plan {
     double lo[KW_WAVELET_MAX_TAPS]; /* h[m] */
     double hi[KW_WAVELET_MAX_TAPS]; /* b[m] = (-1)^m h[F-1-m] */
     float *scratch;                 /* 2 x ny x nx floats (complex fits) */
+    int nthreads;                   /* OpenMP threads at create: the loops' cap */
 };
 
 /* Daubechies 1992, Table 6.1 (normalised to sum sqrt(2)); db1 and db2 in
@@ -98,6 +102,11 @@ kw_status kw_wavelet_create(kw_wavelet_plan **plan, int order, size_t ny,
     p->order = order;
     p->taps = taps;
     p->levels = levels;
+#ifdef _OPENMP
+    p->nthreads = omp_get_max_threads();
+#else
+    p->nthreads = 1;
+#endif
     p->ny = ny;
     p->nx = nx;
     for (int m = 0; m < taps; m++) {
@@ -136,7 +145,7 @@ static void analyse_level(const kw_wavelet_plan *p, float *x, float *s,
     const long off = 1 - F / 2;
     const size_t w2 = w / 2, h2 = h / 2;
     /* rows: x -> s */
-#pragma omp parallel for schedule(static) if (h * w > 65536)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
     for (size_t r = 0; r < h; r++) {
         const float *xr = x + r * nx * nc;
         float *sr = s + r * nx * nc;
@@ -153,7 +162,7 @@ static void analyse_level(const kw_wavelet_plan *p, float *x, float *s,
             }
     }
     /* columns: s -> x */
-#pragma omp parallel for schedule(static) if (h * w > 65536)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
     for (size_t col = 0; col < w; col++)
         for (size_t k = 0; k < h2; k++)
             for (int c = 0; c < nc; c++) {
@@ -177,7 +186,7 @@ static void synthesise_level(const kw_wavelet_plan *p, float *x, float *s,
     const long off = 1 - F / 2;
     const size_t w2 = w / 2, h2 = h / 2;
     /* columns: x -> s (scatter; each column is independent) */
-#pragma omp parallel for schedule(static) if (h * w > 65536)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
     for (size_t col = 0; col < w; col++) {
         for (size_t r = 0; r < h; r++)
             for (int c = 0; c < nc; c++)
@@ -192,7 +201,7 @@ static void synthesise_level(const kw_wavelet_plan *p, float *x, float *s,
             }
     }
     /* rows: s -> x */
-#pragma omp parallel for schedule(static) if (h * w > 65536)
+#pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
     for (size_t r = 0; r < h; r++) {
         float *xr = x + r * nx * nc;
         const float *sr = s + r * nx * nc;

@@ -3,6 +3,7 @@
  * 1999; Roemer et al. 1990). The numpy comparisons are in tests/ref/. */
 #include <criterion/criterion.h>
 #include <math.h>
+#include <string.h>
 
 #include "kw_combine.h"
 #include "kw_fft.h"
@@ -70,4 +71,67 @@ Test(grappa, block_too_small)
     cr_expect_eq(kw_grappa_fit_count(g), 10 * 12);
     kw_grappa_destroy(g);
     kw_grappa_destroy(NULL);
+}
+
+/* Failures name the library's parameter (kw_last_error_param(), kw_base.h)
+ * and no command-line option: the CLI maps the name to its option. */
+static void expect_param(const char *param)
+{
+    cr_expect_str_eq(kw_last_error_param(), param, "%s", kw_last_error());
+    cr_expect(strstr(kw_last_error(), "--") == NULL, "a CLI option in \"%s\"", kw_last_error());
+}
+
+Test(sense, errors_name_the_parameter)
+{
+    /* ny = 2, R = 2, offset 1 = ny/2: both phases (1/R) w^-l are exactly
+     * 1/2; four coils of ones make E^H E = [[1, 1], [1, 1]] exactly, whose
+     * Cholesky factorisation meets a zero pivot (lambda 0) */
+    enum { NC = 4, NY = 2, NX = 4, NP = NY * NX };
+    size_t d[3] = {1, NY, NX};
+    int acc[3] = {1, 2, 1}, off[3] = {0, 1, 0};
+    kw_sense *se;
+    cr_expect_eq(kw_sense_create(&se, NC, d, acc, off, -1.0), KW_EINVAL);
+    expect_param("lambda");
+    float complex *k = kw_alloc(NC * NP * sizeof *k), *s = kw_alloc(NC * NP * sizeof *s);
+    float complex *img = kw_alloc(NP * sizeof *img);
+    for (int i = 0; i < NC * NP; i++) {
+        s[i] = 1.0f;
+        k[i] = (i / NX) % 2 ? 1.0f + 0.1f * (float)(i % 7) : 0.0f;
+    }
+    cr_assert_eq(kw_sense_create(&se, NC, d, acc, off, 0.0), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(kw_sense_execute(se, k, s, img, NULL), KW_ENUMERIC);
+    expect_param("lambda");
+    kw_sense_destroy(se);
+    kw_free(k);
+    kw_free(s);
+    kw_free(img);
+}
+
+Test(grappa, errors_name_the_parameter)
+{
+    kw_grappa *g;
+    size_t d[3] = {1, 32, 16};
+    kw_grappa_opts o = {{1, 2, 1}, {0, 0, 0}, {0, 15, 0}, {1, 3, 16}, {1, 2, 5}, 1e-4};
+    cr_expect_eq(kw_grappa_create(&g, 8, d, &o), KW_EINVAL); /* block too small */
+    expect_param("acs_lines");
+    o.lambda = -1;
+    cr_expect_eq(kw_grappa_create(&g, 8, d, &o), KW_EINVAL);
+    expect_param("lambda");
+    o.lambda = 1e-4;
+    o.kernel[1] = 0;
+    cr_expect_eq(kw_grappa_create(&g, 8, d, &o), KW_EINVAL);
+    expect_param("kernel");
+    o.kernel[1] = 2;
+    o.acs_lo[1] = 10;
+    o.acs_n[1] = 12;
+    o.kernel[2] = 16; /* 8 coils x 2 x 16 = 256 weights, 10 x 1 fitting positions */
+    cr_expect_eq(kw_grappa_create(&g, 8, d, &o), KW_EINVAL);
+    expect_param("acs_lines");
+    o.kernel[2] = 5;
+    cr_assert_eq(kw_grappa_create(&g, 8, d, &o), KW_OK, "%s", kw_last_error());
+    float complex *k = kw_alloc(8 * 32 * 16 * sizeof *k); /* zeros: an empty block */
+    cr_expect_eq(kw_grappa_calibrate(g, k), KW_ENUMERIC);
+    expect_param("acs_lines");
+    kw_grappa_destroy(g);
+    kw_free(k);
 }
