@@ -25,7 +25,9 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
     kw_recon *r = job->r;
     kw_nufft_opts no;
     kw_nc_nufft_opts(job->opt, &no);
-    kw_encoder_opts eo = {0};
+    kw_encoder_options eo;
+    kw_encoder_options_init(&eo);
+    eo.ncoils = r->nc;
     eo.tolerance = no.tolerance;
     eo.oversampling = no.oversampling;
     kw_status st;
@@ -34,8 +36,11 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
         if ((st = kw_nc_sens(job, sens)))
             return st;
         *y = job->ksp;
-        return kw_encoder_create(enc, r->nc_ndim, r->nc_dims, r->nc, *sens, NULL, r->g.dims[1],
-                                 r->g.trajectory, r->w, &eo);
+        eo.sens = *sens;
+        eo.nsamples = r->g.dims[1];
+        eo.trajectory = r->g.trajectory;
+        eo.weights = r->w;
+        return kw_encoder_create(enc, r->nc_ndim, r->nc_dims, &eo);
     }
     KW_FAIL_PARAM(r->o.dcf != KW_RECON_DCF_AUTO, KW_EINVAL, "dcf",
                   "density compensation applies to non-Cartesian data only");
@@ -51,8 +56,9 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
     KW_FAIL_IF(!*mask, KW_ENOMEM, "recon: out of memory");
     kw_cart_mask(cart->k, r->nc, cart->npix, *mask);
     *y = cart->k;
-    return kw_encoder_create(enc, r->sp_ndim, r->sp_dims, r->nc, cart->sens, *mask, 0, NULL,
-                             NULL, &eo);
+    eo.sens = cart->sens;
+    eo.mask = *mask;
+    return kw_encoder_create(enc, r->sp_ndim, r->sp_dims, &eo);
 }
 
 /* lambda relative to max |E^H W y|. */
