@@ -162,7 +162,7 @@ static int parse(recon_ctx *c, int argc, char **argv)
         return kw_cli_fail("slices", "the slice axis must be 0 or 1 (got %ld)", c->slice_axis);
     /* the options' own ranges, checked by the library before any file */
     kw_recon_options ro;
-    kw_recon_cli_options(o, 0, &ro);
+    kw_recon_cli_options(o, &ro);
     ro.method = NULL;
     kw_recon *probe = NULL;
     size_t d[3] = {1, 2, 2};
@@ -357,7 +357,7 @@ static int check_method(recon_ctx *c)
 static int run(recon_ctx *c)
 {
     kw_recon_options ro;
-    kw_recon_cli_options(&c->o, c->noncart, &ro);
+    kw_recon_cli_options(&c->o, &ro);
     ro.method = c->mname;
     kw_recon_geometry g = {0};
     g.ndim = c->ksp.ndim;

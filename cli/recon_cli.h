@@ -34,7 +34,7 @@ typedef struct kw_recon_opts {
 char *kw_recon_sidecar_rel(const char *sidecar, const char *name);
 
 /*! kw_recon_cli_options(): the library's options from the command's. */
-void kw_recon_cli_options(const kw_recon_opts *o, int noncart, kw_recon_options *ro);
+void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro);
 
 /*! kw_recon_cli_claims(): the sidecar's "acceleration" / "acs_lines" into
  * *s, *stated = 1 when either is given; -1, or an exit code (printed). */

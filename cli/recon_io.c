@@ -21,7 +21,7 @@ char *kw_recon_sidecar_rel(const char *sidecar, const char *name)
     return p;
 }
 
-void kw_recon_cli_options(const kw_recon_opts *o, int noncart, kw_recon_options *ro)
+void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro)
 {
     kw_recon_options_init(ro);
     ro->method = o->method;
@@ -43,7 +43,6 @@ void kw_recon_cli_options(const kw_recon_opts *o, int noncart, kw_recon_options 
         ro->dcf = strcmp(o->dcf, "radial") == 0 ? KW_RECON_DCF_RADIAL
                   : strcmp(o->dcf, "pipe") == 0 ? KW_RECON_DCF_PIPE
                                                 : KW_RECON_DCF_GIVEN;
-    (void)noncart;
 }
 
 /* A whole number, or a list whose product is the total; 0: absent. */

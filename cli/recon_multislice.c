@@ -286,7 +286,7 @@ static int start(ms_ctx *m, int *kind)
     cJSON_AddStringToObject(report, "sens_source", m->sens_src);
 
     kw_recon_options ro;
-    kw_recon_cli_options(o, 0, &ro);
+    kw_recon_cli_options(o, &ro);
     ro.method = m->mname;
     ro.want_gfactor = 0;
     size_t kd[3] = {m->nc, m->ny, m->nx};

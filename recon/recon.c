@@ -14,21 +14,20 @@ static const kw_recon_method_info infos[] = {
     {"fft", 1, 0, "centered unitary inverse FFT, coils combined (root-sum-of-squares by default)"},
     {"homodyne", 1, 0, "partial Fourier by homodyne detection (Noll, Nishimura & Macovski 1991)"},
     {"pocs", 1, 0, "partial Fourier by POCS (Haacke, Lindskog & Lin 1991)"},
-    {"sense", 1, 0, "SENSE unfolding, Tikhonov --lambda (Pruessmann et al. 1999)"},
-    {"grappa", 1, 0, "GRAPPA, --kernel KYxKX (Griswold et al. 2002)"},
-    {"grid", 0, 1, "gridding: density-compensated adjoint NUFFT (--dcf pipe|radial|FILE), root-sum-of-squares"},
-    {"cg-sense", 1, 1, "CG-SENSE (Pruessmann 2001), any sampling; --iterations, --stop"},
-    {"cs-wavelet", 1, 1, "compressed sensing, l1 of db4 wavelets, FISTA; --lambda (relative), --iterations, --stop"},
-    {"cs-tv", 1, 1, "compressed sensing, total variation, FISTA; --lambda (relative), --iterations, --stop"},
+    {"sense", 1, 0, "SENSE unfolding, Tikhonov lambda (Pruessmann et al. 1999)"},
+    {"grappa", 1, 0, "GRAPPA, kernel KY x KX (Griswold et al. 2002)"},
+    {"grid", 0, 1, "gridding: density-compensated adjoint NUFFT (dcf pipe, radial or given), root-sum-of-squares"},
+    {"cg-sense", 1, 1, "CG-SENSE (Pruessmann 2001), any sampling; iterations, stop"},
+    {"cs-wavelet", 1, 1, "compressed sensing, l1 of db4 wavelets, FISTA; lambda (relative), iterations, stop"},
+    {"cs-tv", 1, 1, "compressed sensing, total variation, FISTA; lambda (relative), iterations, stop"},
     {"cs-wavelet-admm", 1, 1, "as cs-wavelet, solved by ADMM"},
     {"cs-tv-admm", 1, 1, "as cs-tv, solved by ADMM"},
     {NULL, 0, 0, NULL},
 };
 
 /* The run functions, in the order of infos[]; coil_images: keep_coils gives
- * (coils, ...) rather than one complex image. (The summaries name the
- * command's options: they are its help text, kept beside the table so that
- * a method is added in one place.) */
+ * (coils, ...) rather than one complex image. (The summaries use the
+ * options' field names; the command prints them as its help.) */
 static const kw_recon_method_entry methods[] = {
     {&infos[0], kw_recon_run_fft, 1},
     {&infos[1], kw_recon_run_homodyne, 1},

@@ -13,9 +13,8 @@
 #include "kw_nufft.h"
 #include "recon_priv.h"
 
-void kw_nc_nufft_opts(const kw_recon_options *o, void *nufft_opts)
+void kw_nc_nufft_opts(const kw_recon_options *o, kw_nufft_opts *no)
 {
-    kw_nufft_opts *no = nufft_opts;
     memset(no, 0, sizeof *no);
     no->tolerance = isnan(o->tolerance) ? 1e-3 : o->tolerance;
     no->oversampling = isnan(o->oversampling) ? 0 : o->oversampling;
