@@ -227,9 +227,17 @@ static int bench_normal(int ndim, size_t n, size_t m, int threads, int reps, siz
         sens[i] = 1.0f / sqrtf((float)coils);
     for (size_t i = 0; i < np; i++)
         x[i] = 1.0f;
-    kw_encoder_opts o = {1e-3, 0, threads, 1, 0};
+    kw_encoder_options o;
+    kw_encoder_options_init(&o);
+    o.ncoils = coils;
+    o.sens = sens;
+    o.nsamples = m;
+    o.trajectory = traj;
+    o.tolerance = 1e-3;
+    o.nthreads = threads;
+    o.measure = 1;
     kw_encoder *e;
-    if (kw_encoder_create(&e, ndim, dims, coils, sens, NULL, m, traj, NULL, &o)) {
+    if (kw_encoder_create(&e, ndim, dims, &o)) {
         fprintf(stderr, "kw_bench: %s\n", kw_last_error());
         return 1;
     }

@@ -1,6 +1,8 @@
 /* cmd_recon.c: `kweave recon`: k-space (+ sidecar, maps, noise covariance,
- * trajectory) -> image, by the method asked for; optional scores against a
- * reference and a g-factor map. */
+ * trajectory) -> image by a kw_recon (recon/kw_recon.h); optional scores
+ * against a reference and a g-factor map. This file parses the options,
+ * reads the files, runs the library object and writes the files and the
+ * JSON report; multi-slice input goes to recon_multislice.c. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -13,7 +15,6 @@
 #include "npy.h"
 #include "png.h"
 #include "recon_cli.h"
-#include "recon_cart.h"
 #include "recon_multislice.h"
 
 static const char USAGE[] =
@@ -25,24 +26,27 @@ static const char USAGE[] =
     "2-D k-space (the sidecar's \"slices\", or --slices AXIS) is reconstructed\n"
     "slice by slice from the file into (slices, ny, nx). Methods:";
 
+typedef struct recon_ctx {
+    kw_recon_opts o;
+    int seen_seed, seen_rep, seen_slices;
+    long slice_axis;
+    cJSON *sidecar;
+    char *scpath;
+    kw_array ksp, traj, sens, cov, dcfw, ref, image, gfactor;
+    int noncart;
+    size_t image_dims[3];
+    int has_image_dims;
+    kw_recon_sampling claims;
+    int stated;
+    const char *mname;
+    cJSON *report;
+    kw_recon *r;
+} recon_ctx;
+
 static int ends_with(const char *s, const char *suf)
 {
     size_t n = strlen(s), m = strlen(suf);
     return n >= m && strcasecmp(s + n - m, suf) == 0;
-}
-
-/* A path from the sidecar is relative to the sidecar's directory. */
-char *kw_recon_sidecar_rel(const char *sidecar, const char *name)
-{
-    if (name[0] == '/' || !strchr(sidecar, '/'))
-        return strdup(name);
-    size_t dl = (size_t)(strrchr(sidecar, '/') - sidecar) + 1;
-    char *p = malloc(dl + strlen(name) + 1);
-    if (p) {
-        memcpy(p, sidecar, dl);
-        strcpy(p + dl, name);
-    }
-    return p;
 }
 
 /* Read a file named by an option or, failing that, by the sidecar key. */
@@ -101,323 +105,438 @@ static void add_shape(cJSON *r, const char *key, const kw_array *a)
     kw_json_add_vec(r, key, v, a->ndim);
 }
 
-int kw_cmd_recon(int argc, char **argv)
+/* The option table and the checks that need no file. -1: go on. */
+static int parse(recon_ctx *c, int argc, char **argv)
 {
-    kw_recon_opts o;
-    memset(&o, 0, sizeof o);
-    o.lambda = o.stop = o.tolerance = o.oversampling = NAN;
-    o.seed = 1;
-    int seen_seed = 0, seen_rep = 0, seen_slices = 0;
-    long slice_axis = -1;
-    const char *sens_out = NULL;
+    kw_recon_opts *o = &c->o;
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &o.in, 0, NULL, "k-space .npy (- for stdin)"},
-        {"out", KW_OPT_STRING, &o.out, 0, NULL, "image: .npy (float32, or complex64 with --keep-coils) or .png"},
-        {"method", KW_OPT_STRING, &o.method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
-        {"combine", KW_OPT_STRING, &o.combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
-        {"sens", KW_OPT_STRING, &o.sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
-        {"sens-out", KW_OPT_STRING, &sens_out, 0, NULL, "write the sensitivities estimated from the calibration block (.npy)"},
-        {"noise-cov", KW_OPT_STRING, &o.noise_cov, 0, NULL, "coil noise covariance .npy (coils, coils): prewhitening"},
-        {"kernel", KW_OPT_STRING, &o.kernel, 0, NULL, "GRAPPA kernel KYxKX (source lines x readout points; default 2x5)"},
-        {"lambda", KW_OPT_DOUBLE, &o.lambda, 0, NULL, "regularisation weight (relative; method-specific default)"},
-        {"ref", KW_OPT_STRING, &o.ref, 0, NULL, "reference image .npy: adds NRMSE, PSNR, SSIM to the report"},
-        {"json", KW_OPT_STRING, &o.json, 0, NULL, "JSON report file (- for stdout)"},
-        {"gfactor", KW_OPT_STRING, &o.gfactor, 0, NULL, "g-factor map .png or .npy"},
-        {"trajectory", KW_OPT_STRING, &o.trajectory, 0, NULL, "non-Cartesian trajectory .npy (samples, ndim), cycles/FOV"},
-        {"dcf", KW_OPT_STRING, &o.dcf, 0, NULL, "density compensation: FILE.npy, radial or pipe"},
-        {"dcf-out", KW_OPT_STRING, &o.dcf_out, 0, NULL, "write the density weights used (.npy, one per sample)"},
-        {"tolerance", KW_OPT_DOUBLE, &o.tolerance, 0, NULL, "NUFFT accuracy"},
-        {"oversampling", KW_OPT_DOUBLE, &o.oversampling, 0, NULL, "NUFFT grid oversampling"},
-        {"iterations", KW_OPT_INT, &o.iterations, 0, NULL, "iterations of iterative methods"},
-        {"stop", KW_OPT_DOUBLE, &o.stop, 0, NULL, "stop when the relative change falls below this"},
-        {"keep-coils", KW_OPT_FLAG, &o.keep_coils, 0, NULL, "write the coil images (complex64) instead of combining"},
-        {"replicas", KW_OPT_INT, &o.replicas, 0, &seen_rep, "pseudo-replicas for --gfactor (default 50; forces the pseudo-replica map)"},
-        {"seed", KW_OPT_INT, &o.seed, 0, &seen_seed, "seed of the pseudo-replica noise (default 1)"},
-        {"slices", KW_OPT_INT, &slice_axis, 0, &seen_slices,
+        {"in", KW_OPT_STRING, &o->in, 0, NULL, "k-space .npy (- for stdin)"},
+        {"out", KW_OPT_STRING, &o->out, 0, NULL, "image: .npy (float32, or complex64 with --keep-coils) or .png"},
+        {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
+        {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
+        {"sens", KW_OPT_STRING, &o->sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
+        {"sens-out", KW_OPT_STRING, &o->sens_out, 0, NULL, "write the sensitivities estimated from the calibration block (.npy)"},
+        {"noise-cov", KW_OPT_STRING, &o->noise_cov, 0, NULL, "coil noise covariance .npy (coils, coils): prewhitening"},
+        {"kernel", KW_OPT_STRING, &o->kernel, 0, NULL, "GRAPPA kernel KYxKX (source lines x readout points; default 2x5)"},
+        {"lambda", KW_OPT_DOUBLE, &o->lambda, 0, NULL, "regularisation weight (relative; method-specific default)"},
+        {"ref", KW_OPT_STRING, &o->ref, 0, NULL, "reference image .npy: adds NRMSE, PSNR, SSIM to the report"},
+        {"json", KW_OPT_STRING, &o->json, 0, NULL, "JSON report file (- for stdout)"},
+        {"gfactor", KW_OPT_STRING, &o->gfactor, 0, NULL, "g-factor map .png or .npy"},
+        {"trajectory", KW_OPT_STRING, &o->trajectory, 0, NULL, "non-Cartesian trajectory .npy (samples, ndim), cycles/FOV"},
+        {"dcf", KW_OPT_STRING, &o->dcf, 0, NULL, "density compensation: FILE.npy, radial or pipe"},
+        {"dcf-out", KW_OPT_STRING, &o->dcf_out, 0, NULL, "write the density weights used (.npy, one per sample)"},
+        {"tolerance", KW_OPT_DOUBLE, &o->tolerance, 0, NULL, "NUFFT accuracy"},
+        {"oversampling", KW_OPT_DOUBLE, &o->oversampling, 0, NULL, "NUFFT grid oversampling"},
+        {"iterations", KW_OPT_INT, &o->iterations, 0, NULL, "iterations of iterative methods"},
+        {"stop", KW_OPT_DOUBLE, &o->stop, 0, NULL, "stop when the relative change falls below this"},
+        {"keep-coils", KW_OPT_FLAG, &o->keep_coils, 0, NULL, "write the coil images (complex64) instead of combining"},
+        {"replicas", KW_OPT_INT, &o->replicas, 0, &c->seen_rep, "pseudo-replicas for --gfactor (default 50; forces the pseudo-replica map)"},
+        {"seed", KW_OPT_INT, &o->seed, 0, &c->seen_seed, "seed of the pseudo-replica noise (default 1)"},
+        {"slices", KW_OPT_INT, &c->slice_axis, 0, &c->seen_slices,
          "multi-slice 2-D input: the slice axis (1: (coils, slices, ny, nx), 0: (slices, [coils,] ny, nx));"
          " default from the sidecar's \"slices\""},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
     char usage[2048];
     size_t ul = (size_t)snprintf(usage, sizeof usage, "%s", USAGE);
-    for (const kw_recon_method *m = kw_recon_methods; m->name && ul < sizeof usage; m++)
+    for (const kw_recon_method_info *m = kw_recon_methods(); m->name && ul < sizeof usage; m++)
         ul += (size_t)snprintf(usage + ul, sizeof usage - ul, "\n  %-11s %s", m->name, m->summary);
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
         return rc;
-    if (!o.in)
+    if (!o->in)
         return kw_cli_fail("in", "missing (--in KS.npy)");
-    if (!o.out && !o.json)
+    if (!o->out && !o->json)
         return kw_cli_fail("out", "missing (--out IMG.npy or IMG.png)");
-    if (o.out && !ends_with(o.out, ".npy") && !ends_with(o.out, ".png") && strcmp(o.out, "-") != 0)
-        return kw_cli_fail("out", "'%s': give a .npy or .png file name", o.out);
-    if (o.gfactor && !ends_with(o.gfactor, ".npy") && !ends_with(o.gfactor, ".png"))
-        return kw_cli_fail("gfactor", "'%s': give a .npy or .png file name", o.gfactor);
-    if (o.combine && strcmp(o.combine, "rss") && strcmp(o.combine, "optimal") &&
-        strcmp(o.combine, "adaptive"))
-        return kw_cli_fail("combine", "'%s' is not rss, optimal or adaptive", o.combine);
-    if (o.kernel && (rc = parse_kernel(o.kernel, o.kernel_yx)) >= 0)
+    if (o->out && !ends_with(o->out, ".npy") && !ends_with(o->out, ".png") && strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': give a .npy or .png file name", o->out);
+    if (o->gfactor && !ends_with(o->gfactor, ".npy") && !ends_with(o->gfactor, ".png"))
+        return kw_cli_fail("gfactor", "'%s': give a .npy or .png file name", o->gfactor);
+    if (o->kernel && (rc = parse_kernel(o->kernel, o->kernel_yx)) >= 0)
         return rc;
-    if (!isnan(o.lambda) && !(o.lambda >= 0 && o.lambda < 1e6))
-        return kw_cli_fail("lambda", "must be >= 0 (got %g)", o.lambda);
-    if (o.iterations < 0 || o.iterations > 100000)
-        return kw_cli_fail("iterations", "must be 1 .. 100000");
-    if (!isnan(o.stop) && !(o.stop >= 0 && o.stop < 1))
-        return kw_cli_fail("stop", "must be in [0, 1)");
-    if (!isnan(o.tolerance) && !(o.tolerance > 0 && o.tolerance < 1))
-        return kw_cli_fail("tolerance", "must be in (0, 1)");
-    if (!isnan(o.oversampling) && !(o.oversampling >= 1 && o.oversampling <= 4))
-        return kw_cli_fail("oversampling", "must be in [1, 4]");
-    if (seen_rep && (o.replicas < 2 || o.replicas > 10000))
+    if (c->seen_rep && (o->replicas < 2 || o->replicas > 10000))
         return kw_cli_fail("replicas", "must be 2 .. 10000");
-    if (seen_seed && o.seed < 0)
-        return kw_cli_fail("seed", "must be >= 0");
-    (void)seen_seed;
+    if (o->sens_out && !ends_with(o->sens_out, ".npy"))
+        return kw_cli_fail("sens-out", "'%s': give a .npy file name", o->sens_out);
+    if (c->seen_slices && (c->slice_axis < 0 || c->slice_axis > 1))
+        return kw_cli_fail("slices", "the slice axis must be 0 or 1 (got %ld)", c->slice_axis);
+    /* the options' own ranges, checked by the library before any file */
+    kw_recon_options ro;
+    kw_recon_cli_options(o, &ro);
+    ro.method = NULL;
+    kw_recon *probe = NULL;
+    size_t d[3] = {1, 2, 2};
+    kw_recon_geometry g = {.ndim = 3, .dims = d};
+    kw_status st = kw_recon_create(&probe, &g, &ro);
+    kw_recon_destroy(probe);
+    if (st && strcmp(kw_last_error_param(), "kspace") != 0)
+        return kw_recon_cli_error(st, "recon");
+    return -1;
+}
 
-    if (sens_out && !ends_with(sens_out, ".npy"))
-        return kw_cli_fail("sens-out", "'%s': give a .npy file name", sens_out);
-    kw_cart_sens_out = sens_out;
-    kw_recon_job job;
-    memset(&job, 0, sizeof job);
-    job.opt = &o;
-    job.progress = kw_cli_progress;
-    cJSON *sidecar = NULL;
-    char *scpath = NULL;
-    kw_array ref = {0};
-    int exit_code = KW_EXIT_OK;
-#define FAIL(expr)                                                             \
-    do {                                                                       \
-        exit_code = (expr);                                                    \
-        goto done;                                                             \
-    } while (0)
-
+/* The sidecar next to the input, if any. -1: go on. */
+static int read_sidecar(recon_ctx *c)
+{
     kw_status st;
-    if (seen_slices && (slice_axis < 0 || slice_axis > 1))
-        FAIL(kw_cli_fail("slices", "the slice axis must be 0 or 1 (got %ld)", slice_axis));
-    if (strcmp(o.in, "-") != 0 && (scpath = kw_sidecar_path(o.in)) && access(scpath, F_OK) == 0) {
-        if ((st = kw_json_read(scpath, &sidecar)))
-            FAIL(kw_cli_status(st, "sidecar"));
-        if (!cJSON_IsObject(sidecar))
-            FAIL(kw_cli_fail("sidecar", "%s: not a JSON object", scpath));
-        const cJSON *kind = cJSON_GetObjectItemCaseSensitive(sidecar, "kind");
-        if (kind && (!cJSON_IsString(kind) || strcmp(kind->valuestring, "kspace") != 0))
-            FAIL(kw_cli_fail("kind", "%s: the sidecar describes \"%s\", not k-space", scpath,
-                             cJSON_IsString(kind) ? kind->valuestring : "?"));
-    }
-    /* Multi-slice 2-D: streamed slice by slice, never read whole. */
-    if (seen_slices || (sidecar && cJSON_GetObjectItemCaseSensitive(sidecar, "slices"))) {
-        if (sens_out)
-            FAIL(kw_cli_fail("sens-out", "not with multi-slice input (the maps are per slice)"));
-        FAIL(kw_recon_multislice(&o, sidecar, scpath, seen_slices ? (int)slice_axis : -1));
-    }
-    st = kw_npy_read(o.in, &job.ksp);
+    if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_sidecar_path(c->o.in)) ||
+        access(c->scpath, F_OK) != 0)
+        return -1;
+    if ((st = kw_json_read(c->scpath, &c->sidecar)))
+        return kw_cli_status(st, "sidecar");
+    if (!cJSON_IsObject(c->sidecar))
+        return kw_cli_fail("sidecar", "%s: not a JSON object", c->scpath);
+    const cJSON *kind = cJSON_GetObjectItemCaseSensitive(c->sidecar, "kind");
+    if (kind && (!cJSON_IsString(kind) || strcmp(kind->valuestring, "kspace") != 0))
+        return kw_cli_fail("kind", "%s: the sidecar describes \"%s\", not k-space", c->scpath,
+                           cJSON_IsString(kind) ? kind->valuestring : "?");
+    return -1;
+}
+
+/* The k-space array, checked against the sidecar's shape, and its layout. */
+static int read_kspace(recon_ctx *c)
+{
+    kw_array *k = &c->ksp;
+    kw_status st = kw_npy_read(c->o.in, k);
     if (st)
-        FAIL(kw_cli_status(st, "in"));
-    if (job.ksp.dtype != KW_C64)
-        FAIL(kw_cli_fail("in", "k-space must be complex (complex64 or complex128)"));
-    if (kw_array_all_finite(&job.ksp))
-        FAIL(kw_cli_fail("in", "%s", kw_last_error()));
+        return kw_cli_status(st, "in");
+    if (k->dtype != KW_C64)
+        return kw_cli_fail("in", "k-space must be complex (complex64 or complex128)");
+    if (kw_array_all_finite(k))
+        return kw_cli_fail("in", "%s", kw_last_error());
     /* The sidecar must describe this array: its "shape" is the array's. */
-    const cJSON *shp = sidecar ? cJSON_GetObjectItemCaseSensitive(sidecar, "shape") : NULL;
+    const cJSON *sc = c->sidecar;
+    const cJSON *shp = sc ? cJSON_GetObjectItemCaseSensitive(sc, "shape") : NULL;
     if (shp) {
-        int ok = cJSON_IsArray(shp) && cJSON_GetArraySize(shp) == job.ksp.ndim;
-        for (int i = 0; ok && i < job.ksp.ndim; i++) {
+        int ok = cJSON_IsArray(shp) && cJSON_GetArraySize(shp) == k->ndim;
+        for (int i = 0; ok && i < k->ndim; i++) {
             const cJSON *e = cJSON_GetArrayItem(shp, i);
-            ok = cJSON_IsNumber(e) && e->valuedouble == (double)job.ksp.dims[i];
+            ok = cJSON_IsNumber(e) && e->valuedouble == (double)k->dims[i];
         }
         if (!ok)
-            FAIL(kw_cli_fail("shape", "%s: the sidecar's shape does not match the k-space array "
-                             "(the sidecar belongs to another file?)", scpath));
+            return kw_cli_fail("shape", "%s: the sidecar's shape does not match the k-space array "
+                               "(the sidecar belongs to another file?)", c->scpath);
     }
-    job.sidecar = sidecar;
-
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */
-    const cJSON *lay = sidecar ? cJSON_GetObjectItemCaseSensitive(sidecar, "layout") : NULL;
-    if ((rc = read_named(o.trajectory, sidecar, scpath, "trajectory", "trajectory", &job.traj)) >= 0)
-        FAIL(rc);
-    int noncart = job.traj.data != NULL;
-    if (o.dcf_out && !noncart)
-        FAIL(kw_cli_fail("dcf-out", "density weights exist only for non-Cartesian data (a trajectory)"));
-    if (o.dcf_out && !ends_with(o.dcf_out, ".npy"))
-        FAIL(kw_cli_fail("dcf-out", "'%s': give a .npy file name", o.dcf_out));
-    if (!noncart && lay && cJSON_IsString(lay) && strcmp(lay->valuestring, "noncartesian") == 0)
-        FAIL(kw_cli_fail("trajectory", "the sidecar says non-Cartesian but names no trajectory (give --trajectory)"));
-    if (noncart) {
-        if (job.traj.dtype != KW_F32 || job.traj.ndim != 2 || job.traj.dims[1] < 1 || job.traj.dims[1] > 3)
-            FAIL(kw_cli_fail("trajectory", "must be real (samples, ndim) with ndim 1-3"));
-        if (job.ksp.ndim == 1) {
-            job.ksp.dims[1] = job.ksp.dims[0];
-            job.ksp.dims[0] = 1;
-            job.ksp.ndim = 2;
+    const cJSON *lay = sc ? cJSON_GetObjectItemCaseSensitive(sc, "layout") : NULL;
+    int rc;
+    if ((rc = read_named(c->o.trajectory, sc, c->scpath, "trajectory", "trajectory", &c->traj)) >= 0)
+        return rc;
+    c->noncart = c->traj.data != NULL;
+    if (c->o.dcf_out && !c->noncart)
+        return kw_cli_fail("dcf-out", "density weights exist only for non-Cartesian data (a trajectory)");
+    if (c->o.dcf_out && !ends_with(c->o.dcf_out, ".npy"))
+        return kw_cli_fail("dcf-out", "'%s': give a .npy file name", c->o.dcf_out);
+    if (!c->noncart && lay && cJSON_IsString(lay) && strcmp(lay->valuestring, "noncartesian") == 0)
+        return kw_cli_fail("trajectory", "the sidecar says non-Cartesian but names no trajectory (give --trajectory)");
+    if (c->noncart) {
+        const kw_array *t = &c->traj;
+        if (t->dtype != KW_F32 || t->ndim != 2 || t->dims[1] < 1 || t->dims[1] > 3)
+            return kw_cli_fail("trajectory", "must be real (samples, ndim) with ndim 1-3");
+        if (k->ndim == 1) {
+            k->dims[1] = k->dims[0];
+            k->dims[0] = 1;
+            k->ndim = 2;
         }
-        if (job.ksp.ndim != 2 || job.ksp.dims[1] != job.traj.dims[0])
-            FAIL(kw_cli_fail("in", "non-Cartesian k-space must be (coils, samples) with %zu samples (the trajectory's)",
-                             job.traj.dims[0]));
+        if (k->ndim != 2 || k->dims[1] != t->dims[0])
+            return kw_cli_fail("in", "non-Cartesian k-space must be (coils, samples) with %zu samples (the trajectory's)",
+                               t->dims[0]);
     } else {
-        int single3d = 0;
-        const cJSON *mat = sidecar ? cJSON_GetObjectItemCaseSensitive(sidecar, "matrix") : NULL;
-        if (job.ksp.ndim == 3 && mat && cJSON_GetArraySize(mat) == 3)
-            single3d = 1;
-        if (job.ksp.ndim == 2 || single3d) {
-            for (int i = job.ksp.ndim; i > 0; i--)
-                job.ksp.dims[i] = job.ksp.dims[i - 1];
-            job.ksp.dims[0] = 1;
-            job.ksp.ndim++;
+        const cJSON *mat = sc ? cJSON_GetObjectItemCaseSensitive(sc, "matrix") : NULL;
+        int single3d = k->ndim == 3 && mat && cJSON_GetArraySize(mat) == 3;
+        if (k->ndim == 2 || single3d) {
+            for (int i = k->ndim; i > 0; i--)
+                k->dims[i] = k->dims[i - 1];
+            k->dims[0] = 1;
+            k->ndim++;
         }
-        if (job.ksp.ndim < 3 || job.ksp.ndim > 4)
-            FAIL(kw_cli_fail("in", "Cartesian k-space must be (ny, nx), (coils, ny, nx) or (coils, nz, ny, nx); got %d dimensions",
-                             job.ksp.ndim));
-        for (int i = 1; i < job.ksp.ndim; i++)
-            if (job.ksp.dims[i] < 2)
-                FAIL(kw_cli_fail("in", "axis %d has %zu samples (at least 2 needed)", i, job.ksp.dims[i]));
+        if (k->ndim < 3 || k->ndim > 4)
+            return kw_cli_fail("in", "Cartesian k-space must be (ny, nx), (coils, ny, nx) or (coils, nz, ny, nx); got %d dimensions",
+                               k->ndim);
+        for (int i = 1; i < k->ndim; i++)
+            if (k->dims[i] < 2)
+                return kw_cli_fail("in", "axis %d has %zu samples (at least 2 needed)", i, k->dims[i]);
     }
-    if (job.ksp.dims[0] < 1 || job.ksp.dims[0] > 256)
-        FAIL(kw_cli_fail("in", "%zu coils (1 .. 256 supported)", job.ksp.dims[0]));
-    if ((rc = read_named(o.sens, sidecar, scpath, "sens", "sens", &job.sens)) >= 0)
-        FAIL(rc);
-    if (job.sens.data && (job.sens.dtype != KW_C64 || job.sens.dims[0] != job.ksp.dims[0]))
-        FAIL(kw_cli_fail("sens", "must be complex with one map per coil (%zu coils)", job.ksp.dims[0]));
-    if (job.sens.data && !noncart && job.sens.ndim == job.ksp.ndim - 1 && job.ksp.dims[0] == 1) {
-        for (int i = job.sens.ndim; i > 0; i--)
-            job.sens.dims[i] = job.sens.dims[i - 1];
-        job.sens.dims[0] = 1;
-        job.sens.ndim++;
+    if (k->dims[0] < 1 || k->dims[0] > 256)
+        return kw_cli_fail("in", "%zu coils (1 .. 256 supported)", k->dims[0]);
+    return -1;
+}
+
+/* Maps and noise covariance (option or sidecar). */
+static int read_maps(recon_ctx *c)
+{
+    const kw_array *k = &c->ksp;
+    kw_array *s = &c->sens;
+    int rc;
+    if ((rc = read_named(c->o.sens, c->sidecar, c->scpath, "sens", "sens", s)) >= 0)
+        return rc;
+    if (s->data && (s->dtype != KW_C64 || s->dims[0] != k->dims[0]))
+        return kw_cli_fail("sens", "must be complex with one map per coil (%zu coils)", k->dims[0]);
+    if (s->data && !c->noncart && s->ndim == k->ndim - 1 && k->dims[0] == 1) {
+        for (int i = s->ndim; i > 0; i--)
+            s->dims[i] = s->dims[i - 1];
+        s->dims[0] = 1;
+        s->ndim++;
     }
-    if (job.sens.data && !noncart) {
-        int ok = job.sens.ndim == job.ksp.ndim;
-        for (int i = 0; ok && i < job.ksp.ndim; i++)
-            ok = job.sens.dims[i] == job.ksp.dims[i];
+    if (s->data && !c->noncart) {
+        int ok = s->ndim == k->ndim;
+        for (int i = 0; ok && i < k->ndim; i++)
+            ok = s->dims[i] == k->dims[i];
         if (!ok)
-            FAIL(kw_cli_fail("sens", "shape must equal the k-space shape (coils, [nz,] ny, nx)"));
+            return kw_cli_fail("sens", "shape must equal the k-space shape (coils, [nz,] ny, nx)");
     }
-    if ((rc = read_named(o.noise_cov, sidecar, scpath, "noise_cov", "noise-cov", &job.noise_cov)) >= 0)
-        FAIL(rc);
-    if (job.noise_cov.data && (job.noise_cov.ndim != 2 || job.noise_cov.dims[0] != job.ksp.dims[0] ||
-                               job.noise_cov.dims[1] != job.ksp.dims[0] || job.noise_cov.dtype == KW_U8))
-        FAIL(kw_cli_fail("noise-cov", "shape must be (%zu, %zu), one row and column per coil",
-                         job.ksp.dims[0], job.ksp.dims[0]));
+    kw_array *q = &c->cov;
+    if ((rc = read_named(c->o.noise_cov, c->sidecar, c->scpath, "noise_cov", "noise-cov", q)) >= 0)
+        return rc;
+    if (q->data && (q->ndim != 2 || q->dims[0] != k->dims[0] || q->dims[1] != k->dims[0] || q->dtype == KW_U8))
+        return kw_cli_fail("noise-cov", "shape must be (%zu, %zu), one row and column per coil",
+                           k->dims[0], k->dims[0]);
+    if (q->data && q->dtype == KW_F32) { /* a real covariance, as complex */
+        kw_array z = {0};
+        kw_status st = kw_array_alloc(&z, KW_C64, 2, q->dims);
+        if (st)
+            return kw_cli_status(st, "noise-cov");
+        for (size_t i = 0; i < q->dims[0] * q->dims[1]; i++)
+            ((kw_cfloat *)z.data)[i] = ((const float *)q->data)[i];
+        kw_array_free(q);
+        *q = z;
+    }
+    return -1;
+}
 
-    const char *mname = o.method ? o.method : noncart ? "grid" : "fft";
-    const kw_recon_method *m = kw_recon_method_find(mname);
+/* Non-Cartesian: the image matrix from the sidecar, density weights from a file. */
+static int read_noncart(recon_ctx *c)
+{
+    int nd = (int)c->traj.dims[1];
+    const cJSON *m = c->sidecar ? cJSON_GetObjectItemCaseSensitive(c->sidecar, "matrix") : NULL;
+    if (!c->sens.data && m && cJSON_IsArray(m) && cJSON_GetArraySize(m) == nd && (nd == 2 || nd == 3)) {
+        for (int d = 0; d < nd; d++) {
+            const cJSON *v = cJSON_GetArrayItem(m, d);
+            if (!cJSON_IsNumber(v) || v->valuedouble < 2 || v->valuedouble > 65536 ||
+                v->valuedouble != floor(v->valuedouble))
+                return kw_cli_fail("sidecar", "\"matrix\" entry %d is not a size", d);
+            c->image_dims[nd - 1 - d] = (size_t)v->valuedouble;
+        }
+        c->has_image_dims = 1;
+    }
+    const char *dcf = c->o.dcf;
+    if (!dcf || !strcmp(dcf, "radial") || !strcmp(dcf, "pipe"))
+        return -1;
+    kw_status st = kw_npy_read(dcf, &c->dcfw);
+    if (st)
+        return kw_cli_fail("dcf", "expected radial, pipe or a weights .npy file; %s", kw_last_error());
+    size_t n = kw_array_count(&c->dcfw), ns = c->traj.dims[0];
+    if (c->dcfw.dtype != KW_F32 || n != ns)
+        return kw_cli_fail("dcf", "%s must hold %zu real weights (one per sample), has %zu%s", dcf, ns, n,
+                           c->dcfw.dtype == KW_F32 ? "" : " non-real values");
+    return -1;
+}
+
+static int check_method(recon_ctx *c)
+{
+    c->mname = c->o.method ? c->o.method : c->noncart ? "grid" : "fft";
+    const kw_recon_method_info *m = kw_recon_method_find(c->mname);
     if (!m)
-        FAIL(kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", mname));
-    if (noncart && !m->noncartesian)
-        FAIL(kw_cli_fail("method", "%s takes Cartesian data only; this input has a trajectory", mname));
-    if (!noncart && !m->cartesian)
-        FAIL(kw_cli_fail("method", "%s takes non-Cartesian data only (give --trajectory)", mname));
-    if (o.ref) {
-        if ((st = kw_npy_read(o.ref, &ref)))
-            FAIL(kw_cli_status(st, "ref"));
-        if (kw_array_all_finite(&ref))
-            FAIL(kw_cli_fail("ref", "%s", kw_last_error()));
-        if (ref.dtype == KW_U8)
-            FAIL(kw_cli_fail("ref", "must be float or complex"));
+        return kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", c->mname);
+    if (c->noncart && !m->noncartesian)
+        return kw_cli_fail("method", "%s takes Cartesian data only; this input has a trajectory", c->mname);
+    if (!c->noncart && !m->cartesian)
+        return kw_cli_fail("method", "%s takes non-Cartesian data only (give --trajectory)", c->mname);
+    if (c->o.ref) {
+        kw_status st;
+        if ((st = kw_npy_read(c->o.ref, &c->ref)))
+            return kw_cli_status(st, "ref");
+        if (kw_array_all_finite(&c->ref))
+            return kw_cli_fail("ref", "%s", kw_last_error());
+        if (c->ref.dtype == KW_U8)
+            return kw_cli_fail("ref", "must be float or complex");
     }
+    return -1;
+}
 
-    job.report = cJSON_CreateObject();
-    if (!job.report)
-        FAIL(kw_cli_fail("json", "out of memory"));
-    cJSON_AddStringToObject(job.report, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(job.report, "kind", "recon");
-    cJSON_AddStringToObject(job.report, "method", mname);
-    cJSON_AddStringToObject(job.report, "input", o.in);
-    cJSON_AddStringToObject(job.report, "layout", noncart ? "noncartesian" : "cartesian");
-    add_shape(job.report, "kspace_shape", &job.ksp);
-    cJSON_AddNumberToObject(job.report, "coils", (double)job.ksp.dims[0]);
-    cJSON_AddStringToObject(job.report, "sens_source",
-                            job.sens.data ? (o.sens ? "file (--sens)" : "file (sidecar)") : "none");
-
-    st = m->run(&job);
+/* Create and execute the kw_recon: c->image (and c->gfactor). */
+static int run(recon_ctx *c)
+{
+    kw_recon_options ro;
+    kw_recon_cli_options(&c->o, &ro);
+    ro.method = c->mname;
+    kw_recon_geometry g = {0};
+    g.ndim = c->ksp.ndim;
+    g.dims = c->ksp.dims;
+    if (c->noncart) {
+        g.trajectory = c->traj.data;
+        g.traj_ndim = (int)c->traj.dims[1];
+        g.image_dims = c->has_image_dims ? c->image_dims : NULL;
+        g.weights = c->dcfw.data;
+    }
+    g.sens = c->sens.data;
+    g.sens_ndim = c->sens.ndim;
+    g.sens_dims = c->sens.dims;
+    g.noise_cov = c->cov.data;
+    g.sampling = c->stated ? &c->claims : NULL;
+    kw_status st = kw_recon_create(&c->r, &g, &ro);
+    if (st)
+        return kw_recon_cli_error(st, c->mname);
+    int nd, cplx;
+    size_t d[4];
+    kw_recon_image_shape(c->r, &nd, d, &cplx);
+    if ((st = kw_array_alloc(&c->image, cplx ? KW_C64 : KW_F32, nd, d)))
+        return kw_cli_status(st, "out");
+    if (c->o.gfactor) {
+        kw_recon_gfactor_shape(c->r, &nd, d);
+        if ((st = kw_array_alloc(&c->gfactor, KW_F32, nd, d)))
+            return kw_cli_status(st, "gfactor");
+    }
+    st = kw_recon_execute(c->r, c->ksp.data, c->image.data, c->gfactor.data, kw_cli_progress, NULL);
     kw_cli_progress_done();
     if (st)
-        FAIL(kw_cli_status(st, mname));
-    if (!job.image.data)
-        FAIL(kw_cli_fail(mname, "internal: the method made no image"));
-    if (kw_array_all_finite(&job.image))
-        FAIL(kw_cli_fail(mname, "the reconstruction is not finite (%s); try --lambda", kw_last_error()));
-    {
-        /* drop the key that the method may have replaced */
-        cJSON *items = job.report->child;
-        int nsrc = 0;
-        for (cJSON *it = items; it; it = it->next)
-            nsrc += it->string && strcmp(it->string, "sens_source") == 0;
-        if (nsrc > 1)
-            cJSON_DeleteItemFromObjectCaseSensitive(job.report, "sens_source");
-    }
-    add_shape(job.report, "image_shape", &job.image);
+        return kw_recon_cli_error(st, c->mname);
+    return -1;
+}
 
-    if (o.gfactor) {
-        if (!job.gfactor.data || seen_rep) {
-            kw_array_free(&job.gfactor);
-            if ((st = kw_recon_pseudo_replica(&job, m)))
-                FAIL(kw_cli_status(st, "gfactor"));
+/* Files the library's results make beside the image: --sens-out, --dcf-out. */
+static int write_side_files(recon_ctx *c, const char **sens_file, const char **dcf_file)
+{
+    kw_status st;
+    *sens_file = *dcf_file = NULL;
+    int nd;
+    size_t d[4];
+    const kw_cfloat *s = c->o.sens_out ? kw_recon_estimated_sens(c->r, &nd, d) : NULL;
+    if (s) {
+        /* the maps as estimated: in the whitened coil basis when a noise
+         * covariance was given */
+        kw_array a = {0};
+        a.dtype = KW_C64;
+        a.ndim = nd;
+        memcpy(a.dims, d, (size_t)nd * sizeof *d);
+        a.data = (void *)s;
+        if ((st = kw_npy_write(c->o.sens_out, &a)))
+            return kw_cli_status(st, c->mname);
+        *sens_file = c->o.sens_out;
+    }
+    size_t n;
+    const float *w = c->o.dcf_out ? kw_recon_density_weights(c->r, &n) : NULL;
+    if (w) {
+        kw_array a = {.dtype = KW_F32, .ndim = 1, .dims = {n}, .data = (void *)w};
+        if ((st = kw_npy_write(c->o.dcf_out, &a)))
+            return kw_cli_fail("dcf-out", "%s", kw_last_error());
+        *dcf_file = c->o.dcf_out;
+    }
+    return -1;
+}
+
+/* Scores against --ref (coil images scored by their root-sum-of-squares). */
+static int score(recon_ctx *c)
+{
+    kw_array test = c->image, tmp = {0};
+    kw_status st;
+    if (c->image.dtype == KW_C64 && c->image.ndim == c->ref.ndim + 1) {
+        size_t nc = c->image.dims[0], np = kw_array_count(&c->image) / nc;
+        if ((st = kw_array_alloc(&tmp, KW_F32, c->ref.ndim, c->image.dims + 1)))
+            return kw_cli_status(st, "ref");
+        for (size_t p = 0; p < np; p++) {
+            double s = 0;
+            for (size_t k = 0; k < nc; k++)
+                s += pow(cabsf(((float complex *)c->image.data)[k * np + p]), 2);
+            ((float *)tmp.data)[p] = (float)sqrt(s);
         }
-        if (kw_array_all_finite(&job.gfactor))
-            FAIL(kw_cli_fail("gfactor", "the map is not finite"));
-        /* summary over the pixels where the map is defined (> 0) */
-        const float *g = job.gfactor.data;
-        size_t n = kw_array_count(&job.gfactor), cnt = 0;
-        double sum = 0, mx = 0;
-        for (size_t i = 0; i < n; i++)
-            if (g[i] > 0) {
-                sum += g[i];
-                mx = g[i] > mx ? g[i] : mx;
-                cnt++;
-            }
-        cJSON_AddNumberToObject(job.report, "gfactor_mean", cnt ? sum / (double)cnt : 0);
-        cJSON_AddNumberToObject(job.report, "gfactor_max", mx);
-        cJSON_AddStringToObject(job.report, "gfactor_file", o.gfactor);
+        test = tmp;
     }
+    kw_scores sc;
+    st = kw_metrics_compute(&c->ref, &test, &sc);
+    kw_array_free(&tmp);
+    if (st)
+        return kw_cli_status(st, "ref");
+    cJSON *s = cJSON_AddObjectToObject(c->report, "scores");
+    kw_json_add_scores(s, sc.nrmse, sc.psnr_db, sc.ssim);
+    cJSON_AddStringToObject(s, "ref", c->o.ref);
+    if ((!c->o.out || strcmp(c->o.out, "-")) && (!c->o.json || strcmp(c->o.json, "-")))
+        printf("%s: nrmse %.4f  psnr %.2f dB  ssim %.4f\n", c->mname, sc.nrmse, sc.psnr_db, sc.ssim);
+    return -1;
+}
 
-    if (o.ref) {
-        kw_array test = job.image;
-        kw_array tmp = {0};
-        if (job.image.dtype == KW_C64 && job.image.ndim == ref.ndim + 1) {
-            /* --keep-coils: score the root-sum-of-squares of the coils */
-            size_t nc = job.image.dims[0], np = kw_array_count(&job.image) / nc;
-            if ((st = kw_array_alloc(&tmp, KW_F32, ref.ndim, job.image.dims + 1)))
-                FAIL(kw_cli_status(st, "ref"));
-            for (size_t p = 0; p < np; p++) {
-                double s = 0;
-                for (size_t c = 0; c < nc; c++)
-                    s += pow(cabsf(((float complex *)job.image.data)[c * np + p]), 2);
-                ((float *)tmp.data)[p] = (float)sqrt(s);
-            }
-            test = tmp;
+/* The report, in the order of keys the command has always written. */
+static int report(recon_ctx *c)
+{
+    const kw_recon_report *p = kw_recon_get_report(c->r);
+    const char *sens_file, *dcf_file;
+    int rc = write_side_files(c, &sens_file, &dcf_file);
+    if (rc >= 0)
+        return rc;
+    cJSON *j = c->report = cJSON_CreateObject();
+    if (!j)
+        return kw_cli_fail("json", "out of memory");
+    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+    cJSON_AddStringToObject(j, "kind", "recon");
+    cJSON_AddStringToObject(j, "method", c->mname);
+    cJSON_AddStringToObject(j, "input", c->o.in);
+    cJSON_AddStringToObject(j, "layout", c->noncart ? "noncartesian" : "cartesian");
+    add_shape(j, "kspace_shape", &c->ksp);
+    cJSON_AddNumberToObject(j, "coils", (double)c->ksp.dims[0]);
+    if (!p->sens_estimated)
+        cJSON_AddStringToObject(j, "sens_source",
+                                c->sens.data ? (c->o.sens ? "file (--sens)" : "file (sidecar)") : "none");
+    kw_recon_json_method(j, p, c->o.dcf, dcf_file, sens_file);
+    add_shape(j, "image_shape", &c->image);
+    if (c->o.gfactor) {
+        if (p->gfactor_method) {
+            cJSON_AddStringToObject(j, "gfactor_method", p->gfactor_method);
+            cJSON_AddNumberToObject(j, "gfactor_replicas", p->gfactor_replicas);
         }
-        kw_scores sc;
-        st = kw_metrics_compute(&ref, &test, &sc);
-        kw_array_free(&tmp);
-        if (st)
-            FAIL(kw_cli_status(st, "ref"));
-        cJSON *s = cJSON_AddObjectToObject(job.report, "scores");
-        kw_json_add_scores(s, sc.nrmse, sc.psnr_db, sc.ssim);
-        cJSON_AddStringToObject(s, "ref", o.ref);
-        if ((!o.out || strcmp(o.out, "-")) && (!o.json || strcmp(o.json, "-")))
-            printf("%s: nrmse %.4f  psnr %.2f dB  ssim %.4f\n", mname, sc.nrmse, sc.psnr_db, sc.ssim);
+        cJSON_AddNumberToObject(j, "gfactor_mean", p->gfactor_mean);
+        cJSON_AddNumberToObject(j, "gfactor_max", p->gfactor_max);
+        cJSON_AddStringToObject(j, "gfactor_file", c->o.gfactor);
     }
+    if (c->o.ref && (rc = score(c)) >= 0)
+        return rc;
+    kw_status st;
+    if (c->o.out && (st = write_image(c->o.out, &c->image)))
+        return kw_cli_status(st, "out");
+    if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor)))
+        return kw_cli_status(st, "gfactor");
+    if (c->o.out)
+        cJSON_AddStringToObject(j, "output", c->o.out);
+    if (c->o.json && (st = kw_json_write(c->o.json, j)))
+        return kw_cli_status(st, "json");
+    return -1;
+}
 
-    if (o.out && (st = write_image(o.out, &job.image)))
-        FAIL(kw_cli_status(st, "out"));
-    if (o.gfactor && (st = write_image(o.gfactor, &job.gfactor)))
-        FAIL(kw_cli_status(st, "gfactor"));
-    if (o.out)
-        cJSON_AddStringToObject(job.report, "output", o.out);
-    if (o.json && (st = kw_json_write(o.json, job.report)))
-        FAIL(kw_cli_status(st, "json"));
+static int recon_main(recon_ctx *c, int argc, char **argv)
+{
+    int rc;
+    if ((rc = parse(c, argc, argv)) >= 0 || (rc = read_sidecar(c)) >= 0)
+        return rc;
+    /* Multi-slice 2-D: streamed slice by slice, never read whole. */
+    if (c->seen_slices || (c->sidecar && cJSON_GetObjectItemCaseSensitive(c->sidecar, "slices"))) {
+        if (c->o.sens_out)
+            return kw_cli_fail("sens-out", "not with multi-slice input (the maps are per slice)");
+        return kw_recon_multislice(&c->o, c->sidecar, c->scpath, c->seen_slices ? (int)c->slice_axis : -1);
+    }
+    if ((rc = read_kspace(c)) >= 0 || (rc = read_maps(c)) >= 0 || (rc = check_method(c)) >= 0)
+        return rc;
+    if (c->noncart && (rc = read_noncart(c)) >= 0)
+        return rc;
+    if (!c->noncart && (rc = kw_recon_cli_claims(c->sidecar, &c->claims, &c->stated)) >= 0)
+        return rc;
+    if ((rc = run(c)) >= 0 || (rc = report(c)) >= 0)
+        return rc;
+    return KW_EXIT_OK;
+}
 
-done:
+int kw_cmd_recon(int argc, char **argv)
+{
+    recon_ctx c;
+    memset(&c, 0, sizeof c);
+    c.o.lambda = c.o.stop = c.o.tolerance = c.o.oversampling = NAN;
+    c.o.seed = 1;
+    c.slice_axis = -1;
+    int rc = recon_main(&c, argc, argv);
     kw_cli_progress_done();
-    kw_array_free(&job.ksp);
-    kw_array_free(&job.traj);
-    kw_array_free(&job.sens);
-    kw_array_free(&job.noise_cov);
-    kw_array_free(&job.image);
-    kw_array_free(&job.gfactor);
-    kw_array_free(&ref);
-    cJSON_Delete(job.report);
-    cJSON_Delete(sidecar);
-    free(scpath);
-    return exit_code;
-#undef FAIL
+    kw_recon_destroy(c.r);
+    kw_array *arrays[] = {&c.ksp, &c.traj, &c.sens, &c.cov, &c.dcfw, &c.ref, &c.image, &c.gfactor};
+    for (size_t i = 0; i < sizeof arrays / sizeof arrays[0]; i++)
+        kw_array_free(arrays[i]);
+    cJSON_Delete(c.report);
+    cJSON_Delete(c.sidecar);
+    free(c.scpath);
+    return rc;
 }

@@ -7,10 +7,6 @@
 
 #include "recon_cli.h"
 
-/*! kw_recon_sidecar_rel(): a file name from the sidecar, relative to the
- * sidecar's directory (malloc'd). In cmd_recon.c. */
-char *kw_recon_sidecar_rel(const char *sidecar, const char *name);
-
 /*! kw_recon_multislice(): reconstruct every slice of o->in as its own 2-D
  * problem with the Cartesian method asked for. `axis`: the slice axis given
  * by --slices, or -1 to take the layout from the sidecar's "slices" key.

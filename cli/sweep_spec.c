@@ -10,7 +10,7 @@
 #include "cli.h"
 #include "jsonio.h"
 #include "kw_rng.h"
-#include "recon_cli.h"
+#include "kw_recon.h"
 #include "sweep.h"
 
 #define MAX_AXIS 256
@@ -458,7 +458,7 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
             name = cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(e, "name"));
         }
         snprintf(f, sizeof f, "spec.methods[%d].name", i);
-        const kw_recon_method *rm = name ? kw_recon_method_find(name) : NULL;
+        const kw_recon_method_info *rm = name ? kw_recon_method_find(name) : NULL;
         if (!rm) {
             rc = kw_cli_fail(f, "unknown method '%s' (kweave recon --help lists them)",
                              name ? name : "(not a string)");

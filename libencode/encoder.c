@@ -146,20 +146,38 @@ done:
     return st;
 }
 
+void kw_encoder_options_init(kw_encoder_options *o)
+{
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    o->ncoils = 1;
+}
+
 kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
-                            size_t ncoils, const float complex *sens,
-                            const uint8_t *mask, size_t nsamples,
-                            const float *traj, const float *weights,
-                            const kw_encoder_opts *opts)
+                            const kw_encoder_options *options)
 {
     KW_FAIL_IF(!enc, KW_EINVAL, "encoder: NULL pointer");
     *enc = NULL;
+    kw_encoder_options eo;
+    kw_encoder_options_init(&eo);
+    if (options) {
+        kw_status ost = kw_options_take(&eo, sizeof eo, options, "options");
+        if (ost)
+            return ost;
+    }
+    const kw_encoder_options *opts = &eo;
+    size_t ncoils = eo.ncoils, nsamples = eo.nsamples;
+    const float complex *sens = eo.sens;
+    const uint8_t *mask = eo.mask;
+    const float *traj = eo.trajectory, *weights = eo.weights;
     KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "encoder: %d dimensions (2 or 3)", ndim);
     KW_FAIL_IF(!dims, KW_EINVAL, "encoder: NULL dims");
-    KW_FAIL_IF(ncoils < 1, KW_EINVAL, "coils: at least one");
-    KW_FAIL_IF(!sens && ncoils != 1, KW_EINVAL, "sens: needed for %zu coils", ncoils);
-    KW_FAIL_IF(traj && mask, KW_EINVAL, "encoder: a mask applies to Cartesian data only");
-    KW_FAIL_IF(traj && nsamples == 0, KW_EINVAL, "trajectory: no samples");
+    KW_FAIL_PARAM(ncoils < 1, KW_EINVAL, "ncoils", "at least one");
+    KW_FAIL_PARAM(!sens && ncoils != 1, KW_EINVAL, "sens", "needed for %zu coils", ncoils);
+    KW_FAIL_PARAM(traj && mask, KW_EINVAL, "mask", "a mask applies to Cartesian data only");
+    KW_FAIL_PARAM(traj && nsamples == 0, KW_EINVAL, "nsamples", "no samples with a trajectory");
     kw_encoder *e = calloc(1, sizeof *e);
     KW_FAIL_IF(!e, KW_ENOMEM, "encoder: out of memory");
     kw_status st = KW_OK;
@@ -174,7 +192,7 @@ kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
     e->ncoils = ncoils;
     e->noncart = traj != NULL;
     e->nk = traj ? nsamples : e->npix;
-    e->direct = opts && opts->direct_normal;
+    e->direct = opts->direct_normal;
     if (sens) {
         e->sens = kw_alloc(ncoils * e->npix * sizeof(float complex));
         KW_FAIL_GOTO(!e->sens, st, KW_ENOMEM, fail, "encoder: out of memory for sens");
@@ -199,16 +217,10 @@ kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
     }
     e->cbuf = kw_alloc(ncoils * e->npix * sizeof(float complex));
     KW_FAIL_GOTO(!e->cbuf, st, KW_ENOMEM, fail, "encoder: out of memory");
-    kw_nufft_opts no = {0, 0, 0, 0};
-    if (opts) {
-        no.tolerance = opts->tolerance;
-        no.oversampling = opts->oversampling;
-        no.nthreads = opts->nthreads;
-        no.measure = opts->measure;
-    }
+    kw_nufft_opts no = {opts->tolerance, opts->oversampling, opts->nthreads, opts->measure};
     if (!e->noncart) {
         st = kw_fft_create(&e->fft, ndim, dims, ncoils,
-                           opts && opts->measure ? KW_FFT_MEASURE : KW_FFT_ESTIMATE);
+                           opts->measure ? KW_FFT_MEASURE : KW_FFT_ESTIMATE);
         if (st)
             goto fail;
     } else {

@@ -31,26 +31,37 @@ extern "C" {
 
 typedef struct kw_encoder kw_encoder;
 
-typedef struct kw_encoder_opts {
-    double tolerance;    /* NUFFT tolerance (0: 1e-3); see kw_nufft.h */
-    double oversampling; /* NUFFT oversampling (0: chosen) */
-    int nthreads;        /* <= 0: OpenMP's default */
-    int measure;         /* FFTW_MEASURE plans */
-    int direct_normal;   /* non-Cartesian: E^H W E as adjoint(forward) instead
-                            of Toeplitz embedding (for checks) */
-} kw_encoder_opts;
+/* Everything but the image shape: filled with the defaults by
+ * kw_encoder_options_init() (one coil of ones, fully sampled Cartesian, no
+ * weights, NUFFT defaults), then set what applies. The arrays are copied by
+ * kw_encoder_create(). */
+typedef struct kw_encoder_options {
+    size_t struct_size;        /* set by kw_encoder_options_init() */
+    size_t ncoils;             /* coils (default 1) */
+    const kw_cfloat *sens;     /* ncoils x prod(dims) maps, or NULL: one coil of ones */
+    const uint8_t *mask;       /* Cartesian: prod(dims) bytes, nonzero = sampled;
+                                  NULL = all */
+    size_t nsamples;           /* non-Cartesian: samples of `trajectory` */
+    const float *trajectory;   /* nsamples x ndim, cycles/FOV (kw_nufft.h), or
+                                  NULL: Cartesian */
+    const float *weights;      /* W: nk floats >= 0, or NULL */
+    double tolerance;          /* NUFFT tolerance (0: 1e-3); see kw_nufft.h */
+    double oversampling;       /* NUFFT oversampling (0: chosen) */
+    int nthreads;              /* <= 0: OpenMP's default */
+    int measure;               /* FFTW_MEASURE plans */
+    int direct_normal;         /* non-Cartesian: E^H W E as adjoint(forward) instead
+                                  of Toeplitz embedding (for checks) */
+} kw_encoder_options;
 
-/*! kw_encoder_create(): `ndim` (2 or 3) image axes `dims`; `ncoils` maps
- * `sens` (ncoils x prod(dims)), or sens == NULL for one coil of ones.
- * Cartesian: traj == NULL, `mask` (prod(dims) bytes, nonzero = sampled;
- * NULL = all). Non-Cartesian: `traj` (nsamples x ndim, cycles/FOV, see
- * kw_nufft.h), mask must be NULL. `weights`: W (nk floats >= 0) or NULL.
- * `opts` may be NULL. */
+/*! kw_encoder_options_init(): the defaults, struct_size set. */
+KW_API void kw_encoder_options_init(kw_encoder_options *o);
+
+/*! kw_encoder_create(): E for an image of `ndim` (2 or 3) axes `dims` (C
+ * order) with the coils, maps, sampling and weights of `options` (NULL: the
+ * defaults). Errors name the field at fault (kw_last_error_param():
+ * "ncoils", "sens", "mask", "nsamples", "options", ...). */
 KW_API kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
-                            size_t ncoils, const kw_cfloat *sens,
-                            const uint8_t *mask, size_t nsamples,
-                            const float *traj, const float *weights,
-                            const kw_encoder_opts *opts);
+                                   const kw_encoder_options *options);
 
 /*! kw_encoder_forward(): y = E x. x: prod(dims); y: ncoils x nk. */
 KW_API kw_status kw_encoder_forward(kw_encoder *enc, const kw_cfloat *x,

@@ -186,10 +186,10 @@ kw_status kw_coilsens_walsh(const float complex *ksp, size_t nc, const size_t d[
 {
     KW_FAIL_IF(!ksp || !d || !s || !sens || nc == 0, KW_EINVAL, "sens: NULL argument");
     for (int a = 0; a < 3; a++)
-        KW_FAIL_IF(d[a] > 1 && s->acs_n[a] < 4 && s->acs_n[a] < d[a], KW_EINVAL,
-                   "sens: no autocalibration block in the data to estimate "
-                   "sensitivities from (%zu lines along axis %d; give --sens)",
-                   s->acs_n[a], a);
+        KW_FAIL_PARAM(d[a] > 1 && s->acs_n[a] < 4 && s->acs_n[a] < d[a], KW_EINVAL, "sens",
+                      "no autocalibration block in the data to estimate "
+                      "sensitivities from (%zu lines along axis %d; give maps)",
+                      s->acs_n[a], a);
     size_t npix = d[0] * d[1] * d[2];
     int rank = d[0] > 1 ? 3 : 2;
     size_t fd[3] = {d[0], d[1], d[2]};

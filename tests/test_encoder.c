@@ -79,9 +79,17 @@ static void run_case(const ecase *c)
             w[j] = (float)(0.2 + urand(&seed));
     }
     kw_encoder *e, *ed = NULL;
-    kw_encoder_opts o = {1e-6, 0, 2, 0, 0};
-    cr_assert_eq(kw_encoder_create(&e, c->ndim, c->dims, c->ncoils, sens, mask, ns, traj,
-                                   w, &o), KW_OK, "%s", kw_last_error());
+    kw_encoder_options o;
+    kw_encoder_options_init(&o);
+    o.ncoils = c->ncoils;
+    o.sens = sens;
+    o.mask = mask;
+    o.nsamples = ns;
+    o.trajectory = traj;
+    o.weights = w;
+    o.tolerance = 1e-6;
+    o.nthreads = 2;
+    cr_assert_eq(kw_encoder_create(&e, c->ndim, c->dims, &o), KW_OK, "%s", kw_last_error());
     size_t nk = kw_encoder_kpoints(e);
     float complex *x = malloc(np * sizeof *x), *x2 = malloc(np * sizeof *x);
     float complex *y = malloc(c->ncoils * nk * sizeof *y), *ey = malloc(c->ncoils * nk * sizeof *y);
@@ -110,8 +118,8 @@ static void run_case(const ecase *c)
     cr_expect(fabs(cimag(nxx)) <= 1e-5 * fabs(creal(nxx)) && creal(nxx) > 0);
     if (c->noncart) {
         o.direct_normal = 1;
-        cr_assert_eq(kw_encoder_create(&ed, c->ndim, c->dims, c->ncoils, sens, NULL, ns,
-                                       traj, w, &o), KW_OK);
+        o.mask = NULL;
+        cr_assert_eq(kw_encoder_create(&ed, c->ndim, c->dims, &o), KW_OK);
         cr_assert_eq(kw_encoder_normal(ed, x, n2), KW_OK);
         cr_expect(rel(n1, n2, np) <= 2e-5, "Toeplitz vs direct: %g", rel(n1, n2, np));
         kw_encoder_destroy(ed);
@@ -134,7 +142,7 @@ Test(encoder, single_coil_is_fft)
 {
     size_t d[2] = {8, 6};
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, NULL, NULL), KW_OK);
+    cr_assert_eq(kw_encoder_create(&e, 2, d, NULL), KW_OK);
     float complex x[48], y[48], f[48];
     fill(x, 48, 4);
     for (int i = 0; i < 48; i++)
@@ -156,10 +164,25 @@ Test(encoder, bad_input)
     for (int i = 0; i < 64; i++)
         w[i] = 1;
     w[5] = -1;
-    cr_expect_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, w, NULL), KW_ERANGE);
-    cr_expect_eq(kw_encoder_create(&e, 2, d, 2, NULL, NULL, 0, NULL, NULL, NULL), KW_EINVAL);
+    kw_encoder_options o;
+    kw_encoder_options_init(&o);
+    cr_expect_eq(o.struct_size, sizeof o);
+    cr_expect_eq(o.ncoils, 1);
+    o.weights = w;
+    cr_expect_eq(kw_encoder_create(&e, 2, d, &o), KW_ERANGE);
+    kw_encoder_options_init(&o);
+    o.ncoils = 2; /* two coils need maps */
+    cr_expect_eq(kw_encoder_create(&e, 2, d, &o), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "sens");
     float tr[2] = {4.0f, 0.0f};
-    cr_expect_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 1, tr, NULL, NULL), KW_ERANGE);
+    kw_encoder_options_init(&o);
+    o.nsamples = 1;
+    o.trajectory = tr;
+    cr_expect_eq(kw_encoder_create(&e, 2, d, &o), KW_ERANGE);
+    kw_encoder_options_init(&o);
+    o.struct_size = 0; /* never initialised */
+    cr_expect_eq(kw_encoder_create(&e, 2, d, &o), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
     cr_expect(e == NULL);
     kw_encoder_destroy(NULL);
 }

@@ -67,7 +67,7 @@ Test(solver, cg_sense_cartesian_r2_exact)
     for (size_t i = 0; i < n; i++)
         mask[i] = ((i / nx) % 2 == 0) || ((i / nx) >= 12 && (i / nx) < 20);
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, d, nc, sens, mask, 0, NULL, NULL, NULL), KW_OK);
+    cr_assert_eq(kw_encoder_create(&e, 2, d, &(kw_encoder_options){.struct_size = sizeof(kw_encoder_options), .ncoils = nc, .sens = sens, .mask = mask}), KW_OK);
     float complex *xt = malloc(n * sizeof *xt), *x = calloc(n, sizeof *x);
     float complex *y = malloc(nc * n * sizeof *y);
     phantom(xt, ny, nx);
@@ -95,8 +95,15 @@ Test(solver, cg_sense_noncartesian_exact)
         tr[j] = (float)(-12 + 24 * urand(&seed)) * 0.999f;
     float complex *sens = coil_maps(nc, ny, nx);
     kw_encoder *e;
-    kw_encoder_opts eo = {1e-6, 0, 1, 0, 0};
-    cr_assert_eq(kw_encoder_create(&e, 2, d, nc, sens, NULL, ns, tr, NULL, &eo), KW_OK);
+    kw_encoder_options eo;
+    kw_encoder_options_init(&eo);
+    eo.ncoils = nc;
+    eo.sens = sens;
+    eo.nsamples = ns;
+    eo.trajectory = tr;
+    eo.tolerance = 1e-6;
+    eo.nthreads = 1;
+    cr_assert_eq(kw_encoder_create(&e, 2, d, &eo), KW_OK);
     float complex *xt = malloc(n * sizeof *xt), *x = calloc(n, sizeof *x);
     float complex *y = malloc(nc * ns * sizeof *y);
     phantom(xt, ny, nx);
@@ -116,7 +123,7 @@ static void closed_form_case(int admm)
 {
     size_t ny = 32, nx = 32, n = ny * nx, d[2] = {32, 32};
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, NULL, NULL), KW_OK);
+    cr_assert_eq(kw_encoder_create(&e, 2, d, NULL), KW_OK);
     float complex *xt = malloc(n * sizeof *xt), *y = malloc(n * sizeof *y);
     float complex *x = calloc(n, sizeof *x), *ref = malloc(n * sizeof *ref);
     phantom(xt, ny, nx);
@@ -171,7 +178,7 @@ Test(solver, tv_fista_admm_agree)
     for (size_t i = 0; i < n; i++)
         mask[i] = urand(&seed) < 0.35 || ((i / nx) >= 14 && (i / nx) < 18);
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, d, nc, sens, mask, 0, NULL, NULL, NULL), KW_OK);
+    cr_assert_eq(kw_encoder_create(&e, 2, d, &(kw_encoder_options){.struct_size = sizeof(kw_encoder_options), .ncoils = nc, .sens = sens, .mask = mask}), KW_OK);
     float complex *xt = malloc(n * sizeof *xt), *y = malloc(nc * n * sizeof *y);
     float complex *x1 = calloc(n, sizeof *x1), *x2 = calloc(n, sizeof *x2);
     phantom(xt, ny, nx);
@@ -219,7 +226,7 @@ Test(solver, bad_input)
 {
     size_t d[2] = {8, 8};
     kw_encoder *e;
-    kw_encoder_create(&e, 2, d, 1, NULL, NULL, 0, NULL, NULL, NULL);
+    kw_encoder_create(&e, 2, d, NULL);
     kw_solver *s = NULL;
     kw_solver_opts o = {.lambda = -1};
     cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
@@ -229,7 +236,7 @@ Test(solver, bad_input)
     cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
     size_t odd[2] = {7, 9};
     kw_encoder *e2;
-    kw_encoder_create(&e2, 2, odd, 1, NULL, NULL, 0, NULL, NULL, NULL);
+    kw_encoder_create(&e2, 2, odd, NULL);
     o.stop = 0;
     o.reg = KW_REG_WAVELET;
     cr_expect_eq(kw_solver_create(&s, e2, 2, odd, &o), KW_ENOTSUP);

@@ -56,8 +56,7 @@ def test_tv_matches_scipy(lib, solver):
     # y = centred unitary DFT of z
     y = np.fft.fftshift(np.fft.fft2(np.fft.ifftshift(z), norm="ortho")).astype(np.complex64)
     enc = ctypes.c_void_p()
-    assert lib.kw_encoder_create(ctypes.byref(enc), 2, sizes(n, n), ctypes.c_size_t(1), None, None,
-                                 ctypes.c_size_t(0), None, None, None) == 0
+    assert lib.kw_encoder_create(ctypes.byref(enc), 2, sizes(n, n), None) == 0  # NULL: defaults (one coil, full grid)
     opts = SolverOpts(3000, 1e-10, lam, 2, 0, 0, 0.0, 50)
     sol = ctypes.c_void_p()
     assert lib.kw_solver_create(ctypes.byref(sol), enc, 2, sizes(n, n), ctypes.byref(opts)) == 0
