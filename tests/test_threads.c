@@ -308,6 +308,20 @@ static void phantom(float complex *x)
         }
 }
 
+/* A 2-D encoder with the given coils and sampling, other options default. */
+static kw_status enc_make(kw_encoder **e, const size_t *dims, size_t nc, const float complex *sens,
+                          const uint8_t *mask, size_t ns, const float *traj)
+{
+    kw_encoder_options o;
+    kw_encoder_options_init(&o);
+    o.ncoils = nc;
+    o.sens = sens;
+    o.mask = mask;
+    o.nsamples = ns;
+    o.trajectory = traj;
+    return kw_encoder_create(e, 2, dims, &o);
+}
+
 static void encoder_run(int ct, int et, float *out)
 {
     enc_data();
@@ -318,7 +332,7 @@ static void encoder_run(int ct, int et, float *out)
     size_t dims[2] = {E_NY, E_NX};
     omp_set_num_threads(ct);
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, dims, E_NC, g_sens, g_mask, 0, NULL, NULL, NULL),
+    cr_assert_eq(enc_make(&e, dims, E_NC, g_sens, g_mask, 0, NULL),
                  KW_OK, "%s", kw_last_error());
     omp_set_num_threads(et);
     cr_assert_eq(kw_encoder_forward(e, x, y), KW_OK);
@@ -351,7 +365,7 @@ static void nc_encoder_run(int ct, int et, float *out)
     fill(x, np, 2);
     omp_set_num_threads(ct);
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, dims, 3, s, NULL, N_S, t, NULL, NULL), KW_OK, "%s",
+    cr_assert_eq(enc_make(&e, dims, 3, s, NULL, N_S, t), KW_OK, "%s",
                  kw_last_error());
     omp_set_num_threads(et);
     cr_assert_eq(kw_encoder_forward(e, x, y), KW_OK);
@@ -381,7 +395,7 @@ static void solver_run(int ct, int et, float *out, kw_regulariser reg, int admm)
     size_t dims[2] = {E_NY, E_NX};
     omp_set_num_threads(ct);
     kw_encoder *e;
-    cr_assert_eq(kw_encoder_create(&e, 2, dims, E_NC, g_sens, g_mask, 0, NULL, NULL, NULL),
+    cr_assert_eq(enc_make(&e, dims, E_NC, g_sens, g_mask, 0, NULL),
                  KW_OK, "%s", kw_last_error());
     kw_solver_opts o = {0};
     o.iterations = 4;
