@@ -1,17 +1,13 @@
-/* api_example.c: the chain of `kweave pattern | encode | recon | score` as
- * library calls: the weave test object with a ring of 8 coils, sampled at
- * R = 2 (24 calibration lines), reconstructed by zero-filled FFT, SENSE and
- * CG-SENSE with the simulated maps, each scored against the truth.
+/* api_example.c: `kweave pattern | encode | recon | score` as library calls: the weave
+ * object, 8 coils, R = 2 with 24 calibration lines, reconstructed by zero-filled FFT,
+ * SENSE and CG-SENSE with the simulated maps, scored against the truth.
  *   cc api_example.c $(pkg-config --cflags --libs kweave) -o api_example */
 #include <kweave.h>
 #include <stdio.h>
 #include <stdlib.h>
 
 static int fail(const char *what)
-{
-    fprintf(stderr, "api_example: %s: %s\n", what, kw_last_error());
-    return 1;
-}
+{ return fprintf(stderr, "api_example: %s: %s (%s)\n", what, kw_last_error(), kw_last_error_param()), 1; }
 
 int main(void)
 {
@@ -25,9 +21,12 @@ int main(void)
     ao.phantom = "weave", ao.dims[2] = N, ao.fov_m[2] = 0.24, ao.coils = C, ao.snr = 60, ao.seed = 1;
     ao.mask_ndim = 2, ao.mask_dims[0] = N, ao.mask_dims[1] = N;
     kw_acquisition *acq = NULL;
-    if (kw_pattern_create(&pat, &po) || (ao.mask = kw_pattern_mask(pat), kw_acquisition_create(&acq, &ao)))
+    if (kw_pattern_create(&pat, &po))
+        return fail("pattern");
+    ao.mask = kw_pattern_mask(pat);               /* uint8 (N, N), C order */
+    if (kw_acquisition_create(&acq, &ao))
         return fail("acquisition");
-    kw_cfloat *ks = malloc(kw_acquisition_kspace_count(acq) * sizeof *ks);
+    kw_cfloat *ks = malloc(kw_acquisition_kspace_count(acq) * sizeof *ks);   /* (C, N, N) */
     kw_cfloat *maps = malloc(kw_acquisition_maps_count(acq) * sizeof *maps);
     float *truth = malloc(N * N * sizeof *truth), *img = malloc(N * N * sizeof *img);
     if (!ks || !maps || !truth || !img || kw_acquisition_execute(acq, ks, truth, maps, NULL, NULL))
@@ -40,8 +39,7 @@ int main(void)
         kw_recon_options_init(&ro);
         ro.method = method[m], ro.combine = "optimal";
         kw_recon_geometry g = {.ndim = 3, .dims = kd, .sens = maps, .sens_ndim = 3, .sens_dims = kd};
-        kw_recon *r = NULL;
-        kw_scores s;
+        kw_recon *r = NULL;  kw_scores s;
         if (kw_recon_create(&r, &g, &ro) || kw_recon_execute(r, ks, img, NULL, NULL, NULL) ||
             kw_metrics_compute(&ref, &test, &s))
             return fail(method[m]);
@@ -49,6 +47,7 @@ int main(void)
                kw_recon_get_report(r)->acceleration, s.nrmse, s.psnr_db, s.ssim);
         kw_recon_destroy(r);
     }
-    kw_acquisition_destroy(acq), kw_pattern_destroy(pat), free(ks), free(maps), free(truth), free(img);
+    kw_acquisition_destroy(acq), kw_pattern_destroy(pat);
+    free(ks), free(maps), free(truth), free(img);
     return 0;
 }
