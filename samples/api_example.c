@@ -8,19 +8,16 @@
 
 static int fail(const char *what)
 { return fprintf(stderr, "api_example: %s: %s (%s)\n", what, kw_last_error(), kw_last_error_param()), 1; }
-
 int main(void)
 {
     enum { N = 128, C = 8 };
-    kw_pattern_options po;                        /* uniform R = 2 along ky */
+    kw_pattern_options po;  kw_pattern *pat = NULL;                /* uniform R = 2 along ky */
     kw_pattern_options_init(&po);
     po.kind = KW_PATTERN_UNIFORM, po.dims[0] = N, po.dims[1] = N, po.accel[0] = 2, po.acs[0] = 24;
-    kw_pattern *pat = NULL;
-    kw_acquisition_options ao;                    /* phantom, coils, noise, mask */
+    kw_acquisition_options ao;  kw_acquisition *acq = NULL;  /* phantom, coils, noise, mask */
     kw_acquisition_options_init(&ao);
     ao.phantom = "weave", ao.dims[2] = N, ao.fov_m[2] = 0.24, ao.coils = C, ao.snr = 60, ao.seed = 1;
     ao.mask_ndim = 2, ao.mask_dims[0] = N, ao.mask_dims[1] = N;
-    kw_acquisition *acq = NULL;
     if (kw_pattern_create(&pat, &po))
         return fail("pattern");
     ao.mask = kw_pattern_mask(pat);               /* uint8 (N, N), C order */
