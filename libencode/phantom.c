@@ -349,8 +349,8 @@ kw_status kw_phantom_make(kw_phantom *p, const char *name)
     } else if (strcmp(name, "weave3d") == 0) {
         make_weave(p, 1);
     } else {
-        return kw_set_error(KW_EINVAL,
-                            "phantom: unknown phantom '%s' (shepp-logan, "
+        return kw_set_error_param(KW_EINVAL, "name",
+                            "unknown phantom '%s' (shepp-logan, "
                             "shepp-logan-modified, weave, weave3d)", name);
     }
     snprintf(p->name, sizeof p->name, "%s", name);
