@@ -90,6 +90,9 @@ static kw_status acq_grid(kw_acquisition *a)
     a->n[1] = ny;
     a->n[2] = ndim == 2 ? 1 : nz;
     a->ndim = ndim;
+    a->cd[0] = a->n[2];
+    a->cd[1] = ny;
+    a->cd[2] = nx;
     KW_FAIL_PARAM(!(o->fov_m[2] > 0) || !isfinite(o->fov_m[2]), KW_EINVAL, "fov_m",
                   "missing or not positive");
     a->fov[0] = o->fov_m[2];
@@ -153,14 +156,15 @@ static kw_status acq_truth(kw_acquisition *a)
         return kw_acq_retag(kw_acq_slices_run(a, a->truth, NULL, NULL, NULL, NULL), "slices");
     double w[KW_PHANTOM_MAX_SHAPES];
     kw_sim_image_weights(a->sim, w);
-    return kw_acq_retag(kw_phantom_rasterize(&a->ph, a->n, w, a->ndim == 3 ? 4 : 8, a->truth),
+    return kw_acq_retag(kw_phantom_rasterize(&a->ph, a->cd + (a->ndim == 3 ? 0 : 1), w,
+                                             a->ndim == 3 ? 4 : 8, a->truth),
                         "dims");
 }
 
 static void acq_sim_options(kw_acquisition *a)
 {
     kw_sim_options *so = &a->so;
-    memset(so, 0, sizeof *so);
+    kw_sim_options_init(so);
     so->phantom = &a->ph;
     for (int d = 0; d < 3; d++) {
         so->n[d] = a->n[d];

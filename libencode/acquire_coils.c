@@ -52,16 +52,16 @@ static kw_status acq_ring_maps(kw_acquisition *a, const kw_coil_ring *ring)
 {
     const size_t *n = a->n;
     if (a->ndim == 3)
-        return kw_coil_ring_maps3(ring, n[0], n[1], n[2], a->maps);
+        return kw_coil_ring_maps3(ring, a->cd, a->maps);
     if (!a->per_slice)
-        return kw_coil_ring_maps(ring, n[0], n[1], a->maps);
+        return kw_coil_ring_maps(ring, a->cd + 1, a->maps);
     /* slice-major scratch, reordered to (coils, slices, ny, nx) */
     size_t pl = n[0] * n[1];
     int nsl = a->nsl;
     kw_cfloat *tmpm = malloc((size_t)a->ncoils * pl * sizeof *tmpm);
     kw_status st = tmpm ? KW_OK : kw_set_error(KW_ENOMEM, "coils: out of memory");
     for (int sl = 0; !st && sl < nsl; sl++) {
-        st = kw_coil_ring_maps_at(ring, n[0], n[1], a->zc[sl] / (0.5 * a->fov[2]), tmpm);
+        st = kw_coil_ring_maps_at(ring, a->cd + 1, a->zc[sl] / (0.5 * a->fov[2]), tmpm);
         for (int c = 0; !st && c < a->ncoils; c++)
             memcpy(a->maps + ((size_t)c * nsl + sl) * pl, tmpm + (size_t)c * pl, pl * sizeof *tmpm);
     }
@@ -111,10 +111,10 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
     const size_t *n = a->n;
     const int L = a->coil_order, Lz = a->coil_order_z, ncoils = a->ncoils;
     if (a->ndim == 3)
-        return kw_coil_fit3(a->maps, ncoils, n[0], n[1], n[2], a->cover, L, Lz,
+        return kw_coil_fit3(a->maps, ncoils, a->cd, a->cover, L, Lz,
                             KW_ACQ_COIL_PERIOD, a->coef, a->resid);
     if (!a->per_slice)
-        return kw_coil_fit(a->maps, ncoils, n[0], n[1], a->cover, L, KW_ACQ_COIL_PERIOD, a->coef,
+        return kw_coil_fit(a->maps, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD, a->coef,
                            a->resid);
     size_t pl = n[0] * n[1];
     double *rs = malloc((size_t)ncoils * sizeof *rs);
@@ -126,19 +126,19 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
         kw_phantom cut;
         st = kw_phantom_section(&a->ph3, a->zc[sl] / (0.5 * a->fov[2]), &cut);
         if (!st)
-            st = kw_phantom_rasterize(&cut, n, ones, 2, a->cover);
+            st = kw_phantom_rasterize(&cut, a->cd + 1, ones, 2, a->cover);
         for (int c = 0; !st && c < ncoils; c++)
             memcpy(plane + (size_t)c * pl, a->maps + ((size_t)c * a->nsl + sl) * pl,
                    pl * sizeof *plane);
         if (!st)
-            st = kw_coil_fit(plane, ncoils, n[0], n[1], a->cover, L, KW_ACQ_COIL_PERIOD,
+            st = kw_coil_fit(plane, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD,
                              a->coef + (size_t)sl * ncoils * nterm, rs);
         for (int c = 0; !st && c < ncoils; c++)
             a->resid[c] = rs[c] > a->resid[c] ? rs[c] : a->resid[c];
     }
     /* the object support for the SNR: the centre slice's cut */
     if (!st)
-        st = kw_phantom_rasterize(&a->ph, n, ones, 2, a->cover);
+        st = kw_phantom_rasterize(&a->ph, a->cd + 1, ones, 2, a->cover);
     free(rs);
     free(plane);
     return st;
@@ -169,7 +169,7 @@ kw_status kw_acq_coils(kw_acquisition *a)
     double ones[KW_PHANTOM_MAX_SHAPES];
     for (int i = 0; i < a->ph.nshapes; i++)
         ones[i] = 1.0;
-    kw_phantom_rasterize(&a->ph, n, ones, 2, a->cover);
+    kw_phantom_rasterize(&a->ph, a->cd + (a->ndim == 3 ? 0 : 1), ones, 2, a->cover);
     kw_acquisition_info *in = &a->info;
     if (o->coils) {
         kw_coil_ring ring = {o->coils, o->coil_radius_m ? o->coil_radius_m : 0.25 * a->fov[0],
@@ -206,10 +206,11 @@ kw_status kw_acq_coils(kw_acquisition *a)
         return kw_acq_retag(st, who);
     /* The data are exact for the fitted series: the maps are those. */
     size_t planes = a->ndim == 3 ? n[2] : a->per_slice ? (size_t)a->nsl : 1;
+    const size_t gd[3] = {a->per_slice ? 1 : planes, n[1], n[0]}; /* one grid, C order */
     for (int c = 0; c < a->ncoils && !st; c++)
         for (size_t k = 0; k < (a->per_slice ? planes : 1) && !st; k++)
             st = kw_coil_series_grid(a->coef + ((a->per_slice ? k * (size_t)a->ncoils : 0) + (size_t)c) * nterm,
-                                     L, Lz, KW_ACQ_COIL_PERIOD, n[0], n[1], a->per_slice ? 1 : planes,
+                                     L, Lz, KW_ACQ_COIL_PERIOD, gd,
                                      a->maps + (size_t)c * mvox + (a->per_slice ? k * n[0] * n[1] : 0));
     if (st)
         return kw_acq_retag(st, "coils");

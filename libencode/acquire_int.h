@@ -23,6 +23,7 @@ struct kw_acquisition {
     kw_phantom ph3;  /* multi-slice: the 3-D phantom */
     int ndim, nsl;
     size_t n[3];     /* nx, ny, nz: kw_sim_options' order */
+    size_t cd[3];    /* the same in C order (nz, ny, nx): cd + 1 is (ny, nx) */
     double fov[3];   /* x, y, z */
     size_t npix;     /* nx ny nz */
 

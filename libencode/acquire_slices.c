@@ -59,7 +59,7 @@ static kw_status slab_cuts(slab *s, int sl, float *truth)
         if (truth) {
             double w[KW_PHANTOM_MAX_SHAPES];
             kw_sim_image_weights(s->sim, w);
-            if ((st = kw_phantom_rasterize(&p2, a->so.n, w, 4, s->img)))
+            if ((st = kw_phantom_rasterize(&p2, a->cd + 1, w, 4, s->img)))
                 return st;
             for (size_t i = 0; i < s->cnt; i++)
                 truth[(size_t)sl * s->cnt + i] += (float)(wt * s->img[i]);

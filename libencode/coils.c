@@ -148,9 +148,10 @@ kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, doubl
     return KW_OK;
 }
 
-kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
-                             float complex *out)
+kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, const size_t *dims, float complex *out)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coils: NULL dims");
+    const size_t nz = dims[0], ny = dims[1], nx = dims[2]; /* C order */
     kw_status st = ring_check(ring);
     if (st)
         return st;
@@ -169,15 +170,16 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
     return kw_coil_ring_sens3(ring, x, y, 0.0, s);
 }
 
-kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
-                            float complex *out)
+kw_status kw_coil_ring_maps(const kw_coil_ring *ring, const size_t *dims, float complex *out)
 {
-    return kw_coil_ring_maps_at(ring, nx, ny, 0.0, out);
+    return kw_coil_ring_maps_at(ring, dims, 0.0, out);
 }
 
-kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, const size_t *dims, double z,
                                float complex *out)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coils: NULL dims");
+    const size_t ny = dims[0], nx = dims[1]; /* C order */
     kw_status st = ring_check(ring);
     if (st)
         return st;
@@ -186,12 +188,35 @@ kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, d
     return KW_OK;
 }
 
-kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
+static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                           size_t nz, const float *weight, int order, int order_z,
+                           double period, double complex *coef, double *residual);
+static kw_status series_grid(const double complex *h, int order, int order_z, double period,
+                             size_t nx, size_t ny, size_t nz, float complex *out);
+
+kw_status kw_coil_fit(const float complex *maps, int ncoils, const size_t *dims,
                       const float *weight, int order, double period,
                       double complex *coef, double *residual)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil fit: NULL dims");
     /* the 3-D fit with one slice and order 0 along z: the same series */
-    return kw_coil_fit3(maps, ncoils, nx, ny, 1, weight, order, 0, period, coef, residual);
+    return coil_fit3(maps, ncoils, dims[1], dims[0], 1, weight, order, 0, period, coef, residual);
+}
+
+kw_status kw_coil_fit3(const float complex *maps, int ncoils, const size_t *dims,
+                       const float *weight, int order, int order_z, double period,
+                       double complex *coef, double *residual)
+{
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil fit: NULL dims");
+    return coil_fit3(maps, ncoils, dims[2], dims[1], dims[0], weight, order, order_z, period,
+                     coef, residual);
+}
+
+kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, double period,
+                              const size_t *dims, float complex *out)
+{
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil series: NULL dims");
+    return series_grid(h, order, order_z, period, dims[2], dims[1], dims[0], out);
 }
 
 /* exp(i 2 pi m t / period) for m = -order..order at the n positions
@@ -208,8 +233,8 @@ static void basis_table(size_t n, int order, double period, double complex *e)
     }
 }
 
-kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, double period,
-                              size_t nx, size_t ny, size_t nz, float complex *out)
+static kw_status series_grid(const double complex *h, int order, int order_z, double period,
+                             size_t nx, size_t ny, size_t nz, float complex *out)
 {
     KW_FAIL_IF(!h || !out || order < 0 || order_z < 0, KW_EINVAL, "coil series: bad arguments");
     const int side = 2 * order + 1, sz = 2 * order_z + 1;
@@ -249,9 +274,9 @@ kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, d
     return KW_OK;
 }
 
-kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
-                       const float *weight, int order, int order_z, double period,
-                       double complex *coef, double *residual)
+static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                           size_t nz, const float *weight, int order, int order_z,
+                           double period, double complex *coef, double *residual)
 {
     KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny || !nz, KW_EINVAL,
                "coil fit: bad arguments");
@@ -332,7 +357,7 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
             st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
             goto done;
         }
-        if ((st = kw_coil_series_grid(h, order, order_z, period, nx, ny, nz, fit)))
+        if ((st = series_grid(h, order, order_z, period, nx, ny, nz, fit)))
             goto done;
         double num = 0, den = 0;
         const float complex *mp = maps + (size_t)ch * nv;

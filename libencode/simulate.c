@@ -16,6 +16,7 @@
 
 struct kw_sim {
     kw_sim_options o;
+    size_t cdims[3];         /* o.n in C order (nz, ny, nx) */
     int nshapes;
     int channels;
     int terms;               /* (2L+1)^2 (3-D: (2Lz+1)(2L+1)^2), 1 without coils */
@@ -55,9 +56,24 @@ static double fast_mag(const struct fast_shape *f, double fx, double fy, double 
     return 0.0;
 }
 
-kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
+void kw_sim_options_init(kw_sim_options *o)
 {
-    KW_FAIL_IF(!out || !opt || !opt->phantom, KW_EINVAL, "simulate: NULL argument");
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+}
+
+kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
+{
+    KW_FAIL_IF(!out, KW_EINVAL, "simulate: NULL argument");
+    kw_sim_options taken;
+    kw_sim_options_init(&taken);
+    kw_status tst = kw_options_take(&taken, sizeof taken, caller, "sim_options");
+    if (tst)
+        return tst;
+    const kw_sim_options *opt = &taken;
+    KW_FAIL_IF(!opt->phantom, KW_EINVAL, "simulate: NULL argument");
     *out = NULL;
     const kw_phantom *p = opt->phantom;
     KW_FAIL_IF(p->nshapes < 1 || p->nshapes > KW_PHANTOM_MAX_SHAPES, KW_EINVAL,
@@ -109,6 +125,9 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
     KW_FAIL_IF(!s, KW_ENOMEM, "simulate: out of memory");
     s->o = *opt;
     s->o.n[2] = nz;
+    s->cdims[0] = nz;
+    s->cdims[1] = opt->n[1];
+    s->cdims[2] = opt->n[0];
     s->nshapes = p->nshapes;
     s->channels = opt->ncoils > 0 ? opt->ncoils : 1;
     s->lz = opt->ncoils > 0 && p->ndim == 3 ? opt->coil_order_z : 0;
@@ -282,7 +301,8 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
     if (s->o.ncoils == 0) {
         double complex acc = 0;
         for (int i = 0; i < s->nshapes; i++)
-            acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, s->o.n, kx, kv, kz);
+            acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim,
+                                                  s->cdims + (p->ndim == 3 ? 0 : 1), kx, kv, kz);
         out[0] = (float complex)acc;
         return;
     }
