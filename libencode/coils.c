@@ -68,19 +68,18 @@ int kw_coil_ring_channels(const kw_coil_ring *ring)
 static kw_status ring_check(const kw_coil_ring *ring)
 {
     KW_FAIL_IF(!ring, KW_EINVAL, "coils: NULL ring");
-    KW_FAIL_IF(ring->rings < 0 || ring->rings > 2, KW_EINVAL, "coil-rings: 1 or 2 (got %d)",
+    KW_FAIL_PARAM(ring->rings < 0 || ring->rings > 2, KW_EINVAL, "rings", "1 or 2 (got %d)",
                ring->rings);
-    KW_FAIL_IF(ring->rings == 2 && (!(ring->ring_gap > 0) || !isfinite(ring->ring_gap)),
-               KW_EINVAL, "coil-ring-gap: must be positive for two rings");
-    KW_FAIL_IF(ring->fov_z < 0 || !isfinite(ring->fov_z), KW_EINVAL, "fov: z must be positive");
-    KW_FAIL_IF(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL,
-               "coils: count must be 1..128 (got %d)", ring->ncoils);
-    KW_FAIL_IF(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL,
-               "coil-radius: must be positive");
-    KW_FAIL_IF(!(ring->fov[0] > 0 && ring->fov[1] > 0), KW_EINVAL, "fov: must be positive");
+    KW_FAIL_PARAM(ring->rings == 2 && (!(ring->ring_gap > 0) || !isfinite(ring->ring_gap)), KW_EINVAL, "ring_gap", "must be positive for two rings");
+    KW_FAIL_PARAM(ring->fov_z < 0 || !isfinite(ring->fov_z), KW_EINVAL, "fov_z", "z must be positive");
+    KW_FAIL_PARAM(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL, "ncoils",
+               "count must be 1..128 (got %d)", ring->ncoils);
+    KW_FAIL_PARAM(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL, "radius",
+               "must be positive");
+    KW_FAIL_PARAM(!(ring->fov[0] > 0 && ring->fov[1] > 0), KW_EINVAL, "fov", "must be positive");
     double half_diag = 0.5 * hypot(ring->fov[0], ring->fov[1]);
-    KW_FAIL_IF(!(ring->distance > half_diag) || !isfinite(ring->distance), KW_EINVAL,
-               "coil-distance: the loops must stand outside the FOV (more than %g m "
+    KW_FAIL_PARAM(!(ring->distance > half_diag) || !isfinite(ring->distance), KW_EINVAL, "distance",
+               "the loops must stand outside the FOV (more than %g m "
                "from the centre)", half_diag);
     return KW_OK;
 }
@@ -156,7 +155,7 @@ kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, const size_t *dims, float
     if (st)
         return st;
     KW_FAIL_IF(!out || !nx || !ny || !nz, KW_EINVAL, "coils: empty grid");
-    KW_FAIL_IF(!(ring->fov_z > 0), KW_EINVAL, "fov: z must be positive for 3-D maps");
+    KW_FAIL_PARAM(!(ring->fov_z > 0), KW_EINVAL, "fov_z", "z must be positive for 3-D maps");
     double norm = ring_norm(ring);
     for (size_t iz = 0; iz < nz; iz++)
         ring_plane(ring, norm, nx, ny, ((double)iz - (double)(nz / 2)) * 2.0 / (double)nz,
@@ -280,11 +279,11 @@ static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, siz
 {
     KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny || !nz, KW_EINVAL,
                "coil fit: bad arguments");
-    KW_FAIL_IF(order < 0 || order > 8 || order_z < 0 || order_z > 8, KW_ERANGE,
-               "coil-order: %d, %d outside 0..8", order, order_z);
+    KW_FAIL_PARAM(order < 0 || order > 8 || order_z < 0 || order_z > 8, KW_ERANGE, "order",
+               "%d, %d outside 0..8", order, order_z);
     KW_FAIL_IF(!(period > 0) || !isfinite(period), KW_EINVAL, "coil fit: period must be positive");
     const int side = 2 * order + 1, sz = 2 * order_z + 1, P = side * side * sz;
-    KW_FAIL_IF(P > 1024, KW_ERANGE, "coil-order: %d coefficients per coil (at most 1024)", P);
+    KW_FAIL_PARAM(P > 1024, KW_ERANGE, "order", "%d coefficients per coil (at most 1024)", P);
     const size_t nv = nx * ny * nz;
     /* fit points: at most 64 per axis in 2-D, 20 per axis in 3-D */
     const size_t cap = nz == 1 ? 64 : 20;
