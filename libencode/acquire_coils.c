@@ -2,6 +2,7 @@
  * maps, fitted by a trigonometric series: Guerquin-Kern et al. 2012) and
  * its noise covariance. */
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -44,6 +45,25 @@ static kw_status acq_coil_checks(kw_acquisition *a)
                       "3-D series of orders %d, %d: more than 1024 terms per coil",
                       a->coil_order, a->coil_order_z);
     return KW_OK;
+}
+
+/* A ring the coil model refuses: its field (kw_coil_ring's words) as the
+ * option of ours that set it, else "coils". */
+static kw_status ring_fail(kw_status st)
+{
+    static const char *const names[][2] = {
+        {"rings", "coil_rings"},          {"ring_gap", "coil_ring_gap_m"},
+        {"ncoils", "coils"},              {"radius", "coil_radius_m"},
+        {"distance", "coil_distance_m"},  {"fov", "fov_m"},
+        {"fov_z", "fov_m"}};
+    const char *p = kw_last_error_param();
+    for (size_t i = 0; *p && i < sizeof names / sizeof names[0]; i++)
+        if (strcmp(p, names[i][0]) == 0) {
+            char why[400];
+            snprintf(why, sizeof why, "%s", kw_last_error_reason());
+            return kw_set_error_param(st, names[i][1], "%s", why);
+        }
+    return kw_acq_retag(st, "coils");
 }
 
 /* The ring's maps: (coils, [nz or slices,] ny, nx); multi-slice: each
@@ -181,8 +201,10 @@ kw_status kw_acq_coils(kw_acquisition *a)
                                                 : 0.0,
                              a->fov[2]};
         a->ncoils = kw_coil_ring_channels(&ring);
-        if ((st = acq_alloc_maps(a, mnd, md, mvox)) || (st = acq_ring_maps(a, &ring)))
-            return kw_acq_retag(st, "coils");
+        if ((st = acq_alloc_maps(a, mnd, md, mvox)))
+            return st;
+        if ((st = acq_ring_maps(a, &ring)))
+            return ring_fail(st);
         in->coil_ring = 1;
         in->coil_radius_m = ring.radius;
         in->coil_distance_m = ring.distance;
