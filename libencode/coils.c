@@ -68,19 +68,18 @@ int kw_coil_ring_channels(const kw_coil_ring *ring)
 static kw_status ring_check(const kw_coil_ring *ring)
 {
     KW_FAIL_IF(!ring, KW_EINVAL, "coils: NULL ring");
-    KW_FAIL_IF(ring->rings < 0 || ring->rings > 2, KW_EINVAL, "coil-rings: 1 or 2 (got %d)",
+    KW_FAIL_PARAM(ring->rings < 0 || ring->rings > 2, KW_EINVAL, "rings", "1 or 2 (got %d)",
                ring->rings);
-    KW_FAIL_IF(ring->rings == 2 && (!(ring->ring_gap > 0) || !isfinite(ring->ring_gap)),
-               KW_EINVAL, "coil-ring-gap: must be positive for two rings");
-    KW_FAIL_IF(ring->fov_z < 0 || !isfinite(ring->fov_z), KW_EINVAL, "fov: z must be positive");
-    KW_FAIL_IF(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL,
-               "coils: count must be 1..128 (got %d)", ring->ncoils);
-    KW_FAIL_IF(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL,
-               "coil-radius: must be positive");
-    KW_FAIL_IF(!(ring->fov[0] > 0 && ring->fov[1] > 0), KW_EINVAL, "fov: must be positive");
+    KW_FAIL_PARAM(ring->rings == 2 && (!(ring->ring_gap > 0) || !isfinite(ring->ring_gap)), KW_EINVAL, "ring_gap", "must be positive for two rings");
+    KW_FAIL_PARAM(ring->fov_z < 0 || !isfinite(ring->fov_z), KW_EINVAL, "fov_z", "z must be positive");
+    KW_FAIL_PARAM(ring->ncoils < 1 || ring->ncoils > 128, KW_EINVAL, "ncoils",
+               "count must be 1..128 (got %d)", ring->ncoils);
+    KW_FAIL_PARAM(!(ring->radius > 0) || !isfinite(ring->radius), KW_EINVAL, "radius",
+               "must be positive");
+    KW_FAIL_PARAM(!(ring->fov[0] > 0 && ring->fov[1] > 0), KW_EINVAL, "fov", "must be positive");
     double half_diag = 0.5 * hypot(ring->fov[0], ring->fov[1]);
-    KW_FAIL_IF(!(ring->distance > half_diag) || !isfinite(ring->distance), KW_EINVAL,
-               "coil-distance: the loops must stand outside the FOV (more than %g m "
+    KW_FAIL_PARAM(!(ring->distance > half_diag) || !isfinite(ring->distance), KW_EINVAL, "distance",
+               "the loops must stand outside the FOV (more than %g m "
                "from the centre)", half_diag);
     return KW_OK;
 }
@@ -148,14 +147,15 @@ kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, doubl
     return KW_OK;
 }
 
-kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
-                             float complex *out)
+kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, const size_t *dims, float complex *out)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coils: NULL dims");
+    const size_t nz = dims[0], ny = dims[1], nx = dims[2]; /* C order */
     kw_status st = ring_check(ring);
     if (st)
         return st;
     KW_FAIL_IF(!out || !nx || !ny || !nz, KW_EINVAL, "coils: empty grid");
-    KW_FAIL_IF(!(ring->fov_z > 0), KW_EINVAL, "fov: z must be positive for 3-D maps");
+    KW_FAIL_PARAM(!(ring->fov_z > 0), KW_EINVAL, "fov_z", "z must be positive for 3-D maps");
     double norm = ring_norm(ring);
     for (size_t iz = 0; iz < nz; iz++)
         ring_plane(ring, norm, nx, ny, ((double)iz - (double)(nz / 2)) * 2.0 / (double)nz,
@@ -169,15 +169,16 @@ kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
     return kw_coil_ring_sens3(ring, x, y, 0.0, s);
 }
 
-kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
-                            float complex *out)
+kw_status kw_coil_ring_maps(const kw_coil_ring *ring, const size_t *dims, float complex *out)
 {
-    return kw_coil_ring_maps_at(ring, nx, ny, 0.0, out);
+    return kw_coil_ring_maps_at(ring, dims, 0.0, out);
 }
 
-kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, const size_t *dims, double z,
                                float complex *out)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coils: NULL dims");
+    const size_t ny = dims[0], nx = dims[1]; /* C order */
     kw_status st = ring_check(ring);
     if (st)
         return st;
@@ -186,12 +187,35 @@ kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, d
     return KW_OK;
 }
 
-kw_status kw_coil_fit(const float complex *maps, int ncoils, size_t nx, size_t ny,
+static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                           size_t nz, const float *weight, int order, int order_z,
+                           double period, double complex *coef, double *residual);
+static kw_status series_grid(const double complex *h, int order, int order_z, double period,
+                             size_t nx, size_t ny, size_t nz, float complex *out);
+
+kw_status kw_coil_fit(const float complex *maps, int ncoils, const size_t *dims,
                       const float *weight, int order, double period,
                       double complex *coef, double *residual)
 {
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil fit: NULL dims");
     /* the 3-D fit with one slice and order 0 along z: the same series */
-    return kw_coil_fit3(maps, ncoils, nx, ny, 1, weight, order, 0, period, coef, residual);
+    return coil_fit3(maps, ncoils, dims[1], dims[0], 1, weight, order, 0, period, coef, residual);
+}
+
+kw_status kw_coil_fit3(const float complex *maps, int ncoils, const size_t *dims,
+                       const float *weight, int order, int order_z, double period,
+                       double complex *coef, double *residual)
+{
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil fit: NULL dims");
+    return coil_fit3(maps, ncoils, dims[2], dims[1], dims[0], weight, order, order_z, period,
+                     coef, residual);
+}
+
+kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, double period,
+                              const size_t *dims, float complex *out)
+{
+    KW_FAIL_IF(!dims, KW_EINVAL, "coil series: NULL dims");
+    return series_grid(h, order, order_z, period, dims[2], dims[1], dims[0], out);
 }
 
 /* exp(i 2 pi m t / period) for m = -order..order at the n positions
@@ -208,8 +232,8 @@ static void basis_table(size_t n, int order, double period, double complex *e)
     }
 }
 
-kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, double period,
-                              size_t nx, size_t ny, size_t nz, float complex *out)
+static kw_status series_grid(const double complex *h, int order, int order_z, double period,
+                             size_t nx, size_t ny, size_t nz, float complex *out)
 {
     KW_FAIL_IF(!h || !out || order < 0 || order_z < 0, KW_EINVAL, "coil series: bad arguments");
     const int side = 2 * order + 1, sz = 2 * order_z + 1;
@@ -249,17 +273,17 @@ kw_status kw_coil_series_grid(const double complex *h, int order, int order_z, d
     return KW_OK;
 }
 
-kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny, size_t nz,
-                       const float *weight, int order, int order_z, double period,
-                       double complex *coef, double *residual)
+static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t ny,
+                           size_t nz, const float *weight, int order, int order_z,
+                           double period, double complex *coef, double *residual)
 {
     KW_FAIL_IF(!maps || !coef || ncoils < 1 || !nx || !ny || !nz, KW_EINVAL,
                "coil fit: bad arguments");
-    KW_FAIL_IF(order < 0 || order > 8 || order_z < 0 || order_z > 8, KW_ERANGE,
-               "coil-order: %d, %d outside 0..8", order, order_z);
+    KW_FAIL_PARAM(order < 0 || order > 8 || order_z < 0 || order_z > 8, KW_ERANGE, "order",
+               "%d, %d outside 0..8", order, order_z);
     KW_FAIL_IF(!(period > 0) || !isfinite(period), KW_EINVAL, "coil fit: period must be positive");
     const int side = 2 * order + 1, sz = 2 * order_z + 1, P = side * side * sz;
-    KW_FAIL_IF(P > 1024, KW_ERANGE, "coil-order: %d coefficients per coil (at most 1024)", P);
+    KW_FAIL_PARAM(P > 1024, KW_ERANGE, "order", "%d coefficients per coil (at most 1024)", P);
     const size_t nv = nx * ny * nz;
     /* fit points: at most 64 per axis in 2-D, 20 per axis in 3-D */
     const size_t cap = nz == 1 ? 64 : 20;
@@ -332,7 +356,7 @@ kw_status kw_coil_fit3(const float complex *maps, int ncoils, size_t nx, size_t 
             st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
             goto done;
         }
-        if ((st = kw_coil_series_grid(h, order, order_z, period, nx, ny, nz, fit)))
+        if ((st = series_grid(h, order, order_z, period, nx, ny, nz, fit)))
             goto done;
         double num = 0, den = 0;
         const float complex *mp = maps + (size_t)ch * nv;

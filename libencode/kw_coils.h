@@ -61,22 +61,22 @@ KW_API kw_status kw_coil_ring_sens(const kw_coil_ring *ring, double x, double y,
                             kw_cdouble *s);
 
 /*! kw_coil_ring_maps(): sensitivity maps on the pixel grid (kw_phantom.h
- * grid, 2-D) of nx x ny: out = channels x ny x nx (C order). */
-KW_API kw_status kw_coil_ring_maps(const kw_coil_ring *ring, size_t nx, size_t ny,
-                            kw_cfloat *out);
+ * grid, 2-D) of dims = (ny, nx): out = channels x ny x nx (C order). */
+KW_API kw_status kw_coil_ring_maps(const kw_coil_ring *ring, const size_t *dims, kw_cfloat *out);
 
 /*! kw_coil_ring_maps_at(): the 2-D maps of the plane at height z (phantom
  * units, [-1, 1] spans fov_z; kw_coil_ring_maps() is z = 0). */
-KW_API kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, size_t nx, size_t ny, double z,
+KW_API kw_status kw_coil_ring_maps_at(const kw_coil_ring *ring, const size_t *dims, double z,
                                kw_cfloat *out);
 
 /*! kw_coil_ring_sens3()/kw_coil_ring_maps3(): the same in 3-D: the point
  * (x, y, z) in [-1, 1]^3 (z along B0, scaled by fov_z / 2; voxel iz at
- * z = (iz - nz/2) 2 / nz), maps channels x nz x ny x nx. Normalised so that
+ * z = (iz - nz/2) 2 / nz), dims = (nz, ny, nx), maps channels x nz x ny x
+ * nx. Normalised so that
  * the root-sum-of-squares over all channels is 1 at the centre. */
 KW_API kw_status kw_coil_ring_sens3(const kw_coil_ring *ring, double x, double y, double z,
                              kw_cdouble *s);
-KW_API kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t ny, size_t nz,
+KW_API kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, const size_t *dims,
                              kw_cfloat *out);
 
 /*! kw_coil_fit3(): the 3-D series
@@ -87,8 +87,8 @@ KW_API kw_status kw_coil_ring_maps3(const kw_coil_ring *ring, size_t nx, size_t 
  * for the solve (~64 per axis when nz = 1: kw_coil_fit() is this fit with
  * nz = 1, order_z = 0); coef = channels x (2 order_z + 1)(2 order + 1)^2 values,
  * index ((r + order_z)(2 order + 1) + (q + order))(2 order + 1) + (p + order);
- * residual[c] over all weighted voxels. */
-KW_API kw_status kw_coil_fit3(const kw_cfloat *maps, int ncoils, size_t nx, size_t ny, size_t nz,
+ * residual[c] over all weighted voxels. dims = (nz, ny, nx), C order. */
+KW_API kw_status kw_coil_fit3(const kw_cfloat *maps, int ncoils, const size_t *dims,
                        const float *weight, int order, int order_z, double period,
                        kw_cdouble *coef, double *residual);
 
@@ -99,18 +99,19 @@ KW_API kw_status kw_coil_fit3(const kw_cfloat *maps, int ncoils, size_t nx, size
  * where weight[pixel] != 0 (NULL: all), subsampled to at most ~64 x 64
  * points for the solve. coef receives ncoils x (2 order + 1)^2 values
  * (index (q + order)(2 order + 1) + (p + order)); residual[c] the relative
- * RMS misfit ||s - fit|| / ||s|| of coil c over all weighted pixels. */
-KW_API kw_status kw_coil_fit(const kw_cfloat *maps, int ncoils, size_t nx, size_t ny,
+ * RMS misfit ||s - fit|| / ||s|| of coil c over all weighted pixels.
+ * dims = (ny, nx), C order. */
+KW_API kw_status kw_coil_fit(const kw_cfloat *maps, int ncoils, const size_t *dims,
                       const float *weight, int order, double period,
                       kw_cdouble *coef, double *residual);
 
 /*! kw_coil_series_grid(): one coil's 3-D series (kw_coil_fit3's layout;
- * order_z = 0 and nz = 1 for the 2-D series) on the voxel grid nz x ny x nx
- * (C order) into out, evaluated separably (per row the x coefficients, then
+ * order_z = 0 and nz = 1 for the 2-D series) on the voxel grid dims =
+ * (nz, ny, nx) (C order) into out, evaluated separably (per row the x coefficients, then
  * 2 order + 1 terms per voxel). Returns KW_ENOMEM if its row tables cannot
  * be allocated. */
 KW_API kw_status kw_coil_series_grid(const kw_cdouble *coef, int order, int order_z, double period,
-                              size_t nx, size_t ny, size_t nz, kw_cfloat *out);
+                              const size_t *dims, kw_cfloat *out);
 
 #ifdef __cplusplus
 }

@@ -98,10 +98,10 @@ KW_API kw_status kw_shape_ft_many(const kw_shape *s, size_t n, const double *f,
 KW_API int kw_shape_contains(const kw_shape *s, double x, double y, double z);
 
 /*! kw_phantom_kspace_shape(): the k-space (module convention above) of one
- * shape's indicator at (kx, ky, kz) cycles/FOV on a grid of n[0] = nx,
- * n[1] = ny (, n[2] = nz) points (scale sqrt(prod n)). */
+ * shape's indicator at (kx, ky, kz) cycles/FOV on a grid of dims = (ny, nx)
+ * or, ndim 3, (nz, ny, nx) points, C order (scale sqrt(prod dims)). */
 KW_API kw_cdouble kw_phantom_kspace_shape(const kw_shape *s, int ndim,
-                                       const size_t *n, double kx, double ky,
+                                       const size_t *dims, double kx, double ky,
                                        double kz);
 
 /*! kw_phantom_weights(): additive weight of each shape. `own` gives each
@@ -110,25 +110,25 @@ KW_API kw_cdouble kw_phantom_kspace_shape(const kw_shape *s, int ndim,
 KW_API void kw_phantom_weights(const kw_phantom *p, const double *own, double *w);
 
 /*! kw_phantom_kspace(): the plain phantom (weights from `value`) at the sample
- * (kx, ky, kz), same convention. */
-KW_API kw_cdouble kw_phantom_kspace(const kw_phantom *p, const size_t *n,
+ * (kx, ky, kz), same convention: dims holds p->ndim sizes, C order. */
+KW_API kw_cdouble kw_phantom_kspace(const kw_phantom *p, const size_t *dims,
                                  double kx, double ky, double kz);
 
 /*! kw_phantom_rasterize(): area-averaged image of the phantom on the
- * pixel grid of n[0] = nx, n[1] = ny (, n[2] = nz) points, with per-shape
- * additive weights w[s] (NULL: kw_phantom_weights(p, NULL, .)). `out` holds
- * prod(n) floats, C order (nz, ny, nx): pixel (row r, column c) is centred at
+ * pixel grid dims = (ny, nx), or for a 3-D phantom (nz, ny, nx) (p->ndim
+ * sizes, C order), with per-shape additive weights w[s] (NULL:
+ * kw_phantom_weights(p, NULL, .)). `out` holds prod(dims) floats: pixel (row r, column c) is centred at
  * x = (c - nx/2) 2/nx, y = (ny/2 - r) 2/ny (z = (sl - nz/2) 2/nz), the grid
  * of the centered DFT. Each pixel is the mean over `super`^ndim subsamples
  * (super >= 1). */
-KW_API kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *n,
+KW_API kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *dims,
                                const double *w, int super, float *out);
 
 /*! kw_phantom_rasterize_grid(): the same on a grid moved by `offset` pixels
  * (|offset| <= 1): pixel centres at x = (c - nx/2 + offset) 2/nx,
  * y = (ny/2 - r - offset) 2/ny (z likewise +offset). offset = 0.5 gives the
  * symmetric grid, centres at +-(N-1)/N, that some other tools use. */
-KW_API kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
+KW_API kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *dims,
                                     const double *w, int super, double offset,
                                     float *out);
 

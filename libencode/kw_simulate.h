@@ -26,6 +26,7 @@ extern "C" {
 #endif
 
 typedef struct kw_sim_options {
+    size_t struct_size;     /* sizeof, set by kw_sim_options_init() */
     const kw_phantom *phantom;
     size_t n[3];            /* matrix nx, ny, nz (nz = 1 for 2-D) */
 
@@ -80,6 +81,10 @@ typedef struct kw_sim_options {
     const kw_cdouble *noise_chol;
     uint64_t seed;
 } kw_sim_options;
+
+/*! kw_sim_options_init(): no phantom, every field zero (no coils, no
+ * noise, PD contrast), struct_size = sizeof *o. */
+KW_API void kw_sim_options_init(kw_sim_options *o);
 
 typedef struct kw_sim kw_sim;
 

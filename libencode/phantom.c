@@ -120,15 +120,16 @@ static int shape_ndim(const kw_shape *s)
 }
 
 double complex kw_phantom_kspace_shape(const kw_shape *s, int ndim,
-                                       const size_t *n, double kx, double ky,
+                                       const size_t *dims, double kx, double ky,
                                        double kz)
 {
     /* u = x/2 (FOV units); ky runs along the rows, i.e. towards -y:
      * integral f(u) e^{-i 2 pi k.u} du = 2^-ndim F(kx/2, -ky/2, kz/2). */
-    double scale = sqrt((double)n[0] * (double)n[1]) * 0.25;
+    const size_t nx = dims[ndim - 1], ny = dims[ndim - 2];
+    double scale = sqrt((double)nx * (double)ny) * 0.25;
     double fz = 0;
     if (ndim == 3) {
-        scale *= sqrt((double)n[2]) * 0.5;
+        scale *= sqrt((double)dims[0]) * 0.5;
         fz = 0.5 * kz;
     }
     if (shape_ndim(s) == 2 && ndim == 3) {
@@ -150,14 +151,14 @@ void kw_phantom_weights(const kw_phantom *p, const double *own, double *w)
     }
 }
 
-double complex kw_phantom_kspace(const kw_phantom *p, const size_t *n,
+double complex kw_phantom_kspace(const kw_phantom *p, const size_t *dims,
                                  double kx, double ky, double kz)
 {
     double w[KW_PHANTOM_MAX_SHAPES];
     kw_phantom_weights(p, NULL, w);
     double complex acc = 0;
     for (int i = 0; i < p->nshapes; i++)
-        acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, n, kx, ky, kz);
+        acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, dims, kx, ky, kz);
     return acc;
 }
 
@@ -176,17 +177,17 @@ static long clampl(long v, long lo, long hi)
     return v < lo ? lo : (v > hi ? hi : v);
 }
 
-kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *n,
+kw_status kw_phantom_rasterize(const kw_phantom *p, const size_t *dims,
                                const double *w, int super, float *out)
 {
-    return kw_phantom_rasterize_grid(p, n, w, super, 0.0, out);
+    return kw_phantom_rasterize_grid(p, dims, w, super, 0.0, out);
 }
 
-kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
+kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *dims,
                                     const double *w, int super, double offset,
                                     float *out)
 {
-    KW_FAIL_IF(!p || !n || !out, KW_EINVAL, "rasterize: NULL argument");
+    KW_FAIL_IF(!p || !dims || !out, KW_EINVAL, "rasterize: NULL argument");
     KW_FAIL_IF(super < 1 || super > 64, KW_EINVAL, "rasterize: supersampling %d", super);
     KW_FAIL_IF(p->ndim != 2 && p->ndim != 3, KW_EINVAL, "rasterize: ndim %d", p->ndim);
     KW_FAIL_IF(!(fabs(offset) <= 1.0), KW_EINVAL, "rasterize: offset %g", offset);
@@ -195,7 +196,8 @@ kw_status kw_phantom_rasterize_grid(const kw_phantom *p, const size_t *n,
         kw_phantom_weights(p, NULL, wl);
         w = wl;
     }
-    size_t nx = n[0], ny = n[1], nz = p->ndim == 3 ? n[2] : 1;
+    /* dims: (ny, nx) or (nz, ny, nx), C order */
+    size_t nx = dims[p->ndim - 1], ny = dims[p->ndim - 2], nz = p->ndim == 3 ? dims[0] : 1;
     KW_FAIL_IF(!nx || !ny || !nz, KW_EINVAL, "rasterize: empty grid");
     memset(out, 0, nx * ny * nz * sizeof *out);
     double dx = 2.0 / (double)nx, dy = 2.0 / (double)ny, dz = 2.0 / (double)nz;
@@ -349,8 +351,8 @@ kw_status kw_phantom_make(kw_phantom *p, const char *name)
     } else if (strcmp(name, "weave3d") == 0) {
         make_weave(p, 1);
     } else {
-        return kw_set_error(KW_EINVAL,
-                            "phantom: unknown phantom '%s' (shepp-logan, "
+        return kw_set_error_param(KW_EINVAL, "name",
+                            "unknown phantom '%s' (shepp-logan, "
                             "shepp-logan-modified, weave, weave3d)", name);
     }
     snprintf(p->name, sizeof p->name, "%s", name);

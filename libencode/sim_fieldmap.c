@@ -82,7 +82,8 @@ static double sample_tau(const kw_sim_options *o, size_t i, size_t ix)
     return kw_signal_phase_time(&o->contrast, kw_sim_sample_time(o, i, ix));
 }
 
-kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
+/* The options against the simulation they perturb. */
+static kw_status fm_check(kw_fieldmap **out, const kw_fieldmap_options *opt)
 {
     KW_FAIL_IF(!out || !opt || !opt->sim || !opt->field_hz, KW_EINVAL, "field-map: NULL argument");
     *out = NULL;
@@ -100,59 +101,22 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     for (int g = 0; g < opt->nsections; g++)
         KW_FAIL_IF(opt->sections[g].nshapes != o->phantom->nshapes || opt->sections[g].ndim != 2,
                    KW_EINVAL, "field-map: section %d is not a 2-D cut of the same phantom", g);
-    size_t nx = o->n[0], ny = o->n[1];
+    const size_t nx = o->n[0], ny = o->n[1];
     for (size_t i = 0; i < nx * ny; i++)
         KW_FAIL_IF(!isfinite(opt->field_hz[i]), KW_ENUMERIC,
                    "field-map: non-finite value at pixel %zu", i);
-    kw_fieldmap *fm = calloc(1, sizeof *fm);
-    KW_FAIL_IF(!fm, KW_ENOMEM, "field-map: out of memory");
-    kw_status st = KW_OK;
-    fm->sim = opt->sim;
-    fm->o = o;
-    fm->nx = nx;
-    fm->ny = ny;
-    fm->ov = opt->oversample;
-    fm->mx = nx * (size_t)fm->ov;
-    fm->my = ny * (size_t)fm->ov;
-    size_t M = fm->mx * fm->my;
-    int L = o->ncoils > 0 ? o->coil_order : 0, side = 2 * L + 1;
-    int shape_cls[KW_PHANTOM_MAX_SHAPES];
-    fm->ncls = kw_sim_shape_classes(opt->sim, shape_cls);
-    fm->per_sample = o->traj || o->times_per_sample;
-    fm->nsamp = o->traj ? o->nsamples : nx * ny;
-    fm->cls = kw_alloc((size_t)fm->ncls * M * sizeof *fm->cls);
-    fm->rt = kw_alloc((size_t)fm->ncls * fm->nsamp * sizeof *fm->rt);
-    fm->obj = kw_alloc(M * sizeof *fm->obj);
-    fm->sens = kw_alloc(M * sizeof *fm->sens);
-    fm->sphase = kw_alloc(M * sizeof *fm->sphase);
-    fm->field = kw_alloc(M * sizeof *fm->field);
-    fm->work = kw_alloc(M * sizeof *fm->work);
-    fm->ex = malloc(fm->mx * (size_t)side * sizeof *fm->ex);
-    fm->ey = malloc(fm->my * (size_t)side * sizeof *fm->ey);
-    if (!fm->obj || !fm->field || !fm->work || !fm->ex || !fm->ey || !fm->cls || !fm->rt ||
-        !fm->sens || !fm->sphase) {
-        st = kw_set_error(KW_ENOMEM, "field-map: out of memory for the %zux%zu grid", fm->mx, fm->my);
-        goto fail;
-    }
-    size_t dims[2] = {fm->my, fm->mx};
-    if (o->traj) {
-        /* the fine grid's spectrum at the samples: its integer frequencies
-         * span [-2N, 2N), the trajectory [-N/2, N/2) */
-        kw_nufft_opts no = {1e-6, 0, 0, 0};
-        if ((st = kw_nufft_create(&fm->nu, 2, dims, o->nsamples, o->traj, &no)))
-            goto fail;
-        fm->kvals = kw_alloc(o->nsamples * sizeof *fm->kvals);
-        if (!fm->kvals) {
-            st = kw_set_error(KW_ENOMEM, "field-map: out of memory");
-            goto fail;
-        }
-    } else if ((st = kw_fft_create(&fm->plan, 2, dims, 1, KW_FFT_ESTIMATE))) {
-        goto fail;
-    }
-    /* each class's image on the fine grid (additive weights of the shapes'
-     * steady amplitudes, the other classes' shapes set to zero), the
-     * object's support, and each class's factor at every sample */
-    size_t fn[3] = {fm->mx, fm->my, 1};
+    return KW_OK;
+}
+
+/* Each class's image on the fine grid (additive weights of the shapes'
+ * steady amplitudes, the other classes' shapes set to zero), the object's
+ * support, and each class's factor at every sample. */
+static kw_status fm_classes(kw_fieldmap *fm, const kw_fieldmap_options *opt, const int *shape_cls)
+{
+    const kw_sim_options *o = fm->o;
+    const size_t M = fm->mx * fm->my, nx = fm->nx;
+    kw_status st;
+    const size_t fn[2] = {fm->my, fm->mx}; /* the fine grid, C order */
     memset(fm->obj, 0, M * sizeof *fm->obj);
     for (int q = 0; q < fm->ncls; q++) {
         double own[KW_PHANTOM_MAX_SHAPES], w[KW_PHANTOM_MAX_SHAPES];
@@ -171,12 +135,12 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
             memset(img, 0, M * sizeof *img);
             for (int g = 0; g < opt->nsections; g++) {
                 if ((st = kw_phantom_rasterize(&opt->sections[g], fn, w, FINE_SUPER, cut)))
-                    goto fail;
+                    return st;
                 for (size_t i = 0; i < M; i++)
                     img[i] += (float)(opt->section_weights[g] * cut[i]);
             }
         } else if ((st = kw_phantom_rasterize(o->phantom, fn, w, FINE_SUPER, img))) {
-            goto fail;
+            return st;
         }
         for (size_t i = 0; i < M; i++) {
             fm->obj[i] += fabsf(img[i]);
@@ -187,7 +151,14 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
             r[j] = (float complex)kw_sim_shape_factor(opt->sim, rep,
                                                       kw_sim_sample_time(o, j, o->traj ? j : j % nx));
     }
-    /* the field map, bilinear between the matrix's pixel centres */
+    return KW_OK;
+}
+
+/* The field map on the fine grid, bilinear between the matrix's pixel
+ * centres. */
+static void fm_field(kw_fieldmap *fm, const float *f)
+{
+    const size_t nx = fm->nx, ny = fm->ny;
     for (size_t r = 0; r < fm->my; r++) {
         double yr = ((double)r - (double)(fm->my / 2)) / (double)fm->ov + (double)(ny / 2);
         for (size_t c = 0; c < fm->mx; c++) {
@@ -202,13 +173,19 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
             y0 = CL(y0, ny);
             y1 = CL(y1, ny);
 #undef CL
-            const float *f = opt->field_hz;
             fm->field[r * fm->mx + c] =
                 (float)((1 - ay) * ((1 - ax) * f[y0 * nx + x0] + ax * f[y0 * nx + x1]) +
                         ay * ((1 - ax) * f[y1 * nx + x0] + ax * f[y1 * nx + x1]));
         }
     }
-    /* phase times of the readout and the field range over the object */
+}
+
+/* Phase times of the readout, the time nodes, the field range over the
+ * object and the segments' times. */
+static void fm_segments(kw_fieldmap *fm, const kw_fieldmap_options *opt, size_t *nobj_out)
+{
+    const kw_sim_options *o = fm->o;
+    const size_t M = fm->mx * fm->my, nx = fm->nx;
     double tmin = INFINITY, tmax = -INFINITY, fmin = INFINITY, fmax = -INFINITY;
     for (size_t i = 0; i < (fm->per_sample ? fm->nsamp : nx); i++) {
         double t = sample_tau(o, i, o->traj ? i : i % nx);
@@ -245,6 +222,20 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     fm->nseg = nseg;
     for (int l = 0; l < nseg; l++)
         fm->tau_seg[l] = nseg == 1 ? tmin : tmin + (tmax - tmin) * l / (nseg - 1);
+    *nobj_out = nobj;
+}
+
+/* The least-squares interpolators of Sutton et al. over the object's pixels
+ * (every pixel when the object is empty), subsampled to at most ~20000: with
+ * e_l(x) = exp(-i 2 pi f_x tau_l) once per fit pixel,
+ *   G_lm = sum_x conj(e_l) e_m,  rhs_l(tau) = sum_x conj(e_l) y(tau),
+ * y(tau) = exp(-i 2 pi f_x tau), b(tau) = G^-1 rhs(tau). */
+static kw_status fm_fit(kw_fieldmap *fm, size_t nobj)
+{
+    const kw_sim_options *o = fm->o;
+    const size_t M = fm->mx * fm->my;
+    const int nseg = fm->nseg;
+    kw_status st = KW_OK;
     fm->b_re = malloc((size_t)nseg * fm->nt * sizeof *fm->b_re);
     fm->b_im = malloc((size_t)nseg * fm->nt * sizeof *fm->b_im);
     /* The least-squares interpolators of Sutton et al. over the object's
@@ -316,9 +307,69 @@ fit_done:
     free(e);
     free(fx);
     free(y);
+    if (!st)
+        fm->err = worst;
+    return st;
+}
+
+kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
+{
+    kw_status st = fm_check(out, opt);
     if (st)
+        return st;
+    const kw_sim_options *o = kw_sim_get_options(opt->sim);
+    const size_t nx = o->n[0], ny = o->n[1];
+    kw_fieldmap *fm = calloc(1, sizeof *fm);
+    KW_FAIL_IF(!fm, KW_ENOMEM, "field-map: out of memory");
+    fm->sim = opt->sim;
+    fm->o = o;
+    fm->nx = nx;
+    fm->ny = ny;
+    fm->ov = opt->oversample;
+    fm->mx = nx * (size_t)fm->ov;
+    fm->my = ny * (size_t)fm->ov;
+    size_t M = fm->mx * fm->my;
+    int L = o->ncoils > 0 ? o->coil_order : 0, side = 2 * L + 1;
+    int shape_cls[KW_PHANTOM_MAX_SHAPES];
+    fm->ncls = kw_sim_shape_classes(opt->sim, shape_cls);
+    fm->per_sample = o->traj || o->times_per_sample;
+    fm->nsamp = o->traj ? o->nsamples : nx * ny;
+    fm->cls = kw_alloc((size_t)fm->ncls * M * sizeof *fm->cls);
+    fm->rt = kw_alloc((size_t)fm->ncls * fm->nsamp * sizeof *fm->rt);
+    fm->obj = kw_alloc(M * sizeof *fm->obj);
+    fm->sens = kw_alloc(M * sizeof *fm->sens);
+    fm->sphase = kw_alloc(M * sizeof *fm->sphase);
+    fm->field = kw_alloc(M * sizeof *fm->field);
+    fm->work = kw_alloc(M * sizeof *fm->work);
+    fm->ex = malloc(fm->mx * (size_t)side * sizeof *fm->ex);
+    fm->ey = malloc(fm->my * (size_t)side * sizeof *fm->ey);
+    if (!fm->obj || !fm->field || !fm->work || !fm->ex || !fm->ey || !fm->cls || !fm->rt ||
+        !fm->sens || !fm->sphase) {
+        st = kw_set_error(KW_ENOMEM, "field-map: out of memory for the %zux%zu grid", fm->mx, fm->my);
         goto fail;
-    fm->err = worst;
+    }
+    size_t dims[2] = {fm->my, fm->mx};
+    if (o->traj) {
+        /* the fine grid's spectrum at the samples: its integer frequencies
+         * span [-2N, 2N), the trajectory [-N/2, N/2) */
+        kw_nufft_opts no = {1e-6, 0, 0, 0};
+        if ((st = kw_nufft_create(&fm->nu, 2, dims, o->nsamples, o->traj, &no)))
+            goto fail;
+        fm->kvals = kw_alloc(o->nsamples * sizeof *fm->kvals);
+        if (!fm->kvals) {
+            st = kw_set_error(KW_ENOMEM, "field-map: out of memory");
+            goto fail;
+        }
+    } else if ((st = kw_fft_create(&fm->plan, 2, dims, 1, KW_FFT_ESTIMATE))) {
+        goto fail;
+    }
+    if ((st = fm_classes(fm, opt, shape_cls)))
+        goto fail;
+    fm_field(fm, opt->field_hz);
+    size_t nobj = 0;
+    fm_segments(fm, opt, &nobj);
+    if ((st = fm_fit(fm, nobj)))
+        goto fail;
     *out = fm;
     return KW_OK;
 fail:

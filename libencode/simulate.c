@@ -16,6 +16,7 @@
 
 struct kw_sim {
     kw_sim_options o;
+    size_t cdims[3];         /* o.n in C order (nz, ny, nx) */
     int nshapes;
     int channels;
     int terms;               /* (2L+1)^2 (3-D: (2Lz+1)(2L+1)^2), 1 without coils */
@@ -55,29 +56,44 @@ static double fast_mag(const struct fast_shape *f, double fx, double fy, double 
     return 0.0;
 }
 
-kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
+void kw_sim_options_init(kw_sim_options *o)
 {
-    KW_FAIL_IF(!out || !opt || !opt->phantom, KW_EINVAL, "simulate: NULL argument");
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+}
+
+kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
+{
+    KW_FAIL_IF(!out, KW_EINVAL, "simulate: NULL argument");
+    kw_sim_options taken;
+    kw_sim_options_init(&taken);
+    kw_status tst = kw_options_take(&taken, sizeof taken, caller, "sim_options");
+    if (tst)
+        return tst;
+    const kw_sim_options *opt = &taken;
+    KW_FAIL_IF(!opt->phantom, KW_EINVAL, "simulate: NULL argument");
     *out = NULL;
     const kw_phantom *p = opt->phantom;
     KW_FAIL_IF(p->nshapes < 1 || p->nshapes > KW_PHANTOM_MAX_SHAPES, KW_EINVAL,
                "phantom: %d shapes", p->nshapes);
     size_t nz = opt->n[2] ? opt->n[2] : 1;
-    KW_FAIL_IF(opt->n[0] < 1 || opt->n[1] < 1, KW_EINVAL, "matrix: must be positive");
-    KW_FAIL_IF(p->ndim == 2 && nz > 1, KW_ENOTSUP,
-               "matrix: a 2-D phantom gives one slice (nz must be 1)");
-    KW_FAIL_IF(p->ndim == 3 && !opt->traj && nz < 2, KW_EINVAL,
-               "matrix: a 3-D phantom needs nz >= 2");
+    KW_FAIL_PARAM(opt->n[0] < 1 || opt->n[1] < 1, KW_EINVAL, "n", "must be positive");
+    KW_FAIL_PARAM(p->ndim == 2 && nz > 1, KW_ENOTSUP, "n",
+               "a 2-D phantom gives one slice (nz must be 1)");
+    KW_FAIL_PARAM(p->ndim == 3 && !opt->traj && nz < 2, KW_EINVAL, "n",
+               "a 3-D phantom needs nz >= 2");
     if (opt->traj) {
-        KW_FAIL_IF(opt->nsamples < 1, KW_EINVAL, "trajectory: no samples");
-        KW_FAIL_IF(opt->traj_ndim < 2 || opt->traj_ndim > 3, KW_EINVAL,
-                   "trajectory: %d columns (2 or 3)", opt->traj_ndim);
-        KW_FAIL_IF(opt->traj_ndim != p->ndim, KW_EINVAL,
-                   "trajectory: %d-D trajectory for a %d-D phantom", opt->traj_ndim,
+        KW_FAIL_PARAM(opt->nsamples < 1, KW_EINVAL, "traj", "no samples");
+        KW_FAIL_PARAM(opt->traj_ndim < 2 || opt->traj_ndim > 3, KW_EINVAL, "traj",
+                   "%d columns (2 or 3)", opt->traj_ndim);
+        KW_FAIL_PARAM(opt->traj_ndim != p->ndim, KW_EINVAL, "traj",
+                   "%d-D trajectory for a %d-D phantom", opt->traj_ndim,
                    p->ndim);
         for (size_t i = 0; i < opt->nsamples * (size_t)opt->traj_ndim; i++)
-            KW_FAIL_IF(!isfinite(opt->traj[i]), KW_ENUMERIC,
-                       "trajectory: non-finite value at index %zu", i);
+            KW_FAIL_PARAM(!isfinite(opt->traj[i]), KW_ENUMERIC, "traj",
+                       "non-finite value at index %zu", i);
     }
     KW_FAIL_IF(opt->ncoils < 0 || opt->ncoils > 256, KW_EINVAL, "coils: %d", opt->ncoils);
     if (opt->ncoils > 0) {
@@ -95,20 +111,23 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *opt)
                    "coils: period must be positive");
     }
     for (int d = 0; d < 3; d++)
-        KW_FAIL_IF(!isfinite(opt->df_grad_hz[d]) || fabs(opt->df_grad_hz[d]) > 1e7, KW_ERANGE,
-                   "field-gradient: %g Hz per FOV is not a finite, physical value",
+        KW_FAIL_PARAM(!isfinite(opt->df_grad_hz[d]) || fabs(opt->df_grad_hz[d]) > 1e7, KW_ERANGE, "df_grad_hz",
+                   "%g Hz per FOV is not a finite, physical value",
                    opt->df_grad_hz[d]);
-    KW_FAIL_IF(p->ndim == 2 && opt->df_grad_hz[2] != 0, KW_EINVAL,
-               "field-gradient: a z component for a 2-D phantom");
-    KW_FAIL_IF(!isfinite(opt->bandwidth_hz) || opt->bandwidth_hz < 0, KW_EINVAL,
-               "bandwidth: must be positive");
+    KW_FAIL_PARAM(p->ndim == 2 && opt->df_grad_hz[2] != 0, KW_EINVAL, "df_grad_hz",
+               "a z component for a 2-D phantom");
+    KW_FAIL_PARAM(!isfinite(opt->bandwidth_hz) || opt->bandwidth_hz < 0, KW_EINVAL, "bandwidth_hz",
+               "must be positive");
     const kw_contrast *c = &opt->contrast;
-    KW_FAIL_IF(!isfinite(c->te_s) || c->te_s < 0, KW_EINVAL, "te: must be >= 0");
+    KW_FAIL_PARAM(!isfinite(c->te_s) || c->te_s < 0, KW_EINVAL, "contrast", "must be >= 0");
 
     kw_sim *s = calloc(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "simulate: out of memory");
     s->o = *opt;
     s->o.n[2] = nz;
+    s->cdims[0] = nz;
+    s->cdims[1] = opt->n[1];
+    s->cdims[2] = opt->n[0];
     s->nshapes = p->nshapes;
     s->channels = opt->ncoils > 0 ? opt->ncoils : 1;
     s->lz = opt->ncoils > 0 && p->ndim == 3 ? opt->coil_order_z : 0;
@@ -282,7 +301,8 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
     if (s->o.ncoils == 0) {
         double complex acc = 0;
         for (int i = 0; i < s->nshapes; i++)
-            acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim, s->o.n, kx, kv, kz);
+            acc += w[i] * kw_phantom_kspace_shape(&p->shapes[i], p->ndim,
+                                                  s->cdims + (p->ndim == 3 ? 0 : 1), kx, kv, kz);
         out[0] = (float complex)acc;
         return;
     }

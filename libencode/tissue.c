@@ -57,8 +57,8 @@ kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
     kw_tissue_values g = given ? given[id] : (kw_tissue_values){0, 0, 0, 0};
     const double v[4] = {g.pd, g.t1_s, g.t2_s, g.t2s_s};
     for (int i = 0; i < 4; i++)
-        KW_FAIL_IF(!(v[i] >= 0) || !isfinite(v[i]), KW_EINVAL,
-                   "tissue: %s: a value is negative or not finite", t->name);
+        KW_FAIL_PARAM(!(v[i] >= 0) || !isfinite(v[i]), KW_EINVAL, "tissue",
+                      "%s: a value is negative or not finite", t->name);
     out->pd = g.pd > 0 ? g.pd : t->pd;
     if (g.t1_s > 0 && g.t2_s > 0 && g.t2s_s > 0) {
         out->t1_s = g.t1_s;
@@ -68,15 +68,15 @@ kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *given,
         double t1, t2, t2s;
         kw_status st = kw_tissue_relax(id, b0_t, &t1, &t2, &t2s);
         if (st)
-            return kw_set_error(st, "b0: %s needs tabulated relaxation times, which exist at "
+            return kw_set_error_param(st, "b0_t", "%s needs tabulated relaxation times, which exist at "
                                 "1.5 T and 3 T only (got %g T); give its T1, T2 and T2*",
                                 t->name, b0_t);
         out->t1_s = g.t1_s > 0 ? g.t1_s : t1;
         out->t2_s = g.t2_s > 0 ? g.t2_s : t2;
         out->t2s_s = g.t2s_s > 0 ? g.t2s_s : t2s;
     }
-    KW_FAIL_IF(out->t2s_s > out->t2_s * (1 + 1e-12), KW_EINVAL,
-               "tissue: %s: T2* %g s above T2 %g s", t->name, out->t2s_s, out->t2_s);
+    KW_FAIL_PARAM(out->t2s_s > out->t2_s * (1 + 1e-12), KW_EINVAL, "tissue",
+                  "%s: T2* %g s above T2 %g s", t->name, out->t2s_s, out->t2_s);
     return KW_OK;
 }
 

@@ -82,7 +82,8 @@ Test(coils3d, fit_recovers_series)
             }
     double complex c[27];
     double res = 1;
-    cr_assert_eq(kw_coil_fit3(m, 1, nx, ny, nz, NULL, L, Lz, period, c, &res), KW_OK);
+    const size_t dims[3] = {nz, ny, nx}; /* C order */
+    cr_assert_eq(kw_coil_fit3(m, 1, dims, NULL, L, Lz, period, c, &res), KW_OK);
     for (int i = 0; i < P; i++)
         cr_expect(cabs(c[i] - c0[i]) < 1e-5, "coef %d: %g", i, cabs(c[i] - c0[i]));
     cr_expect(res < 1e-6, "residual %g", res);

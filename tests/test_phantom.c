@@ -74,9 +74,9 @@ Test(phantom, replacement_weights)
     kw_phantom_weights(&p, NULL, w);
     cr_expect(fabs(w[0] - p.shapes[0].value) < 1e-15);
     cr_expect(fabs(w[1] - (p.shapes[1].value - p.shapes[0].value)) < 1e-15);
-    size_t n[3] = {128, 128, 1};
+    size_t dims[2] = {128, 128}; /* (ny, nx) */
     static float img[128 * 128];
-    cr_assert_eq(kw_phantom_rasterize(&p, n, NULL, 4, img), KW_OK);
+    cr_assert_eq(kw_phantom_rasterize(&p, dims, NULL, 4, img), KW_OK);
     /* vial 1 (white matter) centred at (0, 0.55): row 64 - 0.55 * 64 ~ 29 */
     cr_expect(fabs(img[29 * 128 + 64] - kw_tissue_get(KW_TISSUE_WHITE_MATTER)->pd) < 1e-6);
     /* the centre-grid pixel (64, 64) lies in the gap between bars of group 2 */
@@ -87,8 +87,8 @@ Test(phantom, rasterize_rejects_bad_arguments)
 {
     kw_phantom p;
     kw_phantom_make(&p, "shepp-logan");
-    size_t n[3] = {8, 8, 1};
+    size_t dims[2] = {8, 8};
     float img[64];
-    cr_expect_eq(kw_phantom_rasterize(&p, n, NULL, 0, img), KW_EINVAL);
-    cr_expect_eq(kw_phantom_rasterize_grid(&p, n, NULL, 2, NAN, img), KW_EINVAL);
+    cr_expect_eq(kw_phantom_rasterize(&p, dims, NULL, 0, img), KW_EINVAL);
+    cr_expect_eq(kw_phantom_rasterize_grid(&p, dims, NULL, 2, NAN, img), KW_EINVAL);
 }

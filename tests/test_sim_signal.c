@@ -94,7 +94,8 @@ Test(tissue, fat_frequency)
     cr_expect(fabs(hz + 434.2903) < 1e-3, "fat %g Hz", hz);
     kw_phantom p;
     kw_phantom_make(&p, "weave");
-    kw_sim_options o = {0};
+    kw_sim_options o;
+    kw_sim_options_init(&o);
     o.phantom = &p;
     o.n[0] = o.n[1] = 8;
     o.contrast.seq = KW_CONTRAST_GRE;

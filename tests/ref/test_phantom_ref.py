@@ -132,7 +132,7 @@ def rasterize(lib, name, n, offset, sup=4):
     buf = ctypes.create_string_buffer(PHANTOM_BYTES)
     assert lib.kw_phantom_make(buf, name.encode()) == 0
     out = np.zeros((n, n), dtype=np.float32)
-    dims = (ctypes.c_size_t * 3)(n, n, 1)
+    dims = (ctypes.c_size_t * 2)(n, n)  # (ny, nx), C order
     st = lib.kw_phantom_rasterize_grid(buf, dims, None, ctypes.c_int(sup),
                                        ctypes.c_double(offset),
                                        out.ctypes.data_as(ctypes.c_void_p))
