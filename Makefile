@@ -122,7 +122,7 @@ $(BUILD)/cxx_include: tests/api/cxx_include.cpp $(BUILD)/include/kweave.h $(PUB_
 test-api: $(BUILD)/cxx_include $(BUILD)/libkweave.so
 	LD_LIBRARY_PATH=$(BUILD) $(BUILD)/cxx_include
 	sh tests/api/exports.sh $(BUILD)/libkweave.so $(PUB_HDR)
-	$(PY) tests/api/shape.py --report
+	$(PY) tests/api/shape.py
 ifneq ($(SAN),1)
 	sh tests/api/installed.sh $(MAKE) $(BUILD)
 endif
@@ -182,7 +182,7 @@ clean:
 # crashed - through the same targets built without libFuzzer.
 FUZZ_CC ?= clang
 FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
-FUZZ_DEP_SRC := libencode/base.c cli/npy.c cli/outfile.c cli/jsonio.c cli/units.c cli/cli.c \
+FUZZ_DEP_SRC := libencode/base.c cli/npy.c cli/outfile.c cli/jsonio.c libencode/units.c cli/cli.c \
                 $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c) $(FUZZ_EXTRA_SRC)
 FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
               -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \

@@ -7,7 +7,7 @@
 #include <stdio.h>
 
 #include "kw_base.h"
-#include "units.h"
+#include "kw_units.h"
 
 /* Exit codes (DESIGN.md; README "Exit codes"). */
 enum {

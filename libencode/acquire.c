@@ -23,16 +23,6 @@ void kw_acquisition_options_init(kw_acquisition_options *o)
     o->slice_points = 8;
 }
 
-kw_status kw_acq_retag(kw_status st, const char *param)
-{
-    if (st == KW_OK)
-        return st;
-    char line[512];
-    const char *why = kw_last_error();
-    snprintf(line, sizeof line, "%s", *why ? why : kw_strerror(st));
-    return kw_set_error_param(st, param, "%s", line);
-}
-
 /* Mean |truth| over the object: pixels at >= 10% of the maximum. */
 static double object_mean(const float *img, size_t n)
 {
@@ -153,12 +143,12 @@ static kw_status acq_truth(kw_acquisition *a)
     a->truth = kw_alloc(a->truth_count * sizeof *a->truth);
     KW_FAIL_PARAM(!a->truth, KW_ENOMEM, "dims", "truth: out of memory");
     if (a->nsl)
-        return kw_acq_retag(kw_acq_slices_run(a, a->truth, NULL, NULL, NULL, NULL), "slices");
+        return kw_error_reparam(kw_acq_slices_run(a, a->truth, NULL, NULL, NULL, NULL), NULL, "slices");
     double w[KW_PHANTOM_MAX_SHAPES];
     kw_sim_image_weights(a->sim, w);
-    return kw_acq_retag(kw_phantom_rasterize(&a->ph, a->cd + (a->ndim == 3 ? 0 : 1), w,
-                                             a->ndim == 3 ? 4 : 8, a->truth),
-                        "dims");
+    return kw_error_reparam(kw_phantom_rasterize(&a->ph, a->cd + (a->ndim == 3 ? 0 : 1), w,
+                                                 a->ndim == 3 ? 4 : 8, a->truth),
+                            NULL, "dims");
 }
 
 static void acq_sim_options(kw_acquisition *a)
@@ -289,7 +279,7 @@ static kw_status acq_build(kw_acquisition *a)
     if (a->o.field_map && !a->nsl) {
         kw_fieldmap_options fo = {a->sim, a->o.field_map, 4, 0, 0, NULL, NULL};
         if ((st = kw_fieldmap_create(&a->fmp, &fo)))
-            return kw_acq_retag(st, "field_map");
+            return kw_error_reparam(st, NULL, "field_map");
         a->info.field_map_interp_error = kw_fieldmap_interp_error(a->fmp);
         a->info.field_map_segments = kw_fieldmap_segments(a->fmp);
     }

@@ -63,7 +63,7 @@ static kw_status ring_fail(kw_status st)
             snprintf(why, sizeof why, "%s", kw_last_error_reason());
             return kw_set_error_param(st, names[i][1], "%s", why);
         }
-    return kw_acq_retag(st, "coils");
+    return kw_error_reparam(st, NULL, "coils");
 }
 
 /* The ring's maps: (coils, [nz or slices,] ny, nx); multi-slice: each
@@ -225,7 +225,7 @@ kw_status kw_acq_coils(kw_acquisition *a)
     a->resid = malloc((size_t)a->ncoils * sizeof *a->resid);
     KW_FAIL_PARAM(!a->coef || !a->resid, KW_ENOMEM, "coils", "out of memory");
     if ((st = acq_fit(a, ones, nterm)))
-        return kw_acq_retag(st, who);
+        return kw_error_reparam(st, NULL, who);
     /* The data are exact for the fitted series: the maps are those. */
     size_t planes = a->ndim == 3 ? n[2] : a->per_slice ? (size_t)a->nsl : 1;
     const size_t gd[3] = {a->per_slice ? 1 : planes, n[1], n[0]}; /* one grid, C order */
@@ -235,7 +235,7 @@ kw_status kw_acq_coils(kw_acquisition *a)
                                      L, Lz, KW_ACQ_COIL_PERIOD, gd,
                                      a->maps + (size_t)c * mvox + (a->per_slice ? k * n[0] * n[1] : 0));
     if (st)
-        return kw_acq_retag(st, "coils");
+        return kw_error_reparam(st, NULL, "coils");
     in->coil_order = L;
     in->coil_order_z = Lz;
     in->coil_period = KW_ACQ_COIL_PERIOD;

@@ -66,9 +66,6 @@ typedef struct kw_acq_slice_fieldmap {
     int seg;
 } kw_acq_slice_fieldmap;
 
-/* acquire.c: re-tag a failure of a lower call with the option at fault
- * (the reason stays the lower call's whole line). */
-kw_status kw_acq_retag(kw_status st, const char *param);
 
 /* acquire_timing.c: contrast, bandwidth, protocol plan, TE/TR/TI/flip,
  * off-resonance. */

@@ -48,7 +48,7 @@ static kw_status acq_plan(kw_acquisition *a)
     kw_plan_report *rep = NULL;
     kw_status st = kw_plan_create(&rep, &pp);
     if (st)
-        return kw_acq_retag(st, "protocol");
+        return kw_error_reparam(st, NULL, "protocol");
     in->protocol = 1;
     in->min_te_s = rep->min_te_s;
     in->feasible = rep->feasible;

@@ -83,6 +83,16 @@ kw_status kw_set_error_param(kw_status s, const char *param, const char *fmt, ..
     return s;
 }
 
+kw_status kw_error_reparam(kw_status st, const char *from, const char *to)
+{
+    if (st == KW_OK || (from && strcmp(last_param, from) != 0))
+        return st;
+    char why[sizeof last_error];
+    snprintf(why, sizeof why, "%s", from ? kw_last_error_reason()
+                                         : (last_error[0] ? last_error : kw_strerror(st)));
+    return kw_set_error_param(st, to, "%s", why);
+}
+
 kw_status kw_options_take(void *dst, size_t dst_size, const void *src, const char *what)
 {
     KW_FAIL_PARAM(!src, KW_EINVAL, what, "NULL options (fill them with the _init() call first)");

@@ -103,6 +103,13 @@ KW_API kw_status kw_set_error_param(kw_status s, const char *param, const char *
 #endif
     ;
 
+/*! kw_error_reparam(): name the parameter of the last failure anew, for a
+ * call that passes a lower call's failure on in its own words. With `from`
+ * NULL, any failure becomes "to: <the lower call's whole line>"; otherwise
+ * only a failure naming `from` is renamed (its reason kept). Returns `st`;
+ * does nothing when st is KW_OK. */
+KW_API kw_status kw_error_reparam(kw_status st, const char *from, const char *to);
+
 /*! kw_clear_error(): forget the last reason on this thread. */
 KW_API void kw_clear_error(void);
 

@@ -46,16 +46,6 @@ void kw_pattern_options_init(kw_pattern_options *o)
     o->shots = 1;
 }
 
-/* re-label the last failure's parameter `from` as `to` (returns st) */
-static kw_status rename_param(kw_status st, const char *from, const char *to)
-{
-    if (strcmp(kw_last_error_param(), from) != 0)
-        return st;
-    char why[512];
-    snprintf(why, sizeof why, "%s", kw_last_error_reason());
-    return kw_set_error_param(st, to, "%s", why);
-}
-
 /* ---- Cartesian masks ------------------------------------------------------ */
 
 static kw_status mask_opts(const kw_pattern_options *po, kw_mask_opts *o)
@@ -168,9 +158,9 @@ static kw_status make_radial(kw_pattern *p)
     kw_status st = kw_traj_size(&o, &ns, &ndk);
     if (st)
     {
-        st = rename_param(st, "oversampling", "readout_oversampling");
-        st = rename_param(st, "n", "dims");
-        return rename_param(st, "nz", "dims");
+        st = kw_error_reparam(st, "oversampling", "readout_oversampling");
+        st = kw_error_reparam(st, "n", "dims");
+        return kw_error_reparam(st, "nz", "dims");
     }
     p->k = malloc(ns * (size_t)ndk * sizeof *p->k);
     p->t = malloc(ns * sizeof *p->t);

@@ -3,7 +3,7 @@
 #include <math.h>
 #include <string.h>
 
-#include "units.h"
+#include "kw_units.h"
 
 static double parse_ok(const char *s, kw_unit_kind k)
 {

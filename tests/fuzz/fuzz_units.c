@@ -6,7 +6,7 @@
 #include <string.h>
 
 #include "cli.h"
-#include "units.h"
+#include "kw_units.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
 

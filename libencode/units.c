@@ -1,5 +1,5 @@
 /* units.c: parsing of physical quantities with units. */
-#include "units.h"
+#include "kw_units.h"
 
 #include <ctype.h>
 #include <math.h>
