@@ -9,7 +9,7 @@
 #include "kw_base.h"
 #include "kw_units.h"
 
-/* Exit codes (DESIGN.md; README "Exit codes"). */
+/* Exit codes (README "Exit codes"). */
 enum {
     KW_EXIT_OK = 0,
     KW_EXIT_INTERNAL = 1, /* a failure of kweave itself */

@@ -1,7 +1,7 @@
 /* kw_base.h: status codes, arrays, physical constants and progress callbacks
  * shared by every part of kweave.
  *
- * Conventions (DESIGN.md, tested in tests/test_base.c and tests/ref/):
+ * Conventions (docs/api.md, tested in tests/test_base.c and tests/ref/):
  *  - SI units inside: m, s, T, T/m, T/m/s, Hz, K.
  *  - Samples are `float complex` (C99), layout-compatible with fftwf_complex.
  *  - Arrays are C-ordered. Multi-coil k-space is (coils, ny, nx); 3-D Cartesian

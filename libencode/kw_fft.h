@@ -1,12 +1,12 @@
 /* kw_fft.h: batched, centered, unitary FFTs over the last 1-3 axes.
  *
- * The transform is DESIGN.md's plain transform: k = 0 (and x = 0) at index
+ * The transform is docs/api.md's plain transform: k = 0 (and x = 0) at index
  * floor(N/2) of each axis, scaled by 1/sqrt(N) both ways, so that
  *   kw_fft_inverse == fftshift(ifftn(ifftshift(x), norm="ortho"))
  *   kw_fft_forward == fftshift(fftn(ifftshift(x), norm="ortho"))
  * over the transformed axes (checked against numpy in tests/ref/).
  *
- * Life cycle (STYLE.md: plan once, execute many): kw_fft_create() makes every
+ * Life cycle (DEVELOPERS.md: plan once, execute many): kw_fft_create() makes every
  * FFTW plan; kw_fft_forward()/kw_fft_inverse() run in place on any buffer of
  * batch x prod(dims) samples without allocating (buffers must be 16-byte
  * aligned, which malloc and kw_alloc guarantee); kw_fft_destroy() frees.

@@ -1,6 +1,6 @@
 /* kw_nufft.h: the non-uniform FFT in 2-D and 3-D, both directions.
  *
- * Definition (DESIGN.md's centered unitary DFT, evaluated off the grid): for
+ * Definition (docs/api.md's centered unitary DFT, evaluated off the grid): for
  * an image x of shape dims (C order: (ny, nx) or (nz, ny, nx)), pixel index
  * i_d standing for n_d = i_d - floor(N_d/2), and a trajectory point k_j in
  * cycles per FOV (k_j[d] in [-N_d/2, N_d/2), columns in x, y(, z) order),

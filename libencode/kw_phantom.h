@@ -1,7 +1,7 @@
 /* kw_phantom.h: analytic phantoms made of ellipses, rectangles, ellipsoids
  * and boxes, with their exact Fourier transforms (no rasterise-then-FFT).
  *
- * Coordinates (DESIGN.md): phantom coordinates [-1, 1] span the FOV in every
+ * Coordinates (docs/api.md): phantom coordinates [-1, 1] span the FOV in every
  * direction; x to the right, y up, z towards the viewer. Row 0 of an image is
  * the top (y = +1 side).
  *

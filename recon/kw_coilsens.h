@@ -3,7 +3,7 @@
  * and coil sensitivities estimated from the autocalibration block.
  *
  * Axes are (z, y, x) = (d[0], d[1], d[2]); 2-D data have d[0] = 1. Index i
- * of an axis of length N stands for k = i - N/2 (DESIGN.md). */
+ * of an axis of length N stands for k = i - N/2 (docs/api.md). */
 #ifndef KW_COILSENS_H
 #define KW_COILSENS_H
 
@@ -34,7 +34,7 @@ KW_API kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3]
                                    kw_cart_sampling *s);
 
 /*! kw_cart_mask(): the sampling mask of k-space (nc, npix): 1 where any coil
- * holds a nonzero sample (DESIGN.md: unsampled points are zeros). */
+ * holds a nonzero sample (docs/api.md: unsampled points are zeros). */
 KW_API void kw_cart_mask(const kw_cfloat *ksp, size_t nc, size_t npix, uint8_t *mask);
 
 /*! kw_coilsens_walsh(): relative coil sensitivities (nc, npix) from the

@@ -26,7 +26,7 @@
  *     d[k] = sum_m b[m] x[(2k + 1 - F/2 + m) mod N]
  * (the index origin is pywt's for mode='periodization').
  *
- * Life cycle (STYLE.md): kw_wavelet_create() checks the sizes and allocates
+ * Life cycle (DEVELOPERS.md): kw_wavelet_create() checks the sizes and allocates
  * one scratch image; execute calls do not allocate. One plan must not run two
  * transforms at the same time (the scratch is shared): use one plan per
  * thread. Every dimension must be divisible by 2^levels.

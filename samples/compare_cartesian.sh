@@ -9,7 +9,7 @@
 #    coil maps. If this kweave has no `encode` yet, the script says so and
 #    falls back on a numpy stand-in (ellipses, Gaussian loop coils) so that
 #    the rest of the chain can still be exercised.
-# 2. Undersampling is applied by zeroing k-space lines (DESIGN.md: unsampled
+# 2. Undersampling is applied by zeroing k-space lines (docs/api.md: unsampled
 #    points are zeros): uniform R = 2, 3, 4 along ky with 24 calibration
 #    lines, and 5/8 partial Fourier along ky.
 # 3. Every method reconstructs every case with the simulator's maps and

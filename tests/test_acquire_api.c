@@ -33,7 +33,7 @@ static const kw_acquisition_info *run(const kw_acquisition_options *o, kw_acquis
 }
 
 /* The centered unitary inverse DFT of one (n, n) plane, naively in double
- * (DESIGN.md's convention: numpy fftshift(ifft2(ifftshift(x), norm="ortho"))). */
+ * (docs/api.md's convention: numpy fftshift(ifft2(ifftshift(x), norm="ortho"))). */
 static void idft2(const kw_cfloat *k, size_t n, double complex *img)
 {
     double complex *tmp = calloc(n * n, sizeof *tmp);
@@ -56,7 +56,7 @@ static void idft2(const kw_cfloat *k, size_t n, double complex *img)
     free(tmp);
 }
 
-/* libpng's image.version habit (STYLE.md): init records the size; an
+/* libpng's image.version habit (DEVELOPERS.md): init records the size; an
  * options struct never initialised is refused, naming the struct. */
 Test(acquire_api, options_init_and_struct_size)
 {
@@ -121,7 +121,7 @@ Test(acquire_api, dc_is_the_phantom_integral)
 }
 
 /* Fully sampled, noise-free, one channel: the centered unitary inverse
- * DFT (naive, double) of the k-space reconstructs the truth (DESIGN.md's
+ * DFT (naive, double) of the k-space reconstructs the truth (docs/api.md's
  * scale) apart from the truncation ringing at the edges. Measured in the
  * interior of the weave phantom's large regions: the reconstruction at the
  * pixels whose 5x5 neighbourhood of truth is flat (no edge within 2

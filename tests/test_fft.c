@@ -1,5 +1,5 @@
 /* test_fft.c: the centered unitary FFT against a direct DFT in double
- * (STYLE.md: naive reference, odd and prime sizes) and its properties. */
+ * (DEVELOPERS.md: naive reference, odd and prime sizes) and its properties. */
 #include <criterion/criterion.h>
 #include <math.h>
 #include <stdlib.h>

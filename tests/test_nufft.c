@@ -1,5 +1,5 @@
 /* test_nufft.c: the NUFFT against the exact non-uniform DFT in double
- * (STYLE.md: naive reference), on the Cartesian grid against the centered
+ * (DEVELOPERS.md: naive reference), on the Cartesian grid against the centered
  * unitary FFT, adjointness, the kernel's Fourier transform by quadrature,
  * and bad input. The NDFT itself is checked against numpy in
  * tests/ref/test_nufft_numpy.py. */

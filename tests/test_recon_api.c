@@ -4,7 +4,7 @@
  * Outside reference: the object itself. A known complex image rho (a disc
  * with a smooth phase) times four smooth complex coil maps s_c is encoded by
  * a direct centered unitary DFT in double written here (the definition of
- * kw_base.h / DESIGN.md, independent of FFTW), so every reconstruction is
+ * kw_base.h / docs/api.md, independent of FFTW), so every reconstruction is
  * compared with the image that made the data: fully sampled fft + optimal
  * combination (Roemer et al. 1990: |sum conj(s) x| / sum |s|^2 = |rho|),
  * SENSE at R = 2 (Pruessmann et al. 1999: exact unfolding for noise-free

@@ -5,7 +5,7 @@
 // Checks: the run-time version equals the header's; kw_cfloat is the size of
 // two floats (the C++ standard's layout guarantee for std::complex, [complex.numbers]);
 // the centered unitary inverse DFT of a unit impulse at k = 0 (index N/2) is
-// the constant 1/sqrt(N) (definition of the unitary DFT, DESIGN.md's
+// the constant 1/sqrt(N) (definition of the unitary DFT, docs/api.md's
 // convention); a failing call leaves a reason naming its parameter.
 #include "kweave.h"
 

@@ -26,7 +26,7 @@ def run(*args, input=None, check=True):
 
 
 def centered_ifft2(k):
-    """The centered unitary inverse DFT over the last two axes (DESIGN.md's
+    """The centered unitary inverse DFT over the last two axes (docs/api.md's
     convention, numpy.fft)."""
     ax = (-2, -1)
     return np.fft.fftshift(np.fft.ifftn(np.fft.ifftshift(k, axes=ax), axes=ax, norm="ortho"), axes=ax)

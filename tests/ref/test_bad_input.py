@@ -2,7 +2,7 @@
 
 Every case runs the real `kweave` binary (under `make asan` the sanitizer
 build, so a sanitizer report would add stderr lines and fail the one-line
-check) and must: exit with status 2 (bad usage or input, DESIGN.md "Exit
+check) and must: exit with status 2 (bad usage or input, docs/api.md "Exit
 codes"), print exactly one line "kweave: error: <field>: <reason>" naming the
 field, and leave no output file and no temporary file behind.
 

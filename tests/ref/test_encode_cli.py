@@ -1,6 +1,6 @@
 """`kweave encode` end to end (run by /usr/bin/python3): fully sampled,
 noise-free k-space reconstructed with numpy's inverse FFT (the centered
-unitary convention of DESIGN.md) shows the published intensities of the
+unitary convention of docs/api.md) shows the published intensities of the
 phantoms; noise has the documented level; bad input fails cleanly."""
 import json
 import os

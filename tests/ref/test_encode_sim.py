@@ -1,6 +1,6 @@
 """The physics of `kweave encode` (issue 5) against outside references, run by
 /usr/bin/python3 with numpy (reconstruction by numpy.fft, the centered
-unitary convention of DESIGN.md)."""
+unitary convention of docs/api.md)."""
 import json
 
 import numpy as np

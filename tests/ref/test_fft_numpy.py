@@ -1,5 +1,5 @@
 """The centered unitary FFT against numpy.fft (reference library, Debian's
-python3-numpy): DESIGN.md's definition
+python3-numpy): docs/api.md's definition
     inverse = fftshift(ifftn(ifftshift(x, axes), axes, norm="ortho"), axes)
 on random data, sizes even, odd and prime, 1 to 3 dims; relative error <= 1e-5."""
 import ctypes

@@ -2,7 +2,7 @@
 
 Data are made here with an exact non-uniform DFT in numpy (float64) of a
 smooth phantom (ellipses blurred by a Gaussian of 1 pixel, so that the disc
-of radial k-space holds its energy) and smooth coil maps, in DESIGN.md's
+of radial k-space holds its energy) and smooth coil maps, in docs/api.md's
 convention: y_j = N^-1 sum_n x_n exp(-2 pi i k_j . n / N), n = i - N/2.
 Scores are computed by scikit-image (structural_similarity, Wang et al. 2004)
 and numpy, independently of kweave's own metrics.

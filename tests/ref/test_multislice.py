@@ -1,7 +1,7 @@
 """`kweave recon` on multi-slice 2-D k-space (docs/multislice.md).
 
 References, all outside kweave:
-- numpy (Debian's python3-numpy): DESIGN.md's centered unitary inverse DFT
+- numpy (Debian's python3-numpy): docs/api.md's centered unitary inverse DFT
   fftshift(ifft2(ifftshift(k), norm="ortho")) applied to each slice's plane on
   its own, coils combined by root-sum-of-squares or by Roemer et al. 1990's
   optimal combination sum conj(S) m / sum |S|^2 (MRM 16:192); relative error

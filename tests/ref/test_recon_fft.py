@@ -1,5 +1,5 @@
 """`kweave recon --method fft` against numpy (Debian's python3-numpy):
-DESIGN.md's centered unitary inverse DFT
+docs/api.md's centered unitary inverse DFT
 fftshift(ifftn(ifftshift(k, axes), axes, norm="ortho"), axes), coils combined
 by root-sum-of-squares; relative error <= 1e-5."""
 import json
