@@ -134,7 +134,11 @@ static int bench_nufft(int ndim, size_t n, size_t m, double tol, int threads, in
         img[i] = (float)kw_rng_normal(&g) + I * (float)kw_rng_normal(&g);
     for (size_t i = 0; i < coils * m; i++)
         ksp[i] = (float)kw_rng_normal(&g) + I * (float)kw_rng_normal(&g);
-    kw_nufft_opts o = {tol, 0, threads, 1};
+    kw_nufft_options o;
+    kw_nufft_options_init(&o);
+    o.tolerance = tol;
+    o.nthreads = threads;
+    o.measure = 1;
     kw_nufft_plan *p;
     double t0 = now_ms();
     if (kw_nufft_create(&p, ndim, dims, m, traj, &o)) {

@@ -54,7 +54,7 @@ void kw_encoder_destroy(kw_encoder *e)
 
 /* The circulant's eigenvalues for F_nu^H W F_nu (see kw_encoder.h). */
 static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
-                                const kw_nufft_opts *no)
+                                const kw_nufft_options *no)
 {
     const int nd = e->ndim;
     e->nbig = 1;
@@ -217,7 +217,12 @@ kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
     }
     e->cbuf = kw_alloc(ncoils * e->npix * sizeof(float complex));
     KW_FAIL_GOTO(!e->cbuf, st, KW_ENOMEM, fail, "encoder: out of memory");
-    kw_nufft_opts no = {opts->tolerance, opts->oversampling, opts->nthreads, opts->measure};
+    kw_nufft_options no;
+    kw_nufft_options_init(&no);
+    no.tolerance = opts->tolerance; /* 0: the NUFFT's default, as documented */
+    no.oversampling = opts->oversampling;
+    no.nthreads = opts->nthreads;
+    no.measure = opts->measure;
     if (!e->noncart) {
         st = kw_fft_create(&e->fft, ndim, dims, ncoils,
                            opts->measure ? KW_FFT_MEASURE : KW_FFT_ESTIMATE);

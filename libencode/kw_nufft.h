@@ -43,22 +43,32 @@ extern "C" {
 
 typedef struct kw_nufft_plan kw_nufft_plan;
 
-typedef struct kw_nufft_opts {
-    double tolerance;    /* requested relative l2 error, 1e-6 .. 1e-2 (0: 1e-3) */
-    double oversampling; /* grid oversampling alpha in [1.25, 2] (0: chosen) */
-    int nthreads;        /* OpenMP threads (<= 0: OpenMP's default) */
-    int measure;         /* nonzero: FFTW_MEASURE plans (else FFTW_ESTIMATE) */
-} kw_nufft_opts;
+/* The plan's options: kw_nufft_options_init() fills the defaults (tolerance
+ * 1e-3, oversampling 2, OpenMP's default thread count, FFTW_ESTIMATE), then
+ * set what applies. */
+typedef struct kw_nufft_options {
+    size_t struct_size;  /* sizeof, set by kw_nufft_options_init() */
+    double tolerance;    /* requested relative l2 error, 1e-6 .. 1e-2 (default
+                            1e-3; 0 also means 1e-3) */
+    double oversampling; /* grid oversampling alpha in [1.25, 2] (default 2;
+                            0 also means 2) */
+    int nthreads;        /* OpenMP threads (default 0; <= 0: OpenMP's default) */
+    int measure;         /* nonzero: FFTW_MEASURE plans (default 0: FFTW_ESTIMATE) */
+} kw_nufft_options;
+
+/*! kw_nufft_options_init(): the defaults above, struct_size = sizeof *o. */
+KW_API void kw_nufft_options_init(kw_nufft_options *o);
 
 /*! kw_nufft_create(): plan for an image of `ndim` (2 or 3) axes `dims` (C
  * order) and `nsamples` points `traj` (nsamples x ndim floats, cycles/FOV,
- * column 0 = x = last image axis). `opts` may be NULL (defaults). The
+ * column 0 = x = last image axis). `opts` may be NULL (defaults); a struct
+ * never initialised (struct_size 0) is refused naming "options". The
  * trajectory is copied. Fails with KW_ERANGE for a point outside
  * [-N/2, N/2) or a tolerance/oversampling out of range, KW_ENUMERIC for
  * NaN/Inf coordinates. */
 KW_API kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
                           size_t nsamples, const float *traj,
-                          const kw_nufft_opts *opts);
+                          const kw_nufft_options *opts);
 
 /*! kw_nufft_forward(): image -> samples for `batch` coils: img is
  * (batch, dims...), ksp is (batch, nsamples). */

@@ -85,7 +85,7 @@ static int plan_threads(int want)
 
 /* Check the arguments and choose the kernel, before anything is allocated. */
 static kw_status check_args(int ndim, const size_t *dims, size_t nsamples, const float *traj,
-                            const kw_nufft_opts *opts, double *tol_out, double *alpha_out,
+                            const kw_nufft_options *opts, double *tol_out, double *alpha_out,
                             int *W, double *beta)
 {
     KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "nufft: %d dimensions (2 or 3)", ndim);
@@ -93,9 +93,9 @@ static kw_status check_args(int ndim, const size_t *dims, size_t nsamples, const
     KW_FAIL_IF(nsamples > 0 && !traj, KW_EINVAL, "trajectory: NULL");
     KW_FAIL_IF(nsamples >= UINT32_MAX, KW_ERANGE, "trajectory: %zu samples (at most 2^32 - 2)",
                nsamples);
-    double tol = opts && opts->tolerance > 0 ? opts->tolerance : 1e-3;
-    KW_FAIL_IF(opts && !(opts->tolerance >= 0), KW_ERANGE, "tolerance: not a number >= 0");
-    double alpha = opts && opts->oversampling != 0 ? opts->oversampling : 0;
+    double tol = opts->tolerance > 0 ? opts->tolerance : 1e-3;
+    KW_FAIL_IF(!(opts->tolerance >= 0), KW_ERANGE, "tolerance: not a number >= 0");
+    double alpha = opts->oversampling;
     KW_FAIL_IF(alpha != alpha, KW_ERANGE, "oversampling: not a number");
     if (alpha == 0)
         alpha = 2.0; /* fastest for MRI's dense sampling (docs/noncartesian.md) */
@@ -319,13 +319,13 @@ static void plan_colours(kw_nufft_plan *p)
 }
 
 /* The oversampled grid's FFTW plans (p->grid allocated). */
-static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_opts *opts)
+static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_options *opts)
 {
     const int ndim = p->ndim, D0 = 3 - ndim;
     int n_int[3];
     for (int d = 0; d < ndim; d++)
         n_int[d] = (int)p->M[D0 + d];
-    unsigned ff = opts && opts->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
+    unsigned ff = opts->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
     if (p->nthreads > 1) {
         kw_status st = kw_fft_setup(kw_fft_threads());
         if (st)
@@ -342,12 +342,30 @@ static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_opts *opts)
     return KW_OK;
 }
 
+void kw_nufft_options_init(kw_nufft_options *o)
+{
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    o->tolerance = 1e-3;
+    o->oversampling = 2.0;
+}
+
 kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
                           size_t nsamples, const float *traj,
-                          const kw_nufft_opts *opts)
+                          const kw_nufft_options *caller)
 {
     KW_FAIL_IF(!plan, KW_EINVAL, "nufft: NULL plan pointer");
     *plan = NULL;
+    kw_nufft_options local;
+    kw_nufft_options_init(&local);
+    if (caller) {
+        kw_status ost = kw_options_take(&local, sizeof local, caller, "options");
+        if (ost)
+            return ost;
+    }
+    const kw_nufft_options *opts = &local;
     double tol = 0, alpha = 0, beta = 0;
     int W = 0;
     kw_status st = check_args(ndim, dims, nsamples, traj, opts, &tol, &alpha, &W, &beta);
@@ -361,7 +379,7 @@ kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
     p->alpha = alpha;
     p->tol = tol;
     p->nsamples = nsamples;
-    p->nthreads = plan_threads(opts ? opts->nthreads : 0);
+    p->nthreads = plan_threads(opts->nthreads);
     double i0b = nufft_bessel_i0(beta);
     if (plan_axes(p, dims, i0b) || plan_tiles(p) || plan_sort(p, traj, i0b))
         goto fail;

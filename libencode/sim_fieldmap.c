@@ -352,7 +352,9 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
     if (o->traj) {
         /* the fine grid's spectrum at the samples: its integer frequencies
          * span [-2N, 2N), the trajectory [-N/2, N/2) */
-        kw_nufft_opts no = {1e-6, 0, 0, 0};
+        kw_nufft_options no;
+        kw_nufft_options_init(&no);
+        no.tolerance = 1e-6;
         if ((st = kw_nufft_create(&fm->nu, 2, dims, o->nsamples, o->traj, &no)))
             goto fail;
         fm->kvals = kw_alloc(o->nsamples * sizeof *fm->kvals);

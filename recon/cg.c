@@ -141,15 +141,32 @@ void kw_solver_destroy(kw_solver *s)
     free(s);
 }
 
+void kw_solver_options_init(kw_solver_options *o)
+{
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    o->iterations = 100;
+    o->stop = 1e-5;
+    o->reg = KW_REG_NONE;
+    o->wavelet_order = 4;
+    o->inner = 10;
+}
+
 kw_status kw_solver_create(kw_solver **out, kw_encoder *enc, int ndim, const size_t *dims,
-                           const kw_solver_opts *opts)
+                           const kw_solver_options *opts)
 {
     KW_FAIL_IF(!out || !enc || !dims, KW_EINVAL, "solver: NULL argument");
     *out = NULL;
     KW_FAIL_IF(ndim != 2 && ndim != 3, KW_EINVAL, "solver: %d dimensions", ndim);
-    kw_solver_opts o = {0};
-    if (opts)
-        o = *opts;
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    if (opts) {
+        kw_status ost = kw_options_take(&o, sizeof o, opts, "options");
+        if (ost)
+            return ost;
+    }
     KW_FAIL_IF(!(o.lambda >= 0) || !isfinite(o.lambda), KW_ERANGE,
                "lambda: %g (must be >= 0)", o.lambda);
     KW_FAIL_IF(!(o.stop < 1) || o.stop != o.stop, KW_ERANGE,

@@ -136,7 +136,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
 
 
 kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
-                      int iterations, const kw_nufft_opts *opts, float *w)
+                      int iterations, const kw_nufft_options *opts, float *w)
 {
     KW_FAIL_IF(!w || !traj || ns == 0, KW_EINVAL, "dcf: empty trajectory");
     if (iterations <= 0)
@@ -145,7 +145,17 @@ kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj
      * grid-sampled convolution close to shift-invariant: with W = 4 the
      * weights of radial sampling scatter by +-15%, with W = 8 by +-1%
      * against the exact Voronoi areas (tests/test_dcf.c). */
-    kw_nufft_opts o = {1e-6, 2.0, opts ? opts->nthreads : 0, 0};
+    kw_nufft_options o, given;
+    kw_nufft_options_init(&given);
+    if (opts) {
+        kw_status ost = kw_options_take(&given, sizeof given, opts, "options");
+        if (ost)
+            return ost;
+    }
+    kw_nufft_options_init(&o);
+    o.tolerance = 1e-6;
+    o.oversampling = 2.0;
+    o.nthreads = given.nthreads;
     kw_nufft_plan *p;
     kw_status st = kw_nufft_create(&p, ndim, dims, ns, traj, &o);
     if (st)

@@ -12,7 +12,7 @@
 
 struct kw_grappa {
     size_t nc, d[3], npix;
-    kw_grappa_opts o;
+    kw_grappa_options o;
     int blo[3];          /* first source offset b per axis */
     size_t ns, ncols;    /* source points, nc * ns */
     int ntgt;            /* R - 1 target offsets */
@@ -40,11 +40,31 @@ void kw_grappa_destroy(kw_grappa *g)
     free(g);
 }
 
-kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
-                           const kw_grappa_opts *o)
+void kw_grappa_options_init(kw_grappa_options *o)
 {
-    KW_FAIL_IF(!out || !d || !o || nc == 0, KW_EINVAL, "grappa: NULL argument");
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    for (int a = 0; a < 3; a++)
+        o->accel[a] = 1;
+    o->kernel[0] = 1;
+    o->kernel[1] = 2;
+    o->kernel[2] = 5;
+    o->lambda = 1e-4; /* common practice, no source */
+}
+
+kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
+                           const kw_grappa_options *caller)
+{
+    KW_FAIL_IF(!out || !d || nc == 0, KW_EINVAL, "grappa: NULL argument");
     *out = NULL;
+    kw_grappa_options local;
+    kw_grappa_options_init(&local);
+    kw_status ost = kw_options_take(&local, sizeof local, caller, "options");
+    if (ost)
+        return ost;
+    const kw_grappa_options *o = &local;
     KW_FAIL_PARAM(!(o->lambda >= 0) || !isfinite(o->lambda), KW_EINVAL, "lambda", "must be >= 0");
     kw_grappa *g = calloc(1, sizeof *g);
     KW_FAIL_IF(!g, KW_ENOMEM, "grappa: out of memory");

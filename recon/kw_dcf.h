@@ -37,7 +37,7 @@ KW_API kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
  * NUFFT's tolerance), starting from ones, `iterations` times (<= 0: 20).
  * `opts` gives the thread count only (NULL: default). */
 KW_API kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
-                      int iterations, const kw_nufft_opts *opts, float *w);
+                      int iterations, const kw_nufft_options *opts, float *w);
 
 #ifdef __cplusplus
 }

@@ -30,20 +30,32 @@ extern "C" {
 
 typedef struct kw_grappa kw_grappa;
 
-typedef struct kw_grappa_opts {
-    int accel[3];      /* per axis (z, y, x) */
-    int offset[3];     /* lattice offset per axis */
-    size_t acs_lo[3];  /* autocalibration block */
-    size_t acs_n[3];
-    int kernel[3];     /* source points per axis (1 for an axis of length 1) */
-    double lambda;     /* relative Tikhonov weight (>= 0) */
-} kw_grappa_opts;
+/* The plan's options: kw_grappa_options_init() fills the defaults (no
+ * acceleration, lattice offset 0, an empty autocalibration block, which the
+ * caller must set, kernel 1 x 2 x 5 (kweave recon's 2x5 on 2-D data
+ * accelerated along y), lambda 1e-4), then set what applies. */
+typedef struct kw_grappa_options {
+    size_t struct_size; /* sizeof, set by kw_grappa_options_init() */
+    int accel[3];      /* per axis (z, y, x) (default 1, 1, 1) */
+    int offset[3];     /* lattice offset per axis (default 0, 0, 0) */
+    size_t acs_lo[3];  /* autocalibration block: first point per axis */
+    size_t acs_n[3];   /* and points per axis (default 0: to be set) */
+    int kernel[3];     /* source points per axis (1 for an axis of length 1)
+                          (default 1, 2, 5) */
+    double lambda;     /* relative Tikhonov weight (>= 0; default 1e-4) */
+} kw_grappa_options;
+
+/*! kw_grappa_options_init(): the defaults above, struct_size = sizeof *o. */
+KW_API void kw_grappa_options_init(kw_grappa_options *o);
 
 /*! kw_grappa_create(): plan for nc coils on d = (nz, ny, nx): allocates the
- * calibration system and the weights. KW_EINVAL when the block is too small
- * for the kernel (fewer fitting positions than unknowns per coil). */
+ * calibration system and the weights. `o` is required: NULL, or a struct
+ * never initialised (struct_size 0), is refused naming "options". KW_EINVAL
+ * naming "acs_lines" when the block is too small for the kernel (fewer
+ * fitting positions than unknowns per coil), "kernel" for a size or an
+ * acceleration below 1, "lambda" for a negative weight. */
 KW_API kw_status kw_grappa_create(kw_grappa **g, size_t nc, const size_t d[3],
-                           const kw_grappa_opts *o);
+                           const kw_grappa_options *o);
 
 /*! kw_grappa_calibrate(): fit the weights on the block of `ksp` (nc, npix).
  * KW_ENUMERIC naming "acs_lines" when the system is singular (e.g. an empty

@@ -37,13 +37,27 @@ typedef struct kw_sense kw_sense;
 
 #define KW_SENSE_MAX_R 64
 
+/* The plan's options: kw_sense_options_init() fills the defaults (no
+ * acceleration, lattice offset 0, lambda 0), then set what applies. */
+typedef struct kw_sense_options {
+    size_t struct_size; /* sizeof, set by kw_sense_options_init() */
+    int accel[3];       /* acceleration per axis (z, y, x) (default 1, 1, 1) */
+    int offset[3];      /* lattice offset per axis (default 0, 0, 0) */
+    double lambda;      /* relative Tikhonov weight, >= 0 (default 0) */
+} kw_sense_options;
+
+/*! kw_sense_options_init(): the defaults above, struct_size = sizeof *o. */
+KW_API void kw_sense_options_init(kw_sense_options *o);
+
 /*! kw_sense_create(): plan SENSE for nc coils on the grid d = (nz, ny, nx)
- * (nz = 1 for 2-D), acceleration accel[] and lattice offset[] per axis,
- * relative Tikhonov weight lambda >= 0. Makes the FFT plan and every buffer.
- * KW_EINVAL when an axis is not divisible by its acceleration, or the total
- * acceleration exceeds KW_SENSE_MAX_R or the coil count. */
+ * (nz = 1 for 2-D) with the acceleration, lattice offset and relative
+ * Tikhonov weight of `o` (required: NULL, or a struct never initialised,
+ * struct_size 0, is refused naming "options"). Makes the FFT plan and every
+ * buffer. KW_EINVAL naming "accel" when an axis is not divisible by its
+ * acceleration, or the total acceleration exceeds KW_SENSE_MAX_R or the coil
+ * count; naming "lambda" for a negative weight. */
 KW_API kw_status kw_sense_create(kw_sense **s, size_t nc, const size_t d[3],
-                          const int accel[3], const int offset[3], double lambda);
+                          const kw_sense_options *o);
 
 /*! kw_sense_execute(): unfold `ksp` (nc, npix) with the sensitivities `sens`
  * (nc, npix) into `img` (npix, complex, in the intensity scale of sens);

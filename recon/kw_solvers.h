@@ -47,16 +47,25 @@ typedef enum kw_regulariser {
     KW_REG_TV = 2
 } kw_regulariser;
 
-typedef struct kw_solver_opts {
-    int iterations;    /* maximum (<= 0: 30 for CG, 100 for FISTA/ADMM) */
-    double stop;       /* relative change/residual to stop at (<= 0: 1e-5) */
-    double lambda;     /* regularisation weight, >= 0 */
-    kw_regulariser reg;
-    int wavelet_order; /* Daubechies dbN, N in 1..4 (0: 4) */
-    int wavelet_levels;/* 0: as many as the sizes allow, at most 4 */
-    double rho;        /* ADMM penalty (<= 0: L/2, L = ||N||) */
-    int inner;         /* TV prox dual steps (FISTA) / CG steps (ADMM) (0: 10) */
-} kw_solver_opts;
+/* The solver's options: kw_solver_options_init() fills the defaults (100
+ * iterations, stop 1e-5, lambda 0, no regulariser, db4 on as many levels as
+ * the sizes allow up to 4, rho L/2, 10 inner steps), then set what applies. */
+typedef struct kw_solver_options {
+    size_t struct_size; /* sizeof, set by kw_solver_options_init() */
+    int iterations;     /* maximum (default 100; <= 0 also means 100) */
+    double stop;        /* relative change/residual to stop at (default 1e-5;
+                           <= 0 also means 1e-5) */
+    double lambda;      /* regularisation weight, >= 0 (default 0) */
+    kw_regulariser reg; /* default KW_REG_NONE */
+    int wavelet_order;  /* Daubechies dbN, N in 1..4 (default 4; 0 also means 4) */
+    int wavelet_levels; /* default 0: as many as the sizes allow, at most 4 */
+    double rho;         /* ADMM penalty (default 0; <= 0: L/2, L = ||N||) */
+    int inner;          /* TV prox dual steps (FISTA) / CG steps (ADMM)
+                           (default 10; <= 0 also means 10) */
+} kw_solver_options;
+
+/*! kw_solver_options_init(): the defaults above, struct_size = sizeof *o. */
+KW_API void kw_solver_options_init(kw_solver_options *o);
 
 typedef struct kw_iter_record {
     int iter;          /* 1-based */
@@ -67,10 +76,12 @@ typedef struct kw_iter_record {
 typedef struct kw_solver kw_solver;
 
 /*! kw_solver_create(): a solver for `enc` whose image has `ndim` axes
- * `dims` (as the encoder's). KW_ERANGE for a negative lambda or a stop
- * outside [0, 1); KW_ENOTSUP for a wavelet on sizes not divisible by 2. */
+ * `dims` (as the encoder's), with `opts` (NULL: the defaults; a struct never
+ * initialised, struct_size 0, is refused naming "options"). KW_ERANGE for a
+ * negative lambda or a stop outside [0, 1); KW_ENOTSUP for a wavelet on
+ * sizes not divisible by 2. */
 KW_API kw_status kw_solver_create(kw_solver **s, kw_encoder *enc, int ndim,
-                           const size_t *dims, const kw_solver_opts *opts);
+                           const size_t *dims, const kw_solver_options *opts);
 
 /*! kw_cg_sense(): x = N^-1 b from x's content as the start (zero it for
  * the usual start). y: the data (coils x nk). */

@@ -7,7 +7,7 @@
 
 struct kw_solver {
     kw_encoder *enc;
-    kw_solver_opts o;
+    kw_solver_options o;
     int ndim;
     size_t dims[3], n, ndata;
     double L;                      /* 0 until estimated */

@@ -25,8 +25,6 @@
 #include "kw_sense.h"
 #include "recon_priv.h"
 
-#define GRAPPA_LAMBDA 1e-4 /* common practice, no source */
-
 kw_status kw_recon_run_fft(kw_rjob *job)
 {
     kw_cart c;
@@ -77,7 +75,15 @@ kw_status kw_recon_run_sense(kw_rjob *job)
     if ((st = kw_cart_need_sens(job, &c, 2)))
         goto out;
     double lambda = isnan(job->opt->lambda) ? 0.0 : job->opt->lambda;
-    if ((st = kw_sense_create(&s, c.nc, c.d, c.smp.accel, c.smp.offset, lambda)))
+    kw_sense_options so;
+    kw_sense_options_init(&so);
+    for (int a = 0; a < 3; a++) {
+        so.accel[a] = c.smp.accel[a];
+        so.offset[a] = c.smp.offset[a];
+    }
+    so.lambda = lambda;
+    /* the building block's "accel" is the recon's "acceleration" */
+    if ((st = kw_error_reparam(kw_sense_create(&s, c.nc, c.d, &so), "accel", "acceleration")))
         goto out;
     img = kw_alloc(c.npix * sizeof *img);
     KW_FAIL_GOTO(!img, st, KW_ENOMEM, out, "sense: out of memory");
@@ -101,9 +107,9 @@ out:
     return st;
 }
 
-static void grappa_opts(const kw_rjob *job, const kw_cart *c, kw_grappa_opts *o)
+static void grappa_opts(const kw_rjob *job, const kw_cart *c, kw_grappa_options *o)
 {
-    memset(o, 0, sizeof *o);
+    kw_grappa_options_init(o);
     int ky = job->opt->kernel[0] ? job->opt->kernel[0] : 2;
     int kx = job->opt->kernel[1] ? job->opt->kernel[1] : 5;
     for (int a = 0; a < 3; a++) {
@@ -118,7 +124,8 @@ static void grappa_opts(const kw_rjob *job, const kw_cart *c, kw_grappa_opts *o)
     }
     if (c->smp.accel[0] == 1 && c->smp.accel[1] == 1 && c->smp.accel[2] == 1)
         o->kernel[1] = 1; /* fully sampled: nothing to synthesise */
-    o->lambda = isnan(job->opt->lambda) ? GRAPPA_LAMBDA : job->opt->lambda;
+    if (!isnan(job->opt->lambda))
+        o->lambda = job->opt->lambda; /* else the library's default, 1e-4 */
 }
 
 kw_status kw_recon_run_grappa(kw_rjob *job)
@@ -132,7 +139,7 @@ kw_status kw_recon_run_grappa(kw_rjob *job)
         goto out;
     if ((st = kw_cart_require_lattice(&c, "GRAPPA")))
         goto out;
-    kw_grappa_opts o;
+    kw_grappa_options o;
     grappa_opts(job, &c, &o);
     if ((st = kw_grappa_create(&g, c.nc, c.d, &o)))
         goto out;

@@ -13,12 +13,13 @@
 #include "kw_nufft.h"
 #include "recon_priv.h"
 
-void kw_nc_nufft_opts(const kw_recon_options *o, kw_nufft_opts *no)
+void kw_nc_nufft_opts(const kw_recon_options *o, kw_nufft_options *no)
 {
-    memset(no, 0, sizeof *no);
-    no->tolerance = isnan(o->tolerance) ? 1e-3 : o->tolerance;
-    no->oversampling = isnan(o->oversampling) ? 0 : o->oversampling;
-    no->measure = 0;
+    kw_nufft_options_init(no);
+    if (!isnan(o->tolerance))
+        no->tolerance = o->tolerance;
+    if (!isnan(o->oversampling))
+        no->oversampling = o->oversampling;
 }
 
 /* Image shape (C order): the maps' shape, else the caller's image_dims, else
@@ -101,7 +102,7 @@ kw_status kw_nc_weights(kw_recon *r)
     }
     if (kind == KW_RECON_DCF_RADIAL)
         return kw_dcf_radial(nd, ns, t, r->w);
-    kw_nufft_opts no;
+    kw_nufft_options no;
     kw_nc_nufft_opts(&r->o, &no);
     return kw_dcf_pipe(nd, r->nc_dims, ns, t, 20, &no, r->w);
 }
@@ -134,7 +135,7 @@ kw_status kw_nc_sens(kw_rjob *job, float complex **sens)
     float complex *y = malloc(nc * ns * sizeof *y);
     float complex *img = kw_alloc(nc * np * sizeof *img);
     kw_nufft_plan *p = NULL;
-    kw_nufft_opts no;
+    kw_nufft_options no;
     kw_nc_nufft_opts(job->opt, &no);
     kw_status st = KW_OK;
     if (!y || !img) {
@@ -246,7 +247,7 @@ kw_status kw_recon_run_grid(kw_rjob *job)
         np *= dims[d];
     float complex *y = NULL, *img = NULL;
     kw_nufft_plan *p = NULL;
-    kw_nufft_opts no;
+    kw_nufft_options no;
     kw_nc_nufft_opts(job->opt, &no);
     kw_status st;
     if ((st = kw_nufft_create(&p, ndim, dims, ns, r->g.trajectory, &no)))

@@ -23,7 +23,7 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
                               uint8_t **mask, const float complex **y, kw_encoder **enc)
 {
     kw_recon *r = job->r;
-    kw_nufft_opts no;
+    kw_nufft_options no;
     kw_nc_nufft_opts(job->opt, &no);
     kw_encoder_options eo;
     kw_encoder_options_init(&eo);
@@ -127,7 +127,8 @@ static kw_status run_iterative(kw_rjob *job, int kind)
     kw_status st = make_encoder(job, &cart, &sens, &mask, &y, &enc);
     if (st)
         goto done;
-    kw_solver_opts so = {0};
+    kw_solver_options so;
+    kw_solver_options_init(&so);
     so.iterations = o->iterations > 0 ? o->iterations : kind == K_CG ? 30 : 100;
     so.stop = isnan(o->stop) ? (kind == K_CG ? 1e-6 : 1e-4) : o->stop;
     so.reg = kind == K_FISTA_WAV || kind == K_ADMM_WAV ? KW_REG_WAVELET

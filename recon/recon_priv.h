@@ -101,7 +101,7 @@ kw_status kw_nc_geometry(kw_recon *r);
 kw_status kw_nc_weights(kw_recon *r);
 kw_status kw_nc_sens(kw_rjob *job, float complex **sens);
 kw_status kw_nc_image(kw_rjob *job, const float complex *x);
-void kw_nc_nufft_opts(const kw_recon_options *o, kw_nufft_opts *no);
+void kw_nc_nufft_opts(const kw_recon_options *o, kw_nufft_options *no);
 
 /* methods */
 kw_status kw_recon_run_fft(kw_rjob *job);

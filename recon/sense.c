@@ -42,23 +42,39 @@ void kw_sense_destroy(kw_sense *s)
     free(s);
 }
 
-kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
-                          const int accel[3], const int offset[3], double lambda)
+void kw_sense_options_init(kw_sense_options *o)
 {
-    KW_FAIL_IF(!out || !d || !accel || !offset || nc == 0, KW_EINVAL, "sense: NULL argument");
+    if (!o)
+        return;
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    for (int a = 0; a < 3; a++)
+        o->accel[a] = 1;
+}
+
+kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
+                          const kw_sense_options *caller)
+{
+    KW_FAIL_IF(!out || !d || nc == 0, KW_EINVAL, "sense: NULL argument");
     *out = NULL;
+    kw_sense_options o;
+    kw_sense_options_init(&o);
+    kw_status ost = kw_options_take(&o, sizeof o, caller, "options");
+    if (ost)
+        return ost;
+    const int *accel = o.accel, *offset = o.offset;
+    const double lambda = o.lambda;
     KW_FAIL_PARAM(!(lambda >= 0) || !isfinite(lambda), KW_EINVAL, "lambda", "must be >= 0");
     int rtot = 1;
     for (int a = 0; a < 3; a++) {
-        KW_FAIL_IF(accel[a] < 1 || d[a] % (size_t)accel[a], KW_EINVAL,
-                   "acceleration: %d does not divide the matrix (%zu) along axis %d",
-                   accel[a], d[a], a);
+        KW_FAIL_PARAM(accel[a] < 1 || d[a] % (size_t)accel[a], KW_EINVAL, "accel",
+                      "%d does not divide the matrix (%zu) along axis %d", accel[a], d[a], a);
         rtot *= accel[a];
     }
-    KW_FAIL_IF(rtot > KW_SENSE_MAX_R, KW_EINVAL, "acceleration: R = %d exceeds %d", rtot,
-               KW_SENSE_MAX_R);
-    KW_FAIL_IF((size_t)rtot > nc, KW_EINVAL,
-               "acceleration: R = %d exceeds the %zu coils (SENSE needs R <= coils)", rtot, nc);
+    KW_FAIL_PARAM(rtot > KW_SENSE_MAX_R, KW_EINVAL, "accel", "R = %d exceeds %d", rtot,
+                  KW_SENSE_MAX_R);
+    KW_FAIL_PARAM((size_t)rtot > nc, KW_EINVAL, "accel",
+                  "R = %d exceeds the %zu coils (SENSE needs R <= coils)", rtot, nc);
     kw_sense *s = calloc(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "sense: out of memory");
     s->nc = nc;

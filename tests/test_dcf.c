@@ -52,7 +52,10 @@ Test(dcf, pipe_fine_lattice_quarter)
         t[2 * i] = (float)(0.5 * ((long)(i % nx) - (long)nx / 2));
         t[2 * i + 1] = (float)(0.5 * ((long)(i / nx) - (long)ny / 2));
     }
-    kw_nufft_opts o = {1e-4, 0, 1, 0};
+    kw_nufft_options o; /* only the thread count matters to the weights */
+    kw_nufft_options_init(&o);
+    o.tolerance = 1e-4;
+    o.nthreads = 1;
     cr_assert_eq(kw_dcf_pipe(2, d, np, t, 10, &o, w), KW_OK, "%s", kw_last_error());
     for (size_t i = 0; i < np; i++)
         cr_expect(fabs(w[i] - 0.25) < 0.25 * 1e-2, "w[%zu] = %g", i, w[i]);

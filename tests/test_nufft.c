@@ -11,6 +11,18 @@
 #include "kw_fft.h"
 #include "kw_nufft.h"
 
+/* Options from the defaults, then the fields a test sets (oversampling 0:
+ * the plan's choice). */
+static kw_nufft_options nopts(double tol, double alpha, int nthreads)
+{
+    kw_nufft_options o;
+    kw_nufft_options_init(&o);
+    o.tolerance = tol;
+    o.oversampling = alpha;
+    o.nthreads = nthreads;
+    return o;
+}
+
 static double urand(unsigned *s)
 {
     *s = *s * 1664525u + 1013904223u;
@@ -57,7 +69,7 @@ static void check_accuracy(int ndim, const size_t *dims, size_t ns, double tol,
     for (size_t i = 0; i < batch * ns; i++)
         yin[i] = (float)(urand(&seed) - 0.5) + I * (float)(urand(&seed) - 0.5);
     kw_nufft_plan *p;
-    kw_nufft_opts o = {tol, alpha, 2, 0};
+    kw_nufft_options o = nopts(tol, alpha, 2);
     cr_assert_eq(kw_nufft_create(&p, ndim, dims, ns, tr, &o), KW_OK, "%s", kw_last_error());
     cr_assert_eq(kw_nufft_forward(p, x, y, batch), KW_OK);
     cr_assert_eq(kw_nufft_adjoint(p, yin, xa, batch), KW_OK);
@@ -118,7 +130,7 @@ static void cartesian_case(int ndim, const size_t *dims)
     cr_assert_eq(kw_fft_create(&fp, ndim, dims, 1, KW_FFT_ESTIMATE), KW_OK);
     kw_fft_forward(fp, f);
     kw_nufft_plan *p;
-    kw_nufft_opts o = {1e-6, 0, 1, 0};
+    kw_nufft_options o = nopts(1e-6, 0, 1);
     cr_assert_eq(kw_nufft_create(&p, ndim, dims, np, tr, &o), KW_OK, "%s", kw_last_error());
     kw_nufft_forward(p, x, y, 1);
     kw_ndft_forward(ndim, dims, np, tr, x, yd);
@@ -144,7 +156,7 @@ Test(nufft, single_sample_plane_wave)
     size_t d[2] = {32, 32};
     float tr[2] = {3.25f, -7.5f};
     kw_nufft_plan *p;
-    kw_nufft_opts o = {1e-6, 2.0, 1, 0};
+    kw_nufft_options o = nopts(1e-6, 2.0, 1);
     cr_assert_eq(kw_nufft_create(&p, 2, d, 1, tr, &o), KW_OK);
     float complex y = 1.0f, x[32 * 32];
     kw_nufft_adjoint(p, &y, x, 1);
@@ -186,7 +198,7 @@ Test(nufft, bad_input)
     float nan[2] = {NAN, 0.0f};
     cr_expect_eq(kw_nufft_create(&p, 2, d, 1, nan, NULL), KW_ENUMERIC);
     float ok[2] = {1.0f, -8.0f};
-    kw_nufft_opts o = {1e-7, 0, 1, 0};
+    kw_nufft_options o = nopts(1e-7, 0, 1);
     cr_expect_eq(kw_nufft_create(&p, 2, d, 1, ok, &o), KW_ERANGE);
     o.tolerance = 1e-1;
     cr_expect_eq(kw_nufft_create(&p, 2, d, 1, ok, &o), KW_ERANGE);
@@ -199,4 +211,55 @@ Test(nufft, bad_input)
     cr_expect_eq(kw_nufft_create(&p, 4, d, 1, ok, NULL), KW_EINVAL);
     cr_expect(p == NULL);
     kw_nufft_destroy(NULL);
+}
+
+/* The growable options struct (kw_base.h): init gives the documented
+ * defaults, an uninitialised struct is refused naming "options", and a
+ * struct from an older caller (struct_size short of nthreads and measure)
+ * creates and takes the library's defaults for the fields it lacks. */
+Test(nufft, options_struct_size)
+{
+    kw_nufft_options o;
+    memset(&o, 0x5a, sizeof o);
+    kw_nufft_options_init(&o);
+    cr_expect_eq(o.struct_size, sizeof o);
+    cr_expect_eq(o.tolerance, 1e-3);
+    cr_expect_eq(o.oversampling, 2.0);
+    cr_expect_eq(o.nthreads, 0);
+    cr_expect_eq(o.measure, 0);
+    size_t d[2] = {16, 16};
+    float tr[4] = {1.0f, -8.0f, 3.5f, 2.25f};
+    kw_nufft_plan *p = (kw_nufft_plan *)&o;
+    o.struct_size = 0; /* never initialised */
+    cr_expect_eq(kw_nufft_create(&p, 2, d, 2, tr, &o), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect(p == NULL);
+    /* defaults, by NULL and by init */
+    kw_nufft_info ref, got;
+    cr_assert_eq(kw_nufft_create(&p, 2, d, 2, tr, NULL), KW_OK, "%s", kw_last_error());
+    kw_nufft_get_info(p, &ref);
+    kw_nufft_destroy(p);
+    kw_nufft_options_init(&o);
+    cr_assert_eq(kw_nufft_create(&p, 2, d, 2, tr, &o), KW_OK, "%s", kw_last_error());
+    kw_nufft_get_info(p, &got);
+    kw_nufft_destroy(p);
+    cr_expect(got.width == ref.width && got.beta == ref.beta && got.tolerance == 1e-3 &&
+              got.oversampling == 2.0 && got.nthreads == ref.nthreads);
+    /* an older caller: what lies past its struct_size is not read */
+    kw_nufft_options old = nopts(1e-6, 1.5, ref.nthreads + 3);
+    old.measure = 1;
+    old.struct_size = offsetof(kw_nufft_options, nthreads);
+    cr_assert_eq(kw_nufft_create(&p, 2, d, 2, tr, &old), KW_OK, "%s", kw_last_error());
+    kw_nufft_get_info(p, &got);
+    kw_nufft_destroy(p);
+    cr_expect_eq(got.tolerance, 1e-6);
+    cr_expect_eq(got.oversampling, 1.5);
+    cr_expect_eq(got.nthreads, ref.nthreads, "nthreads %d, the default %d", got.nthreads,
+                 ref.nthreads);
+    /* and the whole struct is read when it is all there */
+    old.struct_size = sizeof old;
+    cr_assert_eq(kw_nufft_create(&p, 2, d, 2, tr, &old), KW_OK, "%s", kw_last_error());
+    kw_nufft_get_info(p, &got);
+    kw_nufft_destroy(p);
+    cr_expect_eq(got.nthreads, ref.nthreads + 3);
 }

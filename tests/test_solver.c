@@ -73,7 +73,10 @@ Test(solver, cg_sense_cartesian_r2_exact)
     phantom(xt, ny, nx);
     kw_encoder_forward(e, xt, y);
     kw_solver *s;
-    kw_solver_opts o = {.iterations = 200, .stop = 1e-7};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.iterations = 200;
+    o.stop = 1e-7;
     cr_assert_eq(kw_solver_create(&s, e, 2, d, &o), KW_OK, "%s", kw_last_error());
     cr_assert_eq(kw_cg_sense(s, y, x, NULL, NULL), KW_OK, "%s", kw_last_error());
     cr_expect(rel(x, xt, n) < 1e-3, "CG-SENSE error %g", rel(x, xt, n));
@@ -109,7 +112,10 @@ Test(solver, cg_sense_noncartesian_exact)
     phantom(xt, ny, nx);
     kw_encoder_forward(e, xt, y);
     kw_solver *s;
-    kw_solver_opts o = {.iterations = 300, .stop = 1e-7};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.iterations = 300;
+    o.stop = 1e-7;
     cr_assert_eq(kw_solver_create(&s, e, 2, d, &o), KW_OK);
     cr_assert_eq(kw_cg_sense(s, y, x, NULL, NULL), KW_OK, "%s", kw_last_error());
     cr_expect(rel(x, xt, n) < 1e-3, "CG-SENSE error %g", rel(x, xt, n));
@@ -145,9 +151,15 @@ static void closed_form_case(int admm)
     }
     kw_wavelet_inverse_c(w, ref, ref);
     kw_solver *s;
-    kw_solver_opts o = {.iterations = 300, .stop = 1e-8, .lambda = lambda,
-                        .reg = KW_REG_WAVELET, .wavelet_order = 4, .wavelet_levels = 3,
-                        .inner = 5};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.iterations = 300;
+    o.stop = 1e-8;
+    o.lambda = lambda;
+    o.reg = KW_REG_WAVELET;
+    o.wavelet_order = 4;
+    o.wavelet_levels = 3;
+    o.inner = 5;
     cr_assert_eq(kw_solver_create(&s, e, 2, d, &o), KW_OK, "%s", kw_last_error());
     cr_assert_eq(admm ? kw_admm(s, y, x, NULL, NULL) : kw_fista(s, y, x, NULL, NULL), KW_OK,
                  "%s", kw_last_error());
@@ -184,8 +196,13 @@ Test(solver, tv_fista_admm_agree)
     phantom(xt, ny, nx);
     kw_encoder_forward(e, xt, y);
     kw_solver *s;
-    kw_solver_opts o = {.iterations = 400, .stop = 1e-9, .lambda = 0.002,
-                        .reg = KW_REG_TV, .inner = 20};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.iterations = 400;
+    o.stop = 1e-9;
+    o.lambda = 0.002;
+    o.reg = KW_REG_TV;
+    o.inner = 20;
     cr_assert_eq(kw_solver_create(&s, e, 2, d, &o), KW_OK);
     cr_assert_eq(kw_fista(s, y, x1, NULL, NULL), KW_OK, "%s", kw_last_error());
     cr_assert_eq(kw_admm(s, y, x2, NULL, NULL), KW_OK, "%s", kw_last_error());
@@ -228,7 +245,9 @@ Test(solver, bad_input)
     kw_encoder *e;
     kw_encoder_create(&e, 2, d, NULL);
     kw_solver *s = NULL;
-    kw_solver_opts o = {.lambda = -1};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.lambda = -1;
     cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
     cr_expect(strstr(kw_last_error(), "lambda") != NULL);
     o.lambda = 0.1;
@@ -244,4 +263,71 @@ Test(solver, bad_input)
     kw_encoder_destroy(e);
     kw_encoder_destroy(e2);
     kw_solver_destroy(NULL);
+}
+
+/* FISTA-TV on a 16 x 16 image of one coil of ones (full Cartesian grid),
+ * 5 iterations from zero, with the options `o`; x receives the result. */
+static void tv_solve(kw_encoder *e, const float complex *y, const kw_solver_options *o,
+                     float complex *x)
+{
+    size_t d[2] = {16, 16};
+    kw_solver *s;
+    cr_assert_eq(kw_solver_create(&s, e, 2, d, o), KW_OK, "%s", kw_last_error());
+    memset(x, 0, 256 * sizeof *x);
+    cr_assert_eq(kw_fista(s, y, x, NULL, NULL), KW_OK, "%s", kw_last_error());
+    kw_solver_destroy(s);
+}
+
+/* The growable options struct (kw_base.h): init gives the documented
+ * defaults, an uninitialised struct is refused naming "options", and a
+ * struct from an older caller (struct_size short of `inner`, the last field)
+ * creates and takes the default inner count: its solve equals, bit for bit,
+ * the one with inner = 10, and differs from the one with the `inner` that
+ * lies unread past its struct_size. */
+Test(solver, options_struct_size)
+{
+    kw_solver_options o;
+    memset(&o, 0x5a, sizeof o);
+    kw_solver_options_init(&o);
+    cr_expect_eq(o.struct_size, sizeof o);
+    cr_expect_eq(o.iterations, 100);
+    cr_expect_eq(o.stop, 1e-5);
+    cr_expect_eq(o.lambda, 0.0);
+    cr_expect_eq(o.reg, KW_REG_NONE);
+    cr_expect_eq(o.wavelet_order, 4);
+    cr_expect_eq(o.wavelet_levels, 0);
+    cr_expect_eq(o.rho, 0.0);
+    cr_expect_eq(o.inner, 10);
+    size_t d[2] = {16, 16}, n = 256;
+    kw_encoder *e;
+    cr_assert_eq(kw_encoder_create(&e, 2, d, NULL), KW_OK, "%s", kw_last_error());
+    kw_solver *s = (kw_solver *)&o;
+    o.struct_size = 0; /* never initialised */
+    cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect(s == NULL);
+    float complex *xt = malloc(n * sizeof *xt), *y = malloc(n * sizeof *y);
+    float complex *xdef = malloc(n * sizeof *xdef), *xold = malloc(n * sizeof *xold);
+    float complex *xone = malloc(n * sizeof *xone);
+    phantom(xt, 16, 16);
+    unsigned seed = 11;
+    for (size_t i = 0; i < n; i++)
+        xt[i] += 0.2f * (float)(urand(&seed) - 0.5);
+    kw_encoder_forward(e, xt, y);
+    kw_solver_options_init(&o);
+    o.iterations = 5;
+    o.stop = 1e-12;
+    o.lambda = 0.05;
+    o.reg = KW_REG_TV;
+    tv_solve(e, y, &o, xdef); /* inner = 10, the default */
+    kw_solver_options old = o;
+    old.inner = 1;
+    tv_solve(e, y, &old, xone);
+    old.struct_size = offsetof(kw_solver_options, inner);
+    tv_solve(e, y, &old, xold);
+    cr_expect(memcmp(xold, xdef, n * sizeof *xold) == 0,
+              "an older caller's solve differs from the default inner count's");
+    cr_expect(memcmp(xone, xdef, n * sizeof *xone) != 0, "inner = 1 changes nothing here");
+    kw_encoder_destroy(e);
+    free(xt); free(y); free(xdef); free(xold); free(xone);
 }

@@ -142,7 +142,14 @@ static void sense_run(int ct, int et, float *out)
     coil_maps(s, S_NC, S_NY, S_NX);
     omp_set_num_threads(ct);
     kw_sense *se;
-    cr_assert_eq(kw_sense_create(&se, S_NC, d, acc, off, 1e-3), KW_OK, "%s", kw_last_error());
+    kw_sense_options so;
+    kw_sense_options_init(&so);
+    for (int a = 0; a < 3; a++) {
+        so.accel[a] = acc[a];
+        so.offset[a] = off[a];
+    }
+    so.lambda = 1e-3;
+    cr_assert_eq(kw_sense_create(&se, S_NC, d, &so), KW_OK, "%s", kw_last_error());
     omp_set_num_threads(et);
     cr_assert_eq(kw_sense_execute(se, k, s, img, g), KW_OK, "%s", kw_last_error());
     memcpy(out, img, S_NP * sizeof *img);
@@ -172,7 +179,16 @@ static void grappa_run(int ct, int et, float *out)
         for (size_t y = 0; y < G_NY; y++)
             if (y % 2 && (y < 24 || y >= 40))
                 memset(k + (c * G_NY + y) * G_NX, 0, G_NX * sizeof *k);
-    kw_grappa_opts go = {{1, 2, 1}, {0, 0, 0}, {0, 24, 0}, {1, 16, G_NX}, {1, 4, 5}, 1e-3};
+    kw_grappa_options go;
+    kw_grappa_options_init(&go);
+    go.accel[1] = 2;
+    go.acs_lo[1] = 24;
+    go.acs_n[0] = 1;
+    go.acs_n[1] = 16;
+    go.acs_n[2] = G_NX;
+    go.kernel[1] = 4;
+    go.kernel[2] = 5;
+    go.lambda = 1e-3;
     omp_set_num_threads(ct);
     kw_grappa *g;
     cr_assert_eq(kw_grappa_create(&g, G_NC, d, &go), KW_OK, "%s", kw_last_error());
@@ -397,7 +413,8 @@ static void solver_run(int ct, int et, float *out, kw_regulariser reg, int admm)
     kw_encoder *e;
     cr_assert_eq(enc_make(&e, dims, E_NC, g_sens, g_mask, 0, NULL),
                  KW_OK, "%s", kw_last_error());
-    kw_solver_opts o = {0};
+    kw_solver_options o;
+    kw_solver_options_init(&o);
     o.iterations = 4;
     o.stop = 1e-9;
     o.lambda = reg ? 1e-3 : 0;

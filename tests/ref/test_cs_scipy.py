@@ -16,7 +16,8 @@ from conftest import c64, sizes
 
 
 class SolverOpts(ctypes.Structure):
-    _fields_ = [("iterations", ctypes.c_int), ("stop", ctypes.c_double),
+    _fields_ = [("struct_size", ctypes.c_size_t),
+                ("iterations", ctypes.c_int), ("stop", ctypes.c_double),
                 ("lambda_", ctypes.c_double), ("reg", ctypes.c_int),
                 ("wavelet_order", ctypes.c_int), ("wavelet_levels", ctypes.c_int),
                 ("rho", ctypes.c_double), ("inner", ctypes.c_int)]
@@ -57,7 +58,10 @@ def test_tv_matches_scipy(lib, solver):
     y = np.fft.fftshift(np.fft.fft2(np.fft.ifftshift(z), norm="ortho")).astype(np.complex64)
     enc = ctypes.c_void_p()
     assert lib.kw_encoder_create(ctypes.byref(enc), 2, sizes(n, n), None) == 0  # NULL: defaults (one coil, full grid)
-    opts = SolverOpts(3000, 1e-10, lam, 2, 0, 0, 0.0, 50)
+    opts = SolverOpts()
+    lib.kw_solver_options_init(ctypes.byref(opts))
+    assert opts.struct_size == ctypes.sizeof(SolverOpts)  # the layout above matches
+    opts.iterations, opts.stop, opts.lambda_, opts.reg, opts.inner = 3000, 1e-10, lam, 2, 50
     sol = ctypes.c_void_p()
     assert lib.kw_solver_create(ctypes.byref(sol), enc, 2, sizes(n, n), ctypes.byref(opts)) == 0
     yb, yp = c64(y)

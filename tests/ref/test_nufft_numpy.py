@@ -13,7 +13,7 @@ from conftest import c64, f32, relerr, sizes
 
 
 class Opts(ctypes.Structure):
-    _fields_ = [("tolerance", ctypes.c_double), ("oversampling", ctypes.c_double),
+    _fields_ = [("struct_size", ctypes.c_size_t), ("tolerance", ctypes.c_double), ("oversampling", ctypes.c_double),
                 ("nthreads", ctypes.c_int), ("measure", ctypes.c_int)]
 
 
@@ -46,7 +46,10 @@ def test_nufft_matches_numpy_ndft(lib, shape, ns, tol):
 
     tr, trp = f32(traj)
     plan = ctypes.c_void_p()
-    opts = Opts(tol, 0.0, 1, 0)
+    opts = Opts()
+    lib.kw_nufft_options_init(ctypes.byref(opts))
+    assert opts.struct_size == ctypes.sizeof(Opts)  # the layout above matches
+    opts.tolerance, opts.nthreads = tol, 1
     assert lib.kw_nufft_create(ctypes.byref(plan), nd, sizes(*shape), ctypes.c_size_t(ns),
                                trp, ctypes.byref(opts)) == 0
     xb, xp = c64(x)
