@@ -167,12 +167,12 @@ kw_status kw_solver_create(kw_solver **out, kw_encoder *enc, int ndim, const siz
         if (ost)
             return ost;
     }
-    KW_FAIL_IF(!(o.lambda >= 0) || !isfinite(o.lambda), KW_ERANGE,
-               "lambda: %g (must be >= 0)", o.lambda);
-    KW_FAIL_IF(!(o.stop < 1) || o.stop != o.stop, KW_ERANGE,
-               "stop: %g (must be below 1)", o.stop);
-    KW_FAIL_IF(o.iterations > 100000, KW_ERANGE, "iterations: %d (at most 100000)",
-               o.iterations);
+    KW_FAIL_PARAM(!(o.lambda >= 0) || !isfinite(o.lambda), KW_ERANGE, "lambda",
+                  "%g (must be >= 0)", o.lambda);
+    KW_FAIL_PARAM(!(o.stop < 1) || o.stop != o.stop, KW_ERANGE, "stop",
+                  "%g (must be below 1)", o.stop);
+    KW_FAIL_PARAM(o.iterations > 100000, KW_ERANGE, "iterations", "%d (at most 100000)",
+                  o.iterations);
     if (o.iterations <= 0)
         o.iterations = 100;
     if (o.stop <= 0)

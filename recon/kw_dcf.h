@@ -35,7 +35,8 @@ KW_API kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
  * Med 41:179): w <- w / (C w), C the gridding kernel's self-convolution
  * (kw_nufft_convolve) with a wide kernel (W = 8, alpha = 2, whatever the
  * NUFFT's tolerance), starting from ones, `iterations` times (<= 0: 20).
- * `opts` gives the thread count only (NULL: default). */
+ * `opts` (kw_nufft_options_init(), kw_nufft.h) gives the thread count only
+ * (NULL: default); a struct never initialised is refused naming "options". */
 KW_API kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj,
                       int iterations, const kw_nufft_options *opts, float *w);
 

@@ -57,6 +57,12 @@ Test(dcf, pipe_fine_lattice_quarter)
     o.tolerance = 1e-4;
     o.nthreads = 1;
     cr_assert_eq(kw_dcf_pipe(2, d, np, t, 10, &o, w), KW_OK, "%s", kw_last_error());
+    kw_nufft_options bad = o;
+    bad.struct_size = 0; /* never initialised */
+    float w0 = w[0];
+    cr_expect_eq(kw_dcf_pipe(2, d, np, t, 10, &bad, w), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect_eq(w[0], w0); /* untouched */
     for (size_t i = 0; i < np; i++)
         cr_expect(fabs(w[i] - 0.25) < 0.25 * 1e-2, "w[%zu] = %g", i, w[i]);
     free(t);

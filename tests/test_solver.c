@@ -250,9 +250,16 @@ Test(solver, bad_input)
     o.lambda = -1;
     cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
     cr_expect(strstr(kw_last_error(), "lambda") != NULL);
+    cr_expect_str_eq(kw_last_error_param(), "lambda");
     o.lambda = 0.1;
     o.stop = 2;
     cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
+    cr_expect_str_eq(kw_last_error_param(), "stop");
+    o.stop = 0;
+    o.iterations = 100001;
+    cr_expect_eq(kw_solver_create(&s, e, 2, d, &o), KW_ERANGE);
+    cr_expect_str_eq(kw_last_error_param(), "iterations");
+    o.iterations = 0;
     size_t odd[2] = {7, 9};
     kw_encoder *e2;
     kw_encoder_create(&e2, 2, odd, NULL);
