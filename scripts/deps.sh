@@ -1,8 +1,9 @@
 #!/bin/sh
 # deps.sh MODE: make sure what kweave needs is installed.
 #   MODE=build: compiler libraries (FFTW, libpng, cJSON, cairo, pkg-config)
-#   MODE=test:  build + Criterion + Python reference libraries (numpy, scipy,
-#               scikit-image, PyWavelets, pytest) for /usr/bin/python3
+#   MODE=test:  build + Criterion + a C++ compiler (the header test) + Python
+#               reference libraries (numpy, scipy, scikit-image, PyWavelets,
+#               pytest) for /usr/bin/python3
 # Missing Debian packages are installed with apt-get when run as root;
 # otherwise the script names them and fails.
 mode=${1:-build}
@@ -20,6 +21,8 @@ if [ "$mode" = test ]; then
     if ! command -v pkg-config >/dev/null 2>&1 || ! pkg-config --exists criterion 2>/dev/null; then
         need libcriterion-dev
     fi
+    # the C++ include test of the public headers (tests/api/cxx_include.cpp)
+    command -v "${CXX:-c++}" >/dev/null 2>&1 || need g++
     [ -x /usr/bin/python3 ] || need python3
     for m in numpy:python3-numpy scipy:python3-scipy skimage:python3-skimage \
              pywt:python3-pywt pytest:python3-pytest; do
