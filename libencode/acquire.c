@@ -277,7 +277,10 @@ static kw_status acq_build(kw_acquisition *a)
             return st;
     }
     if (a->o.field_map && !a->nsl) {
-        kw_fieldmap_options fo = {a->sim, a->o.field_map, 4, 0, 0, NULL, NULL};
+        kw_fieldmap_options fo;
+        kw_fieldmap_options_init(&fo);
+        fo.sim = a->sim;
+        fo.field_hz = a->o.field_map;
         if ((st = kw_fieldmap_create(&a->fmp, &fo)))
             return kw_error_reparam(st, NULL, "field_map");
         a->info.field_map_interp_error = kw_fieldmap_interp_error(a->fmp);

@@ -312,9 +312,22 @@ fit_done:
     return st;
 }
 
-kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
+void kw_fieldmap_options_init(kw_fieldmap_options *o)
 {
-    kw_status st = fm_check(out, opt);
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    o->oversample = 4;
+}
+
+kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *caller)
+{
+    kw_fieldmap_options local;
+    const kw_fieldmap_options *opt = &local;
+    kw_fieldmap_options_init(&local);
+    kw_status st = kw_options_take(&local, sizeof local, caller, "options");
+    if (st)
+        return st;
+    st = fm_check(out, opt);
     if (st)
         return st;
     const kw_sim_options *o = kw_sim_get_options(opt->sim);
