@@ -157,7 +157,7 @@ static void acq_sim_options(kw_acquisition *a)
     kw_sim_options_init(so);
     so->phantom = &a->ph;
     for (int d = 0; d < 3; d++) {
-        so->n[d] = a->n[d];
+        so->n[d] = a->n[2 - d]; /* C order (nz, ny, nx) */
         so->df_grad_hz[d] = a->fgrad_hz[d];
     }
     so->contrast = a->con;

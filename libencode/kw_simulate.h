@@ -28,7 +28,7 @@ extern "C" {
 typedef struct kw_sim_options {
     size_t struct_size;     /* sizeof, set by kw_sim_options_init() */
     const kw_phantom *phantom;
-    size_t n[3];            /* matrix nx, ny, nz (nz = 1 for 2-D) */
+    size_t n[3];            /* matrix in C order (nz, ny, nx); nz = 1 (or 0) for 2-D */
 
     /* Sampling: a trajectory (nsamples x traj_ndim floats, cycles/FOV,
      * columns kx, ky(, kz)) or, when traj is NULL, the Cartesian grid of n

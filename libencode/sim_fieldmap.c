@@ -101,7 +101,7 @@ static kw_status fm_check(kw_fieldmap **out, const kw_fieldmap_options *opt)
     for (int g = 0; g < opt->nsections; g++)
         KW_FAIL_IF(opt->sections[g].nshapes != o->phantom->nshapes || opt->sections[g].ndim != 2,
                    KW_EINVAL, "field-map: section %d is not a 2-D cut of the same phantom", g);
-    const size_t nx = o->n[0], ny = o->n[1];
+    const size_t nx = o->n[2], ny = o->n[1];
     for (size_t i = 0; i < nx * ny; i++)
         KW_FAIL_IF(!isfinite(opt->field_hz[i]), KW_ENUMERIC,
                    "field-map: non-finite value at pixel %zu", i);
@@ -331,7 +331,7 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *calle
     if (st)
         return st;
     const kw_sim_options *o = kw_sim_get_options(opt->sim);
-    const size_t nx = o->n[0], ny = o->n[1];
+    const size_t nx = o->n[2], ny = o->n[1];
     kw_fieldmap *fm = calloc(1, sizeof *fm);
     KW_FAIL_IF(!fm, KW_ENOMEM, "field-map: out of memory");
     fm->sim = opt->sim;

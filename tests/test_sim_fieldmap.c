@@ -47,7 +47,7 @@ Test(fieldmap, options_init_and_older_callers)
     kw_sim_options so;
     kw_sim_options_init(&so);
     so.phantom = &p;
-    so.n[0] = so.n[1] = N;
+    so.n[1] = so.n[2] = N; /* (nz, ny, nx) */
     so.bandwidth_hz = 32000.0;
     so.contrast.b0_t = 3.0;
     so.contrast.te_s = 0.005;
