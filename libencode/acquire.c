@@ -157,7 +157,7 @@ static void acq_sim_options(kw_acquisition *a)
     kw_sim_options_init(so);
     so->phantom = &a->ph;
     for (int d = 0; d < 3; d++) {
-        so->n[d] = a->n[d];
+        so->n[d] = a->n[2 - d]; /* C order (nz, ny, nx) */
         so->df_grad_hz[d] = a->fgrad_hz[d];
     }
     so->contrast = a->con;
@@ -277,7 +277,10 @@ static kw_status acq_build(kw_acquisition *a)
             return st;
     }
     if (a->o.field_map && !a->nsl) {
-        kw_fieldmap_options fo = {a->sim, a->o.field_map, 4, 0, 0, NULL, NULL};
+        kw_fieldmap_options fo;
+        kw_fieldmap_options_init(&fo);
+        fo.sim = a->sim;
+        fo.field_hz = a->o.field_map;
         if ((st = kw_fieldmap_create(&a->fmp, &fo)))
             return kw_error_reparam(st, NULL, "field_map");
         a->info.field_map_interp_error = kw_fieldmap_interp_error(a->fmp);

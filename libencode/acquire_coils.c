@@ -195,7 +195,7 @@ kw_status kw_acq_coils(kw_acquisition *a)
         kw_coil_ring ring = {o->coils, o->coil_radius_m ? o->coil_radius_m : 0.25 * a->fov[0],
                              o->coil_distance_m ? o->coil_distance_m
                                                 : 0.75 * (a->fov[0] > a->fov[1] ? a->fov[0] : a->fov[1]),
-                             {a->fov[0], a->fov[1]},
+                             {a->fov[1], a->fov[0]}, /* (y, x) */
                              o->coil_rings,
                              o->coil_rings == 2 ? (o->coil_ring_gap_m ? o->coil_ring_gap_m : 0.5 * a->fov[2])
                                                 : 0.0,

@@ -83,7 +83,13 @@ static kw_status slab_fieldmap(slab *s, int sl, kw_acq_slice_fieldmap *fm)
     kw_status st = slab_sim(s, &s->cuts[s->npts / 2], sl);
     if (st)
         return st;
-    kw_fieldmap_options fo = {s->sim, fm->map + (size_t)sl * fm->stride, 4, 0, s->npts, s->cuts, s->cw};
+    kw_fieldmap_options fo;
+    kw_fieldmap_options_init(&fo);
+    fo.sim = s->sim;
+    fo.field_hz = fm->map + (size_t)sl * fm->stride;
+    fo.nsections = s->npts;
+    fo.sections = s->cuts;
+    fo.section_weights = s->cw;
     if ((st = kw_fieldmap_create(&s->fmp, &fo)) || (st = kw_fieldmap_execute(s->fmp, s->acc, NULL, NULL)))
         return st;
     double e = kw_fieldmap_interp_error(s->fmp);

@@ -113,7 +113,7 @@ static void ring_sens(const kw_coil_ring *ring, double norm, double x, double y,
                       double complex *s)
 {
     for (int c = 0; c < kw_coil_ring_channels(ring); c++) {
-        ring_raw(ring, c, 0.5 * x * ring->fov[0], 0.5 * y * ring->fov[1], 0.5 * z * ring->fov_z,
+        ring_raw(ring, c, 0.5 * x * ring->fov[1], 0.5 * y * ring->fov[0], 0.5 * z * ring->fov_z,
                  &s[c]);
         s[c] *= norm;
     }

@@ -42,7 +42,7 @@ typedef struct kw_coil_ring {
     int ncoils;      /* loops per ring */
     double radius;   /* loop radius (m) */
     double distance; /* loop centre to z axis (m) */
-    double fov[2];   /* FOV x, y (m), to place the image plane's pixels */
+    double fov[2];   /* FOV in C order (y, x) (m), to place the image plane's pixels */
     /* Optional (zero: one ring in the plane z = 0). rings = 2: two rings of
      * ncoils loops with centres at z = -gap/2 and +gap/2, the second turned
      * by half a loop spacing (pi / ncoils); channels ring by ring. */

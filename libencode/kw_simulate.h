@@ -28,7 +28,7 @@ extern "C" {
 typedef struct kw_sim_options {
     size_t struct_size;     /* sizeof, set by kw_sim_options_init() */
     const kw_phantom *phantom;
-    size_t n[3];            /* matrix nx, ny, nz (nz = 1 for 2-D) */
+    size_t n[3];            /* matrix in C order (nz, ny, nx); nz = 1 (or 0) for 2-D */
 
     /* Sampling: a trajectory (nsamples x traj_ndim floats, cycles/FOV,
      * columns kx, ky(, kz)) or, when traj is NULL, the Cartesian grid of n
@@ -136,9 +136,10 @@ KW_API void kw_sim_image_weights(const kw_sim *sim, double *w);
  * 2-D phantoms only; not together with df_grad_hz (add a linear field to
  * the map instead). */
 typedef struct kw_fieldmap_options {
+    size_t struct_size;      /* sizeof, set by kw_fieldmap_options_init() */
     const kw_sim *sim;       /* the simulation the perturbation is added to */
     const float *field_hz;   /* ny x nx field map at the pixel centres (Hz) */
-    int oversample;          /* >= 4 */
+    int oversample;          /* 4..16 */
     int segments;            /* time segments L (0: chosen from the field range) */
     /* Multi-slice: the object is the weighted sum of `nsections` 2-D cuts
      * (kw_phantom_section() of one 3-D phantom, the same shapes in the same
@@ -148,6 +149,14 @@ typedef struct kw_fieldmap_options {
     const kw_phantom *sections;
     const double *section_weights;
 } kw_fieldmap_options;
+
+/*! kw_fieldmap_options_init(): no simulation or map (the caller sets sim and
+ * field_hz), oversample 4, segments 0 (chosen), nsections 0 (the
+ * simulation's own phantom); struct_size = sizeof *o. kw_fieldmap_create()
+ * copies the caller's struct over these defaults (kw_options_take(),
+ * kw_base.h): struct_size 0 is refused naming "options"; a shorter struct
+ * (an older caller) gets the defaults for the fields it lacks. */
+KW_API void kw_fieldmap_options_init(kw_fieldmap_options *o);
 
 typedef struct kw_fieldmap kw_fieldmap;
 

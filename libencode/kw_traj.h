@@ -45,7 +45,8 @@ typedef enum kw_traj_kind {
     KW_TRAJ_STACK_OF_STARS = 2 /* radial in kx-ky on each kz partition */
 } kw_traj_kind;
 
-typedef struct kw_traj_opts {
+typedef struct kw_traj_options {
+    size_t struct_size; /* sizeof, set by kw_traj_options_init() */
     kw_traj_kind kind;
     size_t n;       /* in-plane matrix N: samples per spoke */
     size_t nz;      /* partitions (stack of stars); 1 otherwise */
@@ -57,7 +58,15 @@ typedef struct kw_traj_opts {
     int oversampling; /* readout oversampling F, 1..4 (0 is taken as 1): F N
                        * samples per spoke, 1/F cycle/FOV and dwell/F apart;
                        * dwell_s stays the time per image pixel */
-} kw_traj_opts;
+} kw_traj_options;
+
+/*! kw_traj_options_init(): uniform radial, n = 0, nz = 1, spokes = 0,
+ * tiny = 0, dwell_s = te_s = 0, oversampling 1 (the caller sets n, spokes,
+ * dwell_s and te_s); struct_size = sizeof *o. Every call below copies the
+ * caller's struct over these defaults (kw_options_take(), kw_base.h): a
+ * struct_size of 0 is refused naming "options"; a shorter struct (an older
+ * caller) gets the defaults for the fields it lacks. */
+KW_API void kw_traj_options_init(kw_traj_options *o);
 
 /*! kw_traj_golden_angle(): psi_m = pi / (phi + m - 1) in radians for m >= 1
  * (m = 1: the golden angle 111.246 deg); NaN for m < 1. */
@@ -70,23 +79,25 @@ KW_API double kw_traj_golden_angle(int m);
 KW_API size_t kw_traj_nyquist_spokes(size_t n);
 
 /*! kw_traj_angle(): the angle theta (radians, in [0, pi)) of readout number
- * `r` (0-based, counted over the whole acquisition). */
-KW_API double kw_traj_angle(const kw_traj_opts *o, size_t r);
+ * `r` (0-based, counted over the whole acquisition); NaN when the options
+ * are refused. */
+KW_API double kw_traj_angle(const kw_traj_options *o, size_t r);
 
 /*! kw_traj_oversampling(): the readout oversampling F the options ask for
- * (oversampling 0 gives 1). */
-KW_API int kw_traj_oversampling(const kw_traj_opts *o);
+ * (oversampling 0 gives 1); 0 when the options are refused. */
+KW_API int kw_traj_oversampling(const kw_traj_options *o);
 
 /*! kw_traj_size(): samples and columns the options produce (F N spokes nz);
- * KW_ERANGE with a reason, and kw_last_error_param() naming the field ("n",
+ * KW_EINVAL naming "options" for a struct not initialised; KW_ERANGE with a
+ * reason, and kw_last_error_param() naming the field ("n",
  * "nz", "spokes", "tiny", "oversampling", "dwell_s", "te_s"), for absurd options (N < 2 or odd, no spokes,
  * dwell <= 0, oversampling outside 1..4, sizes that overflow or exceed 2^31
  * samples). */
-KW_API kw_status kw_traj_size(const kw_traj_opts *o, size_t *samples, int *ndim);
+KW_API kw_status kw_traj_size(const kw_traj_options *o, size_t *samples, int *ndim);
 
 /*! kw_traj_make(): fill k[samples * ndim] (cycles/FOV) and t[samples]
  * (seconds; t may be NULL). Buffers are sized by kw_traj_size(). */
-KW_API kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
+KW_API kw_status kw_traj_make(const kw_traj_options *o, float *k, float *t);
 
 /*! kw_traj_radial_weights(): the area each sample of a full-spoke radial
  * trajectory represents, in delta-k^2, with the radial step dr = 1/F:
@@ -97,7 +108,7 @@ KW_API kw_status kw_traj_make(const kw_traj_opts *o, float *k, float *t);
  * reconstruction (ramp), summing to pi N^2 / 4 + pi dr^2 / 4, about the disc
  * area. w has one value per sample of one plane (spokes * F n), in the
  * order of kw_traj_make(). */
-KW_API kw_status kw_traj_radial_weights(const kw_traj_opts *o, float *w);
+KW_API kw_status kw_traj_radial_weights(const kw_traj_options *o, float *w);
 
 #ifdef __cplusplus
 }

@@ -48,7 +48,7 @@ void kw_pattern_options_init(kw_pattern_options *o)
 
 /* ---- Cartesian masks ------------------------------------------------------ */
 
-static kw_status mask_opts(const kw_pattern_options *po, kw_mask_opts *o)
+static kw_status mask_opts(const kw_pattern_options *po, kw_mask_options *o)
 {
     const int nd = po->ndim;
     const size_t *d = po->dims;
@@ -58,10 +58,10 @@ static kw_status mask_opts(const kw_pattern_options *po, kw_mask_opts *o)
                   "%zux%zux%zu is too large", nx, ny, nz);
     static const kw_mask_kind MK[] = {KW_MASK_FULL,   KW_MASK_FULL,    KW_MASK_UNIFORM,
                                       KW_MASK_RANDOM, KW_MASK_POISSON, KW_MASK_LATTICE};
-    kw_mask_opts_default(o);
+    kw_mask_options_init(o);
     o->kind = MK[po->kind];
-    o->ny = ny;
-    o->nz = nz;
+    o->dims[0] = nz;
+    o->dims[1] = ny;
     /* accel[] in C order: (Ry, readout) or (Rz, Ry, readout) */
     double ry = nd == 3 ? po->accel[1] : po->accel[0];
     double rz = nd == 3 ? po->accel[0] : po->accel[1]; /* 2-D: kw_mask_make rejects != 1 */
@@ -92,12 +92,12 @@ static kw_status mask_opts(const kw_pattern_options *po, kw_mask_opts *o)
 static kw_status make_mask(kw_pattern *p)
 {
     const kw_pattern_options *po = &p->o;
-    kw_mask_opts o;
+    kw_mask_options o;
     kw_status st = mask_opts(po, &o);
     if (st)
         return st;
     const int nd = po->ndim;
-    const size_t nx = po->dims[nd - 1], ny = o.ny, nz = o.nz, np = ny * nz;
+    const size_t nx = po->dims[nd - 1], ny = o.dims[1], nz = o.dims[0], np = ny * nz;
     kw_pattern_info *in = &p->info;
     in->is_mask = 1;
     in->ndim = 2;
@@ -131,7 +131,8 @@ static kw_status make_mask(kw_pattern *p)
 static kw_status make_radial(kw_pattern *p)
 {
     const kw_pattern_options *po = &p->o;
-    kw_traj_opts o = {0};
+    kw_traj_options o;
+    kw_traj_options_init(&o);
     o.kind = po->kind == KW_PATTERN_RADIAL   ? KW_TRAJ_RADIAL
              : po->kind == KW_PATTERN_GOLDEN ? KW_TRAJ_GOLDEN
                                              : KW_TRAJ_STACK_OF_STARS;

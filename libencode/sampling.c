@@ -17,15 +17,24 @@
 #define POISSON_QMIN (1.0 / 16.0) /* ours: caps the radius at 4 s */
 #define POISSON_TRIES 30          /* Bridson 2007's k */
 
-void kw_mask_opts_default(kw_mask_opts *o)
+void kw_mask_options_init(kw_mask_options *o)
 {
     memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
     o->kind = KW_MASK_FULL;
     o->accel_y = o->accel_z = 1.0;
     o->fraction = 1.0;
     o->power = 3.0;
     o->shift = 1;
-    o->nz = 1;
+    o->dims[0] = 1;
+}
+
+/* The caller's options over the defaults (an older, shorter struct gets the
+ * defaults for the fields it lacks). */
+static kw_status take(kw_mask_options *local, const kw_mask_options *caller)
+{
+    kw_mask_options_init(local);
+    return kw_options_take(local, sizeof *local, caller, "options");
 }
 
 static long kidx(size_t i, size_t n) { return (long)i - (long)(n / 2); }
@@ -39,35 +48,35 @@ static long fmod_l(long a, long m)
 
 static long fdiv_l(long a, long m) { return (a - fmod_l(a, m)) / m; }
 
-int kw_mask_allowed(const kw_mask_opts *o, size_t iy, size_t iz)
+static int allowed(const kw_mask_options *o, size_t iy, size_t iz)
 {
     if (o->fraction < 1.0) {
         /* partial Fourier: keep the last round(F ny) ky lines (the first,
          * negative-ky lines are not acquired) */
-        size_t keep = (size_t)llround(o->fraction * (double)o->ny);
-        if (iy < o->ny - keep)
+        size_t keep = (size_t)llround(o->fraction * (double)o->dims[1]);
+        if (iy < o->dims[1] - keep)
             return 0;
     }
-    if (o->ellipse && o->nz > 1) {
-        double y = (double)kidx(iy, o->ny) / (0.5 * (double)o->ny);
-        double z = (double)kidx(iz, o->nz) / (0.5 * (double)o->nz);
+    if (o->ellipse && o->dims[0] > 1) {
+        double y = (double)kidx(iy, o->dims[1]) / (0.5 * (double)o->dims[1]);
+        double z = (double)kidx(iz, o->dims[0]) / (0.5 * (double)o->dims[0]);
         if (y * y + z * z > 1.0)
             return 0;
     }
     return 1;
 }
 
-static double rho_max(const kw_mask_opts *o)
+static double rho_max(const kw_mask_options *o)
 {
     /* farthest grid point: index 0 (k = -n/2) scaled to -1 on each axis */
-    return o->nz > 1 ? sqrt(2.0) : 1.0;
+    return o->dims[0] > 1 ? sqrt(2.0) : 1.0;
 }
 
-double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz)
+static double density(const kw_mask_options *o, size_t iy, size_t iz)
 {
-    double y = (double)kidx(iy, o->ny) / (0.5 * (double)o->ny);
-    double z = o->nz > 1 ? (double)kidx(iz, o->nz) / (0.5 * (double)o->nz) : 0.0;
-    if (o->ny == 1)
+    double y = (double)kidx(iy, o->dims[1]) / (0.5 * (double)o->dims[1]);
+    double z = o->dims[0] > 1 ? (double)kidx(iz, o->dims[0]) / (0.5 * (double)o->dims[0]) : 0.0;
+    if (o->dims[1] == 1)
         y = 0;
     double rho = sqrt(y * y + z * z) / rho_max(o);
     if (rho > 1.0)
@@ -75,17 +84,17 @@ double kw_mask_density(const kw_mask_opts *o, size_t iy, size_t iz)
     return pow(1.0 - rho, o->power);
 }
 
-static int in_acs(const kw_mask_opts *o, size_t iy, size_t iz)
+static int in_acs(const kw_mask_options *o, size_t iy, size_t iz)
 {
     if (o->acs_y == 0)
         return 0;
-    long ky = kidx(iy, o->ny);
+    long ky = kidx(iy, o->dims[1]);
     long lo = -(long)(o->acs_y / 2);
     if (ky < lo || ky >= lo + (long)o->acs_y)
         return 0;
-    if (o->nz > 1) {
+    if (o->dims[0] > 1) {
         size_t az = o->acs_z ? o->acs_z : o->acs_y;
-        long kz = kidx(iz, o->nz);
+        long kz = kidx(iz, o->dims[0]);
         long lz = -(long)(az / 2);
         if (kz < lz || kz >= lz + (long)az)
             return 0;
@@ -93,30 +102,30 @@ static int in_acs(const kw_mask_opts *o, size_t iy, size_t iz)
     return 1;
 }
 
-static kw_status check_opts(const kw_mask_opts *o)
+static kw_status check_opts(const kw_mask_options *o)
 {
-    KW_FAIL_PARAM(o->ny < 1 || o->nz < 1, KW_EINVAL, "dims", "empty phase-encode plane");
+    KW_FAIL_PARAM(o->dims[1] < 1 || o->dims[0] < 1, KW_EINVAL, "dims", "empty phase-encode plane");
     KW_FAIL_PARAM(!(o->fraction > 0.5 && o->fraction <= 1.0), KW_ERANGE,
                "fraction", "%g outside (0.5, 1]", o->fraction);
     KW_FAIL_PARAM(!(o->accel_y >= 1.0) || !(o->accel_z >= 1.0) || !isfinite(o->accel_y) ||
                    !isfinite(o->accel_z),
                KW_ERANGE, "accel", "must be a number >= 1");
-    KW_FAIL_PARAM(o->accel_y > (double)o->ny, KW_ERANGE,
-               "accel", "R %g larger than the matrix (%zu phase encodes)", o->accel_y, o->ny);
-    KW_FAIL_PARAM(o->nz == 1 && o->accel_z != 1.0, KW_ERANGE,
+    KW_FAIL_PARAM(o->accel_y > (double)o->dims[1], KW_ERANGE,
+               "accel", "R %g larger than the matrix (%zu phase encodes)", o->accel_y, o->dims[1]);
+    KW_FAIL_PARAM(o->dims[0] == 1 && o->accel_z != 1.0, KW_ERANGE,
                "accel", "a 2-D acceleration RYxRZ needs a 3-D matrix");
-    KW_FAIL_PARAM(o->accel_z > (double)o->nz, KW_ERANGE,
-               "accel", "RZ %g larger than the matrix (%zu partitions)", o->accel_z, o->nz);
+    KW_FAIL_PARAM(o->accel_z > (double)o->dims[0], KW_ERANGE,
+               "accel", "RZ %g larger than the matrix (%zu partitions)", o->accel_z, o->dims[0]);
     double total = o->accel_y * o->accel_z;
-    KW_FAIL_PARAM(total > (double)(o->ny * o->nz), KW_ERANGE,
-               "accel", "R %g larger than the matrix (%zu points)", total, o->ny * o->nz);
-    KW_FAIL_PARAM(o->acs_y > o->ny, KW_ERANGE, "acs", "%zu larger than the matrix (%zu)",
-               o->acs_y, o->ny);
-    KW_FAIL_PARAM(o->nz > 1 && o->acs_z > o->nz, KW_ERANGE,
-               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_z, o->nz);
-    KW_FAIL_PARAM(o->nz > 1 && o->acs_z == 0 && o->acs_y > o->nz, KW_ERANGE,
-               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_y, o->nz);
-    KW_FAIL_PARAM(o->ellipse && o->nz == 1, KW_EINVAL,
+    KW_FAIL_PARAM(total > (double)(o->dims[1] * o->dims[0]), KW_ERANGE,
+               "accel", "R %g larger than the matrix (%zu points)", total, o->dims[1] * o->dims[0]);
+    KW_FAIL_PARAM(o->acs_y > o->dims[1], KW_ERANGE, "acs", "%zu larger than the matrix (%zu)",
+               o->acs_y, o->dims[1]);
+    KW_FAIL_PARAM(o->dims[0] > 1 && o->acs_z > o->dims[0], KW_ERANGE,
+               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_z, o->dims[0]);
+    KW_FAIL_PARAM(o->dims[0] > 1 && o->acs_z == 0 && o->acs_y > o->dims[0], KW_ERANGE,
+               "acs", "%zu larger than the matrix (%zu partitions)", o->acs_y, o->dims[0]);
+    KW_FAIL_PARAM(o->ellipse && o->dims[0] == 1, KW_EINVAL,
                "ellipse", "the corner cut-off needs a 3-D (ky-kz) matrix");
     KW_FAIL_PARAM(!(o->power >= 0.0) || o->power > 100.0, KW_ERANGE,
                "power", "%g outside [0, 100]", o->power);
@@ -127,22 +136,22 @@ static kw_status check_opts(const kw_mask_opts *o)
                    o->accel_z);
     }
     if (o->kind == KW_MASK_LATTICE)
-        KW_FAIL_PARAM(o->nz == 1, KW_EINVAL, "kind", "a lattice (CAIPIRINHA) needs a 3-D matrix");
+        KW_FAIL_PARAM(o->dims[0] == 1, KW_EINVAL, "kind", "a lattice (CAIPIRINHA) needs a 3-D matrix");
     return KW_OK;
 }
 
 /* ---- random: Bernoulli draws with p = min(1, c q) ----------------------- */
 
-static double budget_sum(const kw_mask_opts *o, double c, const uint8_t *fixed)
+static double budget_sum(const kw_mask_options *o, double c, const uint8_t *fixed)
 {
     double s = 0;
-    for (size_t iz = 0; iz < o->nz; iz++)
-        for (size_t iy = 0; iy < o->ny; iy++) {
-            size_t i = iz * o->ny + iy;
+    for (size_t iz = 0; iz < o->dims[0]; iz++)
+        for (size_t iy = 0; iy < o->dims[1]; iy++) {
+            size_t i = iz * o->dims[1] + iy;
             if (fixed[i] == 1)
                 s += 1.0;
             else if (fixed[i] == 0) {
-                double p = c * kw_mask_density(o, iy, iz);
+                double p = c * density(o, iy, iz);
                 s += p > 1.0 ? 1.0 : p;
             }
         }
@@ -150,22 +159,22 @@ static double budget_sum(const kw_mask_opts *o, double c, const uint8_t *fixed)
 }
 
 /* fixed[i]: 1 ACS (always), 2 outside the allowed region (never), 0 free */
-static void mark_fixed(const kw_mask_opts *o, uint8_t *fixed)
+static void mark_fixed(const kw_mask_options *o, uint8_t *fixed)
 {
-    for (size_t iz = 0; iz < o->nz; iz++)
-        for (size_t iy = 0; iy < o->ny; iy++) {
-            size_t i = iz * o->ny + iy;
-            if (!kw_mask_allowed(o, iy, iz))
+    for (size_t iz = 0; iz < o->dims[0]; iz++)
+        for (size_t iy = 0; iy < o->dims[1]; iy++) {
+            size_t i = iz * o->dims[1] + iy;
+            if (!allowed(o, iy, iz))
                 fixed[i] = 2;
             else
                 fixed[i] = in_acs(o, iy, iz) ? 1 : 0;
         }
 }
 
-static kw_status make_random(const kw_mask_opts *o, uint8_t *mask, float *prob,
+static kw_status make_random(const kw_mask_options *o, uint8_t *mask, float *prob,
                              uint8_t *fixed)
 {
-    size_t n = o->ny * o->nz;
+    size_t n = o->dims[1] * o->dims[0];
     double target = (double)n / (o->accel_y * o->accel_z);
     mark_fixed(o, fixed);
     double lo = 0, hi = 1;
@@ -190,11 +199,11 @@ static kw_status make_random(const kw_mask_opts *o, uint8_t *mask, float *prob,
     kw_rng_seed(&r, o->seed);
     /* one uniform draw per point in C order, whatever the point: the stream
      * position of a point does not depend on the parameters */
-    for (size_t iz = 0; iz < o->nz; iz++)
-        for (size_t iy = 0; iy < o->ny; iy++) {
-            size_t i = iz * o->ny + iy;
+    for (size_t iz = 0; iz < o->dims[0]; iz++)
+        for (size_t iy = 0; iy < o->dims[1]; iy++) {
+            size_t i = iz * o->dims[1] + iy;
             double u = kw_rng_uniform(&r);
-            double p = fixed[i] == 1 ? 1.0 : fixed[i] == 2 ? 0.0 : c * kw_mask_density(o, iy, iz);
+            double p = fixed[i] == 1 ? 1.0 : fixed[i] == 2 ? 0.0 : c * density(o, iy, iz);
             if (p > 1.0)
                 p = 1.0;
             mask[i] = u < p;
@@ -206,20 +215,38 @@ static kw_status make_random(const kw_mask_opts *o, uint8_t *mask, float *prob,
 
 /* ---- Poisson-disc (Bridson 2007) on the grid, radius at the candidate ---- */
 
-double kw_poisson_radius(const kw_mask_opts *o, double scale, size_t iy, size_t iz)
+static double radius(const kw_mask_options *o, double scale, size_t iy, size_t iz)
 {
-    double q = kw_mask_density(o, iy, iz);
+    double q = density(o, iy, iz);
     if (q < POISSON_QMIN)
         q = POISSON_QMIN;
     double r = scale / sqrt(q);
     return r < 1.0 ? 1.0 : r;
 }
 
+int kw_mask_allowed(const kw_mask_options *o, size_t iy, size_t iz)
+{
+    kw_mask_options l;
+    return take(&l, o) ? 0 : allowed(&l, iy, iz);
+}
+
+double kw_mask_density(const kw_mask_options *o, size_t iy, size_t iz)
+{
+    kw_mask_options l;
+    return take(&l, o) ? NAN : density(&l, iy, iz);
+}
+
+double kw_poisson_radius(const kw_mask_options *o, double scale, size_t iy, size_t iz)
+{
+    kw_mask_options l;
+    return take(&l, o) ? NAN : radius(&l, scale, iy, iz);
+}
+
 /* One Poisson-disc pattern with scale s into mask; returns the count. */
-static size_t poisson_once(const kw_mask_opts *o, double s, uint8_t *mask,
+static size_t poisson_once(const kw_mask_options *o, double s, uint8_t *mask,
                            const uint8_t *fixed, size_t *active)
 {
-    const size_t ny = o->ny, nz = o->nz, n = ny * nz;
+    const size_t ny = o->dims[1], nz = o->dims[0], n = ny * nz;
     memset(mask, 0, n);
     kw_rng r;
     kw_rng_seed(&r, o->seed);
@@ -243,7 +270,7 @@ static size_t poisson_once(const kw_mask_opts *o, double s, uint8_t *mask,
         size_t a = (size_t)kw_rng_below(&r, nactive);
         size_t p = active[a];
         double py = (double)(p % ny), pz = (double)(p / ny);
-        double rp = kw_poisson_radius(o, s, p % ny, p / ny);
+        double rp = radius(o, s, p % ny, p / ny);
         int found = 0;
         for (int t = 0; t < POISSON_TRIES && !found; t++) {
             double rad = rp * (1.0 + kw_rng_uniform(&r));
@@ -262,7 +289,7 @@ static size_t poisson_once(const kw_mask_opts *o, double s, uint8_t *mask,
             size_t ci = (size_t)iz * ny + (size_t)iy;
             if (mask[ci] || fixed[ci] == 2)
                 continue;
-            double rc = kw_poisson_radius(o, s, (size_t)iy, (size_t)iz);
+            double rc = radius(o, s, (size_t)iy, (size_t)iz);
             long w = (long)ceil(rc);
             int ok = 1;
             for (long dz = (nz > 1 ? -w : 0); dz <= (nz > 1 ? w : 0) && ok; dz++)
@@ -289,18 +316,18 @@ static size_t poisson_once(const kw_mask_opts *o, double s, uint8_t *mask,
     return count;
 }
 
-static size_t with_acs_count(const kw_mask_opts *o, const uint8_t *mask, const uint8_t *fixed)
+static size_t with_acs_count(const kw_mask_options *o, const uint8_t *mask, const uint8_t *fixed)
 {
     size_t c = 0;
-    for (size_t i = 0; i < o->ny * o->nz; i++)
+    for (size_t i = 0; i < o->dims[1] * o->dims[0]; i++)
         c += mask[i] || fixed[i] == 1;
     return c;
 }
 
-static kw_status poisson_scale(const kw_mask_opts *o, uint8_t *mask, uint8_t *fixed,
+static kw_status poisson_scale(const kw_mask_options *o, uint8_t *mask, uint8_t *fixed,
                                size_t *active, double *scale)
 {
-    size_t n = o->ny * o->nz;
+    size_t n = o->dims[1] * o->dims[0];
     double target = (double)n / (o->accel_y * o->accel_z);
     mark_fixed(o, fixed);
     size_t nacs = 0;
@@ -310,7 +337,7 @@ static kw_status poisson_scale(const kw_mask_opts *o, uint8_t *mask, uint8_t *fi
                "acs", "the %zu ACS points exceed the budget of %.1f samples for R %g", nacs,
                target, o->accel_y * o->accel_z);
     /* count(s) falls as s grows; bisection in log s */
-    double lo = 0.25, hi = (double)(o->ny > o->nz ? o->ny : o->nz);
+    double lo = 0.25, hi = (double)(o->dims[1] > o->dims[0] ? o->dims[1] : o->dims[0]);
     double best = hi, besterr = INFINITY;
     for (int it = 0; it < 28; it++) {
         double mid = sqrt(lo * hi);
@@ -331,12 +358,17 @@ static kw_status poisson_scale(const kw_mask_opts *o, uint8_t *mask, uint8_t *fi
     return KW_OK;
 }
 
-kw_status kw_mask_poisson_scale(const kw_mask_opts *o, double *scale)
+kw_status kw_mask_poisson_scale(const kw_mask_options *caller, double *scale)
 {
-    kw_status st = check_opts(o);
+    KW_FAIL_IF(!scale, KW_EINVAL, "mask: NULL argument");
+    kw_mask_options local;
+    const kw_mask_options *o = &local;
+    kw_status st = take(&local, caller);
+    if (!st)
+        st = check_opts(o);
     if (st)
         return st;
-    size_t n = o->ny * o->nz;
+    size_t n = o->dims[1] * o->dims[0];
     uint8_t *mask = malloc(n), *fixed = malloc(n);
     size_t *active = malloc(n * sizeof *active);
     if (!mask || !fixed || !active)
@@ -349,13 +381,17 @@ kw_status kw_mask_poisson_scale(const kw_mask_opts *o, double *scale)
     return st;
 }
 
-kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob)
+kw_status kw_mask_make(const kw_mask_options *caller, uint8_t *mask, float *prob)
 {
-    KW_FAIL_IF(!o || !mask, KW_EINVAL, "mask: NULL argument");
-    kw_status st = check_opts(o);
+    KW_FAIL_IF(!mask, KW_EINVAL, "mask: NULL argument");
+    kw_mask_options local;
+    const kw_mask_options *o = &local;
+    kw_status st = take(&local, caller);
+    if (!st)
+        st = check_opts(o);
     if (st)
         return st;
-    const size_t ny = o->ny, nz = o->nz, n = ny * nz;
+    const size_t ny = o->dims[1], nz = o->dims[0], n = ny * nz;
     uint8_t *fixed = malloc(n);
     KW_FAIL_IF(!fixed, KW_ENOMEM, "mask: out of memory");
     switch (o->kind) {
@@ -375,8 +411,8 @@ kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob)
                      * positions move by shift * j (mod Ry): Breuer 2006 */
                     on = fmod_l(kz, rz) == 0 &&
                          fmod_l(ky - o->shift * fdiv_l(kz, rz), ry) == 0;
-                int allowed = kw_mask_allowed(o, iy, iz);
-                mask[i] = allowed && (on || in_acs(o, iy, iz));
+                int in = allowed(o, iy, iz);
+                mask[i] = in && (on || in_acs(o, iy, iz));
                 if (prob)
                     prob[i] = mask[i];
             }
@@ -412,10 +448,15 @@ kw_status kw_mask_make(const kw_mask_opts *o, uint8_t *mask, float *prob)
     return st;
 }
 
-kw_status kw_mask_fill(const kw_mask_opts *o, int ndim, const size_t *dims, uint8_t *mask,
-                       float *prob)
+kw_status kw_mask_fill(const kw_mask_options *caller, int ndim, const size_t *dims,
+                       uint8_t *mask, float *prob)
 {
-    KW_FAIL_IF(!o || !dims || !mask, KW_EINVAL, "mask: NULL argument");
+    KW_FAIL_IF(!dims || !mask, KW_EINVAL, "mask: NULL argument");
+    kw_mask_options local;
+    const kw_mask_options *o = &local;
+    kw_status tst = take(&local, caller);
+    if (tst)
+        return tst;
     KW_FAIL_PARAM(ndim != 2 && ndim != 3, KW_EINVAL, "dims", "ndim %d: a mask is 2-D or 3-D",
                   ndim);
     const size_t nx = dims[ndim - 1];
@@ -425,7 +466,7 @@ kw_status kw_mask_fill(const kw_mask_opts *o, int ndim, const size_t *dims, uint
         nz = dims[0];
         ny = dims[1];
         rep = nx;
-    } else if (o->nz > 1) {
+    } else if (o->dims[0] > 1) {
         nz = dims[0];
         ny = dims[1];
         rep = 1;
@@ -434,8 +475,8 @@ kw_status kw_mask_fill(const kw_mask_opts *o, int ndim, const size_t *dims, uint
         ny = dims[0];
         rep = nx;
     }
-    KW_FAIL_PARAM(ny != o->ny || nz != o->nz || rep < 1, KW_EINVAL, "dims",
-                  "mask dims differ from the options' %zu x %zu phase encodes", o->nz, o->ny);
+    KW_FAIL_PARAM(ny != o->dims[1] || nz != o->dims[0] || rep < 1, KW_EINVAL, "dims",
+                  "mask dims differ from the options' %zu x %zu phase encodes", o->dims[0], o->dims[1]);
     const size_t np = ny * nz;
     uint8_t *plane = rep == 1 ? mask : malloc(np);
     KW_FAIL_IF(!plane, KW_ENOMEM, "mask: out of memory");

@@ -101,7 +101,7 @@ static kw_status fm_check(kw_fieldmap **out, const kw_fieldmap_options *opt)
     for (int g = 0; g < opt->nsections; g++)
         KW_FAIL_IF(opt->sections[g].nshapes != o->phantom->nshapes || opt->sections[g].ndim != 2,
                    KW_EINVAL, "field-map: section %d is not a 2-D cut of the same phantom", g);
-    const size_t nx = o->n[0], ny = o->n[1];
+    const size_t nx = o->n[2], ny = o->n[1];
     for (size_t i = 0; i < nx * ny; i++)
         KW_FAIL_IF(!isfinite(opt->field_hz[i]), KW_ENUMERIC,
                    "field-map: non-finite value at pixel %zu", i);
@@ -312,13 +312,26 @@ fit_done:
     return st;
 }
 
-kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *opt)
+void kw_fieldmap_options_init(kw_fieldmap_options *o)
 {
-    kw_status st = fm_check(out, opt);
+    memset(o, 0, sizeof *o);
+    o->struct_size = sizeof *o;
+    o->oversample = 4;
+}
+
+kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *caller)
+{
+    kw_fieldmap_options local;
+    const kw_fieldmap_options *opt = &local;
+    kw_fieldmap_options_init(&local);
+    kw_status st = kw_options_take(&local, sizeof local, caller, "options");
+    if (st)
+        return st;
+    st = fm_check(out, opt);
     if (st)
         return st;
     const kw_sim_options *o = kw_sim_get_options(opt->sim);
-    const size_t nx = o->n[0], ny = o->n[1];
+    const size_t nx = o->n[2], ny = o->n[1];
     kw_fieldmap *fm = calloc(1, sizeof *fm);
     KW_FAIL_IF(!fm, KW_ENOMEM, "field-map: out of memory");
     fm->sim = opt->sim;

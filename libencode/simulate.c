@@ -78,8 +78,9 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
     const kw_phantom *p = opt->phantom;
     KW_FAIL_IF(p->nshapes < 1 || p->nshapes > KW_PHANTOM_MAX_SHAPES, KW_EINVAL,
                "phantom: %d shapes", p->nshapes);
-    size_t nz = opt->n[2] ? opt->n[2] : 1;
-    KW_FAIL_PARAM(opt->n[0] < 1 || opt->n[1] < 1, KW_EINVAL, "n", "must be positive");
+    /* n in C order (nz, ny, nx) */
+    size_t nz = opt->n[0] ? opt->n[0] : 1;
+    KW_FAIL_PARAM(opt->n[2] < 1 || opt->n[1] < 1, KW_EINVAL, "n", "must be positive");
     KW_FAIL_PARAM(p->ndim == 2 && nz > 1, KW_ENOTSUP, "n",
                "a 2-D phantom gives one slice (nz must be 1)");
     KW_FAIL_PARAM(p->ndim == 3 && !opt->traj && nz < 2, KW_EINVAL, "n",
@@ -124,17 +125,17 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
     kw_sim *s = calloc(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "simulate: out of memory");
     s->o = *opt;
-    s->o.n[2] = nz;
+    s->o.n[0] = nz;
     s->cdims[0] = nz;
     s->cdims[1] = opt->n[1];
-    s->cdims[2] = opt->n[0];
+    s->cdims[2] = opt->n[2];
     s->nshapes = p->nshapes;
     s->channels = opt->ncoils > 0 ? opt->ncoils : 1;
     s->lz = opt->ncoils > 0 && p->ndim == 3 ? opt->coil_order_z : 0;
     s->terms = opt->ncoils > 0
                    ? (2 * s->lz + 1) * (2 * opt->coil_order + 1) * (2 * opt->coil_order + 1)
                    : 1;
-    s->count = opt->traj ? opt->nsamples : opt->n[0] * opt->n[1] * nz;
+    s->count = opt->traj ? opt->nsamples : opt->n[2] * opt->n[1] * nz;
     double fat_hz = KW_FAT_SHIFT_PPM * 1e-6 * KW_GAMMA_BAR_P * c->b0_t;
     for (int i = 0; i < p->nshapes; i++) {
         const kw_shape *sh = &p->shapes[i];
@@ -157,7 +158,7 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
             s->steady[i] = sh->value;
         }
     }
-    double scale = sqrt((double)opt->n[0] * (double)opt->n[1]) * 0.25;
+    double scale = sqrt((double)opt->n[2] * (double)opt->n[1]) * 0.25;
     if (p->ndim == 3)
         scale *= sqrt((double)nz) * 0.5;
     for (int i = 0; i < p->nshapes; i++) {
@@ -275,7 +276,7 @@ double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix)
     if (o->times)
         return o->times[o->traj || o->times_per_sample ? i : ix];
     if (!o->traj && o->bandwidth_hz > 0)
-        return o->contrast.te_s + ((double)ix - (double)(o->n[0] / 2)) / o->bandwidth_hz;
+        return o->contrast.te_s + ((double)ix - (double)(o->n[2] / 2)) / o->bandwidth_hz;
     return o->contrast.te_s;
 }
 
@@ -372,7 +373,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
                          void *user)
 {
     KW_FAIL_IF(!s || !out, KW_EINVAL, "simulate: NULL argument");
-    const size_t nx = s->o.n[0], ny = s->o.n[1], nz = s->o.n[2];
+    const size_t nx = s->o.n[2], ny = s->o.n[1], nz = s->o.n[0];
     const size_t count = s->count;
     const double *g = s->o.df_grad_hz;
     const int grad = g[0] != 0 || g[1] != 0 || (nz > 1 || s->o.traj_ndim == 3 ? g[2] != 0 : 0);

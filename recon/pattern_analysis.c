@@ -303,9 +303,14 @@ static kw_status analyse_traj(analysis *a, const float *k, size_t ns, size_t str
     if (ti->weights != KW_PATTERN_WEIGHTS_NONE) {
         w = malloc(count * sizeof *w);
         KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
-        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = ti->n, .nz = 1, .spokes = a->spokes,
-                          .dwell_s = 1, .te_s = 1,
-                          .oversampling = ti->radial ? ti->oversampling : 1};
+        kw_traj_options o;
+        kw_traj_options_init(&o);
+        o.kind = KW_TRAJ_RADIAL;
+        o.n = ti->n;
+        o.spokes = a->spokes;
+        o.dwell_s = 1;
+        o.te_s = 1;
+        o.oversampling = ti->radial ? ti->oversampling : 1;
         if (ti->weights == KW_PATTERN_WEIGHTS_RADIAL) {
             st = kw_traj_radial_weights(&o, w);
         } else {

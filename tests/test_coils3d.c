@@ -89,3 +89,21 @@ Test(coils3d, fit_recovers_series)
     cr_expect(res < 1e-6, "residual %g", res);
     free(m);
 }
+
+/* The ring's fov is in C order (y, x): a ring with fov (0.2, 0.4) m sees
+ * the phantom point x = 0.5 at 0.5 * 0.5 * 0.4 = 0.1 m, as a ring with fov
+ * (0.2, 0.2) sees x = 1; and y = 0.5 at 0.05 m, as that ring sees y = 0.5. */
+Test(coils3d, fov_is_y_then_x)
+{
+    kw_coil_ring wide = {4, 0.06, 0.3, {0.2, 0.4}, 1, 0.0, 0.2};
+    kw_coil_ring square = {4, 0.06, 0.3, {0.2, 0.2}, 1, 0.0, 0.2};
+    double complex a[4], b[4];
+    cr_assert_eq(kw_coil_ring_sens(&wide, 0.5, 0.0, a), KW_OK);
+    cr_assert_eq(kw_coil_ring_sens(&square, 1.0, 0.0, b), KW_OK);
+    for (int c = 0; c < 4; c++)
+        cr_expect(cabs(a[c] - b[c]) <= 1e-14 * cabs(b[c]), "x: coil %d", c);
+    cr_assert_eq(kw_coil_ring_sens(&wide, 0.0, 0.5, a), KW_OK);
+    cr_assert_eq(kw_coil_ring_sens(&square, 0.0, 0.5, b), KW_OK);
+    for (int c = 0; c < 4; c++)
+        cr_expect(cabs(a[c] - b[c]) <= 1e-14 * cabs(b[c]), "y: coil %d", c);
+}

@@ -120,11 +120,11 @@ Test(pattern_api, plane_and_mask_fill_layout)
     cr_assert_eq(in->shape[1], 32);
     cr_expect_eq(in->sampled_points, 16 * 32 / 4);
 
-    kw_mask_opts mo;
-    kw_mask_opts_default(&mo);
+    kw_mask_options mo;
+    kw_mask_options_init(&mo);
     mo.kind = KW_MASK_LATTICE;
-    mo.ny = 32;
-    mo.nz = 16;
+    mo.dims[1] = 32;
+    mo.dims[0] = 16;
     mo.accel_y = mo.accel_z = 2;
     uint8_t *full = malloc(16 * 32 * 8);
     size_t d3[3] = {16, 32, 8};
@@ -157,10 +157,10 @@ Test(pattern_api, poisson_minimum_distance)
     o.power = 0;
     o.seed = 7;
     kw_pattern *p = make(&o);
-    kw_mask_opts mo;
-    kw_mask_opts_default(&mo);
+    kw_mask_options mo;
+    kw_mask_options_init(&mo);
     mo.kind = KW_MASK_POISSON;
-    mo.ny = mo.nz = 48;
+    mo.dims[0] = mo.dims[1] = 48;
     mo.accel_y = mo.accel_z = 2;
     mo.power = 0;
     mo.seed = 7;

@@ -7,9 +7,9 @@
 
 #include "kw_sampling.h"
 
-static uint8_t *make(const kw_mask_opts *o)
+static uint8_t *make(const kw_mask_options *o)
 {
-    uint8_t *m = malloc(o->ny * o->nz);
+    uint8_t *m = malloc(o->dims[1] * o->dims[0]);
     cr_assert_eq(kw_mask_make(o, m, NULL), KW_OK, "%s", kw_last_error());
     return m;
 }
@@ -18,10 +18,10 @@ static uint8_t *make(const kw_mask_opts *o)
  * [N/2 - A/2, N/2 - A/2 + A) (definition, kw_sampling.h). */
 Test(sampling, uniform_lines_and_acs)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
+    kw_mask_options o;
+    kw_mask_options_init(&o);
     o.kind = KW_MASK_UNIFORM;
-    o.ny = 64;
+    o.dims[1] = 64;
     o.accel_y = 4;
     uint8_t *m = make(&o);
     for (size_t i = 0; i < 64; i++)
@@ -36,17 +36,17 @@ Test(sampling, uniform_lines_and_acs)
 
 Test(sampling, partial_fourier_and_ellipse)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
-    o.ny = 64;
+    kw_mask_options o;
+    kw_mask_options_init(&o);
+    o.dims[1] = 64;
     o.fraction = 0.625; /* keep the last 40 of 64 lines */
     uint8_t *m = make(&o);
     for (size_t i = 0; i < 64; i++)
         cr_expect_eq(m[i], i >= 24);
     free(m);
-    kw_mask_opts_default(&o);
-    o.ny = 32;
-    o.nz = 16;
+    kw_mask_options_init(&o);
+    o.dims[1] = 32;
+    o.dims[0] = 16;
     o.ellipse = 1;
     m = make(&o);
     size_t n = 0;
@@ -64,11 +64,11 @@ Test(sampling, partial_fourier_and_ellipse)
  * point in four, and sampled kz rows alternate their ky offset. */
 Test(sampling, lattice_shift)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
+    kw_mask_options o;
+    kw_mask_options_init(&o);
     o.kind = KW_MASK_LATTICE;
-    o.ny = 16;
-    o.nz = 8;
+    o.dims[1] = 16;
+    o.dims[0] = 8;
     o.accel_y = 2;
     o.accel_z = 2;
     o.shift = 1;
@@ -87,10 +87,10 @@ Test(sampling, lattice_shift)
 
 Test(sampling, same_seed_same_mask)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
-    o.ny = 48;
-    o.nz = 40;
+    kw_mask_options o;
+    kw_mask_options_init(&o);
+    o.dims[1] = 48;
+    o.dims[0] = 40;
     o.accel_y = 5;
     o.acs_y = 8;
     for (int kind = KW_MASK_RANDOM; kind <= KW_MASK_POISSON; kind++) {
@@ -113,11 +113,11 @@ Test(sampling, same_seed_same_mask)
 Test(sampling, poisson_minimum_distance)
 {
     for (int variable = 0; variable <= 1; variable++) {
-        kw_mask_opts o;
-        kw_mask_opts_default(&o);
+        kw_mask_options o;
+        kw_mask_options_init(&o);
         o.kind = KW_MASK_POISSON;
-        o.ny = 64;
-        o.nz = 48;
+        o.dims[1] = 64;
+        o.dims[0] = 48;
         o.accel_y = variable ? 4 : 6;
         o.power = variable ? 2 : 0;
         o.seed = 5;
@@ -161,11 +161,11 @@ Test(sampling, poisson_minimum_distance)
  * the binomial mean (statistical tolerance). */
 Test(sampling, random_density_matches_target)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
+    kw_mask_options o;
+    kw_mask_options_init(&o);
     o.kind = KW_MASK_RANDOM;
-    o.ny = 32;
-    o.nz = 32;
+    o.dims[1] = 32;
+    o.dims[0] = 32;
     o.accel_y = 4;
     o.acs_y = 6;
     o.power = 2;
@@ -209,10 +209,10 @@ Test(sampling, random_density_matches_target)
 
 Test(sampling, bad_input)
 {
-    kw_mask_opts o;
-    kw_mask_opts_default(&o);
+    kw_mask_options o;
+    kw_mask_options_init(&o);
     o.kind = KW_MASK_UNIFORM;
-    o.ny = 64;
+    o.dims[1] = 64;
     uint8_t m[64 * 64];
     o.accel_y = 65;
     cr_expect_eq(kw_mask_make(&o, m, NULL), KW_ERANGE);
@@ -236,4 +236,50 @@ Test(sampling, bad_input)
     o.kind = KW_MASK_LATTICE;
     o.acs_y = 0;
     cr_expect_eq(kw_mask_make(&o, m, NULL), KW_EINVAL); /* needs 3-D */
+}
+
+/* The growable options (kw_base.h, docs/api.md "The object model"): init
+ * fills the documented defaults and struct_size; a struct never initialised
+ * is refused naming "options"; an older caller's shorter struct (one without
+ * `seed`) gets the default seed 0 for the field it lacks. */
+Test(sampling, options_init_and_older_callers)
+{
+    kw_mask_options o;
+    memset(&o, 0xa5, sizeof o);
+    kw_mask_options_init(&o);
+    cr_expect_eq(o.struct_size, sizeof o);
+    cr_expect_eq(o.kind, KW_MASK_FULL);
+    cr_expect_eq(o.dims[0], 1);
+    cr_expect_eq(o.dims[1], 0);
+    cr_expect_eq(o.accel_y, 1.0);
+    cr_expect_eq(o.accel_z, 1.0);
+    cr_expect_eq(o.acs_y, 0);
+    cr_expect_eq(o.acs_z, 0);
+    cr_expect_eq(o.fraction, 1.0);
+    cr_expect_eq(o.ellipse, 0);
+    cr_expect_eq(o.power, 3.0);
+    cr_expect_eq(o.shift, 1);
+    cr_expect_eq(o.seed, 0);
+
+    o.kind = KW_MASK_RANDOM;
+    o.dims[1] = 64;
+    o.accel_y = 3;
+    o.acs_y = 8;
+    uint8_t m[64], m0[64];
+    kw_mask_options zero = o;
+    zero.struct_size = 0;
+    cr_expect_eq(kw_mask_make(&zero, m, NULL), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect_eq(kw_mask_fill(&zero, 2, (size_t[]){64, 4}, m, NULL), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect(isnan(kw_mask_density(&zero, 0, 0)));
+    cr_expect_eq(kw_mask_allowed(&zero, 0, 0), 0);
+
+    cr_assert_eq(kw_mask_make(&o, m0, NULL), KW_OK, "%s", kw_last_error()); /* seed 0 */
+    kw_mask_options old = o;
+    old.seed = 12345; /* beyond the older struct: must not be read */
+    old.struct_size = offsetof(kw_mask_options, seed);
+    cr_assert_eq(kw_mask_make(&old, m, NULL), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(memcmp(m, m0, sizeof m), 0);
+    cr_expect_eq(kw_mask_density(&old, 5, 0), kw_mask_density(&o, 5, 0));
 }

@@ -97,7 +97,7 @@ Test(tissue, fat_frequency)
     kw_sim_options o;
     kw_sim_options_init(&o);
     o.phantom = &p;
-    o.n[0] = o.n[1] = 8;
+    o.n[1] = o.n[2] = 8; /* (nz, ny, nx): nz 0 is 1 */
     o.contrast.seq = KW_CONTRAST_GRE;
     o.contrast.b0_t = 3.0;
     o.contrast.te_s = 0.005;
@@ -118,4 +118,32 @@ Test(tissue, fat_frequency)
     cr_expect(fabs(carg(own[fat]) - KW_PI) < 1e-6 || fabs(carg(own[fat]) + KW_PI) < 1e-6);
     cr_expect(fabs(carg(own[0])) < 1e-12);
     kw_sim_destroy(s);
+}
+
+/* kw_sim_options.n is in C order (nz, ny, nx): with n = (1, 6, 10) there are
+ * 60 samples per coil, and the readout column ix of a Cartesian sample is
+ * timed about nx / 2 = 5: t = TE + (ix - 5) / BW (kw_simulate.h). */
+Test(signal, sim_matrix_is_c_order)
+{
+    kw_phantom p;
+    kw_phantom_make(&p, "weave");
+    kw_sim_options o;
+    kw_sim_options_init(&o);
+    o.phantom = &p;
+    o.n[0] = 1;
+    o.n[1] = 6;
+    o.n[2] = 10;
+    o.bandwidth_hz = 1000.0;
+    o.contrast.b0_t = 3.0;
+    o.contrast.te_s = 0.01;
+    kw_sim *s = NULL;
+    cr_assert_eq(kw_sim_create(&s, &o), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(kw_sim_output_count(s), 60);
+    cr_expect(fabs(kw_sim_sample_time(&o, 0, 0) - (0.01 - 5e-3)) < 1e-15);
+    cr_expect(fabs(kw_sim_sample_time(&o, 0, 5) - 0.01) < 1e-15);
+    kw_sim_destroy(s);
+    o.n[0] = 0; /* nz 0 is 1 */
+    o.n[2] = 0;
+    cr_expect_eq(kw_sim_create(&s, &o), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "n");
 }

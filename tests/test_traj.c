@@ -42,8 +42,14 @@ Test(traj, nyquist_spokes)
  * one delta-k apart through k = 0, times with k = 0 at te. */
 Test(traj, golden_trajectory_geometry)
 {
-    kw_traj_opts o = {.kind = KW_TRAJ_GOLDEN, .n = 16, .nz = 1, .spokes = 21, .tiny = 1,
-                      .dwell_s = 4e-6, .te_s = 2e-3};
+    kw_traj_options o;
+    kw_traj_options_init(&o);
+    o.kind = KW_TRAJ_GOLDEN;
+    o.n = 16;
+    o.spokes = 21;
+    o.tiny = 1;
+    o.dwell_s = 4e-6;
+    o.te_s = 2e-3;
     size_t ns;
     int nd;
     cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
@@ -72,8 +78,14 @@ Test(traj, golden_trajectory_geometry)
 
 Test(traj, stack_of_stars_partitions)
 {
-    kw_traj_opts o = {.kind = KW_TRAJ_STACK_OF_STARS, .n = 8, .nz = 4, .spokes = 5,
-                      .dwell_s = 1e-5, .te_s = 1e-3};
+    kw_traj_options o;
+    kw_traj_options_init(&o);
+    o.kind = KW_TRAJ_STACK_OF_STARS;
+    o.n = 8;
+    o.nz = 4;
+    o.spokes = 5;
+    o.dwell_s = 1e-5;
+    o.te_s = 1e-3;
     size_t ns;
     int nd;
     cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
@@ -89,8 +101,13 @@ Test(traj, stack_of_stars_partitions)
 
 Test(traj, bad_input)
 {
-    kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = 15, .nz = 1, .spokes = 5, .dwell_s = 1e-5,
-                      .te_s = 1e-3};
+    kw_traj_options o;
+    kw_traj_options_init(&o);
+    o.kind = KW_TRAJ_RADIAL;
+    o.n = 15;
+    o.spokes = 5;
+    o.dwell_s = 1e-5;
+    o.te_s = 1e-3;
     size_t ns;
     int nd;
     cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_ERANGE); /* odd N */
@@ -112,8 +129,14 @@ Test(traj, oversampled_readout_geometry)
 {
     const size_t n = 16, S = 7;
     for (int f = 1; f <= 4; f++) {
-        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = n, .nz = 1, .spokes = S,
-                          .dwell_s = 8e-6, .te_s = 3e-3, .oversampling = f};
+        kw_traj_options o;
+        kw_traj_options_init(&o);
+        o.kind = KW_TRAJ_RADIAL;
+        o.n = n;
+        o.spokes = S;
+        o.dwell_s = 8e-6;
+        o.te_s = 3e-3;
+        o.oversampling = f;
         size_t ns;
         int nd;
         cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
@@ -139,10 +162,17 @@ Test(traj, oversampled_readout_geometry)
         free(k);
         free(t);
     }
-    /* oversampling 0 (zero-initialised options) means 1 */
-    kw_traj_opts a = {.kind = KW_TRAJ_GOLDEN, .n = 8, .nz = 1, .spokes = 3, .tiny = 1,
-                      .dwell_s = 1e-5, .te_s = 1e-3};
-    kw_traj_opts b = a;
+    /* oversampling 0 means 1 */
+    kw_traj_options a;
+    kw_traj_options_init(&a);
+    a.kind = KW_TRAJ_GOLDEN;
+    a.n = 8;
+    a.spokes = 3;
+    a.tiny = 1;
+    a.dwell_s = 1e-5;
+    a.te_s = 1e-3;
+    a.oversampling = 0;
+    kw_traj_options b = a;
     b.oversampling = 1;
     float ka[48], kb[48];
     cr_assert_eq(kw_traj_make(&a, ka, NULL), KW_OK);
@@ -159,8 +189,14 @@ Test(traj, oversampled_radial_weights_are_ring_areas)
 {
     const size_t n = 32, S = 11;
     for (int f = 1; f <= 4; f++) {
-        kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = n, .nz = 1, .spokes = S,
-                          .dwell_s = 1e-5, .te_s = 1e-3, .oversampling = f};
+        kw_traj_options o;
+        kw_traj_options_init(&o);
+        o.kind = KW_TRAJ_RADIAL;
+        o.n = n;
+        o.spokes = S;
+        o.dwell_s = 1e-5;
+        o.te_s = 1e-3;
+        o.oversampling = f;
         size_t ns;
         int nd;
         cr_assert_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
@@ -196,8 +232,14 @@ Test(traj, oversampled_radial_weights_are_ring_areas)
 
 Test(traj, oversampling_out_of_range)
 {
-    kw_traj_opts o = {.kind = KW_TRAJ_RADIAL, .n = 16, .nz = 1, .spokes = 5, .dwell_s = 1e-5,
-                      .te_s = 1e-3, .oversampling = 5};
+    kw_traj_options o;
+    kw_traj_options_init(&o);
+    o.kind = KW_TRAJ_RADIAL;
+    o.n = 16;
+    o.spokes = 5;
+    o.dwell_s = 1e-5;
+    o.te_s = 1e-3;
+    o.oversampling = 5;
     size_t ns;
     int nd;
     float w[16 * 5 * 5];
@@ -208,4 +250,51 @@ Test(traj, oversampling_out_of_range)
     o.oversampling = 4;
     cr_expect_eq(kw_traj_size(&o, &ns, &nd), KW_OK);
     cr_expect_eq(ns, 4 * 16 * 5);
+}
+
+/* The growable options (kw_base.h, docs/api.md "The object model"): init
+ * fills the documented defaults and struct_size; a struct never initialised
+ * is refused naming "options"; an older caller's shorter struct (one without
+ * `oversampling`) gets the default F = 1 for the field it lacks. */
+Test(traj, options_init_and_older_callers)
+{
+    kw_traj_options o;
+    memset(&o, 0xa5, sizeof o);
+    kw_traj_options_init(&o);
+    cr_expect_eq(o.struct_size, sizeof o);
+    cr_expect_eq(o.kind, KW_TRAJ_RADIAL);
+    cr_expect_eq(o.n, 0);
+    cr_expect_eq(o.nz, 1);
+    cr_expect_eq(o.spokes, 0);
+    cr_expect_eq(o.tiny, 0);
+    cr_expect_eq(o.dwell_s, 0.0);
+    cr_expect_eq(o.te_s, 0.0);
+    cr_expect_eq(o.oversampling, 1);
+
+    o.n = 8;
+    o.spokes = 3;
+    o.dwell_s = 1e-5;
+    o.te_s = 1e-3;
+    size_t ns;
+    int nd;
+    float w[24];
+    kw_traj_options zero = o;
+    zero.struct_size = 0;
+    cr_expect_eq(kw_traj_size(&zero, &ns, &nd), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect_eq(kw_traj_radial_weights(&zero, w), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "options");
+    cr_expect(isnan(kw_traj_angle(&zero, 1)));
+
+    float k0[48], k[48], t0[24], t[24];
+    cr_assert_eq(kw_traj_make(&o, k0, t0), KW_OK, "%s", kw_last_error());
+    kw_traj_options old = o;
+    old.oversampling = 2; /* beyond the older struct: must not be read */
+    old.struct_size = offsetof(kw_traj_options, oversampling);
+    cr_assert_eq(kw_traj_size(&old, &ns, &nd), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(ns, 24); /* F = 1: 8 samples x 3 spokes */
+    cr_expect_eq(kw_traj_oversampling(&old), 1);
+    cr_assert_eq(kw_traj_make(&old, k, t), KW_OK);
+    cr_expect_eq(memcmp(k, k0, sizeof k), 0);
+    cr_expect_eq(memcmp(t, t0, sizeof t), 0);
 }

@@ -29,8 +29,9 @@ class Options(ctypes.Structure):
 
 
 class MaskOpts(ctypes.Structure):
-    """kw_mask_opts (libencode/kw_sampling.h)."""
-    _fields_ = [("kind", ctypes.c_int), ("ny", ctypes.c_size_t), ("nz", ctypes.c_size_t),
+    """kw_mask_options (libencode/kw_sampling.h)."""
+    _fields_ = [("struct_size", ctypes.c_size_t), ("kind", ctypes.c_int),
+                ("dims", ctypes.c_size_t * 2),
                 ("accel_y", ctypes.c_double), ("accel_z", ctypes.c_double),
                 ("acs_y", ctypes.c_size_t), ("acs_z", ctypes.c_size_t),
                 ("fraction", ctypes.c_double), ("ellipse", ctypes.c_int),
@@ -77,8 +78,11 @@ def test_uniform_plane_matches_numpy(lib, nz, ny, rz, ry, az, ay):
     lib.kw_pattern_destroy(p)
     assert np.array_equal(got, uniform_plane(nz, ny, rz, ry, az, ay))
 
-    mo = MaskOpts(kind=1, ny=ny, nz=nz, accel_y=ry, accel_z=rz, acs_y=ay, acs_z=az, fraction=1.0,
-                  power=3.0, shift=1)
+    mo = MaskOpts()
+    lib.kw_mask_options_init(ctypes.byref(mo))
+    assert mo.struct_size == ctypes.sizeof(MaskOpts)  # the layout above matches
+    mo.kind, mo.accel_y, mo.accel_z, mo.acs_y, mo.acs_z = 1, ry, rz, ay, az
+    mo.dims[:] = [nz, ny]
     full = np.zeros((nz, ny, 8), np.uint8)
     assert lib.kw_mask_fill(ctypes.byref(mo), 3, sizes(nz, ny, 8),
                             full.ctypes.data_as(ctypes.c_void_p), None) == 0
