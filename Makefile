@@ -87,7 +87,7 @@ $(BUILD)/kweave.pc: FORCE
 	@mkdir -p $(dir $@)
 	@printf '%s\n' 'prefix=$(PREFIX)' 'libdir=$${prefix}/lib' 'includedir=$${prefix}/include/kweave' '' \
 	  'Name: kweave' 'Description: MRI k-space encoding and image reconstruction' \
-	  'Version: $(VERSION)' 'Requires.private: fftw3f' \
+	  'Version: $(VERSION)' 'Requires.private: fftw3f libcjson' \
 	  'Libs: -L$${libdir} -lkweave' 'Libs.private: -lfftw3f_omp -lm -fopenmp' \
 	  'Cflags: -I$${includedir}' > $@.tmp
 	@if cmp -s $@.tmp $@; then rm -f $@.tmp; else mv -f $@.tmp $@; fi

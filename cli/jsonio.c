@@ -111,28 +111,6 @@ char *kw_sidecar_path(const char *npy_path)
     return s;
 }
 
-cJSON *kw_json_add_vec(cJSON *obj, const char *key, const double *v, int n)
-{
-    cJSON *a = cJSON_AddArrayToObject(obj, key);
-    if (!a)
-        return NULL;
-    for (int i = 0; i < n; i++)
-        cJSON_AddItemToArray(a, cJSON_CreateNumber(v[i]));
-    return a;
-}
-
-cJSON *kw_json_add_number_or_null(cJSON *obj, const char *key, double v)
-{
-    return isfinite(v) ? cJSON_AddNumberToObject(obj, key, v) : cJSON_AddNullToObject(obj, key);
-}
-
-void kw_json_add_scores(cJSON *obj, double nrmse, double psnr_db, double ssim)
-{
-    kw_json_add_number_or_null(obj, "nrmse", nrmse);
-    kw_json_add_number_or_null(obj, "psnr_db", psnr_db);
-    kw_json_add_number_or_null(obj, "ssim", ssim);
-}
-
 kw_status kw_json_get_number(const cJSON *obj, const char *key, double *v)
 {
     const cJSON *it = cJSON_GetObjectItemCaseSensitive(obj, key);

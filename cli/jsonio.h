@@ -6,6 +6,7 @@
 
 #include <cJSON.h>
 
+#include "json_build.h" /* kw_json_add_vec and friends (library) */
 #include "kw_base.h"
 
 /*! kw_json_write(): write `root` (pretty-printed, trailing newline)
@@ -22,17 +23,6 @@ kw_status kw_json_parse(const char *buf, size_t len, cJSON **root);
 /*! kw_sidecar_path(): "x/ks.npy" -> "x/ks.json" (malloc'd; NULL for "-" or
  * when out of memory). */
 char *kw_sidecar_path(const char *npy_path);
-
-/*! kw_json_add_vec(): add a JSON number array of n doubles under `key`. */
-cJSON *kw_json_add_vec(cJSON *obj, const char *key, const double *v, int n);
-
-/*! kw_json_add_number_or_null(): obj[key] = v, or null when v is NaN/Inf
- * (JSON has no NaN: a PSNR of identical images is infinite). */
-cJSON *kw_json_add_number_or_null(cJSON *obj, const char *key, double v);
-
-/*! kw_json_add_scores(): the three image scores under their report keys
- * "nrmse", "psnr_db", "ssim" (null where not finite). */
-void kw_json_add_scores(cJSON *obj, double nrmse, double psnr_db, double ssim);
 
 /*! kw_json_get_number(): read obj[key] as a finite number; KW_EFORMAT with
  * "<key>: ..." when missing or not a number. */
