@@ -17,13 +17,8 @@ enum {
     KW_EXIT_INFEASIBLE = 3 /* `plan`: the protocol breaks a hardware limit */
 };
 
-/* Printed under every report that touches gradient switching, RF or timing. */
-#define KW_SAFETY_CAUTION                                                      \
-    "Caution: gradient amplitude and slew-rate limits of the hardware are not "\
-    "patient-safety limits; peripheral nerve stimulation and SAR are governed "\
-    "by IEC 60601-2-33 and the scanner's own supervision. For research and "   \
-    "planning only, not for diagnosis; defer to local rules and licensed "     \
-    "practice."
+/* KW_SAFETY_CAUTION (kw_base.h) is printed under every report that touches
+ * gradient switching, RF or timing. */
 
 /*! kw_cli_fail(): print "kweave: error: <what>: <why>" on one line and
  * return KW_EXIT_USAGE (2). */

@@ -13,6 +13,8 @@ static _Thread_local const char *last_reason = "";
 
 const char *kw_version(void) { return KW_VERSION_STRING; }
 
+const char *kw_safety_caution(void) { return KW_SAFETY_CAUTION; }
+
 const char *kw_strerror(kw_status s)
 {
     switch (s) {

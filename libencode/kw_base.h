@@ -54,6 +54,19 @@ extern "C" {
  * shared library's SONAME carries the major number (libkweave.so.MAJOR). */
 KW_API const char *kw_version(void);
 
+/* The caution every report that touches gradient switching, RF or timing
+ * carries (the command prints it; the JSON reports hold it under
+ * "safety_caution"). */
+#define KW_SAFETY_CAUTION                                                      \
+    "Caution: gradient amplitude and slew-rate limits of the hardware are not "\
+    "patient-safety limits; peripheral nerve stimulation and SAR are governed "\
+    "by IEC 60601-2-33 and the scanner's own supervision. For research and "   \
+    "planning only, not for diagnosis; defer to local rules and licensed "     \
+    "practice."
+
+/*! kw_safety_caution(): KW_SAFETY_CAUTION at run time (for bindings). */
+KW_API const char *kw_safety_caution(void);
+
 /* Fixed numbers: scripts and bindings may rely on them. */
 typedef enum kw_status {
     KW_OK = 0,
