@@ -36,7 +36,7 @@ DEPS := $(LIB_OBJ:.o=.d) $(CLI_OBJ:.o=.d) $(TEST_OBJ:.o=.d) $(BUILD)/obj/cli/mai
 
 VERSION := $(shell sed -n 's/^\#define KW_VERSION_STRING "\(.*\)"/\1/p' libencode/kw_base.h)
 
-.PHONY: FORCE all deps deps-test check test test-c test-ref asan valgrind demo install clean bench fuzz
+.PHONY: FORCE all deps deps-test deps-python python test-python check test test-c test-ref asan valgrind demo install clean bench fuzz
 
 all: deps $(BUILD)/kweave $(BUILD)/libkweave.a $(BUILD)/libkweave.so $(BUILD)/kweave.pc $(BUILD)/include/kweave.h
 
@@ -45,6 +45,9 @@ deps:
 
 deps-test:
 	@sh scripts/deps.sh test
+
+deps-python:
+	@sh scripts/deps.sh python
 
 $(BUILD)/obj/%.o: %.c | deps
 	@mkdir -p $(dir $@)
@@ -127,7 +130,34 @@ ifneq ($(SAN),1)
 	sh tests/api/installed.sh $(MAKE) $(BUILD)
 endif
 
-test: test-c test-ref test-api
+# ---- the Python package (python/kweave; docs/python.md) ------------------------
+# `make python` builds the extension in place (PYTHONPATH=python), linked with
+# the static library so that it needs no LD_LIBRARY_PATH.
+PY_EXT = $(shell $(PY) -c "import sysconfig; print(sysconfig.get_config_var('EXT_SUFFIX'))" 2>/dev/null)
+PY_INC = $(shell $(PY) -c "import sysconfig; print(sysconfig.get_paths()['include'])" 2>/dev/null)
+NP_INC = $(shell $(PY) -c "import numpy; print(numpy.get_include())" 2>/dev/null)
+PY_SRC := $(sort $(wildcard python/kweave/_*.c))
+PY_MOD = python/kweave/_kweave$(PY_EXT)
+
+python: deps-python all
+	@$(MAKE) --no-print-directory $(PY_MOD)
+
+$(PY_MOD): $(PY_SRC) python/kweave/kwpy.h $(BUILD)/libkweave.a
+	@echo "CC python/kweave/_kweave$(PY_EXT)"
+	@$(CC) $(ALL_CFLAGS) -fvisibility=hidden -isystem $(PY_INC) -isystem $(NP_INC) -shared \
+	  -o $@ $(PY_SRC) $(BUILD)/libkweave.a $(LIBS) $(LDFLAGS)
+
+# The package's tests need the module built without sanitizers.
+test-python:
+ifneq ($(SAN),1)
+	@$(MAKE) --no-print-directory python
+	PYTHONPATH=$(abspath python) KWEAVE=$(abspath $(BUILD)/kweave) \
+	  $(PY) -m pytest -q -p no:cacheprovider tests/python
+else
+	@echo "test-python: skipped under sanitizers (the extension loads into an uninstrumented python)"
+endif
+
+test: test-c test-ref test-api test-python
 
 check: deps-test
 	$(MAKE) all

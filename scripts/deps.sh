@@ -1,7 +1,8 @@
 #!/bin/sh
 # deps.sh MODE: make sure what kweave needs is installed.
 #   MODE=build: compiler libraries (FFTW, libpng, cJSON, cairo, pkg-config)
-#   MODE=test:  build + Criterion + a C++ compiler (the header test) + Python
+#   MODE=python: build + python3-dev and python3-numpy (the Python package)
+#   MODE=test:  build + python + Criterion + a C++ compiler (the header test) + Python
 #               reference libraries (numpy, scipy, scikit-image, PyWavelets,
 #               pytest) for /usr/bin/python3
 # Missing Debian packages are installed with apt-get when run as root;
@@ -17,6 +18,12 @@ for pc in fftw3f:libfftw3-dev libpng:libpng-dev libcjson:libcjson-dev cairo:libc
         need "$deb"
     fi
 done
+if [ "$mode" = test ] || [ "$mode" = python ]; then
+    [ -x /usr/bin/python3 ] || need python3
+    /usr/bin/python3 -c "import sysconfig, os, sys; sys.exit(not os.path.exists(os.path.join(sysconfig.get_paths()['include'], 'Python.h')))" \
+        >/dev/null 2>&1 || need python3-dev
+    /usr/bin/python3 -c "import numpy" >/dev/null 2>&1 || need python3-numpy
+fi
 if [ "$mode" = test ]; then
     if ! command -v pkg-config >/dev/null 2>&1 || ! pkg-config --exists criterion 2>/dev/null; then
         need libcriterion-dev

@@ -1,0 +1,108 @@
+/* kwpy.h: what the parts of the kweave Python extension share: numpy
+ * arrays in and out, keyword tables with the command's option names and
+ * units, library errors raised as Python exceptions, JSON text as dicts.
+ * The extension only converts: every computation is a libkweave call. */
+#ifndef KWPY_H
+#define KWPY_H
+
+#define PY_SSIZE_T_CLEAN
+#include <Python.h>
+
+#define NPY_NO_DEPRECATED_API NPY_1_7_API_VERSION
+#define PY_ARRAY_UNIQUE_SYMBOL kwpy_ARRAY_API
+#ifndef KWPY_MODULE_MAIN
+#define NO_IMPORT_ARRAY
+#endif
+#include <numpy/arrayobject.h>
+
+#include "kw_base.h"
+#include "kw_units.h"
+
+/* ---- errors ---------------------------------------------------------------- */
+
+/* kweave.Error (RuntimeError) and kweave.InputError (Error, ValueError). */
+extern PyObject *kwpy_Error;
+extern PyObject *kwpy_InputError;
+
+/*! kwpy_raise(): raise the exception for a failed library call, carrying
+ * kw_last_error() (prefixed "context: " when context is not NULL) and the
+ * attributes .status (kw_strerror name) and .param (kw_last_error_param(),
+ * or None). Bad input (EINVAL, EFORMAT, ERANGE, EINFEASIBLE, ENUMERIC,
+ * ENOTSUP) raises InputError, ENOMEM MemoryError, ECANCELLED
+ * KeyboardInterrupt, the rest Error. Returns NULL. */
+PyObject *kwpy_raise(kw_status st, const char *context);
+
+/*! kwpy_value_error(): raise InputError("<field>: <why>"); returns NULL. */
+PyObject *kwpy_value_error(const char *field, const char *fmt, ...);
+
+/* ---- arrays ---------------------------------------------------------------- */
+
+typedef enum kwpy_elem { KWPY_C64, KWPY_F32, KWPY_U8 } kwpy_elem;
+
+/*! kwpy_array_in(): `obj` as a C-contiguous array of `elem` with ndim in
+ * [min_ndim, max_ndim]: the same object (no copy) when it already is one,
+ * else a converted copy. Numbers of any numeric dtype are accepted (bool,
+ * integers, floats, and complex where complex is wanted); complex into a
+ * real array, objects, strings and other dtypes are refused naming `name`.
+ * Returns a new reference or NULL with InputError set. */
+PyArrayObject *kwpy_array_in(PyObject *obj, kwpy_elem elem, const char *name, int min_ndim,
+                             int max_ndim);
+
+/*! kwpy_array_new(): a new zeroed C-contiguous array of elem and dims. */
+PyArrayObject *kwpy_array_new(kwpy_elem elem, int ndim, const size_t *dims);
+
+/*! kwpy_dims(): the shape of `a` as size_t[] (at most 8 axes). */
+void kwpy_dims(PyArrayObject *a, size_t *dims);
+
+/* ---- keyword tables ------------------------------------------------------- */
+
+typedef enum kwpy_kind {
+    KWPY_STR,   /* const char *: a str (valid while the call runs) */
+    KWPY_INT,   /* long: an integer (bool refused) */
+    KWPY_FLOAT, /* double: a plain number */
+    KWPY_UNIT,  /* double, SI: a str with a unit ("256mm") or a number in SI */
+    KWPY_BOOL,  /* int: a truth value */
+    KWPY_OBJ    /* PyObject *: borrowed (arrays, lists) */
+} kwpy_kind;
+
+/* One keyword: `name` is the command's option name ("rf-duration"); the
+ * Python keyword is the same with '_' for '-' ("rf_duration"); a trailing
+ * '_' is also accepted ("lambda_"). `seen` (optional) is set to 1 when
+ * given; None counts as not given. */
+typedef struct kwpy_kw {
+    const char *name;
+    kwpy_kind kind;
+    void *dest;
+    kw_unit_kind unit;
+    int *seen;
+} kwpy_kw;
+
+/*! kwpy_parse_kwargs(): apply `kwargs` (may be NULL) to the table; unknown
+ * keywords raise TypeError naming `call` and the closest known keyword.
+ * Returns 0, or -1 with an exception set. */
+int kwpy_parse_kwargs(PyObject *kwargs, const kwpy_kw *table, const char *call);
+
+/*! kwpy_str_value(): `obj` as the text the command line would carry (str
+ * as is, int and float in full precision, a sequence joined by `sep`), in
+ * buf. Returns 0, or -1 with InputError naming `name`. */
+int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, size_t n);
+
+/* ---- JSON ------------------------------------------------------------------ */
+
+/*! kwpy_json_dict(): json.loads(text), then kw_free(text); NULL on error. */
+PyObject *kwpy_json_dict(char *text);
+
+/* ---- the parts -------------------------------------------------------------- */
+
+/* Each part adds its functions and types to the module; 0 or -1. */
+int kwpy_add_nufft(PyObject *m);
+int kwpy_add_score(PyObject *m);
+int kwpy_add_recon(PyObject *m);
+int kwpy_add_acquire(PyObject *m);
+int kwpy_add_pattern(PyObject *m);
+int kwpy_add_plan(PyObject *m);
+
+/*! kwpy_add_functions(): add a NULL-terminated PyMethodDef table. */
+int kwpy_add_functions(PyObject *m, PyMethodDef *defs);
+
+#endif
