@@ -5,8 +5,11 @@
 #include "kwpy.h"
 
 #include <stdarg.h>
+#include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
+
+#include "kw_fft.h"
 
 PyObject *kwpy_Error;
 PyObject *kwpy_InputError;
@@ -408,8 +411,46 @@ static PyObject *py_version(PyObject *self, PyObject *noargs)
     return PyUnicode_FromString(kw_version());
 }
 
+static PyObject *py_wisdom_export(PyObject *self, PyObject *noargs)
+{
+    (void)self;
+    (void)noargs;
+    char *w = kw_fft_wisdom_export();
+    if (!w)
+        return PyErr_NoMemory();
+    PyObject *r = PyUnicode_FromString(w);
+    free(w);
+    return r;
+}
+
+static PyObject *py_wisdom_import(PyObject *self, PyObject *arg)
+{
+    (void)self;
+    const char *s = PyUnicode_Check(arg) ? PyUnicode_AsUTF8(arg) : NULL;
+    if (!s)
+        return PyErr_Occurred() ? NULL : kwpy_value_error("wisdom", "must be a str");
+    kw_status st = kw_fft_wisdom_import(s);
+    if (st)
+        return kwpy_raise(st, "wisdom");
+    Py_RETURN_NONE;
+}
+
+static PyObject *py_fft_threads(PyObject *self, PyObject *noargs)
+{
+    (void)self;
+    (void)noargs;
+    return PyLong_FromLong(kw_fft_threads());
+}
+
 static PyMethodDef module_methods[] = {
     {"version", py_version, METH_NOARGS, "version() -> str: the library's version."},
+    {"fft_wisdom_export", py_wisdom_export, METH_NOARGS,
+     "fft_wisdom_export() -> str: FFTW's accumulated wisdom (as the command's cache file)."},
+    {"fft_wisdom_import", py_wisdom_import, METH_O,
+     "fft_wisdom_import(text): merge wisdom made by fft_wisdom_export() or the command's cache\n"
+     "(KWEAVE_WISDOM); with the same wisdom the command and the package plan alike."},
+    {"fft_threads", py_fft_threads, METH_NOARGS,
+     "fft_threads() -> int: the thread count FFT plans are made with (one per core)."},
     {NULL, NULL, 0, NULL}};
 
 static struct PyModuleDef module_def = {
@@ -422,6 +463,9 @@ PyMODINIT_FUNC PyInit__kweave(void);
 PyMODINIT_FUNC PyInit__kweave(void)
 {
     import_array();
+    /* As the command: FFTW's threads on, one per core as OpenMP sees them. */
+    if (!kw_fft_threads_ready() && kw_fft_setup(0) != KW_OK)
+        return kwpy_raise(KW_EINTERNAL, "fft");
     PyObject *m = PyModule_Create(&module_def);
     if (!m)
         return NULL;
