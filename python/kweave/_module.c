@@ -397,6 +397,21 @@ PyObject *kwpy_json_dict(char *text)
     return r;
 }
 
+PyObject *kwpy_namespace(PyObject *fields)
+{
+    if (!fields)
+        return NULL;
+    PyObject *types = PyImport_ImportModule("types");
+    PyObject *cls = types ? PyObject_GetAttrString(types, "SimpleNamespace") : NULL;
+    Py_XDECREF(types);
+    PyObject *empty = cls ? PyTuple_New(0) : NULL;
+    PyObject *r = empty ? PyObject_Call(cls, empty, fields) : NULL;
+    Py_XDECREF(empty);
+    Py_XDECREF(cls);
+    Py_DECREF(fields);
+    return r;
+}
+
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs)
 {
     return PyModule_AddFunctions(m, defs);

@@ -92,6 +92,10 @@ int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, 
 /*! kwpy_json_dict(): json.loads(text), then kw_free(text); NULL on error. */
 PyObject *kwpy_json_dict(char *text);
 
+/*! kwpy_namespace(): types.SimpleNamespace(**fields) (the calls' results:
+ * attribute access, a readable repr); steals `fields`; NULL on error. */
+PyObject *kwpy_namespace(PyObject *fields);
+
 /* ---- the parts -------------------------------------------------------------- */
 
 /* Each part adds its functions and types to the module; 0 or -1. */
