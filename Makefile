@@ -138,6 +138,9 @@ PY_INC = $(shell $(PY) -c "import sysconfig; print(sysconfig.get_paths()['includ
 NP_INC = $(shell $(PY) -c "import numpy; print(numpy.get_include())" 2>/dev/null)
 PY_SRC := $(sort $(wildcard python/kweave/_*.c))
 PY_MOD = python/kweave/_kweave$(PY_EXT)
+# Installed beside Debian's own layout: $(PREFIX)/lib/python3.X/dist-packages
+# (on the default sys.path of Debian's python3 when PREFIX is /usr/local).
+PY_DIR = $(PREFIX)/lib/python$(shell $(PY) -c "import sys; print('%d.%d' % sys.version_info[:2])" 2>/dev/null)/dist-packages
 
 python: deps-python all
 	@$(MAKE) --no-print-directory $(PY_MOD)
@@ -200,6 +203,13 @@ install: all
 	ln -sf libkweave.so.$(SOMAJOR) $(DESTDIR)$(PREFIX)/lib/libkweave.so
 	install -m 644 $(PUB_HDR) $(BUILD)/include/kweave.h $(DESTDIR)$(PREFIX)/include/kweave/
 	install -m 644 $(BUILD)/kweave.pc $(DESTDIR)$(PREFIX)/lib/pkgconfig/
+	@if [ "$(SAN)" != 1 ] && sh scripts/deps.sh python >/dev/null 2>&1; then \
+	  $(MAKE) --no-print-directory -s python && \
+	  install -d $(DESTDIR)$(PY_DIR)/kweave && \
+	  install -m 644 python/kweave/__init__.py $(DESTDIR)$(PY_DIR)/kweave/ && \
+	  install -m 755 $(PY_MOD) $(DESTDIR)$(PY_DIR)/kweave/ && \
+	  echo "kweave: Python package installed; use it with PYTHONPATH=$(PY_DIR)"; \
+	else echo "kweave: Python package not installed (needs python3-dev and python3-numpy: make python)"; fi
 
 clean:
 	rm -rf build demo-out
