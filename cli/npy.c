@@ -27,6 +27,7 @@ typedef struct header {
     size_t isize;  /* bytes per element in the file */
     int ndim;
     size_t dims[KW_MAX_DIMS];
+    int fortran;   /* 'fortran_order': True: reordered to C order on reading */
 } header;
 
 /* ---- the header dict ------------------------------------------------------ */
@@ -152,8 +153,8 @@ static kw_status parse_header(const char *txt, size_t len, header *h)
             if ((size_t)(end - p) >= 5 && strncmp(p, "False", 5) == 0) {
                 p += 5;
             } else if ((size_t)(end - p) >= 4 && strncmp(p, "True", 4) == 0) {
-                return kw_set_error(KW_EFORMAT, "fortran_order: Fortran-ordered "
-                                    "arrays are not supported (save np.ascontiguousarray(a))");
+                p += 4;
+                h->fortran = 1;
             } else {
                 return kw_set_error(KW_EFORMAT, "header: 'fortran_order' is not a bool");
             }
@@ -265,6 +266,38 @@ static const char *fmt_bytes(size_t n, char *buf, size_t cap)
 
 /* `remaining`: the length of the stream (the offset of its end, as ftell
  * counts) when known (a regular file or a buffer), -1 for a pipe. */
+/* A Fortran-ordered array (first axis fastest, as np.save writes
+ * np.fft.fftn(...) of a Fortran array) into C order, same shape: walks the
+ * C-order destination and steps the Fortran source offset along. */
+static kw_status fortran_to_c(kw_array *a)
+{
+    size_t n = kw_array_count(a), es = kw_dtype_size(a->dtype);
+    if (a->ndim < 2 || n < 2)
+        return KW_OK;
+    unsigned char *tmp = malloc(n * es);
+    KW_FAIL_IF(!tmp, KW_ENOMEM, "out of memory reordering a Fortran-ordered array");
+    size_t idx[KW_MAX_DIMS] = {0}, stride[KW_MAX_DIMS];
+    stride[0] = 1;
+    for (int k = 1; k < a->ndim; k++)
+        stride[k] = stride[k - 1] * a->dims[k - 1];
+    const unsigned char *src = a->data;
+    size_t off = 0;
+    for (size_t i = 0; i < n; i++) {
+        memcpy(tmp + i * es, src + off * es, es);
+        for (int k = a->ndim - 1; k >= 0; k--) {
+            if (++idx[k] < a->dims[k]) {
+                off += stride[k];
+                break;
+            }
+            off -= stride[k] * (a->dims[k] - 1);
+            idx[k] = 0;
+        }
+    }
+    memcpy(a->data, tmp, n * es);
+    free(tmp);
+    return KW_OK;
+}
+
 static kw_status read_stream(FILE *f, intmax_t remaining, kw_array *out)
 {
     unsigned char pre[12];
@@ -365,7 +398,9 @@ static kw_status read_stream(FILE *f, intmax_t remaining, kw_array *out)
         return kw_set_error(KW_EFORMAT, "data: more bytes than the shape says "
                                         "(the header lies about the shape)");
     }
-    return KW_OK;
+    if (h.fortran && (st = fortran_to_c(out)))
+        kw_array_free(out);
+    return st;
 }
 
 /* Length of a regular file (positions are absolute), or -1 for a pipe. */

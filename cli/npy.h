@@ -2,7 +2,8 @@
  *
  * Read: format versions 1.0, 2.0 and 3.0; little- or big-endian; dtypes
  * complex64, complex128 -> KW_C64; float32, float64, int16 -> KW_F32;
- * uint8 and bool -> KW_U8. Fortran order, object arrays, structured dtypes
+ * uint8 and bool -> KW_U8. Fortran-ordered arrays are read into C order
+ * (the same array: a[i, j] keeps its place). Object arrays, structured dtypes
  * and shapes whose size disagrees with the file are refused (KW_EFORMAT) with
  * the field and the reason in kw_last_error(). Non-finite values are NOT
  * refused here: callers decide (kw_array_all_finite()).

@@ -117,8 +117,8 @@ static kw_status take_header(kw_npyr *r, const char *txt, size_t len)
             if (e - p >= 5 && strncmp(p, "False", 5) == 0)
                 p += 5;
             else if (e - p >= 4 && strncmp(p, "True", 4) == 0)
-                return kw_set_error(KW_EFORMAT, "fortran_order: Fortran-ordered arrays are "
-                                    "not supported (save np.ascontiguousarray(a))");
+                return kw_set_error(KW_EFORMAT, "fortran_order: slice-by-slice reading "
+                                    "needs C order (save np.ascontiguousarray(a))");
             else
                 return kw_set_error(KW_EFORMAT, "header: 'fortran_order' is not a bool");
             seen |= 2;

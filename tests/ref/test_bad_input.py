@@ -78,7 +78,6 @@ NPY_CASES = [
     ("dtype-structured", header_file(hdr(descr="[('a', '<f4')]"), F4_2x2), "dtype"),
     ("byte-order-missing-for-f4", header_file(hdr(descr="'|f4'"), F4_2x2), "dtype"),
     ("byte-order-unknown", header_file(hdr(descr="'!f4'"), F4_2x2), "dtype"),
-    ("fortran-order", npy_bytes(np.asfortranarray(np.ones((3, 4), np.float32))), "fortran_order"),
     ("fortran-order-not-bool", header_file(hdr(fortran="1"), F4_2x2), "fortran_order"),
     ("header-not-a-dict", header_file("('<f4', False, (2, 2))", F4_2x2), "header"),
     ("header-missing-shape", header_file("{'descr': '<f4', 'fortran_order': False, }", F4_2x2), "shape"),

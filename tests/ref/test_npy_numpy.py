@@ -63,13 +63,44 @@ def test_header_versions(cli, tmp_path, version):
     cli.kw_array_free(ctypes.byref(arr))
 
 
-def test_fortran_order_refused(cli, tmp_path):
+@pytest.mark.parametrize("dt", ["<c8", "<c16", ">f8", "<f4", "<i2", "|u1"])
+@pytest.mark.parametrize("shape", [(3, 4), (2, 3, 5), (4, 1, 3, 2)])
+def test_np_fft_output_fortran_ordered_npy_reads_as_c_order(cli, tmp_path, dt, shape):
+    """np.save of a Fortran-ordered array (what np.fft.fftn of a transposed
+    array gives) keeps a[i, j, ...] in place (issue 16: it was refused)."""
+    a = (np.arange(np.prod(shape)).reshape(shape) % 7 + 1).astype(dt)
+    if a.dtype.kind == "c":
+        a = a * (1 - 2j)
+    f = np.asfortranarray(a)
+    assert f.flags.f_contiguous and not f.flags.c_contiguous
     p = tmp_path / "f.npy"
-    np.save(p, np.asfortranarray(np.ones((3, 4), np.float32)))
+    np.save(p, f)
     arr = Arr()
-    assert cli.kw_npy_read(str(p).encode(), ctypes.byref(arr)) == 4  # KW_EFORMAT
-    cli.kw_last_error.restype = ctypes.c_char_p
-    assert b"fortran_order" in cli.kw_last_error()
+    assert cli.kw_npy_read(str(p).encode(), ctypes.byref(arr)) == 0
+    assert tuple(arr.dims[:arr.ndim]) == shape
+    kind = {"c": (np.complex64, 2), "u": (np.uint8, 1)}.get(a.dtype.kind, (np.float32, 1))
+    ctype = ctypes.c_uint8 if kind[0] == np.uint8 else ctypes.c_float
+    n = int(np.prod(shape)) * kind[1]
+    got = np.ctypeslib.as_array(ctypes.cast(arr.data, ctypes.POINTER(ctype)), shape=(n,))
+    np.testing.assert_array_equal(got.view(kind[0]).reshape(shape), a.astype(kind[0]))
+    cli.kw_array_free(ctypes.byref(arr))
+
+
+def test_np_fft_fftn_saved_kspace_reconstructs_as_its_c_order_copy(tmp_path):
+    """The natural numpy script: k = np.fft.fftn(...) of a transposed array;
+    recon of the Fortran-ordered file equals recon of the C-ordered one."""
+    import subprocess
+    rng = np.random.default_rng(0)
+    img = rng.standard_normal((32, 24, 4)) + 1j * rng.standard_normal((32, 24, 4))
+    k = np.asfortranarray(np.fft.fftn(img.T, axes=(1, 2)), np.complex64)   # (4, 24, 32)
+    assert k.flags.f_contiguous and not k.flags.c_contiguous
+    np.save(tmp_path / "f.npy", k)
+    np.save(tmp_path / "c.npy", np.ascontiguousarray(k))
+    kw = os.environ["KWEAVE"]
+    for n in ("f", "c"):
+        subprocess.run([kw, "recon", "--in", tmp_path / f"{n}.npy", "--out", tmp_path / f"{n}o.npy"],
+                       check=True, capture_output=True)
+    assert (tmp_path / "fo.npy").read_bytes() == (tmp_path / "co.npy").read_bytes()
 
 
 def test_bad_files_refused(cli, tmp_path):
