@@ -144,28 +144,113 @@ int kw_cli_lib_status(kw_status st, const char *context, const kw_cli_param *map
     return kw_cli_status(st, context);
 }
 
+/* The argument's placeholder: the option's name in capitals ("--fov FOV",
+ * "--rf-duration RF_DURATION"), as most command-line tools write it. */
+static void placeholder(const kw_opt *o, char *buf, size_t n)
+{
+    size_t i = 0;
+    if (o->type == KW_OPT_FLAG || n < 2) {
+        if (n)
+            buf[0] = '\0';
+        return;
+    }
+    buf[i++] = ' ';
+    for (const char *c = o->name; *c && i + 1 < n; c++)
+        buf[i++] = *c == '-' ? '_' : (char)toupper((unsigned char)*c);
+    buf[i] = '\0';
+}
+
+/* One option line: the help text in a column; a left part too wide for the
+ * column gets a line of its own with the help below it. */
+static void help_line(const char *left, const char *help)
+{
+    enum { COL = 26 };
+    if (strlen(left) <= COL - 4) /* at least two spaces before the help */
+        printf("  %-*s%s\n", COL - 2 + 1, left, help);
+    else
+        printf("  %s\n  %-*s%s\n", left, COL - 2 + 1, "", help);
+}
+
 static void print_help(const kw_opt *table, const char *usage)
 {
     printf("%s\n\nOptions:\n", usage);
     for (const kw_opt *o = table; o->name; o++) {
         if (!o->help)
             continue;
-        char left[64];
-        const char *arg = "";
-        switch (o->type) {
-        case KW_OPT_FLAG: arg = ""; break;
-        case KW_OPT_STRING: arg = " S"; break;
-        case KW_OPT_INT: arg = " N"; break;
-        case KW_OPT_DOUBLE: arg = " X"; break;
-        case KW_OPT_UNIT: arg = " Q"; break;
-        }
+        char left[96], arg[64];
+        placeholder(o, arg, sizeof arg);
         snprintf(left, sizeof left, "--%s%s", o->name, arg);
-        printf("  %-22s %s\n", left, o->help);
+        help_line(left, o->help);
     }
-    printf("  %-22s %s\n", "--quiet", "no progress on stderr");
-    printf("  %-22s %s\n", "--max-memory SIZE",
-           "refuse arrays larger than SIZE (e.g. 2GiB; default: half the RAM)");
-    printf("  %-22s %s\n", "--help", "this text");
+    help_line("--quiet", "no progress on stderr");
+    help_line("--max-memory SIZE", "refuse arrays larger than SIZE (e.g. 2GiB; default: half the RAM)");
+    help_line("--help", "this text");
+}
+
+/* Edit distance of a[0..na) and b (at most 31 characters each) counting
+ * insertions, deletions, substitutions and swaps of neighbours ("kidn" is
+ * one from "kind"): the optimal string alignment distance. */
+static size_t edit_distance(const char *a, size_t na, const char *b)
+{
+    size_t nb = strlen(b);
+    if (na > 31 || nb > 31)
+        return 99;
+    size_t d[32][32];
+    for (size_t i = 0; i <= na; i++)
+        d[i][0] = i;
+    for (size_t j = 0; j <= nb; j++)
+        d[0][j] = j;
+    for (size_t i = 1; i <= na; i++)
+        for (size_t j = 1; j <= nb; j++) {
+            size_t best = d[i - 1][j - 1] + (a[i - 1] != b[j - 1]);
+            if (d[i - 1][j] + 1 < best)
+                best = d[i - 1][j] + 1;
+            if (d[i][j - 1] + 1 < best)
+                best = d[i][j - 1] + 1;
+            if (i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] &&
+                d[i - 2][j - 2] + 1 < best)
+                best = d[i - 2][j - 2] + 1;
+            d[i][j] = best;
+        }
+    return d[na][nb];
+}
+
+/* The option `name` (nlen characters) stands for: exactly, or in the other
+ * spelling of -ise/-ize ("--analyze" for "--analyse"). */
+static const kw_opt *find_option(const kw_opt *table, const char *name, size_t nlen)
+{
+    for (const kw_opt *t = table; t->name; t++)
+        if (strlen(t->name) == nlen && strncmp(t->name, name, nlen) == 0)
+            return t;
+    for (const kw_opt *t = table; t->name; t++) {
+        if (strlen(t->name) != nlen)
+            continue;
+        size_t i = 0;
+        while (i < nlen && (name[i] == t->name[i] || (name[i] == 'z' && t->name[i] == 's')))
+            i++;
+        if (i == nlen)
+            return t;
+    }
+    return NULL;
+}
+
+/* "unknown option" with the closest known option, when one is close. */
+static int unknown_option(const char *arg, const kw_opt *table, const char *name, size_t nlen)
+{
+    const char *best = NULL;
+    size_t bd = nlen < 5 ? 2 : 3;
+    for (const kw_opt *t = table; t->name; t++) {
+        if (!t->help)
+            continue;
+        size_t d = edit_distance(name, nlen, t->name);
+        if (d < bd) {
+            bd = d;
+            best = t->name;
+        }
+    }
+    if (best)
+        return kw_cli_fail(arg, "unknown option; did you mean --%s? (see --help)", best);
+    return kw_cli_fail(arg, "unknown option (see --help)");
 }
 
 static int set_value(const kw_opt *o, const char *val)
@@ -248,15 +333,9 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
         const char *name = a + 2;
         const char *eq = strchr(name, '=');
         size_t nlen = eq ? (size_t)(eq - name) : strlen(name);
-        const kw_opt *o = NULL;
-        for (const kw_opt *t = table; t->name; t++) {
-            if (strlen(t->name) == nlen && strncmp(t->name, name, nlen) == 0) {
-                o = t;
-                break;
-            }
-        }
+        const kw_opt *o = find_option(table, name, nlen);
         if (!o)
-            return kw_cli_fail(a, "unknown option (see --help)");
+            return unknown_option(a, table, name, nlen);
         const char *val = NULL;
         if (o->type == KW_OPT_FLAG) {
             if (eq)
