@@ -383,7 +383,8 @@ int kw_cli_progress(void *user, const kw_progress *p)
         snprintf(eta, sizeof eta, "  ETA %.1fs", el / p->iter * (p->niter - p->iter));
     char res[40] = "";
     if (!isnan(p->residual))
-        snprintf(res, sizeof res, "  residual %.3e", p->residual);
+        snprintf(res, sizeof res, "  %s %.3e", p->residual_name ? p->residual_name : "residual",
+                 p->residual);
     if (p->niter > 0)
         fprintf(stderr, "\r%s: %d/%d%s%s   ", p->stage ? p->stage : "", p->iter,
                 p->niter, res, eta);

@@ -368,7 +368,7 @@ static int slices(ms_ctx *m, int kind)
     size_t nc = m->nc, ns = m->ns, npix = m->npix;
     kw_status st;
     for (size_t s = 0; s < ns; s++) {
-        kw_progress pr = {"slices", (int)s + 1, (int)ns, NAN};
+        kw_progress pr = {"slices", (int)s + 1, (int)ns, NAN, NULL};
         kw_cli_progress(NULL, &pr);
         if ((st = read_slice(&m->rk, m->axis, nc, ns, s, npix, m->kbuf)))
             return kw_cli_status(st, "in");

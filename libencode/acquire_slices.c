@@ -168,7 +168,7 @@ kw_status kw_acq_slices_run(const kw_acquisition *a, float *truth, kw_cfloat *ou
         for (int c = 0; c < s.nch; c++)
             memcpy(out + ((size_t)c * nsl + sl) * s.cnt, s.acc + (size_t)c * s.cnt,
                    s.cnt * sizeof *s.acc);
-        kw_progress pr = {"slices", sl + 1, nsl, NAN};
+        kw_progress pr = {"slices", sl + 1, nsl, NAN, NULL};
         if (progress && progress(user, &pr)) {
             st = kw_set_error(KW_ECANCELLED, "slices: cancelled");
             goto done;

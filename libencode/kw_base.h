@@ -234,6 +234,9 @@ typedef struct kw_progress {
     int iter;          /* current iteration (1-based), or 0 if none */
     int niter;         /* planned iterations, or 0 if unknown */
     double residual;   /* relative residual or objective, NaN if none */
+    const char *residual_name; /* what `residual` is, in the words of the
+                                  reports: "residual" (CG), "change" (the
+                                  relative change of FISTA and ADMM), or NULL */
 } kw_progress;
 
 /* Return nonzero to cancel: the call then returns KW_ECANCELLED. */

@@ -521,7 +521,7 @@ kw_status kw_fieldmap_execute(kw_fieldmap *fm, float complex *out, kw_progress_f
                 }
             }
             if (progress) {
-                kw_progress pr = {"field-map", ++step, nstep, NAN};
+                kw_progress pr = {"field-map", ++step, nstep, NAN, NULL};
                 if (progress(user, &pr))
                     return kw_set_error(KW_ECANCELLED, "field-map: cancelled");
             }

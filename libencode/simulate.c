@@ -410,7 +410,7 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
             one_sample(s, kx, kv, kz, t, out + i, count);
         }
         if (progress) {
-            kw_progress pr = {"encode", (int)it + 1, (int)((count + chunk - 1) / chunk), NAN};
+            kw_progress pr = {"encode", (int)it + 1, (int)((count + chunk - 1) / chunk), NAN, NULL};
             if (progress(user, &pr))
                 return kw_set_error(KW_ECANCELLED, "encode: cancelled");
         }

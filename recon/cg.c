@@ -123,7 +123,11 @@ int nc_report(kw_solver *s, kw_progress_fn fn, void *user, const char *stage, in
     }
     if (!fn)
         return 0;
-    kw_progress p = {stage, iter, niter, change};
+    /* CG reports its relative residual, FISTA and ADMM the relative change of
+     * the image: the report names them so ("log_change_name") and so does
+     * the progress line. */
+    kw_progress p = {stage, iter, niter, change,
+                     strcmp(stage, "cg-sense") == 0 ? "residual" : "change"};
     return fn(user, &p);
 }
 

@@ -147,7 +147,7 @@ static kw_status run_replicas(kw_recon *r, const kw_cfloat *k0, const double com
         kw_array_free(&sub.image);
         kw_array_free(&sub.gfactor);
         if (progress) {
-            kw_progress pg = {"pseudo-replicas", (int)i + 1, (int)nrep, NAN};
+            kw_progress pg = {"pseudo-replicas", (int)i + 1, (int)nrep, NAN, NULL};
             progress(user, &pg);
         }
     }

@@ -105,7 +105,7 @@ kw_status kw_psf_ndft(const float *k, size_t stride, const float *w, size_t samp
                     row[ix] += f * e[ix];
             }
         if (progress) {
-            kw_progress pr = {"psf", (int)(b + 1), (int)nblocks, NAN};
+            kw_progress pr = {"psf", (int)(b + 1), (int)nblocks, NAN, NULL};
             if (progress(user, &pr)) {
                 st = kw_set_error(KW_ECANCELLED, "psf: cancelled");
                 break;

@@ -263,7 +263,7 @@ kw_status kw_recon_run_grid(kw_rjob *job)
         for (size_t j = 0; j < ns; j++)
             y[c * ns + j] = r->w[j] * job->ksp[c * ns + j];
     if (job->progress) {
-        kw_progress pr = {"grid", 0, 0, NAN};
+        kw_progress pr = {"grid", 0, 0, NAN, NULL};
         job->progress(job->progress_user, &pr);
     }
     if ((st = kw_nufft_adjoint(p, y, img, nc)))

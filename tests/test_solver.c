@@ -338,3 +338,47 @@ Test(solver, options_struct_size)
     kw_encoder_destroy(e);
     free(xt); free(y); free(xdef); free(xold); free(xone);
 }
+
+/* The progress callback names what it reports in the reports' words: CG its
+ * relative residual, FISTA and ADMM the relative change (issue 17: the line
+ * said "residual" where the JSON said "change"). */
+typedef struct { int calls; const char *name; } seen_progress;
+
+static int note_progress(void *user, const kw_progress *p)
+{
+    seen_progress *s = user;
+    s->calls++;
+    s->name = p->residual_name;
+    return 0;
+}
+
+Test(solver, progress_names_what_it_reports)
+{
+    size_t ny = 16, nx = 16, n = ny * nx, d[2] = {16, 16};
+    float complex *sens = coil_maps(1, ny, nx);
+    kw_encoder *e;
+    cr_assert_eq(kw_encoder_create(&e, 2, d, &(kw_encoder_options){.struct_size = sizeof(kw_encoder_options), .ncoils = 1, .sens = sens}), KW_OK);
+    float complex *xt = malloc(n * sizeof *xt), *x = calloc(n, sizeof *x), *y = malloc(n * sizeof *y);
+    phantom(xt, ny, nx);
+    kw_encoder_forward(e, xt, y);
+    kw_solver *s;
+    kw_solver_options o;
+    kw_solver_options_init(&o);
+    o.iterations = 3;
+    o.stop = 0;
+    o.reg = KW_REG_TV;
+    o.lambda = 1e-3;
+    cr_assert_eq(kw_solver_create(&s, e, 2, d, &o), KW_OK, "%s", kw_last_error());
+    seen_progress sp = {0, NULL};
+    cr_assert_eq(kw_cg_sense(s, y, x, note_progress, &sp), KW_OK, "%s", kw_last_error());
+    cr_expect(sp.calls > 0 && sp.name && strcmp(sp.name, "residual") == 0);
+    sp = (seen_progress){0, NULL};
+    cr_assert_eq(kw_fista(s, y, x, note_progress, &sp), KW_OK, "%s", kw_last_error());
+    cr_expect(sp.calls > 0 && sp.name && strcmp(sp.name, "change") == 0);
+    sp = (seen_progress){0, NULL};
+    cr_assert_eq(kw_admm(s, y, x, note_progress, &sp), KW_OK, "%s", kw_last_error());
+    cr_expect(sp.calls > 0 && sp.name && strcmp(sp.name, "change") == 0);
+    kw_solver_destroy(s);
+    kw_encoder_destroy(e);
+    free(sens); free(xt); free(x); free(y);
+}
