@@ -81,9 +81,12 @@ static double tx(const frame *f, double t) { return f->x0 + (t - f->t0) / (f->t1
 
 static double row_mid(int row) { return TOP + (row + 0.5) * ROWH; }
 
+/* A gradient value's height in its row; values beyond the scale (lobes
+ * that break the limit by far) are drawn at the row's edge and labelled. */
 static double gy(const frame *f, int row, double g)
 {
-    return row_mid(row) - g / f->gscale * (ROWH * 0.42);
+    double c = fmax(-f->gscale, fmin(f->gscale, g));
+    return row_mid(row) - c / f->gscale * (ROWH * 0.42);
 }
 
 static void lobe_path(cairo_t *cr, const frame *f, int row, double t0, const kw_trapezoid *l)
@@ -100,6 +103,18 @@ static void fill_lobe(cairo_t *cr, const frame *f, int row, double t0, const kw_
 {
     int over = fabs(l->amplitude_T_per_m) > f->glimit * (1 + 1e-9);
     lobe_path(cr, f, row, t0, l);
+    if (fabs(l->amplitude_T_per_m) > f->gscale) { /* off the scale: say how far */
+        char b[64];
+        snprintf(b, sizeof b, "%.1f mT/m (off the scale)", l->amplitude_T_per_m * 1e3);
+        cairo_save(cr);
+        cairo_set_source_rgb(cr, 0.6, 0.05, 0.05);
+        cairo_set_font_size(cr, 11);
+        double top = gy(f, row, l->amplitude_T_per_m);
+        text_at(cr, tx(f, t0 + l->ramp_s + l->flat_s / 2), top + (l->amplitude_T_per_m > 0 ? -7 : 9),
+                b, 0.5, 0.5);
+        cairo_restore(cr);
+        lobe_path(cr, f, row, t0, l);
+    }
     if (over)
         cairo_set_source_rgba(cr, 0.9, 0.2, 0.2, 0.45);
     else
@@ -159,12 +174,15 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
     cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
 
     frame f = {0, r->timeline_s, LEFT, TW - RIGHT, 0, p->gmax_T_per_m};
-    /* amplitude scale: the limit or the largest lobe, whichever is larger */
+    /* amplitude scale: the limit, or the largest lobe up to 1.5 times the
+     * limit; a lobe beyond that is drawn at the edge with its amplitude, so
+     * that one absurd lobe does not flatten the others and the +/- limit
+     * labels keep apart */
     double gmaxplot = p->gmax_T_per_m;
     for (int i = 0; i < r->nevents; i++)
         if (r->events[i].kind == KW_EV_LOBE)
             gmaxplot = fmax(gmaxplot, fabs(r->events[i].lobe.amplitude_T_per_m));
-    f.gscale = gmaxplot * 1.05;
+    f.gscale = fmin(gmaxplot, 1.5 * p->gmax_T_per_m) * 1.05;
 
     /* spiral waveform, EPI spec */
     double *sgx = NULL, *sgy = NULL;
@@ -193,8 +211,15 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
     char buf[256];
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_font_size(cr, 17);
-    snprintf(buf, sizeof buf, "kweave plan: %s %d-D, TE %.3f ms, TR %.3f ms, %s", seq_label[p->sequence],
-             p->ndim, r->te_s * 1e3, r->tr_s * 1e3, r->feasible ? "feasible" : "NOT feasible");
+    if (r->te_s < r->min_te_s) /* the TE asked for cannot be had: draw the minimum, say so */
+        snprintf(buf, sizeof buf,
+                 "kweave plan: %s %d-D, TE %.3f ms drawn (%.3f ms asked is below the minimum), "
+                 "TR %.3f ms, %s", seq_label[p->sequence], p->ndim, r->min_te_s * 1e3,
+                 r->te_s * 1e3, r->tr_s * 1e3, r->feasible ? "feasible" : "NOT feasible");
+    else
+        snprintf(buf, sizeof buf, "kweave plan: %s %d-D, TE %.3f ms, TR %.3f ms, %s",
+                 seq_label[p->sequence], p->ndim, r->te_s * 1e3, r->tr_s * 1e3,
+                 r->feasible ? "feasible" : "NOT feasible");
     text_at(cr, LEFT, 22, buf, 0, 0.5);
     cairo_set_font_size(cr, 12);
     snprintf(buf, sizeof buf,
