@@ -97,6 +97,41 @@ static void series_label(const kw_sweep_row *r, char *b, size_t n)
         snprintf(b + k, n - (size_t)k, " %s", r->m.combine);
 }
 
+/* Under a panel's title: the legend's methods that have no result in this
+ * panel (they failed, or were not run, for its pattern), so that the legend
+ * common to the figure does not suggest them here. */
+static void missing_note(cairo_t *cr, char gs[][96], int ngs, const panel *pn, double xc,
+                         double y, double width)
+{
+    char note[400];
+    int k = snprintf(note, sizeof note, "no result here: ");
+    int any = 0;
+    for (int g = 0; g < ngs; g++) {
+        int s = 0;
+        while (s < pn->ns && strcmp(pn->series[s], gs[g]))
+            s++;
+        if (s < pn->ns)
+            continue;
+        if (k > 0 && (size_t)k < sizeof note)
+            k += snprintf(note + k, sizeof note - (size_t)k, "%s%s", any ? ", " : "", gs[g]);
+        any = 1;
+    }
+    if (!any)
+        return;
+    cairo_text_extents_t e;
+    cairo_text_extents(cr, note, &e);
+    size_t n = strlen(note);
+    while (e.x_advance > width && n > 20) { /* shorten to the panel's width */
+        n--;
+        memcpy(note + n - 3, "...", 4);
+        cairo_text_extents(cr, note, &e);
+    }
+    cairo_save(cr);
+    cairo_set_source_rgb(cr, 0.6, 0.1, 0.1);
+    text(cr, xc, y, note, 0.5, 0.5);
+    cairo_restore(cr);
+}
+
 static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric,
                       const char *title, const char *path, panel *pn, int *np_out)
 {
@@ -193,6 +228,7 @@ static kw_status draw(const kw_sweep *sw, cJSON *const *rows, const char *metric
         cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL,
                                CAIRO_FONT_WEIGHT_NORMAL);
         cairo_set_font_size(cr, 10);
+        missing_note(cr, gs, ngs, &pn[p], (x0 + x1) / 2, oy + 28, x1 - x0);
         cairo_set_line_width(cr, 1);
         for (double v = ymin; v <= ymax + st / 2; v += st) {
             cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
