@@ -195,8 +195,8 @@ KW_API const kw_recon_report *kw_recon_get_report(const kw_recon *r);
  * kaiser_bessel_beta, grid), combine; then image_shape and, with
  * want_gfactor, gfactor_method, gfactor_replicas, gfactor_mean,
  * gfactor_max. The command adds "input" after "method", writes
- * sens_source as the maps' source ("file (--sens)", "file (sidecar)",
- * "none"), the given weights' file as "dcf" and "dcf_file", "sens_file",
+ * sens_source as where its maps came from (its option's file, the
+ * sidecar's, or "none"), the given weights' file as "dcf" and "dcf_file", "sens_file",
  * "gfactor_file", and after these "scores" and "output". KW_EINVAL on NULL
  * or before the first execute. */
 KW_API kw_status kw_recon_report_json(const kw_recon *r, char **json);
