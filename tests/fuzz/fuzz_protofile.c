@@ -1,9 +1,11 @@
 /* fuzz_protofile.c: libFuzzer target for the protocol-file parser
- * (kw_protofile_parse) and everything a protocol file reaches: each input is
- * (1) split into `key = value` lines with the parser's promises checked, and
- * (2) handed to `kweave plan --protocol FILE` itself (kw_cmd_plan), whose
- * callbacks turn values with units into a protocol and check it. Any input
- * must end in a report or a clean error; never a crash or a leak. */
+ * (kw_protofile_parse, libencode/protofile.c) and everything a protocol file
+ * reaches: each input is (1) split into `key = value` lines with the
+ * parser's promises checked, (2) read in `kweave encode`'s dialect
+ * (kw_protocol_input_encode_fill, libencode/plan_input_int.h) and (3) handed
+ * to `kweave plan --protocol FILE` itself (kw_cmd_plan), which reads it with
+ * kw_protocol_input_parse(), checks the protocol and writes its report. Any
+ * input must end in a report or a clean error; never a crash or a leak. */
 #define _POSIX_C_SOURCE 200809L
 #include <fcntl.h>
 #include <stdint.h>
@@ -13,6 +15,7 @@
 #include <unistd.h>
 
 #include "cli.h"
+#include "plan_input_int.h"
 #include "protofile.h"
 
 int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size);
@@ -51,6 +54,18 @@ int LLVMFuzzerTestOneInput(const uint8_t *data, size_t size)
     kw_status st = kw_protofile_parse((const char *)data, size, check_line, &last);
     if (st != KW_OK && kw_last_error()[0] == '\0')
         __builtin_trap();
+    kw_protocol_input *in = NULL;
+    if (kw_protocol_input_create(&in) == KW_OK) {
+        static const char *const own[] = {"sequence", "fov", "matrix", "bandwidth", "b0",
+                                          "te", "tr", "flip", "ti", NULL};
+        kw_protocol p;
+        kw_protocol_defaults(&p);
+        kw_protocol_input_encode_dialect(in);
+        if (kw_protocol_input_parse(in, (const char *)data, size) == KW_OK &&
+            kw_protocol_input_encode_fill(in, own, &p) != KW_OK && kw_last_error()[0] == '\0')
+            __builtin_trap();
+        kw_protocol_input_destroy(in);
+    }
     if (size > (1u << 16))
         return 0;
     FILE *f = fopen(path, "wb");

@@ -7,7 +7,7 @@ import os
 import pytest
 import scipy.constants as sc
 
-from conftest import run, bad
+from conftest import run, bad, lib
 
 
 def plan_json(tmp_path, *args):
@@ -91,3 +91,99 @@ def test_unwritable_json_leaves_nothing(tmp_path):
     out = tmp_path / "nodir" / "p.json"
     bad("plan", "--json", out)
     assert not out.exists()
+
+
+# ---- the library's protocol input and JSON report (kw_plan_input.h) through
+# ctypes, as the Python package will call them: the same JSON bytes and the
+# same error lines as the command.
+
+def _plan_lib(lib):
+    import ctypes as C
+    vp = C.c_void_p
+    lib.kw_protocol_input_create.argtypes = [C.POINTER(vp)]
+    lib.kw_protocol_input_destroy.argtypes = [vp]
+    lib.kw_protocol_input_destroy.restype = None
+    lib.kw_protocol_input_set.argtypes = [vp, C.c_char_p, C.c_char_p]
+    lib.kw_protocol_input_parse.argtypes = [vp, C.c_char_p, C.c_size_t]
+    lib.kw_protocol_input_finish.argtypes = [vp, vp]
+    lib.kw_plan_create.argtypes = [C.POINTER(vp), vp]
+    lib.kw_plan_destroy.argtypes = [vp]
+    lib.kw_plan_destroy.restype = None
+    lib.kw_plan_report_json.argtypes = [vp, C.c_double, C.POINTER(C.c_void_p)]
+    lib.kw_free.argtypes = [vp]
+    lib.kw_free.restype = None
+    lib.kw_last_error.restype = C.c_char_p
+    lib.kw_last_error_param.restype = C.c_char_p
+    lib.kw_protocol_keys.restype = C.POINTER(C.c_char_p)
+    return lib
+
+
+def _lib_plan_json(lib, text=b"", **keys):
+    """(status, json text or error line, error param) from the library."""
+    import ctypes as C
+    _plan_lib(lib)
+    inp = C.c_void_p()
+    assert lib.kw_protocol_input_create(C.byref(inp)) == 0
+    try:
+        st = lib.kw_protocol_input_parse(inp, text, len(text))
+        for k, v in keys.items():
+            if st == 0:
+                st = lib.kw_protocol_input_set(inp, k.replace("_", "-").encode(), v.encode())
+        proto = C.create_string_buffer(4096)  # room for a kw_protocol
+        if st == 0:
+            st = lib.kw_protocol_input_finish(inp, proto)
+        if st:
+            return st, lib.kw_last_error().decode(), lib.kw_last_error_param().decode()
+        rep = C.c_void_p()
+        assert lib.kw_plan_create(C.byref(rep), proto) == 0
+        out = C.c_void_p()
+        st = lib.kw_plan_report_json(rep, 0.0, C.byref(out))
+        lib.kw_plan_destroy(rep)
+        assert st == 0
+        s = C.string_at(out).decode()
+        lib.kw_free(out)
+        return 0, s, ""
+    finally:
+        lib.kw_protocol_input_destroy(inp)
+
+
+def test_library_keys_are_the_commands_options(lib):
+    _plan_lib(lib)
+    k, keys = lib.kw_protocol_keys(), []
+    while k[len(keys)]:
+        keys.append(k[len(keys)].decode())
+    help_text = run("plan", "--help", check=False).stdout
+    for key in keys:
+        assert f"--{key} " in help_text, key
+    assert len(keys) == 23
+
+
+@pytest.mark.parametrize("text,opts", [
+    (b"", ["--fov", "256mm,192mm", "--matrix", "256x192", "--bandwidth", "250Hz/pixel"]),
+    (b"sequence = epi\nmatrix = 96\nfov = 240mm\npartial-fourier = 0.75\n", []),
+    (b"sequence = spiral\nmatrix = 128\n", ["--max-readout", "8ms"]),
+    (b"slice = 0.4mm\nte = 2ms\n", []),  # infeasible: nearest_feasible
+])
+def test_library_json_is_the_commands_json(lib, tmp_path, text, opts):
+    prot = tmp_path / "p.protocol"
+    prot.write_bytes(text)
+    out = tmp_path / "plan.json"
+    p = run("plan", "--protocol", prot, *opts, "--json", out, check=False)
+    assert p.returncode in (0, 3), p.stderr
+    keys = {opts[i][2:]: opts[i + 1] for i in range(0, len(opts), 2)}
+    st, js, _ = _lib_plan_json(lib, text, **keys)
+    assert st == 0, js
+    assert js == out.read_text()
+    assert json.loads(js)["safety_caution"]
+
+
+@pytest.mark.parametrize("key,value", [
+    ("fov", "-1mm"), ("fov", "256"), ("matrix", "0"), ("sequence", "fse"), ("te", "0ms"),
+    ("gmax", "40"), ("shots", "0"), ("bandwidth", "-3kHz"), ("averages", "1.5"),
+])
+def test_library_errors_are_the_commands(lib, key, value):
+    st, why, param = _lib_plan_json(lib, **{key: value})
+    assert st != 0
+    assert param == key
+    line = bad("plan", f"--{key}", value, field=key)
+    assert line == "kweave: error: " + why
