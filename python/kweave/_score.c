@@ -1,9 +1,7 @@
 /* _score.c: kweave.score(ref, test) -> dict, as `kweave score --json`
- * (kw_metrics_compute; the keys nrmse, psnr_db, ssim, None where not
- * finite). */
+ * (kw_metrics_compute, kw_metrics_json: the keys nrmse, psnr_db, ssim, None
+ * where not finite). */
 #include "kwpy.h"
-
-#include <math.h>
 
 #include "kw_metrics.h"
 
@@ -32,11 +30,6 @@ static PyArrayObject *image_in(PyObject *obj, const char *name, kw_array *a)
     return arr;
 }
 
-static PyObject *num_or_none(double v)
-{
-    return isfinite(v) ? PyFloat_FromDouble(v) : Py_NewRef(Py_None);
-}
-
 static PyObject *py_score(PyObject *self, PyObject *args, PyObject *kwargs)
 {
     (void)self;
@@ -62,20 +55,10 @@ static PyObject *py_score(PyObject *self, PyObject *args, PyObject *kwargs)
     Py_DECREF(ta);
     if (st) /* as the command: a shape mismatch names the test, the rest the ref */
         return kwpy_raise(st, st == KW_EFORMAT ? "test" : "ref");
-    PyObject *d = PyDict_New();
-    PyObject *v[3] = {num_or_none(s.nrmse), num_or_none(s.psnr_db), num_or_none(s.ssim)};
-    const char *keys[3] = {"nrmse", "psnr_db", "ssim"};
-    int bad = !d;
-    for (int i = 0; i < 3; i++) {
-        if (!bad && (!v[i] || PyDict_SetItemString(d, keys[i], v[i]) < 0))
-            bad = 1;
-        Py_XDECREF(v[i]);
-    }
-    if (bad) {
-        Py_XDECREF(d);
-        return NULL;
-    }
-    return d;
+    char *json = NULL;
+    if ((st = kw_metrics_json(&s, &json)))
+        return kwpy_raise(st, NULL);
+    return kwpy_json_dict(json);
 }
 
 static PyMethodDef score_methods[] = {
