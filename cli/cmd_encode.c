@@ -172,8 +172,11 @@ static int args_grid(enc_args *a, kw_acquisition_options *o)
         o->fov_m[2 - i] = fov[i];
     if (!a->s_out)
         return kw_cli_fail("out", "missing (e.g. --out ks.npy)");
-    if (strcmp(a->out, "-") == 0)
-        return kw_cli_fail("out", "k-space needs a file name (its sidecar goes beside it)");
+    if (strcmp(a->out, "-") == 0 && !a->s_sidecar)
+        return kw_cli_fail("out", "standard output needs --sidecar FILE.json (the sidecar "
+                                  "cannot go beside it)");
+    if (a->s_sidecar && strcmp(a->sidecar, "-") == 0)
+        return kw_cli_fail("sidecar", "needs a file name");
     if (a->s_snr && !(a->snr > 0 && isfinite(a->snr)))
         return kw_cli_fail("snr", "must be a positive number");
     if (a->s_seed && a->seed < 0)
@@ -242,7 +245,7 @@ static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisi
 {
     kw_status st;
     int ret = KW_EXIT_INTERNAL;
-    char *side = kw_sidecar_path(a->out), *covpath = NULL;
+    char *side = a->s_sidecar ? strdup(a->sidecar) : kw_sidecar_path(a->out), *covpath = NULL;
     cJSON *js = NULL;
     kw_array covout = {0};
     if (!side) {
@@ -251,7 +254,8 @@ static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisi
     }
     /* the coil noise covariance, for prewhitening, is written for multi-coil
      * data (a coil axis); one channel has just noise_sigma */
-    if (in->noisy && in->coils > 0 && !(covpath = enc_derived_path(a->out, "noise_cov.npy"))) {
+    if (in->noisy && in->coils > 0 &&
+        !(covpath = enc_derived_path(enc_sidecar_anchor(a), "noise_cov.npy"))) {
         ret = kw_cli_fail("out", "out of memory");
         goto done;
     }
@@ -278,16 +282,25 @@ static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisi
             goto done;
         }
     }
+    /* To standard output the sidecar goes first, so that a reader at the
+     * other end of a pipe finds it once the array's first bytes arrive. */
+    int to_stdout = strcmp(a->out, "-") == 0;
+    if (to_stdout && (st = kw_json_write(side, js))) {
+        ret = kw_cli_status(st, "sidecar");
+        goto done;
+    }
     if ((st = kw_npy_write(a->out, ks))) {
+        if (to_stdout)
+            remove(side);
         ret = kw_cli_status(st, "out");
         goto done;
     }
-    if ((st = kw_json_write(side, js))) {
+    if (!to_stdout && (st = kw_json_write(side, js))) {
         remove(a->out);
         ret = kw_cli_status(st, "out");
         goto done;
     }
-    enc_summary(in);
+    enc_summary(strcmp(a->out, "-") == 0 ? stderr : stdout, in);
     ret = KW_EXIT_OK;
 done:
     free(side);
@@ -346,7 +359,10 @@ int kw_cmd_encode(int argc, char **argv)
          "shepp-logan | shepp-logan-modified | weave | weave3d"},
         {"matrix", KW_OPT_STRING, &a.matrix, 0, &a.s_mx, "NX[xNY[xNZ]] samples (e.g. 256x256)"},
         {"fov", KW_OPT_STRING, &a.fov, 0, &a.s_fov, "field of view L[,LY[,LZ]] (e.g. 256mm)"},
-        {"out", KW_OPT_STRING, &a.out, 0, &a.s_out, "k-space .npy (complex64); sidecar .json beside it"},
+        {"out", KW_OPT_STRING, &a.out, 0, &a.s_out,
+         "k-space .npy (complex64; - for stdout); sidecar .json beside it"},
+        {"sidecar", KW_OPT_STRING, &a.sidecar, 0, &a.s_sidecar,
+         "sidecar .json (default: beside --out; needed with --out -)"},
         {"truth", KW_OPT_STRING, &a.truth, 0, &a.s_truth,
          "the image at the echo, rasterised at the matrix (.npy float32)"},
         {"snr", KW_OPT_DOUBLE, &a.snr, 0, &a.s_snr,

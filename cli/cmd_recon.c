@@ -6,6 +6,8 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <poll.h>
+#include <errno.h>
 #include <string.h>
 #include <unistd.h>
 
@@ -33,6 +35,7 @@ typedef struct recon_ctx {
     long slice_axis;
     cJSON *sidecar;
     char *scpath;
+    const char *sidecar_opt; /* --sidecar FILE.json, e.g. for --in - */
     kw_array ksp, traj, sens, cov, dcfw, ref, image, gfactor;
     int noncart;
     size_t image_dims[3];
@@ -104,6 +107,8 @@ static int parse(recon_ctx *c, int argc, char **argv)
     kw_recon_opts *o = &c->o;
     const kw_opt table[] = {
         {"in", KW_OPT_STRING, &o->in, 0, NULL, "k-space .npy (- for stdin)"},
+        {"sidecar", KW_OPT_STRING, &c->sidecar_opt, 0, NULL,
+         "the k-space's sidecar .json (default: beside --in; for --in -, give it here)"},
         {"out", KW_OPT_STRING, &o->out, 0, NULL, "image: .npy (float32, or complex64 with --keep-coils) or .png"},
         {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
         {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
@@ -167,13 +172,28 @@ static int parse(recon_ctx *c, int argc, char **argv)
     return -1;
 }
 
-/* The sidecar next to the input, if any. -1: go on. */
+/* The sidecar named by --sidecar, else the one next to the input, if any.
+ * -1: go on. In a pipe (`kweave encode --out - --sidecar ks.json | kweave
+ * recon --in - --sidecar ks.json`) the writer puts the sidecar in place
+ * before the first byte of the array, so the sidecar is read once standard
+ * input has data. */
 static int read_sidecar(recon_ctx *c)
 {
     kw_status st;
-    if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_sidecar_path(c->o.in)) ||
-        access(c->scpath, F_OK) != 0)
+    if (c->sidecar_opt) {
+        if (strcmp(c->o.in, "-") == 0) {
+            struct pollfd pfd = {.fd = STDIN_FILENO, .events = POLLIN};
+            while (poll(&pfd, 1, -1) < 0 && errno == EINTR)
+                ;
+        }
+        if (!(c->scpath = strdup(c->sidecar_opt)))
+            return kw_cli_fail("sidecar", "out of memory");
+        if (access(c->scpath, F_OK) != 0)
+            return kw_cli_fail("sidecar", "%s: %s", c->scpath, strerror(errno));
+    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_sidecar_path(c->o.in)) ||
+               access(c->scpath, F_OK) != 0) {
         return -1;
+    }
     if ((st = kw_json_read(c->scpath, &c->sidecar)))
         return kw_cli_status(st, "sidecar");
     if (!cJSON_IsObject(c->sidecar))

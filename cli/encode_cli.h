@@ -5,6 +5,8 @@
 #ifndef KW_ENCODE_CLI_H
 #define KW_ENCODE_CLI_H
 
+#include <stdio.h>
+
 #include <cjson/cJSON.h>
 
 #include "kw_acquire.h"
@@ -13,6 +15,7 @@ typedef struct enc_args {
     const char *phantom, *matrix, *fov, *out, *truth, *sequence, *bandwidth;
     const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map, *protocol;
     const char *field_grad, *tissue;
+    const char *sidecar; /* --sidecar: where the sidecar goes (needed with --out -) */
     double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
     double slice_thk, slice_gap;
     long seed, coils, coil_order, coil_order_z, coil_rings, slices, slice_points;
@@ -20,7 +23,7 @@ typedef struct enc_args {
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
         s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad, s_coz, s_crings,
-        s_crgap, s_tissue;
+        s_crgap, s_tissue, s_sidecar;
 } enc_args;
 
 /* The arrays read from the files the arguments name, in the forms the
@@ -50,6 +53,10 @@ char *enc_derived_path(const char *out, const char *suffix);
  * `covpath` the noise covariance file written beside it (NULL: none). */
 cJSON *enc_sidecar(const enc_args *a, const enc_files *f, const kw_acquisition_info *in,
                    const char *covpath);
-void enc_summary(const kw_acquisition_info *in);
+void enc_summary(FILE *f, const kw_acquisition_info *in);
+
+/*! enc_sidecar_anchor(): the path the sidecar's file names are relative to:
+ * the sidecar itself (--sidecar), else the k-space file beside it. */
+const char *enc_sidecar_anchor(const enc_args *a);
 
 #endif

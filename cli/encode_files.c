@@ -38,11 +38,14 @@ char *enc_rel_to_sidecar(const char *path, const char *out)
     return r;
 }
 
-/* "<stem>_<suffix>" beside an output "<stem>.npy". malloc'd. */
+/* "<stem>_<suffix>" beside an output "<stem>.npy" (or a sidecar
+ * "<stem>.json"). malloc'd. */
 char *enc_derived_path(const char *out, const char *suffix)
 {
     size_t n = strlen(out);
-    size_t stem = (n > 4 && strcmp(out + n - 4, ".npy") == 0) ? n - 4 : n;
+    size_t stem = (n > 4 && strcmp(out + n - 4, ".npy") == 0)    ? n - 4
+                  : (n > 5 && strcmp(out + n - 5, ".json") == 0) ? n - 5
+                                                                 : n;
     char *p = malloc(stem + strlen(suffix) + 2);
     if (p) {
         memcpy(p, out, stem);

@@ -41,11 +41,11 @@ static int side_slot(cJSON *js, const char *slot, void *user)
         cJSON_AddStringToObject(js, "source", "--tissue");
     } else if (strcmp(slot, "tissue_file") == 0) {
         if (a->s_tissue)
-            add_file(js, "tissue_file", 1, a->tissue, a->out);
+            add_file(js, "tissue_file", 1, a->tissue, enc_sidecar_anchor(a));
     } else if (strcmp(slot, "trajectory") == 0) {
-        add_file(js, "trajectory", a->s_traj, a->trajectory, a->out);
+        add_file(js, "trajectory", a->s_traj, a->trajectory, enc_sidecar_anchor(a));
     } else if (strcmp(slot, "sens") == 0) {
-        add_file(js, "sens", a->s_sout || a->s_sens, a->s_sout ? a->sens_out : a->sens, a->out);
+        add_file(js, "sens", a->s_sout || a->s_sens, a->s_sout ? a->sens_out : a->sens, enc_sidecar_anchor(a));
     } else if (strcmp(slot, "noise_cov") == 0) {
         const char *slash = c->covpath ? strrchr(c->covpath, '/') : NULL;
         if (c->covpath)
@@ -53,15 +53,15 @@ static int side_slot(cJSON *js, const char *slot, void *user)
         else
             cJSON_AddNullToObject(js, "noise_cov");
     } else if (strcmp(slot, "pattern") == 0) {
-        add_file(js, "pattern", a->s_pat, a->pattern, a->out);
+        add_file(js, "pattern", a->s_pat, a->pattern, enc_sidecar_anchor(a));
     } else if (strcmp(slot, "times") == 0) {
-        add_file(js, "times", a->s_times, a->times, a->out);
+        add_file(js, "times", a->s_times, a->times, enc_sidecar_anchor(a));
     } else if (strcmp(slot, "protocol_file") == 0) {
-        add_file(js, "file", 1, a->protocol, a->out);
+        add_file(js, "file", 1, a->protocol, enc_sidecar_anchor(a));
         if (c->f->plan_sequence)
             cJSON_AddStringToObject(js, "plan_sequence", c->f->plan_sequence);
     } else if (strcmp(slot, "field_map") == 0) {
-        add_file(js, "field_map", 1, a->field_map, a->out);
+        add_file(js, "field_map", 1, a->field_map, enc_sidecar_anchor(a));
     } else {
         return 0;
     }
@@ -75,27 +75,32 @@ cJSON *enc_sidecar(const enc_args *a, const enc_files *f, const kw_acquisition_i
     return kw_acquisition_json_build(in, side_slot, &c);
 }
 
-void enc_summary(const kw_acquisition_info *in)
+const char *enc_sidecar_anchor(const enc_args *a)
+{
+    return a->s_sidecar ? a->sidecar : a->out;
+}
+
+void enc_summary(FILE *f, const kw_acquisition_info *in)
 {
     if (kw_cli_quiet)
         return;
     const long L = in->coil_order, lz = in->coil_order_z;
     if (in->coils > 0) {
         if (in->ndim == 3)
-            printf("coil sensitivities: 3-D trigonometric series of orders %ld (x, y) and %ld (z) "
+            fprintf(f, "coil sensitivities: 3-D trigonometric series of orders %ld (x, y) and %ld (z) "
                    "(%ld terms), fit residual (relative RMS over the object):\n", L, lz,
                    (2 * L + 1) * (2 * L + 1) * (2 * lz + 1));
         else
-            printf("coil sensitivities: trigonometric series of order %ld (%ld terms), fit residual "
+            fprintf(f, "coil sensitivities: trigonometric series of order %ld (%ld terms), fit residual "
                    "(relative RMS over the object):\n", L, (2 * L + 1) * (2 * L + 1));
         for (int c = 0; c < in->coils; c++)
-            printf("  coil %d: %.3g%%\n", c, 100.0 * in->fit_residual[c]);
+            fprintf(f, "  coil %d: %.3g%%\n", c, 100.0 * in->fit_residual[c]);
     }
     double bw = in->bandwidth_hz, nx = (double)in->dims[2];
     if (bw > 0) {
-        printf("readout along x: dwell %.4g us, duration %.4g ms, %.4g Hz/pixel; "
+        fprintf(f, "readout along x: dwell %.4g us, duration %.4g ms, %.4g Hz/pixel; "
                "fat shift %.3g pixels\n", 1e6 / bw, in->readout_duration_s * 1e3, bw / nx,
                in->fat_shift_hz / (bw / nx));
-        printf("%s\n", KW_SAFETY_CAUTION);
+        fprintf(f, "%s\n", KW_SAFETY_CAUTION);
     }
 }
