@@ -403,6 +403,9 @@ static int run(recon_ctx *c)
     kw_cli_progress_done();
     if (st)
         return kw_recon_cli_error(st, c->mname);
+    const kw_recon_report *rep = kw_recon_get_report(c->r);
+    if (rep->advice) /* the method ignores how the data were sampled: say what suits them */
+        fprintf(stderr, "kweave: warning: %s\n", rep->advice);
     return -1;
 }
 

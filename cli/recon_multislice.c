@@ -386,6 +386,8 @@ static int slices(ms_ctx *m, int kind)
         /* the slice count is the progress shown */
         if ((st = kw_recon_execute(m->r, m->kbuf, m->ibuf, NULL, NULL, NULL)))
             return kw_recon_cli_error(st, m->mname);
+        if (s == 0 && kw_recon_get_report(m->r)->advice) /* once, from the first slice */
+            fprintf(stderr, "kweave: warning: %s\n", kw_recon_get_report(m->r)->advice);
         if (s == 0)
             merge_keys(m, kind);
         if (m->o->out) {

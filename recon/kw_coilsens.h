@@ -21,7 +21,9 @@ typedef struct kw_cart_sampling {
     size_t acs_lo[3];  /* the fully sampled block around k = 0 ...      */
     size_t acs_n[3];   /* ... its first index and length per axis (0: none) */
     size_t lo[3], hi[3]; /* first and last sampled index per axis */
-    int partial[3];    /* 1: the sampled extent is asymmetric about k = 0 */
+    int partial[3];    /* 1: the sampled extent is asymmetric about k = 0 (by
+                          more than a lattice step; irregular sampling: by at
+                          least 1/16 of the axis) */
     int uniform;       /* 1: samples = lattice within the extent + ACS block */
     double fraction;   /* sampled points / all points */
 } kw_cart_sampling;

@@ -57,7 +57,9 @@ typedef struct kw_recon_options {
     size_t struct_size;  /* set by kw_recon_options_init() */
     const char *method;  /* a name of kw_recon_methods(); NULL: fft (Cartesian)
                             or grid (non-Cartesian) */
-    const char *combine; /* "rss" (NULL: rss), "optimal", "adaptive" */
+    const char *combine; /* "rss", "optimal", "adaptive"; NULL: "optimal" when
+                            coil maps are given (they are the best weights
+                            there are), else "rss" */
     double lambda;       /* regularisation, relative; NaN: the method's default */
     int iterations;      /* 0: the method's default */
     double stop;         /* relative change to stop at; NaN: default */
@@ -140,6 +142,11 @@ typedef struct kw_recon_report {
     const char *gfactor_method;   /* pseudo-replica, when made */
     int gfactor_replicas;
     double gfactor_mean, gfactor_max; /* over the pixels where the map is > 0 */
+    /* Cartesian sampling, continued */
+    double effective_acceleration; /* points / sampled points (1 / sampled_fraction) */
+    const char *advice; /* when the method ignores how the data were sampled
+                           (fft on undersampled data): one sentence naming
+                           the methods that suit the sampling; else NULL */
 } kw_recon_report;
 
 typedef struct kw_recon_method_info {

@@ -151,6 +151,10 @@ static kw_status create(kw_recon *r, const kw_recon_geometry *g, const kw_recon_
         return st;
     if ((st = check_geometry(r, g)))
         return st;
+    /* Maps given for multi-coil Cartesian data are the best combination
+     * weights there are: the default combination uses them. */
+    if (!r->o.combine && g->sens && !r->noncart && r->nc > 1)
+        r->o.combine = "optimal";
     r->g = *g;
     r->g.dims = r->kdims;
     if (g->sampling) {
@@ -258,6 +262,8 @@ kw_status kw_recon_execute(kw_recon *r, const kw_cfloat *kspace, void *image, fl
     job.progress = progress;
     job.progress_user = user;
     kw_status st = r->m->run(&job);
+    if (!st)
+        kw_recon_advise(r);
     if (!st) {
         size_t n = 1;
         for (int i = 0; i < r->out_ndim; i++)

@@ -4,6 +4,7 @@
  * final combination into the job's image. */
 #include <math.h>
 #include <stdlib.h>
+#include <stdio.h>
 #include <string.h>
 
 #include "kw_combine.h"
@@ -40,8 +41,33 @@ static void report_sampling(kw_recon_report *rep, const kw_cart *c)
     }
     rep->acceleration = c->smp.accel[0] * c->smp.accel[1] * c->smp.accel[2];
     rep->sampled_fraction = c->smp.fraction;
+    rep->effective_acceleration = 1.0 / c->smp.fraction;
     rep->uniform = c->smp.uniform;
     rep->partial_fourier = c->smp.partial[0] || c->smp.partial[1] || c->smp.partial[2];
+}
+
+void kw_recon_advise(kw_recon *r)
+{
+    kw_recon_report *p = &r->rep;
+    p->advice = NULL;
+    if (r->noncart || !p->has_sampling || strcmp(r->m->info->name, "fft") != 0 ||
+        p->sampled_fraction >= 1)
+        return;
+    if (p->uniform && p->acceleration > 1)
+        snprintf(r->advice, sizeof r->advice,
+                 "fft zero-fills the lines this uniformly undersampled k-space lacks (R = %d): "
+                 "sense, grappa or cg-sense unfold it", p->acceleration);
+    else if (!p->uniform)
+        snprintf(r->advice, sizeof r->advice,
+                 "fft zero-fills this irregularly undersampled k-space (effective R = %.2f): "
+                 "cg-sense, cs-wavelet or cs-tv suit its sampling", p->effective_acceleration);
+    else if (p->partial_fourier)
+        snprintf(r->advice, sizeof r->advice,
+                 "fft zero-fills the part of k-space a partial Fourier acquisition leaves out: "
+                 "homodyne or pocs restore it");
+    else
+        return;
+    p->advice = r->advice;
 }
 
 kw_status kw_cart_setup(kw_rjob *job, kw_cart *c)
@@ -91,7 +117,8 @@ kw_status kw_cart_require_lattice(const kw_cart *c, const char *method)
 {
     KW_FAIL_PARAM(!c->smp.uniform, KW_EINVAL, "acceleration",
                   "%s needs uniform undersampling (a regular lattice of lines "
-                  "plus an optional calibration block); these samples are irregular", method);
+                  "plus an optional calibration block); these samples are irregular: "
+                  "cg-sense, cs-wavelet or cs-tv take any sampling", method);
     KW_FAIL_PARAM(c->smp.partial[0] || c->smp.partial[1] || c->smp.partial[2], KW_ENOTSUP,
                   "acceleration", "partial Fourier combined with %s is not supported", method);
     return KW_OK;

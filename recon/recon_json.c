@@ -1,6 +1,7 @@
 /* recon_json.c: the report of a reconstruction's last execute as JSON
  * (kw_recon_report_json(); the builder of `kweave recon --json`,
  * recon_json.h). */
+#include <math.h>
 #include <string.h>
 
 #include "json_build.h"
@@ -28,10 +29,16 @@ static void json_sampling(cJSON *j, const kw_recon_report *p)
     }
     kw_json_add_vec(smp, "acceleration_axes", acc, p->sdim);
     kw_json_add_vec(smp, "acs_axes", acs, p->sdim);
-    cJSON_AddNumberToObject(smp, "acceleration", p->acceleration);
+    /* a lattice has its R; irregular sampling its effective R (to 0.01) */
+    cJSON_AddNumberToObject(smp, "acceleration",
+                            p->uniform ? (double)p->acceleration
+                                       : round(p->effective_acceleration * 100) / 100);
     cJSON_AddNumberToObject(smp, "sampled_fraction", p->sampled_fraction);
+    cJSON_AddNumberToObject(smp, "effective_acceleration", p->effective_acceleration);
     cJSON_AddBoolToObject(smp, "uniform", p->uniform);
     cJSON_AddBoolToObject(smp, "partial_fourier", p->partial_fourier);
+    if (p->advice)
+        cJSON_AddStringToObject(smp, "advice", p->advice);
 }
 
 static void json_solver(cJSON *j, const kw_recon_report *p)

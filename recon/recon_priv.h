@@ -45,9 +45,14 @@ struct kw_recon {
     kw_rssrecon *rss;
     /* after execute */
     kw_recon_report rep;
+    char advice[320];     /* rep.advice points here */
     kw_cfloat *est_sens;  /* maps estimated by the last execute (nc x npix) */
     double *log;          /* 2 x iterations: objective then change */
 };
+
+/*! kw_recon_advise(): after a run, rep.advice for a method that ignores how
+ * the data were sampled (recon_cart.c). */
+void kw_recon_advise(kw_recon *r);
 
 /* One reconstruction of one k-space array (the main run or a replica). */
 struct kw_rjob {
