@@ -3,6 +3,13 @@ byte-identical outputs to those recorded before the library move (issue 14):
 tests/golden/SHA256SUMS, made by tests/golden/examples.sh with the binary of
 commit 224f8a2 and the FFTW wisdom in tests/golden/wisdom.
 
+Re-recorded once since, for issue 16's changes of what the command does (32
+of 242 files, every other byte the same): the recon reports gained
+sampling.effective_acceleration (and sampling.advice with a warning line in
+the .err files where fft meets undersampled data), and data whose sidecar
+names coil maps are combined with them by default (img.npy, img.png,
+grg.npy, gf.npy: root-sum-of-squares before).
+
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
 promised only for shared wisdom on the same kind of processor
