@@ -27,6 +27,7 @@ typedef struct kw_recon_opts {
     long replicas;        /* pseudo-replicas for --gfactor (0: default) */
     long seed;
     int keep_coils;
+    int complex_image; /* --complex */
 } kw_recon_opts;
 
 /*! kw_recon_sidecar_rel(): a file name from the sidecar, relative to the

@@ -36,6 +36,7 @@ void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro)
     ro->replicas = (int)o->replicas;
     ro->seed = o->seed;
     ro->keep_coils = o->keep_coils;
+    ro->complex_image = o->complex_image;
     ro->want_gfactor = o->gfactor != NULL;
     ro->estimate_sens = o->sens_out != NULL;
     ro->dcf = KW_RECON_DCF_AUTO;
@@ -94,7 +95,7 @@ static const struct {
     const char *param, *option;
 } param_map[] = {
     {"lambda", "lambda"},         {"kernel", "kernel"},       {"sens", "sens"},
-    {"noise_cov", "noise-cov"},   {"keep_coils", "keep-coils"}, {"dcf", "dcf"},
+    {"noise_cov", "noise-cov"},   {"keep_coils", "keep-coils"}, {"complex_image", "complex"}, {"dcf", "dcf"},
     {"image_dims", "sidecar"},    {"kspace", "in"},           {"trajectory", "trajectory"},
     {"acceleration", "acceleration"}, {"acs_lines", "acs_lines"}, {"gfactor", "gfactor"},
     {"combine", "combine"},       {"iterations", "iterations"}, {"stop", "stop"},

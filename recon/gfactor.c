@@ -119,6 +119,7 @@ static kw_status run_replicas(kw_recon *r, const kw_cfloat *k0, const double com
     kw_recon_options ro = r->o;
     ro.want_gfactor = 0;
     ro.keep_coils = 0;
+    ro.complex_image = 0;
     ro.estimate_sens = 0;
     kw_rng rng;
     kw_rng_seed(&rng, (uint64_t)r->o.seed);

@@ -32,7 +32,7 @@
  * at fault in these structs' words: "method", "combine", "lambda", "kernel",
  * "iterations", "stop", "tolerance", "oversampling", "replicas", "dcf",
  * "sens", "noise_cov", "trajectory", "kspace", "acceleration", "acs_lines",
- * "keep_coils", "gfactor", "image_dims".
+ * "keep_coils", "complex_image", "gfactor", "image_dims".
  */
 #ifndef KW_RECON_H
 #define KW_RECON_H
@@ -74,6 +74,11 @@ typedef struct kw_recon_options {
     int want_gfactor;    /* execute fills the g-factor map */
     int estimate_sens;   /* Cartesian: estimate maps (Walsh) even if the method
                             does not need them; see kw_recon_estimated_sens() */
+    int complex_image;   /* the image complex (kw_cfloat), its phase kept: the
+                            one image of sense, cg-sense and cs-*, or the coil
+                            combination of fft, homodyne, pocs, grappa and grid
+                            with optimal or adaptive combination (or one coil);
+                            refused with rss (no phase) and with keep_coils */
 } kw_recon_options;
 
 /* What the caller knows of the Cartesian sampling (e.g. from a sidecar); the

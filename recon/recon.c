@@ -90,6 +90,8 @@ static kw_status check_options(const kw_recon_options *o)
     KW_FAIL_PARAM(o->replicas != 0 && (o->replicas < 2 || o->replicas > 10000), KW_EINVAL,
                   "replicas", "must be 2 .. 10000");
     KW_FAIL_PARAM(o->seed < 0, KW_EINVAL, "seed", "must be >= 0");
+    KW_FAIL_PARAM(o->complex_image && o->keep_coils, KW_EINVAL, "complex_image",
+                  "not with keep_coils, which already gives the complex coil images");
     KW_FAIL_PARAM((int)o->dcf < 0 || o->dcf > KW_RECON_DCF_GIVEN, KW_EINVAL, "dcf",
                   "unknown density compensation %d", (int)o->dcf);
     return KW_OK;
@@ -134,7 +136,7 @@ static void output_shape(kw_recon *r)
         r->sp_ndim = r->nc_ndim;
         memcpy(r->sp_dims, r->nc_dims, sizeof r->sp_dims);
     }
-    r->out_complex = r->o.keep_coils;
+    r->out_complex = r->o.keep_coils || r->o.complex_image;
     int coils = r->o.keep_coils && r->m->coil_images;
     r->out_ndim = r->sp_ndim + coils;
     if (coils)

@@ -155,7 +155,7 @@ kw_status kw_cart_image_complex(kw_rjob *job, const kw_cart *c, const float comp
     int nd;
     kw_cart_spatial_dims(c, dims, &nd);
     kw_status st;
-    if (job->opt->keep_coils) {
+    if (job->opt->keep_coils || job->opt->complex_image) {
         if ((st = kw_array_alloc(&job->image, KW_C64, nd, dims)))
             return st;
         memcpy(job->image.data, img, c->npix * sizeof *img);
@@ -186,8 +186,15 @@ kw_status kw_cart_finish(kw_rjob *job, kw_cart *c, const float complex *coil)
     }
     const char *mode = job->opt->combine ? job->opt->combine : "rss";
     job->rep->combine = mode;
-    if ((st = kw_array_alloc(&job->image, KW_F32, nd, dims + 1)))
+    int cplx = job->opt->complex_image;
+    KW_FAIL_PARAM(cplx && c->nc > 1 && strcmp(mode, "rss") == 0, KW_EINVAL, "complex_image",
+                  "root-sum-of-squares has no phase: combine optimal or adaptive");
+    if ((st = kw_array_alloc(&job->image, cplx ? KW_C64 : KW_F32, nd, dims + 1)))
         return st;
+    if (cplx && c->nc == 1) {
+        memcpy(job->image.data, coil, c->npix * sizeof *coil);
+        return KW_OK;
+    }
     float *out = job->image.data;
     if (strcmp(mode, "rss") == 0 || c->nc == 1) {
         kw_combine_rss(coil, c->nc, c->npix, out);
@@ -203,7 +210,9 @@ kw_status kw_cart_finish(kw_rjob *job, kw_cart *c, const float complex *coil)
         /* 7 x 7 neighbourhood: common practice, no source */
         st = kw_combine_adaptive(coil, c->nc, c->d, 3, tmp, NULL);
     }
-    if (!st)
+    if (!st && cplx)
+        memcpy(job->image.data, tmp, c->npix * sizeof *tmp);
+    else if (!st)
         for (size_t p = 0; p < c->npix; p++)
             out[p] = cabsf(tmp[p]);
     kw_free(tmp);

@@ -30,7 +30,8 @@ kw_status kw_recon_run_fft(kw_rjob *job)
     kw_cart c;
     kw_status st = kw_cart_setup(job, &c);
     const char *comb = job->opt->combine;
-    if (!st && !job->opt->keep_coils && (!comb || strcmp(comb, "rss") == 0)) {
+    if (!st && !job->opt->keep_coils && !job->opt->complex_image &&
+        (!comb || strcmp(comb, "rss") == 0)) {
         size_t dims[3];
         int nd;
         kw_cart_spatial_dims(&c, dims, &nd);

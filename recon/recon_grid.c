@@ -189,11 +189,11 @@ kw_status kw_nc_image(kw_rjob *job, const float complex *x)
     size_t np = 1;
     for (int d = 0; d < r->nc_ndim; d++)
         np *= r->nc_dims[d];
-    kw_status st = kw_array_alloc(&job->image, job->opt->keep_coils ? KW_C64 : KW_F32,
-                                  r->nc_ndim, r->nc_dims);
+    int cplx = job->opt->keep_coils || job->opt->complex_image;
+    kw_status st = kw_array_alloc(&job->image, cplx ? KW_C64 : KW_F32, r->nc_ndim, r->nc_dims);
     if (st)
         return st;
-    if (job->opt->keep_coils) {
+    if (cplx) {
         memcpy(job->image.data, x, np * sizeof *x);
     } else {
         float *o = job->image.data;
@@ -269,7 +269,15 @@ kw_status kw_recon_run_grid(kw_rjob *job)
     if ((st = kw_nufft_adjoint(p, y, img, nc)))
         goto done;
     report_nufft(job->rep, p);
-    if (job->opt->keep_coils) {
+    if (job->opt->complex_image && nc == 1) {
+        if ((st = kw_array_alloc(&job->image, KW_C64, ndim, dims)))
+            goto done;
+        memcpy(job->image.data, img, np * sizeof *img);
+    } else if (job->opt->complex_image) {
+        st = kw_set_error_param(KW_ENOTSUP, "complex_image",
+                                "grid combines its coils by magnitude; cg-sense gives the complex "
+                                "image");
+    } else if (job->opt->keep_coils) {
         size_t sh[4] = {nc, dims[0], dims[1], dims[2]};
         if ((st = kw_array_alloc(&job->image, KW_C64, ndim + 1, sh)))
             goto done;
