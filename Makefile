@@ -213,7 +213,7 @@ clean:
 FUZZ_CC ?= clang
 FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
 FUZZ_DEP_SRC := libencode/base.c libencode/json_build.c cli/npy.c cli/outfile.c cli/jsonio.c libencode/units.c cli/cli.c \
-                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c) $(FUZZ_EXTRA_SRC)
+                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c libencode/protofile.c libencode/plan_input.c libencode/plan_json.c) $(FUZZ_EXTRA_SRC)
 FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
               -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \
               -Ilibencode -Irecon -Icli $(PKG_CFLAGS)

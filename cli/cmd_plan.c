@@ -10,22 +10,11 @@
 #include "jsonio.h"
 #include "kw_protocol.h"
 #include "kw_sequence.h"
+#include "plan_input_int.h"
 #include "plot.h"
 #include "protofile.h"
 
-/* ---- protocol keys (shared by options and protocol files) ---------------- */
-
-typedef struct plan_in {
-    kw_protocol p;
-    int fov_n, matrix_n;   /* how many axes --fov and --matrix gave */
-    double fov[3];
-    int matrix[3];
-    /* bandwidth: [0] across the FOV, [1] per pixel; set[] per source */
-    double bw[2];
-    int bw_set[2];
-    char seen_file[32];   /* keys seen in the protocol file (duplicates are errors) */
-} plan_in;
-
+/* The option table's slots, in the order of kw_protocol_keys(). */
 typedef enum key_id {
     K_SEQUENCE, K_FOV, K_MATRIX, K_BANDWIDTH, K_B0, K_GMAX, K_SLEW, K_RASTER,
     K_TEMPERATURE, K_TE, K_TR, K_RF_DURATION, K_TBW, K_SLICE, K_SPOILER, K_CRUSHER,
@@ -33,217 +22,41 @@ typedef enum key_id {
     K_AVERAGES, K_COUNT
 } key_id;
 
-static const char *const key_names[K_COUNT] = {
-    "sequence", "fov", "matrix", "bandwidth", "b0", "gmax", "slew", "raster",
-    "temperature", "te", "tr", "rf-duration", "tbw", "slice", "spoiler", "crusher",
-    "t2star", "shots", "partial-fourier", "interleaves", "max-readout", "spokes",
-    "averages"};
-
-static const char *const seq_names[] = {"gre", "se", "epi", "radial", "spiral"};
-
-static int key_lookup(const char *key)
+/* A protocol file into `in` (the file's bytes through the library's parser). */
+static kw_status read_protocol(kw_protocol_input *in, const char *path)
 {
-    for (int k = 0; k < K_COUNT; k++)
-        if (strcmp(key_names[k], key) == 0)
-            return k;
+    char *buf;
+    size_t n;
+    kw_status st = kw_protofile_load(path, &buf, &n);
+    if (st)
+        return st;
+    st = kw_protocol_input_parse(in, buf, n);
+    free(buf);
+    return st;
+}
+
+/* The snr factor of the reference protocol file; an exit code or -1. */
+static int reference_factor(const char *path, double *factor)
+{
+    kw_protocol_input *ref = NULL;
+    kw_protocol p;
+    kw_plan_report *rr = NULL;
+    kw_status st = kw_protocol_input_create(&ref);
+    if (!st)
+        st = read_protocol(ref, path);
+    if (!st)
+        st = kw_protocol_input_finish(ref, &p);
+    kw_protocol_input_destroy(ref);
+    if (!st)
+        st = kw_plan_create(&rr, &p);
+    if (st)
+        return kw_cli_status(st, "reference");
+    *factor = rr->snr_factor;
+    kw_plan_destroy(rr);
     return -1;
 }
 
-static kw_status parse_unit(const char *key, const char *val, kw_unit_kind kind, double *v)
-{
-    char why[160];
-    if (kw_unit_parse(val, kind, v, why, sizeof why))
-        return kw_set_error(KW_EINVAL, "%s: %s", key, why);
-    return KW_OK;
-}
-
-static kw_status parse_count(const char *key, const char *val, long lo, long hi, int *out)
-{
-    char *end;
-    long v = strtol(val, &end, 10);
-    while (*end == ' ' || *end == '\t')
-        end++;
-    KW_FAIL_IF(end == val || *end, KW_EINVAL, "%s: '%s' is not a whole number", key, val);
-    KW_FAIL_IF(v < lo || v > hi, KW_EINVAL, "%s: %ld is outside %ld to %ld", key, v, lo, hi);
-    *out = (int)v;
-    return KW_OK;
-}
-
-/* "256mm" or "256mm,192mm" or "256mm,192mm,64mm". */
-static kw_status parse_fov(const char *val, double *fov, int *n)
-{
-    char why[200];
-    *n = kw_unit_parse_list(val, KW_UNIT_LENGTH, fov, 3, why, sizeof why);
-    KW_FAIL_IF(*n < 0, KW_EINVAL, "fov: %s", why);
-    for (int i = 0; i < *n; i++)
-        KW_FAIL_IF(!(fov[i] > 0), KW_EINVAL, "fov: must be positive (got %g m)", fov[i]);
-    return KW_OK;
-}
-
-/* "256" or "256x192" or "256x192x64". */
-static kw_status parse_matrix(const char *val, int *m, int *n)
-{
-    *n = 0;
-    const char *s = val;
-    for (;;) {
-        KW_FAIL_IF(*n >= 3, KW_EINVAL, "matrix: at most three sizes nx x ny x nz");
-        while (*s == ' ')
-            s++;
-        char *end;
-        long v = strtol(s, &end, 10);
-        KW_FAIL_IF(end == s, KW_EINVAL, "matrix: '%s' is not NX, NXxNY or NXxNYxNZ", val);
-        KW_FAIL_IF(v < 1 || v > 8192, KW_EINVAL, "matrix: %ld is outside 1 to 8192", v);
-        m[(*n)++] = (int)v;
-        s = end;
-        while (*s == ' ')
-            s++;
-        if (!*s)
-            break;
-        KW_FAIL_IF(*s != 'x' && *s != 'X', KW_EINVAL,
-                   "matrix: '%s' is not NX, NXxNY or NXxNYxNZ", val);
-        s++;
-    }
-    return KW_OK;
-}
-
-static kw_status set_bandwidth(plan_in *in, const char *val)
-{
-    double hz;
-    int pp;
-    char why[160];
-    if (kw_unit_parse_bandwidth(val, &hz, &pp, why, sizeof why))
-        return kw_set_error(KW_EINVAL, "bandwidth: %s", why);
-    KW_FAIL_IF(!(hz > 0), KW_EINVAL, "bandwidth: must be positive (got '%s')", val);
-    KW_FAIL_IF(in->bw_set[pp], KW_EINVAL, "bandwidth: given more than once %s",
-               pp ? "per pixel" : "across the FOV");
-    in->bw[pp] = hz;
-    in->bw_set[pp] = 1;
-    return KW_OK;
-}
-
-static kw_status set_key(plan_in *in, int k, const char *val)
-{
-    kw_protocol *p = &in->p;
-    const char *key = key_names[k];
-    switch ((key_id)k) {
-    case K_SEQUENCE:
-        for (int s = 0; s < 5; s++)
-            if (strcmp(val, seq_names[s]) == 0) {
-                p->sequence = (kw_sequence_kind)s;
-                return KW_OK;
-            }
-        return kw_set_error(KW_EINVAL, "sequence: '%s' is not gre, se, epi, radial or spiral",
-                            val);
-    case K_FOV: return parse_fov(val, in->fov, &in->fov_n);
-    case K_MATRIX: return parse_matrix(val, in->matrix, &in->matrix_n);
-    case K_BANDWIDTH: return set_bandwidth(in, val);
-    case K_B0: return parse_unit(key, val, KW_UNIT_FIELD, &p->b0_t);
-    case K_GMAX: return parse_unit(key, val, KW_UNIT_GRADIENT, &p->gmax_T_per_m);
-    case K_SLEW: return parse_unit(key, val, KW_UNIT_SLEW, &p->slew_T_per_m_per_s);
-    case K_RASTER: return parse_unit(key, val, KW_UNIT_TIME, &p->raster_s);
-    case K_TEMPERATURE: return parse_unit(key, val, KW_UNIT_TEMPERATURE, &p->temperature_k);
-    case K_TE: {
-        kw_status st = parse_unit(key, val, KW_UNIT_TIME, &p->te_s);
-        KW_FAIL_IF(!st && !(p->te_s > 0), KW_EINVAL, "te: must be positive (got '%s')", val);
-        return st;
-    }
-    case K_TR: {
-        kw_status st = parse_unit(key, val, KW_UNIT_TIME, &p->tr_s);
-        KW_FAIL_IF(!st && !(p->tr_s > 0), KW_EINVAL, "tr: must be positive (got '%s')", val);
-        return st;
-    }
-    case K_RF_DURATION: return parse_unit(key, val, KW_UNIT_TIME, &p->rf_duration_s);
-    case K_TBW: return parse_unit(key, val, KW_UNIT_NONE, &p->tbw);
-    case K_SLICE: return parse_unit(key, val, KW_UNIT_LENGTH, &p->slice_m);
-    case K_SPOILER: return parse_unit(key, val, KW_UNIT_NONE, &p->spoiler_cycles);
-    case K_CRUSHER: return parse_unit(key, val, KW_UNIT_NONE, &p->crusher_cycles);
-    case K_T2STAR: {
-        kw_status st = parse_unit(key, val, KW_UNIT_TIME, &p->t2star_s);
-        KW_FAIL_IF(!st && !(p->t2star_s > 0), KW_EINVAL, "t2star: must be positive (got '%s')",
-                   val);
-        return st;
-    }
-    case K_SHOTS: return parse_count(key, val, 1, 8192, &p->shots);
-    case K_PARTIAL_FOURIER: return parse_unit(key, val, KW_UNIT_NONE, &p->partial_fourier);
-    case K_INTERLEAVES: return parse_count(key, val, 1, 4096, &p->interleaves);
-    case K_MAX_READOUT: return parse_unit(key, val, KW_UNIT_TIME, &p->max_readout_s);
-    case K_SPOKES: return parse_count(key, val, 1, 1000000, &p->spokes);
-    case K_AVERAGES: return parse_count(key, val, 1, 100000, &p->averages);
-    case K_COUNT: break;
-    }
-    return kw_set_error(KW_EINTERNAL, "%s: no handler", key);
-}
-
-static kw_status file_key(void *user, const char *key, const char *value, int line)
-{
-    (void)line;
-    plan_in *in = user;
-    int k = key_lookup(key);
-    KW_FAIL_IF(k < 0, KW_EINVAL, "%s: unknown key", key);
-    /* bandwidth may appear once in each form; every other key once. */
-    KW_FAIL_IF(k != K_BANDWIDTH && in->seen_file[k], KW_EINVAL, "%s: given more than once",
-               key);
-    in->seen_file[k] = 1;
-    return set_key(in, k, value);
-}
-
-/* Turn the collected fov/matrix/bandwidth into the protocol. */
-static kw_status finish_protocol(plan_in *in)
-{
-    kw_protocol *p = &in->p;
-    if (in->matrix_n) {
-        p->ndim = in->matrix_n == 3 ? 3 : 2;
-        p->matrix[0] = in->matrix[0];
-        p->matrix[1] = in->matrix_n >= 2 ? in->matrix[1] : in->matrix[0];
-        p->matrix[2] = in->matrix_n == 3 ? in->matrix[2] : 1;
-    }
-    if (in->fov_n) {
-        KW_FAIL_IF(in->fov_n == 3 && p->ndim != 3, KW_EINVAL,
-                   "fov: a z FOV needs a 3-D matrix NXxNYxNZ");
-        KW_FAIL_IF(in->fov_n == 2 && p->ndim == 3, KW_EINVAL,
-                   "fov: a 3-D matrix needs x,y,z FOVs (or one for all)");
-        p->fov_m[0] = in->fov[0];
-        p->fov_m[1] = in->fov_n >= 2 ? in->fov[1] : in->fov[0];
-        p->fov_m[2] = in->fov_n == 3 ? in->fov[2] : in->fov[0];
-    }
-    const double nx = p->matrix[0];
-    if (in->bw_set[0] && in->bw_set[1]) {
-        double a = in->bw[0], b = in->bw[1] * nx;
-        KW_FAIL_IF(fabs(a - b) > 1e-9 * a, KW_EINVAL,
-                   "bandwidth: %g Hz across the FOV contradicts %g Hz/pixel x %d pixels = %g Hz",
-                   a, in->bw[1], p->matrix[0], b);
-        p->bandwidth_hz = a;
-    } else if (in->bw_set[0]) {
-        p->bandwidth_hz = in->bw[0];
-    } else if (in->bw_set[1]) {
-        p->bandwidth_hz = in->bw[1] * nx;
-    } else {
-        p->bandwidth_hz = 250.0 * nx; /* default 250 Hz/pixel */
-    }
-    return kw_protocol_check(p);
-}
-
 /* ---- report ----------------------------------------------------------------- */
-
-static void add_num_or_null(cJSON *j, const char *key, double v)
-{
-    if (isfinite(v))
-        cJSON_AddNumberToObject(j, key, v);
-    else
-        cJSON_AddNullToObject(j, key);
-}
-
-static void add_lobe_json(cJSON *lobes, const char *name, const kw_trapezoid *t)
-{
-    if (kw_trapezoid_duration(t) <= 0)
-        return;
-    cJSON *o = cJSON_AddObjectToObject(lobes, name);
-    cJSON_AddNumberToObject(o, "amplitude_T_per_m", t->amplitude_T_per_m);
-    cJSON_AddNumberToObject(o, "ramp_s", t->ramp_s);
-    cJSON_AddNumberToObject(o, "flat_s", t->flat_s);
-    cJSON_AddNumberToObject(o, "duration_s", kw_trapezoid_duration(t));
-    cJSON_AddNumberToObject(o, "area_T_s_per_m", kw_trapezoid_area(t));
-}
 
 static void print_lobe(const char *name, const kw_trapezoid *t)
 {
@@ -263,132 +76,6 @@ static const char *fmt_unit(double v, const char *unit, char *buf, size_t n)
     else
         snprintf(buf, n, "%.1f %s", v, unit);
     return buf;
-}
-
-static cJSON *report_json(const kw_plan_report *r, double ref_factor)
-{
-    const kw_protocol *p = &r->protocol;
-    const kw_plan_basic *b = &r->basic;
-    cJSON *j = cJSON_CreateObject();
-    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(j, "sequence", seq_names[p->sequence]);
-    cJSON_AddBoolToObject(j, "feasible", r->feasible);
-    cJSON_AddNumberToObject(j, "dimensions", p->ndim);
-    cJSON_AddNumberToObject(j, "b0_t", p->b0_t);
-    cJSON_AddNumberToObject(j, "larmor_hz", b->larmor_hz);
-    kw_json_add_vec(j, "fov_m", p->fov_m, p->ndim);
-    double m[3] = {p->matrix[0], p->matrix[1], p->matrix[2]};
-    kw_json_add_vec(j, "matrix", m, p->ndim);
-    kw_json_add_vec(j, "pixel_size_m", b->pixel_size_m, p->ndim);
-    kw_json_add_vec(j, "delta_k_per_m", b->delta_k_per_m, p->ndim);
-    kw_json_add_vec(j, "k_max_per_m", b->k_max_per_m, p->ndim);
-    cJSON_AddNumberToObject(j, "slice_m", r->slice_m);
-    cJSON_AddNumberToObject(j, "dwell_s", r->dwell_s);
-    cJSON_AddNumberToObject(j, "readout_duration_s", r->readout_duration_s);
-    cJSON_AddNumberToObject(j, "bandwidth_hz", b->bandwidth_hz);
-    cJSON_AddNumberToObject(j, "bandwidth_per_pixel_hz", b->bandwidth_per_pixel_hz);
-    cJSON_AddNumberToObject(j, "readout_gradient_T_per_m", b->readout_gradient_T_per_m);
-    cJSON_AddNumberToObject(j, "slice_select_gradient_T_per_m", r->slice_gradient_T_per_m);
-    cJSON_AddNumberToObject(j, "rf_duration_s", r->rf_duration_s);
-    cJSON_AddNumberToObject(j, "tbw", p->tbw);
-    cJSON_AddNumberToObject(j, "gmax_T_per_m", p->gmax_T_per_m);
-    cJSON_AddNumberToObject(j, "slew_T_per_m_per_s", p->slew_T_per_m_per_s);
-    cJSON_AddNumberToObject(j, "raster_s", p->raster_s);
-    cJSON_AddNumberToObject(j, "temperature_k", p->temperature_k);
-    cJSON_AddNumberToObject(j, "polarization", b->polarization);
-    cJSON_AddNumberToObject(j, "min_te_s", r->min_te_s);
-    cJSON_AddNumberToObject(j, "min_tr_s", r->min_tr_s);
-    cJSON_AddNumberToObject(j, "te_s", r->te_s);
-    cJSON_AddNumberToObject(j, "tr_s", r->tr_s);
-    cJSON_AddNumberToObject(j, "scan_time_s", r->scan_time_s);
-    cJSON_AddNumberToObject(j, "chemical_shift_hz", r->fat_water_hz);
-    add_num_or_null(j, "chemical_shift_pixels", r->chemical_shift_pixels);
-    add_num_or_null(j, "chemical_shift_mm", r->chemical_shift_mm);
-    if (p->sequence == KW_SEQ_EPI) {
-        cJSON_AddNumberToObject(j, "echo_spacing_s", r->echo_spacing_s);
-        cJSON_AddNumberToObject(j, "echo_train_length", r->echo_train_length);
-        cJSON_AddNumberToObject(j, "echo_train_duration_s", r->echo_train_s);
-        cJSON_AddNumberToObject(j, "effective_te_s", r->te_s);
-        cJSON_AddNumberToObject(j, "shots", p->shots);
-        cJSON_AddNumberToObject(j, "partial_fourier", p->partial_fourier);
-        cJSON_AddNumberToObject(j, "distortion_pixels_per_hz", r->distortion_pixels_per_hz);
-        cJSON_AddNumberToObject(j, "chemical_shift_phase_pixels", r->chemical_shift_phase_pixels);
-        cJSON_AddNumberToObject(j, "chemical_shift_phase_mm", r->chemical_shift_phase_mm);
-    }
-    if (p->sequence == KW_SEQ_RADIAL) {
-        cJSON_AddNumberToObject(j, "spokes_nyquist", r->spokes_nyquist);
-        cJSON_AddNumberToObject(j, "spokes", r->spokes);
-    }
-    if (p->sequence == KW_SEQ_SPIRAL) {
-        cJSON_AddNumberToObject(j, "interleaves", r->interleaves);
-        cJSON_AddNumberToObject(j, "readout_per_interleave_s", r->readout_per_interleave_s);
-        cJSON_AddNumberToObject(j, "samples_per_interleave", (double)r->spiral.samples);
-        cJSON_AddNumberToObject(j, "fat_water_cycles_per_readout",
-                                r->fat_water_hz * r->readout_per_interleave_s);
-    }
-    add_num_or_null(j, "readout_to_t2star", r->readout_to_t2star);
-    cJSON_AddNumberToObject(j, "voxel_volume_m3", r->voxel_volume_m3);
-    cJSON_AddNumberToObject(j, "total_sampling_time_s", r->total_sampling_time_s);
-    cJSON_AddNumberToObject(j, "snr_factor", r->snr_factor);
-    add_num_or_null(j, "relative_snr", ref_factor > 0 ? r->snr_factor / ref_factor : NAN);
-    cJSON *lobes = cJSON_AddObjectToObject(j, "lobes");
-    add_lobe_json(lobes, "slice_select", &r->slice_select);
-    add_lobe_json(lobes, "slice_rephaser", &r->slice_rephaser);
-    add_lobe_json(lobes, "readout", &r->readout);
-    add_lobe_json(lobes, "prephaser", &r->prephaser);
-    add_lobe_json(lobes, "phase_encode", &r->phase_encode);
-    add_lobe_json(lobes, "partition_encode", &r->partition_encode);
-    add_lobe_json(lobes, "spoiler", &r->spoiler);
-    add_lobe_json(lobes, "crusher", &r->crusher);
-    cJSON *lim = cJSON_AddArrayToObject(j, "limits");
-    for (int i = 0; i < r->nlimits; i++) {
-        const kw_limit *l = &r->limits[i];
-        cJSON *o = cJSON_CreateObject();
-        cJSON_AddStringToObject(o, "name", l->name);
-        cJSON_AddNumberToObject(o, "required", l->required);
-        cJSON_AddNumberToObject(o, "available", l->available);
-        cJSON_AddStringToObject(o, "unit", l->unit);
-        cJSON_AddNumberToObject(o, "margin", l->available - l->required);
-        cJSON_AddBoolToObject(o, "ok", l->ok);
-        cJSON_AddItemToArray(lim, o);
-    }
-    if (!r->feasible) {
-        const kw_nearest *n = &r->nearest;
-        cJSON *o = cJSON_AddObjectToObject(j, "nearest_feasible");
-        if (n->has_bandwidth) {
-            cJSON_AddNumberToObject(o, "bandwidth_hz", n->bandwidth_hz);
-            cJSON_AddNumberToObject(o, "bandwidth_per_pixel_hz", n->bandwidth_per_pixel_hz);
-        }
-        if (n->has_matrix) {
-            cJSON_AddNumberToObject(o, "matrix_x", n->matrix_x);
-            cJSON_AddNumberToObject(o, "pixel_size_x_m", n->pixel_size_x_m);
-        }
-        if (n->has_slice) {
-            cJSON_AddNumberToObject(o, p->ndim == 3 ? "slab_m" : "slice_m", n->slice_m);
-            cJSON_AddNumberToObject(o, "rf_duration_s", n->rf_duration_s);
-        }
-        if (n->has_te)
-            cJSON_AddNumberToObject(o, "te_s", n->te_s);
-        if (n->has_tr)
-            cJSON_AddNumberToObject(o, "tr_s", n->tr_s);
-        if (n->has_interleaves)
-            cJSON_AddNumberToObject(o, "interleaves", n->interleaves);
-        if (n->has_combined) {
-            const kw_protocol *q = &n->combined;
-            cJSON *c = cJSON_AddObjectToObject(o, "combined");
-            cJSON_AddNumberToObject(c, "bandwidth_hz", q->bandwidth_hz);
-            cJSON_AddNumberToObject(c, "slice_m", q->slice_m);
-            cJSON_AddNumberToObject(c, "rf_duration_s", q->rf_duration_s);
-            if (q->te_s > 0)
-                cJSON_AddNumberToObject(c, "te_s", q->te_s);
-            if (q->tr_s > 0)
-                cJSON_AddNumberToObject(c, "tr_s", q->tr_s);
-            if (q->interleaves > 0)
-                cJSON_AddNumberToObject(c, "interleaves", q->interleaves);
-        }
-    }
-    cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
-    return j;
 }
 
 static void report_text(const kw_plan_report *r, double ref_factor)
@@ -525,7 +212,7 @@ static int report(const kw_protocol *p, const char *json_path, const char *plot,
     if (st)
         return kw_cli_status(st, "plan");
     if (json_path) {
-        cJSON *j = report_json(r, ref_factor);
+        cJSON *j = kw_plan_report_cjson(r, ref_factor);
         st = j ? kw_json_write(json_path, j) : kw_set_error(KW_ENOMEM, "out of memory");
         cJSON_Delete(j);
         if (st) {
@@ -551,10 +238,6 @@ static int report(const kw_protocol *p, const char *json_path, const char *plot,
 
 int kw_cmd_plan(int argc, char **argv)
 {
-    plan_in in;
-    memset(&in, 0, sizeof in);
-    kw_protocol_defaults(&in.p);
-
     /* --bandwidth may be given twice, once in each form: take those out of
      * argv before the table parser, which refuses repeats. */
     char **av = calloc((size_t)argc + 1, sizeof *av);
@@ -656,40 +339,32 @@ int kw_cmd_plan(int argc, char **argv)
     if (rc >= 0)
         return rc;
 
-    kw_status st;
-    if (protocol) {
-        st = kw_protofile_read(protocol, file_key, &in);
-        if (st)
-            return kw_cli_status(st, "protocol");
+    /* The file first, then the command line over it: its bandwidth (one or
+     * both forms) replaces the file's, each other option replaces its key. */
+    kw_protocol_input *in = NULL;
+    kw_status st = kw_protocol_input_create(&in);
+    if (st)
+        return kw_cli_status(st, NULL);
+    const char *const *keys = kw_protocol_keys();
+    kw_protocol p;
+    if (protocol && (st = read_protocol(in, protocol))) {
+        kw_protocol_input_destroy(in);
+        return kw_cli_status(st, "protocol");
     }
-    if (nbw) { /* the command line's bandwidth replaces the file's */
-        in.bw_set[0] = in.bw_set[1] = 0;
-        for (int i = 0; i < nbw; i++)
-            if ((st = set_bandwidth(&in, bw_cli[i])))
-                return kw_cli_status(st, NULL);
-    }
-    for (int k = 0; k < K_COUNT; k++) {
-        if (!seen[k] || k == K_BANDWIDTH)
-            continue;
-        if ((st = set_key(&in, k, val[k])))
-            return kw_cli_status(st, NULL);
-    }
-    if ((st = finish_protocol(&in)))
+    if (nbw)
+        st = kw_protocol_input_clear(in, "bandwidth");
+    for (int i = 0; !st && i < nbw; i++)
+        st = kw_protocol_input_set(in, "bandwidth", bw_cli[i]);
+    for (int k = 0; !st && k < K_COUNT; k++)
+        if (seen[k] && k != K_BANDWIDTH)
+            st = kw_protocol_input_set(in, keys[k], val[k]);
+    if (!st)
+        st = kw_protocol_input_finish(in, &p);
+    kw_protocol_input_destroy(in);
+    if (st)
         return kw_cli_status(st, NULL);
     double ref_factor = 0;
-    if (reference) {
-        plan_in ref;
-        memset(&ref, 0, sizeof ref);
-        kw_protocol_defaults(&ref.p);
-        if ((st = kw_protofile_read(reference, file_key, &ref)))
-            return kw_cli_status(st, "reference");
-        if ((st = finish_protocol(&ref)))
-            return kw_cli_status(st, "reference");
-        kw_plan_report *rr = NULL;
-        if ((st = kw_plan_create(&rr, &ref.p)))
-            return kw_cli_status(st, "reference");
-        ref_factor = rr->snr_factor;
-        kw_plan_destroy(rr);
-    }
-    return report(&in.p, json, plot, kplot, ref_factor);
+    if (reference && (rc = reference_factor(reference, &ref_factor)) >= 0)
+        return rc;
+    return report(&p, json, plot, kplot, ref_factor);
 }

@@ -14,6 +14,7 @@
 #include "encode_cli.h"
 #include "jsonio.h"
 #include "npy.h"
+#include "plan_input_int.h"
 #include "protofile.h"
 
 /* Name of `path` as the sidecar beside `out` should record it: the base name
@@ -49,94 +50,6 @@ char *enc_derived_path(const char *out, const char *suffix)
         strcpy(p + stem + 1, suffix);
     }
     return p;
-}
-
-/* ---- protocol files (the planner's `key = value` format, cli/protofile.h) --- */
-#define PF_MAX 40
-typedef struct proto_keys {
-    int n;
-    char key[PF_MAX][KW_PROTOFILE_MAX_KEY + 1];
-    char val[PF_MAX][KW_PROTOFILE_MAX_LINE + 1];
-} proto_keys;
-
-static kw_status proto_key(void *user, const char *key, const char *value, int line)
-{
-    (void)line;
-    proto_keys *pk = user;
-    for (int i = 0; i < pk->n; i++)
-        KW_FAIL_IF(strcmp(pk->key[i], key) == 0, KW_EINVAL, "%s: given more than once", key);
-    KW_FAIL_IF(pk->n >= PF_MAX, KW_EINVAL, "too many keys");
-    snprintf(pk->key[pk->n], sizeof pk->key[0], "%s", key);
-    snprintf(pk->val[pk->n], sizeof pk->val[0], "%s", value);
-    pk->n++;
-    return KW_OK;
-}
-
-static const char *proto_get(const proto_keys *pk, const char *key)
-{
-    for (int i = 0; pk && i < pk->n; i++)
-        if (strcmp(pk->key[i], key) == 0)
-            return pk->val[i];
-    return NULL;
-}
-
-/* The planner's keys this command does not use itself, into `p`; the rest
- * (sequence, fov, matrix, bandwidth, b0, te, tr) are set by the caller. */
-static kw_status proto_fill(const proto_keys *pk, kw_protocol *p)
-{
-    static const struct {
-        const char *key;
-        kw_unit_kind kind;
-        size_t off;
-    } unit_keys[] = {
-        {"gmax", KW_UNIT_GRADIENT, offsetof(kw_protocol, gmax_T_per_m)},
-        {"slew", KW_UNIT_SLEW, offsetof(kw_protocol, slew_T_per_m_per_s)},
-        {"raster", KW_UNIT_TIME, offsetof(kw_protocol, raster_s)},
-        {"temperature", KW_UNIT_TEMPERATURE, offsetof(kw_protocol, temperature_k)},
-        {"rf-duration", KW_UNIT_TIME, offsetof(kw_protocol, rf_duration_s)},
-        {"tbw", KW_UNIT_NONE, offsetof(kw_protocol, tbw)},
-        {"slice", KW_UNIT_LENGTH, offsetof(kw_protocol, slice_m)},
-        {"spoiler", KW_UNIT_NONE, offsetof(kw_protocol, spoiler_cycles)},
-        {"crusher", KW_UNIT_NONE, offsetof(kw_protocol, crusher_cycles)},
-        {"t2star", KW_UNIT_TIME, offsetof(kw_protocol, t2star_s)},
-        {"partial-fourier", KW_UNIT_NONE, offsetof(kw_protocol, partial_fourier)},
-        {"max-readout", KW_UNIT_TIME, offsetof(kw_protocol, max_readout_s)},
-    };
-    static const struct {
-        const char *key;
-        size_t off;
-    } int_keys[] = {{"shots", offsetof(kw_protocol, shots)},
-                    {"interleaves", offsetof(kw_protocol, interleaves)},
-                    {"spokes", offsetof(kw_protocol, spokes)},
-                    {"averages", offsetof(kw_protocol, averages)}};
-    static const char *const own[] = {"sequence", "fov", "matrix", "bandwidth", "b0", "te",
-                                      "tr", "flip", "ti", NULL};
-    for (int i = 0; i < pk->n; i++) {
-        const char *k = pk->key[i], *v = pk->val[i];
-        int done = 0;
-        for (const char *const *o = own; *o && !done; o++)
-            done = strcmp(*o, k) == 0;
-        for (size_t u = 0; !done && u < sizeof unit_keys / sizeof unit_keys[0]; u++)
-            if (strcmp(unit_keys[u].key, k) == 0) {
-                char why[160];
-                double x;
-                if (kw_unit_parse(v, unit_keys[u].kind, &x, why, sizeof why))
-                    return kw_set_error(KW_EINVAL, "%s: %s", k, why);
-                *(double *)((char *)p + unit_keys[u].off) = x;
-                done = 1;
-            }
-        for (size_t u = 0; !done && u < sizeof int_keys / sizeof int_keys[0]; u++)
-            if (strcmp(int_keys[u].key, k) == 0) {
-                char *end;
-                long x = strtol(v, &end, 10);
-                KW_FAIL_IF(end == v || *end || x < 1 || x > 1000000, KW_EINVAL,
-                           "%s: '%s' is not a whole number >= 1", k, v);
-                *(int *)((char *)p + int_keys[u].off) = (int)x;
-                done = 1;
-            }
-        KW_FAIL_IF(!done, KW_EINVAL, "%s: unknown key", k);
-    }
-    return KW_OK;
 }
 
 /* ---- --tissue: the built-in table, or the caller's values from JSON ------ */
@@ -222,17 +135,39 @@ out:
 
 
 /* ---- the protocol file: its keys fill the arguments not given ---------- */
-static proto_keys enc_pk;
+/* The planner's protocol files, read by the library's parser in the
+ * simulator's dialect (libencode/plan_input_int.h): texts first, for the
+ * arguments; then the planner's keys this command does not take itself. The
+ * input lives until enc_files_free() (the arguments point into it). */
+static kw_protocol_input *enc_pin;
+
+static const char *proto_get(const char *key)
+{
+    const char *v = NULL;
+    if (enc_pin && kw_protocol_input_get(enc_pin, key, &v)) {
+        kw_clear_error(); /* flip and ti are not the planner's: absent, not an error */
+        v = NULL;
+    }
+    return v;
+}
 
 int enc_protocol_args(enc_args *a, enc_files *f)
 {
-    memset(&enc_pk, 0, sizeof enc_pk);
-    kw_status pst = kw_protofile_read(a->protocol, proto_key, &enc_pk);
+    kw_protocol_input_destroy(enc_pin);
+    enc_pin = NULL;
+    char *buf = NULL;
+    size_t n = 0;
+    kw_status pst = kw_protofile_load(a->protocol, &buf, &n);
+    if (!pst && !(pst = kw_protocol_input_create(&enc_pin))) {
+        kw_protocol_input_encode_dialect(enc_pin);
+        pst = kw_protocol_input_parse(enc_pin, buf, n);
+    }
+    free(buf);
     if (pst)
         return kw_cli_status(pst, "protocol");
     const char *v;
     char why[200];
-    if ((v = proto_get(&enc_pk, "sequence"))) {
+    if ((v = proto_get("sequence"))) {
         f->plan_sequence = v;
         if (!a->s_seq) {
             if (strcmp(v, "gre") == 0 || strcmp(v, "epi") == 0 || strcmp(v, "radial") == 0 ||
@@ -245,15 +180,15 @@ int enc_protocol_args(enc_args *a, enc_files *f)
             a->s_seq = 1;
         }
     }
-    if (!a->s_fov && (v = proto_get(&enc_pk, "fov"))) {
+    if (!a->s_fov && (v = proto_get("fov"))) {
         a->fov = v;
         a->s_fov = 1;
     }
-    if (!a->s_mx && (v = proto_get(&enc_pk, "matrix"))) {
+    if (!a->s_mx && (v = proto_get("matrix"))) {
         a->matrix = v;
         a->s_mx = 1;
     }
-    if (!a->s_bw && (v = proto_get(&enc_pk, "bandwidth"))) {
+    if (!a->s_bw && (v = proto_get("bandwidth"))) {
         a->bandwidth = v;
         a->s_bw = 1;
     }
@@ -265,7 +200,7 @@ int enc_protocol_args(enc_args *a, enc_files *f)
     double *dst[] = {&a->b0, &a->te, &a->tr, &a->flip, &a->ti};
     int *seen[] = {&a->s_b0, &a->s_te, &a->s_tr, &a->s_flip, &a->s_ti};
     for (int i = 0; i < 5; i++)
-        if (!*seen[i] && (v = proto_get(&enc_pk, uk[i].key))) {
+        if (!*seen[i] && (v = proto_get(uk[i].key))) {
             if (kw_unit_parse(v, uk[i].kind, dst[i], why, sizeof why))
                 return kw_cli_fail("protocol", "%s: %s", uk[i].key, why);
             *seen[i] = 1;
@@ -279,8 +214,11 @@ int enc_protocol_args(enc_args *a, enc_files *f)
 int enc_protocol_read(enc_args *a, enc_files *f, kw_contrast_kind seq)
 {
     (void)a;
+    /* the keys the arguments took (enc_protocol_args) */
+    static const char *const own[] = {"sequence", "fov", "matrix", "bandwidth", "b0", "te",
+                                      "tr", "flip", "ti", NULL};
     kw_protocol_defaults(&f->protocol);
-    kw_status pst = proto_fill(&enc_pk, &f->protocol);
+    kw_status pst = kw_protocol_input_encode_fill(enc_pin, own, &f->protocol);
     if (pst)
         return kw_cli_status(pst, "protocol");
     const char *sq = f->plan_sequence ? f->plan_sequence
@@ -442,6 +380,9 @@ int enc_files_read(const enc_args *a, enc_files *f, kw_acquisition_options *o)
 
 void enc_files_free(enc_files *f)
 {
+    kw_protocol_input_destroy(enc_pin);
+    enc_pin = NULL;
+    f->plan_sequence = NULL;
     kw_array_free(&f->mask_in);
     kw_array_free(&f->traj);
     kw_array_free(&f->times_in);
