@@ -304,8 +304,11 @@ static int put_array(PyObject *d, const char *key, kwpy_elem e, int ndim, const 
 
 static int put_info(PyObject *d, const kw_pattern *p)
 {
-    (void)p; /* TEMP until kw_pattern_info_json lands (wip-json) */
-    PyObject *info = Py_NewRef(Py_None);
+    char *json = NULL;
+    kw_status st = kw_pattern_info_json(p, &json);
+    if (st)
+        return kwpy_raise(st, "info"), -1;
+    PyObject *info = kwpy_json_dict(json);
     if (!info)
         return -1;
     int rc = PyDict_SetItemString(d, "info", info);
@@ -602,9 +605,11 @@ static int is_trajectory(PyArrayObject *arr, const char *skind)
 
 static PyObject *analysis_result(const kw_pattern_analysis *a, const char *name, const char *pk)
 {
-    (void)name;
-    (void)pk;
-    PyObject *d = PyDict_New(); /* TEMP until kw_pattern_analysis_json lands (wip-json) */
+    char *json = NULL;
+    kw_status st = kw_pattern_analysis_json(a, name, pk, &json);
+    if (st)
+        return kwpy_raise(st, "analyse");
+    PyObject *d = kwpy_json_dict(json);
     if (!d)
         return NULL;
     if (put_array(d, "psf", KWPY_C64, 2, a->psfdims, a->psfbuf, sizeof(kw_cfloat)) < 0) {

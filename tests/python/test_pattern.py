@@ -331,19 +331,26 @@ def _rss_pages():
 
 
 def test_repeated_calls_keep_memory_flat():
-    mask = kweave.pattern("random", matrix=32, accel=3, acs=4).mask
-    traj = kweave.pattern("radial", matrix=16, spokes=12)
+    """Small patterns (the loop is about memory, not speed); a 16 x 16 mask
+    still goes through the TPSF's wavelets."""
+    mask = kweave.pattern("uniform", matrix=16, accel=2, acs=4).mask
+    traj = kweave.pattern("radial", matrix=8, spokes=6)
     info = traj.info
     refs = (sys.getrefcount(mask), sys.getrefcount(traj.trajectory), sys.getrefcount(info))
 
     def once():
-        p = kweave.pattern("poisson", matrix=(32, 32, 16), accel=(2, 2), seed=1)
-        q = kweave.pattern("spiral", matrix=32, interleaves=4)
-        a = kweave.analyse(mask, kind="random")
+        p = kweave.pattern("random", matrix=(16, 16, 8), accel=(2, 1), seed=1)
+        q = kweave.pattern("spiral", matrix=16, interleaves=2)
+        a = kweave.analyse(mask, kind="uniform")
         b = kweave.analyse(traj.trajectory, info=info)
         for bad in (dict(matrix=32, accel=0), dict(matrix="3y")):
             try:
                 kweave.pattern("random", **bad)
+            except kweave.InputError:
+                pass
+        for bad in (np.zeros((8, 8), np.uint8), np.ones((2, 8, 8))):
+            try:
+                kweave.analyse(bad)
             except kweave.InputError:
                 pass
         return p, q, a, b

@@ -60,9 +60,9 @@ KEYWORDS = [
                 "250kHz", "--max-readout", "8ms", "--interleaves", "24", "--temperature", "300K"],
      dict(sequence="spiral", fov=0.24, matrix=192, bandwidth=250e3, max_readout="8ms",
           interleaves=24, temperature=300.0)),
-    ("3d", ["--sequence", "gre", "--fov", "256mm,192mm,64mm", "--matrix", "256x192x32",
+    ("3d", ["--sequence", "gre", "--fov", "0.256m,192mm,0.064m", "--matrix", "256x192x32",
             "--bandwidth", "38400Hz", "--bandwidth", "150Hz/pixel", "--rf-duration", "1ms",
-            "--tbw", "8", "--raster", "10us"],
+            "--tbw", "8", "--raster", "0.00001s"],
      dict(sequence="gre", fov=(0.256, "192mm", 0.064), matrix=(256, 192, 32),
           bandwidth=("38400Hz", "150Hz/pixel"), rf_duration="1ms", tbw=8, raster=1e-5)),
 ]
@@ -187,12 +187,12 @@ def _rss_pages():
 
 
 def test_repeated_plans_keep_memory_flat(tmp_path):
-    proto = _sample("spiral")
+    proto = _sample("se")
     matrix = (256, 192)
     refs = (sys.getrefcount(proto), sys.getrefcount(matrix))
 
     def once():
-        a = kweave.plan(proto, te="3ms", reference=_sample("gre"))
+        a = kweave.plan(proto, te="30ms", reference=_sample("gre"))
         b = kweave.plan(sequence="epi", matrix=matrix, fov=("256mm", "192mm"))
         c = kweave.plan(protocol=_sample("too-thin"))
         try:
