@@ -495,8 +495,8 @@ static kw_status analyse_trajectory(const an_opts *g, const char *pk, PyArrayObj
     if (shape && PyList_Check(shape) && PyList_GET_SIZE(shape) == 2) {
         double s0 = PyFloat_AsDouble(PyList_GET_ITEM(shape, 0));
         double s1 = PyFloat_AsDouble(PyList_GET_ITEM(shape, 1));
-        if (PyErr_Occurred())
-            return KW_EINVAL;
+        if (PyErr_Occurred()) /* not numbers: no shape to agree with */
+            PyErr_Clear(), s0 = s1 = -1;
         if (s0 != (double)PyArray_DIM(arr, 0) || s1 != (double)PyArray_DIM(arr, 1))
             return kwpy_value_error("pattern", "shape (%zd, %zd) differs from the sidecar's",
                                     (Py_ssize_t)PyArray_DIM(arr, 0),
