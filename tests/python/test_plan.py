@@ -5,6 +5,7 @@ with the command's message; repeated calls keep memory flat.
 
 Reference: the command itself (build/kweave, run by conftest.Cli)."""
 import os
+import pathlib
 import sys
 
 import pytest
@@ -33,6 +34,7 @@ def test_plan_protocol_file_same_as_command(cli, name):
     assert got["feasible"] is (rc == 0)
     assert got["safety_caution"] == kweave.SAFETY_CAUTION
     assert kweave.plan(_sample(name)) == want  # positional
+    assert kweave.plan(pathlib.Path(_sample(name))) == want  # os.PathLike
 
 
 # (id, command options, keywords): every sequence, values as texts with
