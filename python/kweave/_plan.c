@@ -189,7 +189,7 @@ static int set_bandwidth(kw_protocol_input *in, PyObject *v)
 /* the keywords onto `in`, in the order of kw_protocol_keys() (the command's) */
 static int set_keys(kw_protocol_input *in, const char *const *keys, PyObject *const *vals)
 {
-    for (int k = 0; keys[k]; k++) {
+    for (int k = 0; keys[k] && k < MAX_KEYS; k++) {
         if (!vals[k])
             continue;
         if (strcmp(keys[k], "bandwidth") == 0) {
