@@ -1,8 +1,754 @@
-/* _pattern.c: placeholder until this part is written. */
+/* _pattern.c: kweave.pattern(kind, **options), what `kweave pattern --kind
+ * K` makes (libencode/kw_pattern.h), and kweave.analyse(pattern, **options),
+ * what `kweave pattern --analyse F --json J` reports
+ * (recon/kw_pattern_analysis.h). The options, their checks and messages are
+ * those of cli/cmd_pattern.c and cli/pattern_read.c; the figures, arrays and
+ * sidecar are the library's. */
 #include "kwpy.h"
 
-int kwpy_add_pattern(PyObject *m)
+#include <math.h>
+#include <stdint.h>
+#include <string.h>
+
+#include "kw_pattern.h"
+#include "kw_pattern_analysis.h"
+
+/* ---- the command's small parsers (cli/cmd_pattern.c) ------------------------------ */
+
+/* "256", "256x128", "2x2", "4.5": up to `max` numbers; 0 or -1 (raised). */
+static int parse_list(const char *field, const char *s, double *v, int max, int *n)
 {
-    (void)m;
+    *n = 0;
+    const char *p = s;
+    while (*p) {
+        char *end;
+        double x = strtod(p, &end);
+        if (end == p || !isfinite(x))
+            return kwpy_value_error(field, "'%s' is not of the form AxB", s), -1;
+        if (*n == max)
+            return kwpy_value_error(field, "'%s' has more than %d parts", s, max), -1;
+        v[(*n)++] = x;
+        p = end;
+        if (*p == 'x' || *p == 'X') {
+            p++;
+            if (!*p)
+                return kwpy_value_error(field, "'%s' ends with x", s), -1;
+        } else if (*p) {
+            return kwpy_value_error(field, "'%s' is not of the form AxB", s), -1;
+        }
+    }
+    if (*n == 0)
+        return kwpy_value_error(field, "empty value"), -1;
     return 0;
 }
+
+static int parse_sizes(const char *field, const char *s, size_t *v, int max, int *n)
+{
+    double d[3];
+    if (parse_list(field, s, d, max, n) < 0)
+        return -1;
+    for (int i = 0; i < *n; i++) {
+        if (d[i] != floor(d[i]) || d[i] < 0 || d[i] > 65536)
+            return kwpy_value_error(field, "'%s': sizes must be whole numbers in 0..65536", s),
+                   -1;
+        v[i] = (size_t)d[i];
+    }
+    return 0;
+}
+
+/* A value given as "AxB", a number or a sequence of numbers, as text. */
+static int list_text(PyObject *obj, const char *field, char *buf, size_t n)
+{
+    return kwpy_str_value(obj, field, "x", buf, n);
+}
+
+static int clamp_int(long v) { return v > INT_MAX ? INT_MAX : v < INT_MIN ? INT_MIN : (int)v; }
+
+/* InputError "<option>: <reason>" for a failed library call whose parameter
+ * maps to `option`, with .param = option and .status = the library's. */
+static PyObject *raise_option(kw_status st, const char *option)
+{
+    const char *why = kw_last_error_reason();
+    PyObject *text = PyUnicode_FromFormat("%s: %s", option, why && *why ? why : kw_strerror(st));
+    PyObject *exc = text ? PyObject_CallOneArg(kwpy_InputError, text) : NULL;
+    Py_XDECREF(text);
+    if (!exc)
+        return NULL;
+    PyObject *p = PyUnicode_FromString(option);
+    PyObject *s = PyUnicode_FromString(kw_strerror(st));
+    if (p && s) {
+        PyObject_SetAttrString(exc, "param", p);
+        PyObject_SetAttrString(exc, "status", s);
+    }
+    Py_XDECREF(p);
+    Py_XDECREF(s);
+    PyErr_SetObject(kwpy_InputError, exc);
+    Py_DECREF(exc);
+    return NULL;
+}
+
+/* ---- pattern(): the options ------------------------------------------------------------ */
+
+typedef struct gen_opts {
+    const char *kind;
+    PyObject *matrix, *accel, *acs;
+    double fraction, power, dwell, te, fov, gmax, slew, raster;
+    long shift, spokes, seed, tiny, interleaves, shots, ros;
+    int ellipse;
+    int seen_ros, seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
+    int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
+        seen_dwell, seen_accel, seen_acs;
+} gen_opts;
+
+/* the library's parameter names (kw_pattern_options) and the keywords */
+static const struct {
+    const char *param, *option;
+} PARAM_OPTION[] = {
+    {"dims", "matrix"},       {"accel", "accel"},       {"acs", "acs"},
+    {"fraction", "fraction"}, {"ellipse", "ellipse"},   {"power", "power"},
+    {"shift", "shift"},       {"seed", "seed"},         {"spokes", "spokes"},
+    {"tiny", "tiny"},         {"readout_oversampling", "readout-oversampling"},
+    {"dwell_s", "dwell"},     {"te_s", "te"},           {"fov_m", "fov"},
+    {"gmax", "gmax"},         {"slew", "slew"},         {"raster", "raster"},
+    {"interleaves", "interleaves"}, {"shots", "shots"}, {"kind", "kind"},
+};
+
+static PyObject *pattern_fail(kw_status st, const char *context)
+{
+    const char *param = kw_last_error_param();
+    for (size_t i = 0; i < sizeof PARAM_OPTION / sizeof PARAM_OPTION[0]; i++)
+        if (strcmp(param, PARAM_OPTION[i].param) == 0)
+            return raise_option(st, PARAM_OPTION[i].option);
+    return kwpy_raise(st, context);
+}
+
+/* accel R or RYxRZ, acs N or NYxNZ into the C-order arrays */
+static int cartesian_options(const gen_opts *g, kw_pattern_options *o, int three_d)
+{
+    char buf[256];
+    if (g->accel) {
+        double r[2];
+        int n;
+        if (list_text(g->accel, "accel", buf, sizeof buf) < 0 ||
+            parse_list("accel", buf, r, 2, &n) < 0)
+            return -1;
+        double ry = r[0], rz = n > 1 ? r[1] : 1.0;
+        if (!(ry > 0) || !(rz > 0))
+            return kwpy_value_error("accel", "must be positive"), -1;
+        o->accel[0] = three_d ? rz : ry;
+        o->accel[1] = three_d ? ry : rz; /* 2-D: the library rejects RZ != 1 */
+        o->accel[2] = three_d ? 1.0 : 0.0;
+    }
+    if (g->acs) {
+        size_t v[2];
+        int n;
+        if (list_text(g->acs, "acs", buf, sizeof buf) < 0 ||
+            parse_sizes("acs", buf, v, 2, &n) < 0)
+            return -1;
+        if (n > 1 && !three_d)
+            return kwpy_value_error("acs", "a 2-D ACS block AYxAZ needs a 3-D matrix"), -1;
+        o->acs[0] = three_d ? (n > 1 ? v[1] : v[0]) : v[0];
+        o->acs[1] = three_d ? v[0] : 0;
+    }
+    if (o->kind == KW_PATTERN_PARTIAL && !g->seen_fraction)
+        return kwpy_value_error("fraction", "required for --kind partial"), -1;
+    if (g->seen_fraction)
+        o->fraction = g->fraction;
+    if (g->seen_power)
+        o->power = g->power;
+    if (g->seen_shift)
+        o->shift = g->shift;
+    o->ellipse = g->ellipse;
+    o->seed = (uint64_t)g->seed;
+    return 0;
+}
+
+static int traj_options(const gen_opts *g, kw_pattern_options *o)
+{
+    const char *what = g->kind;
+    int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
+    if (!grad && (g->seen_accel || g->seen_acs || g->seen_fraction || g->ellipse))
+        return kwpy_value_error(g->seen_accel ? "accel" : g->seen_acs ? "acs"
+                                : g->seen_fraction ? "fraction" : "ellipse",
+                                "not used by --kind %s (set --spokes)", what), -1;
+    if (grad && (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny))
+        return kwpy_value_error(g->seen_accel ? "accel" : g->seen_acs ? "acs"
+                                : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
+                                "not used by --kind %s", what), -1;
+    if (o->kind == KW_PATTERN_SPIRAL && (g->seen_shots || g->seen_fraction))
+        return kwpy_value_error(g->seen_shots ? "shots" : "fraction",
+                                "not used by --kind spiral"), -1;
+    if (o->kind == KW_PATTERN_EPI && g->seen_interleaves)
+        return kwpy_value_error("interleaves", "not used by --kind epi (use --shots)"), -1;
+    /* 0 asks the library for its default: an explicit 0 is an error here */
+    if (g->seen_spokes && g->spokes < 1)
+        return kwpy_value_error("spokes", "%ld outside 1..10000000", g->spokes), -1;
+    if (g->seen_tiny && g->tiny < 1)
+        return kwpy_value_error("tiny", "%ld outside 1..1000", g->tiny), -1;
+    if (g->seen_ros && g->ros < 1)
+        return kwpy_value_error("readout-oversampling", "%ld outside 1..4", g->ros), -1;
+    if (g->seen_interleaves && g->interleaves < 1)
+        return kwpy_value_error("interleaves", "%ld outside 1..4096", g->interleaves), -1;
+    if (g->seen_dwell && !(g->dwell > 0))
+        return kwpy_value_error("dwell", grad ? "must be positive" : "must be a positive time"),
+               -1;
+    o->spokes = g->seen_spokes ? (size_t)g->spokes : 0;
+    o->tiny = g->seen_tiny ? clamp_int(g->tiny) : 0;
+    o->readout_oversampling = g->seen_ros ? clamp_int(g->ros) : 0;
+    if (g->seen_dwell)
+        o->dwell_s = g->dwell;
+    if (g->seen_te)
+        o->te_s = g->te;
+    if (g->seen_fov)
+        o->fov_m = g->fov;
+    if (g->seen_gmax)
+        o->gmax = g->gmax;
+    if (g->seen_slew)
+        o->slew = g->slew;
+    if (g->seen_raster)
+        o->raster = g->raster;
+    if (g->seen_interleaves)
+        o->interleaves = clamp_int(g->interleaves);
+    if (g->seen_shots)
+        o->shots = clamp_int(g->shots);
+    if (g->seen_fraction)
+        o->fraction = g->fraction;
+    return 0;
+}
+
+/* "full, partial, ..., epi" */
+static void kind_list(char *buf, size_t n)
+{
+    size_t used = 0;
+    buf[0] = '\0';
+    for (int k = 0; kw_pattern_kind_name((kw_pattern_kind)k) && used < n; k++) {
+        int w = snprintf(buf + used, n - used, "%s%s", k ? ", " : "",
+                         kw_pattern_kind_name((kw_pattern_kind)k));
+        if (w < 0)
+            break;
+        used += (size_t)w;
+    }
+}
+
+/* kind and matrix into the options, the command's checks, the rest. */
+static int generate_options(const gen_opts *g, kw_pattern_options *o)
+{
+    if (!g->kind)
+        return kwpy_value_error("kind", "missing"), -1;
+    if (!g->matrix)
+        return kwpy_value_error("matrix", "missing (e.g. matrix=\"256x256\" or (256, 256))"), -1;
+    char buf[256];
+    size_t mat[3];
+    int nmat;
+    if (list_text(g->matrix, "matrix", buf, sizeof buf) < 0 ||
+        parse_sizes("matrix", buf, mat, 3, &nmat) < 0)
+        return -1;
+    kw_pattern_options_init(o);
+    int k = 0;
+    while (kw_pattern_kind_name((kw_pattern_kind)k) &&
+           strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
+        k++;
+    if (!kw_pattern_kind_name((kw_pattern_kind)k)) {
+        char kinds[256];
+        kind_list(kinds, sizeof kinds);
+        return kwpy_value_error("kind", "unknown kind '%s' (%s)", g->kind, kinds), -1;
+    }
+    o->kind = (kw_pattern_kind)k;
+    /* matrix NXxNY[xNZ] into C order */
+    o->ndim = nmat > 2 ? 3 : 2;
+    o->dims[o->ndim - 1] = mat[0];
+    o->dims[o->ndim - 2] = nmat > 1 ? mat[1] : mat[0];
+    if (nmat > 2)
+        o->dims[0] = mat[2];
+    const int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
+    const int mask = kw_pattern_kind_is_mask(o->kind);
+    if (g->seen_seed && g->seed < 0)
+        return kwpy_value_error("seed", "must be >= 0"), -1;
+    if (g->seen_ros && !(o->kind == KW_PATTERN_RADIAL || o->kind == KW_PATTERN_GOLDEN ||
+                         o->kind == KW_PATTERN_STACK_OF_STARS))
+        return kwpy_value_error("readout-oversampling",
+                                "only for --kind radial, golden or stack-of-stars"), -1;
+    if (!grad) {
+        const char *hw = g->seen_fov ? "fov" : g->seen_gmax ? "gmax" : g->seen_slew ? "slew"
+                         : g->seen_raster ? "raster" : g->seen_interleaves ? "interleaves"
+                         : g->seen_shots ? "shots" : NULL;
+        if (hw)
+            return kwpy_value_error(hw, "only used by --kind spiral or epi"), -1;
+    }
+    if (!mask)
+        return traj_options(g, o);
+    if (g->seen_spokes || g->seen_tiny || g->seen_dwell || g->seen_te)
+        return kwpy_value_error(g->seen_spokes ? "spokes" : g->seen_tiny ? "tiny"
+                                : g->seen_dwell ? "dwell" : "te",
+                                "not used by the Cartesian --kind %s", g->kind), -1;
+    return cartesian_options(g, o, o->ndim == 3);
+}
+
+/* ---- pattern(): the results -------------------------------------------------------------- */
+
+static int put_array(PyObject *d, const char *key, kwpy_elem e, int ndim, const size_t *dims,
+                     const void *src, size_t elem_size)
+{
+    PyArrayObject *a = kwpy_array_new(e, ndim, dims);
+    if (!a)
+        return -1;
+    size_t n = elem_size;
+    for (int i = 0; i < ndim; i++)
+        n *= dims[i];
+    if (src && n)
+        memcpy(PyArray_DATA(a), src, n);
+    int rc = PyDict_SetItemString(d, key, (PyObject *)a);
+    Py_DECREF(a);
+    return rc;
+}
+
+static int put_info(PyObject *d, const kw_pattern *p)
+{
+    char *json = NULL;
+    kw_status st = kw_pattern_info_json(p, &json);
+    if (st)
+        return kwpy_raise(st, "info"), -1;
+    PyObject *info = kwpy_json_dict(json);
+    if (!info)
+        return -1;
+    int rc = PyDict_SetItemString(d, "info", info);
+    Py_DECREF(info);
+    return rc;
+}
+
+static PyObject *pattern_result(const kw_pattern *p)
+{
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    PyObject *d = PyDict_New();
+    if (!d)
+        return NULL;
+    int rc;
+    if (in->is_mask) {
+        rc = put_array(d, "mask", KWPY_U8, 2, in->shape, kw_pattern_mask(p), 1);
+        if (!rc)
+            rc = put_array(d, "density", KWPY_F32, 2, in->density_shape, kw_pattern_density(p),
+                           sizeof(float));
+    } else {
+        rc = put_array(d, "trajectory", KWPY_F32, 2, in->shape, kw_pattern_trajectory(p),
+                       sizeof(float));
+        if (!rc)
+            rc = put_array(d, "times", KWPY_F32, 1, in->shape, kw_pattern_times(p),
+                           sizeof(float));
+    }
+    if (!rc)
+        rc = put_info(d, p);
+    if (rc) {
+        Py_DECREF(d);
+        return NULL;
+    }
+    return kwpy_namespace(d);
+}
+
+static PyObject *py_pattern(PyObject *self, PyObject *args, PyObject *kwargs)
+{
+    (void)self;
+    gen_opts g;
+    memset(&g, 0, sizeof g);
+    const kwpy_kw table[] = {
+        {"kind", KWPY_STR, &g.kind, KW_UNIT_NONE, NULL},
+        {"matrix", KWPY_OBJ, &g.matrix, KW_UNIT_NONE, NULL},
+        {"accel", KWPY_OBJ, &g.accel, KW_UNIT_NONE, &g.seen_accel},
+        {"acs", KWPY_OBJ, &g.acs, KW_UNIT_NONE, &g.seen_acs},
+        {"fraction", KWPY_UNIT, &g.fraction, KW_UNIT_NONE, &g.seen_fraction},
+        {"ellipse", KWPY_BOOL, &g.ellipse, KW_UNIT_NONE, NULL},
+        {"power", KWPY_UNIT, &g.power, KW_UNIT_NONE, &g.seen_power},
+        {"shift", KWPY_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift},
+        {"spokes", KWPY_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes},
+        {"tiny", KWPY_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny},
+        {"readout-oversampling", KWPY_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros},
+        {"dwell", KWPY_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell},
+        {"fov", KWPY_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov},
+        {"gmax", KWPY_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax},
+        {"slew", KWPY_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew},
+        {"raster", KWPY_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster},
+        {"interleaves", KWPY_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves},
+        {"shots", KWPY_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots},
+        {"te", KWPY_UNIT, &g.te, KW_UNIT_TIME, &g.seen_te},
+        {"seed", KWPY_INT, &g.seed, KW_UNIT_NONE, &g.seen_seed},
+        {NULL, 0, NULL, 0, NULL}};
+    Py_ssize_t npos = PyTuple_GET_SIZE(args);
+    if (npos > 1)
+        return PyErr_Format(PyExc_TypeError, "pattern() takes one positional argument (kind), "
+                                             "%zd given", npos);
+    if (kwpy_parse_kwargs(kwargs, table, "pattern") < 0)
+        return NULL;
+    if (npos == 1) {
+        if (g.kind)
+            return PyErr_Format(PyExc_TypeError, "pattern() got multiple values for 'kind'");
+        PyObject *k = PyTuple_GET_ITEM(args, 0);
+        if (!PyUnicode_Check(k))
+            return kwpy_value_error("kind", "must be a str");
+        g.kind = PyUnicode_AsUTF8(k);
+        if (!g.kind)
+            return NULL;
+    }
+    kw_pattern_options o;
+    if (generate_options(&g, &o) < 0)
+        return NULL;
+    const int grad = o.kind == KW_PATTERN_SPIRAL || o.kind == KW_PATTERN_EPI;
+    kw_pattern *p = NULL;
+    kw_status st;
+    Py_BEGIN_ALLOW_THREADS
+    st = kw_pattern_create(&p, &o);
+    Py_END_ALLOW_THREADS
+    if (st)
+        return pattern_fail(st, kw_pattern_kind_is_mask(o.kind) ? "pattern"
+                                : grad ? g.kind : "trajectory");
+    PyObject *r = pattern_result(p);
+    kw_pattern_destroy(p);
+    return r;
+}
+
+/* ---- analyse(): the input and what its sidecar tells --------------------------------- */
+
+typedef struct an_opts {
+    PyObject *info;
+    const char *kind, *name;
+    long matrix, readout_samples, ros, psf_size;
+    int plane;
+    int seen_matrix, seen_readout, seen_ros, seen_plane;
+} an_opts;
+
+/* info["key"] as text (borrowed, valid while info lives) or NULL */
+static const char *info_str(PyObject *info, const char *key)
+{
+    PyObject *v = info ? PyDict_GetItemString(info, key) : NULL;
+    return v && PyUnicode_Check(v) ? PyUnicode_AsUTF8(v) : NULL;
+}
+
+/* info["key"] (or info["key"][0] when `first`) as a number: 1, or 0 if absent
+ * or not a number */
+static int info_num(PyObject *info, const char *key, int first, double *x)
+{
+    PyObject *v = info ? PyDict_GetItemString(info, key) : NULL;
+    if (v && first)
+        v = PyList_Check(v) && PyList_GET_SIZE(v) > 0 ? PyList_GET_ITEM(v, 0) : NULL;
+    if (!v || PyBool_Check(v) || !(PyFloat_Check(v) || PyLong_Check(v)))
+        return 0;
+    *x = PyFloat_AsDouble(v);
+    if (*x == -1.0 && PyErr_Occurred()) {
+        PyErr_Clear();
+        return 0;
+    }
+    return 1;
+}
+
+/* The readout oversampling F of a radial-family trajectory (as
+ * cli/pattern_read.c): info's "readout_oversampling" (or the keyword) when
+ * given, else readout_samples / matrix; checked against the samples. */
+static int radial_oversampling(const an_opts *g, PyArrayObject *arr, kw_pattern_traj_desc *ti)
+{
+    double fv;
+    long f;
+    int have = g->seen_ros ? (fv = (double)g->ros, 1)
+                           : info_num(g->info, "readout_oversampling", 0, &fv);
+    if (have) {
+        if (fv != floor(fv) || !(fv >= 1 && fv <= 4))
+            return kwpy_value_error("readout_oversampling", "must be a whole number in 1..4"), -1;
+        f = (long)fv;
+    } else {
+        if (ti->readout % ti->n != 0 || ti->readout / ti->n > 4)
+            return kwpy_value_error("readout_samples", "%zu is not F x the matrix %zu (F = 1..4)",
+                                    ti->readout, ti->n), -1;
+        f = (long)(ti->readout / ti->n);
+    }
+    const size_t samples = (size_t)PyArray_DIM(arr, 0), c = (size_t)PyArray_DIM(arr, 1);
+    if (ti->readout != (size_t)f * ti->n)
+        return kwpy_value_error("readout_samples", "%zu differs from %ld x the matrix %zu",
+                                ti->readout, f, ti->n), -1;
+    if (samples < ti->readout)
+        return kwpy_value_error("readout_samples", "%zu samples per readout, the file holds %zu",
+                                ti->readout, samples), -1;
+    const float *k = PyArray_DATA(arr);
+    const size_t j = ti->readout / 2;
+    double dx = (double)k[(j + 1) * c] - k[j * c], dy = (double)k[(j + 1) * c + 1] - k[j * c + 1];
+    double step = sqrt(dx * dx + dy * dy);
+    if (!(fabs(step * (double)f - 1.0) < 1e-3))
+        return kwpy_value_error("readout_oversampling", "samples are %g cycle/FOV apart along a "
+                                "readout, not 1/%ld", step, f), -1;
+    ti->oversampling = (int)f;
+    return 0;
+}
+
+static kw_status analyse_trajectory(const an_opts *g, const char *pk, PyArrayObject *arr,
+                                    kw_pattern_analysis *a, int *raised)
+{
+    kw_pattern_traj_desc ti = {0};
+    double nn, rs;
+    int have_n = g->seen_matrix ? (nn = (double)g->matrix, 1) : info_num(g->info, "matrix", 1, &nn);
+    int have_r = g->seen_readout ? (rs = (double)g->readout_samples, 1)
+                                 : info_num(g->info, "readout_samples", 0, &rs);
+    *raised = 1;
+    if (!have_n || !have_r || !(rs >= 1) || rs > 1e9 || rs != floor(rs))
+        return kwpy_value_error("pattern", "a trajectory needs its sidecar (info) with \"matrix\" "
+                                "and \"readout_samples\""), KW_EINVAL;
+    if (!(nn >= 2 && nn <= 4096 && nn == floor(nn)))
+        return kwpy_value_error("matrix", "sidecar matrix %g outside 2..4096", nn), KW_EINVAL;
+    ti.n = (size_t)nn;
+    ti.readout = (size_t)rs;
+    PyObject *shape = g->info ? PyDict_GetItemString(g->info, "shape") : NULL;
+    if (shape && PyList_Check(shape) && PyList_GET_SIZE(shape) == 2) {
+        double s0 = PyFloat_AsDouble(PyList_GET_ITEM(shape, 0));
+        double s1 = PyFloat_AsDouble(PyList_GET_ITEM(shape, 1));
+        if (PyErr_Occurred()) /* not numbers: no shape to agree with */
+            PyErr_Clear(), s0 = s1 = -1;
+        if (s0 != (double)PyArray_DIM(arr, 0) || s1 != (double)PyArray_DIM(arr, 1))
+            return kwpy_value_error("pattern", "shape (%zd, %zd) differs from the sidecar's",
+                                    (Py_ssize_t)PyArray_DIM(arr, 0),
+                                    (Py_ssize_t)PyArray_DIM(arr, 1)), KW_EINVAL;
+    }
+    ti.radial = pk && (strcmp(pk, "radial") == 0 || strcmp(pk, "golden") == 0 ||
+                       strcmp(pk, "stack-of-stars") == 0);
+    ti.weights = ti.radial                             ? KW_PATTERN_WEIGHTS_RADIAL
+                 : (pk && strcmp(pk, "spiral") == 0) ? KW_PATTERN_WEIGHTS_PIPE
+                                                     : KW_PATTERN_WEIGHTS_NONE;
+    if (ti.radial && radial_oversampling(g, arr, &ti) < 0)
+        return KW_EINVAL;
+    ti.psf_size = g->psf_size > 0 ? (size_t)g->psf_size : 0;
+    *raised = 0;
+    kw_status st;
+    const float *k = PyArray_DATA(arr);
+    size_t samples = (size_t)PyArray_DIM(arr, 0);
+    int nd = (int)PyArray_DIM(arr, 1);
+    Py_BEGIN_ALLOW_THREADS
+    st = kw_pattern_analyse_trajectory(a, k, samples, nd, &ti, NULL, NULL);
+    Py_END_ALLOW_THREADS
+    return st;
+}
+
+static kw_status analyse_mask(const an_opts *g, PyArrayObject *arr, int u8,
+                              kw_pattern_analysis *a, int *raised)
+{
+    *raised = 1;
+    if (PyArray_NDIM(arr) != 2 || PyArray_DIM(arr, 0) < 1 || PyArray_DIM(arr, 1) < 1)
+        return kwpy_value_error("pattern", "a mask must be 2-D: (ny, nx) or (nz, ny), got %d "
+                                "dimensions", PyArray_NDIM(arr)), KW_EINVAL;
+    const size_t rows = (size_t)PyArray_DIM(arr, 0), cols = (size_t)PyArray_DIM(arr, 1);
+    const size_t n = rows * cols;
+    float *w = PyMem_Malloc(n * sizeof *w);
+    if (!w)
+        return PyErr_NoMemory(), KW_ENOMEM;
+    for (size_t i = 0; i < n; i++) {
+        float v = u8 ? (float)((const uint8_t *)PyArray_DATA(arr))[i]
+                     : ((const float *)PyArray_DATA(arr))[i];
+        if (v < 0) {
+            PyMem_Free(w);
+            return kwpy_value_error("pattern", "negative weight %g at index %zu", v, i), KW_EINVAL;
+        }
+        w[i] = u8 ? (v > 0) : v;
+    }
+    const char *plane = info_str(g->info, "plane");
+    int is_plane = 0;
+    if (g->seen_plane) {
+        is_plane = g->plane;
+    } else if (plane) {
+        is_plane = strcmp(plane, "kz-ky") == 0;
+    } else { /* rows constant along x: ky lines */
+        for (size_t y = 0; y < rows && !is_plane; y++)
+            for (size_t x = 1; x < cols; x++)
+                if (w[y * cols + x] != w[y * cols]) {
+                    is_plane = 1;
+                    break;
+                }
+    }
+    *raised = 0;
+    kw_status st;
+    Py_BEGIN_ALLOW_THREADS
+    st = kw_pattern_analyse_mask(a, w, rows, cols, is_plane);
+    Py_END_ALLOW_THREADS
+    PyMem_Free(w);
+    return st;
+}
+
+/* the dtype class of `obj`: 'c' complex, 'u' uint8/bool, 'f' other real;
+ * 0 with InputError when it is no array of numbers */
+static char input_class(PyObject *obj)
+{
+    PyArrayObject *probe = (PyArrayObject *)PyArray_FROM_O(obj);
+    if (!probe) {
+        PyErr_Clear();
+        kwpy_value_error("pattern", "is not an array of numbers");
+        return 0;
+    }
+    PyArray_Descr *d = PyArray_DESCR(probe);
+    char kind = d->kind;
+    int u8 = kind == 'b' || (kind == 'u' && d->elsize == 1);
+    Py_DECREF(probe);
+    if (kind == 'c')
+        return kwpy_value_error("pattern", "a pattern is uint8 or float32, not complex"), 0;
+    if (kind != 'b' && kind != 'i' && kind != 'u' && kind != 'f')
+        return kwpy_value_error("pattern", "is not an array of numbers"), 0;
+    return u8 ? 'u' : 'f';
+}
+
+/* mask (analyse_mask) or trajectory, as cli/pattern_read.c decides */
+static int is_trajectory(PyArrayObject *arr, const char *skind)
+{
+    if (skind)
+        return strcmp(skind, "trajectory") == 0;
+    if (PyArray_TYPE(arr) != NPY_FLOAT32 || PyArray_NDIM(arr) != 2 ||
+        (PyArray_DIM(arr, 1) != 2 && PyArray_DIM(arr, 1) != 3))
+        return 0;
+    const float *v = PyArray_DATA(arr);
+    for (npy_intp i = 0; i < PyArray_SIZE(arr); i++)
+        if (v[i] < 0)
+            return 1;
+    return 0;
+}
+
+/* ---- analyse(): the report --------------------------------------------------------------- */
+
+static PyObject *analysis_result(const kw_pattern_analysis *a, const char *name, const char *pk)
+{
+    char *json = NULL;
+    kw_status st = kw_pattern_analysis_json(a, name, pk, &json);
+    if (st)
+        return kwpy_raise(st, "analyse");
+    PyObject *d = kwpy_json_dict(json);
+    if (!d)
+        return NULL;
+    if (put_array(d, "psf", KWPY_C64, 2, a->psfdims, a->psfbuf, sizeof(kw_cfloat)) < 0) {
+        Py_DECREF(d);
+        return NULL;
+    }
+    return d;
+}
+
+static PyObject *analyse_array(const an_opts *g, PyObject *obj)
+{
+    char cls = input_class(obj);
+    if (!cls)
+        return NULL;
+    const char *skind = info_str(g->info, "kind");
+    const char *pk = g->kind ? g->kind : info_str(g->info, "pattern_kind");
+    if (!skind && g->kind) { /* a kind of pattern() tells mask or trajectory */
+        int k = 0;
+        while (kw_pattern_kind_name((kw_pattern_kind)k) &&
+               strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
+            k++;
+        if (kw_pattern_kind_name((kw_pattern_kind)k))
+            skind = kw_pattern_kind_is_mask((kw_pattern_kind)k) ? "mask" : "trajectory";
+    }
+    PyArrayObject *arr = kwpy_array_in(obj, cls == 'u' ? KWPY_U8 : KWPY_F32, "pattern", 0, 8);
+    if (!arr)
+        return NULL;
+    if (cls != 'u') {
+        kw_array ka = {.dtype = KW_F32, .ndim = 1, .dims = {(size_t)PyArray_SIZE(arr)},
+                       .data = PyArray_DATA(arr)};
+        kw_status st = kw_array_all_finite(&ka);
+        if (st) {
+            Py_DECREF(arr);
+            return kwpy_raise(st, "pattern");
+        }
+    }
+    if (skind && strcmp(skind, "mask") != 0 && strcmp(skind, "trajectory") != 0) {
+        Py_DECREF(arr);
+        return kwpy_value_error("pattern", "sidecar kind \"%s\" is not a mask or trajectory",
+                                skind);
+    }
+    kw_pattern_analysis a;
+    memset(&a, 0, sizeof a);
+    int raised = 0;
+    kw_status st;
+    if (cls != 'u' && is_trajectory(arr, skind)) {
+        if (PyArray_NDIM(arr) != 2 || (PyArray_DIM(arr, 1) != 2 && PyArray_DIM(arr, 1) != 3) ||
+            PyArray_DIM(arr, 0) < 2) {
+            Py_DECREF(arr);
+            return kwpy_value_error("pattern", "a trajectory must be float32 of shape "
+                                    "(samples, 2 or 3)");
+        }
+        st = analyse_trajectory(g, pk, arr, &a, &raised);
+    } else if (skind && strcmp(skind, "trajectory") == 0) {
+        st = KW_EINVAL;
+        raised = 1;
+        kwpy_value_error("pattern", "a trajectory must be float32 of shape (samples, 2 or 3)");
+    } else {
+        st = analyse_mask(g, arr, cls == 'u', &a, &raised);
+    }
+    Py_DECREF(arr);
+    PyObject *r = NULL;
+    if (st && !raised)
+        kwpy_raise(st, "pattern");
+    else if (!st)
+        r = analysis_result(&a, g->name, pk);
+    kw_pattern_analysis_free(&a);
+    return r;
+}
+
+static PyObject *py_analyse(PyObject *self, PyObject *args, PyObject *kwargs)
+{
+    (void)self;
+    an_opts g;
+    memset(&g, 0, sizeof g);
+    PyObject *obj = NULL;
+    const kwpy_kw table[] = {
+        {"pattern", KWPY_OBJ, &obj, KW_UNIT_NONE, NULL},
+        {"info", KWPY_OBJ, &g.info, KW_UNIT_NONE, NULL},
+        {"kind", KWPY_STR, &g.kind, KW_UNIT_NONE, NULL},
+        {"name", KWPY_STR, &g.name, KW_UNIT_NONE, NULL},
+        {"matrix", KWPY_INT, &g.matrix, KW_UNIT_NONE, &g.seen_matrix},
+        {"readout-samples", KWPY_INT, &g.readout_samples, KW_UNIT_NONE, &g.seen_readout},
+        {"readout-oversampling", KWPY_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros},
+        {"plane", KWPY_BOOL, &g.plane, KW_UNIT_NONE, &g.seen_plane},
+        {"psf-size", KWPY_INT, &g.psf_size, KW_UNIT_NONE, NULL},
+        {NULL, 0, NULL, 0, NULL}};
+    Py_ssize_t npos = PyTuple_GET_SIZE(args);
+    if (npos > 1)
+        return PyErr_Format(PyExc_TypeError, "analyse() takes one positional argument, %zd given",
+                            npos);
+    if (kwpy_parse_kwargs(kwargs, table, "analyse") < 0)
+        return NULL;
+    if (npos == 1) {
+        if (obj)
+            return PyErr_Format(PyExc_TypeError, "analyse() got multiple values for 'pattern'");
+        obj = PyTuple_GET_ITEM(args, 0);
+    }
+    if (!obj)
+        return PyErr_Format(PyExc_TypeError, "analyse() missing the pattern");
+    if (g.info && !PyDict_Check(g.info))
+        return kwpy_value_error("info", "must be a dict (the sidecar)");
+    if (g.psf_size && (g.psf_size < 8 || g.psf_size > 512))
+        return kwpy_value_error("psf-size", "%ld outside 8..512", g.psf_size);
+    /* the namespace of pattern(): its array and its sidecar */
+    PyObject *held = NULL, *held_info = NULL;
+    if (!PyArray_Check(obj) && PyObject_HasAttrString(obj, "info")) {
+        held = PyObject_HasAttrString(obj, "mask") ? PyObject_GetAttrString(obj, "mask")
+                                                  : PyObject_GetAttrString(obj, "trajectory");
+        if (!held)
+            return NULL;
+        if (!g.info) {
+            held_info = PyObject_GetAttrString(obj, "info");
+            if (!held_info) {
+                Py_DECREF(held);
+                return NULL;
+            }
+            g.info = PyDict_Check(held_info) ? held_info : NULL;
+        }
+        obj = held;
+    }
+    PyObject *r = analyse_array(&g, obj);
+    Py_XDECREF(held);
+    Py_XDECREF(held_info);
+    return r;
+}
+
+static PyMethodDef pattern_methods[] = {
+    {"pattern", (PyCFunction)(void (*)(void))py_pattern, METH_VARARGS | METH_KEYWORDS,
+     "pattern(kind, matrix=..., **options) -> namespace: the sampling pattern of\n"
+     "`kweave pattern --kind KIND` (options as the command's, '-' written '_').\n"
+     "Masks: .mask (uint8), .density (float32); trajectories: .trajectory\n"
+     "(float32 (samples, ndim), cycles/FOV), .times (float32, s); .info: the sidecar.\n"
+     "See docs/python-pattern-plan.md."},
+    {"analyse", (PyCFunction)(void (*)(void))py_analyse, METH_VARARGS | METH_KEYWORDS,
+     "analyse(pattern, info=None, **options) -> dict: the report of `kweave pattern\n"
+     "--analyse F --json J` for a mask (ny, nx) / (nz, ny) or a trajectory (samples, ndim)\n"
+     "with its sidecar `info` (or the namespace pattern() returns), and the PSF\n"
+     "(complex64) under \"psf\". See docs/python-pattern-plan.md."},
+    {NULL, NULL, 0, NULL}};
+
+int kwpy_add_pattern(PyObject *m) { return kwpy_add_functions(m, pattern_methods); }
