@@ -65,7 +65,8 @@ class ReconOptions(ctypes.Structure):
                 ("tolerance", ctypes.c_double), ("oversampling", ctypes.c_double),
                 ("kernel", ctypes.c_int * 2), ("replicas", ctypes.c_int),
                 ("seed", ctypes.c_long), ("keep_coils", ctypes.c_int), ("dcf", ctypes.c_int),
-                ("want_gfactor", ctypes.c_int), ("estimate_sens", ctypes.c_int)]
+                ("want_gfactor", ctypes.c_int), ("estimate_sens", ctypes.c_int),
+                ("complex_image", ctypes.c_int)]
 
 
 class Geometry(ctypes.Structure):
