@@ -16,6 +16,7 @@
 #include "npy.h"
 #include "outfile.h"
 #include "pattern_cli.h"
+#include "pattern_json.h"
 
 #define MAX_COMPARE 8
 
@@ -73,7 +74,6 @@ static int parse_sizes(const char *field, const char *s, size_t *v, int max, int
 }
 
 
-#define add_num kw_pattern_cli_add_num
 
 typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
@@ -263,41 +263,16 @@ static void report_names(const gen_opts *g, kw_pattern_report *a)
 
 /* ---- masks ------------------------------------------------------------------------------ */
 
-static int mask_sidecar(const gen_opts *g, const kw_pattern_options *o,
-                        const kw_pattern_info *in, const char *sp)
+/* The sidecar (the library's, pattern_json.h; a mask names no file). */
+static int mask_sidecar(const kw_pattern *p, const char *sp)
 {
-    const int plane = in->plane;
-    const size_t nx = o->dims[o->ndim - 1], ny = in->density_shape[1],
-                 nz = in->density_shape[0];
-    cJSON *j = cJSON_CreateObject();
-    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(j, "kind", "mask");
-    cJSON_AddStringToObject(j, "layout", "cartesian");
-    cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-    cJSON_AddStringToObject(j, "plane", plane ? "kz-ky" : "ky-kx");
-    double sh[2] = {(double)in->shape[0], (double)in->shape[1]};
-    kw_json_add_vec(j, "shape", sh, 2);
-    double mt[3] = {(double)nx, (double)ny, (double)nz};
-    kw_json_add_vec(j, "matrix", mt, plane ? 3 : 2);
-    add_num(j, "acceleration", in->acceleration);
-    kw_json_add_vec(j, "accel_requested", in->accel_requested, plane ? 2 : 1);
-    add_num(j, "acs_lines", in->acs_lines);
-    double ab[2] = {(double)in->acs_requested[0], (double)in->acs_requested[1]};
-    kw_json_add_vec(j, "acs_requested", ab, plane ? 2 : 1);
-    add_num(j, "fraction", o->fraction);
-    cJSON_AddBoolToObject(j, "ellipse", o->ellipse);
-    if (o->kind == KW_PATTERN_RANDOM || o->kind == KW_PATTERN_POISSON)
-        add_num(j, "density_power", o->power);
-    if (o->kind == KW_PATTERN_LATTICE)
-        add_num(j, "shift", (double)o->shift);
-    add_num(j, "seed", (double)g->seed);
-    add_num(j, "sampled_points", (double)in->sampled_points);
-    kw_status st = kw_json_write(sp, j);
+    cJSON *j = kw_pattern_json_build(p, NULL, NULL);
+    kw_status st = j ? kw_json_write(sp, j) : kw_set_error(KW_ENOMEM, "out of memory");
     cJSON_Delete(j);
     return st ? kw_cli_status(st, "sidecar") : -1;
 }
 
-static int mask_files(const gen_opts *g, const kw_pattern_options *o, const kw_pattern *p)
+static int mask_files(const gen_opts *g, const kw_pattern *p)
 {
     const kw_pattern_info *in = kw_pattern_info_of(p);
     int rc = -1;
@@ -318,7 +293,7 @@ static int mask_files(const gen_opts *g, const kw_pattern_options *o, const kw_p
     }
     char *sp = g->out ? kw_sidecar_path(g->out) : NULL;
     if (sp)
-        rc = mask_sidecar(g, o, in, sp);
+        rc = mask_sidecar(p, sp);
     free(sp);
     return rc;
 }
@@ -332,7 +307,7 @@ static int gen_mask(const gen_opts *g, kw_pattern_options *o)
     kw_status st = kw_pattern_create(&p, o);
     if (st)
         return pattern_fail(st, "pattern");
-    rc = mask_files(g, o, p);
+    rc = mask_files(g, p);
     if (rc < 0) {
         const kw_pattern_info *in = kw_pattern_info_of(p);
         const size_t n = in->shape[0] * in->shape[1];
@@ -357,113 +332,46 @@ static int gen_mask(const gen_opts *g, kw_pattern_options *o)
 
 /* ---- trajectories ----------------------------------------------------------------------- */
 
-/* Write a trajectory, its sample times and start its sidecar (the keys
- * every trajectory has). Returns the sidecar object to complete, or NULL
- * with *rc set (an exit code) when a file could not be written, or NULL
- * with *rc = -1 when no --out was given. *tp and *sp receive the times and
- * sidecar file names (free them). */
-static cJSON *traj_write_begin(const gen_opts *g, const kw_pattern *p, int *rc, char **tp,
-                               char **sp)
+/* The slots of a trajectory's sidecar: the times file (its base name). */
+static int traj_slot(cJSON *j, const char *slot, void *user)
 {
-    static const char *const columns[3] = {"kx", "ky", "kz"};
+    const char *tp = user;
+    (void)slot; /* "times" and "times_end": the same key */
+    cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
+    return 1;
+}
+
+/* Write a trajectory, its sample times and its sidecar (the library's,
+ * pattern_json.h, with the times file's name). -1 or an exit code; nothing
+ * without --out. */
+static int traj_write(const gen_opts *g, const kw_pattern *p)
+{
     const kw_pattern_info *in = kw_pattern_info_of(p);
-    *rc = -1;
-    *tp = *sp = NULL;
     if (!g->out)
-        return NULL;
-    *tp = g->times ? strdup(g->times) : times_path(g->out);
+        return -1;
+    char *tp = g->times ? strdup(g->times) : times_path(g->out);
     kw_array k = {.dtype = KW_F32, .ndim = 2, .dims = {in->shape[0], in->shape[1]},
                   .data = (void *)kw_pattern_trajectory(p)};
     kw_array t = {.dtype = KW_F32, .ndim = 1, .dims = {in->shape[0]},
                   .data = (void *)kw_pattern_times(p)};
     kw_status st = kw_npy_write(g->out, &k);
-    if (!st && *tp)
-        st = kw_npy_write(*tp, &t);
+    if (!st && tp)
+        st = kw_npy_write(tp, &t);
     if (st) {
-        *rc = kw_cli_status(st, "out");
-        return NULL;
+        free(tp);
+        return kw_cli_status(st, "out");
     }
-    *sp = kw_sidecar_path(g->out);
-    if (!*sp)
-        return NULL;
-    cJSON *j = cJSON_CreateObject();
-    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(j, "kind", "trajectory");
-    cJSON_AddStringToObject(j, "layout", "noncartesian");
-    cJSON_AddStringToObject(j, "pattern_kind", g->kind);
-    double sh[2] = {(double)in->shape[0], (double)in->shape[1]};
-    kw_json_add_vec(j, "shape", sh, 2);
-    cJSON *cols = cJSON_AddArrayToObject(j, "columns");
-    for (size_t i = 0; i < in->shape[1]; i++)
-        cJSON_AddItemToArray(cols, cJSON_CreateString(columns[i]));
-    cJSON_AddStringToObject(j, "units", "cycles/FOV");
-    return j;
-}
-
-/* Finish and write the sidecar started by traj_write_begin(). */
-static int traj_write_end(cJSON *j, const char *sp, const char *tp)
-{
-    cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
-    cJSON_AddNullToObject(j, "seed");
-    kw_status st = kw_json_write(sp, j);
-    cJSON_Delete(j);
-    return st ? kw_cli_status(st, "sidecar") : -1;
-}
-
-static void radial_sidecar(cJSON *j, const kw_pattern_options *o, const kw_pattern_info *in)
-{
-    const size_t nx = o->dims[o->ndim - 1];
-    double mt[3] = {(double)nx, (double)nx, (double)in->partitions};
-    kw_json_add_vec(j, "matrix", mt, (int)in->shape[1]);
-    add_num(j, "spokes", (double)in->spokes);
-    add_num(j, "partitions", (double)in->partitions);
-    add_num(j, "readout_samples", (double)in->readout_samples);
-    add_num(j, "readout_oversampling", in->oversampling);
-    add_num(j, "readouts", (double)in->readouts);
-    add_num(j, "nyquist_spokes", (double)in->nyquist_spokes);
-    add_num(j, "acceleration", in->acceleration);
-    add_num(j, "angle_increment_deg", in->angle_increment_deg);
-    if (in->tiny >= 1)
-        add_num(j, "tiny_golden_order", in->tiny);
-    else
-        cJSON_AddNullToObject(j, "tiny_golden_order");
-    add_num(j, "dwell_s", in->dwell_s); /* ADC: between samples */
-    add_num(j, "dwell_per_pixel_s", in->dwell_per_pixel_s);
-    add_num(j, "readout_duration_s", in->readout_duration_s);
-    add_num(j, "te_s", in->te_s);
-}
-
-static void gradient_sidecar(cJSON *j, const kw_pattern_options *o, const kw_pattern_info *in,
-                             const char *tp)
-{
-    const int spiral = o->kind == KW_PATTERN_SPIRAL;
-    double mt[2] = {(double)o->dims[1], (double)o->dims[0]};
-    kw_json_add_vec(j, "matrix", mt, 2);
-    double fv[2] = {in->fov_m, in->fov_m};
-    kw_json_add_vec(j, "fov_m", fv, 2);
-    add_num(j, "readout_samples", (double)in->readout_samples);
-    add_num(j, "readouts", (double)in->readouts);
-    if (spiral) {
-        add_num(j, "interleaves", in->interleaves);
-        add_num(j, "readout_s", in->spiral_readout_s);
-        add_num(j, "gmax_design_T_per_m", in->gmax_design);
-        add_num(j, "slew_design_T_per_m_per_s", in->slew_design);
-    } else {
-        add_num(j, "shots", in->shots);
-        add_num(j, "fraction", in->epi_fraction);
-        add_num(j, "echo_spacing_s", in->echo_spacing_s);
-        add_num(j, "train_s", in->train_s);
-        add_num(j, "center_time_s", in->center_time_s);
+    int rc = -1;
+    char *sp = kw_sidecar_path(g->out);
+    if (sp) {
+        cJSON *j = kw_pattern_json_build(p, traj_slot, tp);
+        st = j ? kw_json_write(sp, j) : kw_set_error(KW_ENOMEM, "out of memory");
+        cJSON_Delete(j);
+        rc = st ? kw_cli_status(st, "sidecar") : -1;
     }
-    add_num(j, "dwell_s", in->dwell_s);
-    add_num(j, "gmax_T_per_m", in->gmax);
-    add_num(j, "slew_T_per_m_per_s", in->slew);
-    add_num(j, "raster_s", in->raster);
-    add_num(j, "te_s", in->te_s); /* null without --te */
-    /* "times" here and again from traj_write_end(): the files have always
-     * carried it twice; kept for byte-identical sidecars */
-    cJSON_AddStringToObject(j, "times", tp ? base_name(tp) : "");
-    cJSON_AddStringToObject(j, "times_origin", in->times_origin);
+    free(sp);
+    free(tp);
+    return rc;
 }
 
 /* the lines a trajectory's report starts with */
@@ -532,17 +440,7 @@ static int gen_traj(const gen_opts *g, kw_pattern_options *o)
     kw_status st = kw_pattern_create(&p, o);
     if (st)
         return pattern_fail(st, grad ? g->kind : "trajectory");
-    char *tp, *sp;
-    cJSON *j = traj_write_begin(g, p, &rc, &tp, &sp);
-    if (j) {
-        if (grad)
-            gradient_sidecar(j, o, kw_pattern_info_of(p), tp);
-        else
-            radial_sidecar(j, o, kw_pattern_info_of(p));
-        rc = traj_write_end(j, sp, tp);
-    }
-    free(sp);
-    free(tp);
+    rc = traj_write(g, p);
     if (rc < 0)
         rc = traj_report(g, o, p);
     kw_pattern_destroy(p);

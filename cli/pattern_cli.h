@@ -23,7 +23,7 @@ typedef struct kw_pattern_report {
 int kw_pattern_cli_analyse_file(const char *path, kw_pattern_report *a, long psf_size);
 
 /* pattern_report.c */
-void kw_pattern_cli_add_num(cJSON *o, const char *k, double v);
+/* the library's report (kw_pattern_analysis_json()) as an object */
 cJSON *kw_pattern_cli_json(const kw_pattern_report *a);
 void kw_pattern_cli_text(FILE *f, const kw_pattern_report *a);
 int kw_pattern_cli_psf_png(const char *path, const kw_pattern_report *a);

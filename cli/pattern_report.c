@@ -9,82 +9,19 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "analysis_json.h"
 #include "cli.h"
 #include "pattern_cli.h"
 #include "png.h"
 
 #define PSF_DB_FLOOR -60.0 /* picture window: common practice, no source */
 
-static cJSON *num_or_null(double v) { return isfinite(v) ? cJSON_CreateNumber(v) : cJSON_CreateNull(); }
-
-void kw_pattern_cli_add_num(cJSON *o, const char *k, double v) { cJSON_AddItemToObject(o, k, num_or_null(v)); }
-
 /* ---- reports -------------------------------------------------------------------------- */
 
+/* the library's report (recon/analysis_json.h) */
 cJSON *kw_pattern_cli_json(const kw_pattern_report *p)
 {
-    const kw_pattern_analysis *a = &p->r;
-    cJSON *o = cJSON_CreateObject();
-    cJSON_AddStringToObject(o, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(o, "file", p->name);
-    if (p->kind[0])
-        cJSON_AddStringToObject(o, "pattern_kind", p->kind);
-    else
-        cJSON_AddNullToObject(o, "pattern_kind");
-    cJSON_AddStringToObject(o, "layout", a->cartesian ? "cartesian" : "noncartesian");
-    cJSON *ax = cJSON_AddArrayToObject(o, "axes");
-    for (int i = 0; i < 2; i++)
-        cJSON_AddItemToArray(ax, cJSON_CreateString(a->axes[i]));
-    double d[3] = {(double)a->dims[0], (double)a->dims[1], 0};
-    kw_json_add_vec(o, "shape", d, 2);
-    kw_pattern_cli_add_num(o, "acceleration", a->acceleration);
-    kw_pattern_cli_add_num(o, "sampled_fraction", a->sampled_fraction);
-    kw_pattern_cli_add_num(o, "acs_lines", a->acs_lines);
-    if (a->cartesian) {
-        double b[2] = {(double)a->acs_block[0], (double)a->acs_block[1]};
-        kw_json_add_vec(o, "acs_block", b, 2);
-    } else {
-        cJSON_AddNullToObject(o, "acs_block");
-    }
-    kw_pattern_cli_add_num(o, "max_gap_dk", a->max_gap);
-    if (a->cartesian && !a->plane) {
-        cJSON *g = cJSON_AddObjectToObject(o, "max_gap_dk_by_axis");
-        for (int i = 0; i < 2; i++)
-            kw_pattern_cli_add_num(g, a->axes[i], a->gap_axis[i]);
-    }
-    kw_pattern_cli_add_num(o, "psf_fwhm_pixels", a->fwhm_main);
-    cJSON *f = cJSON_AddObjectToObject(o, "psf_fwhm_pixels_by_axis");
-    cJSON *lobe = cJSON_AddObjectToObject(o, "psf_mainlobe_halfwidth_pixels");
-    cJSON *at = cJSON_AddObjectToObject(o, "psf_peak_sidelobe_at_pixels");
-    for (int i = 0; i < a->psfrank; i++) {
-        kw_pattern_cli_add_num(f, a->axes[i], a->psf.fwhm[i]);
-        kw_pattern_cli_add_num(lobe, a->axes[i], a->psf.lobe[i]);
-        kw_pattern_cli_add_num(at, a->axes[i], (double)a->psf.sidelobe_at[i]);
-    }
-    kw_pattern_cli_add_num(o, "psf_peak", a->psf.peak);
-    kw_pattern_cli_add_num(o, "psf_peak_sidelobe", a->psf.peak_sidelobe);
-    kw_pattern_cli_add_num(o, "psf_energy_outside_mainlobe", a->psf.energy_outside);
-    double pg[2] = {(double)a->psfdims[0], (double)a->psfdims[1]};
-    kw_json_add_vec(o, "psf_grid", pg, 2);
-    cJSON_AddStringToObject(o, "psf_method", a->cartesian ? "fft" : "ndft");
-    if (!a->cartesian)
-        cJSON_AddStringToObject(o, "psf_weights",
-                                a->weights == KW_PATTERN_WEIGHTS_RADIAL ? "radial area (ramp)"
-                                : a->weights == KW_PATTERN_WEIGHTS_PIPE ? "Pipe-Menon 1999 (iterative)"
-                                                       : "none");
-    kw_pattern_cli_add_num(o, "tpsf_incoherence", a->tpsf_max);
-    if (a->tpsf_levels) {
-        cJSON_AddStringToObject(o, "tpsf_wavelet", "db4");
-        kw_json_add_vec(o, "tpsf_by_level", a->tpsf, a->tpsf_levels);
-    } else {
-        cJSON_AddNullToObject(o, "tpsf_wavelet");
-        cJSON_AddNullToObject(o, "tpsf_by_level");
-    }
-    if (!a->cartesian) {
-        kw_pattern_cli_add_num(o, "spokes", (double)a->spokes);
-        kw_pattern_cli_add_num(o, "nyquist_spokes", a->nyquist_spokes);
-    }
-    return o;
+    return kw_pattern_analysis_json_build(&p->r, p->name, p->kind);
 }
 
 void kw_pattern_cli_text(FILE *f, const kw_pattern_report *p)

@@ -230,6 +230,12 @@ static void acq_info(kw_acquisition *a)
     in->noise_sigma = a->sigma;
     in->noise_cov = a->noisy ? a->cov : NULL;
     in->seed = a->o.seed;
+    in->snr = a->o.snr;
+    in->tissue_values_given = a->o.tissue_values != NULL;
+    if (a->o.field_map) {
+        in->field_map = 1;
+        in->field_map_oversampling = 4; /* kw_fieldmap_options_init()'s oversample */
+    }
     if (a->nsl) {
         in->slices = a->nsl;
         in->slice_thickness_m = a->o.slice_thickness_m;

@@ -198,6 +198,10 @@ typedef struct kw_acquisition_info {
     kw_acquisition_tissue tissues[KW_TISSUE_COUNT];
 
     size_t working_set_bytes; /* estimate checked against max_bytes */
+
+    /* added later (growable: new fields at the end) */
+    double snr;              /* options.snr (0: not given) */
+    int tissue_values_given; /* options.tissue_values was given */
 } kw_acquisition_info;
 
 /*! kw_acquisition_create(): check the options (copied with
@@ -223,6 +227,25 @@ KW_API size_t kw_acquisition_maps_count(const kw_acquisition *a);
  * seeded: the same options give the same bytes. `progress` may be NULL. */
 KW_API kw_status kw_acquisition_execute(kw_acquisition *a, kw_cfloat *kspace, float *truth,
                                         kw_cfloat *maps, kw_progress_fn progress, void *user);
+
+/*! kw_acquisition_info_json(): the sidecar `kweave encode` writes beside
+ * its k-space, as JSON text (kw_alloc'd, free with kw_free(); ends with a
+ * newline), without the keys that name files: the command adds those
+ * ("tissue_file" after "tissues"; "trajectory", "sens", "noise_cov",
+ * "pattern" before "acceleration"; "times" after "acs_lines"; in
+ * "protocol": "file" and "plan_sequence" before "min_te_s", "field_map"
+ * before "field_map_oversampling"), and writes "source": "--tissue" where
+ * this text has "source": "caller" (a tissue of options.tissue_values).
+ * The text holds, in order: kweave_version, kind ("kspace"), layout, shape
+ * (of the k-space), matrix and fov_m (x first), phantom, tissues (with the
+ * caller's tissue values or a phantom of tissues: species, pd, t1_s, t2_s,
+ * t2star_s, source), slices (multi-slice), coils, snr (null: none),
+ * noise_sigma, seed, scale, acceleration, acs_lines (null: none), protocol
+ * (sequence, b0_t, te_s, tr_s, ti_s, flip_deg, the readout's bandwidth and
+ * fat shift, df_hz, field gradients, the planned timing, field-map
+ * figures), coil_model (with coils), noise_definition, snr_definition.
+ * The field-map figures are known after execute. KW_EINVAL on NULL. */
+KW_API kw_status kw_acquisition_info_json(const kw_acquisition *a, char **json);
 
 /*! kw_acquisition_destroy(): free (NULL-safe). */
 KW_API void kw_acquisition_destroy(kw_acquisition *a);

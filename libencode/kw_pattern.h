@@ -152,6 +152,24 @@ KW_API const float *kw_pattern_density(const kw_pattern *p);
 KW_API const float *kw_pattern_trajectory(const kw_pattern *p);
 KW_API const float *kw_pattern_times(const kw_pattern *p);
 
+/*! kw_pattern_info_json(): the sidecar `kweave pattern` writes beside the
+ * pattern, as JSON text (kw_alloc'd, free with kw_free(); ends with a
+ * newline), without the names of files: for a trajectory the command adds
+ * "times" (the times file) before the final "seed" and, for spiral and EPI,
+ * also before "times_origin". A mask: kweave_version, kind ("mask"), layout
+ * ("cartesian"), pattern_kind, plane, shape, matrix (x first), acceleration,
+ * accel_requested, acs_lines, acs_requested, fraction, ellipse,
+ * density_power (random, poisson), shift (lattice), seed, sampled_points.
+ * A trajectory: kweave_version, kind ("trajectory"), layout
+ * ("noncartesian"), pattern_kind, shape, columns, units, then radial:
+ * matrix, spokes, partitions, readout_samples, readout_oversampling,
+ * readouts, nyquist_spokes, acceleration, angle_increment_deg,
+ * tiny_golden_order, dwell_s, dwell_per_pixel_s, readout_duration_s, te_s;
+ * spiral/EPI: matrix, fov_m, readout_samples, readouts, the design's
+ * figures, dwell_s, gmax_T_per_m, slew_T_per_m_per_s, raster_s, te_s,
+ * times_origin; last "seed": null. NaN figures are null. KW_EINVAL on NULL. */
+KW_API kw_status kw_pattern_info_json(const kw_pattern *p, char **json);
+
 /*! kw_pattern_destroy(): NULL-safe. */
 KW_API void kw_pattern_destroy(kw_pattern *p);
 

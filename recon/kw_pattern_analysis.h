@@ -89,6 +89,23 @@ KW_API kw_status kw_pattern_analyse_trajectory(kw_pattern_analysis *a, const flo
                                                const kw_pattern_traj_desc *d,
                                                kw_progress_fn progress, void *user);
 
+/*! kw_pattern_analysis_json(): the report `kweave pattern --analyse F
+ * --json R` (and the generating command's --json) writes, as JSON text
+ * (kw_alloc'd, free with kw_free(); ends with a newline). `name` is written
+ * under "file" (the command: the pattern file's base name or the kind; NULL:
+ * null), `kind` under "pattern_kind" (NULL or "": null). Keys, in order:
+ * kweave_version, file, pattern_kind, layout, axes, shape, acceleration,
+ * sampled_fraction, acs_lines, acs_block, max_gap_dk, max_gap_dk_by_axis
+ * (Cartesian lines), psf_fwhm_pixels, psf_fwhm_pixels_by_axis,
+ * psf_mainlobe_halfwidth_pixels, psf_peak_sidelobe_at_pixels, psf_peak,
+ * psf_peak_sidelobe, psf_energy_outside_mainlobe, psf_grid, psf_method,
+ * psf_weights (non-Cartesian), tpsf_incoherence, tpsf_wavelet,
+ * tpsf_by_level, spokes and nyquist_spokes (non-Cartesian); figures that do
+ * not apply (NaN) are null. KW_EINVAL on NULL or an analysis not made. The
+ * command adds nothing (--compare writes an array of these). */
+KW_API kw_status kw_pattern_analysis_json(const kw_pattern_analysis *a, const char *name,
+                                          const char *kind, char **json);
+
 /*! kw_pattern_analysis_free(): release psfbuf and picture (NULL-safe). */
 KW_API void kw_pattern_analysis_free(kw_pattern_analysis *a);
 
