@@ -15,7 +15,6 @@
 #include <unistd.h>
 
 #include "kw_acquire.h"
-kw_status kw_acquisition_info_json(const kw_acquisition *a, char **json); /* TEMP */
 
 #define MAX_EDGE 8192
 
