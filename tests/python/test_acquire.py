@@ -3,6 +3,7 @@ arrays bit for bit, the sidecar's library keys, the command's messages for
 bad values, arrays of any kind handled cleanly, and flat memory."""
 import gc
 import os
+import re
 import sys
 
 import numpy as np
@@ -18,7 +19,7 @@ ENC = ["encode", "--phantom", "shepp-logan", "--matrix", "32", "--fov", "256mm"]
 def norm(msg, renames=()):
     """The command's message in the package's words: no dashes before the
     option names; the file options' names as the keywords."""
-    msg = msg.replace("--", "")
+    msg = re.sub(r"--(?!help)", "", msg)
     head, sep, rest = msg.partition(": ")
     msg = head.replace("-", "_") + sep + rest
     for old, new in renames:
