@@ -11,6 +11,7 @@
 
 #include "cli.h"
 #include "jsonio.h"
+#include "recon_json.h"
 #include "kw_metrics.h"
 #include "npy.h"
 #include "png.h"
@@ -95,14 +96,6 @@ static kw_status write_image(const char *path, const kw_array *a)
         return kw_png_write_array(path, a, &po);
     }
     return kw_npy_write(path, a);
-}
-
-static void add_shape(cJSON *r, const char *key, const kw_array *a)
-{
-    double v[KW_MAX_DIMS];
-    for (int i = 0; i < a->ndim; i++)
-        v[i] = (double)a->dims[i];
-    kw_json_add_vec(r, key, v, a->ndim);
 }
 
 /* The option table and the checks that need no file. -1: go on. */
@@ -454,38 +447,48 @@ static int score(recon_ctx *c)
     return -1;
 }
 
-/* The report, in the order of keys the command has always written. */
+/* What the report's slots need: the files the command read and wrote. */
+typedef struct report_slots {
+    const recon_ctx *c;
+    const char *dcf_file, *sens_file;
+} report_slots;
+
+/* The command's keys at their places in the library's report
+ * (recon/recon_json.h). */
+static int report_slot(cJSON *j, const char *slot, void *user)
+{
+    const report_slots *s = user;
+    const recon_ctx *c = s->c;
+    if (strcmp(slot, "input") == 0)
+        cJSON_AddStringToObject(j, "input", c->o.in);
+    else if (strcmp(slot, "sens_source") == 0)
+        cJSON_AddStringToObject(j, "sens_source",
+                                c->sens.data ? (c->o.sens ? "file (--sens)" : "file (sidecar)") : "none");
+    else if (strcmp(slot, "dcf") == 0 && c->o.dcf)
+        cJSON_AddStringToObject(j, "dcf", c->o.dcf);
+    else if (strcmp(slot, "dcf_file") == 0 && s->dcf_file)
+        cJSON_AddStringToObject(j, "dcf_file", s->dcf_file);
+    else if (strcmp(slot, "sens_file") == 0 && s->sens_file)
+        cJSON_AddStringToObject(j, "sens_file", s->sens_file);
+    else if (strcmp(slot, "gfactor_file") == 0)
+        cJSON_AddStringToObject(j, "gfactor_file", c->o.gfactor);
+    else
+        return 0;
+    return 1;
+}
+
+/* The report: the library's (kw_recon_report_json()) with the command's
+ * file names, then the scores and the output. */
 static int report(recon_ctx *c)
 {
-    const kw_recon_report *p = kw_recon_get_report(c->r);
     const char *sens_file, *dcf_file;
     int rc = write_side_files(c, &sens_file, &dcf_file);
     if (rc >= 0)
         return rc;
-    cJSON *j = c->report = cJSON_CreateObject();
+    report_slots rs = {c, dcf_file, sens_file};
+    cJSON *j = c->report = kw_recon_json_build(c->r, report_slot, &rs);
     if (!j)
         return kw_cli_fail("json", "out of memory");
-    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-    cJSON_AddStringToObject(j, "kind", "recon");
-    cJSON_AddStringToObject(j, "method", c->mname);
-    cJSON_AddStringToObject(j, "input", c->o.in);
-    cJSON_AddStringToObject(j, "layout", c->noncart ? "noncartesian" : "cartesian");
-    add_shape(j, "kspace_shape", &c->ksp);
-    cJSON_AddNumberToObject(j, "coils", (double)c->ksp.dims[0]);
-    if (!p->sens_estimated)
-        cJSON_AddStringToObject(j, "sens_source",
-                                c->sens.data ? (c->o.sens ? "file (--sens)" : "file (sidecar)") : "none");
-    kw_recon_json_method(j, p, c->o.dcf, dcf_file, sens_file);
-    add_shape(j, "image_shape", &c->image);
-    if (c->o.gfactor) {
-        if (p->gfactor_method) {
-            cJSON_AddStringToObject(j, "gfactor_method", p->gfactor_method);
-            cJSON_AddNumberToObject(j, "gfactor_replicas", p->gfactor_replicas);
-        }
-        cJSON_AddNumberToObject(j, "gfactor_mean", p->gfactor_mean);
-        cJSON_AddNumberToObject(j, "gfactor_max", p->gfactor_max);
-        cJSON_AddStringToObject(j, "gfactor_file", c->o.gfactor);
-    }
     if (c->o.ref && (rc = score(c)) >= 0)
         return rc;
     kw_status st;

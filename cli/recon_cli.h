@@ -1,8 +1,8 @@
 /* recon_cli.h: what the two halves of `kweave recon` share (cli/recon_io.c):
  * the parsed options, their mapping onto kw_recon_options, the sidecar's
- * sampling claims, error mapping from the library's parameter names to the
- * command's options, and the report's method keys written from
- * kw_recon_report in the order the command has always written them.
+ * sampling claims and error mapping from the library's parameter names to
+ * the command's options. The report's keys are the library's
+ * (recon/recon_json.h: kw_recon_json_build, kw_recon_json_add_method).
  * cmd_recon.c (one array) and recon_multislice.c (slice by slice) each use
  * these; neither uses a name defined in the other but kw_recon_multislice. */
 #ifndef KW_RECON_CLI_H
@@ -43,11 +43,5 @@ int kw_recon_cli_claims(const cJSON *sidecar, kw_recon_sampling *s, int *stated)
 /*! kw_recon_cli_error(): print the failure of a kw_recon call: the option
  * the library's parameter stands for, else `context`; returns the exit code. */
 int kw_recon_cli_error(kw_status st, const char *context);
-
-/*! kw_recon_json_method(): the keys a method run adds to the report.
- * `dcf_name`: the --dcf value for given weights; `dcf_file`, `sens_file`:
- * the files written, or NULL. */
-void kw_recon_json_method(cJSON *j, const kw_recon_report *p, const char *dcf_name,
-                          const char *dcf_file, const char *sens_file);
 
 #endif

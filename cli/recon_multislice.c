@@ -29,6 +29,7 @@
 
 #include "cli.h"
 #include "jsonio.h"
+#include "recon_json.h"
 #include "kw_metrics.h"
 #include "npy.h"
 #include "npystream.h"
@@ -327,7 +328,7 @@ static void merge_keys(ms_ctx *m, int kind)
     cJSON *sub = cJSON_CreateObject();
     if (!sub)
         return;
-    kw_recon_json_method(sub, kw_recon_get_report(m->r), NULL, NULL, NULL);
+    kw_recon_json_add_method(sub, kw_recon_get_report(m->r), NULL, NULL);
     for (cJSON *it = sub->child; it; it = it->next)
         if (it->string) {
             if (cJSON_GetObjectItemCaseSensitive(m->report, it->string))

@@ -234,8 +234,9 @@ KW_API kw_status kw_acquisition_execute(kw_acquisition *a, kw_cfloat *kspace, fl
  * ("tissue_file" after "tissues"; "trajectory", "sens", "noise_cov",
  * "pattern" before "acceleration"; "times" after "acs_lines"; in
  * "protocol": "file" and "plan_sequence" before "min_te_s", "field_map"
- * before "field_map_oversampling"), and writes "source": "--tissue" where
- * this text has "source": "caller" (a tissue of options.tissue_values).
+ * before "field_map_oversampling"), and names its own option as the
+ * "source" where this text has "source": "caller" (a tissue of
+ * options.tissue_values).
  * The text holds, in order: kweave_version, kind ("kspace"), layout, shape
  * (of the k-space), matrix and fov_m (x first), phantom, tissues (with the
  * caller's tissue values or a phantom of tissues: species, pd, t1_s, t2_s,

@@ -43,6 +43,13 @@ KW_API kw_status kw_metrics_ssim(const double *ref, const double *test, int ndim
                           const size_t *dims, double data_range, double *map,
                           double *mean);
 
+/*! kw_metrics_json(): the scores as `kweave score --json` writes them, as
+ * JSON text (kw_alloc'd, free with kw_free(); ends with a newline): keys
+ * "nrmse", "psnr_db", "ssim", in that order, null where not finite (the
+ * PSNR of equal images). The command adds "ref" and "test" (the file
+ * names). KW_EINVAL on NULL. */
+KW_API kw_status kw_metrics_json(const kw_scores *s, char **json);
+
 #ifdef __cplusplus
 }
 #endif

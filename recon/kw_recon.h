@@ -180,6 +180,27 @@ KW_API kw_status kw_recon_execute(kw_recon *r, const kw_cfloat *kspace, void *im
 /*! kw_recon_report(): what the last execute inferred and used. */
 KW_API const kw_recon_report *kw_recon_get_report(const kw_recon *r);
 
+/*! kw_recon_report_json(): the report of the last execute as `kweave recon
+ * --json` writes it, as JSON text (kw_alloc'd, free with kw_free(); ends
+ * with a newline), without the keys that name the command's files. Keys, in
+ * order: kweave_version, kind ("recon"), method, layout, kspace_shape,
+ * coils, sens_source (maps not estimated: "given" or "none"), then the
+ * method's: prewhitened, sens_source (estimated), sampling (Cartesian: the
+ * inferred acceleration_axes, acs_axes, acceleration, sampled_fraction,
+ * uniform, partial_fourier), dcf (non-Cartesian: "radial", "pipe" or
+ * "given"), partial_fourier_fraction, iterations, gfactor_method and lambda
+ * (sense), kernel, lambda, calibration_fits (grappa), solver, regulariser,
+ * lambda, lambda_absolute, max_iterations, stop, iterations, iteration_log
+ * (iterative methods), nufft (tolerance, oversampling, kernel_width,
+ * kaiser_bessel_beta, grid), combine; then image_shape and, with
+ * want_gfactor, gfactor_method, gfactor_replicas, gfactor_mean,
+ * gfactor_max. The command adds "input" after "method", writes
+ * sens_source as where its maps came from (its option's file, the
+ * sidecar's, or "none"), the given weights' file as "dcf" and "dcf_file", "sens_file",
+ * "gfactor_file", and after these "scores" and "output". KW_EINVAL on NULL
+ * or before the first execute. */
+KW_API kw_status kw_recon_report_json(const kw_recon *r, char **json);
+
 /*! kw_recon_estimated_sens(): the maps the last execute estimated (in the
  * whitened coil basis when a noise covariance was given), their ndim and
  * dims (coils, [nz,] ny, nx); NULL when none were estimated. */

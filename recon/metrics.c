@@ -4,6 +4,7 @@
  * Image Process 13(4):600-612, 2004; Gaussian window of standard deviation
  * 1.5 samples, 11 taps, normalised to unit sum. */
 #include "kw_metrics.h"
+#include "json_build.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -202,4 +203,15 @@ kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
     }
     free(r);
     return st;
+}
+
+kw_status kw_metrics_json(const kw_scores *s, char **json)
+{
+    KW_FAIL_PARAM(!json, KW_EINVAL, "json", "NULL output pointer");
+    *json = NULL;
+    KW_FAIL_PARAM(!s, KW_EINVAL, "scores", "NULL scores");
+    cJSON *root = cJSON_CreateObject();
+    if (root)
+        kw_json_add_scores(root, s->nrmse, s->psnr_db, s->ssim);
+    return kw_json_text(root, json);
 }

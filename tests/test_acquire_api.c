@@ -9,6 +9,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <cJSON.h>
+
 #include "kw_acquire.h"
 
 static void base(kw_acquisition_options *o, const char *ph, size_t n)
@@ -311,4 +313,62 @@ Test(acquire_api, bad_params_name_their_field)
         cr_expect(strstr(kw_last_error(), "--") == NULL, "names a CLI option: %s", kw_last_error());
         cr_expect(a == NULL);
     }
+}
+
+/* kw_acquisition_info_json(): the sidecar of `kweave encode` without the
+ * command's file names: valid JSON with the info's values; NULL refused. */
+Test(acquire_api, info_json)
+{
+    const size_t n = 32;
+    uint8_t mask[32];
+    for (size_t y = 0; y < n; y++)
+        mask[y] = (uint8_t)(y % 2 == 0 || (y >= 13 && y < 19));
+    kw_acquisition_options o;
+    base(&o, "weave", n);
+    o.coils = 4;
+    o.snr = 20;
+    o.seed = 3;
+    o.mask = mask;
+    o.mask_ndim = 1;
+    o.mask_dims[0] = n;
+    kw_acquisition *a;
+    kw_cfloat *k, *m;
+    float *t;
+    const kw_acquisition_info *in = run(&o, &a, &k, &t, &m);
+    char *text = (char *)1;
+    cr_expect_eq(kw_acquisition_info_json(NULL, &text), KW_EINVAL);
+    cr_expect_null(text);
+    cr_expect_eq(kw_acquisition_info_json(a, NULL), KW_EINVAL);
+    cr_assert_eq(kw_acquisition_info_json(a, &text), KW_OK, "%s", kw_last_error());
+    cr_expect(text[strlen(text) - 1] == '\n');
+    cJSON *j = cJSON_Parse(text);
+    cr_assert_not_null(j, "not JSON: %s", text);
+    cr_expect_str_eq(j->child->string, "kweave_version");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "kind")->valuestring, "kspace");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "layout")->valuestring, "cartesian");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "phantom")->valuestring, "weave");
+    const cJSON *shape = cJSON_GetObjectItem(j, "shape");
+    cr_expect(cJSON_GetArraySize(shape) == in->kspace_ndim &&
+              cJSON_GetArrayItem(shape, 0)->valuedouble == 4);
+    cr_expect_eq(cJSON_GetArraySize(cJSON_GetObjectItem(j, "matrix")), 2);
+    cr_expect_eq(cJSON_GetObjectItem(j, "coils")->valuedouble, 4);
+    cr_expect_eq(cJSON_GetObjectItem(j, "snr")->valuedouble, 20);
+    cr_expect_eq(cJSON_GetObjectItem(j, "seed")->valuedouble, 3);
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "noise_sigma")->valuedouble, in->noise_sigma, 1e-12);
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "acceleration")->valuedouble, in->acceleration, 1e-12);
+    cr_expect_eq(cJSON_GetObjectItem(j, "acs_lines")->valuedouble, 7);
+    const cJSON *prot = cJSON_GetObjectItem(j, "protocol");
+    cr_expect_str_eq(cJSON_GetObjectItem(prot, "sequence")->valuestring, "pd");
+    cr_expect(cJSON_IsNull(cJSON_GetObjectItem(prot, "bandwidth_hz")));
+    const cJSON *co = cJSON_GetObjectItem(j, "coil_model");
+    cr_expect_str_eq(cJSON_GetObjectItem(co, "kind")->valuestring, "loop-ring");
+    cr_expect_eq(cJSON_GetArraySize(cJSON_GetObjectItem(co, "fit_residual")), 4);
+    /* the command's file names are not here */
+    const char *files[] = {"trajectory", "sens", "noise_cov", "pattern", "times", "tissue_file"};
+    for (size_t i = 0; i < sizeof files / sizeof files[0]; i++)
+        cr_expect_null(cJSON_GetObjectItem(j, files[i]), "%s", files[i]);
+    cJSON_Delete(j);
+    kw_free(text);
+    kw_acquisition_destroy(a);
+    free(k), free(t), free(m);
 }

@@ -3,6 +3,10 @@
 #include <criterion/criterion.h>
 #include <math.h>
 
+#include <string.h>
+
+#include <cJSON.h>
+
 #include "kw_metrics.h"
 
 static kw_array img(size_t ny, size_t nx)
@@ -70,4 +74,33 @@ Test(metrics, bad_input)
     double v[4] = {1, 2, 3, 4}, m;
     size_t d[2] = {2, 2};
     cr_expect_eq(kw_metrics_ssim(v, v, 2, d, 3, NULL, &m), KW_ERANGE); /* below the window */
+}
+
+/* kw_metrics_json(): the three scores under the report's keys, infinite
+ * PSNR as null; NULL refused. */
+Test(metrics, json)
+{
+    kw_scores s = {0.125, 18.0, 0.5};
+    char *text = NULL;
+    cr_assert_eq(kw_metrics_json(&s, &text), KW_OK, "%s", kw_last_error());
+    cr_expect(text[strlen(text) - 1] == '\n');
+    cJSON *j = cJSON_Parse(text);
+    cr_assert_not_null(j);
+    cr_expect_eq(cJSON_GetArraySize(j), 3);
+    cr_expect_str_eq(j->child->string, "nrmse");
+    cr_expect_eq(cJSON_GetObjectItem(j, "nrmse")->valuedouble, 0.125);
+    cr_expect_eq(cJSON_GetObjectItem(j, "psnr_db")->valuedouble, 18.0);
+    cr_expect_eq(cJSON_GetObjectItem(j, "ssim")->valuedouble, 0.5);
+    cJSON_Delete(j);
+    kw_free(text);
+    s.psnr_db = INFINITY;
+    cr_assert_eq(kw_metrics_json(&s, &text), KW_OK);
+    j = cJSON_Parse(text);
+    cr_expect(cJSON_IsNull(cJSON_GetObjectItem(j, "psnr_db")));
+    cJSON_Delete(j);
+    kw_free(text);
+    text = (char *)1;
+    cr_expect_eq(kw_metrics_json(NULL, &text), KW_EINVAL);
+    cr_expect_null(text);
+    cr_expect_eq(kw_metrics_json(&s, NULL), KW_EINVAL);
 }

@@ -8,6 +8,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <cJSON.h>
+
 #include "kw_pattern.h"
 #include "kw_pattern_analysis.h"
 #include "kw_sampling.h"
@@ -299,5 +301,104 @@ Test(pattern_api, spiral_and_epi_shapes)
     cr_expect_eq(in->readout_samples, 64);
     cr_expect_eq(in->readouts, 64); /* full k-space, 32 lines per shot */
     cr_expect_eq(in->lines_per_shot, 32);
+    kw_pattern_destroy(p);
+}
+
+static cJSON *parsed(char *text)
+{
+    cr_assert_not_null(text);
+    cr_expect(text[strlen(text) - 1] == '\n');
+    cJSON *j = cJSON_Parse(text);
+    cr_assert_not_null(j, "not JSON: %s", text);
+    kw_free(text);
+    return j;
+}
+
+/* kw_pattern_info_json(): the sidecar of a mask and of a trajectory (the
+ * times file, a name of the command's, left out); NULL refused. */
+Test(pattern_api, info_json)
+{
+    kw_pattern_options o;
+    kw_pattern_options_init(&o);
+    o.kind = KW_PATTERN_UNIFORM;
+    o.dims[0] = o.dims[1] = 64;
+    o.accel[0] = 2;
+    o.acs[0] = 8;
+    kw_pattern *p = make(&o);
+    char *text = (char *)1;
+    cr_expect_eq(kw_pattern_info_json(NULL, &text), KW_EINVAL);
+    cr_expect_null(text);
+    cr_expect_eq(kw_pattern_info_json(p, NULL), KW_EINVAL);
+    cr_assert_eq(kw_pattern_info_json(p, &text), KW_OK, "%s", kw_last_error());
+    cJSON *j = parsed(text);
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "kind")->valuestring, "mask");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "pattern_kind")->valuestring, "uniform");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "plane")->valuestring, "ky-kx");
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "acceleration")->valuedouble, in->acceleration, 1e-12);
+    cr_expect_eq(cJSON_GetObjectItem(j, "acs_lines")->valuedouble, in->acs_lines);
+    cr_expect_eq(cJSON_GetObjectItem(j, "sampled_points")->valuedouble, (double)in->sampled_points);
+    cr_expect_eq(cJSON_GetObjectItem(j, "seed")->valuedouble, 0);
+    cJSON_Delete(j);
+    kw_pattern_destroy(p);
+
+    kw_pattern_options_init(&o);
+    o.kind = KW_PATTERN_GOLDEN;
+    o.dims[0] = o.dims[1] = 64;
+    o.spokes = 12;
+    p = make(&o);
+    cr_assert_eq(kw_pattern_info_json(p, &text), KW_OK, "%s", kw_last_error());
+    j = parsed(text);
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "kind")->valuestring, "trajectory");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "pattern_kind")->valuestring, "golden");
+    cr_expect_eq(cJSON_GetObjectItem(j, "spokes")->valuedouble, 12);
+    cr_expect_eq(cJSON_GetArraySize(cJSON_GetObjectItem(j, "columns")), 2);
+    cr_expect_null(cJSON_GetObjectItem(j, "times"));
+    cr_expect(cJSON_IsNull(cJSON_GetObjectItem(j, "seed")));
+    cJSON_Delete(j);
+    kw_pattern_destroy(p);
+}
+
+/* kw_pattern_analysis_json(): the --json report of an analysis with its
+ * name and kind; an analysis not made and NULL refused. */
+Test(pattern_api, analysis_json)
+{
+    kw_pattern_options o;
+    kw_pattern_options_init(&o);
+    o.kind = KW_PATTERN_UNIFORM;
+    o.dims[0] = o.dims[1] = 64;
+    o.accel[0] = 2;
+    o.acs[0] = 8;
+    kw_pattern *p = make(&o);
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    float w[64 * 64];
+    for (size_t i = 0; i < 64 * 64; i++)
+        w[i] = kw_pattern_mask(p)[i];
+    kw_pattern_analysis a;
+    memset(&a, 0, sizeof a);
+    char *text = (char *)1;
+    cr_expect_eq(kw_pattern_analysis_json(&a, "m.npy", "uniform", &text), KW_EINVAL);
+    cr_expect_null(text);
+    cr_expect_eq(kw_pattern_analysis_json(NULL, "m.npy", "uniform", &text), KW_EINVAL);
+    cr_assert_eq(kw_pattern_analyse_mask(&a, w, 64, 64, 0), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(kw_pattern_analysis_json(&a, "m.npy", "uniform", NULL), KW_EINVAL);
+    cr_assert_eq(kw_pattern_analysis_json(&a, "m.npy", "uniform", &text), KW_OK, "%s",
+                 kw_last_error());
+    cJSON *j = parsed(text);
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "file")->valuestring, "m.npy");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "pattern_kind")->valuestring, "uniform");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "layout")->valuestring, "cartesian");
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "acceleration")->valuedouble, in->acceleration, 1e-12);
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "psf_peak_sidelobe")->valuedouble,
+                       a.psf.peak_sidelobe, 1e-12);
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "psf_method")->valuestring, "fft");
+    cr_expect_not_null(cJSON_GetObjectItem(j, "max_gap_dk_by_axis"));
+    cJSON_Delete(j);
+    cr_assert_eq(kw_pattern_analysis_json(&a, NULL, NULL, &text), KW_OK);
+    j = parsed(text);
+    cr_expect(cJSON_IsNull(cJSON_GetObjectItem(j, "file")));
+    cr_expect(cJSON_IsNull(cJSON_GetObjectItem(j, "pattern_kind")));
+    cJSON_Delete(j);
+    kw_pattern_analysis_free(&a);
     kw_pattern_destroy(p);
 }

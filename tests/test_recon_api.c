@@ -16,6 +16,8 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include <cJSON.h>
+
 #include "kw_recon.h"
 
 #define NY 24
@@ -237,5 +239,56 @@ Test(recon_api, errors_name_their_parameter)
     cr_assert_eq(kw_recon_create(&r, &g, &o), KW_OK, "%s", kw_last_error());
     cr_expect_eq(kw_recon_execute(r, k, img, NULL, NULL, NULL), KW_EINVAL);
     cr_expect_str_eq(kw_last_error_param(), "acs_lines");
+    kw_recon_destroy(r);
+}
+
+/* kw_recon_report_json(): the report of the last execute as text: valid
+ * JSON with the keys the command writes (less its file names), the numbers
+ * of kw_recon_get_report(); refused before any execute and on NULL. */
+Test(recon_api, report_json)
+{
+    simulate();
+    float complex k[NC * NP];
+    undersample(k);
+    kw_recon_options o;
+    kw_recon_options_init(&o);
+    o.method = "sense";
+    o.want_gfactor = 1;
+    kw_recon_geometry g = geometry(sens);
+    kw_recon *r;
+    cr_assert_eq(kw_recon_create(&r, &g, &o), KW_OK, "%s", kw_last_error());
+    char *text = (char *)1;
+    cr_expect_eq(kw_recon_report_json(r, &text), KW_EINVAL);
+    cr_expect_null(text);
+    cr_expect_eq(kw_recon_report_json(NULL, &text), KW_EINVAL);
+    cr_expect_eq(kw_recon_report_json(r, NULL), KW_EINVAL);
+    float img[NP], gf[NP];
+    cr_assert_eq(kw_recon_execute(r, k, img, gf, NULL, NULL), KW_OK, "%s", kw_last_error());
+    cr_assert_eq(kw_recon_report_json(r, &text), KW_OK, "%s", kw_last_error());
+    size_t len = strlen(text);
+    cr_expect(len > 2 && text[len - 1] == '\n');
+    cJSON *j = cJSON_Parse(text);
+    cr_assert_not_null(j, "not JSON: %s", text);
+    const kw_recon_report *p = kw_recon_get_report(r);
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "kind")->valuestring, "recon");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "method")->valuestring, "sense");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "layout")->valuestring, "cartesian");
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "sens_source")->valuestring, "given");
+    cr_expect_eq(cJSON_GetArraySize(cJSON_GetObjectItem(j, "kspace_shape")), 3);
+    cr_expect_eq(cJSON_GetObjectItem(j, "coils")->valuedouble, NC);
+    const cJSON *smp = cJSON_GetObjectItem(j, "sampling");
+    cr_assert_not_null(smp);
+    cr_expect_eq(cJSON_GetObjectItem(smp, "acceleration")->valuedouble, 2);
+    cr_expect(cJSON_IsTrue(cJSON_GetObjectItem(smp, "uniform")));
+    cr_expect_str_eq(cJSON_GetObjectItem(j, "gfactor_method")->valuestring, p->gfactor_analytic);
+    const cJSON *shape = cJSON_GetObjectItem(j, "image_shape");
+    cr_expect(cJSON_GetArraySize(shape) == 2 && cJSON_GetArrayItem(shape, 0)->valuedouble == NY &&
+              cJSON_GetArrayItem(shape, 1)->valuedouble == NX);
+    cr_expect_float_eq(cJSON_GetObjectItem(j, "gfactor_max")->valuedouble, p->gfactor_max, 1e-12);
+    /* no file names: those are the command's */
+    cr_expect_null(cJSON_GetObjectItem(j, "input"));
+    cr_expect_null(cJSON_GetObjectItem(j, "gfactor_file"));
+    cJSON_Delete(j);
+    kw_free(text);
     kw_recon_destroy(r);
 }
