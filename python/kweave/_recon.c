@@ -15,7 +15,6 @@
 #include <string.h>
 
 #include "kw_recon.h"
-kw_status kw_recon_report_json(const kw_recon *r, char **json); /* TEMP */
 
 typedef struct recon_args {
     const char *method, *combine;

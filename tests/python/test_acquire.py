@@ -239,7 +239,8 @@ def test_memory_flat_and_refcounts(one_thread):
     mask = np.ones((16, 16), np.uint8)
     traj = np.zeros((8, 2), np.float32)
     refs = (sys.getrefcount(mask), sys.getrefcount(traj))
-    a = kweave.Acquisition(phantom="shepp-logan", matrix=16, fov="256mm", coils=2, snr=10, mask=mask)
+    a = kweave.Acquisition(phantom="shepp-logan", matrix=16, fov="256mm", coils=2, coil_order=1,
+                           snr=10, mask=mask)
     for _ in range(50):
         a.run()
     gc.collect()

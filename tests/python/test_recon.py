@@ -23,12 +23,17 @@ ITER = ["--iterations", "4"]
 
 def check_report(report, cli_report, path="report"):
     """Every key of the library's report is in the command's, equal (the
-    command adds the names of its files)."""
+    command adds the names of its files, and names the given maps' and
+    weights' files where the library says "given")."""
     assert report, "empty report"
     for k, v in report.items():
         assert k in cli_report, f"{path}.{k}"
         if isinstance(v, dict):
             check_report(v, cli_report[k], f"{path}.{k}")
+        elif k == "sens_source" and v == "given":
+            assert cli_report[k].startswith("file (")  # where the command read them
+        elif k == "dcf" and v == "given":
+            assert cli_report[k].endswith(".npy")  # the command names the weights' file
         else:
             assert cli_report[k] == v, (f"{path}.{k}", cli_report[k], v)
 
