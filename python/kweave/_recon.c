@@ -33,7 +33,7 @@ typedef struct {
     int ndim;                  /* ... as the library sees it */
     size_t dims[4];
     int noncart, want_gfactor;
-    char method[32];
+    char method[32], combine[32]; /* the options' strings, kept for the library */
     PyArrayObject *traj, *sens, *ncov, *weights; /* owned copies */
     int sens_ndim;
     size_t sens_dims[4];
@@ -417,6 +417,10 @@ static int recon_init(ReconObject *self, PyObject *args, PyObject *kwargs)
         (!self->noncart && claims_in(self, &a) < 0))
         return -1;
     ro.method = self->method;
+    if (a.combine) { /* the library keeps the pointer: our copy, not the caller's str */
+        snprintf(self->combine, sizeof self->combine, "%s", a.combine);
+        ro.combine = self->combine;
+    }
     self->want_gfactor = ro.want_gfactor;
     const kw_recon_sampling *claims = (a.accel || a.s_acs) && !self->noncart ? &self->claims : NULL;
     kw_recon_geometry g = {

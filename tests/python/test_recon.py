@@ -340,3 +340,19 @@ def test_memory_flat_and_refcounts(one_thread):
         kweave.recon(ks, sens=sens, method="cg-sense", iterations=1)
     gc.collect()
     assert (sys.getrefcount(ks), sys.getrefcount(sens)) == refs
+
+
+def test_threads_and_option_strings(cli):
+    """One object runs one call at a time (a lock), distinct objects in
+    parallel; the option strings the library keeps are the object's own."""
+    from concurrent.futures import ThreadPoolExecutor
+    r = cartesian(cli)
+    rec = kweave.Recon(r.kspace.shape, method="sense", combine="".join(["opt", "imal"]))
+    gc.collect()
+    ref = rec.run(r.kspace).image
+    with ThreadPoolExecutor(4) as ex:
+        outs = list(ex.map(lambda _: rec.run(r.kspace).image, range(8)))
+        outs += list(ex.map(lambda _: kweave.recon(r.kspace, method="sense", combine="optimal").image,
+                            range(4)))
+    for o in outs:
+        assert same_bits(o, ref)
