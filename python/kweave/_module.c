@@ -9,6 +9,8 @@
 #include <stdio.h>
 #include <string.h>
 
+#include <fftw3.h>
+
 #include "kw_fft.h"
 
 PyObject *kwpy_Error;
@@ -481,6 +483,9 @@ PyMODINIT_FUNC PyInit__kweave(void)
     /* As the command: FFTW's threads on, one per core as OpenMP sees them. */
     if (!kw_fft_threads_ready() && kw_fft_setup(0) != KW_OK)
         return kwpy_raise(KW_EINTERNAL, "fft");
+    /* The calls run without the GIL, and creates and executes make FFTW
+     * plans: FFTW's planner, not thread-safe by itself, takes a lock. */
+    fftwf_make_planner_thread_safe();
     PyObject *m = PyModule_Create(&module_def);
     if (!m)
         return NULL;
