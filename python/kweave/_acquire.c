@@ -566,6 +566,10 @@ static int acq_init(AcqObject *self, PyObject *args, PyObject *kwargs)
     acq_args a;
     if (parse_keywords(kwargs, &a) < 0)
         return -1;
+    if (self->acq) { /* a run may be going on in another thread */
+        PyErr_SetString(PyExc_TypeError, "Acquisition: already initialised");
+        return -1;
+    }
     if (!self->lock && !(self->lock = PyThread_allocate_lock())) {
         PyErr_NoMemory();
         return -1;
@@ -605,7 +609,12 @@ static int ready(AcqObject *self)
 static PyObject *info_dict(AcqObject *self)
 {
     char *json = NULL;
-    kw_status st = kw_acquisition_info_json(self->acq, &json);
+    kw_status st;
+    Py_BEGIN_ALLOW_THREADS
+    PyThread_acquire_lock(self->lock, WAIT_LOCK);
+    st = kw_acquisition_info_json(self->acq, &json);
+    PyThread_release_lock(self->lock);
+    Py_END_ALLOW_THREADS
     if (st)
         return kwpy_raise(st, NULL);
     return kwpy_json_dict(json);
@@ -641,17 +650,20 @@ static PyObject *acq_run(AcqObject *self, PyObject *noargs)
     if (!truth || (in->maps_ndim && !maps))
         goto done;
     kw_status st;
+    char *json = NULL;
     Py_BEGIN_ALLOW_THREADS
     PyThread_acquire_lock(self->lock, WAIT_LOCK);
     st = kw_acquisition_execute(self->acq, PyArray_DATA(ks), PyArray_DATA(truth),
                                 maps ? PyArray_DATA(maps) : NULL, NULL, NULL);
+    if (!st)
+        st = kw_acquisition_info_json(self->acq, &json);
     PyThread_release_lock(self->lock);
     Py_END_ALLOW_THREADS
     if (st) {
         acq_fail(st);
         goto done;
     }
-    PyObject *info = info_dict(self);
+    PyObject *info = kwpy_json_dict(json);
     PyObject *cov = info ? noise_cov_out(in) : NULL;
     if (!cov) {
         Py_XDECREF(info);

@@ -404,6 +404,10 @@ static int recon_init(ReconObject *self, PyObject *args, PyObject *kwargs)
     recon_args a;
     if (parse_keywords(kwargs, &a) < 0)
         return -1;
+    if (self->r) { /* a run may be going on in another thread */
+        PyErr_SetString(PyExc_TypeError, "Recon: already initialised");
+        return -1;
+    }
     if (!self->lock && !(self->lock = PyThread_allocate_lock())) {
         PyErr_NoMemory();
         return -1;
@@ -459,12 +463,34 @@ static int ready(ReconObject *self)
 /* What the run leaves beside the image, taken under the object's lock. */
 typedef struct run_extras {
     char *json;
-    const kw_cfloat *sens;
+    kw_cfloat *sens;
     int sens_ndim;
     size_t sens_dims[4];
-    const float *w;
+    float *w;
     size_t nw;
 } run_extras;
+
+/* Copies of the estimated maps and density weights (valid only until the
+ * next execute), so that the lock is not held while Python runs. */
+static kw_status extras_take(const kw_recon *r, run_extras *x)
+{
+    const kw_cfloat *s = kw_recon_estimated_sens(r, &x->sens_ndim, x->sens_dims);
+    const float *w = kw_recon_density_weights(r, &x->nw);
+    if (s) {
+        size_t n = 1;
+        for (int i = 0; i < x->sens_ndim; i++)
+            n *= x->sens_dims[i];
+        if (!(x->sens = kw_alloc(n * sizeof *s)))
+            return kw_set_error(KW_ENOMEM, "out of memory");
+        memcpy(x->sens, s, n * sizeof *s);
+    }
+    if (w && x->nw) {
+        if (!(x->w = kw_alloc(x->nw * sizeof *w)))
+            return kw_set_error(KW_ENOMEM, "out of memory");
+        memcpy(x->w, w, x->nw * sizeof *w);
+    }
+    return KW_OK;
+}
 
 /* The estimated maps and density weights as new arrays (or None). */
 static PyObject *extras_out(const run_extras *x, PyObject **weights)
@@ -528,23 +554,26 @@ static PyObject *recon_run(ReconObject *self, PyObject *obj)
                           NULL, NULL);
     if (!st)
         st = kw_recon_report_json(self->r, &x.json);
-    if (!st) {
-        x.sens = kw_recon_estimated_sens(self->r, &x.sens_ndim, x.sens_dims);
-        x.w = kw_recon_density_weights(self->r, &x.nw);
-    }
+    if (!st)
+        st = extras_take(self->r, &x);
+    PyThread_release_lock(self->lock);
     Py_END_ALLOW_THREADS
     Py_DECREF(ks);
     PyObject *fields = NULL, *sens = NULL, *weights = NULL, *report = NULL;
     if (st) {
         recon_fail(st, self->method);
-    } else if ((sens = extras_out(&x, &weights)) && (report = kwpy_json_dict(x.json))) {
+    } else if ((sens = extras_out(&x, &weights))) {
+        report = kwpy_json_dict(x.json); /* frees the text in any case */
         x.json = NULL;
+    }
+    if (report) {
         fields = Py_BuildValue("{s:O,s:O,s:O,s:O,s:O}", "image", img, "gfactor",
                                gf ? (PyObject *)gf : Py_None, "report", report, "sens", sens,
                                "weights", weights);
     }
-    PyThread_release_lock(self->lock);
     kw_free(x.json);
+    kw_free(x.sens);
+    kw_free(x.w);
     Py_DECREF(img);
     Py_XDECREF(gf);
     Py_XDECREF(sens);

@@ -67,6 +67,10 @@ def test_cartesian_mask_same_bits(cli):
     assert a.shape == (4, 32, 32)
     assert same_bits(a.run().kspace, a.run().kspace)
     assert a.info == r.info
+    with pytest.raises(TypeError, match="already initialised"):
+        a.__init__(**BASE)
+    with pytest.raises(TypeError, match="not initialised"):
+        kweave.Acquisition.__new__(kweave.Acquisition).run()
 
 
 def test_trajectory_same_bits(cli):
