@@ -541,6 +541,7 @@ static int parse_keywords(PyObject *kwargs, acq_args *a)
         {"coil-ring-gap", KWPY_UNIT, &a->coil_ring_gap, KW_UNIT_LENGTH, &a->s_crgap},
         {"sens", KWPY_OBJ, &a->sens, 0, &a->s_sens},
         {"mask", KWPY_OBJ, &a->mask, 0, &a->s_pat},
+        {"pattern", KWPY_OBJ, &a->mask, 0, &a->s_pat}, /* the command's name of the mask */
         {"trajectory", KWPY_OBJ, &a->traj, 0, &a->s_traj},
         {"times", KWPY_OBJ, &a->times, 0, &a->s_times},
         {"noise-corr", KWPY_FLOAT, &a->noise_corr, 0, &a->s_ncorr},

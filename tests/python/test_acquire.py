@@ -120,6 +120,33 @@ def test_given_maps_tissue_noise_cov(cli):
     check_info(r.info, cli.json("ks.json"))
 
 
+def test_fields_and_slices_same_bits(cli):
+    fmap = (20 * np.outer(np.linspace(-1, 1, 32), np.ones(32))).astype(np.float32)
+    cli.save("fm.npy", fmap)
+    cli.run("encode", "--phantom", "weave", "--matrix", "32", "--fov", "256mm", "--bandwidth",
+            "200Hz/pixel", "--field-map", "fm.npy", "--out", "ks.npy")
+    cli.sync()
+    r = kweave.acquire(phantom="weave", matrix=32, fov="256mm", bandwidth="200Hz/pixel",
+                       field_map=fmap)
+    assert same_bits(r.kspace, cli.load("ks.npy"))
+    check_info(r.info, cli.json("ks.json"))
+    cli.run("encode", "--phantom", "weave3d", "--matrix", "32", "--fov", "256mm", "--slices", "2",
+            "--slice-thickness", "4mm", "--slice-gap", "1mm", "--slice-points", "4", "--coils", "2",
+            "--coil-order", "2", "--field-gradient", "20uT/m,0", "--bandwidth", "32kHz",
+            "--out", "ks.npy", "--truth", "t.npy")
+    cli.sync()
+    r = kweave.acquire(phantom="weave3d", matrix=32, fov=0.256, slices=2, slice_thickness="4mm",
+                       slice_gap=0.001, slice_points=4, coils=2, coil_order=2,
+                       field_gradient=("20uT/m", 0), bandwidth="32kHz")
+    assert r.kspace.shape == (2, 2, 32, 32)
+    assert same_bits(r.kspace, cli.load("ks.npy"))
+    assert same_bits(r.truth, cli.load("t.npy"))
+    check_info(r.info, cli.json("ks.json"))
+    # the command's name of the mask is accepted too
+    m = np.ones(32)
+    assert same_bits(kweave.acquire(**BASE, pattern=m).kspace, kweave.acquire(**BASE, mask=m).kspace)
+
+
 # ---- errors: the command's message -------------------------------------------
 
 @pytest.mark.parametrize("args,kw", [
