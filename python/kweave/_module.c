@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include <fftw3.h>
+#include <pythread.h>
 
 #include "kw_fft.h"
 
@@ -414,6 +415,12 @@ PyObject *kwpy_namespace(PyObject *fields)
     return r;
 }
 
+static PyThread_type_lock plan_lock;
+
+void kwpy_plan_lock(void) { PyThread_acquire_lock(plan_lock, WAIT_LOCK); }
+
+void kwpy_plan_unlock(void) { PyThread_release_lock(plan_lock); }
+
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs)
 {
     return PyModule_AddFunctions(m, defs);
@@ -486,6 +493,8 @@ PyMODINIT_FUNC PyInit__kweave(void)
     /* The calls run without the GIL, and creates and executes make FFTW
      * plans: FFTW's planner, not thread-safe by itself, takes a lock. */
     fftwf_make_planner_thread_safe();
+    if (!plan_lock && !(plan_lock = PyThread_allocate_lock()))
+        return PyErr_NoMemory();
     PyObject *m = PyModule_Create(&module_def);
     if (!m)
         return NULL;
