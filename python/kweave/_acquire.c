@@ -65,7 +65,10 @@ static int unit_list(PyObject *v, kw_unit_kind kind, double *out, int max, const
     Py_ssize_t n = seq ? PySequence_Fast_GET_SIZE(seq) : 1;
     if (n < 1 || n > max) {
         Py_XDECREF(seq);
-        kwpy_value_error(name, "expected 1 to %d values (got %zd)", max, n);
+        if (max == 1)
+            kwpy_value_error(name, "expected one value (got %zd)", n);
+        else
+            kwpy_value_error(name, "expected 1 to %d values (got %zd)", max, n);
         return -1;
     }
     for (Py_ssize_t i = 0; i < n; i++) {

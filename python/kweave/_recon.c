@@ -200,10 +200,15 @@ static int shape_in(ReconObject *self, PyObject *shape, const recon_args *a)
             FAIL("kspace", "the shape must hold whole numbers >= 0");
         }
     }
-    self->shape = PyTuple_New(nd < 0 ? 0 : nd);
-    for (Py_ssize_t i = 0; self->shape && i < nd; i++)
-        PyTuple_SET_ITEM(self->shape, i, Py_NewRef(PySequence_Fast_GET_ITEM(seq, i)));
     Py_DECREF(seq);
+    self->shape = PyTuple_New(nd < 0 ? 0 : nd); /* as Python ints (more than 4: refused below) */
+    for (Py_ssize_t i = 0; self->shape && i < nd; i++) {
+        PyObject *x = PyLong_FromLong(i < 4 ? v[i] : 0);
+        if (!x)
+            Py_CLEAR(self->shape);
+        else
+            PyTuple_SET_ITEM(self->shape, i, x);
+    }
     if (!self->shape)
         return -1;
     int off = 0;

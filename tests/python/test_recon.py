@@ -277,6 +277,7 @@ def test_run_checks_its_input():
         rec.__init__((2, 8, 8))
     with pytest.raises(TypeError, match="not initialised"):
         kweave.Recon.__new__(kweave.Recon).run(np.ones((2, 8, 8), np.complex64))
+    assert kweave.Recon(np.array([2, 8, 8])).shape == (2, 8, 8)
     assert kweave.recon(np.ones((8, 8), np.complex64)).image.shape == (8, 8)
     assert kweave.recon(np.ones((2, 8, 8), np.complex128).tolist()).image.shape == (8, 8)
 
