@@ -9,6 +9,9 @@
 #include <stdio.h>
 #include <string.h>
 
+#include <fftw3.h>
+#include <pythread.h>
+
 #include "kw_fft.h"
 
 PyObject *kwpy_Error;
@@ -412,6 +415,12 @@ PyObject *kwpy_namespace(PyObject *fields)
     return r;
 }
 
+static PyThread_type_lock plan_lock;
+
+void kwpy_plan_lock(void) { PyThread_acquire_lock(plan_lock, WAIT_LOCK); }
+
+void kwpy_plan_unlock(void) { PyThread_release_lock(plan_lock); }
+
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs)
 {
     return PyModule_AddFunctions(m, defs);
@@ -481,6 +490,11 @@ PyMODINIT_FUNC PyInit__kweave(void)
     /* As the command: FFTW's threads on, one per core as OpenMP sees them. */
     if (!kw_fft_threads_ready() && kw_fft_setup(0) != KW_OK)
         return kwpy_raise(KW_EINTERNAL, "fft");
+    /* The calls run without the GIL, and creates and executes make FFTW
+     * plans: FFTW's planner, not thread-safe by itself, takes a lock. */
+    fftwf_make_planner_thread_safe();
+    if (!plan_lock && !(plan_lock = PyThread_allocate_lock()))
+        return PyErr_NoMemory();
     PyObject *m = PyModule_Create(&module_def);
     if (!m)
         return NULL;

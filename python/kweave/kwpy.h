@@ -96,6 +96,15 @@ PyObject *kwpy_json_dict(char *text);
  * attribute access, a readable repr); steals `fields`; NULL on error. */
 PyObject *kwpy_namespace(PyObject *fields);
 
+/* ---- FFTW planning --------------------------------------------------------- */
+
+/*! kwpy_plan_lock(), kwpy_plan_unlock(): a process-wide lock to hold
+ * around library calls that make FFTW plans (creates, and executes of
+ * objects that plan as they run), which FFTW allows from one thread at a
+ * time. Call with the GIL released; take an object's own lock first. */
+void kwpy_plan_lock(void);
+void kwpy_plan_unlock(void);
+
 /* ---- the parts -------------------------------------------------------------- */
 
 /* Each part adds its functions and types to the module; 0 or -1. */
