@@ -21,7 +21,7 @@ typedef struct recon_args {
     PyObject *kernel, *dcf, *traj, *sens, *ncov, *weights, *accel, *image_shape;
     double lambda, stop, tolerance, oversampling;
     long iterations, replicas, seed, acs_lines;
-    int keep_coils, gfactor, estimate_sens;
+    int keep_coils, complex_image, gfactor, estimate_sens;
     int s_rep, s_acs;
 } recon_args;
 
@@ -141,6 +141,7 @@ static int options(const recon_args *a, kw_recon_options *ro)
     ro->replicas = (int)a->replicas;
     ro->seed = a->seed;
     ro->keep_coils = a->keep_coils;
+    ro->complex_image = a->complex_image;
     ro->want_gfactor = a->gfactor;
     ro->estimate_sens = a->estimate_sens;
     if ((long)ro->iterations != a->iterations)
@@ -397,6 +398,7 @@ static int parse_keywords(PyObject *kwargs, recon_args *a)
         {"replicas", KWPY_INT, &a->replicas, 0, &a->s_rep},
         {"seed", KWPY_INT, &a->seed, 0, NULL},
         {"keep-coils", KWPY_BOOL, &a->keep_coils, 0, NULL},
+        {"complex", KWPY_BOOL, &a->complex_image, 0, NULL},
         {"dcf", KWPY_OBJ, &a->dcf, 0, NULL},
         {"gfactor", KWPY_BOOL, &a->gfactor, 0, NULL},
         {"estimate-sens", KWPY_BOOL, &a->estimate_sens, 0, NULL},
@@ -648,7 +650,7 @@ static PyTypeObject ReconType = {
               "`shape`: (coils, [nz,] ny, nx) or (ny, nx) Cartesian, (coils, samples) with\n"
               "trajectory=. Geometry: trajectory, sens, noise_cov, weights, acceleration,\n"
               "acs_lines, image_shape; options: method, combine, kernel, lambda, iterations,\n"
-              "stop, tolerance, oversampling, replicas, seed, keep_coils, dcf, gfactor,\n"
+              "stop, tolerance, oversampling, replicas, seed, keep_coils, complex, dcf, gfactor,\n"
               "estimate_sens. run(kspace) reconstructs.",
     .tp_new = PyType_GenericNew,
     .tp_init = (initproc)recon_init,

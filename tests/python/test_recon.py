@@ -367,3 +367,19 @@ def test_threads_and_option_strings(cli):
         with ThreadPoolExecutor(4) as ex:
             outs = list(ex.map(lambda _: kweave.recon(r.kspace, method="sense").image, range(8)))
         assert all(same_bits(o, outs[0]) for o in outs)
+
+
+def test_complex_image_equals_the_command(cli):
+    """complex=True is `kweave recon --complex`: the image with its phase."""
+    cli.run("pattern", "--kind", "uniform", "--matrix", "32x32", "--accel", "2", "--acs", "8",
+            "--out", "m.npy")
+    cli.run("encode", "--phantom", "weave", "--matrix", "32", "--fov", "256mm", "--coils", "4",
+            "--pattern", "m.npy", "--out", "k.npy", "--sens-out", "s.npy")
+    cli.run("recon", "--in", "k.npy", "--method", "sense", "--complex", "--out", "c.npy")
+    cli.sync()
+    k, s = cli.load("k.npy"), cli.load("s.npy")
+    res = kweave.recon(k, method="sense", sens=s, complex=True)
+    assert res.image.dtype == np.complex64
+    assert same_bits(res.image, cli.load("c.npy"))
+    with pytest.raises(kweave.InputError, match="root-sum-of-squares has no phase"):
+        kweave.recon(k, combine="rss", complex=True)
