@@ -19,9 +19,10 @@ for kind in ("uniform", "random", "poisson"):
     for method, opts in methods.items():
         img = kweave.recon(acq.kspace, method=method, sens=acq.maps, **opts).image
         s = kweave.score(acq.truth, img)
-        rows.append([kind, f"{psf['acceleration']:.2f}", f"{psf['tpsf_incoherence']:.3f}",
+        rows.append([kind, f"{psf['acceleration']:.2f}", f"{psf['psf_energy_outside_mainlobe']:.3f}",
                      method, f"{s['nrmse']:.4f}", f"{s['psnr_db']:.2f}", f"{s['ssim']:.4f}"])
-head = ["pattern", "R", "TPSF incoherence", "method", "NRMSE", "PSNR dB", "SSIM"]
+head = ["pattern", "effective R", "PSF energy off the main lobe", "method", "NRMSE", "PSNR dB",
+        "SSIM"]
 width = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(head)]
 for r in [head] + rows:
     print("  ".join(v.ljust(w) for v, w in zip(r, width)))
