@@ -439,7 +439,12 @@ static PyObject *py_wisdom_export(PyObject *self, PyObject *noargs)
 {
     (void)self;
     (void)noargs;
-    char *w = kw_fft_wisdom_export();
+    char *w;
+    Py_BEGIN_ALLOW_THREADS
+    kwpy_plan_lock();
+    w = kw_fft_wisdom_export();
+    kwpy_plan_unlock();
+    Py_END_ALLOW_THREADS
     if (!w)
         return PyErr_NoMemory();
     PyObject *r = PyUnicode_FromString(w);
@@ -453,7 +458,12 @@ static PyObject *py_wisdom_import(PyObject *self, PyObject *arg)
     const char *s = PyUnicode_Check(arg) ? PyUnicode_AsUTF8(arg) : NULL;
     if (!s)
         return PyErr_Occurred() ? NULL : kwpy_value_error("wisdom", "must be a str");
-    kw_status st = kw_fft_wisdom_import(s);
+    kw_status st;
+    Py_BEGIN_ALLOW_THREADS
+    kwpy_plan_lock();
+    st = kw_fft_wisdom_import(s);
+    kwpy_plan_unlock();
+    Py_END_ALLOW_THREADS
     if (st)
         return kwpy_raise(st, "wisdom");
     Py_RETURN_NONE;

@@ -20,7 +20,13 @@ typedef struct {
 
 static void nufft_dealloc(NufftObject *self)
 {
-    kw_nufft_destroy(self->plan);
+    if (self->plan) { /* destroying a plan is planner business (kwpy_plan_lock) */
+        Py_BEGIN_ALLOW_THREADS
+        kwpy_plan_lock();
+        kw_nufft_destroy(self->plan);
+        kwpy_plan_unlock();
+        Py_END_ALLOW_THREADS
+    }
     if (self->lock)
         PyThread_free_lock(self->lock);
     Py_TYPE(self)->tp_free((PyObject *)self);
@@ -82,7 +88,9 @@ static int nufft_init(NufftObject *self, PyObject *args, PyObject *kwargs)
     o.measure = measure;
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
+    kwpy_plan_lock();
     st = kw_nufft_create(&self->plan, self->ndim, self->dims, self->nsamples, PyArray_DATA(tr), &o);
+    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     Py_DECREF(tr);
     if (st)
