@@ -1,4 +1,5 @@
 /* encoder.c: E, E^H and E^H W E (kw_encoder.h). */
+#include "fft_lock.h"
 #include "kw_encoder.h"
 
 #include <fftw3.h>
@@ -45,10 +46,12 @@ void kw_encoder_destroy(kw_encoder *e)
     kw_free(e->lambda);
     kw_free(e->tbuf);
     kw_free(e->ybuf);
+    kw_fft_planner_lock();
     if (e->tfwd)
         fftwf_destroy_plan(e->tfwd);
     if (e->tinv)
         fftwf_destroy_plan(e->tinv);
+    kw_fft_planner_unlock();
     free(e);
 }
 
@@ -116,6 +119,7 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
         unsigned ff = no->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
         /* threads only where they pay: small grids stay on one */
         int nth = no->nthreads > 0 ? no->nthreads : kw_fft_threads();
+        kw_fft_planner_lock();
         fftwf_plan_with_nthreads(e->nbig >= 65536 ? nth : 1);
         fftwf_plan pl = fftwf_plan_dft(nd, n_int, (fftwf_complex *)e->lambda,
                                        (fftwf_complex *)e->lambda, FFTW_FORWARD,
@@ -129,11 +133,13 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
         if (!pl || !e->tfwd || !e->tinv) {
             if (pl)
                 fftwf_destroy_plan(pl);
+            kw_fft_planner_unlock();
             st = kw_set_error(KW_EINTERNAL, "encoder: FFTW could not make a plan");
             goto done;
         }
         fftwf_execute(pl);
         fftwf_destroy_plan(pl);
+        kw_fft_planner_unlock();
         float inv = 1.0f / (float)e->nbig; /* FFTW's backward is unnormalised */
         for (size_t i = 0; i < e->nbig; i++)
             e->lambda[i] *= inv;

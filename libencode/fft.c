@@ -7,8 +7,10 @@
  * plan, and the output modulated by (-1)^(k + N/2) / sqrt(N). Odd lengths take
  * the general path: a rolled copy into a one-transform scratch buffer.
  */
+#include "fft_lock.h"
 #include "kw_fft.h"
 
+#include <pthread.h>
 #include <fftw3.h>
 #include <math.h>
 #include <stdlib.h>
@@ -31,7 +33,37 @@ struct kw_fft_plan {
 static int fft_nthreads = 1;
 static int fft_ready;
 
+static pthread_mutex_t planner_mu;
+static pthread_once_t planner_once = PTHREAD_ONCE_INIT;
+
+static void planner_init(void)
+{
+    pthread_mutexattr_t a;
+    pthread_mutexattr_init(&a);
+    pthread_mutexattr_settype(&a, PTHREAD_MUTEX_RECURSIVE);
+    pthread_mutex_init(&planner_mu, &a);
+    pthread_mutexattr_destroy(&a);
+}
+
+void kw_fft_planner_lock(void)
+{
+    pthread_once(&planner_once, planner_init);
+    pthread_mutex_lock(&planner_mu);
+}
+
+void kw_fft_planner_unlock(void) { pthread_mutex_unlock(&planner_mu); }
+
+static kw_status setup_locked(int nthreads);
+
 kw_status kw_fft_setup(int nthreads)
+{
+    kw_fft_planner_lock();
+    kw_status st = setup_locked(nthreads);
+    kw_fft_planner_unlock();
+    return st;
+}
+
+static kw_status setup_locked(int nthreads)
 {
     if (nthreads <= 0) {
 #ifdef _OPENMP
@@ -133,6 +165,7 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
         free(p);
         return kw_set_error(KW_ENOMEM, "fft: cannot allocate %zu samples", total);
     }
+    kw_fft_planner_lock();
     if (fft_ready)
         fftwf_plan_with_nthreads(fft_nthreads);
     p->fwd = fftwf_plan_many_dft(rank, n_int, (int)howmany, (fftwf_complex *)buf,
@@ -141,6 +174,7 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
     p->inv = fftwf_plan_many_dft(rank, n_int, (int)howmany, (fftwf_complex *)buf,
                                  NULL, 1, (int)p->n, (fftwf_complex *)buf, NULL, 1,
                                  (int)p->n, FFTW_BACKWARD, ff);
+    kw_fft_planner_unlock();
     if (p->even)
         kw_free(buf);
     else
@@ -200,20 +234,30 @@ void kw_fft_destroy(kw_fft_plan *p)
 {
     if (!p)
         return;
+    kw_fft_planner_lock();
     if (p->fwd)
         fftwf_destroy_plan(p->fwd);
     if (p->inv)
         fftwf_destroy_plan(p->inv);
+    kw_fft_planner_unlock();
     kw_free(p->scratch);
     free(p);
 }
 
-char *kw_fft_wisdom_export(void) { return fftwf_export_wisdom_to_string(); }
+char *kw_fft_wisdom_export(void)
+{
+    kw_fft_planner_lock();
+    char *w = fftwf_export_wisdom_to_string();
+    kw_fft_planner_unlock();
+    return w;
+}
 
 kw_status kw_fft_wisdom_import(const char *w)
 {
     KW_FAIL_IF(!w, KW_EINVAL, "fft: NULL wisdom");
-    KW_FAIL_IF(!fftwf_import_wisdom_from_string(w), KW_EFORMAT,
-               "fft: wisdom rejected by FFTW");
+    kw_fft_planner_lock();
+    int ok = fftwf_import_wisdom_from_string(w);
+    kw_fft_planner_unlock();
+    KW_FAIL_IF(!ok, KW_EFORMAT, "fft: wisdom rejected by FFTW");
     return KW_OK;
 }

@@ -26,6 +26,7 @@
  * along each split axis, an even number of tiles per axis, each at least W
  * wide) so the halos of tiles run at once never overlap: no write races.
  */
+#include "fft_lock.h"
 #include "nufft_impl.h"
 
 #include <fftw3.h>
@@ -326,10 +327,13 @@ static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_options *opts)
     for (int d = 0; d < ndim; d++)
         n_int[d] = (int)p->M[D0 + d];
     unsigned ff = opts->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
+    kw_fft_planner_lock();
     if (p->nthreads > 1) {
         kw_status st = kw_fft_setup(kw_fft_threads());
-        if (st)
+        if (st) {
+            kw_fft_planner_unlock();
             return st;
+        }
     }
     /* threads only where they pay: small grids stay on one */
     fftwf_plan_with_nthreads(p->par ? p->nthreads : 1);
@@ -338,6 +342,7 @@ static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_options *opts)
     p->inv = fftwf_plan_dft(ndim, n_int, (fftwf_complex *)p->grid,
                             (fftwf_complex *)p->grid, FFTW_BACKWARD, ff);
     fftwf_plan_with_nthreads(kw_fft_threads());
+    kw_fft_planner_unlock();
     KW_FAIL_IF(!p->fwd || !p->inv, KW_EINTERNAL, "nufft: FFTW could not make a plan");
     return KW_OK;
 }
@@ -405,10 +410,12 @@ void kw_nufft_destroy(kw_nufft_plan *p)
 {
     if (!p)
         return;
+    kw_fft_planner_lock();
     if (p->fwd)
         fftwf_destroy_plan(p->fwd);
     if (p->inv)
         fftwf_destroy_plan(p->inv);
+    kw_fft_planner_unlock();
     for (int d = 0; d < 3; d++) {
         free(p->bound[d]);
         free(p->deap[d]);

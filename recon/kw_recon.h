@@ -25,8 +25,8 @@
  *   execute (a caller may change the maps between executes).
  *
  * Thread safety: one kw_recon is used by one thread at a time; distinct
- * objects may run in parallel once created. kw_recon_create() makes FFTW
- * plans, so creates must not run concurrently with other planning.
+ * objects may be created, run and destroyed in parallel: the library holds
+ * one lock around FFTW's planner (creates and executes make plans).
  *
  * Errors: every call returns kw_status; kw_last_error_param() names the field
  * at fault in these structs' words: "method", "combine", "lambda", "kernel",

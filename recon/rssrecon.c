@@ -1,4 +1,5 @@
 /* rssrecon.c: fused inverse FFT + root-sum-of-squares (see kw_rssrecon.h). */
+#include "fft_lock.h"
 #include "kw_rssrecon.h"
 
 #include <fftw3.h>
@@ -75,6 +76,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
          * runs a whole single-threaded transform: parallelism is over coils. */
         float complex *in = kw_alloc(r->n * sizeof(float complex));
         KW_FAIL_GOTO(!in, st, KW_ENOMEM, fail, "rss recon: out of memory");
+        kw_fft_planner_lock();
         if (kw_fft_threads_ready())
             fftwf_plan_with_nthreads(1);
         r->plan = fftwf_plan_dft(rank, ni, (fftwf_complex *)in, (fftwf_complex *)r->scratch,
@@ -83,6 +85,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
                                      FFTW_PRESERVE_INPUT);
         if (kw_fft_threads_ready())
             fftwf_plan_with_nthreads(kw_fft_threads());
+        kw_fft_planner_unlock();
         kw_free(in);
         KW_FAIL_GOTO(!r->plan, st, KW_EINTERNAL, fail, "rss recon: FFTW could not plan");
     }
@@ -166,8 +169,11 @@ void kw_rssrecon_destroy(kw_rssrecon *r)
 {
     if (!r)
         return;
-    if (r->plan)
+    if (r->plan) {
+        kw_fft_planner_lock();
         fftwf_destroy_plan(r->plan);
+        kw_fft_planner_unlock();
+    }
     kw_fft_destroy(r->generic);
     kw_free(r->scratch);
     kw_free(r->acc);
