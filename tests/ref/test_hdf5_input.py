@@ -136,17 +136,42 @@ def test_real_image_float_and_int16_for_score_and_render(data):
 def test_maps_and_ref_from_hdf5_equal_npy(data):
     d, _ = data
     mc, maps, truth = np.load(d / "mc.npy"), np.load(d / "maps.npy"), np.load(d / "truth.npy")
+    nc = mc.shape[0]
+    cov = (np.eye(nc) + 0.1 * (np.ones((nc, nc)) - np.eye(nc)) * (1 + 0.5j)).astype(np.complex64)
+    cov = (0.5 * (cov + cov.conj().T)).astype(np.complex64)  # Hermitian, positive definite
+    np.save(d / "cov.npy", cov)
     with h5py.File(d / "mc.h5", "w") as f:
         f["k"] = mc
         f["maps"] = pairs(maps, np.float32)   # trailing axis 2
+        f["cov"] = pairs(cov, np.float64)     # (coils, coils, 2)
         f["truth"] = truth
-    for tag, args in (("n", ["--in", d / "mc.npy", "--sens", d / "maps.npy", "--ref", d / "truth.npy"]),
+    for tag, args in (("n", ["--in", d / "mc.npy", "--sens", d / "maps.npy", "--ref", d / "truth.npy",
+                             "--noise-cov", d / "cov.npy"]),
                       ("h", ["--in", f"{d / 'mc.h5'}:/k", "--sens", f"{d / 'mc.h5'}:/maps",
-                             "--ref", f"{d / 'mc.h5'}:/truth"])):
+                             "--ref", f"{d / 'mc.h5'}:/truth", "--noise-cov", f"{d / 'mc.h5'}:/cov"])):
         krun(d, "recon", *args, "--combine", "optimal", "--out", d / f"mc_{tag}.npy", "--json", d / f"mc_{tag}.json")
     assert (d / "mc_n.npy").read_bytes() == (d / "mc_h.npy").read_bytes()
     sn, sh = (json.load(open(d / f"mc_{t}.json"))["scores"] for t in "nh")
     assert (sn["nrmse"], sn["psnr_db"], sn["ssim"]) == (sh["nrmse"], sh["psnr_db"], sh["ssim"])
+
+
+def test_trajectory_from_hdf5_is_real(data):
+    """A trajectory (samples, 2) keeps its two coordinates (no complex pairs)."""
+    d, _ = data
+    n = 32
+    r = np.arange(2 * n) / 2 - n / 2
+    ang = np.arange(24) * np.pi / 24
+    traj = np.stack([np.outer(np.cos(ang), r).ravel(), np.outer(np.sin(ang), r).ravel()], 1).astype(np.float32)
+    rng = np.random.default_rng(3)
+    k = (rng.standard_normal((1, len(traj))) + 1j * rng.standard_normal((1, len(traj)))).astype(np.complex64)
+    np.save(d / "nc.npy", k)
+    np.save(d / "nc_traj.npy", traj)
+    with h5py.File(d / "nc.h5", "w") as f:
+        f["k"] = k
+        f["traj"] = traj.astype(np.float64)
+    krun(d, "recon", "--in", d / "nc.npy", "--trajectory", d / "nc_traj.npy", "--out", d / "nc_n.npy")
+    krun(d, "recon", "--in", f"{d / 'nc.h5'}:/k", "--trajectory", f"{d / 'nc.h5'}:/traj", "--out", d / "nc_h.npy")
+    assert (d / "nc_n.npy").read_bytes() == (d / "nc_h.npy").read_bytes()
 
 
 def test_multislice_hdf5_equals_npy(data):
