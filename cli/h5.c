@@ -17,22 +17,27 @@ static const char *const H5_EXTS[] = {".h5", ".hdf5", ".mat"};
 size_t kw_h5_split(const char *spec, const char **dset)
 {
     size_t n = strlen(spec), best = 0;
-    for (size_t e = 0; e < sizeof H5_EXTS / sizeof H5_EXTS[0]; e++) {
+    const size_t ne = sizeof H5_EXTS / sizeof H5_EXTS[0];
+    for (size_t e = 0; e < ne; e++) { /* the first FILE.ext: */
         size_t m = strlen(H5_EXTS[e]);
-        for (size_t i = 1; i + m < n; i++)
+        for (size_t i = 1; i + m < n && (!best || i + m < best); i++)
             if (spec[i + m] == ':' && strncasecmp(spec + i, H5_EXTS[e], m) == 0) {
-                if (!best || i + m < best)
-                    best = i + m;
+                best = i + m;
                 break;
             }
-        if (!best && n > m && strcasecmp(spec + n - m, H5_EXTS[e]) == 0) {
-            *dset = spec + n; /* the file alone: the dataset is not named */
+    }
+    if (best) {
+        *dset = spec + best + 1;
+        return best;
+    }
+    for (size_t e = 0; e < ne; e++) { /* the file alone: the dataset is not named */
+        size_t m = strlen(H5_EXTS[e]);
+        if (n > m && strcasecmp(spec + n - m, H5_EXTS[e]) == 0) {
+            *dset = spec + n;
             return n;
         }
     }
-    if (best)
-        *dset = spec + best + 1;
-    return best;
+    return 0;
 }
 
 /* The names at the file's top level, for the message when none is given. */
