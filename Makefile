@@ -23,6 +23,13 @@ SAN_LDFLAGS := -fsanitize=address,undefined
 endif
 ALL_CFLAGS = $(KW_CFLAGS) $(PKG_CFLAGS) $(CFLAGS)
 LIBS = -lfftw3f_omp $(PKG_LIBS) -lm -fopenmp
+# HDF5 (cli/h5.c) for the command only: libkweave never links it. Debian's
+# serial build through pkg-config (hdf5-serial.pc, else hdf5.pc), else its
+# standard place.
+H5_PKG = $(shell $(PKG_CONFIG) --exists hdf5-serial 2>/dev/null && echo hdf5-serial || echo hdf5)
+H5_CFLAGS = $(shell $(PKG_CONFIG) --cflags $(H5_PKG) 2>/dev/null || echo -I/usr/include/hdf5/serial)
+H5_LIBS = $(shell $(PKG_CONFIG) --libs $(H5_PKG) 2>/dev/null || echo -lhdf5_serial)
+CLI_LIBS = $(H5_LIBS) $(LIBS)
 
 LIB_SRC := $(sort $(wildcard libencode/*.c recon/*.c))
 CLI_SRC := $(sort $(filter-out cli/main.c,$(wildcard cli/*.c)))
@@ -60,6 +67,7 @@ $(BUILD)/libkweave.a: $(LIB_OBJ)
 
 # The library's objects hide every symbol that KW_API does not mark.
 $(LIB_OBJ): ALL_CFLAGS += -fvisibility=hidden
+$(BUILD)/obj/cli/h5.o: ALL_CFLAGS += $(H5_CFLAGS)
 
 SOMAJOR := $(firstword $(subst ., ,$(VERSION)))
 $(BUILD)/libkweave.so: $(LIB_OBJ)
@@ -71,10 +79,10 @@ $(BUILD)/libkwcli.a: $(CLI_OBJ)
 	ar rcs $@ $^
 
 $(BUILD)/libkwcli.so: $(CLI_OBJ) $(LIB_OBJ)
-	$(CC) -shared -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) -shared -o $@ $^ $(CLI_LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
 
 $(BUILD)/kweave: $(BUILD)/obj/cli/main.o $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
-	$(CC) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) -o $@ $^ $(CLI_LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
 
 # The umbrella header lists every public header of libencode/ and recon/.
 $(BUILD)/include/kweave.h: $(PUB_HDR) Makefile
@@ -98,7 +106,7 @@ FORCE:
 
 # ---- tests ---------------------------------------------------------------------
 $(BUILD)/kw_tests: $(TEST_OBJ) $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
-	$(CC) -o $@ $^ $(LIBS) $$($(PKG_CONFIG) --libs criterion) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) -o $@ $^ $(CLI_LIBS) $$($(PKG_CONFIG) --libs criterion) $(SAN_LDFLAGS) $(LDFLAGS)
 
 $(BUILD)/obj/tests/%.o: tests/%.c
 	@mkdir -p $(dir $@)
@@ -186,7 +194,7 @@ valgrind: all $(BUILD)/kw_tests
 
 # ---- benchmarks (figures side by side as ratios; never timed tests) ---------
 $(BUILD)/kw_bench: bench/bench.c $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
-	$(CC) $(ALL_CFLAGS) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) $(ALL_CFLAGS) -o $@ $^ $(CLI_LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
 
 bench: deps-test all $(BUILD)/kw_bench
 	$(PY) bench/run.py --build $(BUILD)
@@ -252,7 +260,7 @@ fuzz-run: $(BUILD)/fuzz/fuzz_$(FUZZ)
 $(BUILD)/fuzz-replay/replay_%: $(BUILD)/obj/tests/fuzz/fuzz_%.o $(BUILD)/obj/tests/fuzz/replay.o \
                                $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
 	@mkdir -p $(dir $@)
-	$(CC) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+	$(CC) -o $@ $^ $(CLI_LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
 
 fuzz-replay: $(FUZZ_TARGETS:%=$(BUILD)/fuzz-replay/replay_%)
 	@for t in $(FUZZ_TARGETS); do $(BUILD)/fuzz-replay/replay_$$t tests/fuzz/$$t || exit 1; done

@@ -11,18 +11,24 @@
 #include <string.h>
 #include <unistd.h>
 
+#include "arrayio.h"
 #include "cli.h"
+#include "h5.h"
 #include "jsonio.h"
 #include "recon_json.h"
 #include "kw_metrics.h"
+#include "nifti.h"
 #include "npy.h"
 #include "png.h"
 #include "recon_cli.h"
 #include "recon_multislice.h"
 
 static const char USAGE[] =
-    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png [--method M] [options]\n"
+    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png|IMG.nii [--method M] [options]\n"
     "\n"
+    "Every array may also be one dataset of an HDF5 file, FILE.h5:/path (.hdf5,\n"
+    "MATLAB v7.3 .mat), complex as a compound r/i or real/imag or a trailing\n"
+    "axis of 2 (docs/files.md).\n"
     "Reconstructs k-space (coils, [nz,] ny, nx) or non-Cartesian samples\n"
     "(coils, samples) with a trajectory. The sidecar KS.json is read when\n"
     "present (trajectory, maps, noise covariance, acceleration). Multi-slice\n"
@@ -53,9 +59,12 @@ static int ends_with(const char *s, const char *suf)
     return n >= m && strcasecmp(s + n - m, suf) == 0;
 }
 
-/* Read a file named by an option or, failing that, by the sidecar key. */
+/* Read a file named by an option or, failing that, by the sidecar key.
+ * `pairs`: an HDF5 dataset's trailing axis of 2 is (real, imaginary): 1
+ * always (maps), 2 only for a square matrix (noise covariance, (n, n, 2)),
+ * 0 never (a trajectory's (samples, 2) is two coordinates). */
 static int read_named(const char *opt_path, const cJSON *sc, const char *scpath,
-                      const char *key, const char *field, kw_array *out)
+                      const char *key, const char *field, int pairs, kw_array *out)
 {
     char *path = NULL;
     if (opt_path) {
@@ -69,12 +78,15 @@ static int read_named(const char *opt_path, const cJSON *sc, const char *scpath,
     }
     if (!path)
         return -1;
-    kw_status st = kw_npy_read(path, out);
+    kw_status st = kw_array_read(path, out);
     if (st) {
         int rc = kw_cli_status(st, field);
         free(path);
         return rc;
     }
+    if (pairs && kw_array_is_hdf5(path) &&
+        (pairs == 1 || (out->ndim == 3 && out->dims[0] == out->dims[1])))
+        kw_array_pairs_to_complex(out);
     free(path);
     if (kw_array_all_finite(out))
         return kw_cli_fail(field, "%s", kw_last_error());
@@ -91,8 +103,16 @@ static int parse_kernel(const char *s, int k[2])
     return -1;
 }
 
-static kw_status write_image(const char *path, const kw_array *a)
+static kw_status write_image(const char *path, const kw_array *a, int spatial, const cJSON *sidecar)
 {
+    if (ends_with(path, ".nii")) {
+        KW_FAIL_IF(spatial < 2 || spatial > 3 || a->ndim < spatial, KW_EINVAL,
+                   "a NIfTI image has 2 or 3 spatial axes (this one %d)", spatial);
+        kw_nifti_geom g;
+        const size_t *d = a->dims + a->ndim - spatial;
+        kw_nifti_geom_from_sidecar(sidecar, d[spatial - 1], d[spatial - 2], spatial == 3 ? d[0] : 0, 0, &g);
+        return kw_nifti_write(path, a, spatial, &g);
+    }
     if (ends_with(path, ".png")) {
         kw_png_opts po;
         kw_png_opts_default(&po);
@@ -106,11 +126,12 @@ static int parse(recon_ctx *c, int argc, char **argv)
 {
     kw_recon_opts *o = &c->o;
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &o->in, 0, NULL, "k-space .npy (- for stdin)"},
+        {"in", KW_OPT_STRING, &o->in, 0, NULL, "k-space .npy (- for stdin) or FILE.h5:/dataset"},
         {"sidecar", KW_OPT_STRING, &c->sidecar_opt, 0, NULL,
          "the k-space's sidecar .json (default: beside --in; for --in -, give it here)"},
         {"out", KW_OPT_STRING, &o->out, 0, NULL,
-         "image: .npy (float32, or complex64 with --keep-coils or --complex) or .png"},
+         "image: .npy (float32, or complex64 with --keep-coils or --complex), .png or .nii "
+         "(NIfTI-1)"},
         {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
         {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
         {"sens", KW_OPT_STRING, &o->sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
@@ -150,8 +171,9 @@ static int parse(recon_ctx *c, int argc, char **argv)
         return kw_cli_fail("in", "missing (--in KS.npy)");
     if (!o->out && !o->json)
         return kw_cli_fail("out", "missing (--out IMG.npy or IMG.png)");
-    if (o->out && !ends_with(o->out, ".npy") && !ends_with(o->out, ".png") && strcmp(o->out, "-") != 0)
-        return kw_cli_fail("out", "'%s': give a .npy or .png file name", o->out);
+    if (o->out && !ends_with(o->out, ".npy") && !ends_with(o->out, ".png") && !ends_with(o->out, ".nii") &&
+        strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': give a .npy, .png or .nii file name", o->out);
     if (o->gfactor && !ends_with(o->gfactor, ".npy") && !ends_with(o->gfactor, ".png"))
         return kw_cli_fail("gfactor", "'%s': give a .npy or .png file name", o->gfactor);
     if (o->kernel && (rc = parse_kernel(o->kernel, o->kernel_yx)) >= 0)
@@ -176,6 +198,22 @@ static int parse(recon_ctx *c, int argc, char **argv)
     return -1;
 }
 
+/* The sidecar beside the input: KS.json for KS.npy, and for a dataset of an
+ * HDF5 file (FILE.h5:/path) FILE.json. */
+static char *sidecar_beside(const char *in)
+{
+    if (!kw_array_is_hdf5(in))
+        return kw_sidecar_path(in);
+    char *file = strdup(in), *r;
+    if (!file)
+        return NULL;
+    const char *dset;
+    file[kw_h5_split(in, &dset)] = '\0';
+    r = kw_sidecar_path(file);
+    free(file);
+    return r;
+}
+
 /* The sidecar named by --sidecar, else the one next to the input, if any.
  * -1: go on. In a pipe (`kweave encode --out - --sidecar ks.json | kweave
  * recon --in - --sidecar ks.json`) the writer puts the sidecar in place
@@ -194,7 +232,7 @@ static int read_sidecar(recon_ctx *c)
             return kw_cli_fail("sidecar", "out of memory");
         if (access(c->scpath, F_OK) != 0)
             return kw_cli_fail("sidecar", "%s: %s", c->scpath, strerror(errno));
-    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_sidecar_path(c->o.in)) ||
+    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = sidecar_beside(c->o.in)) ||
                access(c->scpath, F_OK) != 0) {
         return -1;
     }
@@ -213,11 +251,12 @@ static int read_sidecar(recon_ctx *c)
 static int read_kspace(recon_ctx *c)
 {
     kw_array *k = &c->ksp;
-    kw_status st = kw_npy_read(c->o.in, k);
+    kw_status st = kw_array_read_complex(c->o.in, k);
     if (st)
         return kw_cli_status(st, "in");
     if (k->dtype != KW_C64)
-        return kw_cli_fail("in", "k-space must be complex (complex64 or complex128)");
+        return kw_cli_fail("in", "k-space must be complex (complex64 or complex128%s)",
+                           kw_array_is_hdf5(c->o.in) ? "; in HDF5 a compound r/i or real/imag, or a trailing axis of 2" : "");
     if (kw_array_all_finite(k))
         return kw_cli_fail("in", "%s", kw_last_error());
     /* The sidecar must describe this array: its "shape" is the array's. */
@@ -236,7 +275,7 @@ static int read_kspace(recon_ctx *c)
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */
     const cJSON *lay = sc ? cJSON_GetObjectItemCaseSensitive(sc, "layout") : NULL;
     int rc;
-    if ((rc = read_named(c->o.trajectory, sc, c->scpath, "trajectory", "trajectory", &c->traj)) >= 0)
+    if ((rc = read_named(c->o.trajectory, sc, c->scpath, "trajectory", "trajectory", 0, &c->traj)) >= 0)
         return rc;
     c->noncart = c->traj.data != NULL;
     if (c->o.dcf_out && !c->noncart)
@@ -284,7 +323,7 @@ static int read_maps(recon_ctx *c)
     const kw_array *k = &c->ksp;
     kw_array *s = &c->sens;
     int rc;
-    if ((rc = read_named(c->o.sens, c->sidecar, c->scpath, "sens", "sens", s)) >= 0)
+    if ((rc = read_named(c->o.sens, c->sidecar, c->scpath, "sens", "sens", 1, s)) >= 0)
         return rc;
     if (s->data && (s->dtype != KW_C64 || s->dims[0] != k->dims[0]))
         return kw_cli_fail("sens", "must be complex with one map per coil (%zu coils)", k->dims[0]);
@@ -302,7 +341,7 @@ static int read_maps(recon_ctx *c)
             return kw_cli_fail("sens", "shape must equal the k-space shape (coils, [nz,] ny, nx)");
     }
     kw_array *q = &c->cov;
-    if ((rc = read_named(c->o.noise_cov, c->sidecar, c->scpath, "noise_cov", "noise-cov", q)) >= 0)
+    if ((rc = read_named(c->o.noise_cov, c->sidecar, c->scpath, "noise_cov", "noise-cov", 2, q)) >= 0)
         return rc;
     if (q->data && (q->ndim != 2 || q->dims[0] != k->dims[0] || q->dims[1] != k->dims[0] || q->dtype == KW_U8))
         return kw_cli_fail("noise-cov", "shape must be (%zu, %zu), one row and column per coil",
@@ -338,7 +377,7 @@ static int read_noncart(recon_ctx *c)
     const char *dcf = c->o.dcf;
     if (!dcf || !strcmp(dcf, "radial") || !strcmp(dcf, "pipe"))
         return -1;
-    kw_status st = kw_npy_read(dcf, &c->dcfw);
+    kw_status st = kw_array_read(dcf, &c->dcfw);
     if (st)
         return kw_cli_fail("dcf", "expected radial, pipe or a weights .npy file; %s", kw_last_error());
     size_t n = kw_array_count(&c->dcfw), ns = c->traj.dims[0];
@@ -360,7 +399,7 @@ static int check_method(recon_ctx *c)
         return kw_cli_fail("method", "%s takes non-Cartesian data only (give --trajectory)", c->mname);
     if (c->o.ref) {
         kw_status st;
-        if ((st = kw_npy_read(c->o.ref, &c->ref)))
+        if ((st = kw_array_read(c->o.ref, &c->ref)))
             return kw_cli_status(st, "ref");
         if (kw_array_all_finite(&c->ref))
             return kw_cli_fail("ref", "%s", kw_last_error());
@@ -519,9 +558,10 @@ static int report(recon_ctx *c)
     if (c->o.ref && (rc = score(c)) >= 0)
         return rc;
     kw_status st;
-    if (c->o.out && (st = write_image(c->o.out, &c->image)))
+    int spatial = c->noncart ? (int)c->traj.dims[1] : c->ksp.ndim - 1;
+    if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar)))
         return kw_cli_status(st, "out");
-    if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor)))
+    if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor, spatial, c->sidecar)))
         return kw_cli_status(st, "gfactor");
     if (c->o.out)
         cJSON_AddStringToObject(j, "output", c->o.out);

@@ -12,6 +12,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "arrayio.h"
 #include "cli.h"
 #include "npy.h"
 #include "png.h"
@@ -72,7 +73,7 @@ int kw_cmd_render(int argc, char **argv)
     int montage = 0;
     int seen[5] = {0};
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin)"},
+        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin) or FILE.h5:/dataset"},
         {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout)"},
         {"part", KW_OPT_STRING, &part, KW_UNIT_NONE, &seen[2],
          "mag (default), phase, real, imag, logmag"},
@@ -106,7 +107,7 @@ int kw_cmd_render(int argc, char **argv)
     }
 
     kw_array a;
-    kw_status st = kw_npy_read(in, &a);
+    kw_status st = kw_array_read(in, &a);
     if (st)
         return kw_cli_status(st, "in");
     if (montage && a.ndim < 3) {

@@ -4,6 +4,7 @@
 #include <stdio.h>
 #include <string.h>
 
+#include "arrayio.h"
 #include "cli.h"
 #include "jsonio.h"
 #include "kw_metrics.h"
@@ -21,7 +22,7 @@ static const char USAGE[] =
 
 static int load(const char *path, const char *field, kw_array *a)
 {
-    kw_status st = kw_npy_read(path, a);
+    kw_status st = kw_array_read(path, a);
     if (st)
         return kw_cli_status(st, field);
     if (a->dtype == KW_U8)
@@ -35,8 +36,8 @@ int kw_cmd_score(int argc, char **argv)
 {
     const char *refp = NULL, *testp = NULL, *json = NULL, *diff = NULL;
     const kw_opt table[] = {
-        {"ref", KW_OPT_STRING, &refp, 0, NULL, "reference image .npy"},
-        {"test", KW_OPT_STRING, &testp, 0, NULL, "image to score .npy"},
+        {"ref", KW_OPT_STRING, &refp, 0, NULL, "reference image .npy (or FILE.h5:/dataset)"},
+        {"test", KW_OPT_STRING, &testp, 0, NULL, "image to score .npy (or FILE.h5:/dataset)"},
         {"json", KW_OPT_STRING, &json, 0, NULL, "JSON report (keys nrmse, psnr_db, ssim; - for stdout)"},
         {"diff", KW_OPT_STRING, &diff, 0, NULL, "picture of |test| - |ref| (.png)"},
         {NULL, 0, NULL, 0, NULL, NULL},

@@ -19,7 +19,10 @@
  * Maps: (coils, slices, ny, nx), streamed the same way, or (coils, ny, nx)
  * shared by all slices. Output: (slices, ny, nx) float32, or with
  * --keep-coils (coils, slices, ny, nx) complex64 (written in place, so the
- * target must be a file). */
+ * target must be a file). A .nii output (NIfTI-1, cli/nifti.h) is written
+ * the same way, slice by slice, with the slice spacing of the sidecar.
+ * An HDF5 dataset (FILE.h5:/path, cli/h5.h) cannot be streamed here: it is
+ * read whole (within --max-memory) and served slice by slice from memory. */
 #include "recon_multislice.h"
 
 #include <math.h>
@@ -27,20 +30,29 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "arrayio.h"
 #include "cli.h"
 #include "jsonio.h"
 #include "recon_json.h"
 #include "kw_metrics.h"
+#include "nifti.h"
 #include "npy.h"
 #include "npystream.h"
 #include "recon_cli.h"
+
+/* A complex source read by element ranges: a .npy stream, or an HDF5
+ * dataset held in memory (r then holds only its shape). */
+typedef struct ms_src {
+    kw_npyr r;
+    kw_array mem;
+} ms_src;
 
 typedef struct ms_ctx {
     const kw_recon_opts *o;
     const cJSON *sidecar;
     const char *scpath, *mname;
     int axis;
-    kw_npyr rk, rs;
+    ms_src rk, rs;
     kw_npyw w;
     size_t nc, ns, ny, nx, npix;
     kw_array ref, ncov, sens;
@@ -92,6 +104,43 @@ static void add_dims(cJSON *r, const char *key, const size_t *d, int n)
     kw_json_add_vec(r, key, v, n);
 }
 
+static kw_status src_open(ms_src *s, const char *path)
+{
+    if (!kw_array_is_hdf5(path))
+        return kw_npyr_open(&s->r, path);
+    kw_status st = kw_array_read_complex(path, &s->mem);
+    if (st)
+        return st;
+    if (s->mem.dtype != KW_C64) {
+        kw_array_free(&s->mem);
+        return kw_set_error(KW_EFORMAT, "%s: must be complex (a compound r/i or real/imag, or a trailing axis of 2)",
+                            path);
+    }
+    s->r.ndim = s->mem.ndim;
+    memcpy(s->r.dims, s->mem.dims, sizeof s->r.dims);
+    s->r.count = kw_array_count(&s->mem);
+    s->r.seekable = 1;
+    return KW_OK;
+}
+
+static kw_status src_read(ms_src *s, size_t first, size_t n, float complex *out)
+{
+    if (!s->mem.data)
+        return kw_npyr_read(&s->r, first, n, out);
+    KW_FAIL_IF(first > s->r.count || n > s->r.count - first, KW_EINVAL, "elements %zu..%zu lie outside the array",
+               first, first + n);
+    memcpy(out, (const float complex *)s->mem.data + first, n * sizeof *out);
+    return KW_OK;
+}
+
+static int src_live(const ms_src *s) { return s->r.fp || s->mem.data; }
+
+static void src_close(ms_src *s)
+{
+    kw_npyr_close(&s->r);
+    kw_array_free(&s->mem);
+}
+
 /* Element offset of coil c, slice s in a 4-D layout with the slice axis. */
 static size_t plane_at(int axis, size_t nc, size_t ns, size_t c, size_t s, size_t npix)
 {
@@ -99,13 +148,13 @@ static size_t plane_at(int axis, size_t nc, size_t ns, size_t c, size_t s, size_
 }
 
 /* Every coil's plane of slice s into buf (nc, npix). */
-static kw_status read_slice(kw_npyr *r, int axis, size_t nc, size_t ns, size_t s, size_t npix,
+static kw_status read_slice(ms_src *r, int axis, size_t nc, size_t ns, size_t s, size_t npix,
                             float complex *buf)
 {
     if (axis == 0) /* slice-major: one contiguous block */
-        return kw_npyr_read(r, s * nc * npix, nc * npix, buf);
+        return src_read(r, s * nc * npix, nc * npix, buf);
     for (size_t c = 0; c < nc; c++) {
-        kw_status st = kw_npyr_read(r, plane_at(axis, nc, ns, c, s, npix), npix, buf + c * npix);
+        kw_status st = src_read(r, plane_at(axis, nc, ns, c, s, npix), npix, buf + c * npix);
         if (st)
             return st;
     }
@@ -133,8 +182,8 @@ static int open_kspace(ms_ctx *m)
         return kw_cli_fail("slices", "multi-slice reconstruction takes Cartesian data only (no trajectory)");
     if (o->gfactor)
         return kw_cli_fail("gfactor", "not with multi-slice input (run one slice on its own for a g-factor map)");
-    if (o->out && !ends_with_ci(o->out, ".npy") && strcmp(o->out, "-") != 0)
-        return kw_cli_fail("out", "'%s': multi-slice images are written as .npy (slices, ny, nx)", o->out);
+    if (o->out && !ends_with_ci(o->out, ".npy") && !ends_with_ci(o->out, ".nii") && strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': multi-slice images are written as .npy or .nii (slices, ny, nx)", o->out);
 
     m->mname = o->method ? o->method : "fft";
     const kw_recon_method_info *mi = kw_recon_method_find(m->mname);
@@ -143,8 +192,8 @@ static int open_kspace(ms_ctx *m)
     if (!mi->cartesian)
         return kw_cli_fail("method", "%s takes non-Cartesian data only; multi-slice data are Cartesian", m->mname);
 
-    kw_npyr *rk = &m->rk;
-    if ((st = kw_npyr_open(rk, o->in)))
+    kw_npyr *rk = &m->rk.r;
+    if ((st = src_open(&m->rk, o->in)))
         return kw_cli_status(st, "in");
     if (rk->ndim != 3 && rk->ndim != 4)
         return kw_cli_fail("in", "multi-slice k-space must be (coils, slices, ny, nx), (slices, coils, ny, nx) "
@@ -197,9 +246,9 @@ static int open_sens(ms_ctx *m)
         return rc;
     if (!m->spath)
         return -1;
-    kw_npyr *rs = &m->rs;
+    kw_npyr *rs = &m->rs.r;
     m->sens_src = m->o->sens ? "file (--sens)" : "file (sidecar)";
-    if ((st = kw_npyr_open(rs, m->spath)))
+    if ((st = src_open(&m->rs, m->spath)))
         return kw_cli_status(st, "sens");
     int per_slice = rs->ndim == 4 && rs->dims[0] == nc && rs->dims[1] == ns && rs->dims[2] == ny && rs->dims[3] == nx;
     int shared = (rs->ndim == 3 && rs->dims[0] == nc && rs->dims[1] == ny && rs->dims[2] == nx) ||
@@ -213,10 +262,10 @@ static int open_sens(ms_ctx *m)
     if ((st = kw_array_alloc(&m->sens, KW_C64, 3, sd)))
         return kw_cli_status(st, "sens");
     if (shared) {
-        if ((st = kw_npyr_read(rs, 0, nc * npix, m->sens.data)) ||
+        if ((st = src_read(&m->rs, 0, nc * npix, m->sens.data)) ||
             (st = finite_block(m->sens.data, nc * npix, 0)))
             return kw_cli_status(st, "sens");
-        kw_npyr_close(rs);
+        src_close(&m->rs);
     }
     return -1;
 }
@@ -232,8 +281,10 @@ static int open_cov_ref(ms_ctx *m)
         return rc;
     if (m->cpath) {
         kw_array *q = &m->ncov;
-        if ((st = kw_npy_read(m->cpath, q)))
+        if ((st = kw_array_read(m->cpath, q)))
             return kw_cli_status(st, "noise-cov");
+        if (kw_array_is_hdf5(m->cpath) && q->ndim == 3 && q->dims[0] == q->dims[1])
+            kw_array_pairs_to_complex(q); /* (n, n, 2): real, imaginary */
         if (kw_array_all_finite(q))
             return kw_cli_fail("noise-cov", "%s", kw_last_error());
         if (q->ndim != 2 || q->dims[0] != nc || q->dims[1] != nc || q->dtype == KW_U8)
@@ -250,7 +301,7 @@ static int open_cov_ref(ms_ctx *m)
     }
     if (o->ref) {
         kw_array *ref = &m->ref;
-        if ((st = kw_npy_read(o->ref, ref)))
+        if ((st = kw_array_read(o->ref, ref)))
             return kw_cli_status(st, "ref");
         if (kw_array_all_finite(ref))
             return kw_cli_fail("ref", "%s", kw_last_error());
@@ -279,7 +330,7 @@ static int start(ms_ctx *m, int *kind)
     cJSON_AddStringToObject(report, "method", m->mname);
     cJSON_AddStringToObject(report, "input", o->in);
     cJSON_AddStringToObject(report, "layout", "cartesian");
-    add_dims(report, "kspace_shape", m->rk.dims, m->rk.ndim);
+    add_dims(report, "kspace_shape", m->rk.r.dims, m->rk.r.ndim);
     cJSON_AddNumberToObject(report, "coils", (double)m->nc);
     cJSON_AddBoolToObject(report, "multislice", 1);
     cJSON_AddNumberToObject(report, "slices", (double)m->ns);
@@ -312,9 +363,15 @@ static int start(ms_ctx *m, int *kind)
         return kw_cli_fail("in", "out of memory");
     size_t od[4] = {m->nc, m->ns, m->ny, m->nx};
     kw_status wst = KW_OK;
-    if (o->out)
-        wst = *kind == 3 ? kw_npyw_open(&m->w, o->out, KW_C64, 4, od)
-                         : kw_npyw_open(&m->w, o->out, *kind == 1 ? KW_F32 : KW_C64, 3, od + 1);
+    int nd_out = *kind == 3 ? 4 : 3;
+    kw_dtype dt_out = *kind == 1 ? KW_F32 : KW_C64;
+    if (o->out && ends_with_ci(o->out, ".nii")) {
+        kw_nifti_geom ng;
+        kw_nifti_geom_from_sidecar(m->sidecar, m->nx, m->ny, m->ns, 1, &ng);
+        wst = kw_nifti_open(&m->w, o->out, dt_out, nd_out, od + 4 - nd_out, 3, &ng);
+    } else if (o->out) {
+        wst = kw_npyw_open(&m->w, o->out, dt_out, nd_out, od + 4 - nd_out);
+    }
     if (wst)
         return kw_cli_status(wst, "out");
     if (o->out && *kind == 3 && m->nc > 1 && m->ns > 1 && !m->w.seekable)
@@ -375,9 +432,9 @@ static int slices(ms_ctx *m, int kind)
             return kw_cli_status(st, "in");
         if ((st = finite_block(m->kbuf, nc * npix, s)))
             return kw_cli_status(st, "in");
-        if (m->rs.fp) {
+        if (src_live(&m->rs)) {
             for (size_t c = 0; c < nc; c++)
-                if ((st = kw_npyr_read(&m->rs, (c * ns + s) * npix, npix,
+                if ((st = src_read(&m->rs, (c * ns + s) * npix, npix,
                                        (float complex *)m->sens.data + c * npix)))
                     return kw_cli_status(st, "sens");
             if ((st = finite_block(m->sens.data, nc * npix, s)))
@@ -460,8 +517,8 @@ int kw_recon_multislice(const kw_recon_opts *o, const cJSON *sidecar, const char
     kw_cli_progress_done();
     kw_npyw_abort(&m.w);
     kw_recon_destroy(m.r);
-    kw_npyr_close(&m.rk);
-    kw_npyr_close(&m.rs);
+    src_close(&m.rk);
+    src_close(&m.rs);
     kw_array_free(&m.sens);
     kw_array_free(&m.ncov);
     kw_array_free(&m.ref);

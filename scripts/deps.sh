@@ -1,10 +1,11 @@
 #!/bin/sh
 # deps.sh MODE: make sure what kweave needs is installed.
-#   MODE=build: compiler libraries (FFTW, libpng, cJSON, cairo, pkg-config)
+#   MODE=build: compiler libraries (FFTW, libpng, cJSON, cairo, HDF5, pkg-config)
 #   MODE=python: build + python3-dev and python3-numpy (the Python package)
 #   MODE=test:  build + python + Criterion + a C++ compiler (the header test) + Python
 #               reference libraries (numpy, scipy, scikit-image, PyWavelets,
-#               pytest) for /usr/bin/python3
+#               pytest; h5py and nibabel for the file-format checks) for
+#               /usr/bin/python3
 # Missing Debian packages are installed with apt-get when run as root;
 # otherwise the script names them and fails.
 mode=${1:-build}
@@ -18,6 +19,11 @@ for pc in fftw3f:libfftw3-dev libpng:libpng-dev libcjson:libcjson-dev cairo:libc
         need "$deb"
     fi
 done
+# HDF5 (the CLI's HDF5 input, cli/h5.c): Debian's serial build
+if ! { command -v pkg-config >/dev/null 2>&1 && { pkg-config --exists hdf5-serial 2>/dev/null ||
+       pkg-config --exists hdf5 2>/dev/null; }; } && [ ! -f /usr/include/hdf5/serial/hdf5.h ]; then
+    need libhdf5-dev
+fi
 if [ "$mode" = test ] || [ "$mode" = python ]; then
     [ -x /usr/bin/python3 ] || need python3
     /usr/bin/python3 -c "import sysconfig, os, sys; sys.exit(not os.path.exists(os.path.join(sysconfig.get_paths()['include'], 'Python.h')))" \
@@ -32,7 +38,7 @@ if [ "$mode" = test ]; then
     command -v "${CXX:-c++}" >/dev/null 2>&1 || need g++
     [ -x /usr/bin/python3 ] || need python3
     for m in numpy:python3-numpy scipy:python3-scipy skimage:python3-skimage \
-             pywt:python3-pywt pytest:python3-pytest; do
+             pywt:python3-pywt pytest:python3-pytest h5py:python3-h5py nibabel:python3-nibabel; do
         mod=${m%%:*}; deb=${m#*:}
         /usr/bin/python3 -c "import $mod" >/dev/null 2>&1 || need "$deb"
     done
