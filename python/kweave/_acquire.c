@@ -511,9 +511,7 @@ static void acq_dealloc(AcqObject *self)
 {
     if (self->acq) { /* destroying plans is planning too */
         Py_BEGIN_ALLOW_THREADS
-        kwpy_plan_lock();
         kw_acquisition_destroy(self->acq);
-        kwpy_plan_unlock();
         Py_END_ALLOW_THREADS
         self->acq = NULL;
     }
@@ -600,9 +598,7 @@ static int acq_init(AcqObject *self, PyObject *args, PyObject *kwargs)
     kw_status st;
     kw_acquisition *acq = NULL;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     st = kw_acquisition_create(&acq, &o);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (st)
         return acq_fail(st), -1;
@@ -667,10 +663,8 @@ static PyObject *acq_run(AcqObject *self, PyObject *noargs)
     char *json = NULL;
     Py_BEGIN_ALLOW_THREADS
     PyThread_acquire_lock(self->lock, WAIT_LOCK);
-    kwpy_plan_lock(); /* it may plan as it runs */
     st = kw_acquisition_execute(self->acq, PyArray_DATA(ks), PyArray_DATA(truth),
                                 maps ? PyArray_DATA(maps) : NULL, NULL, NULL);
-    kwpy_plan_unlock();
     if (!st)
         st = kw_acquisition_info_json(self->acq, &json);
     PyThread_release_lock(self->lock);

@@ -415,12 +415,6 @@ PyObject *kwpy_namespace(PyObject *fields)
     return r;
 }
 
-static PyThread_type_lock plan_lock;
-
-void kwpy_plan_lock(void) { PyThread_acquire_lock(plan_lock, WAIT_LOCK); }
-
-void kwpy_plan_unlock(void) { PyThread_release_lock(plan_lock); }
-
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs)
 {
     return PyModule_AddFunctions(m, defs);
@@ -441,9 +435,7 @@ static PyObject *py_wisdom_export(PyObject *self, PyObject *noargs)
     (void)noargs;
     char *w;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     w = kw_fft_wisdom_export();
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (!w)
         return PyErr_NoMemory();
@@ -460,9 +452,7 @@ static PyObject *py_wisdom_import(PyObject *self, PyObject *arg)
         return PyErr_Occurred() ? NULL : kwpy_value_error("wisdom", "must be a str");
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     st = kw_fft_wisdom_import(s);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (st)
         return kwpy_raise(st, "wisdom");
@@ -503,8 +493,6 @@ PyMODINIT_FUNC PyInit__kweave(void)
     /* The calls run without the GIL, and creates and executes make FFTW
      * plans: FFTW's planner, not thread-safe by itself, takes a lock. */
     fftwf_make_planner_thread_safe();
-    if (!plan_lock && !(plan_lock = PyThread_allocate_lock()))
-        return PyErr_NoMemory();
     PyObject *m = PyModule_Create(&module_def);
     if (!m)
         return NULL;

@@ -20,11 +20,9 @@ typedef struct {
 
 static void nufft_dealloc(NufftObject *self)
 {
-    if (self->plan) { /* destroying a plan is planner business (kwpy_plan_lock) */
+    if (self->plan) { /* the library locks its planner (destroying plans) */
         Py_BEGIN_ALLOW_THREADS
-        kwpy_plan_lock();
         kw_nufft_destroy(self->plan);
-        kwpy_plan_unlock();
         Py_END_ALLOW_THREADS
     }
     if (self->lock)
@@ -88,9 +86,7 @@ static int nufft_init(NufftObject *self, PyObject *args, PyObject *kwargs)
     o.measure = measure;
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     st = kw_nufft_create(&self->plan, self->ndim, self->dims, self->nsamples, PyArray_DATA(tr), &o);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     Py_DECREF(tr);
     if (st)

@@ -394,9 +394,7 @@ static PyObject *py_pattern(PyObject *self, PyObject *args, PyObject *kwargs)
     kw_pattern *p = NULL;
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock(); /* the PSF and density weights make FFT/NUFFT plans */
     st = kw_pattern_create(&p, &o);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (st)
         return pattern_fail(st, kw_pattern_kind_is_mask(o.kind) ? "pattern"
@@ -518,9 +516,7 @@ static kw_status analyse_trajectory(const an_opts *g, const char *pk, PyArrayObj
     size_t samples = (size_t)PyArray_DIM(arr, 0);
     int nd = (int)PyArray_DIM(arr, 1);
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock(); /* the PSF and density weights make FFT/NUFFT plans */
     st = kw_pattern_analyse_trajectory(a, k, samples, nd, &ti, NULL, NULL);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     return st;
 }
@@ -563,9 +559,7 @@ static kw_status analyse_mask(const an_opts *g, PyArrayObject *arr, int u8,
     *raised = 0;
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock(); /* the PSF and density weights make FFT/NUFFT plans */
     st = kw_pattern_analyse_mask(a, w, rows, cols, is_plane);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     PyMem_Free(w);
     return st;

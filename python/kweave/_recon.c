@@ -173,10 +173,8 @@ static int options(const recon_args *a, kw_recon_options *ro)
     kw_recon_geometry g = {.ndim = 3, .dims = d};
     kw_status st;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     st = kw_recon_create(&probe, &g, &probe_o);
     kw_recon_destroy(probe);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (st && strcmp(kw_last_error_param(), "kspace") != 0)
         return recon_fail(st, "recon"), -1;
@@ -369,9 +367,7 @@ static void recon_dealloc(ReconObject *self)
 {
     if (self->r) { /* destroying plans is planning too */
         Py_BEGIN_ALLOW_THREADS
-        kwpy_plan_lock();
         kw_recon_destroy(self->r);
-        kwpy_plan_unlock();
         Py_END_ALLOW_THREADS
         self->r = NULL;
     }
@@ -460,9 +456,7 @@ static int recon_init(ReconObject *self, PyObject *args, PyObject *kwargs)
     kw_status st;
     kw_recon *r = NULL;
     Py_BEGIN_ALLOW_THREADS
-    kwpy_plan_lock();
     st = kw_recon_create(&r, &g, &ro);
-    kwpy_plan_unlock();
     Py_END_ALLOW_THREADS
     if (st)
         return recon_fail(st, self->method), -1;
@@ -569,12 +563,10 @@ static PyObject *recon_run(ReconObject *self, PyObject *obj)
     run_extras x = {0};
     Py_BEGIN_ALLOW_THREADS
     PyThread_acquire_lock(self->lock, WAIT_LOCK);
-    kwpy_plan_lock(); /* the methods make their plans as they run */
     st = kw_recon_execute(self->r, PyArray_DATA(ks), PyArray_DATA(img), gf ? PyArray_DATA(gf) : NULL,
                           NULL, NULL);
     if (!st)
         st = kw_recon_report_json(self->r, &x.json);
-    kwpy_plan_unlock();
     if (!st)
         st = extras_take(self->r, &x);
     PyThread_release_lock(self->lock);

@@ -96,14 +96,9 @@ PyObject *kwpy_json_dict(char *text);
  * attribute access, a readable repr); steals `fields`; NULL on error. */
 PyObject *kwpy_namespace(PyObject *fields);
 
-/* ---- FFTW planning --------------------------------------------------------- */
-
-/*! kwpy_plan_lock(), kwpy_plan_unlock(): a process-wide lock to hold
- * around library calls that make FFTW plans (creates, and executes of
- * objects that plan as they run), which FFTW allows from one thread at a
- * time. Call with the GIL released; take an object's own lock first. */
-void kwpy_plan_lock(void);
-void kwpy_plan_unlock(void);
+/* FFTW planning: the library holds its own lock around FFTW's planner
+ * (libencode/fft_lock.h), so the parts call it from any thread with the GIL
+ * released; each object's own lock keeps one call at a time per object. */
 
 /* ---- the parts -------------------------------------------------------------- */
 
