@@ -144,7 +144,8 @@ static void report_text(const kw_plan_report *r, double ref_factor)
                "%.2f mm\n", r->distortion_pixels_per_hz, r->chemical_shift_phase_pixels,
                r->chemical_shift_phase_mm);
     if (isfinite(r->readout_to_t2star))
-        printf("  acquisition per excitation / T2* = %.3f (T2* %.2f ms)\n", r->readout_to_t2star,
+        printf("  %s / T2* = %.3f (T2* %.2f ms)\n",
+               p->sequence == KW_SEQ_EPI ? "echo train" : "readout", r->readout_to_t2star,
                p->t2star_s * 1e3);
     printf("  voxel %.4g mm^3, total sampling time %.4g s: SNR factor (voxel x sqrt(time), the "
            "usual proportionality) %.4g m^3 s^0.5", r->voxel_volume_m3 * 1e9,

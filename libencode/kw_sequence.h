@@ -122,7 +122,8 @@ typedef struct kw_plan_report {
     double readout_per_interleave_s;
     kw_spiral_info spiral;
     /* relaxation and SNR */
-    double readout_to_t2star; /* acquisition time per excitation / T2*; NAN without --t2star */
+    double readout_to_t2star; /* readout duration (EPI: the whole echo train, the time the
+                                 signal decays over) / T2*; NAN without a T2* */
     double voxel_volume_m3;
     double total_sampling_time_s; /* ADC time of the whole scan */
     double snr_factor;      /* voxel volume x sqrt(total sampling time), m^3 s^0.5 */

@@ -312,9 +312,14 @@ static void plan_derived(kw_plan_report *r, const plan_ctx *x)
         r->chemical_shift_phase_pixels = r->fat_water_hz * r->distortion_pixels_per_hz;
         r->chemical_shift_phase_mm = r->chemical_shift_phase_pixels * r->basic.pixel_size_m[1] * 1e3;
     }
+    /* sampling time (SNR): the ADC-on time; T2* decay: the time the signal
+     * decays over while it is read, for EPI the whole train with its ramps
+     * and blips (72 x 0.5 ms sampled, but a 70.56 ms train: the blurring
+     * follows the train) */
     const double acq = seq == KW_SEQ_EPI ? (double)x->epi.lines_per_shot * x->nx * r->dwell_s
                                          : r->readout_duration_s;
-    r->readout_to_t2star = p->t2star_s > 0 ? acq / p->t2star_s : NAN;
+    const double decay = seq == KW_SEQ_EPI ? x->epi.train_s : r->readout_duration_s;
+    r->readout_to_t2star = p->t2star_s > 0 ? decay / p->t2star_s : NAN;
     r->voxel_volume_m3 = r->basic.pixel_size_m[0] * r->basic.pixel_size_m[1] *
                          (x->is3d ? r->basic.pixel_size_m[2] : p->slice_m);
     double reps = 0; /* excitations per scan (per slice in 2-D) */

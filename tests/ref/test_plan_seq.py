@@ -187,3 +187,21 @@ def test_relative_snr_against_reference(tmp_path):
     _, j = plan(tmp_path)
     assert j["relative_snr"] is None
     bad("plan", "--reference", tmp_path / "missing.protocol", field="reference")
+
+
+def test_epi_t2star_ratio_uses_the_whole_echo_train(tmp_path):
+    """T2* blurring in EPI follows the time the signal decays over while the
+    train reads it: the train's duration with ramps and blips (issue 17: the
+    ratio was taken from the ADC-on time, 72 x 0.5 ms against a 70.56 ms
+    train, and understated the blurring). The SNR's sampling time stays the
+    ADC-on time."""
+    p, j = plan(tmp_path, "--sequence", "epi", "--fov", "240mm", "--matrix", "96",
+                "--bandwidth", "1500Hz/pixel", "--t2star", "50ms")
+    assert j["readout_to_t2star"] == pytest.approx(j["echo_train_duration_s"] / 0.05, rel=1e-9)
+    adc_on = 96 * 96 * j["dwell_s"]
+    assert j["echo_train_duration_s"] > 1.2 * adc_on
+    assert "echo train / T2* = " in p.stdout
+    p, g = plan(tmp_path, "--sequence", "gre", "--fov", "240mm", "--matrix", "96",
+                "--bandwidth", "1500Hz/pixel", "--t2star", "50ms")
+    assert g["readout_to_t2star"] == pytest.approx(g["readout_duration_s"] / 0.05, rel=1e-9)
+    assert "readout / T2* = " in p.stdout
