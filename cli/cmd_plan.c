@@ -98,8 +98,13 @@ static void report_text(const kw_plan_report *r, double ref_factor)
         printf("  FOV %.1f x %.1f mm, matrix %d x %d, pixel %.4f x %.4f mm, slice %.3f mm\n",
                p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->matrix[0], p->matrix[1],
                b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3, p->slice_m * 1e3);
-    printf("  delta-k %.4f x %.4f 1/m, k-max %.3f x %.3f 1/m\n", b->delta_k_per_m[0],
-           b->delta_k_per_m[1], b->k_max_per_m[0], b->k_max_per_m[1]);
+    if (p->ndim == 3) /* the partition axis too (the JSON has all three) */
+        printf("  delta-k %.4f x %.4f x %.4f 1/m, k-max %.3f x %.3f x %.3f 1/m\n",
+               b->delta_k_per_m[0], b->delta_k_per_m[1], b->delta_k_per_m[2],
+               b->k_max_per_m[0], b->k_max_per_m[1], b->k_max_per_m[2]);
+    else
+        printf("  delta-k %.4f x %.4f 1/m, k-max %.3f x %.3f 1/m\n", b->delta_k_per_m[0],
+               b->delta_k_per_m[1], b->k_max_per_m[0], b->k_max_per_m[1]);
     printf("Readout\n");
     printf("  bandwidth %.1f Hz (%.2f Hz/pixel), dwell %.4f us, readout %.4f ms\n", b->bandwidth_hz,
            b->bandwidth_per_pixel_hz, r->dwell_s * 1e6, r->readout_duration_s * 1e3);

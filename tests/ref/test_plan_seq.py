@@ -6,6 +6,7 @@ PNGs back."""
 import json
 import math
 import os
+import re
 
 import numpy as np
 import pytest
@@ -205,3 +206,21 @@ def test_epi_t2star_ratio_uses_the_whole_echo_train(tmp_path):
                 "--bandwidth", "1500Hz/pixel", "--t2star", "50ms")
     assert g["readout_to_t2star"] == pytest.approx(g["readout_duration_s"] / 0.05, rel=1e-9)
     assert "readout / T2* = " in p.stdout
+
+
+def test_3d_text_report_gives_the_partition_step(tmp_path):
+    """The text gives delta-k and k-max on all three axes of a 3-D protocol,
+    the same numbers as the JSON (issue 17: the kz step was missing); the
+    step is 1/FOV and k-max N/(2 FOV) on each axis (the sampling relations
+    of k-space, Bernstein, King & Zhou 2004, Handbook of MRI Pulse
+    Sequences; recalled from memory)."""
+    p, j = plan(tmp_path, "--protocol", os.path.join(SAMPLES, "weave-3d-gre.protocol"))
+    line = next(l for l in p.stdout.splitlines() if "delta-k" in l)
+    nums = [float(x) for x in re.findall(r"[0-9]+\.[0-9]+", line)]
+    assert len(nums) == 6, line
+    assert nums[:3] == pytest.approx(j["delta_k_per_m"], abs=1e-4)
+    assert nums[3:] == pytest.approx(j["k_max_per_m"], abs=1e-3)
+    for d, f, n in zip(j["delta_k_per_m"], j["fov_m"], j["matrix"]):
+        assert d == pytest.approx(1 / f, rel=1e-12)
+    for k, f, n in zip(j["k_max_per_m"], j["fov_m"], j["matrix"]):
+        assert k == pytest.approx(n / (2 * f), rel=1e-12)
