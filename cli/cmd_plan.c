@@ -128,14 +128,21 @@ static void report_text(const kw_plan_report *r, double ref_factor)
            r->te_s * 1e3, r->min_te_s * 1e3, p->sequence == KW_SEQ_EPI ? " effective" : "",
            r->tr_s * 1e3, r->min_tr_s * 1e3, r->scan_time_s, p->ndim == 2 ? " per slice" : "");
     printf("  lobes (raster %.0f us):\n", p->raster_s * 1e6);
-    print_lobe("slice select", &r->slice_select);
-    print_lobe("slice rephaser", &r->slice_rephaser);
+    int is3d = p->ndim == 3;
+    print_lobe(is3d ? "slab select" : "slice select", &r->slice_select);
+    /* 3-D: the slab rephaser and the largest partition encode are played as
+     * one lobe (the JSON's slice_rephaser); the partition encode alone is
+     * listed after it */
+    print_lobe(is3d ? "slab rephaser+kz" : "slice rephaser", &r->slice_rephaser);
     print_lobe("readout", &r->readout);
     print_lobe("prephaser", &r->prephaser);
     print_lobe("phase encode", &r->phase_encode);
-    print_lobe("partition encode", &r->partition_encode);
+    print_lobe("kz encode alone", &r->partition_encode);
     print_lobe("spoiler", &r->spoiler);
     print_lobe("crusher", &r->crusher);
+    if (is3d)
+        printf("    (slab rephaser+kz: the slab rephaser and the largest partition encode, "
+               "played as one lobe)\n");
     printf("Artefacts and signal\n");
     if (p->sequence == KW_SEQ_SPIRAL)
         printf("  fat-water %.1f Hz (%.1f ppm): a blur, %.2f cycles of phase by the end of the "

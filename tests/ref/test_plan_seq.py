@@ -224,3 +224,21 @@ def test_3d_text_report_gives_the_partition_step(tmp_path):
         assert d == pytest.approx(1 / f, rel=1e-12)
     for k, f, n in zip(j["k_max_per_m"], j["fov_m"], j["matrix"]):
         assert k == pytest.approx(n / (2 * f), rel=1e-12)
+
+
+def test_3d_slab_rephaser_says_it_carries_the_partition_encode(tmp_path):
+    """In 3-D the lobe after the slab select is the slab rephaser and the
+    largest partition encode played as one (issue 17: it was listed as the
+    slice rephaser without saying so). Its area is the sum of the two:
+    -G_ss (flat/2 + ramp/2) for the rephaser (refocusing half the excitation,
+    the usual small-tip approximation) and -(N_z/2)/(gamma_bar FOV_z) for kz
+    (gamma_bar from CODATA 2018 via scipy)."""
+    p, j = plan(tmp_path, "--protocol", os.path.join(SAMPLES, "weave-3d-gre.protocol"))
+    assert "slab rephaser+kz" in p.stdout and "played as one lobe" in p.stdout
+    lob = j["lobes"]
+    ss, rp = lob["slice_select"], lob["slice_rephaser"]
+    area = lambda l: l["amplitude_T_per_m"] * (l["flat_s"] + l["ramp_s"])
+    kz = (j["matrix"][2] / 2) / (GBAR * j["fov_m"][2])
+    want = -ss["amplitude_T_per_m"] * (ss["flat_s"] / 2 + ss["ramp_s"] / 2) - kz
+    assert area(rp) == pytest.approx(want, rel=1e-6)
+    assert area(lob["partition_encode"]) == pytest.approx(-kz, rel=1e-6)
