@@ -114,7 +114,9 @@ typedef struct kw_pattern_info {
     double acceleration;     /* mask: points / sampled; radial: pi N/2 / spokes */
     double accel_requested[2]; /* mask: (Ry, Rz) */
     size_t acs_requested[2]; /* mask: (ACS ky, ACS kz) */
-    double acs_lines;        /* mask: ACS ky lines (2-D), ACS points (3-D) */
+    double acs_lines;        /* mask: the ACS block it holds, measured as the analysis
+                                measures it: ky lines (2-D), points (3-D); may
+                                exceed the request (a lattice line next to it) */
     size_t sampled_points;   /* mask */
     /* trajectories */
     size_t readout_samples, readouts;

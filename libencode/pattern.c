@@ -1,6 +1,7 @@
 /* pattern.c: kw_pattern (kw_pattern.h): options, validation, the Cartesian
  * masks (methods in sampling.c) and the radial family (traj.c). Spiral and
  * EPI are in pattern_grad.c. */
+#include "mask_acs.h"
 #include "pattern_internal.h"
 
 #include <math.h>
@@ -122,7 +123,12 @@ static kw_status make_mask(kw_pattern *p)
     in->accel_requested[1] = o.accel_z;
     in->acs_requested[0] = o.acs_y;
     in->acs_requested[1] = o.acs_z;
-    in->acs_lines = nz > 1 ? (double)(o.acs_y * o.acs_z) : (double)o.acs_y;
+    /* what the mask holds (mask_acs.h), as the analysis reports it: a
+     * lattice line next to the requested block lengthens the fully sampled
+     * run (24 asked at R = 2 gives 25); the request is acs_requested */
+    size_t blk[2];
+    kw_mask_acs_block(p->mask, in->shape, nz > 1, blk);
+    in->acs_lines = nz > 1 ? (double)(blk[0] * blk[1]) : (double)blk[0];
     return KW_OK;
 }
 

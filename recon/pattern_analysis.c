@@ -4,6 +4,7 @@
  * db4 wavelet (Lustig, Donoho & Pauly 2007, MRM 58:1182), the radial area
  * weights from kw_traj.h and the Pipe & Menon 1999 weights from kw_dcf.h. */
 #include "kw_pattern_analysis.h"
+#include "mask_acs.h"
 
 #include <math.h>
 #include <stdlib.h>
@@ -28,37 +29,6 @@ void kw_pattern_analysis_free(kw_pattern_analysis *a)
     a->picture = NULL;
 }
 
-/* contiguous sampled run through the centre of axis `ax` (other index at its
- * centre), lo/hi offsets from the centre */
-static void centre_run(const float *w, const size_t *dims, int ax, long *lo, long *hi)
-{
-    size_t c0 = dims[0] / 2, c1 = dims[1] / 2;
-    long n = (long)dims[ax];
-    long c = (long)(dims[ax] / 2);
-#define AT(i) (ax == 0 ? w[(size_t)(i) * dims[1] + c1] : w[c0 * dims[1] + (size_t)(i)])
-    *lo = 0;
-    *hi = -1;
-    if (!(AT(c) > 0))
-        return;
-    long a = c, b = c;
-    while (a - 1 >= 0 && AT(a - 1) > 0)
-        a--;
-    while (b + 1 < n && AT(b + 1) > 0)
-        b++;
-#undef AT
-    *lo = a - c;
-    *hi = b - c;
-}
-
-static int rect_full(const float *w, const size_t *dims, long y0, long y1, long x0, long x1)
-{
-    for (long y = y0; y <= y1; y++)
-        for (long x = x0; x <= x1; x++)
-            if (!(w[(size_t)y * dims[1] + (size_t)x] > 0))
-                return 0;
-    return 1;
-}
-
 /* Cartesian figures that need no PSF: acceleration, ACS, gaps */
 static void cartesian_counts(analysis *a, const float *w)
 {
@@ -68,38 +38,17 @@ static void cartesian_counts(analysis *a, const float *w)
         s += w[i] > 0;
     a->sampled_fraction = (double)s / (double)n;
     a->acceleration = s ? (double)n / (double)s : INFINITY;
-    /* ACS: the contiguous fully sampled block through k = 0; for line masks
-     * the run of whole rows along ky; a run of one line is no ACS */
-    long lo0, hi0, lo1, hi1;
-    centre_run(w, d, 0, &lo0, &hi0);
-    if (!a->plane) {
-        long len = hi0 - lo0 + 1;
-        /* every row of the run must be fully sampled */
-        if (len > 0 && !rect_full(w, d, (long)(d[0] / 2) + lo0, (long)(d[0] / 2) + hi0, 0,
-                                  (long)d[1] - 1))
-            len = 0;
-        a->acs_block[0] = len >= 2 ? (size_t)len : 0;
-        a->acs_block[1] = d[1];
-        a->acs_lines = (double)a->acs_block[0];
-    } else {
-        centre_run(w, d, 1, &lo1, &hi1);
-        long cy = (long)(d[0] / 2), cx = (long)(d[1] / 2);
-        /* shrink the larger side until the rectangle is fully sampled */
-        while (hi0 >= lo0 && hi1 >= lo1 &&
-               !rect_full(w, d, cy + lo0, cy + hi0, cx + lo1, cx + hi1)) {
-            if (hi0 - lo0 >= hi1 - lo1) {
-                if (-lo0 > hi0) lo0++; else hi0--;
-            } else {
-                if (-lo1 > hi1) lo1++; else hi1--;
-            }
-        }
-        long ly = hi0 - lo0 + 1, lx = hi1 - lo1 + 1;
-        if (ly < 2 || lx < 2)
-            ly = lx = 0;
-        a->acs_block[0] = (size_t)(ly > 0 ? ly : 0);
-        a->acs_block[1] = (size_t)(lx > 0 ? lx : 0);
-        a->acs_lines = (double)(a->acs_block[0] * a->acs_block[1]);
+    /* ACS: the contiguous fully sampled block through k = 0 (mask_acs.h,
+     * as the pattern sidecar measures it) */
+    uint8_t *m = malloc(n);
+    if (m) {
+        for (size_t i = 0; i < n; i++)
+            m[i] = w[i] > 0;
+        kw_mask_acs_block(m, d, a->plane, a->acs_block);
+        free(m);
     }
+    a->acs_lines = a->plane ? (double)(a->acs_block[0] * a->acs_block[1])
+                            : (double)a->acs_block[0];
     /* largest step between neighbouring samples along each axis (lines of
      * the other axis), in delta-k; shown per axis for line masks */
     for (int ax = 0; ax < 2; ax++) {

@@ -283,3 +283,30 @@ def test_epi_from_the_gradient_design(tmp_path):
     want = 2 * brentq(lambda y: d(y) - 0.375, 1e-9, 64 / 48)
     assert abs(a["psf_fwhm_pixels_by_axis"]["y"] - want) < 1e-4
     assert a["max_gap_dk"] <= 1 + 1e-5
+
+
+def test_acs_count_is_the_same_in_every_report(tmp_path):
+    """ACS 24 asked at R = 2: the lattice line next to the block makes the
+    fully sampled run 25 lines; the pattern sidecar, the analysis and the
+    k-space sidecar all say 25, and the pattern sidecar keeps the request
+    (issue 17: the pattern sidecar said 24, the others 25)."""
+    run("pattern", "--kind", "uniform", "--matrix", "128x128", "--accel", "2", "--acs", "24",
+        "--out", tmp_path / "m.npy")
+    side = json.loads((tmp_path / "m.json").read_text())
+    run("pattern", "--analyse", tmp_path / "m.npy", "--json", tmp_path / "a.json")
+    ana = json.loads((tmp_path / "a.json").read_text())
+    run("encode", "--phantom", "weave", "--matrix", "128", "--fov", "256mm", "--pattern",
+        tmp_path / "m.npy", "--out", tmp_path / "k.npy")
+    ks = json.loads((tmp_path / "k.json").read_text())
+    mask = np.load(tmp_path / "m.npy")
+    rows = mask.all(axis=1)
+    c = 64
+    lo = c
+    while lo > 0 and rows[lo - 1]:
+        lo -= 1
+    hi = c
+    while hi < 127 and rows[hi + 1]:
+        hi += 1
+    assert hi - lo + 1 == 25                      # counted here from the mask itself
+    assert side["acs_lines"] == ana["acs_lines"] == ks["acs_lines"] == 25
+    assert side["acs_requested"] == [24]
