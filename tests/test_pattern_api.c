@@ -83,7 +83,10 @@ Test(pattern_api, uniform_r2_acs24_line_count)
     cr_expect_eq(total, 76 * 128);
     cr_expect_eq(in->sampled_points, 76);
     cr_expect(fabs(in->acceleration - 128.0 / 76.0) < 1e-12);
-    cr_expect_eq(in->acs_lines, 24.0);
+    /* ky = 12 is a lattice line next to the 24 asked (-12 .. 11): the mask
+     * holds 25 fully sampled lines, and both reports say so */
+    cr_expect_eq(in->acs_lines, 25.0);
+    cr_expect_eq(in->acs_requested[0], 24);
 
     float *w = malloc(128 * 128 * sizeof *w);
     for (size_t i = 0; i < 128 * 128; i++)
