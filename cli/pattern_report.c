@@ -60,7 +60,7 @@ void kw_pattern_cli_text(FILE *f, const kw_pattern_report *p)
             a->axes[0], a->psf.sidelobe_at[0], a->axes[1], a->psf.sidelobe_at[1]);
     fprintf(f, "  energy outside lobe     %.4f\n", a->psf.energy_outside);
     if (a->tpsf_levels) {
-        fprintf(f, "  TPSF coherence (db4)    %.4f (by level, finest first:", a->tpsf_max);
+        fprintf(f, "  TPSF incoherence (db4)  %.4f (by level, finest first:", a->tpsf_max);
         for (int l = 0; l < a->tpsf_levels; l++)
             fprintf(f, " %.4f", a->tpsf[l]);
         fprintf(f, ")\n");
@@ -227,7 +227,7 @@ void kw_pattern_cli_compare_table(FILE *f, const kw_pattern_report *as, int n)
 {
     fprintf(f, "| Pattern | Kind | R | Sampled | ACS | Max gap (dk) | PSF FWHM (px) | "
                "Peak sidelobe | Sidelobe at (px) | Energy outside main lobe | "
-               "TPSF coherence (db4) |\n");
+               "TPSF incoherence (db4) |\n");
     fprintf(f, "|---|---|---:|---:|---:|---:|---:|---:|---|---:|---:|\n");
     for (int i = 0; i < n; i++) {
         const kw_pattern_report *p = &as[i];

@@ -15,9 +15,8 @@
  * Trajectories are (samples, ndim) float in cycles/FOV, ndim 2 or 3; of a
  * stack of stars (ndim 3) the kz = 0 partition is analysed.
  *
- * Thread safety: calls on different structs may run concurrently, except
- * that the FFTW planning inside (kw_psf_create, kw_tpsf_create) must not
- * overlap other FFTW planning in the process.
+ * Thread safety: calls on different structs may run concurrently (the
+ * FFTW planning inside holds the library's planner lock).
  */
 #ifndef KW_PATTERN_ANALYSIS_H
 #define KW_PATTERN_ANALYSIS_H

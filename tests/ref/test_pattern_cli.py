@@ -310,3 +310,15 @@ def test_acs_count_is_the_same_in_every_report(tmp_path):
     assert hi - lo + 1 == 25                      # counted here from the mask itself
     assert side["acs_lines"] == ana["acs_lines"] == ks["acs_lines"] == 25
     assert side["acs_requested"] == [24]
+
+
+def test_text_and_json_name_the_tpsf_figure_alike(tmp_path):
+    """One name for one figure (issue 17: the text said "TPSF coherence",
+    the JSON tpsf_incoherence)."""
+    run("pattern", "--kind", "random", "--matrix", "64x64", "--accel", "3", "--acs", "8",
+        "--out", tmp_path / "m.npy")
+    p = run("pattern", "--analyse", tmp_path / "m.npy", "--json", tmp_path / "a.json")
+    a = json.loads((tmp_path / "a.json").read_text())
+    line = next(l for l in p.stdout.splitlines() if "TPSF" in l)
+    assert "TPSF incoherence" in line and "coherence (" not in line.replace("incoherence", "")
+    assert f"{a['tpsf_incoherence']:.4f}" in line
