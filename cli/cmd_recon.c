@@ -133,22 +133,22 @@ static int parse(recon_ctx *c, int argc, char **argv)
          "image: .npy (float32, or complex64 with --keep-coils or --complex), .png or .nii "
          "(NIfTI-1)"},
         {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
-        {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss (default), optimal, adaptive"},
+        {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss, optimal, adaptive (default: optimal with maps, else rss)"},
         {"sens", KW_OPT_STRING, &o->sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
         {"sens-out", KW_OPT_STRING, &o->sens_out, 0, NULL, "write the sensitivities estimated from the calibration block (.npy)"},
         {"noise-cov", KW_OPT_STRING, &o->noise_cov, 0, NULL, "coil noise covariance .npy (coils, coils): prewhitening"},
         {"kernel", KW_OPT_STRING, &o->kernel, 0, NULL, "GRAPPA kernel KYxKX (source lines x readout points; default 2x5)"},
-        {"lambda", KW_OPT_DOUBLE, &o->lambda, 0, NULL, "regularisation weight (relative; method-specific default)"},
+        {"lambda", KW_OPT_DOUBLE, &o->lambda, 0, NULL, "regularisation weight, relative (default: sense 0, grappa 1e-4, cs-* 0.003)"},
         {"ref", KW_OPT_STRING, &o->ref, 0, NULL, "reference image .npy: adds NRMSE, PSNR, SSIM to the report"},
         {"json", KW_OPT_STRING, &o->json, 0, NULL, "JSON report file (- for stdout)"},
         {"gfactor", KW_OPT_STRING, &o->gfactor, 0, NULL, "g-factor map .png or .npy"},
         {"trajectory", KW_OPT_STRING, &o->trajectory, 0, NULL, "non-Cartesian trajectory .npy (samples, ndim), cycles/FOV"},
         {"dcf", KW_OPT_STRING, &o->dcf, 0, NULL, "density compensation: FILE.npy, radial or pipe"},
         {"dcf-out", KW_OPT_STRING, &o->dcf_out, 0, NULL, "write the density weights used (.npy, one per sample)"},
-        {"tolerance", KW_OPT_DOUBLE, &o->tolerance, 0, NULL, "NUFFT accuracy"},
-        {"oversampling", KW_OPT_DOUBLE, &o->oversampling, 0, NULL, "NUFFT grid oversampling"},
-        {"iterations", KW_OPT_INT, &o->iterations, 0, NULL, "iterations of iterative methods"},
-        {"stop", KW_OPT_DOUBLE, &o->stop, 0, NULL, "stop when the relative change falls below this"},
+        {"tolerance", KW_OPT_DOUBLE, &o->tolerance, 0, NULL, "NUFFT accuracy, relative l2 (default 1e-3)"},
+        {"oversampling", KW_OPT_DOUBLE, &o->oversampling, 0, NULL, "NUFFT grid oversampling, 1.25 .. 2 (default 2)"},
+        {"iterations", KW_OPT_INT, &o->iterations, 0, NULL, "iterations (default: pocs 20, cg-sense 30, cs-* 100)"},
+        {"stop", KW_OPT_DOUBLE, &o->stop, 0, NULL, "stop when the relative change falls below this (default: cg-sense 1e-6, others 1e-4)"},
         {"keep-coils", KW_OPT_FLAG, &o->keep_coils, 0, NULL, "write the coil images (complex64) instead of combining"},
         {"complex", KW_OPT_FLAG, &o->complex_image, 0, NULL,
          "write the image as complex64, its phase kept (optimal or adaptive combination, or a "
@@ -162,8 +162,12 @@ static int parse(recon_ctx *c, int argc, char **argv)
     };
     char usage[2048];
     size_t ul = (size_t)snprintf(usage, sizeof usage, "%s", USAGE);
+    int wid = 0; /* the method names in one column */
+    for (const kw_recon_method_info *m = kw_recon_methods(); m->name; m++)
+        wid = (int)strlen(m->name) > wid ? (int)strlen(m->name) : wid;
     for (const kw_recon_method_info *m = kw_recon_methods(); m->name && ul < sizeof usage; m++)
-        ul += (size_t)snprintf(usage + ul, sizeof usage - ul, "\n  %-11s %s", m->name, m->summary);
+        ul += (size_t)snprintf(usage + ul, sizeof usage - ul, "\n  %-*s  %s", wid, m->name,
+                               m->summary);
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
         return rc;

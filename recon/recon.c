@@ -11,7 +11,8 @@
 #include "recon_priv.h"
 
 static const kw_recon_method_info infos[] = {
-    {"fft", 1, 0, "centered unitary inverse FFT, coils combined (root-sum-of-squares by default)"},
+    {"fft", 1, 0, "centered unitary inverse FFT, coils combined (optimal with maps, else "
+                  "root-sum-of-squares)"},
     {"homodyne", 1, 0, "partial Fourier by homodyne detection (Noll, Nishimura & Macovski 1991)"},
     {"pocs", 1, 0, "partial Fourier by POCS (Haacke, Lindskog & Lin 1991)"},
     {"sense", 1, 0, "SENSE unfolding, Tikhonov lambda (Pruessmann et al. 1999)"},
