@@ -93,7 +93,9 @@ static int acq_fail(kw_status st)
             opt = param_map[i].option;
     char why[600];
     snprintf(why, sizeof why, "%s%s", kw_last_error_reason(),
-             strcmp(p, "max_bytes") == 0 ? " (--max-memory)" : "");
+             strcmp(p, "max_bytes") == 0 ? " (--max-memory)"
+             : strcmp(p, "b0_t") == 0    ? " with --tissue FILE.json (see --tissue list)"
+                                         : "");
     kw_set_error(st, "%s", why);
     return kw_cli_status(st, opt);
 }

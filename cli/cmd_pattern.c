@@ -527,8 +527,15 @@ static int run_generate(const gen_opts *g)
     while (kw_pattern_kind_name((kw_pattern_kind)k) &&
            strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
         k++;
-    if (!kw_pattern_kind_name((kw_pattern_kind)k))
-        return kw_cli_fail("kind", "unknown kind '%s' (see --help)", g->kind);
+    if (!kw_pattern_kind_name((kw_pattern_kind)k)) { /* name the kinds there are */
+        char kinds[256];
+        size_t used = 0;
+        kinds[0] = '\0';
+        for (int j = 0; kw_pattern_kind_name((kw_pattern_kind)j) && used < sizeof kinds; j++)
+            used += (size_t)snprintf(kinds + used, sizeof kinds - used, "%s%s", j ? ", " : "",
+                                     kw_pattern_kind_name((kw_pattern_kind)j));
+        return kw_cli_fail("kind", "unknown kind '%s' (%s)", g->kind, kinds);
+    }
     o.kind = (kw_pattern_kind)k;
     /* --matrix NXxNY[xNZ] into C order */
     o.ndim = nmat > 2 ? 3 : 2;

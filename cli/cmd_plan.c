@@ -177,14 +177,16 @@ static void report_text(const kw_plan_report *r, double ref_factor)
     } else {
         const kw_nearest *n = &r->nearest;
         printf("Feasible: NO. Failing:");
+        int nfail = 0;
         for (int i = 0; i < r->nlimits; i++)
             if (!r->limits[i].ok)
-                printf(" %s (required %s, available %s, off by %s);", r->limits[i].name,
+                printf("%s %s (required %s, available %s, off by %s)", nfail++ ? ";" : "",
+                       r->limits[i].name,
                        fmt_unit(r->limits[i].required, r->limits[i].unit, u1, sizeof u1),
                        fmt_unit(r->limits[i].available, r->limits[i].unit, u2, sizeof u2),
                        fmt_unit(r->limits[i].required - r->limits[i].available, r->limits[i].unit,
                                 u3, sizeof u3));
-        printf("\nNearest feasible (each with the rest held):\n");
+        printf(".\nNearest feasible (each with the rest held):\n");
         if (n->has_bandwidth)
             printf("  bandwidth at most %.0f Hz (%.2f Hz/pixel)\n", n->bandwidth_hz,
                    n->bandwidth_per_pixel_hz);

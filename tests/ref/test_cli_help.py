@@ -58,3 +58,27 @@ def test_analyze_is_analyse(tmp_path):
     b = run("pattern", "--analyze", tmp_path / "m.npy", "--json", tmp_path / "b.json")
     assert a.stdout == b.stdout
     assert (tmp_path / "a.json").read_text() == (tmp_path / "b.json").read_text()
+
+
+def test_unknown_kind_lists_the_kinds():
+    p = run("pattern", "--kind", "poison", "--matrix", "64", check=False)
+    assert p.returncode == 2
+    assert p.stderr.strip() == ("kweave: error: kind: unknown kind 'poison' (full, partial, uniform, "
+                                "random, poisson, lattice, radial, golden, stack-of-stars, spiral, epi)")
+
+
+def test_a_field_without_tabulated_times_names_the_tissue_option(tmp_path):
+    p = run("encode", "--phantom", "weave", "--matrix", "32", "--fov", "256mm", "--b0", "7T",
+            "--out", tmp_path / "k.npy", check=False)
+    assert p.returncode == 2
+    assert "--tissue FILE.json" in p.stderr and "--tissue list" in p.stderr
+    assert not (tmp_path / "k.npy").exists()
+
+
+def test_the_failing_line_is_a_sentence():
+    import os
+    proto = os.path.join(os.path.dirname(__file__), "..", "..", "samples", "weave-too-thin.protocol")
+    p = run("plan", "--protocol", proto, check=False)
+    assert p.returncode == 3
+    line = next(l for l in p.stdout.splitlines() if l.startswith("Feasible: NO. Failing:"))
+    assert line.endswith(").") and not line.endswith(";") and "); te (" in line
