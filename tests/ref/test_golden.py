@@ -9,6 +9,12 @@ sampling.effective_acceleration (and sampling.advice with a warning line in
 the .err files where fft meets undersampled data), and data whose sidecar
 names coil maps are combined with them by default (img.npy, img.png,
 grg.npy, gf.npy: root-sum-of-squares before).
+Re-recorded again for issue 17's wording and report fixes (18 files, all
+text or JSON): the pattern reports' "TPSF incoherence" label and the ACS
+count the mask holds (pattern sidecars: 25 for 24 asked at R = 2); the
+planner's "readout / T2*" and "echo train / T2*" lines (EPI: the ratio now
+uses the whole train), the 3-D delta-k on three axes with the slab
+rephaser named, and the Failing line as a sentence.
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
