@@ -716,7 +716,7 @@ Test(threads, recon_cs_tv) { check(recon_cstv_run, P_NP, 0, 1e-5, "recon cs-tv")
  * not be entered by two threads at once; the library holds one lock around
  * them (libencode/fft_lock.h). Four threads each make, run and destroy
  * acquisitions and reconstructions (which plan as they run) of several
- * methods, eight times over; every result equals the one made alone, bit for
+ * methods, twice over; every result equals the one made alone, bit for
  * bit. (The lock came from a crash seen from Python threads, SIGFPE inside
  * FFTW's planner: tests/python/test_recon.py's threads test failed or
  * crashed in 3 of 5 runs without it and passed 16 of 16 with it. This test
@@ -725,7 +725,7 @@ Test(threads, recon_cs_tv) { check(recon_cstv_run, P_NP, 0, 1e-5, "recon cs-tv")
 Test(threads, objects_made_in_parallel_threads)
 {
     static const char *const methods[] = {"fft", "sense", "grappa", "cg-sense"};
-    enum { NM = 4, REPS = 8 };
+    enum { NM = 4, REPS = 2 };
     cr_assert_eq(kw_fft_setup(2), KW_OK); /* FFTW's threads on, as the command and Python */
     float *want = kw_alloc(NM * P_NP * sizeof *want);
     cr_assert(want);
