@@ -205,7 +205,8 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
              * the axis on one side whose mirror band on the other side
              * holds at least 3 sampled lines (Poisson-disc R = 4 on 64 to
              * 128 lines: 0 to 2 there by chance; with a fraction of 0.75:
-             * 4 or more). */
+             * 4 or more). A rule of ours from those measurements, no
+             * source. */
             size_t left = ctr[a] - s->lo[a], right = s->hi[a] - ctr[a];
             size_t tol = d[a] / 16 > 2 ? d[a] / 16 : 2;
             int asym = d[a] > 1 && (left > right + tol || right > left + tol);
