@@ -18,8 +18,8 @@ WARN := -Wall -Wextra -Wshadow -Wvla -Wmissing-prototypes -Werror
 KW_CFLAGS := -std=c11 -D_DEFAULT_SOURCE $(WARN) -fopenmp -fPIC \
              -Ilibencode -Irecon -Icli
 ifeq ($(SAN),1)
-KW_CFLAGS += -fsanitize=address,undefined -fno-omit-frame-pointer -fno-sanitize-recover=undefined
-SAN_LDFLAGS := -fsanitize=address,undefined
+KW_CFLAGS += -fsanitize=address,undefined,float-cast-overflow -fno-omit-frame-pointer -fno-sanitize-recover=undefined,float-cast-overflow
+SAN_LDFLAGS := -fsanitize=address,undefined,float-cast-overflow
 endif
 ALL_CFLAGS = $(KW_CFLAGS) $(PKG_CFLAGS) $(CFLAGS)
 LIBS = -lfftw3f_omp $(PKG_LIBS) -lm -fopenmp
@@ -230,7 +230,7 @@ clean:
 # crashed - through the same targets built without libFuzzer.
 FUZZ_CC ?= clang
 FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
-FUZZ_DEP_SRC := libencode/base.c libencode/json_build.c cli/npy.c cli/outfile.c cli/jsonio.c libencode/units.c cli/cli.c \
+FUZZ_DEP_SRC := libencode/base.c libencode/json_build.c cli/npy.c cli/npyhdr.c cli/outfile.c cli/jsonio.c libencode/units.c cli/cli.c \
                 $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c libencode/protofile.c libencode/plan_input.c libencode/plan_json.c \
                   libencode/sequence.c libencode/gradient.c cli/plot.c) $(FUZZ_EXTRA_SRC)
 FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \

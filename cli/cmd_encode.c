@@ -13,6 +13,7 @@
 #include "encode_cli.h"
 #include "jsonio.h"
 #include "npy.h"
+#include "outfile.h"
 
 #define MAX_EDGE 8192
 
@@ -287,7 +288,7 @@ static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisi
     /* To standard output the sidecar goes first, so that a reader at the
      * other end of a pipe finds it once the array's first bytes arrive. */
     int to_stdout = strcmp(a->out, "-") == 0;
-    if (to_stdout && (st = kw_json_write(side, js))) {
+    if (to_stdout && ((st = kw_json_write(side, js)) || (st = kw_outfile_group_land()))) {
         ret = kw_cli_status(st, "sidecar");
         goto done;
     }

@@ -42,6 +42,16 @@ kw_status kw_json_parse(const char *buf, size_t len, cJSON **root)
             off = (size_t)(e - buf);
         return kw_set_error(KW_EFORMAT, "not valid JSON (near byte %zu)", off);
     }
+    /* Strict: one value, then only blanks (RFC 8259); a NUL byte or a second
+     * value after it is refused, as Python's json module refuses it. */
+    size_t at = end ? (size_t)(end - buf) : len;
+    while (at < len && (buf[at] == ' ' || buf[at] == '\t' || buf[at] == '\n' || buf[at] == '\r'))
+        at++;
+    if (at < len) {
+        cJSON_Delete(r);
+        return kw_set_error(KW_EFORMAT, "not valid JSON: %s after the value (byte %zu)",
+                            buf[at] == '\0' ? "a NUL byte" : "text", at);
+    }
     *root = r;
     return KW_OK;
 }
@@ -49,6 +59,9 @@ kw_status kw_json_parse(const char *buf, size_t len, cJSON **root)
 kw_status kw_json_read(const char *path, cJSON **root)
 {
     *root = NULL;
+    kw_status nst = kw_outfile_note_input(path);
+    if (nst)
+        return nst;
     FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
     KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
     size_t cap = 1 << 16, n = 0;

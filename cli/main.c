@@ -13,18 +13,19 @@ typedef struct verb {
     const char *name;
     int (*run)(int argc, char **argv);
     const char *summary;
+    int chained; /* runs other verbs on its own outputs: files land as made */
 } verb;
 
 static const verb verbs[] = {
-    {"plan", kw_cmd_plan, "protocol -> sampling, timing and gradient-limit report"},
-    {"pattern", kw_cmd_pattern, "make or analyse a sampling pattern / trajectory (+ PSF)"},
-    {"encode", kw_cmd_encode, "simulate an acquisition of a phantom -> k-space + sidecar"},
-    {"recon", kw_cmd_recon, "k-space -> image, by the method asked for or the right default"},
-    {"score", kw_cmd_score, "compare an image with a reference: NRMSE, PSNR, SSIM"},
-    {"render", kw_cmd_render, "any .npy -> PNG (magnitude, phase, montage, window)"},
-    {"sweep", kw_cmd_sweep, "run a grid of undersampling experiments from a JSON spec (local or MPI)"},
-    {"demo", kw_cmd_demo, "the whole chain on the built-in scenario, into one folder"},
-    {NULL, NULL, NULL},
+    {"plan", kw_cmd_plan, "protocol -> sampling, timing and gradient-limit report", 0},
+    {"pattern", kw_cmd_pattern, "make or analyse a sampling pattern / trajectory (+ PSF)", 0},
+    {"encode", kw_cmd_encode, "simulate an acquisition of a phantom -> k-space + sidecar", 0},
+    {"recon", kw_cmd_recon, "k-space -> image, by the method asked for or the right default", 0},
+    {"score", kw_cmd_score, "compare an image with a reference: NRMSE, PSNR, SSIM", 0},
+    {"render", kw_cmd_render, "any .npy -> PNG (magnitude, phase, montage, window)", 0},
+    {"sweep", kw_cmd_sweep, "run a grid of undersampling experiments from a JSON spec (local or MPI)", 1},
+    {"demo", kw_cmd_demo, "the whole chain on the built-in scenario, into one folder", 1},
+    {NULL, NULL, NULL, 0},
 };
 
 static void usage(FILE *f)
@@ -108,7 +109,26 @@ static int run_verb(const verb *v, int argc, char **argv)
     if (kw_fft_setup(0) != KW_OK)
         return kw_cli_status(KW_EINTERNAL, "fft");
     char *before = wisdom_load();
+    /* All or nothing: the run's files are renamed into place together, and
+     * only when the run succeeded (an infeasible plan is still a report). */
+    if (!v->chained)
+        kw_outfile_group_begin();
     int rc = v->run(argc, argv);
+    int ok = rc == KW_EXIT_OK || rc == KW_EXIT_INFEASIBLE;
+    /* A report lost on its way out (stdout closed or full) is a failure. */
+    errno = 0;
+    int fl = fflush(stdout);
+    int e = errno;
+    if ((fl != 0 || ferror(stdout)) && ok) {
+        rc = kw_cli_fail("standard output", "write failed: %s",
+                         fl != 0 && e ? strerror(e) : "an earlier write failed");
+        ok = 0;
+    }
+    if (!v->chained) {
+        kw_status st = kw_outfile_group_end(ok);
+        if (st && ok)
+            rc = kw_cli_status(st, NULL);
+    }
     wisdom_save(before);
     free(before);
     return rc;

@@ -3,177 +3,39 @@
  * The .npy layout (NEP 1, numpy.lib.format): magic "\x93NUMPY", a version
  * byte pair, a little-endian header length (2 bytes for 1.0, 4 bytes for 2.0
  * and 3.0), then a Python dict literal with exactly the keys 'descr',
- * 'fortran_order' and 'shape'. cli/npy.c keeps its own parser private, so
- * this file carries a small one of its own for the same checks. */
+ * 'fortran_order' and 'shape'; cli/npyhdr.c parses it for both readers. */
 #include "npystream.h"
+#include "npyhdr.h"
+#include "outfile.h"
 
-#include <ctype.h>
 #include <errno.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
 
-/* ---- the header dict ------------------------------------------------------ */
-
-static const char *blank(const char *p, const char *e)
-{
-    while (p < e && (*p == ' ' || *p == '\t' || *p == '\n' || *p == '\r'))
-        p++;
-    return p;
-}
-
-/* A quoted word (no escapes) into w[cap]; returns the position after it. */
-static const char *quoted(const char *p, const char *e, char *w, size_t cap)
-{
-    if (p >= e || (*p != '\'' && *p != '"'))
-        return NULL;
-    char q = *p++;
-    size_t k = 0;
-    for (; p < e && *p != q; p++) {
-        if (*p == '\\' || k + 1 >= cap)
-            return NULL;
-        w[k++] = *p;
-    }
-    if (p >= e)
-        return NULL;
-    w[k] = '\0';
-    return p + 1;
-}
-
-static kw_status take_descr(kw_npyr *r, const char *d)
-{
-    KW_FAIL_IF(d[0] != '<' && d[0] != '>' && d[0] != '=', KW_EFORMAT,
-               "dtype '%s': multi-slice k-space must be complex64 or complex128", d);
-    if (strcmp(d + 1, "c8") == 0)
-        r->isize = 8;
-    else if (strcmp(d + 1, "c16") == 0)
-        r->isize = 16;
-    else
-        return kw_set_error(KW_EFORMAT, "dtype '%s': multi-slice k-space must be "
-                            "complex64 or complex128", d);
-    r->wide = r->isize == 16;
-    r->big = d[0] == '>';
-    return KW_OK;
-}
-
-static kw_status take_shape(kw_npyr *r, const char *p, const char *e, const char **after)
-{
-    KW_FAIL_IF(p >= e || *p != '(', KW_EFORMAT, "header: 'shape' is not a tuple");
-    p++;
-    r->ndim = 0;
-    for (;;) {
-        p = blank(p, e);
-        KW_FAIL_IF(p >= e, KW_EFORMAT, "header: 'shape' is not closed");
-        if (*p == ')')
-            break;
-        KW_FAIL_IF(!isdigit((unsigned char)*p), KW_EFORMAT,
-                   "header: 'shape' holds something other than whole numbers");
-        KW_FAIL_IF(r->ndim >= KW_MAX_DIMS, KW_EFORMAT,
-                   "header: 'shape' has more than %d dimensions", KW_MAX_DIMS);
-        size_t v = 0;
-        for (; p < e && isdigit((unsigned char)*p); p++) {
-            KW_FAIL_IF(v > (SIZE_MAX - 9) / 10, KW_EFORMAT, "header: 'shape' dimension too large");
-            v = v * 10 + (size_t)(*p - '0');
-        }
-        r->dims[r->ndim++] = v;
-        p = blank(p, e);
-        if (p < e && *p == 'L')
-            p = blank(p + 1, e);
-        if (p < e && *p == ',') {
-            p++;
-            continue;
-        }
-        KW_FAIL_IF(p >= e || *p != ')', KW_EFORMAT, "header: 'shape' is malformed");
-    }
-    *after = p + 1;
-    return KW_OK;
-}
-
-static kw_status take_header(kw_npyr *r, const char *txt, size_t len)
-{
-    const char *p = blank(txt, txt + len), *e = txt + len;
-    int seen = 0; /* bits: 1 descr, 2 fortran_order, 4 shape */
-    KW_FAIL_IF(p >= e || *p != '{', KW_EFORMAT, "header: not a dictionary");
-    p++;
-    for (;;) {
-        p = blank(p, e);
-        KW_FAIL_IF(p >= e, KW_EFORMAT, "header: dictionary not closed");
-        if (*p == '}')
-            break;
-        char key[32], val[32];
-        KW_FAIL_IF(!(p = quoted(p, e, key, sizeof key)), KW_EFORMAT, "header: malformed key");
-        p = blank(p, e);
-        KW_FAIL_IF(p >= e || *p != ':', KW_EFORMAT, "header: missing ':' after '%s'", key);
-        p = blank(p + 1, e);
-        kw_status st = KW_OK;
-        if (strcmp(key, "descr") == 0) {
-            KW_FAIL_IF(p < e && *p == '[', KW_EFORMAT, "dtype: structured arrays are not supported");
-            KW_FAIL_IF(!(p = quoted(p, e, val, sizeof val)), KW_EFORMAT,
-                       "header: 'descr' is not a string");
-            st = take_descr(r, val);
-            seen |= 1;
-        } else if (strcmp(key, "fortran_order") == 0) {
-            if (e - p >= 5 && strncmp(p, "False", 5) == 0)
-                p += 5;
-            else if (e - p >= 4 && strncmp(p, "True", 4) == 0)
-                return kw_set_error(KW_EFORMAT, "fortran_order: slice-by-slice reading "
-                                    "needs C order (save np.ascontiguousarray(a))");
-            else
-                return kw_set_error(KW_EFORMAT, "header: 'fortran_order' is not a bool");
-            seen |= 2;
-        } else if (strcmp(key, "shape") == 0) {
-            st = take_shape(r, p, e, &p);
-            seen |= 4;
-        } else {
-            return kw_set_error(KW_EFORMAT, "header: unknown key '%s'", key);
-        }
-        if (st)
-            return st;
-        p = blank(p, e);
-        if (p < e && *p == ',') {
-            p++;
-            continue;
-        }
-        KW_FAIL_IF(p >= e || *p != '}', KW_EFORMAT, "header: malformed dictionary");
-    }
-    KW_FAIL_IF(!(seen & 1), KW_EFORMAT, "header: no 'descr'");
-    KW_FAIL_IF(!(seen & 2), KW_EFORMAT, "header: no 'fortran_order'");
-    KW_FAIL_IF(!(seen & 4), KW_EFORMAT, "header: no 'shape'");
-    return KW_OK;
-}
-
 /* ---- reading ----------------------------------------------------------------- */
 
 static kw_status open_header(kw_npyr *r)
 {
-    unsigned char pre[12];
-    size_t got = fread(pre, 1, 10, r->fp);
-    KW_FAIL_IF(got == 0, KW_EFORMAT, "empty file");
-    KW_FAIL_IF(got < 10 || memcmp(pre, "\x93NUMPY", 6) != 0, KW_EFORMAT, "not a .npy file (bad magic)");
-    size_t hlen, pre_len = 10;
-    if (pre[6] == 1) {
-        hlen = (size_t)pre[8] | (size_t)pre[9] << 8;
-    } else if (pre[6] == 2 || pre[6] == 3) {
-        KW_FAIL_IF(fread(pre + 10, 1, 2, r->fp) != 2, KW_EFORMAT, "truncated header");
-        hlen = (size_t)pre[8] | (size_t)pre[9] << 8 | (size_t)pre[10] << 16 | (size_t)pre[11] << 24;
-        pre_len = 12;
-    } else {
-        return kw_set_error(KW_EFORMAT, "format version %d.%d is not supported", pre[6], pre[7]);
-    }
-    KW_FAIL_IF(hlen == 0 || hlen > (1u << 20), KW_EFORMAT, "header length %zu is not plausible", hlen);
-    char *txt = malloc(hlen);
-    KW_FAIL_IF(!txt, KW_ENOMEM, "out of memory");
-    kw_status st = fread(txt, 1, hlen, r->fp) == hlen ? take_header(r, txt, hlen)
-                                                     : kw_set_error(KW_EFORMAT, "truncated header");
-    free(txt);
+    kw_npyhdr h;
+    kw_status st = kw_npyhdr_read(r->fp, &h);
     if (st)
         return st;
+    KW_FAIL_IF(h.type != KW_NPY_C8 && h.type != KW_NPY_C16, KW_EFORMAT,
+               "dtype: multi-slice k-space must be complex64 or complex128");
+    KW_FAIL_IF(h.fortran, KW_EFORMAT, "fortran_order: slice-by-slice reading "
+               "needs C order (save np.ascontiguousarray(a))");
+    r->isize = h.isize;
+    r->wide = h.type == KW_NPY_C16;
+    r->big = h.big;
+    r->ndim = h.ndim;
+    memcpy(r->dims, h.dims, sizeof r->dims);
     size_t bytes;
     KW_FAIL_IF(kw_checked_bytes(r->dims, r->ndim, r->isize, 0, &bytes), KW_EFORMAT,
                "shape: the number of bytes overflows (the header is corrupt or lies)");
     r->count = bytes / r->isize;
-    r->data_off = (off_t)(pre_len + hlen);
+    r->data_off = (off_t)h.data_off;
     struct stat sb;
     r->seekable = fstat(fileno(r->fp), &sb) == 0 && S_ISREG(sb.st_mode);
     if (r->seekable && (uintmax_t)sb.st_size != (uintmax_t)r->data_off + bytes)
@@ -190,6 +52,9 @@ kw_status kw_npyr_open(kw_npyr *r, const char *path)
     if (strcmp(path, "-") == 0) {
         r->fp = stdin;
     } else {
+        kw_status nst = kw_outfile_note_input(path);
+        if (nst)
+            return nst;
         r->fp = fopen(path, "rb");
         KW_FAIL_IF(!r->fp, KW_EIO, "%s: %s", path, strerror(errno));
         r->own = 1;

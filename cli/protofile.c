@@ -1,5 +1,6 @@
 /* protofile.c (cli): a protocol file's bytes, for kw_protocol_input_parse(). */
 #include "protofile.h"
+#include "outfile.h"
 
 #include <errno.h>
 #include <stdio.h>
@@ -12,6 +13,9 @@ kw_status kw_protofile_load(const char *path, char **buf, size_t *len)
     *buf = NULL;
     *len = 0;
     KW_FAIL_IF(!path || !*path, KW_EINVAL, "protocol: no file name");
+    kw_status nst = kw_outfile_note_input(path);
+    if (nst)
+        return nst;
     FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
     KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
     char *b = malloc(MAXBYTES + 1);

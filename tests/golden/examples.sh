@@ -53,7 +53,7 @@ run pat-poisson pattern --kind poisson --matrix 256x128x128 --accel 4 --acs 24 -
 run pat-lattice pattern --kind lattice --matrix 256x128x128 --accel 2x2 --shift 1 --out caipi.npy
 run pat-golden pattern --kind golden --tiny 5 --matrix 128 --spokes 64 --out g.npy
 run pat-spiral pattern --kind spiral --matrix 128 --fov 220mm --gmax 40mT/m --slew 150T/m/s --out s.npy
-run pat-analyse pattern --analyse p.npy --json p.json --psf p_psf.png
+run pat-analyse pattern --analyse p.npy --json p_report.json --psf p_psf.png
 run pat-compare pattern --compare u.npy caipi.npy p.npy g.npy --png compare.png
 run pat-random pattern --kind random --matrix 128x128 --accel 4 --acs 12 --seed 2 --out vd4mask.npy
 run pat-partial pattern --kind partial --matrix 128x128 --fraction 0.625 --out pfmask.npy

@@ -236,8 +236,8 @@ def test_pattern_mask(tmp_path):
     assert j["acs_lines"] == 8
     m2 = np.zeros((n, n), np.float32)
     m2[:, ::2] = 1
-    np.save(tmp_path / "m2.npy", m2)
-    k2, _ = enc(tmp_path, "m2", *base, "--pattern", tmp_path / "m2.npy")
+    np.save(tmp_path / "pat2.npy", m2)
+    k2, _ = enc(tmp_path, "m2", *base, "--pattern", tmp_path / "pat2.npy")
     assert np.all(k2[:, 1::2] == 0)
 
 
