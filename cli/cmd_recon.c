@@ -121,6 +121,31 @@ static kw_status write_image(const char *path, const kw_array *a, int spatial, c
     return kw_npy_write(path, a);
 }
 
+/* An HDF5 target (FILE.h5[:/dataset]) checked before any work. -1: go on. */
+static int check_h5_out(const char *out)
+{
+    char *file;
+    const char *dset;
+    kw_status st = kw_array_h5_target(out, "/image", &file, &dset);
+    free(file);
+    return st ? kw_cli_status(st, "out") : -1;
+}
+
+/* The image as a dataset of an HDF5 file, the run's metadata its attributes. */
+static kw_status write_h5(const recon_ctx *c, int spatial)
+{
+    char *file;
+    const char *dset;
+    kw_status st = kw_array_h5_target(c->o.out, "/image", &file, &dset);
+    if (st)
+        return st;
+    const kw_recon_report *rep = kw_recon_get_report(c->r);
+    kw_recon_h5_meta m = {c->sidecar, rep->method ? rep->method : c->mname, rep->combine, spatial, 0};
+    st = kw_h5_write(file, dset, &c->image, kw_recon_h5_attrs, &m);
+    free(file);
+    return st;
+}
+
 /* The option table and the checks that need no file. -1: go on. */
 static int parse(recon_ctx *c, int argc, char **argv)
 {
@@ -176,8 +201,10 @@ static int parse(recon_ctx *c, int argc, char **argv)
     if (!o->out && !o->json)
         return kw_cli_fail("out", "missing (--out IMG.npy or IMG.png)");
     if (o->out && !ends_with(o->out, ".npy") && !ends_with(o->out, ".png") && !ends_with(o->out, ".nii") &&
-        strcmp(o->out, "-") != 0)
-        return kw_cli_fail("out", "'%s': give a .npy, .png or .nii file name", o->out);
+        !kw_array_is_hdf5(o->out) && strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': give a .npy, .png, .nii or .h5 file name", o->out);
+    if (o->out && (rc = check_h5_out(o->out)) >= 0)
+        return rc;
     if (o->gfactor && !ends_with(o->gfactor, ".npy") && !ends_with(o->gfactor, ".png"))
         return kw_cli_fail("gfactor", "'%s': give a .npy or .png file name", o->gfactor);
     if (o->kernel && (rc = parse_kernel(o->kernel, o->kernel_yx)) >= 0)
@@ -202,22 +229,6 @@ static int parse(recon_ctx *c, int argc, char **argv)
     return -1;
 }
 
-/* The sidecar beside the input: KS.json for KS.npy, and for a dataset of an
- * HDF5 file (FILE.h5:/path) FILE.json. */
-static char *sidecar_beside(const char *in)
-{
-    if (!kw_array_is_hdf5(in))
-        return kw_sidecar_path(in);
-    char *file = strdup(in), *r;
-    if (!file)
-        return NULL;
-    const char *dset;
-    file[kw_h5_split(in, &dset)] = '\0';
-    r = kw_sidecar_path(file);
-    free(file);
-    return r;
-}
-
 /* The sidecar named by --sidecar, else the one next to the input, if any.
  * -1: go on. In a pipe (`kweave encode --out - --sidecar ks.json | kweave
  * recon --in - --sidecar ks.json`) the writer puts the sidecar in place
@@ -236,7 +247,7 @@ static int read_sidecar(recon_ctx *c)
             return kw_cli_fail("sidecar", "out of memory");
         if (access(c->scpath, F_OK) != 0)
             return kw_cli_fail("sidecar", "%s: %s", c->scpath, strerror(errno));
-    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = sidecar_beside(c->o.in)) ||
+    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_array_sidecar_path(c->o.in)) ||
                access(c->scpath, F_OK) != 0) {
         return -1;
     }
@@ -563,8 +574,12 @@ static int report(recon_ctx *c)
         return rc;
     kw_status st;
     int spatial = c->noncart ? (int)c->traj.dims[1] : c->ksp.ndim - 1;
-    if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar)))
+    if (c->o.out && kw_array_is_hdf5(c->o.out)) {
+        if ((st = write_h5(c, spatial)))
+            return kw_cli_status(st, "out");
+    } else if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar))) {
         return kw_cli_status(st, "out");
+    }
     if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor, spatial, c->sidecar)))
         return kw_cli_status(st, "gfactor");
     if (c->o.out)

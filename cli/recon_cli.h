@@ -10,6 +10,7 @@
 
 #include <cJSON.h>
 
+#include "h5.h"
 #include "kw_recon.h"
 
 typedef struct kw_recon_opts {
@@ -44,5 +45,21 @@ int kw_recon_cli_claims(const cJSON *sidecar, kw_recon_sampling *s, int *stated)
 /*! kw_recon_cli_error(): print the failure of a kw_recon call: the option
  * the library's parameter stands for, else `context`; returns the exit code. */
 int kw_recon_cli_error(kw_status st, const char *context);
+
+/* What the attributes of an HDF5 image (kw_recon_h5_attrs) are made of. */
+typedef struct kw_recon_h5_meta {
+    const cJSON *sidecar; /* fov_m, slices (thickness_m, gap_m, centres_m) */
+    const char *method;
+    const char *combine;  /* NULL: coil images */
+    int spatial;          /* the image's last 2 or 3 axes are (z,) y, x */
+    int multislice;       /* the z axis is the slices of a 2-D stack */
+} kw_recon_h5_meta;
+
+/*! kw_recon_h5_attrs(): the attributes of an image written to HDF5
+ * (docs/files.md): kweave_version, method, combine, axes, matrix, and with
+ * an FOV fov_m, voxel_size_m (FOV / matrix; the slice spacing for a stack),
+ * origin_m (NIfTI's), slice_thickness_m, slice_gap_m. `meta` is a
+ * kw_recon_h5_meta (the callback of kw_h5_write()). */
+kw_status kw_recon_h5_attrs(kw_h5w *w, void *meta);
 
 #endif

@@ -6,6 +6,7 @@
 
 #include "cli.h"
 #include "jsonio.h"
+#include "nifti.h"
 #include "recon_cli.h"
 
 char *kw_recon_sidecar_rel(const char *sidecar, const char *name)
@@ -114,4 +115,65 @@ int kw_recon_cli_error(kw_status st, const char *context)
             return kw_cli_status(st, param_map[i].option);
         }
     return kw_cli_status(st, context);
+}
+
+/* A number of the array `key` of `o` at index i, or NaN. */
+static double num_at(const cJSON *o, const char *key, int i)
+{
+    const cJSON *a = o ? cJSON_GetObjectItemCaseSensitive(o, key) : NULL;
+    const cJSON *v = cJSON_IsArray(a) ? cJSON_GetArrayItem(a, i) : NULL;
+    return cJSON_IsNumber(v) ? v->valuedouble : NAN;
+}
+
+static double num_of(const cJSON *o, const char *key)
+{
+    const cJSON *v = o ? cJSON_GetObjectItemCaseSensitive(o, key) : NULL;
+    return cJSON_IsNumber(v) ? v->valuedouble : NAN;
+}
+
+kw_status kw_recon_h5_attrs(kw_h5w *w, void *meta)
+{
+    const kw_recon_h5_meta *m = meta;
+    const int sp = m->spatial, nd = w->ndim;
+    const size_t *d = w->dims + nd - sp; /* (z,) y, x */
+    const cJSON *sc = m->sidecar, *sl = sc ? cJSON_GetObjectItemCaseSensitive(sc, "slices") : NULL;
+    kw_status st;
+    char axes[64];
+    snprintf(axes, sizeof axes, "%s%s%s", nd > sp ? "coil," : "",
+             sp == 3 ? (m->multislice ? "slice," : "z,") : "", "y,x");
+    long long mat[3];
+    double fov[3], vox[3];
+    int nf = 0;
+    for (int i = 0; i < sp; i++)
+        mat[i] = (long long)d[sp - 1 - i];
+    for (int i = 0; i < sp && i < (m->multislice ? 2 : 3); i++) {
+        fov[i] = num_at(sc, "fov_m", i);
+        if (!(fov[i] > 0))
+            break;
+        vox[i] = fov[i] / (double)mat[i];
+        nf = i + 1;
+    }
+    if ((st = kw_h5w_attr_str(w, "kweave_version", KW_VERSION_STRING)) ||
+        (st = kw_h5w_attr_str(w, "method", m->method)) ||
+        (st = kw_h5w_attr_str(w, "combine", m->combine ? m->combine : "none (coil images)")) ||
+        (st = kw_h5w_attr_str(w, "axes", axes)) || (st = kw_h5w_attr_i64(w, "matrix", mat, sp)))
+        return st;
+    if (nf < 2)
+        return KW_OK; /* no FOV: no geometry */
+    kw_nifti_geom g;
+    kw_nifti_geom_from_sidecar(sc, (size_t)mat[0], (size_t)mat[1], sp == 3 ? (size_t)mat[2] : 0, m->multislice, &g);
+    if (sp == 3 && m->multislice && g.known)
+        vox[2] = g.voxel_mm[2] * 1e-3; /* the slice spacing */
+    int nv = sp == 3 && (nf == 3 || (m->multislice && g.known)) ? 3 : 2;
+    double origin[3] = {g.origin_mm[0] * 1e-3, g.origin_mm[1] * 1e-3, g.origin_mm[2] * 1e-3};
+    if ((st = kw_h5w_attr_f64(w, "fov_m", fov, nf)) || (st = kw_h5w_attr_f64(w, "voxel_size_m", vox, nv)))
+        return st;
+    if (g.known && (st = kw_h5w_attr_f64(w, "origin_m", origin, 3)))
+        return st;
+    double th = num_of(sl, "thickness_m"), gap = num_of(sl, "gap_m");
+    if (m->multislice && th > 0 && (st = kw_h5w_attr_f64(w, "slice_thickness_m", &th, 0)))
+        return st;
+    if (m->multislice && isfinite(gap) && (st = kw_h5w_attr_f64(w, "slice_gap_m", &gap, 0)))
+        return st;
+    return KW_OK;
 }
