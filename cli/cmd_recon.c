@@ -24,7 +24,7 @@
 #include "recon_multislice.h"
 
 static const char USAGE[] =
-    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png|IMG.nii [--method M] [options]\n"
+    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png|IMG.nii|IMG.h5 [--method M] [options]\n"
     "\n"
     "Every array may also be one dataset of an HDF5 file, FILE.h5:/path (.hdf5,\n"
     "MATLAB v7.3 .mat), complex as a compound r/i or real/imag or a trailing\n"
@@ -42,6 +42,9 @@ typedef struct recon_ctx {
     cJSON *sidecar;
     char *scpath;
     const char *sidecar_opt; /* --sidecar FILE.json, e.g. for --in - */
+    const char *fov, *accel, *axes; /* stand-ins for the sidecar (recon_cli.h) */
+    long acs;
+    int seen_acs;
     kw_array ksp, traj, sens, cov, dcfw, ref, image, gfactor;
     int noncart;
     size_t image_dims[3];
@@ -155,8 +158,17 @@ static int parse(recon_ctx *c, int argc, char **argv)
         {"sidecar", KW_OPT_STRING, &c->sidecar_opt, 0, NULL,
          "the k-space's sidecar .json (default: beside --in; for --in -, give it here)"},
         {"out", KW_OPT_STRING, &o->out, 0, NULL,
-         "image: .npy (float32, or complex64 with --keep-coils or --complex), .png or .nii "
-         "(NIfTI-1)"},
+         "image: .npy (float32, or complex64 with --keep-coils or --complex), .png, .nii "
+         "(NIfTI-1) or FILE.h5[:/dataset] (HDF5, default dataset /image, metadata as attributes)"},
+        {"fov", KW_OPT_STRING, &c->fov, 0, NULL,
+         "field of view L[,LY[,LZ]] (e.g. 256mm; default: the sidecar's fov_m, else none)"},
+        {"accel", KW_OPT_STRING, &c->accel, 0, NULL,
+         "stated acceleration R or RYxRZ, checked against the data (default: the sidecar's, else inferred)"},
+        {"acs", KW_OPT_INT, &c->acs, 0, &c->seen_acs,
+         "stated calibration lines (default: the sidecar's acs_lines, else inferred)"},
+        {"axes", KW_OPT_STRING, &c->axes, 0, NULL,
+         "the k-space's axes in its order, e.g. ny,nx,coils (names coils, samples, nz, ny, nx; "
+         "default coils,[nz,]ny,nx)"},
         {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
         {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss, optimal, adaptive (default: optimal with maps, else rss)"},
         {"sens", KW_OPT_STRING, &o->sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
@@ -266,6 +278,7 @@ static int read_sidecar(recon_ctx *c)
 static int read_kspace(recon_ctx *c)
 {
     kw_array *k = &c->ksp;
+    int rc;
     kw_status st = kw_array_read_complex(c->o.in, k);
     if (st)
         return kw_cli_status(st, "in");
@@ -274,6 +287,8 @@ static int read_kspace(recon_ctx *c)
                            kw_array_is_hdf5(c->o.in) ? "; in HDF5 a compound r/i or real/imag, or a trailing axis of 2" : "");
     if (kw_array_all_finite(k))
         return kw_cli_fail("in", "%s", kw_last_error());
+    if (c->axes && (rc = kw_recon_cli_axes(c->axes, k)) >= 0)
+        return rc;
     /* The sidecar must describe this array: its "shape" is the array's. */
     const cJSON *sc = c->sidecar;
     const cJSON *shp = sc ? cJSON_GetObjectItemCaseSensitive(sc, "shape") : NULL;
@@ -289,7 +304,6 @@ static int read_kspace(recon_ctx *c)
     }
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */
     const cJSON *lay = sc ? cJSON_GetObjectItemCaseSensitive(sc, "layout") : NULL;
-    int rc;
     if ((rc = read_named(c->o.trajectory, sc, c->scpath, "trajectory", "trajectory", 0, &c->traj)) >= 0)
         return rc;
     c->noncart = c->traj.data != NULL;
@@ -592,10 +606,13 @@ static int report(recon_ctx *c)
 static int recon_main(recon_ctx *c, int argc, char **argv)
 {
     int rc;
-    if ((rc = parse(c, argc, argv)) >= 0 || (rc = read_sidecar(c)) >= 0)
+    if ((rc = parse(c, argc, argv)) >= 0 || (rc = read_sidecar(c)) >= 0 ||
+        (rc = kw_recon_cli_override(&c->sidecar, c->fov, c->accel, c->acs, c->seen_acs)) >= 0)
         return rc;
     /* Multi-slice 2-D: streamed slice by slice, never read whole. */
     if (c->seen_slices || (c->sidecar && cJSON_GetObjectItemCaseSensitive(c->sidecar, "slices"))) {
+        if (c->axes)
+            return kw_cli_fail("axes", "not with multi-slice input (give the layout with --slices AXIS)");
         if (c->o.sens_out)
             return kw_cli_fail("sens-out", "not with multi-slice input (the maps are per slice)");
         return kw_recon_multislice(&c->o, c->sidecar, c->scpath, c->seen_slices ? (int)c->slice_axis : -1);

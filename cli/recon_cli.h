@@ -42,6 +42,23 @@ void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro);
  * *s, *stated = 1 when either is given; -1, or an exit code (printed). */
 int kw_recon_cli_claims(const cJSON *sidecar, kw_recon_sampling *s, int *stated);
 
+/*! kw_recon_cli_override(): the options that stand in for a sidecar put
+ * into *sidecar (made when NULL) under the sidecar's own keys, so that
+ * everything reading the sidecar reads them: --fov L[,LY[,LZ]] ("fov_m",
+ * x, y, z; one value for every axis), --accel R or RYxRZ ("acceleration":
+ * a number, or a list per axis), --acs N ("acs_lines"). NULL / !seen_acs:
+ * not given. One "kweave: note:" line on stderr for each that differs from
+ * the sidecar's value. Later failures about the claims name --accel /
+ * --acs. -1, or an exit code (printed). */
+int kw_recon_cli_override(cJSON **sidecar, const char *fov, const char *accel, long acs, int seen_acs);
+
+/*! kw_recon_cli_axes(): --axes NAMES: the k-space `k` (KW_C64 or KW_F32)
+ * whose axes are, in its order, the comma-separated names (coils, samples,
+ * nz, ny, nx), transposed in place into kweave's C order (coils, [nz,] ny,
+ * nx) or (coils, samples); with no coils named a coil axis of 1 is put in
+ * front. -1, or an exit code (printed). */
+int kw_recon_cli_axes(const char *axes, kw_array *k);
+
 /*! kw_recon_cli_error(): print the failure of a kw_recon call: the option
  * the library's parameter stands for, else `context`; returns the exit code. */
 int kw_recon_cli_error(kw_status st, const char *context);
