@@ -111,10 +111,11 @@ int kw_recon_cli_error(kw_status st, const char *context)
 {
     const char *param = kw_last_error_param();
     if (claims_by_option && param && (!strcmp(param, "acceleration") || !strcmp(param, "acs_lines"))) {
+        const char *opt = strcmp(param, "acceleration") == 0 ? "accel" : "acs"; /* before kw_set_error */
         char why[512];
         snprintf(why, sizeof why, "%s", kw_last_error_reason());
         kw_set_error(st, "%s", why);
-        return kw_cli_status(st, strcmp(param, "acceleration") == 0 ? "accel" : "acs");
+        return kw_cli_status(st, opt);
     }
     for (size_t i = 0; param && *param && i < sizeof param_map / sizeof param_map[0]; i++)
         if (strcmp(param, param_map[i].param) == 0) {
