@@ -3,14 +3,30 @@
 
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 
 #include "h5.h"
+#include "jsonio.h"
 #include "npy.h"
 
 int kw_array_is_hdf5(const char *spec)
 {
     const char *dset;
     return kw_h5_split(spec, &dset) > 0;
+}
+
+char *kw_array_sidecar_path(const char *spec)
+{
+    const char *dset;
+    size_t n = kw_h5_split(spec, &dset);
+    if (!n)
+        return kw_sidecar_path(spec);
+    char *file = strndup(spec, n), *r;
+    if (!file)
+        return NULL;
+    r = kw_sidecar_path(file);
+    free(file);
+    return r;
 }
 
 kw_status kw_array_read(const char *spec, kw_array *out)
@@ -26,6 +42,26 @@ kw_status kw_array_read(const char *spec, kw_array *out)
     file[n] = '\0';
     kw_status st = kw_h5_read(file, dset, out);
     free(file);
+    return st;
+}
+
+kw_status kw_array_h5_target(const char *spec, const char *dflt, char **file, const char **dset)
+{
+    *file = NULL;
+    *dset = NULL;
+    const char *d;
+    size_t n = kw_h5_split(spec, &d);
+    if (!n)
+        return KW_OK;
+    KW_FAIL_IF(n >= 4 && strncasecmp(spec + n - 4, ".mat", 4) == 0, KW_EINVAL,
+               "'%s': kweave writes HDF5 as .h5 or .hdf5, not .mat", spec);
+    if (!d[0] && n < strlen(spec)) /* "FILE.h5:" */
+        return kw_set_error(KW_EINVAL, "'%s' names no dataset after the ':' (e.g. %.*s:%s)", spec, (int)n,
+                            spec, dflt);
+    *dset = d[0] ? d : dflt;
+    kw_status st = kw_h5_check_name(*dset);
+    if (!st && !(*file = strndup(spec, n)))
+        st = kw_set_error(KW_ENOMEM, "out of memory");
     return st;
 }
 

@@ -24,7 +24,7 @@
 #include "recon_multislice.h"
 
 static const char USAGE[] =
-    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png|IMG.nii [--method M] [options]\n"
+    "usage: kweave recon --in KS.npy --out IMG.npy|IMG.png|IMG.nii|IMG.h5 [--method M] [options]\n"
     "\n"
     "Every array may also be one dataset of an HDF5 file, FILE.h5:/path (.hdf5,\n"
     "MATLAB v7.3 .mat), complex as a compound r/i or real/imag or a trailing\n"
@@ -42,6 +42,9 @@ typedef struct recon_ctx {
     cJSON *sidecar;
     char *scpath;
     const char *sidecar_opt; /* --sidecar FILE.json, e.g. for --in - */
+    const char *fov, *accel, *axes; /* stand-ins for the sidecar (recon_cli.h) */
+    long acs;
+    int seen_acs;
     kw_array ksp, traj, sens, cov, dcfw, ref, image, gfactor;
     int noncart;
     size_t image_dims[3];
@@ -121,6 +124,31 @@ static kw_status write_image(const char *path, const kw_array *a, int spatial, c
     return kw_npy_write(path, a);
 }
 
+/* An HDF5 target (FILE.h5[:/dataset]) checked before any work. -1: go on. */
+static int check_h5_out(const char *out)
+{
+    char *file;
+    const char *dset;
+    kw_status st = kw_array_h5_target(out, "/image", &file, &dset);
+    free(file);
+    return st ? kw_cli_status(st, "out") : -1;
+}
+
+/* The image as a dataset of an HDF5 file, the run's metadata its attributes. */
+static kw_status write_h5(const recon_ctx *c, int spatial)
+{
+    char *file;
+    const char *dset;
+    kw_status st = kw_array_h5_target(c->o.out, "/image", &file, &dset);
+    if (st)
+        return st;
+    const kw_recon_report *rep = kw_recon_get_report(c->r);
+    kw_recon_h5_meta m = {c->sidecar, rep->method ? rep->method : c->mname, rep->combine, spatial, 0};
+    st = kw_h5_write(file, dset, &c->image, kw_recon_h5_attrs, &m);
+    free(file);
+    return st;
+}
+
 /* The option table and the checks that need no file. -1: go on. */
 static int parse(recon_ctx *c, int argc, char **argv)
 {
@@ -130,8 +158,17 @@ static int parse(recon_ctx *c, int argc, char **argv)
         {"sidecar", KW_OPT_STRING, &c->sidecar_opt, 0, NULL,
          "the k-space's sidecar .json (default: beside --in; for --in -, give it here)"},
         {"out", KW_OPT_STRING, &o->out, 0, NULL,
-         "image: .npy (float32, or complex64 with --keep-coils or --complex), .png or .nii "
-         "(NIfTI-1)"},
+         "image: .npy (float32, or complex64 with --keep-coils or --complex), .png, .nii "
+         "(NIfTI-1) or FILE.h5[:/dataset] (HDF5, default dataset /image, metadata as attributes)"},
+        {"fov", KW_OPT_STRING, &c->fov, 0, NULL,
+         "field of view L[,LY[,LZ]] (e.g. 256mm; default: the sidecar's fov_m, else none)"},
+        {"accel", KW_OPT_STRING, &c->accel, 0, NULL,
+         "stated acceleration R or RYxRZ, checked against the data (default: the sidecar's, else inferred)"},
+        {"acs", KW_OPT_INT, &c->acs, 0, &c->seen_acs,
+         "stated calibration lines (default: the sidecar's acs_lines, else inferred)"},
+        {"axes", KW_OPT_STRING, &c->axes, 0, NULL,
+         "the k-space's axes in its order, e.g. ny,nx,coils (names coils, samples, nz, ny, nx; "
+         "default coils,[nz,]ny,nx)"},
         {"method", KW_OPT_STRING, &o->method, 0, NULL, "fft (Cartesian default), homodyne, pocs, sense, grappa, grid, ..."},
         {"combine", KW_OPT_STRING, &o->combine, 0, NULL, "coil combination: rss, optimal, adaptive (default: optimal with maps, else rss)"},
         {"sens", KW_OPT_STRING, &o->sens, 0, NULL, "coil sensitivities .npy (coils, [nz,] ny, nx)"},
@@ -176,8 +213,10 @@ static int parse(recon_ctx *c, int argc, char **argv)
     if (!o->out && !o->json)
         return kw_cli_fail("out", "missing (--out IMG.npy or IMG.png)");
     if (o->out && !ends_with(o->out, ".npy") && !ends_with(o->out, ".png") && !ends_with(o->out, ".nii") &&
-        strcmp(o->out, "-") != 0)
-        return kw_cli_fail("out", "'%s': give a .npy, .png or .nii file name", o->out);
+        !kw_array_is_hdf5(o->out) && strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': give a .npy, .png, .nii or .h5 file name", o->out);
+    if (o->out && (rc = check_h5_out(o->out)) >= 0)
+        return rc;
     if (o->gfactor && !ends_with(o->gfactor, ".npy") && !ends_with(o->gfactor, ".png"))
         return kw_cli_fail("gfactor", "'%s': give a .npy or .png file name", o->gfactor);
     if (o->kernel && (rc = parse_kernel(o->kernel, o->kernel_yx)) >= 0)
@@ -202,22 +241,6 @@ static int parse(recon_ctx *c, int argc, char **argv)
     return -1;
 }
 
-/* The sidecar beside the input: KS.json for KS.npy, and for a dataset of an
- * HDF5 file (FILE.h5:/path) FILE.json. */
-static char *sidecar_beside(const char *in)
-{
-    if (!kw_array_is_hdf5(in))
-        return kw_sidecar_path(in);
-    char *file = strdup(in), *r;
-    if (!file)
-        return NULL;
-    const char *dset;
-    file[kw_h5_split(in, &dset)] = '\0';
-    r = kw_sidecar_path(file);
-    free(file);
-    return r;
-}
-
 /* The sidecar named by --sidecar, else the one next to the input, if any.
  * -1: go on. In a pipe (`kweave encode --out - --sidecar ks.json | kweave
  * recon --in - --sidecar ks.json`) the writer puts the sidecar in place
@@ -236,7 +259,7 @@ static int read_sidecar(recon_ctx *c)
             return kw_cli_fail("sidecar", "out of memory");
         if (access(c->scpath, F_OK) != 0)
             return kw_cli_fail("sidecar", "%s: %s", c->scpath, strerror(errno));
-    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = sidecar_beside(c->o.in)) ||
+    } else if (strcmp(c->o.in, "-") == 0 || !(c->scpath = kw_array_sidecar_path(c->o.in)) ||
                access(c->scpath, F_OK) != 0) {
         return -1;
     }
@@ -255,6 +278,7 @@ static int read_sidecar(recon_ctx *c)
 static int read_kspace(recon_ctx *c)
 {
     kw_array *k = &c->ksp;
+    int rc;
     kw_status st = kw_array_read_complex(c->o.in, k);
     if (st)
         return kw_cli_status(st, "in");
@@ -263,6 +287,8 @@ static int read_kspace(recon_ctx *c)
                            kw_array_is_hdf5(c->o.in) ? "; in HDF5 a compound r/i or real/imag, or a trailing axis of 2" : "");
     if (kw_array_all_finite(k))
         return kw_cli_fail("in", "%s", kw_last_error());
+    if (c->axes && (rc = kw_recon_cli_axes(c->axes, k)) >= 0)
+        return rc;
     /* The sidecar must describe this array: its "shape" is the array's. */
     const cJSON *sc = c->sidecar;
     const cJSON *shp = sc ? cJSON_GetObjectItemCaseSensitive(sc, "shape") : NULL;
@@ -278,7 +304,6 @@ static int read_kspace(recon_ctx *c)
     }
     /* Layout: a trajectory (option or sidecar) means non-Cartesian. */
     const cJSON *lay = sc ? cJSON_GetObjectItemCaseSensitive(sc, "layout") : NULL;
-    int rc;
     if ((rc = read_named(c->o.trajectory, sc, c->scpath, "trajectory", "trajectory", 0, &c->traj)) >= 0)
         return rc;
     c->noncart = c->traj.data != NULL;
@@ -563,8 +588,12 @@ static int report(recon_ctx *c)
         return rc;
     kw_status st;
     int spatial = c->noncart ? (int)c->traj.dims[1] : c->ksp.ndim - 1;
-    if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar)))
+    if (c->o.out && kw_array_is_hdf5(c->o.out)) {
+        if ((st = write_h5(c, spatial)))
+            return kw_cli_status(st, "out");
+    } else if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar))) {
         return kw_cli_status(st, "out");
+    }
     if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor, spatial, c->sidecar)))
         return kw_cli_status(st, "gfactor");
     if (c->o.out)
@@ -577,10 +606,13 @@ static int report(recon_ctx *c)
 static int recon_main(recon_ctx *c, int argc, char **argv)
 {
     int rc;
-    if ((rc = parse(c, argc, argv)) >= 0 || (rc = read_sidecar(c)) >= 0)
+    if ((rc = parse(c, argc, argv)) >= 0 || (rc = read_sidecar(c)) >= 0 ||
+        (rc = kw_recon_cli_override(&c->sidecar, c->fov, c->accel, c->acs, c->seen_acs)) >= 0)
         return rc;
     /* Multi-slice 2-D: streamed slice by slice, never read whole. */
     if (c->seen_slices || (c->sidecar && cJSON_GetObjectItemCaseSensitive(c->sidecar, "slices"))) {
+        if (c->axes)
+            return kw_cli_fail("axes", "not with multi-slice input (give the layout with --slices AXIS)");
         if (c->o.sens_out)
             return kw_cli_fail("sens-out", "not with multi-slice input (the maps are per slice)");
         return kw_recon_multislice(&c->o, c->sidecar, c->scpath, c->seen_slices ? (int)c->slice_axis : -1);

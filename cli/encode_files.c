@@ -10,6 +10,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "arrayio.h"
 #include "cli.h"
 #include "encode_cli.h"
 #include "jsonio.h"
@@ -238,7 +239,7 @@ int enc_protocol_read(enc_args *a, enc_files *f, kw_contrast_kind seq)
 static int read_mask(const char *path, enc_files *f, kw_acquisition_options *o)
 {
     kw_array *m = &f->mask_in;
-    kw_status st = kw_npy_read(path, m);
+    kw_status st = kw_array_read(path, m);
     if (st)
         return kw_cli_status(st, "pattern");
     if (m->dtype == KW_C64)
@@ -263,7 +264,7 @@ static int read_mask(const char *path, enc_files *f, kw_acquisition_options *o)
 
 static int read_traj(const char *path, enc_files *f, kw_acquisition_options *o)
 {
-    kw_status st = kw_npy_read(path, &f->traj);
+    kw_status st = kw_array_read(path, &f->traj);
     if (st)
         return kw_cli_status(st, "trajectory");
     if (f->traj.dtype != KW_F32 || f->traj.ndim != 2 || !f->traj.dims[0])
@@ -279,7 +280,7 @@ static int read_traj(const char *path, enc_files *f, kw_acquisition_options *o)
 static int read_times(const char *path, enc_files *f, kw_acquisition_options *o)
 {
     kw_array *t = &f->times_in;
-    kw_status st = kw_npy_read(path, t);
+    kw_status st = kw_array_read(path, t);
     if (st)
         return kw_cli_status(st, "times");
     if (t->dtype != KW_F32 || t->ndim < 1 || t->ndim > 2)
@@ -301,7 +302,7 @@ static int read_times(const char *path, enc_files *f, kw_acquisition_options *o)
 
 static int read_fmap(const char *path, enc_files *f, kw_acquisition_options *o)
 {
-    kw_status st = kw_npy_read(path, &f->fmap);
+    kw_status st = kw_array_read(path, &f->fmap);
     if (st)
         return kw_cli_status(st, "field-map");
     if (f->fmap.dtype != KW_F32 || f->fmap.ndim < 2 || f->fmap.ndim > 3)
@@ -318,7 +319,7 @@ static int read_fmap(const char *path, enc_files *f, kw_acquisition_options *o)
 static int read_sens(const char *path, enc_files *f, kw_acquisition_options *o)
 {
     kw_array *s = &f->sens_in;
-    kw_status st = kw_npy_read(path, s);
+    kw_status st = kw_array_read_complex(path, s);
     if (st)
         return kw_cli_status(st, "sens");
     if (s->dtype != KW_C64 && s->dtype != KW_F32)
@@ -344,9 +345,11 @@ static int read_sens(const char *path, enc_files *f, kw_acquisition_options *o)
 static int read_ncov(const char *path, enc_files *f, kw_acquisition_options *o)
 {
     kw_array *c = &f->ncov_in;
-    kw_status st = kw_npy_read(path, c);
+    kw_status st = kw_array_read(path, c);
     if (st)
         return kw_cli_status(st, "noise-cov");
+    if (kw_array_is_hdf5(path) && c->ndim == 3 && c->dims[0] == c->dims[1])
+        kw_array_pairs_to_complex(c); /* (n, n, 2): real, imaginary */
     if (c->ndim != 2 || c->dtype == KW_U8)
         return kw_cli_fail("noise-cov", "expected a (coils, coils) complex or real matrix");
     if ((st = kw_array_all_finite(c)))

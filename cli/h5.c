@@ -11,6 +11,7 @@
 #include <hdf5.h>
 
 #include "cli.h"
+#include "outfile.h"
 
 static const char *const H5_EXTS[] = {".h5", ".hdf5", ".mat"};
 
@@ -223,4 +224,195 @@ kw_status kw_h5_read(const char *file, const char *dset, kw_array *out)
     }
     H5Fclose(f);
     return st;
+}
+
+/* ---- writing ------------------------------------------------------------ */
+
+kw_status kw_h5_check_name(const char *dset)
+{
+    size_t n = strlen(dset);
+    KW_FAIL_IF(n == 0 || n > 512, KW_EINVAL, "the dataset name is empty or too long");
+    KW_FAIL_IF(dset[0] != '/', KW_EINVAL, "the dataset '%s' must start with / (e.g. FILE.h5:/image)", dset);
+    KW_FAIL_IF(n == 1 || dset[n - 1] == '/' || strstr(dset, "//"), KW_EINVAL,
+               "the dataset '%s' has an empty part (give a name between each /)", dset);
+    for (const char *p = dset; *p; p++)
+        KW_FAIL_IF((unsigned char)*p < 0x20 || *p == '\\', KW_EINVAL,
+                   "the dataset '%s' holds a control character or a backslash", dset);
+    KW_FAIL_IF(strstr(dset, "/./") || strstr(dset, "/../") || !strcmp(dset + n - 2, "/.") ||
+               (n >= 3 && !strcmp(dset + n - 3, "/..")), KW_EINVAL, "the dataset '%s' has a part . or ..", dset);
+    return KW_OK;
+}
+
+static void h5w_close(kw_h5w *w)
+{
+    if (w->mtype >= 0)
+        H5Tclose((hid_t)w->mtype);
+    if (w->dset >= 0)
+        H5Dclose((hid_t)w->dset);
+    if (w->file >= 0)
+        H5Fclose((hid_t)w->file);
+    w->mtype = w->dset = w->file = -1;
+}
+
+void kw_h5w_abort(kw_h5w *w)
+{
+    if (!w->open)
+        return;
+    h5w_close(w);
+    kw_outfile_abort(&w->of);
+    w->open = 0;
+}
+
+kw_status kw_h5w_open(kw_h5w *w, const char *file, const char *dset, kw_dtype dt, int ndim, const size_t *dims)
+{
+    memset(w, 0, sizeof *w);
+    w->file = w->dset = w->mtype = -1;
+    H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
+    kw_status st = kw_h5_check_name(dset);
+    if (st)
+        return st;
+    KW_FAIL_IF(dt != KW_F32 && dt != KW_C64, KW_EINVAL, "%s: HDF5 output is float32 or complex64", file);
+    KW_FAIL_IF(ndim < 1 || ndim > KW_MAX_DIMS, KW_EINVAL, "%s: %d axes", file, ndim);
+    if ((st = kw_outfile_open(&w->of, file)))
+        return st;
+    w->open = 1;
+    if (!w->of.tmp) { /* standard output, a device or a FIFO */
+        kw_h5w_abort(w);
+        return kw_set_error(KW_EINVAL, "%s: an HDF5 file must be a regular file", file);
+    }
+    w->ndim = ndim;
+    w->dtype = dt;
+    hsize_t hd[KW_MAX_DIMS];
+    for (int i = 0; i < ndim; i++)
+        hd[i] = w->dims[i] = dims[i];
+    /* kweave's complex: the compound h5py writes for numpy's complex64 */
+    hid_t mt = dt == KW_C64 ? H5Tcreate(H5T_COMPOUND, 2 * sizeof(float)) : H5Tcopy(H5T_NATIVE_FLOAT);
+    w->mtype = mt;
+    if (mt >= 0 && dt == KW_C64 &&
+        (H5Tinsert(mt, "r", 0, H5T_NATIVE_FLOAT) < 0 || H5Tinsert(mt, "i", sizeof(float), H5T_NATIVE_FLOAT) < 0))
+        mt = -1;
+    hid_t f = mt < 0 ? -1 : H5Fcreate(w->of.tmp, H5F_ACC_TRUNC, H5P_DEFAULT, H5P_DEFAULT);
+    w->file = f;
+    hid_t sp = f < 0 ? -1 : H5Screate_simple(ndim, hd, NULL);
+    hid_t lcpl = sp < 0 ? -1 : H5Pcreate(H5P_LINK_CREATE);
+    if (lcpl >= 0 && H5Pset_create_intermediate_group(lcpl, 1) >= 0)
+        w->dset = H5Dcreate2(f, dset, mt, sp, lcpl, H5P_DEFAULT, H5P_DEFAULT);
+    if (lcpl >= 0)
+        H5Pclose(lcpl);
+    if (sp >= 0)
+        H5Sclose(sp);
+    if (w->dset < 0) {
+        kw_h5w_abort(w);
+        return kw_set_error(KW_EIO, "%s: libhdf5 could not create the dataset '%s'", file, dset);
+    }
+    return KW_OK;
+}
+
+/* One attribute of `n` values (0: a scalar) of native type `t`. */
+static kw_status h5w_attr(kw_h5w *w, const char *name, hid_t t, const void *v, int n)
+{
+    hsize_t hn = (hsize_t)n;
+    hid_t sp = n > 0 ? H5Screate_simple(1, &hn, NULL) : H5Screate(H5S_SCALAR);
+    hid_t a = sp < 0 ? -1 : H5Acreate2((hid_t)w->dset, name, t, sp, H5P_DEFAULT, H5P_DEFAULT);
+    herr_t e = a < 0 ? -1 : H5Awrite(a, t, v);
+    if (a >= 0)
+        H5Aclose(a);
+    if (sp >= 0)
+        H5Sclose(sp);
+    KW_FAIL_IF(e < 0, KW_EIO, "%s: libhdf5 could not write the attribute '%s'", w->of.path, name);
+    return KW_OK;
+}
+
+kw_status kw_h5w_attr_f64(kw_h5w *w, const char *name, const double *v, int n)
+{
+    return h5w_attr(w, name, H5T_NATIVE_DOUBLE, v, n);
+}
+
+kw_status kw_h5w_attr_i64(kw_h5w *w, const char *name, const long long *v, int n)
+{
+    return h5w_attr(w, name, H5T_NATIVE_LLONG, v, n);
+}
+
+kw_status kw_h5w_attr_str(kw_h5w *w, const char *name, const char *v)
+{
+    hid_t t = H5Tcopy(H5T_C_S1);
+    kw_status st;
+    /* variable length: h5py reads it as a str, not bytes */
+    if (t < 0 || H5Tset_size(t, H5T_VARIABLE) < 0 || H5Tset_cset(t, H5T_CSET_UTF8) < 0)
+        st = kw_set_error(KW_EIO, "%s: libhdf5 could not make a string type", w->of.path);
+    else
+        st = h5w_attr(w, name, t, &v, 0);
+    if (t >= 0)
+        H5Tclose(t);
+    return st;
+}
+
+kw_status kw_h5w_write(kw_h5w *w, size_t first, const void *data, size_t n)
+{
+    KW_FAIL_IF(!w->open, KW_EINVAL, "HDF5 output: not open");
+    /* in blocks of the last two axes (one axis: the whole array) */
+    int nd = w->ndim, inner = nd >= 2 ? 2 : 1;
+    size_t blk = 1;
+    for (int i = nd - inner; i < nd; i++)
+        blk *= w->dims[i];
+    KW_FAIL_IF(first % blk || n % blk, KW_EINVAL, "HDF5 output: a write of part of a plane");
+    size_t esize = w->dtype == KW_C64 ? sizeof(kw_cfloat) : sizeof(float);
+    hid_t fs = H5Dget_space((hid_t)w->dset);
+    hsize_t cnt[KW_MAX_DIMS], start[KW_MAX_DIMS], bn = blk;
+    hid_t ms = H5Screate_simple(1, &bn, NULL);
+    herr_t e = fs < 0 || ms < 0 ? -1 : 0;
+    for (size_t b = 0; e >= 0 && b < n / blk; b++) {
+        size_t idx = first / blk + b;
+        for (int i = nd - 1; i >= 0; i--) {
+            if (i >= nd - inner) {
+                start[i] = 0;
+                cnt[i] = w->dims[i];
+            } else {
+                start[i] = idx % w->dims[i];
+                idx /= w->dims[i];
+                cnt[i] = 1;
+            }
+        }
+        e = H5Sselect_hyperslab(fs, H5S_SELECT_SET, start, NULL, cnt, NULL);
+        if (e >= 0)
+            e = H5Dwrite((hid_t)w->dset, (hid_t)w->mtype, ms, fs, H5P_DEFAULT,
+                         (const char *)data + b * blk * esize);
+    }
+    if (ms >= 0)
+        H5Sclose(ms);
+    if (fs >= 0)
+        H5Sclose(fs);
+    KW_FAIL_IF(e < 0, KW_EIO, "%s: libhdf5 could not write the data (disk full?)", w->of.path);
+    return KW_OK;
+}
+
+kw_status kw_h5w_commit(kw_h5w *w)
+{
+    KW_FAIL_IF(!w->open, KW_EINVAL, "HDF5 output: not open");
+    H5Tclose((hid_t)w->mtype);
+    H5Dclose((hid_t)w->dset);
+    int bad = H5Fclose((hid_t)w->file) < 0; /* flushes */
+    w->mtype = w->dset = w->file = -1;
+    if (bad) {
+        char what[512];
+        snprintf(what, sizeof what, "%s", w->of.path);
+        kw_h5w_abort(w);
+        return kw_set_error(KW_EIO, "%s: libhdf5 could not write the file (disk full?)", what);
+    }
+    w->open = 0;
+    return kw_outfile_commit(&w->of); /* renames the finished file into place */
+}
+
+kw_status kw_h5_write(const char *file, const char *dset, const kw_array *a, kw_status (*attrs)(kw_h5w *, void *),
+                      void *user)
+{
+    kw_h5w w;
+    kw_status st = kw_h5w_open(&w, file, dset, a->dtype, a->ndim, a->dims);
+    if (st)
+        return st;
+    if ((attrs && (st = attrs(&w, user))) || (st = kw_h5w_write(&w, 0, a->data, kw_array_count(a)))) {
+        kw_h5w_abort(&w);
+        return st;
+    }
+    return kw_h5w_commit(&w);
 }

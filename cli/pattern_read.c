@@ -7,6 +7,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "arrayio.h"
 #include "cli.h"
 #include "npy.h"
 #include "pattern_cli.h"
@@ -74,11 +75,11 @@ int kw_pattern_cli_analyse_file(const char *path, kw_pattern_report *a, long psf
     const char *slash = strrchr(path, '/');
     snprintf(a->name, sizeof a->name, "%s", slash ? slash + 1 : path);
     kw_array arr = {0};
-    kw_status st = kw_npy_read(path, &arr);
+    kw_status st = kw_array_read(path, &arr);
     if (st)
         return kw_cli_status(st, "analyse");
     cJSON *side = NULL;
-    char *sp = kw_sidecar_path(path);
+    char *sp = kw_array_sidecar_path(path);
     FILE *probe = sp ? fopen(sp, "rb") : NULL;
     if (probe) {
         fclose(probe);

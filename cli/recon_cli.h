@@ -10,6 +10,7 @@
 
 #include <cJSON.h>
 
+#include "h5.h"
 #include "kw_recon.h"
 
 typedef struct kw_recon_opts {
@@ -41,8 +42,41 @@ void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro);
  * *s, *stated = 1 when either is given; -1, or an exit code (printed). */
 int kw_recon_cli_claims(const cJSON *sidecar, kw_recon_sampling *s, int *stated);
 
+/*! kw_recon_cli_override(): the options that stand in for a sidecar put
+ * into *sidecar (made when NULL) under the sidecar's own keys, so that
+ * everything reading the sidecar reads them: --fov L[,LY[,LZ]] ("fov_m",
+ * x, y, z; one value for every axis), --accel R or RYxRZ ("acceleration":
+ * a number, or a list per axis), --acs N ("acs_lines"). NULL / !seen_acs:
+ * not given. One "kweave: note:" line on stderr for each that differs from
+ * the sidecar's value. Later failures about the claims name --accel /
+ * --acs. -1, or an exit code (printed). */
+int kw_recon_cli_override(cJSON **sidecar, const char *fov, const char *accel, long acs, int seen_acs);
+
+/*! kw_recon_cli_axes(): --axes NAMES: the k-space `k` (KW_C64 or KW_F32)
+ * whose axes are, in its order, the comma-separated names (coils, samples,
+ * nz, ny, nx), transposed in place into kweave's C order (coils, [nz,] ny,
+ * nx) or (coils, samples); with no coils named a coil axis of 1 is put in
+ * front. -1, or an exit code (printed). */
+int kw_recon_cli_axes(const char *axes, kw_array *k);
+
 /*! kw_recon_cli_error(): print the failure of a kw_recon call: the option
  * the library's parameter stands for, else `context`; returns the exit code. */
 int kw_recon_cli_error(kw_status st, const char *context);
+
+/* What the attributes of an HDF5 image (kw_recon_h5_attrs) are made of. */
+typedef struct kw_recon_h5_meta {
+    const cJSON *sidecar; /* fov_m, slices (thickness_m, gap_m, centres_m) */
+    const char *method;
+    const char *combine;  /* NULL: coil images */
+    int spatial;          /* the image's last 2 or 3 axes are (z,) y, x */
+    int multislice;       /* the z axis is the slices of a 2-D stack */
+} kw_recon_h5_meta;
+
+/*! kw_recon_h5_attrs(): the attributes of an image written to HDF5
+ * (docs/files.md): kweave_version, method, combine, axes, matrix, and with
+ * an FOV fov_m, voxel_size_m (FOV / matrix; the slice spacing for a stack),
+ * origin_m (NIfTI's), slice_thickness_m, slice_gap_m. `meta` is a
+ * kw_recon_h5_meta (the callback of kw_h5_write()). */
+kw_status kw_recon_h5_attrs(kw_h5w *w, void *meta);
 
 #endif

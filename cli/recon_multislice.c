@@ -54,6 +54,7 @@ typedef struct ms_ctx {
     int axis;
     ms_src rk, rs;
     kw_npyw w;
+    kw_h5w h5; /* the image as an HDF5 dataset (h5.open) instead of w */
     size_t nc, ns, ny, nx, npix;
     kw_array ref, ncov, sens;
     const char *sens_src;
@@ -169,6 +170,27 @@ static kw_status finite_block(const float complex *b, size_t n, size_t s)
     return KW_OK;
 }
 
+/* Whole slices of the image into the .npy / .nii stream or the HDF5 dataset. */
+static kw_status out_write(ms_ctx *m, size_t first, const void *data, size_t n)
+{
+    return m->h5.open ? kw_h5w_write(&m->h5, first, data, n) : kw_npyw_write(&m->w, first, data, n);
+}
+
+/* The HDF5 dataset's attributes, then the file renamed into place. */
+static kw_status out_commit(ms_ctx *m)
+{
+    if (!m->h5.open)
+        return kw_npyw_commit(&m->w);
+    const kw_recon_report *rep = kw_recon_get_report(m->r);
+    kw_recon_h5_meta hm = {m->sidecar, rep->method ? rep->method : m->mname, rep->combine, 3, 1};
+    kw_status st = kw_recon_h5_attrs(&m->h5, &hm);
+    if (st) {
+        kw_h5w_abort(&m->h5);
+        return st;
+    }
+    return kw_h5w_commit(&m->h5);
+}
+
 /* The request and the k-space stream's layout. -1: go on. */
 static int open_kspace(ms_ctx *m)
 {
@@ -182,8 +204,10 @@ static int open_kspace(ms_ctx *m)
         return kw_cli_fail("slices", "multi-slice reconstruction takes Cartesian data only (no trajectory)");
     if (o->gfactor)
         return kw_cli_fail("gfactor", "not with multi-slice input (run one slice on its own for a g-factor map)");
-    if (o->out && !ends_with_ci(o->out, ".npy") && !ends_with_ci(o->out, ".nii") && strcmp(o->out, "-") != 0)
-        return kw_cli_fail("out", "'%s': multi-slice images are written as .npy or .nii (slices, ny, nx)", o->out);
+    if (o->out && !ends_with_ci(o->out, ".npy") && !ends_with_ci(o->out, ".nii") && !kw_array_is_hdf5(o->out) &&
+        strcmp(o->out, "-") != 0)
+        return kw_cli_fail("out", "'%s': multi-slice images are written as .npy, .nii or .h5 (slices, ny, nx)",
+                           o->out);
 
     m->mname = o->method ? o->method : "fft";
     const kw_recon_method_info *mi = kw_recon_method_find(m->mname);
@@ -369,12 +393,18 @@ static int start(ms_ctx *m, int *kind)
         kw_nifti_geom ng;
         kw_nifti_geom_from_sidecar(m->sidecar, m->nx, m->ny, m->ns, 1, &ng);
         wst = kw_nifti_open(&m->w, o->out, dt_out, nd_out, od + 4 - nd_out, 3, &ng);
+    } else if (o->out && kw_array_is_hdf5(o->out)) {
+        char *file;
+        const char *dset;
+        if (!(wst = kw_array_h5_target(o->out, "/image", &file, &dset)))
+            wst = kw_h5w_open(&m->h5, file, dset, dt_out, nd_out, od + 4 - nd_out);
+        free(file);
     } else if (o->out) {
         wst = kw_npyw_open(&m->w, o->out, dt_out, nd_out, od + 4 - nd_out);
     }
     if (wst)
         return kw_cli_status(wst, "out");
-    if (o->out && *kind == 3 && m->nc > 1 && m->ns > 1 && !m->w.seekable)
+    if (o->out && *kind == 3 && m->nc > 1 && m->ns > 1 && !m->w.seekable && !m->h5.open)
         return kw_cli_fail("out", "--keep-coils writes (coils, slices, ny, nx) in place: give a file, not a pipe");
     return -1;
 }
@@ -450,10 +480,10 @@ static int slices(ms_ctx *m, int kind)
         if (m->o->out) {
             if (kind == 3) {
                 for (size_t c = 0; c < nc; c++)
-                    if ((st = kw_npyw_write(&m->w, (c * ns + s) * npix,
-                                            (const float complex *)m->ibuf + c * npix, npix)))
+                    if ((st = out_write(m, (c * ns + s) * npix, (const float complex *)m->ibuf + c * npix,
+                                        npix)))
                         return kw_cli_status(st, "out");
-            } else if ((st = kw_npyw_write(&m->w, s * npix, m->ibuf, npix))) {
+            } else if ((st = out_write(m, s * npix, m->ibuf, npix))) {
                 return kw_cli_status(st, "out");
             }
         }
@@ -493,7 +523,7 @@ static int finish(ms_ctx *m)
                    sc.ssim, m->ns);
     }
     if (o->out) {
-        if ((st = kw_npyw_commit(&m->w)))
+        if ((st = out_commit(m)))
             return kw_cli_status(st, "out");
         cJSON_AddStringToObject(m->report, "output", o->out);
     }
@@ -516,6 +546,7 @@ int kw_recon_multislice(const kw_recon_opts *o, const cJSON *sidecar, const char
         rc = finish(&m);
     kw_cli_progress_done();
     kw_npyw_abort(&m.w);
+    kw_h5w_abort(&m.h5);
     kw_recon_destroy(m.r);
     src_close(&m.rk);
     src_close(&m.rs);
