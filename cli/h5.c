@@ -207,6 +207,9 @@ kw_status kw_h5_read(const char *file, const char *dset, kw_array *out)
     H5Eset_auto2(H5E_DEFAULT, NULL, NULL);
     if (access(file, R_OK) != 0)
         return kw_set_error(KW_EIO, "%s: %s", file, strerror(errno));
+    kw_status nst = kw_outfile_note_input(file);
+    if (nst)
+        return nst;
     hid_t f = H5Fopen(file, H5F_ACC_RDONLY, H5P_DEFAULT);
     if (f < 0)
         return kw_set_error(KW_EFORMAT, "%s: not an HDF5 file (MATLAB .mat files must be v7.3)", file);

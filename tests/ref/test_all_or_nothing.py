@@ -287,3 +287,14 @@ def test_other_signals_mid_write_leave_nothing(tmp_path, big, sig):
     assert p.returncode == -sig
     assert not out.exists()
     assert glob.glob(pattern) == []
+
+
+def test_recon_hdf5_output_onto_its_hdf5_input_is_refused(data, tmp_path):
+    h5py = pytest.importorskip("h5py")
+    d = copy_of(data, tmp_path)
+    with h5py.File(d / "raw.h5", "w") as f:
+        f["kspace"] = np.load(d / "ks.npy")
+    before = snapshot(d)
+    refused(kw("recon", "--in", f"{d}/raw.h5:/kspace", "--fov", "200mm", "--out", f"{d}/raw.h5:/image"),
+            "is also an input")
+    assert snapshot(d) == before
