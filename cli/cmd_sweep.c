@@ -18,6 +18,7 @@
 #include "cli.h"
 #include "sweep.h"
 #include "sweep_verb.h"
+#include "kw_fft.h"
 
 #define MAX_JOBS KW_SWEEP_MAX_JOBS
 
@@ -144,6 +145,9 @@ static int run_local(const kw_sweep_opts *o, kw_sweep_ctx *c)
 
 int kw_cmd_sweep(int argc, char **argv)
 {
+    /* The same table, bit for bit, on every run, resume and MPI layout: plans
+     * made without timing and without the wisdom cache (kw_fft.h). */
+    kw_fft_set_reproducible(1);
     if (kw_sweep_mpi_launched())
         return kw_sweep_mpi_main(argc, argv);
     kw_sweep_opts o;

@@ -94,6 +94,8 @@ static char *wisdom_load(void)
 
 static void wisdom_save(const char *before)
 {
+    if (kw_fft_reproducible()) /* its plans are unmeasured: keep the cache */
+        return;
     char *now = kw_fft_wisdom_export();
     if (now && (!before || strcmp(before, now) != 0)) {
         char *path = wisdom_path(1);

@@ -116,7 +116,7 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
         int n_int[3];
         for (int d = 0; d < nd; d++)
             n_int[d] = (int)e->big[d];
-        unsigned ff = no->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
+        unsigned ff = kw_fft_rigor(no->measure);
         /* threads only where they pay: small grids stay on one */
         int nth = no->nthreads > 0 ? no->nthreads : kw_fft_threads();
         kw_fft_planner_lock();

@@ -153,7 +153,7 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
     p->nthreads = 1;
 #endif
     p->post_sign = (half & 1) ? -1.0f : 1.0f;
-    unsigned ff = (flags & KW_FFT_MEASURE) ? FFTW_MEASURE : FFTW_ESTIMATE;
+    unsigned ff = kw_fft_rigor(flags & KW_FFT_MEASURE);
     size_t howmany = p->even ? batch : 1;
     if (howmany > (size_t)1 << 30 || p->n > (size_t)1 << 31) {
         free(p);
@@ -252,10 +252,41 @@ char *kw_fft_wisdom_export(void)
     return w;
 }
 
+static int reproducible;
+
+void kw_fft_set_reproducible(int on)
+{
+    kw_fft_planner_lock();
+    reproducible = on != 0;
+    if (reproducible)
+        fftwf_forget_wisdom();
+    kw_fft_planner_unlock();
+}
+
+int kw_fft_reproducible(void)
+{
+    kw_fft_planner_lock();
+    int r = reproducible;
+    kw_fft_planner_unlock();
+    return r;
+}
+
+unsigned kw_fft_rigor(int measure)
+{
+    kw_fft_planner_lock();
+    unsigned f = measure && !reproducible ? FFTW_MEASURE : FFTW_ESTIMATE;
+    kw_fft_planner_unlock();
+    return f;
+}
+
 kw_status kw_fft_wisdom_import(const char *w)
 {
     KW_FAIL_IF(!w, KW_EINVAL, "fft: NULL wisdom");
     kw_fft_planner_lock();
+    if (reproducible) { /* measured plans must not come back through wisdom */
+        kw_fft_planner_unlock();
+        return KW_OK;
+    }
     int ok = fftwf_import_wisdom_from_string(w);
     kw_fft_planner_unlock();
     KW_FAIL_IF(!ok, KW_EFORMAT, "fft: wisdom rejected by FFTW");

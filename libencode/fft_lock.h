@@ -11,4 +11,9 @@
 void kw_fft_planner_lock(void);
 void kw_fft_planner_unlock(void);
 
+/* kw_fft_rigor(): the FFTW planner flag for a caller asking for measured
+ * plans (nonzero) or not: FFTW_ESTIMATE always in reproducible mode
+ * (kw_fft_set_reproducible()). */
+unsigned kw_fft_rigor(int measure);
+
 #endif

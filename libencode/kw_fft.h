@@ -72,6 +72,17 @@ KW_API void kw_fft_destroy(kw_fft_plan *plan);
 KW_API char *kw_fft_wisdom_export(void);
 KW_API kw_status kw_fft_wisdom_import(const char *wisdom);
 
+/*! kw_fft_set_reproducible(): nonzero: from now on every FFTW plan the library
+ * makes (FFT, NUFFT, encoder, root-sum-of-squares) is made by FFTW_ESTIMATE,
+ * which times nothing, and the wisdom held is forgotten and no more is
+ * imported (FFTW would otherwise use a measured plan from wisdom), so that
+ * results are the same bits on every run of one build on one machine,
+ * whatever the load, the cache or the process; plans run somewhat slower.
+ * Zero: the callers' choice of KW_FFT_MEASURE holds again. Process-wide;
+ * call it before making objects. kw_fft_reproducible(): the setting. */
+KW_API void kw_fft_set_reproducible(int on);
+KW_API int kw_fft_reproducible(void);
+
 #ifdef __cplusplus
 }
 #endif

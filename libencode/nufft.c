@@ -326,7 +326,7 @@ static kw_status plan_fft(kw_nufft_plan *p, const kw_nufft_options *opts)
     int n_int[3];
     for (int d = 0; d < ndim; d++)
         n_int[d] = (int)p->M[D0 + d];
-    unsigned ff = opts->measure ? FFTW_MEASURE : FFTW_ESTIMATE;
+    unsigned ff = kw_fft_rigor(opts->measure);
     kw_fft_planner_lock();
     if (p->nthreads > 1) {
         kw_status st = kw_fft_setup(kw_fft_threads());

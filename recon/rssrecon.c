@@ -81,7 +81,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
             fftwf_plan_with_nthreads(1);
         r->plan = fftwf_plan_dft(rank, ni, (fftwf_complex *)in, (fftwf_complex *)r->scratch,
                                  FFTW_BACKWARD,
-                                 ((flags & KW_FFT_MEASURE) ? FFTW_MEASURE : FFTW_ESTIMATE) |
+                                 kw_fft_rigor(flags & KW_FFT_MEASURE) |
                                      FFTW_PRESERVE_INPUT);
         if (kw_fft_threads_ready())
             fftwf_plan_with_nthreads(kw_fft_threads());

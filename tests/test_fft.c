@@ -3,6 +3,7 @@
 #include <criterion/criterion.h>
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "kw_fft.h"
 
@@ -109,4 +110,35 @@ Test(fft, bad_arguments)
     cr_expect_eq(kw_fft_create(&p, 4, d, 1, 0), KW_EINVAL);
     cr_expect_eq(kw_fft_create(&p, 1, d, 0, 0), KW_EINVAL);
     kw_fft_destroy(NULL);
+}
+
+/* Reproducible mode (kw_fft_set_reproducible): measured plans are not made and
+ * wisdom is not taken in, so a measured plan equals an estimated one bit for
+ * bit; the setting reads back and can be turned off again. */
+Test(fft, reproducible_mode_plans_without_timing)
+{
+    const size_t d[2] = {48, 40};
+    size_t n = d[0] * d[1];
+    float complex *a = malloc(n * sizeof *a), *b = malloc(n * sizeof *b);
+    cr_assert(a && b);
+    for (size_t i = 0; i < n; i++)
+        a[i] = b[i] = (float)((i * 37) % 101) - 50.0f + I * (float)((i * 11) % 23);
+    kw_fft_set_reproducible(1);
+    cr_assert_eq(kw_fft_reproducible(), 1);
+    char *w = kw_fft_wisdom_export();
+    cr_assert_not_null(w);
+    cr_assert_eq(kw_fft_wisdom_import(w), KW_OK); /* accepted, not used */
+    free(w);
+    kw_fft_plan *pm = NULL, *pe = NULL;
+    cr_assert_eq(kw_fft_create(&pm, 2, d, 1, KW_FFT_MEASURE), KW_OK);
+    cr_assert_eq(kw_fft_create(&pe, 2, d, 1, KW_FFT_ESTIMATE), KW_OK);
+    cr_assert_eq(kw_fft_forward(pm, a), KW_OK);
+    cr_assert_eq(kw_fft_forward(pe, b), KW_OK);
+    cr_assert(memcmp(a, b, n * sizeof *a) == 0);
+    kw_fft_destroy(pm);
+    kw_fft_destroy(pe);
+    kw_fft_set_reproducible(0);
+    cr_assert_eq(kw_fft_reproducible(), 0);
+    free(a);
+    free(b);
 }
