@@ -48,21 +48,38 @@ void kw_recon_cli_options(const kw_recon_opts *o, kw_recon_options *ro)
                                                 : KW_RECON_DCF_GIVEN;
 }
 
-/* A whole number, or a list whose product is the total; 0: absent. */
-static int json_int(const cJSON *o, const char *key, double *v, int *list)
+/* Sampling claims beyond these are no sampling of any array kweave reads
+ * (2^20 lines or a factor of 2^20): refused before any conversion. */
+#define CLAIM_MAX (1LL << 20)
+
+/* A number, or a list of whole numbers whose product is the total; 0:
+ * absent, -1: not a number or list, -2: out of range [lo, CLAIM_MAX] (a
+ * list's entries and product, a number's value). */
+static int json_int(const cJSON *o, const char *key, double lo, double *v, int *list)
 {
     const cJSON *j = o ? cJSON_GetObjectItemCaseSensitive(o, key) : NULL;
     if (!j || cJSON_IsNull(j))
         return 0;
     if (cJSON_IsNumber(j)) {
+        if (!(j->valuedouble >= lo && j->valuedouble <= (double)CLAIM_MAX))
+            return -2;
         *v = j->valuedouble;
         *list = 0;
         return 1;
     }
     if (cJSON_IsArray(j)) {
-        int prod = 1;
+        double prod = 1;
         const cJSON *e;
-        cJSON_ArrayForEach(e, j) if (cJSON_IsNumber(e)) prod *= (int)e->valuedouble;
+        cJSON_ArrayForEach(e, j) {
+            long long k;
+            if (!cJSON_IsNumber(e))
+                return -1;
+            if (kw_checked_whole(e->valuedouble, (long long)lo, CLAIM_MAX, &k) != KW_OK)
+                return -2;
+            prod *= (double)k;
+            if (prod > (double)CLAIM_MAX)
+                return -2;
+        }
         *v = prod;
         *list = 1;
         return 1;
@@ -76,15 +93,23 @@ int kw_recon_cli_claims(const cJSON *sidecar, kw_recon_sampling *s, int *stated)
     *stated = 0;
     double v = 0;
     int list = 0;
-    int h = json_int(sidecar, "acceleration", &v, &list);
-    if (h < 0)
+    int h = json_int(sidecar, "acceleration", 1, &v, &list);
+    if (h == -1)
         return kw_cli_fail("acceleration", "sidecar value is not a number or list");
+    if (h == -2)
+        return kw_cli_fail("acceleration", "sidecar value is out of range (1 to %lld, "
+                           "whole numbers in a list)", CLAIM_MAX);
     if (h > 0) {
         s->acceleration = v;
         s->acceleration_per_axis = list;
         *stated = 1;
     }
-    h = json_int(sidecar, "acs_lines", &v, &list);
+    h = json_int(sidecar, "acs_lines", 0, &v, &list);
+    if (h == -1)
+        return kw_cli_fail("acs_lines", "sidecar value is not a number or list");
+    if (h == -2 || (h > 0 && v != floor(v)))
+        return kw_cli_fail("acs_lines", "sidecar value is out of range (a whole number 0 to %lld)",
+                           CLAIM_MAX);
     if (h > 0) {
         s->acs_lines = (int)v;
         *stated = 1;

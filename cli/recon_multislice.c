@@ -235,9 +235,12 @@ static int open_kspace(ms_ctx *m)
     m->npix = m->ny * m->nx;
     if (sl) {
         const cJSON *cnt = cJSON_IsObject(sl) ? cJSON_GetObjectItemCaseSensitive(sl, "count") : NULL;
-        if (!cnt || !cJSON_IsNumber(cnt) || !(cnt->valuedouble >= 1) || cnt->valuedouble != floor(cnt->valuedouble))
-            return kw_cli_fail("sidecar", "\"slices\" must be an object with a whole \"count\" >= 1");
-        if ((size_t)cnt->valuedouble != m->ns)
+        long long count;
+        if (!cnt || !cJSON_IsNumber(cnt) ||
+            kw_checked_whole(cnt->valuedouble, 1, 1LL << 40, &count) != KW_OK)
+            return kw_cli_fail("sidecar", "\"slices\" must be an object with a whole \"count\" "
+                               "from 1 to 2^40");
+        if ((unsigned long long)count != m->ns)
             return kw_cli_fail("slices", "the sidecar says %.0f slices but axis %d of the input holds %zu",
                                cnt->valuedouble, axis, m->ns);
     }

@@ -75,8 +75,12 @@ static int axis_ints(const axis *a, const char *field, long lo, long hi, long *o
     for (int i = 0; i < a->n; i++) {
         const cJSON *e = a->v[i];
         if (!cJSON_IsNumber(e) || !isfinite(e->valuedouble) ||
-            e->valuedouble != floor(e->valuedouble))
-            return kw_cli_fail(field, "value %d is not an integer", i + 1);
+            e->valuedouble != floor(e->valuedouble)) {
+            if (cJSON_IsNumber(e))
+                return kw_cli_fail(field, "%.17g (entry %d) is not a whole number",
+                                   e->valuedouble, i + 1);
+            return kw_cli_fail(field, "entry %d is not a number", i + 1);
+        }
         if (e->valuedouble < (double)lo || e->valuedouble > (double)hi)
             return kw_cli_fail(field, "value %.17g is out of range [%ld, %ld]", e->valuedouble,
                                lo, hi);

@@ -131,6 +131,15 @@ size_t kw_array_count(const kw_array *a)
     return n;
 }
 
+kw_status kw_checked_whole(double v, long long lo, long long hi, long long *out)
+{
+    /* |lo|, |hi| <= 2^53 keeps the double comparison exact */
+    if (!isfinite(v) || v != floor(v) || v < (double)lo || v > (double)hi)
+        return KW_ERANGE;
+    *out = (long long)v;
+    return KW_OK;
+}
+
 kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
                            size_t limit, size_t *bytes)
 {

@@ -197,6 +197,13 @@ KW_API size_t kw_array_count(const kw_array *a);
 KW_API kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
                            size_t limit, size_t *bytes);
 
+/*! kw_checked_whole(): the one checked conversion of a number read from a
+ * file or an option into an integer: KW_OK and *out = v when `v` is a whole
+ * number (finite) within [lo, hi]; KW_ERANGE (out untouched, no message: the
+ * caller names the field) otherwise. The comparison is made in double before
+ * any cast, so 1e300, NaN or 2^63 never reach a conversion. */
+KW_API kw_status kw_checked_whole(double v, long long lo, long long hi, long long *out);
+
 /*! kw_array_alloc(): allocate a zero-filled array (64-byte aligned, suitable
  * for FFTW's SIMD). `a` is overwritten; free with kw_array_free(). */
 KW_API kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims);

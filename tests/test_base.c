@@ -66,3 +66,22 @@ Test(base, gyromagnetic_ratio_codata_2018)
     cr_expect_float_eq(KW_GAMMA_BAR_P, 42.577478518e6, 1e-3);
     cr_expect(fabs(KW_GAMMA_P / (2 * KW_PI) - KW_GAMMA_BAR_P) / KW_GAMMA_BAR_P < 1e-9);
 }
+
+/* kw_checked_whole(): the one checked conversion (issue 18). */
+Test(base, checked_whole_refuses_before_any_cast)
+{
+    long long v = -7;
+    cr_assert_eq(kw_checked_whole(42.0, 0, 100, &v), KW_OK);
+    cr_assert_eq(v, 42);
+    cr_assert_eq(kw_checked_whole(-3.0, -5, 5, &v), KW_OK);
+    cr_assert_eq(v, -3);
+    v = 9;
+    cr_assert_eq(kw_checked_whole(2.5, 0, 100, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(1e300, 0, 1LL << 40, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(-1e300, -(1LL << 40), 0, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(NAN, 0, 100, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(INFINITY, 0, 100, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(9223372036854775807.0, 0, 1LL << 52, &v), KW_ERANGE);
+    cr_assert_eq(kw_checked_whole(101.0, 0, 100, &v), KW_ERANGE);
+    cr_assert_eq(v, 9); /* untouched on refusal */
+}
