@@ -133,7 +133,7 @@ int kw_figure_diff_title(char *buf, size_t n, double multiplier)
 {
     if (multiplier == 1)
         return snprintf(buf, n, "|test| - |ref|, on the reference's grey scale");
-    return snprintf(buf, n, "|test| - |ref| x %g (grey scale 1/%g of the reference's)",
+    return snprintf(buf, n, "|test| - |ref| x %g (window 1/%g of the reference's)",
                     multiplier, multiplier);
 }
 
@@ -244,7 +244,8 @@ static kw_status plan_layout(cairo_t *cr, layout *L, const kw_png_values *pv,
         L->by1 = L->by0 + (int)bar_label_w + 8;
     L->W = L->bx + BAR_W + TICK + 4 + (int)ceil(L->tick_w) + 10 + 16 + MARGIN;
     L->H = (L->by1 > L->py + L->ph ? L->by1 : L->py + L->ph) + MARGIN;
-    if (title_h) {
+    if (title_h) { /* measured in the face it is drawn in */
+        cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_BOLD);
         cairo_set_font_size(cr, 14);
         int tw = (int)ceil(text_w(cr, fo->title)) + 2 * MARGIN;
         if (tw > L->W)

@@ -60,7 +60,7 @@ void kw_figure_tick_text(char *buf, size_t n, double v, double step);
 double kw_figure_diff_multiplier(double ref_hi, double diff_hi);
 
 /*! kw_figure_diff_title(): the title of a difference picture:
- * "|test| - |ref| x M (grey scale 1/M of the reference's)", or for M = 1
+ * "|test| - |ref| x M (window 1/M of the reference's)", or for M = 1
  * "|test| - |ref|, on the reference's grey scale". Returns snprintf's count. */
 int kw_figure_diff_title(char *buf, size_t n, double multiplier);
 

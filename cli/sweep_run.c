@@ -24,6 +24,7 @@
 #include <omp.h>
 
 #include "cli.h"
+#include "figure.h"
 #include "jsonio.h"
 #include "kw_metrics.h"
 #include "npy.h"
@@ -348,7 +349,12 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
                     snprintf(pic, sizeof pic, "%s/pictures/%s.png", c->out, R->id);
                     kw_png_opts po;
                     kw_png_opts_default(&po);
-                    if (kw_png_write_array(pic, &img, &po))
+                    kw_figure_opts fo; /* titled by the run, with its grey bar */
+                    kw_figure_opts_default(&fo);
+                    fo.title = R->id;
+                    fo.units = "image units";
+                    fo.tile_label = img.ndim >= 3 ? "slice" : NULL;
+                    if (kw_figure_write(pic, &img, &po, &fo))
                         snprintf(rwhy, sizeof rwhy, "picture: %s", kw_last_error());
                 }
                 kw_array_free(&img);
