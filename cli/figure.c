@@ -27,7 +27,7 @@ enum {
     MAX_TICKS = 32
 };
 
-#define MAX_SIDE 16384 /* cairo's image surfaces stop at 32767; stay well inside */
+#define MAX_SIDE 8192 /* per side: a figure surface stays within 256 MiB */
 
 void kw_figure_opts_default(kw_figure_opts *f)
 {

@@ -291,6 +291,24 @@ void kw_png_values_free(kw_png_values *pv)
     }
 }
 
+/* Tile geometry: slices of (h, w), ns of them. */
+static kw_status tile_shape(const kw_array *a, size_t *w, size_t *h, size_t *ns)
+{
+    KW_FAIL_IF(!a || a->ndim < 0 || a->ndim > KW_MAX_DIMS, KW_EINVAL,
+               "picture: %d dimensions", a ? a->ndim : 0);
+    *w = a->ndim >= 1 ? a->dims[a->ndim - 1] : 1;
+    *h = a->ndim >= 2 ? a->dims[a->ndim - 2] : 1;
+    *ns = 1;
+    for (int i = 0; i + 2 < a->ndim; i++) {
+        KW_FAIL_IF(a->dims[i] && *ns > SIZE_MAX / a->dims[i], KW_ENOMEM,
+                   "shape: too many slices");
+        *ns *= a->dims[i];
+    }
+    KW_FAIL_IF(*w == 0 || *h == 0 || *ns == 0, KW_EINVAL,
+               "shape: the array is empty, nothing to draw");
+    return KW_OK;
+}
+
 kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_values *pv)
 {
     kw_png_opts def;
@@ -312,21 +330,14 @@ kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_val
                    "window: %g:%g is not a window (HI must be above LO, both finite)",
                    (double)o->lo, (double)o->hi);
 
-    /* Tile geometry: slices of (h, w). */
-    size_t w = a->ndim >= 1 ? a->dims[a->ndim - 1] : 1;
-    size_t h = a->ndim >= 2 ? a->dims[a->ndim - 2] : 1;
-    size_t ns = 1;
-    for (int i = 0; i + 2 < a->ndim; i++) {
-        KW_FAIL_IF(a->dims[i] && ns > SIZE_MAX / a->dims[i], KW_ENOMEM,
-                   "shape: too many slices");
-        ns *= a->dims[i];
-    }
-    KW_FAIL_IF(w == 0 || h == 0 || ns == 0, KW_EINVAL,
-               "shape: the array is empty, nothing to draw");
+    size_t w, h, ns;
+    kw_status st = tile_shape(a, &w, &h, &ns);
+    if (st)
+        return st;
     size_t n = ns * w * h;
     float *v = malloc(n * sizeof *v);
     KW_FAIL_IF(!v, KW_ENOMEM, "picture: out of memory for %zu values", n);
-    kw_status st = part_values(a, o->part, v, n);
+    st = part_values(a, o->part, v, n);
     if (st) {
         free(v);
         return st;
@@ -382,19 +393,20 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
         kw_png_opts_default(&def);
         o = &def;
     }
-    KW_FAIL_IF(!path, KW_EINVAL, "picture: no data");
-    kw_png_values pv;
-    kw_status st = kw_png_values_make(a, o, &pv);
+    KW_FAIL_IF(!path || !a || (!a->data && kw_array_count(a)), KW_EINVAL, "picture: no data");
+    KW_FAIL_IF(o->depth != 8 && o->depth != 16, KW_EINVAL,
+               "depth: %d bits is not supported (8 or 16)", o->depth);
+    size_t w, h, ns, cols, rows;
+    kw_status st = tile_shape(a, &w, &h, &ns);
     if (st)
         return st;
-    size_t w = pv.w, h = pv.h, ns = pv.ns, cols, rows;
     kw_png_grid(ns, &cols, &rows);
-    if (w > KW_PNG_MAX_SIDE / cols || h > KW_PNG_MAX_SIDE / rows) {
-        kw_png_values_free(&pv);
-        return kw_set_error(KW_EINVAL, "shape: a picture of %zu x %zu tiles of %zu x %zu "
-                            "pixels is larger than PNG writers accept (%u per side)", cols,
-                            rows, w, h, KW_PNG_MAX_SIDE);
-    }
+    KW_FAIL_IF(w > KW_PNG_MAX_SIDE / cols || h > KW_PNG_MAX_SIDE / rows, KW_EINVAL,
+               "shape: a picture of %zu x %zu tiles of %zu x %zu pixels is larger "
+               "than PNG writers accept (%u per side)", cols, rows, w, h, KW_PNG_MAX_SIDE);
+    kw_png_values pv;
+    if ((st = kw_png_values_make(a, o, &pv)))
+        return st;
     size_t W = cols * w, H = rows * h;
     size_t bps = (size_t)o->depth / 8;
     unsigned char *pix = calloc(W * H, bps);
