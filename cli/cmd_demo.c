@@ -126,12 +126,13 @@ int kw_cmd_demo(int argc, char **argv)
          *f_diff = join(out, "difference.png"), *f_truth_png = join(out, "truth.png"),
          *f_ks_png = join(out, "kspace.png"), *f_img_png = join(out, "recon.png"),
          *f_report = join(out, "report.json"), *f_txt = join(out, "report.txt"),
-         *f_sens = join(out, "coil_maps.npy");
+         *f_sens = join(out, "coil_maps.npy"), *f_sens_png = join(out, "coil_maps.png");
     char *args[MAXARGS];
     int n;
     rc = 0;
     if (!f_plan || !f_ks || !f_truth || !f_img || !f_recon_json || !f_score ||
-        !f_diff || !f_truth_png || !f_ks_png || !f_img_png || !f_report || !f_txt || !f_sens) {
+        !f_diff || !f_truth_png || !f_ks_png || !f_img_png || !f_report || !f_txt || !f_sens ||
+        !f_sens_png) {
         rc = kw_cli_status(KW_ENOMEM, "demo");
         goto done;
     }
@@ -163,13 +164,22 @@ int kw_cmd_demo(int argc, char **argv)
                   "--diff", f_diff, NULL);
     if ((rc = run_step(out, &s_score, n, args)))
         goto done;
-    n = make_argv(args, "render", "--in", f_truth, "--out", f_truth_png, NULL);
+    n = make_argv(args, "render", "--in", f_truth, "--out", f_truth_png, "--title",
+                  "truth (the object as simulated, no noise)", "--units", "image units", NULL);
     if ((rc = run_step(out, &s_render, n, args)))
         goto done;
-    n = make_argv(args, "render", "--in", f_ks, "--out", f_ks_png, "--part", "logmag", NULL);
+    n = make_argv(args, "render", "--in", f_ks, "--out", f_ks_png, "--part", "logmag",
+                  "--title", "k-space of each receive coil", "--tile-label", "coil", NULL);
     if ((rc = run_step(out, &s_render, n, args)))
         goto done;
-    n = make_argv(args, "render", "--in", f_img, "--out", f_img_png, NULL);
+    n = make_argv(args, "render", "--in", f_img, "--out", f_img_png, "--title",
+                  "reconstruction (FFT, optimal coil combination)", "--units", "image units",
+                  NULL);
+    if ((rc = run_step(out, &s_render, n, args)))
+        goto done;
+    n = make_argv(args, "render", "--in", f_sens, "--out", f_sens_png, "--title",
+                  "receive coil sensitivities", "--bar", "|sensitivity|", "--units",
+                  "relative", "--tile-label", "coil", NULL);
     if ((rc = run_step(out, &s_render, n, args)))
         goto done;
 
@@ -245,6 +255,6 @@ int kw_cmd_demo(int argc, char **argv)
 done:
     free(f_plan); free(f_ks); free(f_truth); free(f_img); free(f_recon_json);
     free(f_score); free(f_diff); free(f_truth_png); free(f_ks_png); free(f_img_png);
-    free(f_report); free(f_txt); free(f_sens);
+    free(f_report); free(f_txt); free(f_sens); free(f_sens_png);
     return rc;
 }

@@ -19,6 +19,7 @@
 #include "kw_metrics.h"
 #include "nifti.h"
 #include "npy.h"
+#include "figure.h"
 #include "png.h"
 #include "recon_cli.h"
 #include "recon_multislice.h"
@@ -147,6 +148,34 @@ static kw_status write_h5(const recon_ctx *c, int spatial)
     st = kw_h5_write(file, dset, &c->image, kw_recon_h5_attrs, &m);
     free(file);
     return st;
+}
+
+/* The g-factor map: a .png is a figure whose grey bar runs from 1 (no noise
+ * amplification) to the map's maximum (gfactor_max of the report); values
+ * below 1, and the 0 outside the object, are black. Other names: as images. */
+static kw_status write_gfactor(const char *path, const kw_array *g, int spatial,
+                               const cJSON *sidecar)
+{
+    if (!ends_with(path, ".png"))
+        return write_image(path, g, spatial, sidecar);
+    size_t n = kw_array_count(g);
+    const float *v = g->data;
+    float mx = 1;
+    for (size_t i = 0; i < n; i++)
+        if (isfinite(v[i]) && v[i] > mx)
+            mx = v[i];
+    kw_png_opts po;
+    kw_png_opts_default(&po);
+    po.part = KW_PART_REAL;
+    po.auto_window = 0;
+    po.lo = 1;
+    po.hi = mx > 1.001f ? mx : 1.001f;
+    kw_figure_opts fo;
+    kw_figure_opts_default(&fo);
+    fo.title = "g-factor (black: 1 or less, or no signal)";
+    fo.quantity = "g-factor";
+    fo.tile_label = g->ndim >= 3 ? "slice" : NULL;
+    return kw_figure_write(path, g, &po, &fo);
 }
 
 /* The option table and the checks that need no file. -1: go on. */
@@ -594,7 +623,7 @@ static int report(recon_ctx *c)
     } else if (c->o.out && (st = write_image(c->o.out, &c->image, spatial, c->sidecar))) {
         return kw_cli_status(st, "out");
     }
-    if (c->o.gfactor && (st = write_image(c->o.gfactor, &c->gfactor, spatial, c->sidecar)))
+    if (c->o.gfactor && (st = write_gfactor(c->o.gfactor, &c->gfactor, spatial, c->sidecar)))
         return kw_cli_status(st, "gfactor");
     if (c->o.out)
         cJSON_AddStringToObject(j, "output", c->o.out);

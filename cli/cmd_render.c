@@ -2,11 +2,17 @@
  *
  *   kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]
  *                 [--depth 8|16] [--window LO:HI] [--montage]
+ *                 [--bar BAR] [--units UNITS] [--title TITLE] [--tile-label TILE_LABEL]
  *
  * "-" reads standard input / writes standard output. Arrays of 3 or more
  * dimensions always come out as a montage of their 2-D slices (png.h);
  * --montage says so explicitly and refuses inputs with fewer than 3 dims, so
- * a script that expects a stack notices when it gets a single picture. */
+ * a script that expects a stack notices when it gets a single picture.
+ *
+ * Without --bar, --units, --title and --tile-label the output is the bare
+ * picture (one pixel per value, grey PNG of the array's size: for pipelines);
+ * any of them makes it a figure (figure.h: grey bar with values, quantity
+ * and units, title, montage tiles with gaps and labels; 8-bit RGB). */
 #include <errno.h>
 #include <math.h>
 #include <stdlib.h>
@@ -14,17 +20,24 @@
 
 #include "arrayio.h"
 #include "cli.h"
+#include "figure.h"
 #include "npy.h"
 #include "png.h"
 
 static const char usage_text[] =
     "usage: kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]\n"
-    "                     [--depth 8|16] [--window LO:HI] [--montage]\n\n"
+    "                     [--depth 8|16] [--window LO:HI] [--montage]\n"
+    "                     [--bar BAR] [--units UNITS] [--title TITLE] [--tile-label TILE_LABEL]\n\n"
     "Draws any .npy array as a grey-scale PNG. 2-D arrays are one picture (row 0\n"
     "at the top); 3+-D arrays are a montage of their 2-D slices (last two axes)\n"
     "on a near-square grid. The automatic window runs from 0 (or the minimum if\n"
     "a value is negative) to the 99.5th percentile; phase uses -pi..pi.\n"
-    "\"-\" means standard input / standard output.";
+    "\"-\" means standard input / standard output.\n\n"
+    "Without --bar, --units, --title or --tile-label the PNG is the bare picture\n"
+    "(one pixel per value, grey). Any of them draws a figure instead: a grey bar\n"
+    "beside the picture with its values, the quantity and the units, a title,\n"
+    "and a montage with gaps between tiles (labelled TILE_LABEL 0, 1, ...) on a\n"
+    "grid without empty tiles where one exists (8-bit RGB).";
 
 static int parse_part(const char *s, kw_part *p)
 {
@@ -69,9 +82,11 @@ static int parse_window(const char *s, float *lo, float *hi)
 int kw_cmd_render(int argc, char **argv)
 {
     const char *in = NULL, *out = NULL, *part = NULL, *window = NULL;
+    kw_figure_opts fo;
+    kw_figure_opts_default(&fo);
     long depth = 8;
     int montage = 0;
-    int seen[5] = {0};
+    int seen[9] = {0};
     const kw_opt table[] = {
         {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin) or FILE.h5:/dataset"},
         {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout)"},
@@ -82,6 +97,14 @@ int kw_cmd_render(int argc, char **argv)
          "LO:HI grey-level window (default: 0 .. 99.5th percentile)"},
         {"montage", KW_OPT_FLAG, &montage, KW_UNIT_NONE, NULL,
          "the input is a stack (3+ dims): tile its slices (the default for stacks)"},
+        {"bar", KW_OPT_STRING, &fo.quantity, KW_UNIT_NONE, &seen[5],
+         "figure with a grey bar for the quantity BAR (default: the part's name)"},
+        {"units", KW_OPT_STRING, &fo.units, KW_UNIT_NONE, &seen[6],
+         "figure; units after the bar's quantity, e.g. Hz (default none)"},
+        {"title", KW_OPT_STRING, &fo.title, KW_UNIT_NONE, &seen[7],
+         "figure; title above the picture (default none)"},
+        {"tile-label", KW_OPT_STRING, &fo.tile_label, KW_UNIT_NONE, &seen[8],
+         "figure; montage tiles labelled TILE_LABEL 0, 1, ... e.g. coil (default none)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
     int rc = kw_opts_parse(argc, argv, table, usage_text, NULL, 0, NULL);
@@ -99,6 +122,10 @@ int kw_cmd_render(int argc, char **argv)
     if (depth != 8 && depth != 16)
         return kw_cli_fail("depth", "%ld bits is not supported (8 or 16)", depth);
     po.depth = (int)depth;
+    int figure = seen[5] || seen[6] || seen[7] || seen[8];
+    if (figure && depth != 8)
+        return kw_cli_fail("depth", "a figure (--bar, --units, --title, --tile-label) is 8-bit; "
+                           "leave those out for a 16-bit bare picture");
     if (window) {
         rc = parse_window(window, &po.lo, &po.hi);
         if (rc >= 0)
@@ -137,7 +164,7 @@ int kw_cmd_render(int argc, char **argv)
         kw_array_free(&a);
         return kw_cli_status(st, "in");
     }
-    st = kw_png_write_array(out, &a, &po);
+    st = figure ? kw_figure_write(out, &a, &po, &fo) : kw_png_write_array(out, &a, &po);
     kw_array_free(&a);
     if (st)
         return kw_cli_status(st, "out");

@@ -2,10 +2,12 @@
  * NRMSE, PSNR and SSIM of |B| against |A| (definitions in kw_metrics.h). */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include "arrayio.h"
 #include "cli.h"
+#include "figure.h"
 #include "jsonio.h"
 #include "kw_metrics.h"
 #include "npy.h"
@@ -19,6 +21,49 @@ static const char USAGE[] =
     "  psnr_db = 20 log10(max|A| / RMSE)\n"
     "  ssim    = mean SSIM (Wang et al. 2004; Gaussian window sigma 1.5,\n"
     "            K1 = 0.01, K2 = 0.03, data range max|A| - min|A|)";
+
+/* The difference picture: |test| - |ref| (d, n values) on a grey scale
+ * symmetric about 0 (mid-grey), +-W with W = the reference's own window
+ * (the 99.5th percentile of |ref|, as `render` draws it) divided by the
+ * multiplier of kw_figure_diff_multiplier(), which brings the difference's
+ * 99.5th percentile of |d| inside the window; the title states it. */
+static kw_status write_diff(const char *path, const kw_array *ref, const kw_array *d)
+{
+    size_t n = kw_array_count(d);
+    float *mag = malloc(n * sizeof *mag);
+    KW_FAIL_IF(!mag, KW_ENOMEM, "out of memory for %zu values", n);
+    const float *dv = d->data;
+    for (size_t i = 0; i < n; i++)
+        mag[i] = ref->dtype == KW_C64 ? cabsf(((const float complex *)ref->data)[i])
+                                      : fabsf(((const float *)ref->data)[i]);
+    float lo, ref_hi, diff_hi;
+    kw_status st = kw_png_window(mag, n, &lo, &ref_hi);
+    if (!st) {
+        for (size_t i = 0; i < n; i++)
+            mag[i] = fabsf(dv[i]);
+        st = kw_png_window(mag, n, &lo, &diff_hi);
+    }
+    free(mag);
+    if (st)
+        return st;
+    double mult = kw_figure_diff_multiplier(ref_hi, diff_hi);
+    double w = ref_hi > 0 ? ref_hi / mult : (diff_hi > 0 ? diff_hi : 1);
+    kw_png_opts po;
+    kw_png_opts_default(&po);
+    po.part = KW_PART_REAL;
+    po.auto_window = 0;
+    po.lo = (float)-w;
+    po.hi = (float)w;
+    char title[160];
+    kw_figure_diff_title(title, sizeof title, mult);
+    kw_figure_opts fo;
+    kw_figure_opts_default(&fo);
+    fo.title = title;
+    fo.quantity = "|test| - |ref|";
+    fo.units = "image units";
+    fo.tile_label = d->ndim >= 3 ? "slice" : NULL;
+    return kw_figure_write(path, d, &po, &fo);
+}
 
 static int load(const char *path, const char *field, kw_array *a)
 {
@@ -81,7 +126,7 @@ int kw_cmd_score(int argc, char **argv)
         {"ref", KW_OPT_STRING, &refp, 0, NULL, "reference image .npy (or FILE.h5:/dataset)"},
         {"test", KW_OPT_STRING, &testp, 0, NULL, "image to score .npy (or FILE.h5:/dataset)"},
         {"json", KW_OPT_STRING, &json, 0, NULL, "JSON report (keys nrmse, psnr_db, ssim; - for stdout)"},
-        {"diff", KW_OPT_STRING, &diff, 0, NULL, "picture of |test| - |ref| (.png)"},
+        {"diff", KW_OPT_STRING, &diff, 0, NULL, "picture of |test| - |ref| (.png) with its grey bar and multiplier"},
         {"fit-scale", KW_OPT_FLAG, &fit, 0, NULL,
          "score test / s, s the least-squares intensity ratio (default: as given)"},
         {NULL, 0, NULL, 0, NULL, NULL},
@@ -127,9 +172,7 @@ int kw_cmd_score(int argc, char **argv)
             float y = b.dtype == KW_C64 ? cabsf(((float complex *)b.data)[i]) : fabsf(((float *)b.data)[i]);
             o[i] = y - x;
         }
-        kw_png_opts po;
-        kw_png_opts_default(&po);
-        if ((st = kw_png_write_array(diff, &d, &po))) {
+        if ((st = write_diff(diff, &a, &d))) {
             code = kw_cli_status(st, "diff");
             goto done;
         }

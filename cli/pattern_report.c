@@ -11,6 +11,7 @@
 
 #include "analysis_json.h"
 #include "cli.h"
+#include "figure.h"
 #include "pattern_cli.h"
 #include "png.h"
 
@@ -100,13 +101,34 @@ kw_status kw_pattern_cli_gray_png(const char *path, const float *v, size_t h, si
     return kw_png_write_array(path, &arr, &o);
 }
 
+/* The PSF picture: |PSF| in dB over its peak, 0 (white) to PSF_DB_FLOOR
+ * (black, and everything below), with its dB bar. */
 int kw_pattern_cli_psf_png(const char *path, const kw_pattern_report *p)
 {
     const kw_pattern_analysis *a = &p->r;
     float *v = psf_db(a);
     if (!v)
         return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "psf");
-    kw_status st = kw_pattern_cli_gray_png(path, v, a->psfdims[0], a->psfdims[1]);
+    size_t n = a->psfdims[0] * a->psfdims[1];
+    for (size_t i = 0; i < n; i++) /* back from 0..1 to dB */
+        v[i] = (float)(PSF_DB_FLOOR + (double)v[i] * -PSF_DB_FLOOR);
+    kw_array arr = {.dtype = KW_F32, .ndim = 2, .dims = {a->psfdims[0], a->psfdims[1]},
+                    .data = v};
+    kw_png_opts o;
+    kw_png_opts_default(&o);
+    o.auto_window = 0;
+    o.lo = (float)PSF_DB_FLOOR;
+    o.hi = 0;
+    o.part = KW_PART_REAL;
+    char title[320];
+    snprintf(title, sizeof title, "|PSF| of %s (%.0f dB and below: black)", p->name,
+             PSF_DB_FLOOR);
+    kw_figure_opts fo;
+    kw_figure_opts_default(&fo);
+    fo.title = title;
+    fo.quantity = "|PSF|";
+    fo.units = "dB re peak";
+    kw_status st = kw_figure_write(path, &arr, &o, &fo);
     kw_free(v);
     return st ? kw_cli_status(st, "psf") : -1;
 }

@@ -272,14 +272,53 @@ kw_status kw_png_write_rgb8(const char *path, const uint8_t *rgb, size_t w, size
     return write_png(path, rgb, w, h, 8, PNG_COLOR_TYPE_RGB);
 }
 
-kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_opts *o)
+void kw_png_grid(size_t ns, size_t *cols, size_t *rows)
+{
+    size_t c = (size_t)ceil(sqrt((double)ns));
+    while (c * c < ns) /* guard against sqrt rounding */
+        c++;
+    while (c > 1 && (c - 1) * (c - 1) >= ns)
+        c--;
+    *cols = c;
+    *rows = (ns + c - 1) / c;
+}
+
+void kw_png_values_free(kw_png_values *pv)
+{
+    if (pv) {
+        free(pv->v);
+        pv->v = NULL;
+    }
+}
+
+/* Tile geometry: slices of (h, w), ns of them. */
+static kw_status tile_shape(const kw_array *a, size_t *w, size_t *h, size_t *ns)
+{
+    KW_FAIL_IF(!a || a->ndim < 0 || a->ndim > KW_MAX_DIMS, KW_EINVAL,
+               "picture: %d dimensions", a ? a->ndim : 0);
+    *w = a->ndim >= 1 ? a->dims[a->ndim - 1] : 1;
+    *h = a->ndim >= 2 ? a->dims[a->ndim - 2] : 1;
+    *ns = 1;
+    for (int i = 0; i + 2 < a->ndim; i++) {
+        KW_FAIL_IF(a->dims[i] && *ns > SIZE_MAX / a->dims[i], KW_ENOMEM,
+                   "shape: too many slices");
+        *ns *= a->dims[i];
+    }
+    KW_FAIL_IF(*w == 0 || *h == 0 || *ns == 0, KW_EINVAL,
+               "shape: the array is empty, nothing to draw");
+    return KW_OK;
+}
+
+kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_values *pv)
 {
     kw_png_opts def;
     if (!o) {
         kw_png_opts_default(&def);
         o = &def;
     }
-    KW_FAIL_IF(!path || !a || (!a->data && kw_array_count(a)), KW_EINVAL, "picture: no data");
+    KW_FAIL_IF(!pv, KW_EINVAL, "picture: no output");
+    memset(pv, 0, sizeof *pv);
+    KW_FAIL_IF(!a || (!a->data && kw_array_count(a)), KW_EINVAL, "picture: no data");
     KW_FAIL_IF(o->depth != 8 && o->depth != 16, KW_EINVAL,
                "depth: %d bits is not supported (8 or 16)", o->depth);
     KW_FAIL_IF(o->part < KW_PART_MAG || o->part > KW_PART_LOGMAG, KW_EINVAL,
@@ -291,43 +330,16 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
                    "window: %g:%g is not a window (HI must be above LO, both finite)",
                    (double)o->lo, (double)o->hi);
 
-    /* Tile geometry: slices of (h, w) on a near-square grid. */
-    size_t w = a->ndim >= 1 ? a->dims[a->ndim - 1] : 1;
-    size_t h = a->ndim >= 2 ? a->dims[a->ndim - 2] : 1;
-    size_t ns = 1;
-    for (int i = 0; i + 2 < a->ndim; i++) {
-        KW_FAIL_IF(a->dims[i] && ns > SIZE_MAX / a->dims[i], KW_ENOMEM,
-                   "shape: too many slices");
-        ns *= a->dims[i];
-    }
-    KW_FAIL_IF(w == 0 || h == 0 || ns == 0, KW_EINVAL,
-               "shape: the array is empty, nothing to draw");
-    size_t cols = (size_t)ceil(sqrt((double)ns));
-    while (cols * cols < ns) /* guard against sqrt rounding */
-        cols++;
-    while (cols > 1 && (cols - 1) * (cols - 1) >= ns)
-        cols--;
-    size_t rows = (ns + cols - 1) / cols;
-    KW_FAIL_IF(w > KW_PNG_MAX_SIDE / cols || h > KW_PNG_MAX_SIDE / rows, KW_EINVAL,
-               "shape: a picture of %zu x %zu tiles of %zu x %zu pixels is larger "
-               "than PNG writers accept (%u per side)", cols, rows, w, h,
-               KW_PNG_MAX_SIDE);
-    size_t W = cols * w, H = rows * h;
+    size_t w, h, ns;
+    kw_status st = tile_shape(a, &w, &h, &ns);
+    if (st)
+        return st;
     size_t n = ns * w * h;
-    size_t bps = (size_t)o->depth / 8;
-
     float *v = malloc(n * sizeof *v);
-    unsigned char *pix = calloc(W * H, bps);
-    if (!v || !pix) {
-        free(v);
-        free(pix);
-        return kw_set_error(KW_ENOMEM, "%s: out of memory for a %zu x %zu picture",
-                            path, W, H);
-    }
-    kw_status st = part_values(a, o->part, v, n);
+    KW_FAIL_IF(!v, KW_ENOMEM, "picture: out of memory for %zu values", n);
+    st = part_values(a, o->part, v, n);
     if (st) {
         free(v);
-        free(pix);
         return st;
     }
 
@@ -349,29 +361,68 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
         st = kw_png_window(v, n, &lo, &hi);
         if (st) {
             free(v);
-            free(pix);
             return st;
         }
     }
-    double maxval = o->depth == 16 ? 65535.0 : 255.0;
-    double span = (double)hi - (double)lo;
+    pv->w = w;
+    pv->h = h;
+    pv->ns = ns;
+    pv->lo = lo;
+    pv->hi = hi;
+    pv->v = v;
+    return KW_OK;
+}
 
+double kw_png_level(const kw_png_values *pv, double val)
+{
+    double span = (double)pv->hi - (double)pv->lo;
+    double t;
+    if (isnan(val))
+        t = 0;
+    else if (!(span > 0)) /* a flat picture: all at or above hi */
+        t = val > pv->lo ? 1.0 : 0.0;
+    else
+        t = (val - pv->lo) / span;
+    return t < 0 ? 0 : (t > 1 ? 1 : t);
+}
+
+kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_opts *o)
+{
+    kw_png_opts def;
+    if (!o) {
+        kw_png_opts_default(&def);
+        o = &def;
+    }
+    KW_FAIL_IF(!path || !a || (!a->data && kw_array_count(a)), KW_EINVAL, "picture: no data");
+    KW_FAIL_IF(o->depth != 8 && o->depth != 16, KW_EINVAL,
+               "depth: %d bits is not supported (8 or 16)", o->depth);
+    size_t w, h, ns, cols, rows;
+    kw_status st = tile_shape(a, &w, &h, &ns);
+    if (st)
+        return st;
+    kw_png_grid(ns, &cols, &rows);
+    KW_FAIL_IF(w > KW_PNG_MAX_SIDE / cols || h > KW_PNG_MAX_SIDE / rows, KW_EINVAL,
+               "shape: a picture of %zu x %zu tiles of %zu x %zu pixels is larger "
+               "than PNG writers accept (%u per side)", cols, rows, w, h, KW_PNG_MAX_SIDE);
+    kw_png_values pv;
+    if ((st = kw_png_values_make(a, o, &pv)))
+        return st;
+    size_t W = cols * w, H = rows * h;
+    size_t bps = (size_t)o->depth / 8;
+    unsigned char *pix = calloc(W * H, bps);
+    if (!pix) {
+        kw_png_values_free(&pv);
+        return kw_set_error(KW_ENOMEM, "%s: out of memory for a %zu x %zu picture",
+                            path, W, H);
+    }
+    double maxval = o->depth == 16 ? 65535.0 : 255.0;
     for (size_t s = 0; s < ns; s++) {
         size_t x0 = (s % cols) * w, y0 = (s / cols) * h;
-        const float *src = v + s * w * h;
+        const float *src = pv.v + s * w * h;
         for (size_t y = 0; y < h; y++) {
             unsigned char *row = pix + ((y0 + y) * W + x0) * bps;
             for (size_t x = 0; x < w; x++) {
-                double val = src[y * w + x];
-                double t;
-                if (isnan(val))
-                    t = 0;
-                else if (!(span > 0)) /* a flat picture: all at or above hi */
-                    t = val > lo ? 1.0 : 0.0;
-                else
-                    t = (val - lo) / span;
-                t = t < 0 ? 0 : (t > 1 ? 1 : t);
-                unsigned q = (unsigned)lround(t * maxval);
+                unsigned q = (unsigned)lround(kw_png_level(&pv, src[y * w + x]) * maxval);
                 if (bps == 2) {
                     row[2 * x] = (unsigned char)(q >> 8); /* PNG is big-endian */
                     row[2 * x + 1] = (unsigned char)(q & 0xff);
@@ -381,7 +432,7 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
             }
         }
     }
-    free(v);
+    kw_png_values_free(&pv);
     st = write_png(path, pix, W, H, o->depth, PNG_COLOR_TYPE_GRAY);
     free(pix);
     return st;

@@ -35,6 +35,29 @@ kw_status kw_png_write_array(const char *path, const kw_array *a,
 kw_status kw_png_write_rgb8(const char *path, const uint8_t *rgb, size_t w,
                             size_t h);
 
+/* The values of a picture before they become pixels: kw_png_write_array()
+ * and the figures (figure.h) share them, so both show the same window. */
+typedef struct kw_png_values {
+    size_t w, h;   /* one tile: the last two axes */
+    size_t ns;     /* tiles (slices): the product of the other axes */
+    float lo, hi;  /* the window (given, or the automatic one) */
+    float *v;      /* ns * h * w values of the part shown (owned) */
+} kw_png_values;
+
+/*! kw_png_values_make(): the part asked for and its window; free the values
+ * with kw_png_values_free(). */
+kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_values *pv);
+
+/*! kw_png_values_free(): release pv->v (pv itself is the caller's). */
+void kw_png_values_free(kw_png_values *pv);
+
+/*! kw_png_level(): a value's grey level 0..1 through the window (NaN: 0). */
+double kw_png_level(const kw_png_values *pv, double val);
+
+/*! kw_png_grid(): the bare montage's grid of `ns` tiles: ceil(sqrt(ns))
+ * columns, as many rows as needed. */
+void kw_png_grid(size_t ns, size_t *cols, size_t *rows);
+
 /*! kw_png_window(): the automatic window of `n` values (0 .. 99.5th percentile
  * of the values; lo = minimum if any value is negative). */
 kw_status kw_png_window(const float *v, size_t n, float *lo, float *hi);

@@ -24,6 +24,7 @@
 #include <omp.h>
 
 #include "cli.h"
+#include "figure.h"
 #include "jsonio.h"
 #include "kw_metrics.h"
 #include "npy.h"
@@ -348,7 +349,15 @@ static void child_main(const kw_sweep_ctx *c, int gi, const char *dir)
                     snprintf(pic, sizeof pic, "%s/pictures/%s.png", c->out, R->id);
                     kw_png_opts po;
                     kw_png_opts_default(&po);
-                    if (kw_png_write_array(pic, &img, &po))
+                    char title[200]; /* the run in words, and its ID */
+                    snprintf(title, sizeof title, "%s, %s R %d, seed %ld (%s)", R->m.name,
+                             g->pat.kind, g->accel, g->seed, R->id);
+                    kw_figure_opts fo;
+                    kw_figure_opts_default(&fo);
+                    fo.title = title;
+                    fo.units = "image units";
+                    fo.tile_label = img.ndim >= 3 ? "slice" : NULL;
+                    if (kw_figure_write(pic, &img, &po, &fo))
                         snprintf(rwhy, sizeof rwhy, "picture: %s", kw_last_error());
                 }
                 kw_array_free(&img);
