@@ -175,10 +175,23 @@ static kw_status read_stream(FILE *f, intmax_t remaining, kw_array *out)
                                     file_bytes, left);
         }
     }
-    st = kw_array_alloc(out, dt, h.ndim, h.dims);
-    if (st)
-        return st;
-    size_t n = kw_array_count(out);
+    /* A file's length was checked above, so its array is allocated whole. A
+     * pipe's is not known: the array grows (doubling from 16 MiB) as the
+     * data arrives, so a header that promises more than is sent costs what
+     * was sent, not what was promised. */
+    kw_array tmp;
+    memset(&tmp, 0, sizeof tmp);
+    tmp.dtype = dt;
+    tmp.ndim = h.ndim;
+    memcpy(tmp.dims, h.dims, sizeof tmp.dims);
+    size_t n = kw_array_count(&tmp), es = kw_dtype_size(dt);
+    size_t grow0 = ((size_t)16 << 20) / es;
+    size_t cap = remaining >= 0 || n <= grow0 ? n : grow0;
+    if (n && !(out->data = kw_alloc(cap * es)))
+        return kw_set_error(KW_ENOMEM, "out of memory (%s)", fmt_bytes(cap * es, (char[32]){0}, 32));
+    out->dtype = dt;
+    out->ndim = h.ndim;
+    memcpy(out->dims, h.dims, sizeof out->dims);
     enum { CHUNK = 1 << 16 };
     unsigned char *buf = malloc(CHUNK * 16);
     if (!buf) {
@@ -187,7 +200,23 @@ static kw_status read_stream(FILE *f, intmax_t remaining, kw_array *out)
     }
     size_t done = 0;
     while (done < n) {
+        if (done == cap) {
+            size_t nc = cap > n / 2 ? n : 2 * cap;
+            void *nd = kw_alloc(nc * es);
+            if (!nd) {
+                free(buf);
+                kw_array_free(out);
+                return kw_set_error(KW_ENOMEM, "out of memory (%s)",
+                                    fmt_bytes(nc * es, (char[32]){0}, 32));
+            }
+            memcpy(nd, out->data, done * es);
+            kw_free(out->data);
+            out->data = nd;
+            cap = nc;
+        }
         size_t m = n - done < CHUNK ? n - done : CHUNK;
+        if (m > cap - done)
+            m = cap - done;
         size_t r = fread(buf, h.isize, m, f);
         if (r != m) {
             free(buf);
