@@ -1,8 +1,10 @@
 /* base.c: status strings, thread-local error reasons, aligned arrays. */
 #include "kw_base.h"
 
+#include <malloc.h>
 #include <math.h>
 #include <stdarg.h>
+#include <stdatomic.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -158,20 +160,57 @@ kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
     return KW_OK;
 }
 
+/* The process's allocation budget (kw_memory_set_limit): bytes held through
+ * kw_alloc, counted by the allocator's own size of each block so that
+ * kw_free subtracts exactly what kw_alloc added. */
+static atomic_size_t mem_used, mem_peak, mem_limit;
+static _Thread_local size_t mem_refused; /* bytes of the last refusal */
+
+void kw_memory_set_limit(size_t bytes) { atomic_store(&mem_limit, bytes); }
+size_t kw_memory_limit(void) { return atomic_load(&mem_limit); }
+size_t kw_memory_in_use(void) { return atomic_load(&mem_used); }
+size_t kw_memory_peak(void) { return atomic_load(&mem_peak); }
+
 void *kw_alloc(size_t n)
 {
+    mem_refused = 0;
     if (n == 0)
         return NULL;
     size_t padded = (n + 63) / 64 * 64;
     if (padded < n)
         return NULL;
+    size_t limit = atomic_load(&mem_limit);
+    if (limit && padded > limit - (atomic_load(&mem_used) < limit ? atomic_load(&mem_used) : limit)) {
+        mem_refused = padded;
+        return NULL;
+    }
     void *p = aligned_alloc(64, padded);
-    if (p)
-        memset(p, 0, padded);
+    if (!p)
+        return NULL;
+    size_t got = malloc_usable_size(p);
+    size_t now = atomic_fetch_add(&mem_used, got) + got;
+    if (limit && now > limit) { /* another thread took the room meanwhile */
+        atomic_fetch_sub(&mem_used, got);
+        free(p);
+        mem_refused = padded;
+        return NULL;
+    }
+    size_t pk = atomic_load(&mem_peak);
+    while (now > pk && !atomic_compare_exchange_weak(&mem_peak, &pk, now))
+        ;
+    memset(p, 0, padded);
     return p;
 }
 
-void kw_free(void *p) { free(p); }
+void kw_free(void *p)
+{
+    if (!p)
+        return;
+    atomic_fetch_sub(&mem_used, malloc_usable_size(p));
+    free(p);
+}
+
+int kw_alloc_refused_by_limit(void) { return mem_refused != 0; }
 
 kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims)
 {

@@ -216,6 +216,22 @@ KW_API void kw_array_free(kw_array *a);
 KW_API void *kw_alloc(size_t n);
 KW_API void kw_free(void *p);
 
+/*! The process's allocation budget. Every large buffer the library holds
+ * (arrays, images, k-space, grids, operator and solver work space) comes from
+ * kw_alloc(), which counts it; with a limit set, an allocation that would
+ * pass it returns NULL and the call fails with KW_ENOMEM, its reason naming
+ * the parameter "memory" and the sizes. Small bookkeeping and FFTW's own
+ * plans are not counted. kw_memory_set_limit(0) (the default) means no
+ * limit. Thread-safe. kw_memory_in_use() / kw_memory_peak(): bytes held now
+ * and at most (the allocator's block sizes). kw_alloc_refused_by_limit():
+ * nonzero when this thread's last kw_alloc() returned NULL because of the
+ * limit. */
+KW_API void kw_memory_set_limit(size_t bytes);
+KW_API size_t kw_memory_limit(void);
+KW_API size_t kw_memory_in_use(void);
+KW_API size_t kw_memory_peak(void);
+KW_API int kw_alloc_refused_by_limit(void);
+
 /*! kw_array_all_finite(): KW_OK if every value is finite, else KW_ENUMERIC
  * with the index of the first bad value in the reason. */
 KW_API kw_status kw_array_all_finite(const kw_array *a);
