@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "defaults.h"
 #include "jsonio.h"
 #include "kw_protocol.h"
 #include "kw_sequence.h"
@@ -291,22 +292,24 @@ int kw_cmd_plan(int argc, char **argv)
     const char *bw_dummy = NULL;
     kw_opt table[] = {
         {"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
-         "protocol file of key = value lines (options override it)"},
+         "protocol file of key = value lines (options override it; default: none, the defaults below)"},
         {"sequence", KW_OPT_STRING, &val[K_SEQUENCE], KW_UNIT_NONE, &seen[K_SEQUENCE],
-         "gre | se | epi | radial | spiral (default gre)"},
+         "gre | se | epi | radial | spiral: the pulse sequence timed (default gre; encode's --sequence "
+         "is its signal model, default pd)"},
         {"fov", KW_OPT_STRING, &val[K_FOV], KW_UNIT_NONE, &seen[K_FOV],
-         "field of view: 256mm, or x,y (256mm,192mm), or x,y,z (default 256mm)"},
+         "field of view: 256mm, or x,y (256mm,192mm), or x,y,z (default " KWD_FOV_TEXT ")"},
         {"matrix", KW_OPT_STRING, &val[K_MATRIX], KW_UNIT_NONE, &seen[K_MATRIX],
          "NX, NXxNY or NXxNYxNZ; x = readout (default 256)"},
         {"bandwidth", KW_OPT_STRING, &bw_dummy, KW_UNIT_NONE, NULL,
-         "receiver bandwidth across the FOV (32kHz) or per pixel (250Hz/pixel); default 250Hz/pixel"},
-        {"b0", KW_OPT_STRING, &val[K_B0], KW_UNIT_NONE, &seen[K_B0], "main field (default 3T)"},
+         "receiver bandwidth across the FOV (32kHz) or per pixel (250Hz/pixel); default "
+         KWD_BW_PER_PIXEL_TEXT},
+        {"b0", KW_OPT_STRING, &val[K_B0], KW_UNIT_NONE, &seen[K_B0], "main field (default " KWD_B0_TEXT ")"},
         {"gmax", KW_OPT_STRING, &val[K_GMAX], KW_UNIT_NONE, &seen[K_GMAX],
-         "gradient amplitude limit (default 40mT/m)"},
+         "gradient amplitude limit (default " KWD_GMAX_TEXT ")"},
         {"slew", KW_OPT_STRING, &val[K_SLEW], KW_UNIT_NONE, &seen[K_SLEW],
-         "slew-rate limit (default 150T/m/s)"},
+         "slew-rate limit (default " KWD_SLEW_TEXT ")"},
         {"raster", KW_OPT_STRING, &val[K_RASTER], KW_UNIT_NONE, &seen[K_RASTER],
-         "gradient raster time (default 10us)"},
+         "gradient raster time (default " KWD_RASTER_TEXT ")"},
         {"temperature", KW_OPT_STRING, &val[K_TEMPERATURE], KW_UNIT_NONE, &seen[K_TEMPERATURE],
          "sample temperature for the polarization (default 310K)"},
         {"te", KW_OPT_STRING, &val[K_TE], KW_UNIT_NONE, &seen[K_TE],
@@ -324,24 +327,24 @@ int kw_cmd_plan(int argc, char **argv)
         {"crusher", KW_OPT_STRING, &val[K_CRUSHER], KW_UNIT_NONE, &seen[K_CRUSHER],
          "SE crushers: cycles across the slice (default 2)"},
         {"t2star", KW_OPT_STRING, &val[K_T2STAR], KW_UNIT_NONE, &seen[K_T2STAR],
-         "T2* for the readout/T2* ratio"},
+         "T2* for the readout/T2* ratio (default: none, no ratio)"},
         {"shots", KW_OPT_STRING, &val[K_SHOTS], KW_UNIT_NONE, &seen[K_SHOTS],
-         "EPI shots (default 1)"},
+         "EPI shots (default " KWD_EPI_SHOTS_TEXT ")"},
         {"partial-fourier", KW_OPT_STRING, &val[K_PARTIAL_FOURIER], KW_UNIT_NONE,
          &seen[K_PARTIAL_FOURIER], "EPI phase-encode fraction, 0.5 < f <= 1 (default 1)"},
         {"interleaves", KW_OPT_STRING, &val[K_INTERLEAVES], KW_UNIT_NONE, &seen[K_INTERLEAVES],
          "spiral interleaves (default: fewest within --max-readout)"},
         {"max-readout", KW_OPT_STRING, &val[K_MAX_READOUT], KW_UNIT_NONE, &seen[K_MAX_READOUT],
-         "spiral: longest readout per interleaf (default 16ms)"},
+         "spiral: longest readout per interleaf (default " KWD_SPIRAL_MAX_READOUT_TEXT ")"},
         {"spokes", KW_OPT_STRING, &val[K_SPOKES], KW_UNIT_NONE, &seen[K_SPOKES],
          "radial spokes (default: Nyquist, pi/2 x N)"},
         {"averages", KW_OPT_STRING, &val[K_AVERAGES], KW_UNIT_NONE, &seen[K_AVERAGES],
          "signal averages (default 1)"},
         {"reference", KW_OPT_STRING, &reference, KW_UNIT_NONE, NULL,
-         "protocol file of a reference protocol for the relative SNR"},
-        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON"},
-        {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG"},
-        {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG"},
+         "protocol file of a reference protocol for the relative SNR (default: none)"},
+        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON (default: not written)"},
+        {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG (default: not written)"},
+        {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG (default: not written)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(ac, av, table,
                            "usage: kweave plan [--protocol FILE] [--sequence S] --fov F --matrix M "
