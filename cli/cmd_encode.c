@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "defaults.h"
 #include "encode_cli.h"
 #include "jsonio.h"
 #include "npy.h"
@@ -354,35 +355,41 @@ int kw_cmd_encode(int argc, char **argv)
 {
     enc_args a;
     memset(&a, 0, sizeof a);
-    a.b0 = 3.0;
-    a.coil_order = 4;
-    a.slice_points = 8;
+    kw_acquisition_options dflt; /* the library's defaults, as the package takes them */
+    kw_acquisition_options_init(&dflt);
+    a.b0 = dflt.b0_t;
+    a.slice_points = dflt.slice_points;
     const kw_opt table[] = {
         {"phantom", KW_OPT_STRING, &a.phantom, 0, &a.s_ph,
-         "shepp-logan | shepp-logan-modified | weave | weave3d"},
-        {"matrix", KW_OPT_STRING, &a.matrix, 0, &a.s_mx, "NX[xNY[xNZ]] samples (e.g. 256x256)"},
-        {"fov", KW_OPT_STRING, &a.fov, 0, &a.s_fov, "field of view L[,LY[,LZ]] (e.g. 256mm)"},
+         "shepp-logan | shepp-logan-modified | weave | weave3d (required)"},
+        {"matrix", KW_OPT_STRING, &a.matrix, 0, &a.s_mx, "NX[xNY[xNZ]] samples (e.g. 256x256; required, or from --protocol)"},
+        {"fov", KW_OPT_STRING, &a.fov, 0, &a.s_fov, "field of view L[,LY[,LZ]] (e.g. 256mm; required, or from --protocol)"},
         {"out", KW_OPT_STRING, &a.out, 0, &a.s_out,
-         "k-space .npy (complex64; - for stdout); sidecar .json beside it"},
+         "k-space .npy (complex64; - for stdout); sidecar .json beside it (required)"},
         {"sidecar", KW_OPT_STRING, &a.sidecar, 0, &a.s_sidecar,
          "sidecar .json (default: beside --out; needed with --out -)"},
         {"truth", KW_OPT_STRING, &a.truth, 0, &a.s_truth,
-         "the image at the echo, rasterised at the matrix (.npy float32)"},
+         "the image at the echo, rasterised at the matrix (.npy float32; default: not written)"},
         {"snr", KW_OPT_DOUBLE, &a.snr, 0, &a.s_snr,
          "mean object signal / noise standard deviation in the image (default: no noise)"},
         {"seed", KW_OPT_INT, &a.seed, 0, &a.s_seed, "noise seed (default 0)"},
         {"sequence", KW_OPT_STRING, &a.sequence, 0, &a.s_seq,
-         "pd (default) | gre (spoiled gradient echo) | se (spin echo) | ir (inversion recovery)"},
-        {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time (k-space centre), e.g. 10ms"},
-        {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time"},
-        {"ti", KW_OPT_UNIT, &a.ti, KW_UNIT_TIME, &a.s_ti, "inversion time (ir)"},
-        {"flip", KW_OPT_UNIT, &a.flip, KW_UNIT_ANGLE, &a.s_flip, "flip angle (gre), degrees"},
-        {"b0", KW_OPT_UNIT, &a.b0, KW_UNIT_FIELD, &a.s_b0, "field strength, 1.5T or 3T (default 3T)"},
+         "signal model: pd (default: proton density, needs no TE, TR or flip) | gre (spoiled "
+         "gradient echo) | se (spin echo) | ir (inversion recovery); plan's --sequence is the "
+         "pulse sequence timed (default gre), which --protocol passes on"},
+        {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time (k-space centre), e.g. 10ms (default: the shortest the readout allows; "
+         "with --protocol the planner's minimum)"},
+        {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time (required by gre, se, ir; default: none, with --protocol the planner's "
+         "minimum)"},
+        {"ti", KW_OPT_UNIT, &a.ti, KW_UNIT_TIME, &a.s_ti, "inversion time (required by ir; default: none)"},
+        {"flip", KW_OPT_UNIT, &a.flip, KW_UNIT_ANGLE, &a.s_flip, "flip angle (required by gre), degrees (default: none)"},
+        {"b0", KW_OPT_UNIT, &a.b0, KW_UNIT_FIELD, &a.s_b0, "field strength, 1.5T or 3T (default " KWD_B0_TEXT ")"},
         {"bandwidth", KW_OPT_STRING, &a.bandwidth, 0, &a.s_bw,
-         "receiver bandwidth, 32kHz (across the FOV) or 250Hz/pixel: times the readout"},
+         "receiver bandwidth, 32kHz (across the FOV) or 250Hz/pixel: times the readout (default: "
+         "none, every sample at TE; with --protocol the file's, else the planner's default)"},
         {"df", KW_OPT_UNIT, &a.df, KW_UNIT_FREQUENCY, &a.s_df,
-         "off-resonance added everywhere (e.g. 50Hz)"},
-        {"coils", KW_OPT_INT, &a.coils, 0, &a.s_coils, "ring of N circular loop coils"},
+         "off-resonance added everywhere (e.g. 50Hz; default 0)"},
+        {"coils", KW_OPT_INT, &a.coils, 0, &a.s_coils, "ring of N circular loop coils (default: none, one uniform coil)"},
         {"coil-radius", KW_OPT_UNIT, &a.coil_radius, KW_UNIT_LENGTH, &a.s_cr,
          "loop radius (default FOV/4)"},
         {"coil-distance", KW_OPT_UNIT, &a.coil_distance, KW_UNIT_LENGTH, &a.s_cd,
@@ -395,33 +402,35 @@ int kw_cmd_encode(int argc, char **argv)
          "1 (default) or 2 rings of --coils loops each (3-D: at z = -gap/2, +gap/2)"},
         {"coil-ring-gap", KW_OPT_UNIT, &a.coil_ring_gap, KW_UNIT_LENGTH, &a.s_crgap,
          "distance between the two rings' centres along z (default the z FOV / 2)"},
-        {"sens", KW_OPT_STRING, &a.sens, 0, &a.s_sens, "sensitivity maps (coils, ny, nx) .npy"},
+        {"sens", KW_OPT_STRING, &a.sens, 0, &a.s_sens, "sensitivity maps (coils, ny, nx) .npy (default: none)"},
         {"sens-out", KW_OPT_STRING, &a.sens_out, 0, &a.s_sout,
-         "write the sensitivities the data were made with (.npy complex64)"},
+         "write the sensitivities the data were made with (.npy complex64; default: not written)"},
         {"pattern", KW_OPT_STRING, &a.pattern, 0, &a.s_pat,
-         "Cartesian mask .npy (ny, nx) or (ny,): zero = not sampled"},
+         "Cartesian mask .npy (ny, nx) or (ny,): zero = not sampled (default: full grid)"},
         {"trajectory", KW_OPT_STRING, &a.trajectory, 0, &a.s_traj,
-         "non-Cartesian samples (samples, 2|3) in cycles/FOV"},
+         "non-Cartesian samples (samples, 2|3) in cycles/FOV (default: none, Cartesian)"},
         {"times", KW_OPT_STRING, &a.times, 0, &a.s_times,
-         "sample times after excitation (s): (samples,) for a trajectory; (nx,) or (ny, nx) Cartesian"},
+         "sample times after excitation (s): (samples,) for a trajectory; (nx,) or (ny, nx) Cartesian "
+         "(default: from --bandwidth, else every sample at TE)"},
         {"noise-corr", KW_OPT_DOUBLE, &a.noise_corr, 0, &a.s_ncorr,
-         "noise correlation coefficient between every pair of coils"},
+         "noise correlation coefficient between every pair of coils (default 0)"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
-         "noise covariance (coils, coils) .npy (shape; --snr sets the level)"},
+         "noise covariance (coils, coils) .npy (shape; --snr sets the level; default: none)"},
         {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
-         "off-resonance map (ny, nx) in Hz (2-D; multi-slice: (slices, ny, nx) or one for all; time-segmented on a 4x grid)"},
+         "off-resonance map (ny, nx) in Hz (2-D; multi-slice: (slices, ny, nx) or one for all; "
+         "time-segmented on a 4x grid; default: none)"},
         {"field-gradient", KW_OPT_STRING, &a.field_grad, 0, &a.s_fgrad,
          "linear field GX,GY[,GZ] along the array axes, zero at the FOV centre "
-         "(e.g. 20uT/m,0): exact"},
+         "(e.g. 20uT/m,0): exact (default: none)"},
         {"tissue", KW_OPT_STRING, &a.tissue, 0, &a.s_tissue,
          "FILE.json: tissue values {name: {pd, t1_s, t2_s, t2star_s}} instead of the table's "
-         "(at any B0); list: print the table"},
+         "(at any B0); list: print the table (default: none, the table's values)"},
         {"protocol", KW_OPT_STRING, &a.protocol, 0, &a.s_prot,
-         "protocol file of `kweave plan` (options given here override its keys)"},
+         "protocol file of `kweave plan` (options given here override its keys; default: none)"},
         {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
-         "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0"},
+         "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0 (default: none)"},
         {"slice-thickness", KW_OPT_UNIT, &a.slice_thk, KW_UNIT_LENGTH, &a.s_slt,
-         "slice thickness (rectangular through-slice profile)"},
+         "slice thickness (rectangular through-slice profile; required with --slices)"},
         {"slice-gap", KW_OPT_UNIT, &a.slice_gap, KW_UNIT_LENGTH, &a.s_slg, "gap between slices (default 0)"},
         {"slice-points", KW_OPT_INT, &a.slice_points, 0, &a.s_slp,
          "Gauss-Legendre points across each slice (1..32, default 8)"},

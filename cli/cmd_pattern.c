@@ -12,6 +12,7 @@
 #include <string.h>
 
 #include "cli.h"
+#include "defaults.h"
 #include "kw_pattern.h"
 #include "npy.h"
 #include "outfile.h"
@@ -575,34 +576,37 @@ int kw_cmd_pattern(int argc, char **argv)
     memset(&g, 0, sizeof g);
     const kw_opt table[] = {
         {"kind", KW_OPT_STRING, &g.kind, KW_UNIT_NONE, NULL,
-         "full|uniform|random|poisson|lattice|partial|radial|golden|stack-of-stars|spiral|epi"},
-        {"matrix", KW_OPT_STRING, &g.matrix, KW_UNIT_NONE, NULL, "NXxNY or NXxNYxNZ (3-D: ky-kz mask)"},
-        {"accel", KW_OPT_STRING, &g.accel, KW_UNIT_NONE, &g.seen_accel, "acceleration R, or RYxRZ"},
-        {"acs", KW_OPT_STRING, &g.acs, KW_UNIT_NONE, &g.seen_acs, "autocalibration lines N (3-D: N or NYxNZ)"},
-        {"fraction", KW_OPT_DOUBLE, &g.fraction, KW_UNIT_NONE, &g.seen_fraction, "partial Fourier fraction in (0.5, 1]"},
+         "full|uniform|random|poisson|lattice|partial|radial|golden|stack-of-stars|spiral|epi "
+         "(required to make a pattern)"},
+        {"matrix", KW_OPT_STRING, &g.matrix, KW_UNIT_NONE, NULL, "NXxNY or NXxNYxNZ (3-D: ky-kz mask; required with --kind)"},
+        {"accel", KW_OPT_STRING, &g.accel, KW_UNIT_NONE, &g.seen_accel, "acceleration R, or RYxRZ (required by uniform, random, poisson, lattice; default: none)"},
+        {"acs", KW_OPT_STRING, &g.acs, KW_UNIT_NONE, &g.seen_acs, "autocalibration lines N (3-D: N or NYxNZ; default: none)"},
+        {"fraction", KW_OPT_DOUBLE, &g.fraction, KW_UNIT_NONE, &g.seen_fraction, "partial Fourier fraction in (0.5, 1] (default 1; required by --kind partial)"},
         {"ellipse", KW_OPT_FLAG, &g.ellipse, KW_UNIT_NONE, NULL, "3-D: drop the ky-kz corners"},
         {"power", KW_OPT_DOUBLE, &g.power, KW_UNIT_NONE, &g.seen_power, "density exponent d of (1-r)^d (default 3)"},
         {"shift", KW_OPT_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift, "lattice: ky shift per kz row (default 1)"},
         {"spokes", KW_OPT_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes, "radial spokes (default ceil(pi N/2))"},
-        {"tiny", KW_OPT_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (1 = 111.246 deg)"},
+        {"tiny", KW_OPT_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (default 1 = 111.246 deg)"},
         {"readout-oversampling", KW_OPT_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros, "radial kinds: F x N samples per spoke, 1/F cycle/FOV apart (1..4, default 1)"},
-        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "radial: time per image pixel, 1/(250Hz x N) (samples every dwell/F); spiral/epi: time between samples, 4us"},
-        {"fov", KW_OPT_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default 256mm)"},
-        {"gmax", KW_OPT_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default 40mT/m)"},
-        {"slew", KW_OPT_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default 150T/m/s)"},
-        {"raster", KW_OPT_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster, "spiral/epi: gradient raster (default 10us)"},
-        {"interleaves", KW_OPT_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves, "spiral: interleaves (default: readouts <= 10ms)"},
-        {"shots", KW_OPT_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots, "epi: shots (default 1)"},
+        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "radial: time per image pixel (default 1/(" KWD_BW_PER_PIXEL_TEXT " x N); samples every dwell/F); "
+         "spiral/epi: time between samples (default 4us)"},
+        {"fov", KW_OPT_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default " KWD_FOV_TEXT ")"},
+        {"gmax", KW_OPT_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default " KWD_GMAX_TEXT ")"},
+        {"slew", KW_OPT_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default " KWD_SLEW_TEXT ")"},
+        {"raster", KW_OPT_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster, "spiral/epi: gradient raster (default " KWD_RASTER_TEXT ")"},
+        {"interleaves", KW_OPT_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves, "spiral: interleaves (default: the fewest with readouts <= "
+         KWD_SPIRAL_MAX_READOUT_TEXT ")"},
+        {"shots", KW_OPT_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots, "epi: shots (default " KWD_EPI_SHOTS_TEXT ")"},
         {"te", KW_OPT_UNIT, &g.te, KW_UNIT_TIME, &g.seen_te, "time of k = 0 (default N/2 x dwell)"},
         {"seed", KW_OPT_INT, &g.seed, KW_UNIT_NONE, &g.seen_seed, "random seed (default 0)"},
-        {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar"},
+        {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar (default: not written)"},
         {"times", KW_OPT_STRING, &g.times, KW_UNIT_NONE, NULL, "sample times file (default OUT_times.npy)"},
-        {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy)"},
-        {"png", KW_OPT_STRING, &g.png, KW_UNIT_NONE, NULL, "picture of the pattern (or of --compare)"},
-        {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON"},
-        {"psf", KW_OPT_STRING, &g.psf, KW_UNIT_NONE, NULL, "picture of the PSF (log scale)"},
+        {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy; default: not written)"},
+        {"png", KW_OPT_STRING, &g.png, KW_UNIT_NONE, NULL, "picture of the pattern (or of --compare; default: not written)"},
+        {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON (default: not written)"},
+        {"psf", KW_OPT_STRING, &g.psf, KW_UNIT_NONE, NULL, "picture of the PSF (log scale; default: not written)"},
         {"psf-size", KW_OPT_INT, &g.psf_size, KW_UNIT_NONE, NULL, "non-Cartesian PSF grid (default min(N,128))"},
-        {"analyse", KW_OPT_STRING, &g.analyse, KW_UNIT_NONE, NULL, "analyse a mask or trajectory file"},
+        {"analyse", KW_OPT_STRING, &g.analyse, KW_UNIT_NONE, NULL, "analyse a mask or trajectory file (default: none, make one with --kind)"},
         {"compare", KW_OPT_FLAG, &g.compare, KW_UNIT_NONE, NULL, "compare the files that follow"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };

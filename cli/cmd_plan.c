@@ -7,12 +7,14 @@
 #include <string.h>
 
 #include "cli.h"
+#include "defaults.h"
 #include "jsonio.h"
 #include "kw_protocol.h"
 #include "kw_sequence.h"
 #include "plan_input_int.h"
 #include "plot.h"
 #include "protofile.h"
+#include "report_names.h"
 
 /* The option table's slots, in the order of kw_protocol_keys(). */
 typedef enum key_id {
@@ -86,84 +88,98 @@ static void report_text(const kw_plan_report *r, double ref_factor)
                                         "spiral"};
     char u1[48], u2[48], u3[48];
     printf("kweave plan: %s, %d-D\n", label[p->sequence], p->ndim);
-    printf("  B0 %.4g T: Larmor frequency %.6f MHz; polarization at %.2f K %.4g (%.3f per million)\n",
-           p->b0_t, b->larmor_hz / 1e6, p->temperature_k, b->polarization, b->polarization * 1e6);
+    printf("  B0 %.4g T: %s %.6f MHz; %s at %.2f K %.4g (%.3f per million)\n", p->b0_t,
+           RN_LABEL(PLAN_LARMOR), b->larmor_hz / 1e6, RN_LABEL(PLAN_POLARIZATION), p->temperature_k, b->polarization, b->polarization * 1e6);
     printf("Resolution\n");
     if (p->ndim == 3)
-        printf("  FOV %.1f x %.1f x %.1f mm, matrix %d x %d x %d, voxel %.4f x %.4f x %.4f mm\n",
-               p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->fov_m[2] * 1e3, p->matrix[0], p->matrix[1],
-               p->matrix[2], b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3,
+        printf("  %s %.1f x %.1f x %.1f mm, %s %d x %d x %d, %s %.4f x %.4f x %.4f mm\n",
+               RN_LABEL(PLAN_FOV), p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->fov_m[2] * 1e3, RN_LABEL(PLAN_MATRIX),
+               p->matrix[0], p->matrix[1], p->matrix[2], RN_LABEL(PLAN_VOXEL_SIZE),
+               b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3,
                b->pixel_size_m[2] * 1e3);
     else
-        printf("  FOV %.1f x %.1f mm, matrix %d x %d, pixel %.4f x %.4f mm, slice %.3f mm\n",
-               p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, p->matrix[0], p->matrix[1],
-               b->pixel_size_m[0] * 1e3, b->pixel_size_m[1] * 1e3, p->slice_m * 1e3);
+        printf("  %s %.1f x %.1f mm, %s %d x %d, %s %.4f x %.4f mm, %s %.3f mm\n",
+               RN_LABEL(PLAN_FOV), p->fov_m[0] * 1e3, p->fov_m[1] * 1e3, RN_LABEL(PLAN_MATRIX),
+               p->matrix[0], p->matrix[1], RN_LABEL(PLAN_PIXEL), b->pixel_size_m[0] * 1e3,
+               b->pixel_size_m[1] * 1e3, RN_LABEL(PLAN_SLICE), p->slice_m * 1e3);
     if (p->ndim == 3) /* the partition axis too (the JSON has all three) */
-        printf("  delta-k %.4f x %.4f x %.4f 1/m, k-max %.3f x %.3f x %.3f 1/m\n",
-               b->delta_k_per_m[0], b->delta_k_per_m[1], b->delta_k_per_m[2],
-               b->k_max_per_m[0], b->k_max_per_m[1], b->k_max_per_m[2]);
+        printf("  %s %.4f x %.4f x %.4f 1/m, %s %.3f x %.3f x %.3f 1/m\n",
+               RN_LABEL(PLAN_DELTA_K), b->delta_k_per_m[0], b->delta_k_per_m[1],
+               b->delta_k_per_m[2], RN_LABEL(PLAN_K_MAX), b->k_max_per_m[0], b->k_max_per_m[1], b->k_max_per_m[2]);
     else
-        printf("  delta-k %.4f x %.4f 1/m, k-max %.3f x %.3f 1/m\n", b->delta_k_per_m[0],
-               b->delta_k_per_m[1], b->k_max_per_m[0], b->k_max_per_m[1]);
+        printf("  %s %.4f x %.4f 1/m, %s %.3f x %.3f 1/m\n", RN_LABEL(PLAN_DELTA_K),
+               b->delta_k_per_m[0], b->delta_k_per_m[1], RN_LABEL(PLAN_K_MAX), b->k_max_per_m[0],
+               b->k_max_per_m[1]);
     printf("Readout\n");
-    printf("  bandwidth %.1f Hz (%.2f Hz/pixel), dwell %.4f us, readout %.4f ms\n", b->bandwidth_hz,
-           b->bandwidth_per_pixel_hz, r->dwell_s * 1e6, r->readout_duration_s * 1e3);
+    printf("  %s %.1f Hz (%.2f %s), %s %.4f us, %s %.4f ms\n", RN_LABEL(PLAN_BANDWIDTH),
+           b->bandwidth_hz, b->bandwidth_per_pixel_hz, RN_LABEL(PLAN_BANDWIDTH_PIXEL),
+           RN_LABEL(PLAN_DWELL), r->dwell_s * 1e6, RN_LABEL(PLAN_READOUT),
+           r->readout_duration_s * 1e3);
     if (p->sequence != KW_SEQ_SPIRAL)
-        printf("  readout gradient %.4f mT/m of %.4f mT/m\n", b->readout_gradient_T_per_m * 1e3,
+        printf("  %s %.4f mT/m of %.4f mT/m\n", RN_LABEL(PLAN_READOUT_GRADIENT),
+               b->readout_gradient_T_per_m * 1e3,
                p->gmax_T_per_m * 1e3);
-    printf("  %s gradient %.4f mT/m (TBW %.3g over %.3f ms)\n", p->ndim == 3 ? "slab-select" : "slice-select",
-           r->slice_gradient_T_per_m * 1e3, p->tbw, r->rf_duration_s * 1e3);
+    printf("  %s %.4f mT/m (%s %.3g over %.3f ms)\n",
+           p->ndim == 3 ? RN_LABEL(PLAN_SLAB_GRADIENT) : RN_LABEL(PLAN_SLICE_GRADIENT),
+           r->slice_gradient_T_per_m * 1e3, RN_LABEL(PLAN_TBW), p->tbw, r->rf_duration_s * 1e3);
     if (p->sequence == KW_SEQ_EPI)
-        printf("  EPI: %d shot(s), echo-train length %d, echo spacing %.4f ms, train %.3f ms, "
-               "partial Fourier %.3g\n", p->shots, r->echo_train_length, r->echo_spacing_s * 1e3,
-               r->echo_train_s * 1e3, p->partial_fourier);
+        printf("  EPI: %d %s, %s %d, %s %.4f ms, %s %.3f ms, %s %.3g\n", p->shots,
+               RN_LABEL(PLAN_SHOTS), RN_LABEL(PLAN_ECHO_TRAIN_LENGTH), r->echo_train_length,
+               RN_LABEL(PLAN_ECHO_SPACING), r->echo_spacing_s * 1e3, RN_LABEL(PLAN_ECHO_TRAIN),
+               r->echo_train_s * 1e3, RN_LABEL(PLAN_PARTIAL_FOURIER), p->partial_fourier);
     if (p->sequence == KW_SEQ_RADIAL)
-        printf("  radial: %d spokes (Nyquist pi/2 x %d = %d)\n", r->spokes, p->matrix[0],
-               r->spokes_nyquist);
+        printf("  radial: %d %s (%s pi/2 x %d = %d)\n", r->spokes, RN_LABEL(PLAN_SPOKES),
+               RN_LABEL(PLAN_SPOKES_NYQUIST), p->matrix[0], r->spokes_nyquist);
     if (p->sequence == KW_SEQ_SPIRAL)
-        printf("  spiral: %d interleaves, %.4f ms readout per interleaf, %zu samples each\n",
-               r->interleaves, r->readout_per_interleave_s * 1e3, r->spiral.samples);
+        printf("  spiral: %d %s, %.4f ms %s, %zu %s\n", r->interleaves,
+               RN_LABEL(PLAN_INTERLEAVES), r->readout_per_interleave_s * 1e3,
+               RN_LABEL(PLAN_READOUT_INTERLEAF), r->spiral.samples, RN_LABEL(PLAN_SAMPLES_INTERLEAF));
     printf("Timing\n");
-    printf("  TE %.4f ms (minimum %.4f ms)%s, TR %.4f ms (minimum %.4f ms), scan %.3f s%s\n",
-           r->te_s * 1e3, r->min_te_s * 1e3, p->sequence == KW_SEQ_EPI ? " effective" : "",
-           r->tr_s * 1e3, r->min_tr_s * 1e3, r->scan_time_s, p->ndim == 2 ? " per slice" : "");
-    printf("  lobes (raster %.0f us):\n", p->raster_s * 1e6);
+    printf("  %s %.4f ms (%s %.4f ms)%s, %s %.4f ms (%s %.4f ms), %s %.3f s%s\n",
+           RN_LABEL(PLAN_TE), r->te_s * 1e3, RN_LABEL(PLAN_MIN_TE), r->min_te_s * 1e3,
+           p->sequence == KW_SEQ_EPI ? " effective" : "", RN_LABEL(PLAN_TR), r->tr_s * 1e3,
+           RN_LABEL(PLAN_MIN_TR), r->min_tr_s * 1e3, RN_LABEL(PLAN_SCAN), r->scan_time_s,
+           p->ndim == 2 ? " per slice" : "");
+    printf("  lobes (%s %.0f us):\n", RN_LABEL(PLAN_RASTER), p->raster_s * 1e6);
     int is3d = p->ndim == 3;
-    print_lobe(is3d ? "slab select" : "slice select", &r->slice_select);
+    print_lobe(is3d ? RN_LABEL(LOBE_SLAB_SELECT) : RN_LABEL(LOBE_SLICE_SELECT), &r->slice_select);
     /* 3-D: the slab rephaser and the largest partition encode are played as
      * one lobe (the JSON's slice_rephaser); the partition encode alone is
      * listed after it */
-    print_lobe(is3d ? "slab rephaser+kz" : "slice rephaser", &r->slice_rephaser);
-    print_lobe("readout", &r->readout);
-    print_lobe("prephaser", &r->prephaser);
-    print_lobe("phase encode", &r->phase_encode);
-    print_lobe("kz encode alone", &r->partition_encode);
-    print_lobe("spoiler", &r->spoiler);
-    print_lobe("crusher", &r->crusher);
+    print_lobe(is3d ? RN_LABEL(LOBE_SLAB_REPHASER) : RN_LABEL(LOBE_SLICE_REPHASER),
+               &r->slice_rephaser);
+    print_lobe(RN_LABEL(LOBE_READOUT), &r->readout);
+    print_lobe(RN_LABEL(LOBE_PREPHASER), &r->prephaser);
+    print_lobe(RN_LABEL(LOBE_PHASE_ENCODE), &r->phase_encode);
+    print_lobe(RN_LABEL(LOBE_PARTITION_ENCODE), &r->partition_encode);
+    print_lobe(RN_LABEL(LOBE_SPOILER), &r->spoiler);
+    print_lobe(RN_LABEL(LOBE_CRUSHER), &r->crusher);
     if (is3d)
         printf("    (slab rephaser+kz: the slab rephaser and the largest partition encode, "
                "played as one lobe)\n");
     printf("Artefacts and signal\n");
     if (p->sequence == KW_SEQ_SPIRAL)
-        printf("  fat-water %.1f Hz (%.1f ppm): a blur, %.2f cycles of phase by the end of the "
-               "readout\n", r->fat_water_hz, KW_FAT_WATER_PPM,
+        printf("  %s %.1f Hz (%.1f ppm): a blur, %.2f cycles of phase by the end of the "
+               "readout\n", RN_LABEL(PLAN_FAT_WATER), r->fat_water_hz, KW_FAT_WATER_PPM,
                r->fat_water_hz * r->readout_per_interleave_s);
     else
-        printf("  fat-water shift %.1f Hz (%.1f ppm): %.3f pixels = %.3f mm along the readout\n",
-               r->fat_water_hz, KW_FAT_WATER_PPM, r->chemical_shift_pixels, r->chemical_shift_mm);
+        printf("  %s shift %.1f Hz (%.1f ppm): %.3f pixels = %.3f mm along the readout\n",
+               RN_LABEL(PLAN_FAT_WATER), r->fat_water_hz, KW_FAT_WATER_PPM, r->chemical_shift_pixels, r->chemical_shift_mm);
     if (p->sequence == KW_SEQ_EPI)
-        printf("  EPI phase direction: %.5f pixels per Hz off-resonance; fat-water %.2f pixels = "
-               "%.2f mm\n", r->distortion_pixels_per_hz, r->chemical_shift_phase_pixels,
+        printf("  EPI phase direction: %.5f %s; fat-water %.2f pixels = %.2f mm\n",
+               r->distortion_pixels_per_hz, RN_LABEL(PLAN_DISTORTION), r->chemical_shift_phase_pixels,
                r->chemical_shift_phase_mm);
     if (isfinite(r->readout_to_t2star))
-        printf("  %s / T2* = %.3f (T2* %.2f ms)\n",
-               p->sequence == KW_SEQ_EPI ? "echo train" : "readout", r->readout_to_t2star,
+        printf("  %s %s = %.3f (T2* %.2f ms)\n",
+               p->sequence == KW_SEQ_EPI ? "echo train" : "readout", RN_LABEL(PLAN_T2STAR_RATIO),
+               r->readout_to_t2star,
                p->t2star_s * 1e3);
-    printf("  voxel %.4g mm^3, total sampling time %.4g s: SNR factor (voxel x sqrt(time), the "
-           "usual proportionality) %.4g m^3 s^0.5", r->voxel_volume_m3 * 1e9,
-           r->total_sampling_time_s, r->snr_factor);
+    printf("  %s %.4g mm^3, %s %.4g s: %s (voxel x sqrt(time), the usual proportionality) "
+           "%.4g m^3 s^0.5", RN_LABEL(PLAN_VOXEL), r->voxel_volume_m3 * 1e9,
+           RN_LABEL(PLAN_SAMPLING_TIME), r->total_sampling_time_s, RN_LABEL(PLAN_SNR_FACTOR),
+           r->snr_factor);
     if (ref_factor > 0)
-        printf("; relative SNR %.4f", r->snr_factor / ref_factor);
+        printf("; %s %.4f", RN_LABEL(PLAN_RELATIVE_SNR), r->snr_factor / ref_factor);
     printf("\nLimits\n  %-24s %16s %16s %16s  %s\n", "constraint", "required", "available",
            "margin", "ok");
     for (int i = 0; i < r->nlimits; i++) {
@@ -291,22 +307,24 @@ int kw_cmd_plan(int argc, char **argv)
     const char *bw_dummy = NULL;
     kw_opt table[] = {
         {"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
-         "protocol file of key = value lines (options override it)"},
+         "protocol file of key = value lines (options override it; default: none, the defaults below)"},
         {"sequence", KW_OPT_STRING, &val[K_SEQUENCE], KW_UNIT_NONE, &seen[K_SEQUENCE],
-         "gre | se | epi | radial | spiral (default gre)"},
+         "gre | se | epi | radial | spiral: the pulse sequence timed (default gre; encode's --sequence "
+         "is its signal model, default pd)"},
         {"fov", KW_OPT_STRING, &val[K_FOV], KW_UNIT_NONE, &seen[K_FOV],
-         "field of view: 256mm, or x,y (256mm,192mm), or x,y,z (default 256mm)"},
+         "field of view: 256mm, or x,y (256mm,192mm), or x,y,z (default " KWD_FOV_TEXT ")"},
         {"matrix", KW_OPT_STRING, &val[K_MATRIX], KW_UNIT_NONE, &seen[K_MATRIX],
          "NX, NXxNY or NXxNYxNZ; x = readout (default 256)"},
         {"bandwidth", KW_OPT_STRING, &bw_dummy, KW_UNIT_NONE, NULL,
-         "receiver bandwidth across the FOV (32kHz) or per pixel (250Hz/pixel); default 250Hz/pixel"},
-        {"b0", KW_OPT_STRING, &val[K_B0], KW_UNIT_NONE, &seen[K_B0], "main field (default 3T)"},
+         "receiver bandwidth across the FOV (32kHz) or per pixel (250Hz/pixel); default "
+         KWD_BW_PER_PIXEL_TEXT},
+        {"b0", KW_OPT_STRING, &val[K_B0], KW_UNIT_NONE, &seen[K_B0], "main field (default " KWD_B0_TEXT ")"},
         {"gmax", KW_OPT_STRING, &val[K_GMAX], KW_UNIT_NONE, &seen[K_GMAX],
-         "gradient amplitude limit (default 40mT/m)"},
+         "gradient amplitude limit (default " KWD_GMAX_TEXT ")"},
         {"slew", KW_OPT_STRING, &val[K_SLEW], KW_UNIT_NONE, &seen[K_SLEW],
-         "slew-rate limit (default 150T/m/s)"},
+         "slew-rate limit (default " KWD_SLEW_TEXT ")"},
         {"raster", KW_OPT_STRING, &val[K_RASTER], KW_UNIT_NONE, &seen[K_RASTER],
-         "gradient raster time (default 10us)"},
+         "gradient raster time (default " KWD_RASTER_TEXT ")"},
         {"temperature", KW_OPT_STRING, &val[K_TEMPERATURE], KW_UNIT_NONE, &seen[K_TEMPERATURE],
          "sample temperature for the polarization (default 310K)"},
         {"te", KW_OPT_STRING, &val[K_TE], KW_UNIT_NONE, &seen[K_TE],
@@ -324,24 +342,24 @@ int kw_cmd_plan(int argc, char **argv)
         {"crusher", KW_OPT_STRING, &val[K_CRUSHER], KW_UNIT_NONE, &seen[K_CRUSHER],
          "SE crushers: cycles across the slice (default 2)"},
         {"t2star", KW_OPT_STRING, &val[K_T2STAR], KW_UNIT_NONE, &seen[K_T2STAR],
-         "T2* for the readout/T2* ratio"},
+         "T2* for the readout/T2* ratio (default: none, no ratio)"},
         {"shots", KW_OPT_STRING, &val[K_SHOTS], KW_UNIT_NONE, &seen[K_SHOTS],
-         "EPI shots (default 1)"},
+         "EPI shots (default " KWD_EPI_SHOTS_TEXT ")"},
         {"partial-fourier", KW_OPT_STRING, &val[K_PARTIAL_FOURIER], KW_UNIT_NONE,
          &seen[K_PARTIAL_FOURIER], "EPI phase-encode fraction, 0.5 < f <= 1 (default 1)"},
         {"interleaves", KW_OPT_STRING, &val[K_INTERLEAVES], KW_UNIT_NONE, &seen[K_INTERLEAVES],
          "spiral interleaves (default: fewest within --max-readout)"},
         {"max-readout", KW_OPT_STRING, &val[K_MAX_READOUT], KW_UNIT_NONE, &seen[K_MAX_READOUT],
-         "spiral: longest readout per interleaf (default 16ms)"},
+         "spiral: longest readout per interleaf (default " KWD_SPIRAL_MAX_READOUT_TEXT ")"},
         {"spokes", KW_OPT_STRING, &val[K_SPOKES], KW_UNIT_NONE, &seen[K_SPOKES],
          "radial spokes (default: Nyquist, pi/2 x N)"},
         {"averages", KW_OPT_STRING, &val[K_AVERAGES], KW_UNIT_NONE, &seen[K_AVERAGES],
          "signal averages (default 1)"},
         {"reference", KW_OPT_STRING, &reference, KW_UNIT_NONE, NULL,
-         "protocol file of a reference protocol for the relative SNR"},
-        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON"},
-        {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG"},
-        {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG"},
+         "protocol file of a reference protocol for the relative SNR (default: none)"},
+        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON (default: not written)"},
+        {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG (default: not written)"},
+        {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG (default: not written)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(ac, av, table,
                            "usage: kweave plan [--protocol FILE] [--sequence S] --fov F --matrix M "

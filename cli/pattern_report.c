@@ -14,6 +14,7 @@
 #include "figure.h"
 #include "pattern_cli.h"
 #include "png.h"
+#include "report_names.h"
 
 #define PSF_DB_FLOOR -60.0 /* picture window: common practice, no source */
 
@@ -25,43 +26,67 @@ cJSON *kw_pattern_cli_json(const kw_pattern_report *p)
     return kw_pattern_analysis_json_build(&p->r, p->name, p->kind);
 }
 
+/* A row of the text report: the label (report_names.h, the JSON's names)
+ * with `more` after it, in a column of 24. */
+static void label(FILE *f, const char *name, const char *more)
+{
+    char buf[64];
+    snprintf(buf, sizeof buf, "%s%s", name, more);
+    fprintf(f, "  %-24s", buf);
+}
+
 void kw_pattern_cli_text(FILE *f, const kw_pattern_report *p)
 {
     const kw_pattern_analysis *a = &p->r;
     fprintf(f, "pattern %s (%s, %s %zux%zu)\n", p->name, p->kind[0] ? p->kind : "unknown kind",
             a->cartesian ? "Cartesian" : "non-Cartesian", a->dims[0], a->dims[1]);
     if (a->cartesian) {
-        fprintf(f, "  acceleration            %.3f (sampled fraction %.4f)\n", a->acceleration,
+        label(f, RN_LABEL(AN_ACCELERATION), "");
+        fprintf(f, "%.3f (%s %.4f)\n", a->acceleration, RN_LABEL(AN_SAMPLED_FRACTION),
                 a->sampled_fraction);
-        if (a->plane)
-            fprintf(f, "  ACS block               %zu x %zu (%g readout lines)\n",
-                    a->acs_block[1], a->acs_block[0], a->acs_lines);
-        else
-            fprintf(f, "  ACS lines               %g\n", a->acs_lines);
-        fprintf(f, "  largest gap             %g delta-k\n", a->max_gap);
+        if (a->plane) {
+            label(f, RN_LABEL(AN_ACS_BLOCK), "");
+            fprintf(f, "%zu x %zu (%g readout lines)\n", a->acs_block[1], a->acs_block[0],
+                    a->acs_lines);
+        } else {
+            label(f, RN_LABEL(AN_ACS_LINES), "");
+            fprintf(f, "%g\n", a->acs_lines);
+        }
+        label(f, RN_LABEL(AN_MAX_GAP), "");
+        fprintf(f, "%g delta-k\n", a->max_gap);
     } else {
         if (a->weights == KW_PATTERN_WEIGHTS_RADIAL) {
-            fprintf(f, "  spokes                  %zu per plane (Nyquist: %g)\n", a->spokes,
+            label(f, RN_LABEL(AN_SPOKES), "");
+            fprintf(f, "%zu per plane (%s: %g)\n", a->spokes, RN_LABEL(AN_NYQUIST_SPOKES),
                     a->nyquist_spokes);
-            fprintf(f, "  acceleration            %.3f (pi N/2 over spokes); sampled fraction "
-                       "%.4f of the N x N grid\n", a->acceleration, a->sampled_fraction);
+            label(f, RN_LABEL(AN_ACCELERATION), "");
+            fprintf(f, "%.3f (pi N/2 over spokes); %s %.4f of the N x N grid\n",
+                    a->acceleration, RN_LABEL(AN_SAMPLED_FRACTION), a->sampled_fraction);
         } else {
-            fprintf(f, "  readouts                %zu\n", a->spokes);
-            if (isfinite(a->acceleration))
-                fprintf(f, "  acceleration            %.3f (grid points over samples)\n",
-                        a->acceleration);
-            fprintf(f, "  sampled fraction        %.4f of the N x N grid\n", a->sampled_fraction);
+            label(f, RN_LABEL(AN_READOUTS), "");
+            fprintf(f, "%zu\n", a->spokes);
+            if (isfinite(a->acceleration)) {
+                label(f, RN_LABEL(AN_ACCELERATION), "");
+                fprintf(f, "%.3f (grid points over samples)\n", a->acceleration);
+            }
+            label(f, RN_LABEL(AN_SAMPLED_FRACTION), "");
+            fprintf(f, "%.4f of the N x N grid\n", a->sampled_fraction);
         }
-        fprintf(f, "  largest gap             %.3f delta-k\n", a->max_gap);
+        label(f, RN_LABEL(AN_MAX_GAP), "");
+        fprintf(f, "%.3f delta-k\n", a->max_gap);
     }
-    fprintf(f, "  PSF main lobe (FWHM)    %.2f pixels", a->fwhm_main);
+    label(f, RN_LABEL(AN_FWHM), "");
+    fprintf(f, "%.2f pixels", a->fwhm_main);
     fprintf(f, " (%s %.2f, %s %.2f)\n", a->axes[0], a->psf.fwhm[0], a->axes[1], a->psf.fwhm[1]);
-    fprintf(f, "  peak sidelobe           %.4f of the peak (%.1f dB) at %s %+ld, %s %+ld px\n",
+    label(f, RN_LABEL(AN_PEAK_SIDELOBE), "");
+    fprintf(f, "%.4f of the peak (%.1f dB) at %s %+ld, %s %+ld px\n",
             a->psf.peak_sidelobe, 20 * log10(a->psf.peak_sidelobe > 0 ? a->psf.peak_sidelobe : 1e-30),
             a->axes[0], a->psf.sidelobe_at[0], a->axes[1], a->psf.sidelobe_at[1]);
-    fprintf(f, "  energy outside lobe     %.4f\n", a->psf.energy_outside);
+    label(f, RN_LABEL(AN_ENERGY_OUTSIDE), "");
+    fprintf(f, "%.4f\n", a->psf.energy_outside);
     if (a->tpsf_levels) {
-        fprintf(f, "  TPSF incoherence (db4)  %.4f (by level, finest first:", a->tpsf_max);
+        label(f, RN_LABEL(AN_TPSF), " (db4)");
+        fprintf(f, "%.4f (by level, finest first:", a->tpsf_max);
         for (int l = 0; l < a->tpsf_levels; l++)
             fprintf(f, " %.4f", a->tpsf[l]);
         fprintf(f, ")\n");

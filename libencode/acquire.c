@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "acquire_int.h"
+#include "defaults.h"
 
 void kw_acquisition_options_init(kw_acquisition_options *o)
 {
@@ -16,7 +17,7 @@ void kw_acquisition_options_init(kw_acquisition_options *o)
     memset(o, 0, sizeof *o);
     o->struct_size = sizeof *o;
     o->sequence = KW_CONTRAST_PD;
-    o->b0_t = 3.0;
+    o->b0_t = KWD_B0_T;
     o->coil_rings = 1;
     o->coil_order = -1;
     o->coil_order_z = -1;

@@ -58,7 +58,7 @@ typedef struct kw_protocol {
 /*! kw_protocol_defaults(): a 2-D GRE at 3 T: FOV 256 mm, 256 x 256,
  * 250 Hz/pixel (64 kHz), 40 mT/m, 150 T/m/s, raster 10 us, 310 K, 2 ms pulse
  * of TBW 4, 5 mm slice, no spoiler, 2-cycle crushers, 1 shot, full Fourier,
- * automatic interleaves with 16 ms longest spiral readout, Nyquist spokes,
+ * automatic interleaves with 10 ms longest spiral readout, Nyquist spokes,
  * 1 average. (Common practice values, no source.) */
 KW_API void kw_protocol_defaults(kw_protocol *p);
 

@@ -11,9 +11,8 @@
 
 #include "kw_sampling.h"
 #include "kw_traj.h"
+#include "defaults.h"
 
-/* defaults shared with `kweave plan` (common practice, no source) */
-#define DEFAULT_BW_PER_PIXEL 250.0 /* Hz/pixel: radial dwell = 1 / (250 N) */
 #define MAX_MASK_POINTS 1e8
 
 static const char *const KIND_NAMES[] = {"full",   "partial", "uniform",        "random",
@@ -39,12 +38,12 @@ void kw_pattern_options_init(kw_pattern_options *o)
     o->power = 3.0;
     o->shift = 1;
     o->te_s = NAN;
-    o->fov_m = 0.256;
-    o->gmax = 40e-3;
-    o->slew = 150.0;
-    o->raster = 10e-6;
-    o->max_readout_s = 10e-3;
-    o->shots = 1;
+    o->fov_m = KWD_FOV_M;
+    o->gmax = KWD_GMAX_T_PER_M;
+    o->slew = KWD_SLEW_T_PER_M_PER_S;
+    o->raster = KWD_RASTER_S;
+    o->max_readout_s = KWD_SPIRAL_MAX_READOUT_S;
+    o->shots = KWD_EPI_SHOTS;
 }
 
 /* ---- Cartesian masks ------------------------------------------------------ */
@@ -158,7 +157,7 @@ static kw_status make_radial(kw_pattern *p)
     o.tiny = po->tiny ? po->tiny : o.kind == KW_TRAJ_GOLDEN;
     o.oversampling = po->readout_oversampling ? po->readout_oversampling : 1;
     /* dwell: the time per image pixel; the ADC samples every dwell / F */
-    o.dwell_s = po->dwell_s != 0 ? po->dwell_s : 1.0 / (DEFAULT_BW_PER_PIXEL * (double)nx);
+    o.dwell_s = po->dwell_s != 0 ? po->dwell_s : 1.0 / (KWD_BW_PER_PIXEL_HZ * (double)nx);
     o.te_s = !isnan(po->te_s) ? po->te_s : 0.5 * (double)nx * o.dwell_s;
     size_t ns;
     int ndk;

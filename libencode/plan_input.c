@@ -10,6 +10,7 @@
 #include <string.h>
 
 #include "kw_units.h"
+#include "defaults.h"
 #include "plan_input_int.h"
 #include "protofile.h"
 
@@ -440,7 +441,7 @@ kw_status kw_protocol_input_finish(const kw_protocol_input *in, kw_protocol *out
     } else if (v->bw_set[1]) {
         p.bandwidth_hz = v->bw[1] * nx;
     } else {
-        p.bandwidth_hz = 250.0 * nx; /* default 250 Hz/pixel */
+        p.bandwidth_hz = KWD_BW_PER_PIXEL_HZ * nx;
     }
     kw_status st = kw_protocol_check(&p);
     if (st)

@@ -7,6 +7,7 @@
 #include "json_build.h"
 #include "kw_plan_input.h"
 #include "plan_input_int.h"
+#include "report_names.h"
 
 static void add_lobe_json(cJSON *lobes, const char *name, const kw_trapezoid *t)
 {
@@ -30,71 +31,71 @@ cJSON *kw_plan_report_cjson(const kw_plan_report *r, double ref_factor)
     cJSON_AddBoolToObject(j, "feasible", r->feasible);
     cJSON_AddNumberToObject(j, "dimensions", p->ndim);
     cJSON_AddNumberToObject(j, "b0_t", p->b0_t);
-    cJSON_AddNumberToObject(j, "larmor_hz", b->larmor_hz);
-    kw_json_add_vec(j, "fov_m", p->fov_m, p->ndim);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_LARMOR), b->larmor_hz);
+    kw_json_add_vec(j, RN_KEY(PLAN_FOV), p->fov_m, p->ndim);
     double m[3] = {p->matrix[0], p->matrix[1], p->matrix[2]};
-    kw_json_add_vec(j, "matrix", m, p->ndim);
-    kw_json_add_vec(j, "pixel_size_m", b->pixel_size_m, p->ndim);
-    kw_json_add_vec(j, "delta_k_per_m", b->delta_k_per_m, p->ndim);
-    kw_json_add_vec(j, "k_max_per_m", b->k_max_per_m, p->ndim);
-    cJSON_AddNumberToObject(j, "slice_m", r->slice_m);
-    cJSON_AddNumberToObject(j, "dwell_s", r->dwell_s);
-    cJSON_AddNumberToObject(j, "readout_duration_s", r->readout_duration_s);
-    cJSON_AddNumberToObject(j, "bandwidth_hz", b->bandwidth_hz);
-    cJSON_AddNumberToObject(j, "bandwidth_per_pixel_hz", b->bandwidth_per_pixel_hz);
-    cJSON_AddNumberToObject(j, "readout_gradient_T_per_m", b->readout_gradient_T_per_m);
-    cJSON_AddNumberToObject(j, "slice_select_gradient_T_per_m", r->slice_gradient_T_per_m);
+    kw_json_add_vec(j, RN_KEY(PLAN_MATRIX), m, p->ndim);
+    kw_json_add_vec(j, RN_KEY(PLAN_PIXEL), b->pixel_size_m, p->ndim);
+    kw_json_add_vec(j, RN_KEY(PLAN_DELTA_K), b->delta_k_per_m, p->ndim);
+    kw_json_add_vec(j, RN_KEY(PLAN_K_MAX), b->k_max_per_m, p->ndim);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SLICE), r->slice_m);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_DWELL), r->dwell_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_READOUT), r->readout_duration_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_BANDWIDTH), b->bandwidth_hz);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_BANDWIDTH_PIXEL), b->bandwidth_per_pixel_hz);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_READOUT_GRADIENT), b->readout_gradient_T_per_m);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SLICE_GRADIENT), r->slice_gradient_T_per_m);
     cJSON_AddNumberToObject(j, "rf_duration_s", r->rf_duration_s);
-    cJSON_AddNumberToObject(j, "tbw", p->tbw);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_TBW), p->tbw);
     cJSON_AddNumberToObject(j, "gmax_T_per_m", p->gmax_T_per_m);
     cJSON_AddNumberToObject(j, "slew_T_per_m_per_s", p->slew_T_per_m_per_s);
-    cJSON_AddNumberToObject(j, "raster_s", p->raster_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_RASTER), p->raster_s);
     cJSON_AddNumberToObject(j, "temperature_k", p->temperature_k);
-    cJSON_AddNumberToObject(j, "polarization", b->polarization);
-    cJSON_AddNumberToObject(j, "min_te_s", r->min_te_s);
-    cJSON_AddNumberToObject(j, "min_tr_s", r->min_tr_s);
-    cJSON_AddNumberToObject(j, "te_s", r->te_s);
-    cJSON_AddNumberToObject(j, "tr_s", r->tr_s);
-    cJSON_AddNumberToObject(j, "scan_time_s", r->scan_time_s);
-    cJSON_AddNumberToObject(j, "chemical_shift_hz", r->fat_water_hz);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_POLARIZATION), b->polarization);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_MIN_TE), r->min_te_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_MIN_TR), r->min_tr_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_TE), r->te_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_TR), r->tr_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SCAN), r->scan_time_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_FAT_WATER), r->fat_water_hz);
     kw_json_add_number_or_null(j, "chemical_shift_pixels", r->chemical_shift_pixels);
     kw_json_add_number_or_null(j, "chemical_shift_mm", r->chemical_shift_mm);
     if (p->sequence == KW_SEQ_EPI) {
-        cJSON_AddNumberToObject(j, "echo_spacing_s", r->echo_spacing_s);
-        cJSON_AddNumberToObject(j, "echo_train_length", r->echo_train_length);
-        cJSON_AddNumberToObject(j, "echo_train_duration_s", r->echo_train_s);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_SPACING), r->echo_spacing_s);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_TRAIN_LENGTH), r->echo_train_length);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_TRAIN), r->echo_train_s);
         cJSON_AddNumberToObject(j, "effective_te_s", r->te_s);
-        cJSON_AddNumberToObject(j, "shots", p->shots);
-        cJSON_AddNumberToObject(j, "partial_fourier", p->partial_fourier);
-        cJSON_AddNumberToObject(j, "distortion_pixels_per_hz", r->distortion_pixels_per_hz);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SHOTS), p->shots);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_PARTIAL_FOURIER), p->partial_fourier);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_DISTORTION), r->distortion_pixels_per_hz);
         cJSON_AddNumberToObject(j, "chemical_shift_phase_pixels", r->chemical_shift_phase_pixels);
         cJSON_AddNumberToObject(j, "chemical_shift_phase_mm", r->chemical_shift_phase_mm);
     }
     if (p->sequence == KW_SEQ_RADIAL) {
-        cJSON_AddNumberToObject(j, "spokes_nyquist", r->spokes_nyquist);
-        cJSON_AddNumberToObject(j, "spokes", r->spokes);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SPOKES_NYQUIST), r->spokes_nyquist);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SPOKES), r->spokes);
     }
     if (p->sequence == KW_SEQ_SPIRAL) {
-        cJSON_AddNumberToObject(j, "interleaves", r->interleaves);
-        cJSON_AddNumberToObject(j, "readout_per_interleave_s", r->readout_per_interleave_s);
-        cJSON_AddNumberToObject(j, "samples_per_interleave", (double)r->spiral.samples);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_INTERLEAVES), r->interleaves);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_READOUT_INTERLEAF), r->readout_per_interleave_s);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SAMPLES_INTERLEAF), (double)r->spiral.samples);
         cJSON_AddNumberToObject(j, "fat_water_cycles_per_readout",
                                 r->fat_water_hz * r->readout_per_interleave_s);
     }
-    kw_json_add_number_or_null(j, "readout_to_t2star", r->readout_to_t2star);
-    cJSON_AddNumberToObject(j, "voxel_volume_m3", r->voxel_volume_m3);
-    cJSON_AddNumberToObject(j, "total_sampling_time_s", r->total_sampling_time_s);
-    cJSON_AddNumberToObject(j, "snr_factor", r->snr_factor);
-    kw_json_add_number_or_null(j, "relative_snr", ref_factor > 0 ? r->snr_factor / ref_factor : NAN);
+    kw_json_add_number_or_null(j, RN_KEY(PLAN_T2STAR_RATIO), r->readout_to_t2star);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_VOXEL), r->voxel_volume_m3);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SAMPLING_TIME), r->total_sampling_time_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SNR_FACTOR), r->snr_factor);
+    kw_json_add_number_or_null(j, RN_KEY(PLAN_RELATIVE_SNR), ref_factor > 0 ? r->snr_factor / ref_factor : NAN);
     cJSON *lobes = cJSON_AddObjectToObject(j, "lobes");
-    add_lobe_json(lobes, "slice_select", &r->slice_select);
-    add_lobe_json(lobes, "slice_rephaser", &r->slice_rephaser);
-    add_lobe_json(lobes, "readout", &r->readout);
-    add_lobe_json(lobes, "prephaser", &r->prephaser);
-    add_lobe_json(lobes, "phase_encode", &r->phase_encode);
-    add_lobe_json(lobes, "partition_encode", &r->partition_encode);
-    add_lobe_json(lobes, "spoiler", &r->spoiler);
-    add_lobe_json(lobes, "crusher", &r->crusher);
+    add_lobe_json(lobes, RN_KEY(LOBE_SLICE_SELECT), &r->slice_select);
+    add_lobe_json(lobes, RN_KEY(LOBE_SLICE_REPHASER), &r->slice_rephaser);
+    add_lobe_json(lobes, RN_KEY(LOBE_READOUT), &r->readout);
+    add_lobe_json(lobes, RN_KEY(LOBE_PREPHASER), &r->prephaser);
+    add_lobe_json(lobes, RN_KEY(LOBE_PHASE_ENCODE), &r->phase_encode);
+    add_lobe_json(lobes, RN_KEY(LOBE_PARTITION_ENCODE), &r->partition_encode);
+    add_lobe_json(lobes, RN_KEY(LOBE_SPOILER), &r->spoiler);
+    add_lobe_json(lobes, RN_KEY(LOBE_CRUSHER), &r->crusher);
     cJSON *lim = cJSON_AddArrayToObject(j, "limits");
     for (int i = 0; i < r->nlimits; i++) {
         const kw_limit *l = &r->limits[i];

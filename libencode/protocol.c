@@ -3,6 +3,8 @@
 
 #include <math.h>
 
+#include "defaults.h"
+
 /* The largest matrix along one axis the planner accepts. */
 #define KW_PLAN_MAX_MATRIX 8192
 
@@ -11,23 +13,23 @@ void kw_protocol_defaults(kw_protocol *p)
     *p = (kw_protocol){0};
     p->sequence = KW_SEQ_GRE;
     p->ndim = 2;
-    p->fov_m[0] = p->fov_m[1] = p->fov_m[2] = 0.256;
+    p->fov_m[0] = p->fov_m[1] = p->fov_m[2] = KWD_FOV_M;
     p->matrix[0] = p->matrix[1] = 256;
     p->matrix[2] = 1;
-    p->bandwidth_hz = 250.0 * 256;
-    p->b0_t = 3.0;
-    p->gmax_T_per_m = 0.040;
-    p->slew_T_per_m_per_s = 150.0;
-    p->raster_s = 10e-6;
+    p->bandwidth_hz = KWD_BW_PER_PIXEL_HZ * 256;
+    p->b0_t = KWD_B0_T;
+    p->gmax_T_per_m = KWD_GMAX_T_PER_M;
+    p->slew_T_per_m_per_s = KWD_SLEW_T_PER_M_PER_S;
+    p->raster_s = KWD_RASTER_S;
     p->temperature_k = 310.0;
     p->rf_duration_s = 2e-3;
     p->tbw = 4.0;
     p->slice_m = 5e-3;
     p->spoiler_cycles = 0.0;
     p->crusher_cycles = 2.0;
-    p->shots = 1;
+    p->shots = KWD_EPI_SHOTS;
     p->partial_fourier = 1.0;
-    p->max_readout_s = 16e-3;
+    p->max_readout_s = KWD_SPIRAL_MAX_READOUT_S;
     p->averages = 1;
 }
 

@@ -3,12 +3,13 @@
  * --json reports with, analysis_json.h). */
 #include "analysis_json.h"
 #include "json_build.h"
+#include "report_names.h"
 
 #define add_num kw_json_add_number_or_null
 
 static void add_psf(cJSON *o, const kw_pattern_analysis *a)
 {
-    add_num(o, "psf_fwhm_pixels", a->fwhm_main);
+    add_num(o, RN_KEY(AN_FWHM), a->fwhm_main);
     cJSON *f = cJSON_AddObjectToObject(o, "psf_fwhm_pixels_by_axis");
     cJSON *lobe = cJSON_AddObjectToObject(o, "psf_mainlobe_halfwidth_pixels");
     cJSON *at = cJSON_AddObjectToObject(o, "psf_peak_sidelobe_at_pixels");
@@ -18,8 +19,8 @@ static void add_psf(cJSON *o, const kw_pattern_analysis *a)
         add_num(at, a->axes[i], (double)a->psf.sidelobe_at[i]);
     }
     add_num(o, "psf_peak", a->psf.peak);
-    add_num(o, "psf_peak_sidelobe", a->psf.peak_sidelobe);
-    add_num(o, "psf_energy_outside_mainlobe", a->psf.energy_outside);
+    add_num(o, RN_KEY(AN_PEAK_SIDELOBE), a->psf.peak_sidelobe);
+    add_num(o, RN_KEY(AN_ENERGY_OUTSIDE), a->psf.energy_outside);
     double pg[2] = {(double)a->psfdims[0], (double)a->psfdims[1]};
     kw_json_add_vec(o, "psf_grid", pg, 2);
     cJSON_AddStringToObject(o, "psf_method", a->cartesian ? "fft" : "ndft");
@@ -51,23 +52,23 @@ cJSON *kw_pattern_analysis_json_build(const kw_pattern_analysis *a, const char *
         cJSON_AddItemToArray(ax, cJSON_CreateString(a->axes[i]));
     double d[2] = {(double)a->dims[0], (double)a->dims[1]};
     kw_json_add_vec(o, "shape", d, 2);
-    add_num(o, "acceleration", a->acceleration);
-    add_num(o, "sampled_fraction", a->sampled_fraction);
-    add_num(o, "acs_lines", a->acs_lines);
+    add_num(o, RN_KEY(AN_ACCELERATION), a->acceleration);
+    add_num(o, RN_KEY(AN_SAMPLED_FRACTION), a->sampled_fraction);
+    add_num(o, RN_KEY(AN_ACS_LINES), a->acs_lines);
     if (a->cartesian) {
         double b[2] = {(double)a->acs_block[0], (double)a->acs_block[1]};
-        kw_json_add_vec(o, "acs_block", b, 2);
+        kw_json_add_vec(o, RN_KEY(AN_ACS_BLOCK), b, 2);
     } else {
-        cJSON_AddNullToObject(o, "acs_block");
+        cJSON_AddNullToObject(o, RN_KEY(AN_ACS_BLOCK));
     }
-    add_num(o, "max_gap_dk", a->max_gap);
+    add_num(o, RN_KEY(AN_MAX_GAP), a->max_gap);
     if (a->cartesian && !a->plane) {
         cJSON *g = cJSON_AddObjectToObject(o, "max_gap_dk_by_axis");
         for (int i = 0; i < 2; i++)
             add_num(g, a->axes[i], a->gap_axis[i]);
     }
     add_psf(o, a);
-    add_num(o, "tpsf_incoherence", a->tpsf_max);
+    add_num(o, RN_KEY(AN_TPSF), a->tpsf_max);
     if (a->tpsf_levels) {
         cJSON_AddStringToObject(o, "tpsf_wavelet", "db4");
         kw_json_add_vec(o, "tpsf_by_level", a->tpsf, a->tpsf_levels);
@@ -76,8 +77,8 @@ cJSON *kw_pattern_analysis_json_build(const kw_pattern_analysis *a, const char *
         cJSON_AddNullToObject(o, "tpsf_by_level");
     }
     if (!a->cartesian) {
-        add_num(o, "spokes", (double)a->spokes);
-        add_num(o, "nyquist_spokes", a->nyquist_spokes);
+        add_num(o, RN_KEY(AN_SPOKES), (double)a->spokes);
+        add_num(o, RN_KEY(AN_NYQUIST_SPOKES), a->nyquist_spokes);
     }
     return o;
 }

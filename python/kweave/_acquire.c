@@ -524,9 +524,10 @@ static void acq_dealloc(AcqObject *self)
 static int parse_keywords(PyObject *kwargs, acq_args *a)
 {
     memset(a, 0, sizeof *a);
-    a->b0 = 3.0;
-    a->coil_order = 4;
-    a->slice_points = 8;
+    kw_acquisition_options dflt; /* the library's defaults, as the command takes them */
+    kw_acquisition_options_init(&dflt);
+    a->b0 = dflt.b0_t;
+    a->slice_points = dflt.slice_points;
     const kwpy_kw table[] = {
         {"phantom", KWPY_STR, &a->phantom, 0, &a->s_ph},
         {"matrix", KWPY_OBJ, &a->matrix, 0, &a->s_mx},

@@ -82,3 +82,91 @@ def test_the_failing_line_is_a_sentence():
     assert p.returncode == 3
     line = next(l for l in p.stdout.splitlines() if l.startswith("Feasible: NO. Failing:"))
     assert line.endswith(").") and not line.endswith(";") and "); te (" in line
+
+
+def _options(verb):
+    """{option: (placeholder or None, help text)} of a verb's --help, the
+    help of a long option joined from the line below it."""
+    lines = run(verb, "--help").stdout.splitlines()
+    opts, out, i = lines[lines.index("Options:") + 1:], {}, 0
+    while i < len(opts):
+        m = re.match(r"  (--[a-z0-9-]+)( [A-Z0-9_]+)?(?: {2,}(\S.*))?$", opts[i])
+        text = m.group(3)
+        if text is None:
+            i += 1
+            text = opts[i].strip()
+        out[m.group(1)] = (m.group(2), text)
+        i += 1
+    return out
+
+
+# File options of verbs whose option tables other work is changing (recon,
+# score, render, sweep, demo): their help does not yet say required / none.
+# Left for those tables; remove an entry once its help says so.
+NOT_YET_STATED = {
+    "recon": {"--in", "--out", "--sens", "--sens-out", "--noise-cov", "--ref", "--json",
+              "--gfactor", "--trajectory", "--dcf", "--dcf-out"},
+    "score": {"--ref", "--test", "--json", "--diff"},
+    "render": {"--in", "--out"},
+    "sweep": {"--spec", "--out"},
+    "demo": {"--out"},
+}
+
+
+@pytest.mark.parametrize("verb", VERBS)
+def test_every_option_with_a_value_states_its_default(verb):
+    """Issue 17: an option that takes a value has a placeholder and says its
+    default, or says that it is required, or that there is none."""
+    for opt, (arg, text) in _options(verb).items():
+        if arg is None or opt in NOT_YET_STATED.get(verb, ()):
+            continue     # a flag: off unless given
+        assert re.search(r"\bdefault\b|\brequired\b|\bnone\b", text), f"{verb} {opt}: {text!r}"
+
+
+def _default(verb, opt):
+    text = _options(verb)[opt][1]
+    m = re.search(r"default:? ([^ ;,)]+)", text)
+    assert m, f"{verb} {opt}: {text!r}"
+    return m.group(1)
+
+
+@pytest.mark.parametrize("opt", ["--fov", "--gmax", "--slew", "--raster", "--shots"])
+def test_plan_and_pattern_share_their_defaults(opt):
+    """One default per quantity (libencode/defaults.h), the same in both verbs."""
+    assert _default("plan", opt) == _default("pattern", opt)
+
+
+def test_the_spiral_readout_limit_is_the_same_in_plan_and_pattern():
+    plan = _default("plan", "--max-readout")
+    pat = re.search(r"readouts <= (\S+?)\)", _options("pattern")["--interleaves"][1]).group(1)
+    assert plan == pat == "10ms"
+
+
+def test_plan_and_encode_share_the_field():
+    assert _default("plan", "--b0") == _default("encode", "--b0") == "3T"
+
+
+def test_the_pattern_radial_dwell_is_the_plans_bandwidth_per_pixel():
+    bw = re.search(r"default (\S+)$", _options("plan")["--bandwidth"][1]).group(1)
+    assert f"1/({bw} x N)" in _options("pattern")["--dwell"][1]
+
+
+def test_plan_and_encode_sequences_say_which_quantity_each_is():
+    """Not one quantity: plan times a pulse sequence (gre), encode chooses
+    the signal model (pd); each help names the other's default."""
+    plan, enc = _options("plan")["--sequence"][1], _options("encode")["--sequence"][1]
+    assert "default gre" in plan and "pd" in plan
+    assert "default: proton density" in enc and "default gre" in enc
+
+
+def test_the_spiral_defaults_match_in_the_planner_and_the_pattern(tmp_path):
+    """The same spiral (256 mm, 40 mT/m, 150 T/m/s, 4 us dwell = 250 kHz):
+    plan and pattern choose the same number of interleaves by default."""
+    import json
+    run("plan", "--sequence", "spiral", "--matrix", "128", "--bandwidth", "250kHz",
+        "--json", tmp_path / "p.json", check=False)
+    run("pattern", "--kind", "spiral", "--matrix", "128", "--out", tmp_path / "s.npy")
+    plan = json.loads((tmp_path / "p.json").read_text())
+    pat = json.loads((tmp_path / "s.json").read_text())
+    assert plan["interleaves"] == pat["interleaves"] == 6, (plan, pat)
+    assert plan["readout_per_interleave_s"] == pat["readout_s"] <= 10e-3
