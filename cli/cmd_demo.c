@@ -99,7 +99,7 @@ int kw_cmd_demo(int argc, char **argv)
     const char *out = NULL;
     long seed = 2026;
     const kw_opt opts[] = {
-        {"out", KW_OPT_STRING, &out, 0, NULL, "folder for every file of the demo (created)"},
+        {"out", KW_OPT_STRING, &out, 0, NULL, "folder for every file of the demo (created) (required)"},
         {"seed", KW_OPT_INT, &seed, 0, NULL, "noise seed (default 2026)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };

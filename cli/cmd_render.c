@@ -88,8 +88,8 @@ int kw_cmd_render(int argc, char **argv)
     int montage = 0;
     int seen[9] = {0};
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin) or FILE.h5:/dataset"},
-        {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout)"},
+        {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin) or FILE.h5:/dataset (required)"},
+        {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout) (required)"},
         {"part", KW_OPT_STRING, &part, KW_UNIT_NONE, &seen[2],
          "mag (default), phase, real, imag, logmag"},
         {"depth", KW_OPT_INT, &depth, KW_UNIT_NONE, &seen[3], "bits per pixel: 8 (default) or 16"},

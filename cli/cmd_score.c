@@ -123,10 +123,10 @@ int kw_cmd_score(int argc, char **argv)
     const char *refp = NULL, *testp = NULL, *json = NULL, *diff = NULL;
     int fit = 0;
     const kw_opt table[] = {
-        {"ref", KW_OPT_STRING, &refp, 0, NULL, "reference image .npy (or FILE.h5:/dataset)"},
-        {"test", KW_OPT_STRING, &testp, 0, NULL, "image to score .npy (or FILE.h5:/dataset)"},
-        {"json", KW_OPT_STRING, &json, 0, NULL, "JSON report (keys nrmse, psnr_db, ssim; - for stdout)"},
-        {"diff", KW_OPT_STRING, &diff, 0, NULL, "picture of |test| - |ref| (.png) with its grey bar and multiplier"},
+        {"ref", KW_OPT_STRING, &refp, 0, NULL, "reference image .npy (or FILE.h5:/dataset) (required)"},
+        {"test", KW_OPT_STRING, &testp, 0, NULL, "image to score .npy (or FILE.h5:/dataset) (required)"},
+        {"json", KW_OPT_STRING, &json, 0, NULL, "JSON report (keys nrmse, psnr_db, ssim; - for stdout; default: none)"},
+        {"diff", KW_OPT_STRING, &diff, 0, NULL, "picture of |test| - |ref| (.png) with its grey bar and multiplier (default: none)"},
         {"fit-scale", KW_OPT_FLAG, &fit, 0, NULL,
          "score test / s, s the least-squares intensity ratio (default: as given)"},
         {NULL, 0, NULL, 0, NULL, NULL},

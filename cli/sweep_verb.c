@@ -29,8 +29,8 @@ int kw_sweep_parse(int argc, char **argv, kw_sweep_opts *o, kw_sweep *sw, int mp
 {
     memset(o, 0, sizeof *o);
     const kw_opt opts[] = {
-        {"spec", KW_OPT_STRING, &o->spec, 0, NULL, "the sweep spec (JSON, docs/sweep.md)"},
-        {"out", KW_OPT_STRING, &o->out, 0, NULL, "output folder (created; reused to resume)"},
+        {"spec", KW_OPT_STRING, &o->spec, 0, NULL, "the sweep spec (JSON, docs/sweep.md) (required)"},
+        {"out", KW_OPT_STRING, &o->out, 0, NULL, "output folder (created; reused to resume) (required)"},
         {"jobs", KW_OPT_INT, &o->jobs, 0, NULL,
          "experiments at once on this machine (default: the cores; ignored under MPI)"},
         {"pictures", KW_OPT_FLAG, &o->pictures, 0, NULL,

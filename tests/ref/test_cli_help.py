@@ -100,17 +100,8 @@ def _options(verb):
     return out
 
 
-# File options of verbs whose option tables other work is changing (recon,
-# score, render, sweep, demo): their help does not yet say required / none.
-# Left for those tables; remove an entry once its help says so.
-NOT_YET_STATED = {
-    "recon": {"--in", "--out", "--sens", "--sens-out", "--noise-cov", "--ref", "--json",
-              "--gfactor", "--trajectory", "--dcf", "--dcf-out"},
-    "score": {"--ref", "--test", "--json", "--diff"},
-    "render": {"--in", "--out"},
-    "sweep": {"--spec", "--out"},
-    "demo": {"--out"},
-}
+# Every verb's help now states required / none for its file options too.
+NOT_YET_STATED = {}
 
 
 @pytest.mark.parametrize("verb", VERBS)
