@@ -328,6 +328,8 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
                 positional[(*npos)++] = a;
                 continue;
             }
+            if (positional && npos && maxpos > 0)
+                return kw_cli_fail(a, "one file too many (at most %d may follow; see --help)", maxpos);
             return kw_cli_fail(a, "unexpected argument (options start with --; see --help)");
         }
         const char *name = a + 2;

@@ -107,6 +107,10 @@ static const struct {
 
 /* A failed library call: blame the option of the parameter at fault, or
  * report it under `context`. */
+/* The text report: stdout, or nowhere when --json - puts the JSON there (one
+ * report on stdout). */
+static FILE *txt;
+
 static int pattern_fail(kw_status st, const char *context)
 {
     const char *param = kw_last_error_param();
@@ -236,7 +240,7 @@ static int traj_options(const gen_opts *g, kw_pattern_options *o)
 /* After writing the pattern: print the analysis, write --json / --psf / --png. */
 static int report_generated(const gen_opts *g, kw_pattern_report *a)
 {
-    kw_pattern_cli_text(stdout, a);
+    kw_pattern_cli_text(txt, a);
     int rc;
     if (g->json) {
         cJSON *j = kw_pattern_cli_json(a);
@@ -379,27 +383,27 @@ static int traj_write(const gen_opts *g, const kw_pattern *p)
 static void traj_lines(const kw_pattern_options *o, const kw_pattern_info *in)
 {
     if (o->kind == KW_PATTERN_SPIRAL) {
-        printf("  spiral                  %d interleaves, %zu samples each, readout "
+        fprintf(txt, "  spiral                  %d interleaves, %zu samples each, readout "
                "%.3f ms (design |G| %.2f mT/m, slew %.1f T/m/s)\n", in->interleaves,
                in->readout_samples, in->spiral_readout_s * 1e3, in->gmax_design * 1e3,
                in->slew_design);
     } else if (o->kind == KW_PATTERN_EPI) {
-        printf("  EPI                     %d shot(s), %d lines each, echo spacing "
+        fprintf(txt, "  EPI                     %d shot(s), %d lines each, echo spacing "
                "%.3f ms, train %.3f ms, k = 0 at %.3f ms\n", in->shots,
                in->lines_per_shot, in->echo_spacing_s * 1e3, in->train_s * 1e3,
                in->center_time_s * 1e3);
     } else {
-        printf("  angle increment         %.6f deg (%s)\n", in->angle_increment_deg,
+        fprintf(txt, "  angle increment         %.6f deg (%s)\n", in->angle_increment_deg,
                in->tiny == 1 ? "golden angle 180/phi" : in->tiny > 1 ? "tiny golden angle"
                                                                     : "uniform");
-        printf("  readout                 %zu samples (oversampling %d: %g cycle/FOV apart), "
+        fprintf(txt, "  readout                 %zu samples (oversampling %d: %g cycle/FOV apart), "
                "ADC dwell %g us, %g us per pixel, duration %g ms, k = 0 at %g ms\n",
                in->readout_samples, in->oversampling, 1.0 / in->oversampling,
                in->dwell_s * 1e6, in->dwell_per_pixel_s * 1e6, in->readout_duration_s * 1e3,
                in->te_s * 1e3);
         return;
     }
-    printf("  limits                  %.1f mT/m, %.1f T/m/s, raster %g us, dwell %g us\n",
+    fprintf(txt, "  limits                  %.1f mT/m, %.1f T/m/s, raster %g us, dwell %g us\n",
            in->gmax * 1e3, in->slew, in->raster * 1e6, in->dwell_s * 1e6);
 }
 
@@ -425,7 +429,7 @@ static int traj_report(const gen_opts *g, const kw_pattern_options *o, const kw_
     } else {
         traj_lines(o, in);
         rc = report_generated(g, &a);
-        printf("%s\n", KW_SAFETY_CAUTION);
+        fprintf(txt, "%s\n", KW_SAFETY_CAUTION);
     }
     kw_pattern_analysis_free(&a.r);
     return rc;
@@ -465,7 +469,7 @@ static int run_compare(const gen_opts *g, const char **files, int nfiles)
             break;
     }
     if (rc < 0) {
-        kw_pattern_cli_compare_table(stdout, as, n);
+        kw_pattern_cli_compare_table(txt, as, n);
         if (g->json) {
             cJSON *arr = cJSON_CreateArray();
             for (int i = 0; i < n; i++)
@@ -490,7 +494,7 @@ static int run_analyse(const gen_opts *g)
     kw_pattern_report a;
     int rc = kw_pattern_cli_analyse_file(g->analyse, &a, g->psf_size);
     if (rc < 0) {
-        kw_pattern_cli_text(stdout, &a);
+        kw_pattern_cli_text(txt, &a);
         if (g->json) {
             cJSON *j = kw_pattern_cli_json(&a);
             kw_status st = kw_json_write(g->json, j);
@@ -603,7 +607,7 @@ int kw_cmd_pattern(int argc, char **argv)
         {"times", KW_OPT_STRING, &g.times, KW_UNIT_NONE, NULL, "sample times file (default OUT_times.npy)"},
         {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy; default: not written)"},
         {"png", KW_OPT_STRING, &g.png, KW_UNIT_NONE, NULL, "picture of the pattern (or of --compare; default: not written)"},
-        {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON (default: not written)"},
+        {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON (- for stdout, in place of the text; default: not written)"},
         {"psf", KW_OPT_STRING, &g.psf, KW_UNIT_NONE, NULL, "picture of the PSF (log scale; default: not written)"},
         {"psf-size", KW_OPT_INT, &g.psf_size, KW_UNIT_NONE, NULL, "non-Cartesian PSF grid (default min(N,128))"},
         {"analyse", KW_OPT_STRING, &g.analyse, KW_UNIT_NONE, NULL, "analyse a mask or trajectory file (default: none, make one with --kind)"},
@@ -624,9 +628,16 @@ int kw_cmd_pattern(int argc, char **argv)
     if ((g.compare || g.analyse) && g.seen_ros)
         return kw_cli_fail("readout-oversampling", "only when making a trajectory (--kind); "
                            "the analysis reads it from the sidecar");
-    if (g.compare)
-        return run_compare(&g, files, nfiles);
-    if (g.analyse)
-        return run_analyse(&g);
-    return run_generate(&g);
+    FILE *sink = NULL;
+    txt = stdout;
+    if (g.json && strcmp(g.json, "-") == 0) {
+        if (!(sink = fopen("/dev/null", "w")))
+            return kw_cli_fail("json", "cannot open /dev/null to set the text report aside");
+        txt = sink;
+    }
+    rc = g.compare ? run_compare(&g, files, nfiles) : g.analyse ? run_analyse(&g) : run_generate(&g);
+    txt = stdout;
+    if (sink)
+        fclose(sink);
+    return rc;
 }

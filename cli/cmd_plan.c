@@ -259,7 +259,8 @@ static int report(const kw_protocol *p, const char *json_path, const char *plot,
         kw_plan_destroy(r);
         return kw_cli_status(st, "kplot");
     }
-    report_text(r, ref_factor);
+    if (!json_path || strcmp(json_path, "-") != 0) /* one report on stdout */
+        report_text(r, ref_factor);
     int feasible = r->feasible;
     kw_plan_destroy(r);
     return feasible ? KW_EXIT_OK : KW_EXIT_INFEASIBLE;
@@ -357,7 +358,7 @@ int kw_cmd_plan(int argc, char **argv)
          "signal averages (default 1)"},
         {"reference", KW_OPT_STRING, &reference, KW_UNIT_NONE, NULL,
          "protocol file of a reference protocol for the relative SNR (default: none)"},
-        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON (default: not written)"},
+        {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON (- for stdout, in place of the text; default: not written)"},
         {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG (default: not written)"},
         {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG (default: not written)"},
         {NULL, 0, NULL, 0, NULL, NULL}};

@@ -225,6 +225,9 @@ int enc_protocol_read(enc_args *a, enc_files *f, kw_contrast_kind seq)
     kw_status pst = kw_protocol_input_encode_fill(enc_pin, own, &f->protocol);
     if (pst)
         return kw_cli_status(pst, "protocol");
+    /* its bandwidth line, if any, became --bandwidth; without one the library
+     * applies the planner's default per pixel to the matrix actually used */
+    f->protocol.bandwidth_hz = 0;
     const char *sq = f->plan_sequence ? f->plan_sequence
                                       : (seq == KW_CONTRAST_SE || seq == KW_CONTRAST_IR ? "se" : "gre");
     static const char *const kinds[] = {"gre", "se", "epi", "radial", "spiral"};

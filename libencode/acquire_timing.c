@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "acquire_int.h"
+#include "defaults.h"
 #include "kw_sequence.h"
 
 /* Every tissue of the phantom: the table's values exist at 1.5 and 3 T;
@@ -42,6 +43,8 @@ static kw_status acq_plan(kw_acquisition *a)
     }
     if (a->bw > 0)
         pp.bandwidth_hz = a->bw;
+    else if (!(pp.bandwidth_hz > 0)) /* not stated: the planner's default */
+        pp.bandwidth_hz = KWD_BW_PER_PIXEL_HZ * (double)pp.matrix[0];
     pp.b0_t = o->b0_t;
     pp.te_s = o->te_s;
     pp.tr_s = o->tr_s;

@@ -112,7 +112,9 @@ typedef struct kw_acquisition_options {
     /* ---- a protocol of the planner (kw_plan_create) or NULL: its
      * sequence gives the timing (minimum TE, TR, EPI echo spacing and
      * partial Fourier); the fields above override its fov, matrix,
-     * bandwidth, b0, te and tr. ---- */
+     * bandwidth, b0, te and tr. Its bandwidth_hz 0 (and no bandwidth
+     * above) means the planner's default, 250 Hz/pixel x the readout
+     * matrix. ---- */
     const kw_protocol *protocol;
 
     size_t max_bytes;        /* working-set limit (0: none): create fails

@@ -298,3 +298,29 @@ def test_recon_hdf5_output_onto_its_hdf5_input_is_refused(data, tmp_path):
     refused(kw("recon", "--in", f"{d}/raw.h5:/kspace", "--fov", "200mm", "--out", f"{d}/raw.h5:/image"),
             "is also an input")
     assert snapshot(d) == before
+
+
+@pytest.mark.parametrize("argv", [
+    ["plan", "--fov", "256mm", "--matrix", "128", "--json", "-"],
+    ["pattern", "--kind", "uniform", "--matrix", "32x32", "--accel", "2", "--out", "{d}/u.npy",
+     "--json", "-"],
+    ["pattern", "--kind", "golden", "--matrix", "32", "--spokes", "8", "--out", "{d}/g.npy",
+     "--json", "-"],
+    ["score", "--ref", "{d}/truth.npy", "--test", "{d}/truth.npy", "--json", "-"],
+])
+def test_json_to_stdout_is_the_only_report_there(data, tmp_path, argv):
+    """One consumer of stdout: with --json - the text report is set aside, so
+    stdout parses as one JSON value."""
+    import json
+    d = copy_of(data, tmp_path)
+    r = kw(*[a.replace("{d}", str(d)) for a in argv])
+    assert r.returncode == 0, r.stderr
+    json.loads(r.stdout)
+
+
+def test_compare_with_too_many_files_says_so(data, tmp_path):
+    m = np.zeros((16, 16), np.uint8)
+    m[::2] = 1
+    np.save(tmp_path / "m.npy", m)
+    files = [tmp_path / "m.npy"] * 9
+    refused(kw("pattern", "--compare", *files), "one file too many (at most 8")

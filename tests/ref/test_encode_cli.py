@@ -166,3 +166,19 @@ def test_missing_out_and_unwritable(tmp_path):
     ks = tmp_path / "ks.npy"
     bad(*BASE, "--out", ks, "--truth", tmp_path / "nodir" / "t.npy", field="truth")
     assert not ks.exists()
+
+
+def test_protocol_without_bandwidth_is_timed_as_plan_times_it(tmp_path):
+    """A protocol file with no bandwidth line: encode used 250 Hz/pixel x 256
+    whatever the matrix (64 kHz, minimum TE 2.12 ms at matrix 64) while plan
+    uses 250 Hz/pixel x the matrix (3.6 ms). Both now take the planner's
+    default (libencode/defaults.h) for the matrix actually used."""
+    proto = tmp_path / "p64.protocol"
+    proto.write_text("sequence = gre\nfov = 240mm\nmatrix = 64\n")
+    plan = json.loads(run("plan", "--protocol", proto, "--json", "-").stdout)
+    run("encode", "--phantom", "weave", "--protocol", proto, "--flip", "20",
+        "--out", tmp_path / "k.npy")
+    side = json.loads((tmp_path / "k.json").read_text())["protocol"]
+    assert side["min_te_s"] == pytest.approx(plan["timing"]["min_te_s"] if "timing" in plan
+                                             else plan["min_te_s"], rel=1e-12)
+    assert side["bandwidth_hz"] == pytest.approx(250.0 * 64)
