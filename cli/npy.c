@@ -7,6 +7,7 @@
 
 #include <errno.h>
 #include <inttypes.h>
+#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -304,6 +305,18 @@ kw_status kw_npy_write(const char *path, const kw_array *a)
     case KW_F32: descr = "<f4"; break;
     case KW_U8: descr = "|u1"; break;
     default: return kw_set_error(KW_EINVAL, "npy: unknown dtype");
+    }
+    /* No inf or NaN leaves kweave in an array: a value beyond float range
+     * means an input or option drove the result there (issue 18). */
+    if (a->dtype != KW_U8 && kw_array_count(a)) {
+        const float *v = a->data;
+        size_t n = kw_array_count(a) * (a->dtype == KW_C64 ? 2 : 1), bad = 0;
+        for (size_t i = 0; i < n; i++)
+            bad += !isfinite(v[i]);
+        if (bad)
+            return kw_set_error(KW_ENUMERIC, "%s: %zu of %zu values of the result are not finite "
+                                "(inf or NaN): an input or option drives it beyond float range; "
+                                "nothing written", path, bad, n);
     }
     char shape[256] = "(";
     for (int i = 0; i < a->ndim; i++) {

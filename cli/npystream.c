@@ -9,6 +9,7 @@
 #include "outfile.h"
 
 #include <errno.h>
+#include <math.h>
 #include <stdint.h>
 #include <stdlib.h>
 #include <string.h>
@@ -197,6 +198,10 @@ kw_status kw_npyw_write(kw_npyw *w, size_t first, const void *data, size_t n)
         KW_FAIL_IF(fseeko(w->of.fp, w->data_off + (off_t)(first * w->esize), SEEK_SET) != 0,
                    KW_EIO, "out: seek failed: %s", strerror(errno));
     }
+    const float *v = data;
+    for (size_t i = 0; i < n * (w->esize / 4); i++)
+        KW_FAIL_IF(!isfinite(v[i]), KW_ENUMERIC, "out: a value of the result is not finite "
+                   "(inf or NaN): an input or option drives it beyond float range");
     KW_FAIL_IF(n && fwrite(data, w->esize, n, w->of.fp) != n, KW_EIO, "out: write failed: %s",
                strerror(errno));
     w->next = first + n;

@@ -2,6 +2,7 @@
  * Contrast and timing: acquire_timing.c; sampling: acquire_sampling.c;
  * coils and noise: acquire_coils.c; multi-slice: acquire_slices.c.
  * Definitions of SNR, noise and the k-space scale: docs/simulator.md. */
+#include <float.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -49,9 +50,12 @@ static kw_status acq_grid(kw_acquisition *a)
     kw_status st = kw_phantom_make(&a->ph, o->phantom);
     if (st)
         return kw_set_error_param(st, "phantom", "%s", kw_last_error_reason());
-    KW_FAIL_PARAM(o->dims[2] < 1 || o->dims[2] > KW_ACQ_MAX_EDGE || o->dims[1] > KW_ACQ_MAX_EDGE ||
+    /* 2 at least: a reconstruction needs a centre and a neighbour on each
+     * axis, and an array kweave writes must be one kweave reads */
+    KW_FAIL_PARAM(o->dims[2] < 2 || o->dims[2] > KW_ACQ_MAX_EDGE || o->dims[1] == 1 ||
+                      o->dims[1] > KW_ACQ_MAX_EDGE || o->dims[0] == 1 ||
                       o->dims[0] > KW_ACQ_MAX_EDGE, KW_EINVAL, "dims",
-                  "each size must be a whole number 1..%d", KW_ACQ_MAX_EDGE);
+                  "each size must be a whole number 2..%d", KW_ACQ_MAX_EDGE);
     size_t nx = o->dims[2], ny = o->dims[1] ? o->dims[1] : nx, nz = o->dims[0];
     if (o->slices || o->slice_thickness_m != 0 || o->slice_gap_m != 0) {
         KW_FAIL_PARAM(o->slices == 0, KW_EINVAL, "slices", "missing (the slice options need slices)");
@@ -279,6 +283,15 @@ static kw_status acq_build(kw_acquisition *a)
             double m = object_mean(a->truth, a->npix);
             KW_FAIL_PARAM(!(m > 0), KW_EINVAL, "snr", "the phantom has no signal with this contrast");
             a->sigma = m / a->o.snr;
+            /* the covariance (sigma^2) is written as complex64: it must stay
+             * well inside float range, neither overflow nor underflow */
+            double s2 = a->sigma * a->sigma, hi = FLT_MAX / 1e6, lo = FLT_MIN * 1e6;
+            KW_FAIL_PARAM(!(s2 < hi), KW_ERANGE, "snr",
+                          "%g puts the noise level (sigma %.3g) beyond float range; the lowest "
+                          "SNR for this object is %.3g", a->o.snr, a->sigma, m / sqrt(hi));
+            KW_FAIL_PARAM(!(s2 > lo), KW_ERANGE, "snr",
+                          "%g puts the noise level (sigma %.3g) below float resolution; the "
+                          "highest SNR for this object is %.3g", a->o.snr, a->sigma, m / sqrt(lo));
         }
         if ((st = kw_acq_noise_level(a)))
             return st;

@@ -307,7 +307,11 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
     }
     if (!ok) {
         free(k), free(g);
-        return kw_set_error(KW_EINTERNAL, "spiral: no design met the limits on the raster");
+        /* an unattainable input (a slew rate far too low for the raster),
+         * not a failure of the design */
+        KW_FAIL_PARAM(1, KW_EINFEASIBLE, "slew",
+                      "no spiral meets %g T/m and %g T/m/s on the %g us raster (raise the "
+                      "slew rate)", gcap, S, dt * 1e6);
     }
     const double gl = hypot(g[2 * n - 2], g[2 * n - 1]);
     nd = (size_t)steps_up(gl / S, dt);

@@ -58,6 +58,10 @@ kw_status kw_protocol_check(const kw_protocol *p)
                p->bandwidth_hz);
     KW_FAIL_IF(p->bandwidth_hz > 100e6, KW_EINVAL, "bandwidth: %g Hz is absurd (over 100 MHz)",
                p->bandwidth_hz);
+    /* a readout (matrix / bandwidth) over 1 s: no echo lives that long */
+    KW_FAIL_IF(p->bandwidth_hz < (double)p->matrix[0], KW_EINVAL,
+               "bandwidth: %g Hz/pixel is absurd (a readout of %g s; at least 1 Hz/pixel)",
+               p->bandwidth_hz / p->matrix[0], p->matrix[0] / p->bandwidth_hz);
     KW_FAIL_IF(!pos(p->b0_t) || p->b0_t > 100, KW_EINVAL,
                "b0: must be a positive field up to 100 T (got %g T)", p->b0_t);
     KW_FAIL_IF(!pos(p->gmax_T_per_m) || p->gmax_T_per_m > 10, KW_EINVAL,

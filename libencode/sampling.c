@@ -410,7 +410,7 @@ kw_status kw_mask_make(const kw_mask_options *caller, uint8_t *mask, float *prob
                     /* sampled kz rows every Rz; within row j = kz / Rz the ky
                      * positions move by shift * j (mod Ry): Breuer 2006 */
                     on = fmod_l(kz, rz) == 0 &&
-                         fmod_l(ky - o->shift * fdiv_l(kz, rz), ry) == 0;
+                         fmod_l(ky - fmod_l(o->shift, ry) * fdiv_l(kz, rz), ry) == 0;
                 int in = allowed(o, iy, iz);
                 mask[i] = in && (on || in_acs(o, iy, iz));
                 if (prob)
