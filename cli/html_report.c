@@ -40,7 +40,7 @@ static const char css[] =
     "th,td{border:1px solid #bbb;padding:0.15em 0.6em;text-align:left;vertical-align:top}\n"
     "thead th{background:#eee}tbody th{font-weight:normal;background:#f7f7f7}\n"
     "td.n{text-align:right;font-variant-numeric:tabular-nums}\n"
-    ".fail{color:#a00}\n"
+    ".fail{color:#a00}td.fail{min-width:18em}\n"
     "figure{margin:1.2em 0}\n"
     "img{max-width:100%;height:auto;border:1px solid #ccc;background:#000}\n"
     "figcaption{margin-top:0.3em;color:#333}\n"
@@ -691,7 +691,8 @@ kw_status kw_html_sweep(const kw_sweep *sw, cJSON *const *rows, const char *dir)
     fprintf(f, "<p>%d experiments in the spec, %d done, %d of them with scores (status ok). "
                "Scores against the simulator's truth: NRMSE (lower is better), PSNR and SSIM "
                "(higher is better). The same numbers, unrounded, are in results.csv and "
-               "results.json.</p>\n",
+               "results.json. A dash: a parameter left at the method's default, or no "
+               "score.</p>\n",
             sw->nrows, ndone, nok);
     fputs("<h2>Shared by every experiment</h2>\n<table>\n<tbody>\n", f);
     const cJSON *first = NULL;
