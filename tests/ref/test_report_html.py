@@ -249,7 +249,7 @@ window.addEventListener('load', function () {
            "--disable-sync", f"--user-data-dir={tmp / 'profile'}", "--enable-logging=stderr",
            "--v=0", "--dump-dom", copy.as_uri()]
     env = dict(os.environ, HOME=str(tmp), XDG_CONFIG_HOME=str(tmp / "config"),
-               XDG_CACHE_HOME=str(tmp / "cache"))
+               XDG_CACHE_HOME=str(tmp / "cache"), TMPDIR=str(tmp))
     p = subprocess.run(cmd, capture_output=True, text=True, timeout=60, env=env, cwd=tmp)
     assert p.returncode == 0, p.stderr[-2000:]
     m = re.search(r'<pre id="kwcheck">(.*?)</pre>', p.stdout, re.S)
