@@ -43,6 +43,7 @@ static const char css[] =
     ".fail{color:#a00}td.fail{min-width:18em}\n"
     "figure{margin:1.2em 0}\n"
     "img{max-width:100%;height:auto;border:1px solid #ccc;background:#000}\n"
+    "img.x2{image-rendering:pixelated}\n"
     "figcaption{margin-top:0.3em;color:#333}\n"
     ".caution{border-left:4px solid #c60;background:#fff4e5;padding:0.5em 1em}\n";
 
@@ -80,12 +81,22 @@ static kw_status figure(FILE *f, const char *dir, const char *rel, const char *c
     snprintf(p, sizeof p, "%s/%s", dir, rel);
     FILE *in = fopen(p, "rb");
     KW_FAIL_IF(!in, KW_EIO, "%s: cannot read the picture", p);
+    unsigned char b[3 * 1024];
+    size_t n = fread(b, 1, sizeof b, in);
     fputs("<figure>\n<img alt=\"", f);
     esc(f, rel);
+    /* A small picture (the PNG's IHDR: width and height at bytes 16..23) is
+     * shown at twice its size, pixels kept sharp. */
+    unsigned long w = 0, h = 0;
+    if (n >= 24 && memcmp(b + 12, "IHDR", 4) == 0)
+        for (int i = 0; i < 4; i++) {
+            w = w << 8 | b[16 + i];
+            h = h << 8 | b[20 + i];
+        }
+    if (w > 0 && h > 0 && w <= 320 && h <= 320)
+        fprintf(f, "\" class=\"x2\" width=\"%lu\" height=\"%lu", 2 * w, 2 * h);
     fputs("\" src=\"data:image/png;base64,", f);
-    unsigned char b[3 * 1024];
-    size_t n;
-    while ((n = fread(b, 1, sizeof b, in)) > 0) {
+    for (; n > 0; n = fread(b, 1, sizeof b, in)) {
         for (size_t i = 0; i < n; i += 3) {
             unsigned v = (unsigned)b[i] << 16 | (i + 1 < n ? (unsigned)b[i + 1] << 8 : 0) |
                          (i + 2 < n ? b[i + 2] : 0);
