@@ -4,7 +4,8 @@
  * appended with one write() on an O_APPEND descriptor and fsync'd, so a
  * kill leaves at most a torn last line (no newline); loading drops it.
  * results.csv / results.json are rebuilt from the journal, rows in spec
- * order, and replaced atomically (kw_outfile). */
+ * order, and replaced atomically (kw_outfile); at the end of a run also the
+ * summary plots and report.html (html_report.c). */
 #include <errno.h>
 #include <fcntl.h>
 #include <math.h>
@@ -17,6 +18,7 @@
 #include <cJSON.h>
 
 #include "cli.h"
+#include "html_report.h"
 #include "jsonio.h"
 #include "outfile.h"
 #include "sweep.h"
@@ -237,6 +239,8 @@ int kw_sweep_write_results(const kw_sweep_ctx *c, int plots)
     }
     if (plots && (st = kw_sweep_plot(sw, rows, c->out)))
         rc = kw_cli_status(st, "plot");
+    else if (plots && (st = kw_html_sweep(sw, rows, c->out)))
+        rc = kw_cli_status(st, "report");
 done:
     for (int r = 0; r < sw->nrows; r++)
         cJSON_Delete(rows[r]);

@@ -5,7 +5,8 @@
 #   MODE=test:  build + python + Criterion + a C++ compiler (the header test) + Python
 #               reference libraries (numpy, scipy, scikit-image, PyWavelets,
 #               pytest; h5py and nibabel for the file-format checks) for
-#               /usr/bin/python3
+#               /usr/bin/python3; Chromium (Debian's chromium) for the check that
+#               opens report.html in a headless browser (tests/ref/test_report_html.py)
 # Missing Debian packages are installed with apt-get when run as root;
 # otherwise the script names them and fails.
 mode=${1:-build}
@@ -42,6 +43,7 @@ if [ "$mode" = test ]; then
         mod=${m%%:*}; deb=${m#*:}
         /usr/bin/python3 -c "import $mod" >/dev/null 2>&1 || need "$deb"
     done
+    command -v chromium >/dev/null 2>&1 || need chromium
 fi
 [ -z "$pkgs" ] && exit 0
 if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
