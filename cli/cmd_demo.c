@@ -249,9 +249,10 @@ int kw_cmd_demo(int argc, char **argv)
             "difference.png (the truth is drawn without the shift).\n"
             "Reconstruction (FFT, optimal coil combination) against the truth:\n"
             "NRMSE %.4f, PSNR %.2f dB, SSIM %.4f.\n\n"
-            "Files: plan.txt plan.json, kspace.npy kspace.json kspace.png (coils as a\n"
-            "montage), coil_maps.npy, truth.npy truth.png, recon.npy recon.png recon.json, score.json\n"
-            "difference.png, report.json, report.html (all of it on one page).\n\n%s\n",
+            "Files: plan.txt plan.json, kspace.npy kspace.json kspace.png (one\n"
+            "labelled tile per coil), coil_maps.npy coil_maps.png, truth.npy truth.png,\n"
+            "recon.npy recon.png recon.json, score.json difference.png, report.json,\n"
+            "report.html (all of it on one page).\n\n%s\n",
             KW_VERSION_STRING, seed, larmor / 1e6, dwell * 1e6, gread * 1e3, bwpix,
             feasible ? "within the gradient limits" : "NOT within the gradient limits",
             csp, nrmse, psnr, ssim, KW_SAFETY_CAUTION);

@@ -98,7 +98,7 @@ run rec-cgsense recon --in vd4.npy --method cg-sense --out cgs.npy --ref truth12
 run rec-cs recon --in vd4.npy --method cs-wavelet --lambda 0.04 --iterations 60 --ref truth128.npy --out csw.npy --json csw.json
 run rec-cstv recon --in vd4.npy --method cs-tv --iterations 40 --ref truth128.npy --out cstv.npy
 run rec-spiral recon --in sp_ks.npy --method cg-sense --iterations 10 --out spc.npy
-run rec-ms recon --in ms.npy --out ms-img.npy --combine optimal --ref ms-truth.npy --json ms.json
+run rec-ms recon --in ms.npy --out ms-img.npy --combine optimal --ref ms-truth.npy --json ms-report.json
 run rec-gf recon --in r2.npy --method grappa --gfactor gf.npy --replicas 8 --seed 1 --out grg.npy
 run score score --ref truth128.npy --test s.npy --json sc.json --diff d.png
 

@@ -15,6 +15,15 @@ count the mask holds (pattern sidecars: 25 for 24 asked at R = 2); the
 planner's "readout / T2*" and "echo train / T2*" lines (EPI: the ratio now
 uses the whole train), the 3-D delta-k on three axes with the slab
 rephaser named, and the Failing line as a sentence.
+Re-recorded a third time (issues 16, 17, 18; 25 files changed, 5 new):
+pictures now drawn as figures with a grey bar, units, a title and labelled
+tiles (g.png, d.png with its multiplier, p_psf.png and u_psf.png in dB, the
+demo's pictures, the new demo-out/coil_maps.png); the demo's protocol (TE
+25 ms, flip 4 degrees, so that every vial shows) and its report.html; score
+reports gained intensity_ratio (sc.json, the demo's score and report); and
+two examples that overwrote an input's own sidecar now write their reports
+beside it (p_report.json, ms-report.json), which all-or-nothing runs refuse
+(p.json and ms.json are the sidecars again).
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
