@@ -144,16 +144,70 @@ int kw_cli_lib_status(kw_status st, const char *context, const kw_cli_param *map
     return kw_cli_status(st, context);
 }
 
-/* The argument's placeholder: the option's name in capitals ("--fov FOV",
- * "--rf-duration RF_DURATION"), as most command-line tools write it. */
+/* The argument's placeholder, by type: a physical quantity by its kind
+ * ("--fov LENGTH", "--slew SLEW"), an integer N, a plain number X, a file
+ * FILE or a folder DIR (a string option whose help names one), any other
+ * text by the option's name in capitals ("--method METHOD"). */
+static const char *unit_word(kw_unit_kind u)
+{
+    switch (u) {
+    case KW_UNIT_LENGTH: return "LENGTH";
+    case KW_UNIT_FIELD: return "FIELD";
+    case KW_UNIT_GRADIENT: return "GRADIENT";
+    case KW_UNIT_SLEW: return "SLEW";
+    case KW_UNIT_FREQUENCY: return "FREQ";
+    case KW_UNIT_TIME: return "TIME";
+    case KW_UNIT_TEMPERATURE: return "TEMP";
+    case KW_UNIT_ANGLE: return "ANGLE";
+    case KW_UNIT_PPM: return "PPM";
+    default: return "X";
+    }
+}
+
+static const kw_opt_arg *next_args, *help_args; /* set for, used by one parse */
+
+void kw_opts_set_args(const kw_opt_arg *list) { next_args = list; }
+
+static int help_names(const char *help, const char *const *words)
+{
+    for (; help && *words; words++)
+        if (strstr(help, *words))
+            return 1;
+    return 0;
+}
+
 static void placeholder(const kw_opt *o, char *buf, size_t n)
 {
-    size_t i = 0;
+    static const char *const files[] = {".npy", ".json", ".png", ".nii", ".h5", ".protocol",
+                                        ".csv", "FILE", "protocol file", "PNG", "JSON",
+                                        "picture", NULL};
+    static const char *const dirs[] = {"folder", NULL};
     if (o->type == KW_OPT_FLAG || n < 2) {
         if (n)
             buf[0] = '\0';
         return;
     }
+    const char *word = NULL;
+    for (const kw_opt_arg *g = help_args; g && g->name && !word; g++)
+        if (strcmp(g->name, o->name) == 0)
+            word = g->arg;
+    if (word)
+        ;
+    else if (o->type == KW_OPT_INT)
+        word = "N";
+    else if (o->type == KW_OPT_DOUBLE)
+        word = "X";
+    else if (o->type == KW_OPT_UNIT || (o->type == KW_OPT_STRING && o->unit != KW_UNIT_NONE))
+        word = unit_word(o->unit); /* a string option may name its quantity for the help */
+    else if (help_names(o->help, dirs))
+        word = "DIR";
+    else if (help_names(o->help, files))
+        word = "FILE";
+    if (word) {
+        snprintf(buf, n, " %s", word);
+        return;
+    }
+    size_t i = 0;
     buf[i++] = ' ';
     for (const char *c = o->name; *c && i + 1 < n; c++)
         buf[i++] = *c == '-' ? '_' : (char)toupper((unsigned char)*c);
@@ -295,6 +349,8 @@ static int set_value(const kw_opt *o, const char *val)
 int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
                   const char **positional, int maxpos, int *npos)
 {
+    help_args = next_args;
+    next_args = NULL;
     if (npos)
         *npos = 0;
     kw_npy_set_limit(kw_cli_memory_limit());

@@ -65,6 +65,17 @@ typedef struct kw_opt {
     const char *help;  /* one line; NULL hides the option from --help */
 } kw_opt;
 
+/*! kw_opts_set_args(): placeholders for the help of the next kw_opts_parse
+ * where the type does not tell ({name, "N"}, ..., {NULL, NULL}; text
+ * options whose text is a number). By default: a unit kind's word
+ * (LENGTH, TIME, ...; also for a string option whose `unit` names its
+ * quantity), N for integers, X for numbers, FILE or DIR for a string whose
+ * help names a file or a folder, else the option's name in capitals. */
+typedef struct kw_opt_arg {
+    const char *name, *arg;
+} kw_opt_arg;
+void kw_opts_set_args(const kw_opt_arg *list);
+
 /*! kw_opts_parse(): parse argv[1..] ("--name value" or "--name=value").
  * Returns -1 when all went well, otherwise the exit code to return (0 after
  * --help printed `usage` and the table, 2 after an error line). Positional

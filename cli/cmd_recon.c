@@ -189,7 +189,7 @@ static int parse(recon_ctx *c, int argc, char **argv)
         {"out", KW_OPT_STRING, &o->out, 0, NULL,
          "image: .npy (float32, or complex64 with --keep-coils or --complex), .png, .nii "
          "(NIfTI-1) or FILE.h5[:/dataset] (HDF5, default dataset /image, metadata as attributes) (required)"},
-        {"fov", KW_OPT_STRING, &c->fov, 0, NULL,
+        {"fov", KW_OPT_STRING, &c->fov, KW_UNIT_LENGTH, NULL,
          "field of view L[,LY[,LZ]] (e.g. 256mm; default: the sidecar's fov_m, else none)"},
         {"accel", KW_OPT_STRING, &c->accel, 0, NULL,
          "stated acceleration R or RYxRZ, checked against the data (default: the sidecar's, else inferred)"},

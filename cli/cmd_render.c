@@ -2,7 +2,7 @@
  *
  *   kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]
  *                 [--depth 8|16] [--window LO:HI] [--montage]
- *                 [--bar BAR] [--units UNITS] [--title TITLE] [--tile-label TILE_LABEL]
+ *                 [--bar LABEL] [--units UNITS] [--title TEXT] [--tile-label WORD]
  *
  * "-" reads standard input / writes standard output. Arrays of 3 or more
  * dimensions always come out as a montage of their 2-D slices (png.h);
@@ -27,7 +27,7 @@
 static const char usage_text[] =
     "usage: kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]\n"
     "                     [--depth 8|16] [--window LO:HI] [--montage]\n"
-    "                     [--bar BAR] [--units UNITS] [--title TITLE] [--tile-label TILE_LABEL]\n\n"
+    "                     [--bar LABEL] [--units UNITS] [--title TEXT] [--tile-label WORD]\n\n"
     "Draws any .npy array as a grey-scale PNG. 2-D arrays are one picture (row 0\n"
     "at the top); 3+-D arrays are a montage of their 2-D slices (last two axes)\n"
     "on a near-square grid. The automatic window runs from 0 (or the minimum if\n"
@@ -36,7 +36,7 @@ static const char usage_text[] =
     "Without --bar, --units, --title or --tile-label the PNG is the bare picture\n"
     "(one pixel per value, grey). Any of them draws a figure instead: a grey bar\n"
     "beside the picture with its values, the quantity and the units, a title,\n"
-    "and a montage with gaps between tiles (labelled TILE_LABEL 0, 1, ...) on a\n"
+    "and a montage with gaps between tiles (labelled WORD 0, 1, ...) on a\n"
     "grid without empty tiles where one exists (8-bit RGB).";
 
 static int parse_part(const char *s, kw_part *p)
@@ -98,15 +98,18 @@ int kw_cmd_render(int argc, char **argv)
         {"montage", KW_OPT_FLAG, &montage, KW_UNIT_NONE, NULL,
          "the input is a stack (3+ dims): tile its slices (the default for stacks)"},
         {"bar", KW_OPT_STRING, &fo.quantity, KW_UNIT_NONE, &seen[5],
-         "figure with a grey bar for the quantity BAR (default: the part's name)"},
+         "figure with a grey bar for the quantity LABEL (default: the part's name)"},
         {"units", KW_OPT_STRING, &fo.units, KW_UNIT_NONE, &seen[6],
          "figure; units after the bar's quantity, e.g. Hz (default none)"},
         {"title", KW_OPT_STRING, &fo.title, KW_UNIT_NONE, &seen[7],
          "figure; title above the picture (default none)"},
         {"tile-label", KW_OPT_STRING, &fo.tile_label, KW_UNIT_NONE, &seen[8],
-         "figure; montage tiles labelled TILE_LABEL 0, 1, ... e.g. coil (default none)"},
+         "figure; montage tiles labelled WORD 0, 1, ... e.g. coil (default none)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
+    static const kw_opt_arg args[] = {{"bar", "LABEL"}, {"title", "TEXT"}, {"tile-label", "WORD"},
+                                      {NULL, NULL}};
+    kw_opts_set_args(args);
     int rc = kw_opts_parse(argc, argv, table, usage_text, NULL, 0, NULL);
     if (rc >= 0)
         return rc;

@@ -1,5 +1,6 @@
 """Help texts and misspelt options of every verb (issue 17): each option's
-argument is named after the option (no one-letter placeholders), the help
+argument has a placeholder by type (LENGTH, TIME, N, X, FILE, DIR, ...) or,
+for other text, named after the option (no one-letter placeholders), the help
 column is aligned (a long option gets its help on the next line), a misspelt
 option is answered with the closest one, and the -ize spelling of an option
 spelt -ise is accepted."""
@@ -10,6 +11,25 @@ import pytest
 from conftest import run
 
 VERBS = ["plan", "pattern", "encode", "recon", "score", "render", "sweep", "demo"]
+# placeholders by type (cli/cli.c): quantities by kind, N integer, X number,
+# FILE / DIR, SIZE (--max-memory), and a few texts named for what they hold
+TYPED = {"LENGTH", "FIELD", "GRADIENT", "SLEW", "FREQ", "TIME", "TEMP", "ANGLE", "PPM", "N", "X",
+         "FILE", "DIR", "SIZE", "BANDWIDTH", "LABEL", "TEXT", "WORD"}
+
+
+@pytest.mark.parametrize("verb,opt,arg", [
+    ("plan", "--fov", "LENGTH"), ("plan", "--te", "TIME"), ("plan", "--b0", "FIELD"),
+    ("plan", "--gmax", "GRADIENT"), ("plan", "--slew", "SLEW"), ("plan", "--shots", "N"),
+    ("plan", "--tbw", "X"), ("plan", "--protocol", "FILE"), ("plan", "--json", "FILE"),
+    ("pattern", "--dwell", "TIME"), ("pattern", "--seed", "N"), ("pattern", "--out", "FILE"),
+    ("encode", "--flip", "ANGLE"), ("encode", "--df", "FREQ"), ("encode", "--snr", "X"),
+    ("recon", "--in", "FILE"), ("recon", "--fov", "LENGTH"), ("recon", "--iterations", "N"),
+    ("recon", "--lambda", "X"), ("score", "--ref", "FILE"), ("render", "--title", "TEXT"),
+    ("sweep", "--out", "DIR"), ("demo", "--out", "DIR"),
+])
+def test_placeholders_say_the_type(verb, opt, arg):
+    """Issue 17: "a placeholder by type (N, X, LENGTH, FILE ...)"."""
+    assert (_options(verb)[opt][0] or "").strip() == arg
 
 
 @pytest.mark.parametrize("verb", VERBS)
@@ -23,9 +43,9 @@ def test_help_columns_align_and_name_their_arguments(verb):
         line = opts[i]
         m = re.match(r"  (--[a-z0-9-]+)( [A-Z0-9_]+)?(?:( {2,})(\S.*))?$", line)
         assert m, f"{verb}: {line!r}"
-        if m.group(2):   # the placeholder is the option's name in capitals
-            assert m.group(2).strip() == m.group(1)[2:].upper().replace("-", "_") or \
-                m.group(1) == "--max-memory", line
+        if m.group(2):   # a placeholder by type, else the option's name in capitals
+            assert m.group(2).strip() in TYPED or \
+                m.group(2).strip() == m.group(1)[2:].upper().replace("-", "_"), line
         if m.group(4) is None:
             i += 1       # the help on the next line, in the column
             assert re.match(r" {27}\S", opts[i]), f"{verb}: {opts[i]!r}"
