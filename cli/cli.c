@@ -117,8 +117,44 @@ static int exit_code(kw_status st)
     }
 }
 
+/* A size for the max-memory line: "50 MiB", "1.5 GiB", "12.0 MiB". */
+static const char *fmt_size(size_t b, int whole, char *buf, size_t n)
+{
+    static const char *unit[] = {"bytes", "KiB", "MiB", "GiB", "TiB"};
+    double v = (double)b;
+    int u = 0;
+    while (v >= 1024.0 && u < 4) {
+        v /= 1024.0;
+        u++;
+    }
+    if (u == 0)
+        snprintf(buf, n, "%zu bytes", b);
+    else
+        snprintf(buf, n, whole ? "%.3g %s" : "%.1f %s", v, unit[u]);
+    return buf;
+}
+
+/* A KW_ENOMEM after the budget refused an allocation (kw_memory_refusals)
+ * becomes one line naming max-memory and what was asked; a failure whose
+ * reason already names the limit (the .npy size check) keeps its words.
+ * -1 when the failure is something else. */
+static int budget_status(kw_status st)
+{
+    size_t asked, held;
+    if (st != KW_ENOMEM || !kw_memory_refusals(&asked, &held) ||
+        strstr(kw_last_error(), "max-memory"))
+        return -1;
+    char a[32], h[32], l[32];
+    return kw_cli_fail("max-memory", "the run needs more than %s (asked for %s more with %s "
+                       "held); raise --max-memory", fmt_size(kw_memory_limit(), 1, l, sizeof l),
+                       fmt_size(asked, 0, a, sizeof a), fmt_size(held, 0, h, sizeof h));
+}
+
 int kw_cli_status(kw_status st, const char *context)
 {
+    int rc = budget_status(st);
+    if (rc >= 0)
+        return rc;
     const char *why = kw_last_error();
     if (!why || !*why)
         why = kw_strerror(st);
@@ -132,6 +168,9 @@ int kw_cli_status(kw_status st, const char *context)
 
 int kw_cli_lib_status(kw_status st, const char *context, const kw_cli_param *map)
 {
+    int rc = budget_status(st);
+    if (rc >= 0)
+        return rc;
     const char *param = kw_last_error_param();
     for (const kw_cli_param *m = map; m && param[0] && m->param; m++) {
         if (strcmp(m->param, param) == 0) {
@@ -237,7 +276,7 @@ static void print_help(const kw_opt *table, const char *usage)
         help_line(left, o->help);
     }
     help_line("--quiet", "no progress on stderr");
-    help_line("--max-memory SIZE", "refuse arrays larger than SIZE (e.g. 2GiB; default: half the RAM)");
+    help_line("--max-memory SIZE", "the most memory the run may hold (e.g. 2GiB; default: half the RAM)");
     help_line("--help", "this text");
 }
 
@@ -354,6 +393,7 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
     if (npos)
         *npos = 0;
     kw_npy_set_limit(kw_cli_memory_limit());
+    kw_memory_set_limit(kw_cli_memory_limit());
     for (int i = 1; i < argc; i++) {
         const char *a = argv[i];
         if (strcmp(a, "--help") == 0 || strcmp(a, "-h") == 0) {
@@ -377,6 +417,7 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
                                    "(at least 1MiB)", val);
             max_memory = b;
             kw_npy_set_limit(b);
+            kw_memory_set_limit(b);
             continue;
         }
         if (strncmp(a, "--", 2) != 0 || a[2] == '\0') {

@@ -88,9 +88,13 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
 
 extern int kw_cli_quiet; /* --quiet given: no progress output */
 
-/*! kw_cli_memory_limit(): the most bytes one array (or a verb's working set)
- * may take: --max-memory (every verb, e.g. 2GiB, 512MiB), by default half the
- * physical memory. kw_opts_parse() also hands it to kw_npy_set_limit(). */
+/*! kw_cli_memory_limit(): the most bytes the run may hold: --max-memory
+ * (every verb, e.g. 2GiB, 512MiB), by default half the physical memory.
+ * kw_opts_parse() hands it to the library's budget (kw_memory_set_limit:
+ * every kw_alloc of the library and the CLI counts) and to
+ * kw_npy_set_limit(); kw_cli_status() / kw_cli_lib_status() turn a KW_ENOMEM
+ * after a refusal of the budget into "max-memory: the run needs more than
+ * ...". */
 size_t kw_cli_memory_limit(void);
 
 /*! kw_cli_parse_bytes(): "2GiB", "512MiB", "1.5GB", "4096" (bytes) -> bytes;

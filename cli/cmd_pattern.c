@@ -317,7 +317,7 @@ static int gen_mask(const gen_opts *g, kw_pattern_options *o)
         const kw_pattern_info *in = kw_pattern_info_of(p);
         const size_t n = in->shape[0] * in->shape[1];
         const uint8_t *m = kw_pattern_mask(p);
-        float *w = malloc(n * sizeof *w);
+        float *w = kw_alloc_n(n, sizeof *w);
         kw_pattern_report a;
         report_names(g, &a);
         if (!w) {
@@ -329,7 +329,7 @@ static int gen_mask(const gen_opts *g, kw_pattern_options *o)
         }
         rc = st ? kw_cli_status(st, "analyse") : report_generated(g, &a);
         kw_pattern_analysis_free(&a.r);
-        free(w);
+        kw_free(w);
     }
     kw_pattern_destroy(p);
     return rc;

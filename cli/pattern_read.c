@@ -167,7 +167,7 @@ int kw_pattern_cli_analyse_file(const char *path, kw_pattern_report *a, long psf
         goto out;
     }
     const size_t rows = arr.dims[0], cols = arr.dims[1], n = rows * cols;
-    float *w = malloc(n * sizeof *w);
+    float *w = kw_alloc_n(n, sizeof *w);
     if (!w) {
         rc = kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), path);
         goto out;
@@ -175,7 +175,7 @@ int kw_pattern_cli_analyse_file(const char *path, kw_pattern_report *a, long psf
     for (size_t i = 0; i < n; i++) {
         float v = arr.dtype == KW_U8 ? (float)((uint8_t *)arr.data)[i] : ((float *)arr.data)[i];
         if (v < 0) {
-            free(w);
+            kw_free(w);
             rc = kw_cli_fail(path, "negative weight %g at index %zu", v, i);
             goto out;
         }
@@ -194,7 +194,7 @@ int kw_pattern_cli_analyse_file(const char *path, kw_pattern_report *a, long psf
                 }
     }
     st = kw_pattern_analyse_mask(&a->r, w, rows, cols, is_plane);
-    free(w);
+    kw_free(w);
     if (st)
         rc = kw_cli_status(st, path);
 out:

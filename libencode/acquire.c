@@ -315,7 +315,7 @@ kw_status kw_acquisition_create(kw_acquisition **out, const kw_acquisition_optio
 {
     KW_FAIL_IF(!out, KW_EINVAL, "acquisition: NULL argument");
     *out = NULL;
-    kw_acquisition *a = calloc(1, sizeof *a);
+    kw_acquisition *a = kw_alloc_n(1, sizeof *a);
     KW_FAIL_IF(!a, KW_ENOMEM, "acquisition: out of memory");
     kw_acquisition_options_init(&a->o);
     kw_status st = kw_options_take(&a->o, sizeof a->o, o, "options");
@@ -387,12 +387,12 @@ void kw_acquisition_destroy(kw_acquisition *a)
     kw_sim_destroy(a->sim);
     kw_free(a->truth);
     kw_free(a->maps);
-    free(a->cover);
-    free(a->mfull);
-    free(a->tvals);
-    free(a->coef);
-    free(a->resid);
-    free(a->cov);
-    free(a->chol);
-    free(a);
+    kw_free(a->cover);
+    kw_free(a->mfull);
+    kw_free(a->tvals);
+    kw_free(a->coef);
+    kw_free(a->resid);
+    kw_free(a->cov);
+    kw_free(a->chol);
+    kw_free(a);
 }

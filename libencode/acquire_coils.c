@@ -78,14 +78,14 @@ static kw_status acq_ring_maps(kw_acquisition *a, const kw_coil_ring *ring)
     /* slice-major scratch, reordered to (coils, slices, ny, nx) */
     size_t pl = n[0] * n[1];
     int nsl = a->nsl;
-    kw_cfloat *tmpm = malloc((size_t)a->ncoils * pl * sizeof *tmpm);
+    kw_cfloat *tmpm = kw_alloc_n((size_t)a->ncoils * pl, sizeof *tmpm);
     kw_status st = tmpm ? KW_OK : kw_set_error(KW_ENOMEM, "coils: out of memory");
     for (int sl = 0; !st && sl < nsl; sl++) {
         st = kw_coil_ring_maps_at(ring, a->cd + 1, a->zc[sl] / (0.5 * a->fov[2]), tmpm);
         for (int c = 0; !st && c < a->ncoils; c++)
             memcpy(a->maps + ((size_t)c * nsl + sl) * pl, tmpm + (size_t)c * pl, pl * sizeof *tmpm);
     }
-    free(tmpm);
+    kw_free(tmpm);
     return st;
 }
 
@@ -137,8 +137,8 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
         return kw_coil_fit(a->maps, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD, a->coef,
                            a->resid);
     size_t pl = n[0] * n[1];
-    double *rs = malloc((size_t)ncoils * sizeof *rs);
-    kw_cfloat *plane = malloc((size_t)ncoils * pl * sizeof *plane);
+    double *rs = kw_alloc_n((size_t)ncoils, sizeof *rs);
+    kw_cfloat *plane = kw_alloc_n((size_t)ncoils * pl, sizeof *plane);
     kw_status st = rs && plane ? KW_OK : kw_set_error(KW_ENOMEM, "coils: out of memory");
     for (int c = 0; c < ncoils; c++)
         a->resid[c] = 0;
@@ -159,8 +159,8 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
     /* the object support for the SNR: the centre slice's cut */
     if (!st)
         st = kw_phantom_rasterize(&a->ph, a->cd + 1, ones, 2, a->cover);
-    free(rs);
-    free(plane);
+    kw_free(rs);
+    kw_free(plane);
     return st;
 }
 
@@ -174,7 +174,7 @@ kw_status kw_acq_coils(kw_acquisition *a)
     if ((st = acq_coil_checks(a)))
         return st;
     /* object support (pixels any shape covers) for fits and the SNR */
-    a->cover = calloc(a->npix, sizeof *a->cover);
+    a->cover = kw_alloc_n(a->npix, sizeof *a->cover);
     KW_FAIL_PARAM(!a->cover, KW_ENOMEM, "dims", "out of memory");
     if (!o->coils && !o->sens)
         return KW_OK;
@@ -221,8 +221,8 @@ kw_status kw_acq_coils(kw_acquisition *a)
     }
     const int L = a->coil_order, Lz = a->coil_order_z, sd = 2 * L + 1, sidez = 2 * Lz + 1;
     const int nterm = sd * sd * sidez, nfit = a->per_slice ? a->nsl : 1;
-    a->coef = malloc((size_t)nfit * a->ncoils * nterm * sizeof *a->coef);
-    a->resid = malloc((size_t)a->ncoils * sizeof *a->resid);
+    a->coef = kw_alloc_n((size_t)nfit * a->ncoils * nterm, sizeof *a->coef);
+    a->resid = kw_alloc_n((size_t)a->ncoils, sizeof *a->resid);
     KW_FAIL_PARAM(!a->coef || !a->resid, KW_ENOMEM, "coils", "out of memory");
     if ((st = acq_fit(a, ones, nterm)))
         return kw_error_reparam(st, NULL, who);
@@ -253,8 +253,8 @@ kw_status kw_acq_noise_shape(kw_acquisition *a)
                   "needs snr (the noise level)");
     KW_FAIL_PARAM(o->noise_corr != 0 && o->noise_cov, KW_EINVAL, "noise_corr",
                   "give a correlation or a covariance, not both");
-    a->cov = calloc((size_t)nch * nch, sizeof *a->cov);
-    a->chol = calloc((size_t)nch * nch, sizeof *a->chol);
+    a->cov = kw_alloc_n((size_t)nch * nch, sizeof *a->cov);
+    a->chol = kw_alloc_n((size_t)nch * nch, sizeof *a->chol);
     KW_FAIL_PARAM(!a->cov || !a->chol, KW_ENOMEM, "noise_cov", "out of memory");
     for (int i = 0; i < nch; i++)
         a->cov[i * nch + i] = 1.0;

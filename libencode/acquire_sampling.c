@@ -44,7 +44,7 @@ static kw_status acq_mask(kw_acquisition *a)
     KW_FAIL_PARAM(!ok2 && !ok3, KW_EINVAL, "mask",
                   "shape does not match the matrix: expected (%zu, %zu) or (%zu,) for %zux%zu",
                   n[1], n[0], n[1], n[0], n[1]);
-    a->mfull = malloc(a->npix);
+    a->mfull = kw_alloc_n(a->npix, 1);
     KW_FAIL_PARAM(!a->mfull, KW_ENOMEM, "mask", "out of memory");
     size_t taken = 0;
     for (size_t i = 0; i < a->npix; i++) {
@@ -74,7 +74,7 @@ static kw_status acq_times(kw_acquisition *a)
         return kw_set_error_param(KW_EINVAL, "times", "expected (%zu,) seconds", a->nsamples);
     KW_FAIL_PARAM(!ok, KW_EINVAL, "times", "expected (%zu,) or (%zu, %zu) seconds", n[0], n[1],
                   n[0]);
-    a->tvals = malloc(want * sizeof *a->tvals);
+    a->tvals = kw_alloc_n(want, sizeof *a->tvals);
     KW_FAIL_PARAM(!a->tvals, KW_ENOMEM, "times", "out of memory");
     for (size_t i = 0; i < want; i++) {
         a->tvals[i] = o->times[i];
@@ -125,7 +125,7 @@ static kw_status acq_epi(kw_acquisition *a)
                   "EPI timing is simulated for 2-D phantoms only");
     KW_FAIL_PARAM(in->first_row > 0 && a->o.mask, KW_EINVAL, "mask",
                   "the protocol's partial-Fourier EPI train sets the sampled rows; give no mask");
-    a->tvals = malloc(n[0] * n[1] * sizeof *a->tvals);
+    a->tvals = kw_alloc_n(n[0] * n[1], sizeof *a->tvals);
     KW_FAIL_PARAM(!a->tvals, KW_ENOMEM, "protocol", "out of memory");
     for (size_t r = 0; r < n[1]; r++) {
         long e = (long)r - (long)(n[1] / 2);
@@ -137,7 +137,7 @@ static kw_status acq_epi(kw_acquisition *a)
     }
     a->times_full = 1;
     if (in->first_row > 0) {
-        a->mfull = malloc(a->npix);
+        a->mfull = kw_alloc_n(a->npix, 1);
         KW_FAIL_PARAM(!a->mfull, KW_ENOMEM, "protocol", "out of memory");
         for (size_t i = 0; i < a->npix; i++)
             a->mfull[i] = (uint8_t)(i / n[0] >= (size_t)in->first_row);

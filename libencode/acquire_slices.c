@@ -141,14 +141,14 @@ kw_status kw_acq_slices_run(const kw_acquisition *a, float *truth, kw_cfloat *ou
     const int nsl = a->nsl;
     s.cnt = a->n[0] * a->n[1];
     s.nch = a->ncoils > 0 ? a->ncoils : 1;
-    if (truth && !(s.img = malloc(s.cnt * sizeof *s.img)))
+    if (truth && !(s.img = kw_alloc_n(s.cnt, sizeof *s.img)))
         return kw_set_error(KW_ENOMEM, "slices: out of memory");
-    if (fm && out && !(s.cuts = malloc((size_t)s.npts * sizeof *s.cuts))) {
+    if (fm && out && !(s.cuts = kw_alloc_n((size_t)s.npts, sizeof *s.cuts))) {
         st = kw_set_error(KW_ENOMEM, "slices: out of memory");
         goto done;
     }
-    if (out && (!(s.tmp = malloc(s.cnt * s.nch * sizeof *s.tmp)) ||
-                !(s.acc = malloc(s.cnt * s.nch * sizeof *s.acc)))) {
+    if (out && (!(s.tmp = kw_alloc_n(s.cnt * s.nch, sizeof *s.tmp)) ||
+                !(s.acc = kw_alloc_n(s.cnt * s.nch, sizeof *s.acc)))) {
         st = kw_set_error(KW_ENOMEM, "slices: out of memory");
         goto done;
     }
@@ -177,9 +177,9 @@ kw_status kw_acq_slices_run(const kw_acquisition *a, float *truth, kw_cfloat *ou
 done:
     kw_fieldmap_destroy(s.fmp);
     kw_sim_destroy(s.sim);
-    free(s.cuts);
-    free(s.img);
-    free(s.tmp);
-    free(s.acc);
+    kw_free(s.cuts);
+    kw_free(s.img);
+    kw_free(s.tmp);
+    kw_free(s.acc);
     return st;
 }

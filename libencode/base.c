@@ -162,14 +162,37 @@ kw_status kw_checked_bytes(const size_t *dims, int ndim, size_t elem,
 
 /* The process's allocation budget (kw_memory_set_limit): bytes held through
  * kw_alloc, counted by the allocator's own size of each block so that
- * kw_free subtracts exactly what kw_alloc added. */
+ * kw_free subtracts exactly what kw_alloc added. A refusal is counted for
+ * the whole process (OpenMP workers allocate too) with the size asked and
+ * the bytes held at that moment, so that a front end can say what was
+ * wanted after the failure has travelled up the calls. */
 static atomic_size_t mem_used, mem_peak, mem_limit;
-static _Thread_local size_t mem_refused; /* bytes of the last refusal */
+static atomic_size_t mem_refusals, mem_refused_asked, mem_refused_held;
+static _Thread_local int mem_refused; /* this thread's last kw_alloc */
 
 void kw_memory_set_limit(size_t bytes) { atomic_store(&mem_limit, bytes); }
 size_t kw_memory_limit(void) { return atomic_load(&mem_limit); }
 size_t kw_memory_in_use(void) { return atomic_load(&mem_used); }
 size_t kw_memory_peak(void) { return atomic_load(&mem_peak); }
+void kw_memory_reset_peak(void) { atomic_store(&mem_peak, atomic_load(&mem_used)); }
+
+size_t kw_memory_refusals(size_t *asked, size_t *held)
+{
+    if (asked)
+        *asked = atomic_load(&mem_refused_asked);
+    if (held)
+        *held = atomic_load(&mem_refused_held);
+    return atomic_load(&mem_refusals);
+}
+
+static void *refuse(size_t asked, size_t held)
+{
+    mem_refused = 1;
+    atomic_store(&mem_refused_asked, asked);
+    atomic_store(&mem_refused_held, held);
+    atomic_fetch_add(&mem_refusals, 1);
+    return NULL;
+}
 
 void *kw_alloc(size_t n)
 {
@@ -179,11 +202,9 @@ void *kw_alloc(size_t n)
     size_t padded = (n + 63) / 64 * 64;
     if (padded < n)
         return NULL;
-    size_t limit = atomic_load(&mem_limit);
-    if (limit && padded > limit - (atomic_load(&mem_used) < limit ? atomic_load(&mem_used) : limit)) {
-        mem_refused = padded;
-        return NULL;
-    }
+    size_t limit = atomic_load(&mem_limit), used = atomic_load(&mem_used);
+    if (limit && (used > limit || padded > limit - used))
+        return refuse(padded, used);
     void *p = aligned_alloc(64, padded);
     if (!p)
         return NULL;
@@ -192,14 +213,23 @@ void *kw_alloc(size_t n)
     if (limit && now > limit) { /* another thread took the room meanwhile */
         atomic_fetch_sub(&mem_used, got);
         free(p);
-        mem_refused = padded;
-        return NULL;
+        return refuse(padded, now - got);
     }
     size_t pk = atomic_load(&mem_peak);
     while (now > pk && !atomic_compare_exchange_weak(&mem_peak, &pk, now))
         ;
     memset(p, 0, padded);
     return p;
+}
+
+void *kw_alloc_n(size_t count, size_t size)
+{
+    if (size && count > SIZE_MAX / size) {
+        mem_refused = 0;
+        return NULL;
+    }
+    size_t n = count * size;
+    return kw_alloc(n ? n : 1);
 }
 
 void kw_free(void *p)
@@ -210,7 +240,7 @@ void kw_free(void *p)
     free(p);
 }
 
-int kw_alloc_refused_by_limit(void) { return mem_refused != 0; }
+int kw_alloc_refused_by_limit(void) { return mem_refused; }
 
 kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims)
 {
@@ -226,6 +256,9 @@ kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t *dims)
         a->dims[i] = dims[i];
     if (bytes) {
         a->data = kw_alloc(bytes);
+        KW_FAIL_PARAM(!a->data && kw_alloc_refused_by_limit(), KW_ENOMEM, "memory",
+                      "an array of %.3g MiB would pass the allocation limit",
+                      bytes / 1048576.0);
         KW_FAIL_IF(!a->data, KW_ENOMEM, "array: cannot allocate %.3g MiB",
                    bytes / 1048576.0);
     }

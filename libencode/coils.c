@@ -237,13 +237,13 @@ static kw_status series_grid(const double complex *h, int order, int order_z, do
 {
     KW_FAIL_IF(!h || !out || order < 0 || order_z < 0, KW_EINVAL, "coil series: bad arguments");
     const int side = 2 * order + 1, sz = 2 * order_z + 1;
-    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
-    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
-    double complex *ez = malloc(nz * (size_t)sz * sizeof *ez);
+    double complex *ex = kw_alloc_n(nx * (size_t)side, sizeof *ex);
+    double complex *ey = kw_alloc_n(ny * (size_t)side, sizeof *ey);
+    double complex *ez = kw_alloc_n(nz * (size_t)sz, sizeof *ez);
     if (!ex || !ey || !ez) {
-        free(ex);
-        free(ey);
-        free(ez);
+        kw_free(ex);
+        kw_free(ey);
+        kw_free(ez);
         return kw_set_error(KW_ENOMEM, "coil series: out of memory");
     }
     basis_table(nx, order, period, ex);
@@ -267,9 +267,9 @@ static kw_status series_grid(const double complex *h, int order, int order_z, do
             out[row * nx + c] = (float complex)f;
         }
     }
-    free(ex);
-    free(ey);
-    free(ez);
+    kw_free(ex);
+    kw_free(ey);
+    kw_free(ez);
     return KW_OK;
 }
 
@@ -297,12 +297,12 @@ static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, siz
     KW_FAIL_IF(M < (size_t)P, KW_EINVAL,
                "coil fit: %zu fit points for %d coefficients (object too small "
                "or order too high)", M, P);
-    double complex *G = calloc((size_t)P * P, sizeof *G);
-    double complex *H = calloc((size_t)P * ncoils, sizeof *H);
-    double complex *ex = malloc(nx * (size_t)side * sizeof *ex);
-    double complex *ey = malloc(ny * (size_t)side * sizeof *ey);
-    double complex *ez = malloc(nz * (size_t)sz * sizeof *ez);
-    double complex *a = malloc((size_t)P * sizeof *a);
+    double complex *G = kw_alloc_n((size_t)P * P, sizeof *G);
+    double complex *H = kw_alloc_n((size_t)P * ncoils, sizeof *H);
+    double complex *ex = kw_alloc_n(nx * (size_t)side, sizeof *ex);
+    double complex *ey = kw_alloc_n(ny * (size_t)side, sizeof *ey);
+    double complex *ez = kw_alloc_n(nz * (size_t)sz, sizeof *ez);
+    double complex *a = kw_alloc_n((size_t)P, sizeof *a);
     float complex *fit = NULL; /* one coil's fitted map, for the residual */
     kw_status st = KW_OK;
     if (!G || !H || !ex || !ey || !ez || !a) {
@@ -352,7 +352,7 @@ static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, siz
         if (!residual)
             continue;
         /* the fit on every weighted voxel */
-        if (!fit && !(fit = malloc(nv * sizeof *fit))) {
+        if (!fit && !(fit = kw_alloc_n(nv, sizeof *fit))) {
             st = kw_set_error(KW_ENOMEM, "coil fit: out of memory");
             goto done;
         }
@@ -370,12 +370,12 @@ static kw_status coil_fit3(const float complex *maps, int ncoils, size_t nx, siz
         residual[ch] = den > 0 ? sqrt(num / den) : 0.0;
     }
 done:
-    free(G);
-    free(H);
-    free(ex);
-    free(ey);
-    free(ez);
-    free(a);
-    free(fit);
+    kw_free(G);
+    kw_free(H);
+    kw_free(ex);
+    kw_free(ey);
+    kw_free(ez);
+    kw_free(a);
+    kw_free(fit);
     return st;
 }

@@ -38,8 +38,8 @@ void kw_encoder_destroy(kw_encoder *e)
     if (!e)
         return;
     kw_free(e->sens);
-    free(e->mask);
-    free(e->weights);
+    kw_free(e->mask);
+    kw_free(e->weights);
     kw_free(e->cbuf);
     kw_fft_destroy(e->fft);
     kw_nufft_destroy(e->nufft);
@@ -52,7 +52,7 @@ void kw_encoder_destroy(kw_encoder *e)
     if (e->tinv)
         fftwf_destroy_plan(e->tinv);
     kw_fft_planner_unlock();
-    free(e);
+    kw_free(e);
 }
 
 /* The circulant's eigenvalues for F_nu^H W F_nu (see kw_encoder.h). */
@@ -67,8 +67,8 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
     }
     e->lambda = kw_alloc(e->nbig * sizeof(float complex));
     e->tbuf = kw_alloc(e->nbig * sizeof(float complex));
-    float *t2 = malloc(e->nk * nd * sizeof(float));
-    float complex *w = malloc(e->nk * sizeof(float complex));
+    float *t2 = kw_alloc_n(e->nk * nd, sizeof(float));
+    float complex *w = kw_alloc_n(e->nk, sizeof(float complex));
     float complex *timg = kw_alloc(e->nbig * sizeof(float complex));
     kw_nufft_plan *p2 = NULL;
     kw_status st = KW_OK;
@@ -146,8 +146,8 @@ static kw_status toeplitz_setup(kw_encoder *e, const float *traj,
     }
 done:
     kw_nufft_destroy(p2);
-    free(t2);
-    free(w);
+    kw_free(t2);
+    kw_free(w);
     kw_free(timg);
     return st;
 }
@@ -184,7 +184,7 @@ kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
     KW_FAIL_PARAM(!sens && ncoils != 1, KW_EINVAL, "sens", "needed for %zu coils", ncoils);
     KW_FAIL_PARAM(traj && mask, KW_EINVAL, "mask", "a mask applies to Cartesian data only");
     KW_FAIL_PARAM(traj && nsamples == 0, KW_EINVAL, "nsamples", "no samples with a trajectory");
-    kw_encoder *e = calloc(1, sizeof *e);
+    kw_encoder *e = kw_alloc_n(1, sizeof *e);
     KW_FAIL_IF(!e, KW_ENOMEM, "encoder: out of memory");
     kw_status st = KW_OK;
     e->ndim = ndim;
@@ -208,12 +208,12 @@ kw_status kw_encoder_create(kw_encoder **enc, int ndim, const size_t *dims,
                          KW_ENUMERIC, fail, "sens: value %zu is not finite", i);
     }
     if (mask) {
-        e->mask = malloc(e->npix);
+        e->mask = kw_alloc_n(e->npix, 1);
         KW_FAIL_GOTO(!e->mask, st, KW_ENOMEM, fail, "encoder: out of memory");
         memcpy(e->mask, mask, e->npix);
     }
     if (weights) {
-        e->weights = malloc(e->nk * sizeof(float));
+        e->weights = kw_alloc_n(e->nk, sizeof(float));
         KW_FAIL_GOTO(!e->weights, st, KW_ENOMEM, fail, "encoder: out of memory");
         for (size_t j = 0; j < e->nk; j++) {
             KW_FAIL_GOTO(!(weights[j] >= 0) || !isfinite(weights[j]), st, KW_ERANGE,

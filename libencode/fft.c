@@ -125,7 +125,7 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
     *plan = NULL;
     KW_FAIL_IF(rank < 1 || rank > 3, KW_EINVAL, "fft: rank %d (1 to 3)", rank);
     KW_FAIL_IF(batch < 1, KW_EINVAL, "fft: batch must be at least 1");
-    kw_fft_plan *p = calloc(1, sizeof *p);
+    kw_fft_plan *p = kw_alloc_n(1, sizeof *p);
     KW_FAIL_IF(!p, KW_ENOMEM, "fft: out of memory");
     p->rank = rank;
     p->d[0] = p->d[1] = p->d[2] = 1;
@@ -136,7 +136,7 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
     for (int i = 0; i < rank; i++) {
         size_t v = dims[i];
         if (v < 1 || v > (1u << 30) || p->n > SIZE_MAX / v) {
-            free(p);
+            kw_free(p);
             return kw_set_error(KW_EINVAL, "fft: axis %d has length %zu", i, v);
         }
         p->d[3 - rank + i] = v;
@@ -156,13 +156,13 @@ kw_status kw_fft_create(kw_fft_plan **plan, int rank, const size_t *dims,
     unsigned ff = kw_fft_rigor(flags & KW_FFT_MEASURE);
     size_t howmany = p->even ? batch : 1;
     if (howmany > (size_t)1 << 30 || p->n > (size_t)1 << 31) {
-        free(p);
+        kw_free(p);
         return kw_set_error(KW_ERANGE, "fft: transform too large");
     }
     size_t total = howmany * p->n;
     float complex *buf = kw_alloc(total * sizeof(float complex));
     if (!buf) {
-        free(p);
+        kw_free(p);
         return kw_set_error(KW_ENOMEM, "fft: cannot allocate %zu samples", total);
     }
     kw_fft_planner_lock();
@@ -241,7 +241,7 @@ void kw_fft_destroy(kw_fft_plan *p)
         fftwf_destroy_plan(p->inv);
     kw_fft_planner_unlock();
     kw_free(p->scratch);
-    free(p);
+    kw_free(p);
 }
 
 char *kw_fft_wisdom_export(void)

@@ -170,10 +170,10 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
                MAX_POINTS);
     size_t M = (size_t)Mf;
     ds = L / (double)M;
-    double *th = malloc((M + 1) * sizeof *th), *v = malloc((M + 1) * sizeof *v),
-           *t = malloc((M + 1) * sizeof *t);
+    double *th = kw_alloc_n(M + 1, sizeof *th), *v = kw_alloc_n(M + 1, sizeof *v),
+           *t = kw_alloc_n(M + 1, sizeof *t);
     if (!th || !v || !t) {
-        free(th), free(v), free(t);
+        kw_free(th), kw_free(v), kw_free(t);
         return kw_set_error(KW_ENOMEM, "spiral: out of memory");
     }
     double prev = 0;
@@ -216,7 +216,7 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
     for (size_t i = 0; i < M; i++) {
         double vs = v[i] + v[i + 1];
         if (!(vs > 0)) {
-            free(th), free(v), free(t);
+            kw_free(th), kw_free(v), kw_free(t);
             return kw_set_error(KW_EINTERNAL, "spiral: velocity profile stalled");
         }
         t[i + 1] = t[i] + 2 * ds / vs;
@@ -226,13 +226,13 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
     if (nf < 1)
         nf = 1;
     if (nf > MAX_POINTS) {
-        free(th), free(v), free(t);
+        kw_free(th), kw_free(v), kw_free(t);
         return kw_set_error(KW_ERANGE, "interleaves: spiral readout over %u raster points (use more interleaves)", MAX_POINTS);
     }
     size_t n = (size_t)nf;
-    double *k = malloc((n + 1) * 2 * sizeof *k);
+    double *k = kw_alloc_n((n + 1) * 2, sizeof *k);
     if (!k) {
-        free(th), free(v), free(t);
+        kw_free(th), kw_free(v), kw_free(t);
         return kw_set_error(KW_ENOMEM, "spiral: out of memory");
     }
     /* k at the raster points: the path position at time j dt (the last raster
@@ -252,7 +252,7 @@ static kw_status spiral_path(double lambda, double thmax, double vg, double a, d
         k[2 * j] = lambda * thj * cos(thj);
         k[2 * j + 1] = lambda * thj * sin(thj);
     }
-    free(th), free(v), free(t);
+    kw_free(th), kw_free(v), kw_free(t);
     *kxy = k;
     *n_out = n;
     return KW_OK;
@@ -280,16 +280,18 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
     double margin = 0.995;
     int ok = 0;
     for (int attempt = 0; attempt < 40 && !ok; attempt++, margin *= 0.98) {
-        free(k);
+        kw_free(k);
         k = NULL;
         st = spiral_path(lambda, thmax, gb * gcap * margin, gb * S * margin, dt, &k, &n);
-        if (st)
+        if (st) {
+            kw_free(g); /* of the attempt before */
             return st;
+        }
         /* gradient per raster interval and the check of every step */
-        free(g);
-        g = malloc(2 * n * sizeof *g);
+        kw_free(g);
+        g = kw_alloc_n(2 * n, sizeof *g);
         if (!g) {
-            free(k);
+            kw_free(k);
             return kw_set_error(KW_ENOMEM, "spiral: out of memory");
         }
         ok = 1;
@@ -306,7 +308,7 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
         }
     }
     if (!ok) {
-        free(k), free(g);
+        kw_free(k), kw_free(g);
         /* an unattainable input (a slew rate far too low for the raster),
          * not a failure of the design */
         KW_FAIL_PARAM(1, KW_EINFEASIBLE, "slew",
@@ -320,7 +322,7 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
     const double T = (double)n * dt;
     const double nsf = floor(T / spec->dwell_s + 1e-9) + 1;
     if (nsf > (double)MAX_SAMPLES || nsf * spec->interleaves > (double)MAX_SAMPLES) {
-        free(k), free(g);
+        kw_free(k), kw_free(g);
         return kw_set_error(KW_ERANGE,
                             "bandwidth: the spiral would take over %u ADC samples in all "
                             "(%.0f per interleaf)", MAX_SAMPLES, nsf);
@@ -376,8 +378,8 @@ static kw_status spiral_run(const kw_spiral_spec *spec, const kw_gradient_limits
                 }
         }
     }
-    free(k);
-    free(g);
+    kw_free(k);
+    kw_free(g);
     return KW_OK;
 }
 

@@ -212,25 +212,44 @@ KW_API kw_status kw_array_alloc(kw_array *a, kw_dtype t, int ndim, const size_t 
 KW_API void kw_array_free(kw_array *a);
 
 /*! kw_alloc(): 64-byte aligned, zeroed allocation of n bytes (NULL on
- * failure or n == 0); kw_free() releases it (NULL-safe). */
+ * failure, on passing the limit below, or for n == 0); kw_free() releases it
+ * (NULL-safe). A pointer from kw_alloc() / kw_alloc_n() goes to kw_free()
+ * and nowhere else (free() would leave its bytes counted), and kw_free()
+ * takes nothing else. Every pointer the library hands over for the caller
+ * to release (JSON text, ...) is of this kind. */
 KW_API void *kw_alloc(size_t n);
 KW_API void kw_free(void *p);
 
-/*! The process's allocation budget. Every large buffer the library holds
- * (arrays, images, k-space, grids, operator and solver work space) comes from
- * kw_alloc(), which counts it; with a limit set, an allocation that would
- * pass it returns NULL and the call fails with KW_ENOMEM, its reason naming
- * the parameter "memory" and the sizes. Small bookkeeping and FFTW's own
- * plans are not counted. kw_memory_set_limit(0) (the default) means no
- * limit. Thread-safe. kw_memory_in_use() / kw_memory_peak(): bytes held now
- * and at most (the allocator's block sizes). kw_alloc_refused_by_limit():
- * nonzero when this thread's last kw_alloc() returned NULL because of the
- * limit. */
+/*! kw_alloc_n(): kw_alloc() of count x size bytes, like calloc(): NULL when
+ * the product overflows (not counted as a refusal), a valid (minimal) block
+ * when it is 0. */
+KW_API void *kw_alloc_n(size_t count, size_t size);
+
+/*! The process's allocation budget. Every buffer the library holds (arrays,
+ * images, k-space, masks, trajectories, grids, NUFFT tables, operator and
+ * solver work space, coil fits, field-map tables, PSF and metrics buffers,
+ * and the objects themselves) comes from kw_alloc(), which counts it; with a
+ * limit set, an allocation that would pass it returns NULL and the call
+ * fails with KW_ENOMEM (kw_array_alloc() names the parameter "memory").
+ * Not counted: FFTW's plans and its own buffers, cJSON's working copies and
+ * the C library's own memory (a few KiB to MiB, independent of the limit).
+ * kw_memory_set_limit(0) (the default) means no limit; a limit lowered
+ * below what is held refuses every later allocation and frees nothing.
+ * Thread-safe. kw_memory_in_use() / kw_memory_peak(): bytes held now and at
+ * most (the allocator's block sizes). kw_alloc_refused_by_limit(): nonzero
+ * when this thread's last kw_alloc() returned NULL because of the limit.
+ * kw_memory_refusals(): how many kw_alloc() calls the limit has refused in
+ * this process, in any thread; *asked and *held (either may be NULL) get
+ * the size of the last refused request and the bytes held when it came.
+ * kw_memory_reset_peak(): start a new peak at what is held now (to measure
+ * one phase of a run). */
 KW_API void kw_memory_set_limit(size_t bytes);
 KW_API size_t kw_memory_limit(void);
 KW_API size_t kw_memory_in_use(void);
 KW_API size_t kw_memory_peak(void);
+KW_API void kw_memory_reset_peak(void);
 KW_API int kw_alloc_refused_by_limit(void);
+KW_API size_t kw_memory_refusals(size_t *asked, size_t *held);
 
 /*! kw_array_all_finite(): KW_OK if every value is finite, else KW_ENUMERIC
  * with the index of the first bad value in the reason. */

@@ -145,7 +145,7 @@ static int plan_axes(kw_nufft_plan *p, const size_t *dims, double i0b)
     p->par = p->nthreads > 1 && p->mtotal + p->nsamples > 32768;
     /* image factors */
     for (int d = 0; d < 3; d++) {
-        p->deap[d] = malloc(p->N[d] * sizeof(float));
+        p->deap[d] = kw_alloc_n(p->N[d], sizeof(float));
         if (!p->deap[d])
             return -1;
         if (d < D0) {
@@ -181,7 +181,7 @@ static int plan_tiles(kw_nufft_plan *p)
         if (nt < 2)
             nt = 1;
         p->nt[d] = nt;
-        p->bound[d] = malloc((nt + 1) * sizeof(size_t));
+        p->bound[d] = kw_alloc_n(nt + 1, sizeof(size_t));
         if (!p->bound[d])
             return -1;
         size_t maxw = 0;
@@ -255,20 +255,20 @@ static int plan_sort(kw_nufft_plan *p, const float *traj, double i0b)
 {
     const size_t nsamples = p->nsamples, ns1 = nsamples ? nsamples : 1;
     const int ndim = p->ndim, W = p->W;
-    p->tile_start = calloc(p->ntiles + 1, sizeof(size_t));
-    p->colour_tiles = malloc(p->ntiles * sizeof(size_t));
-    p->perm = malloc(ns1 * sizeof(uint32_t));
-    p->off = malloc(ns1 * ndim * sizeof(uint16_t));
-    p->w = malloc(ns1 * (size_t)ndim * W * sizeof(float));
-    size_t *tile_of = malloc(ns1 * sizeof(size_t));
-    size_t *next = malloc((p->ntiles ? p->ntiles : 1) * sizeof(size_t));
+    p->tile_start = kw_alloc_n(p->ntiles + 1, sizeof(size_t));
+    p->colour_tiles = kw_alloc_n(p->ntiles, sizeof(size_t));
+    p->perm = kw_alloc_n(ns1, sizeof(uint32_t));
+    p->off = kw_alloc_n(ns1 * ndim, sizeof(uint16_t));
+    p->w = kw_alloc_n(ns1 * (size_t)ndim * W, sizeof(float));
+    size_t *tile_of = kw_alloc_n(ns1, sizeof(size_t));
+    size_t *next = kw_alloc_n(p->ntiles ? p->ntiles : 1, sizeof(size_t));
     size_t *tmap[3] = {NULL, NULL, NULL};
     float *tab = NULL;
     int rc = -1;
     if (!p->tile_start || !p->colour_tiles || !tile_of || !next || !p->perm || !p->off || !p->w)
         goto done;
     for (int d = 0; d < 3; d++) {
-        tmap[d] = malloc(p->M[d] * sizeof(size_t));
+        tmap[d] = kw_alloc_n(p->M[d], sizeof(size_t));
         if (!tmap[d])
             goto done;
         for (size_t t = 0; t < p->nt[d]; t++)
@@ -288,11 +288,11 @@ static int plan_sort(kw_nufft_plan *p, const float *traj, double i0b)
     sample_weights(p, traj, tmap, tile_of, tab);
     rc = 0;
 done:
-    free(tab);
-    free(tile_of);
-    free(next);
+    kw_free(tab);
+    kw_free(tile_of);
+    kw_free(next);
     for (int d = 0; d < 3; d++)
-        free(tmap[d]);
+        kw_free(tmap[d]);
     return rc;
 }
 
@@ -376,7 +376,7 @@ kw_status kw_nufft_create(kw_nufft_plan **plan, int ndim, const size_t *dims,
     kw_status st = check_args(ndim, dims, nsamples, traj, opts, &tol, &alpha, &W, &beta);
     if (st)
         return st;
-    kw_nufft_plan *p = calloc(1, sizeof *p);
+    kw_nufft_plan *p = kw_alloc_n(1, sizeof *p);
     KW_FAIL_IF(!p, KW_ENOMEM, "nufft: out of memory");
     p->ndim = ndim;
     p->W = W;
@@ -417,17 +417,17 @@ void kw_nufft_destroy(kw_nufft_plan *p)
         fftwf_destroy_plan(p->inv);
     kw_fft_planner_unlock();
     for (int d = 0; d < 3; d++) {
-        free(p->bound[d]);
-        free(p->deap[d]);
+        kw_free(p->bound[d]);
+        kw_free(p->deap[d]);
     }
-    free(p->tile_start);
-    free(p->colour_tiles);
-    free(p->perm);
-    free(p->off);
-    free(p->w);
+    kw_free(p->tile_start);
+    kw_free(p->colour_tiles);
+    kw_free(p->perm);
+    kw_free(p->off);
+    kw_free(p->w);
     kw_free(p->tbuf);
     kw_free(p->grid);
-    free(p);
+    kw_free(p);
 }
 
 kw_status kw_nufft_get_info(const kw_nufft_plan *p, kw_nufft_info *info)

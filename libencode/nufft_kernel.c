@@ -53,7 +53,7 @@ static double kb_phi_ext(double t, int W, double beta, double i0b)
 float *nufft_kb_table(int W, double beta, double i0b)
 {
     size_t n = (size_t)W * NUFFT_TAB + 5;
-    float *tab = malloc(n * sizeof *tab);
+    float *tab = kw_alloc_n(n, sizeof *tab);
     if (!tab)
         return NULL;
     for (size_t m = 0; m < n; m++)
@@ -144,11 +144,11 @@ static kw_status ndft(int ndim, const size_t *dims, size_t ns, const float *traj
     }
     size_t npix = N[0] * N[1] * N[2];
     double scale = 1.0 / sqrt((double)npix);
-    double complex *e = malloc(3 * maxn * sizeof *e);
-    double complex *acc = adjoint ? calloc(npix, sizeof *acc) : NULL;
+    double complex *e = kw_alloc_n(3 * maxn, sizeof *e);
+    double complex *acc = adjoint ? kw_alloc_n(npix, sizeof *acc) : NULL;
     if (!e || (adjoint && !acc)) {
-        free(e);
-        free(acc);
+        kw_free(e);
+        kw_free(acc);
         return kw_set_error(KW_ENOMEM, "ndft: out of memory");
     }
     double sign = adjoint ? 1.0 : -1.0;
@@ -188,8 +188,8 @@ static kw_status ndft(int ndim, const size_t *dims, size_t ns, const float *traj
     if (adjoint)
         for (size_t i = 0; i < npix; i++)
             out[i] = (float complex)(acc[i] * scale);
-    free(e);
-    free(acc);
+    kw_free(e);
+    kw_free(acc);
     return KW_OK;
 }
 

@@ -106,8 +106,8 @@ static kw_status make_mask(kw_pattern *p)
     in->shape[1] = nz > 1 ? ny : nx;
     in->density_shape[0] = nz;
     in->density_shape[1] = ny;
-    p->mask = malloc(in->shape[0] * in->shape[1]);
-    p->density = malloc(np * sizeof *p->density);
+    p->mask = kw_alloc_n(in->shape[0] * in->shape[1], 1);
+    p->density = kw_alloc_n(np, sizeof *p->density);
     KW_FAIL_IF(!p->mask || !p->density, KW_ENOMEM, "mask: out of memory");
     st = kw_mask_fill(&o, 2, in->shape, p->mask, p->density);
     if (st)
@@ -168,8 +168,8 @@ static kw_status make_radial(kw_pattern *p)
         st = kw_error_reparam(st, "n", "dims");
         return kw_error_reparam(st, "nz", "dims");
     }
-    p->k = malloc(ns * (size_t)ndk * sizeof *p->k);
-    p->t = malloc(ns * sizeof *p->t);
+    p->k = kw_alloc_n(ns * (size_t)ndk, sizeof *p->k);
+    p->t = kw_alloc_n(ns, sizeof *p->t);
     KW_FAIL_IF(!p->k || !p->t, KW_ENOMEM, "trajectory: out of memory");
     st = kw_traj_make(&o, p->k, p->t);
     if (st)
@@ -219,7 +219,7 @@ kw_status kw_pattern_create(kw_pattern **pp, const kw_pattern_options *opt)
 {
     KW_FAIL_IF(!pp, KW_EINVAL, "pattern: NULL argument");
     *pp = NULL;
-    kw_pattern *p = calloc(1, sizeof *p);
+    kw_pattern *p = kw_alloc_n(1, sizeof *p);
     KW_FAIL_IF(!p, KW_ENOMEM, "pattern: out of memory");
     kw_pattern_options_init(&p->o);
     kw_status st = kw_options_take(&p->o, sizeof p->o, opt, "options");
@@ -255,9 +255,9 @@ void kw_pattern_destroy(kw_pattern *p)
 {
     if (!p)
         return;
-    free(p->mask);
-    free(p->density);
-    free(p->k);
-    free(p->t);
-    free(p);
+    kw_free(p->mask);
+    kw_free(p->density);
+    kw_free(p->k);
+    kw_free(p->t);
+    kw_free(p);
 }

@@ -31,8 +31,8 @@ static kw_status check_limits(const kw_pattern_options *o, size_t n)
 
 static kw_status alloc_traj(struct kw_pattern *p, size_t ns)
 {
-    p->k = malloc(ns * 2 * sizeof *p->k);
-    p->t = malloc(ns * sizeof *p->t);
+    p->k = kw_alloc_n(ns * 2, sizeof *p->k);
+    p->t = kw_alloc_n(ns, sizeof *p->t);
     KW_FAIL_IF(!p->k || !p->t, KW_ENOMEM, "trajectory: out of memory");
     p->info.shape[0] = ns;
     p->info.shape[1] = 2;

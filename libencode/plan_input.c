@@ -284,19 +284,19 @@ static pin_entry *entry_find(const kw_protocol_input *in, const char *key)
 static kw_status entry_put(kw_protocol_input *in, const char *key, const char *text)
 {
     size_t n = strlen(text);
-    char *t = malloc(n + 1);
+    char *t = kw_alloc_n(n + 1, 1);
     KW_FAIL_IF(!t, KW_ENOMEM, "%s: out of memory", key);
     memcpy(t, text, n + 1);
     pin_entry *e = entry_find(in, key);
     if (!e) {
         if (in->n >= PIN_MAX_ENTRIES || strlen(key) > KW_PROTOFILE_MAX_KEY) {
-            free(t);
+            kw_free(t);
             return kw_set_error(KW_EINVAL, "too many keys");
         }
         e = &in->ent[in->n++];
         snprintf(e->key, sizeof e->key, "%s", key);
     } else {
-        free(e->text);
+        kw_free(e->text);
     }
     e->text = t;
     return KW_OK;
@@ -307,7 +307,7 @@ static void entry_drop(kw_protocol_input *in, const char *key)
     pin_entry *e = entry_find(in, key);
     if (!e)
         return;
-    free(e->text);
+    kw_free(e->text);
     int i = (int)(e - in->ent);
     memmove(&in->ent[i], &in->ent[i + 1], (size_t)(in->n - i - 1) * sizeof in->ent[0]);
     in->n--;
@@ -318,7 +318,7 @@ static void entry_drop(kw_protocol_input *in, const char *key)
 kw_status kw_protocol_input_create(kw_protocol_input **in)
 {
     KW_FAIL_PARAM(!in, KW_EINVAL, "input", "NULL pointer for the result");
-    *in = calloc(1, sizeof **in);
+    *in = kw_alloc_n(1, sizeof **in);
     KW_FAIL_IF(!*in, KW_ENOMEM, "protocol input: out of memory");
     kw_protocol_defaults(&(*in)->v.p);
     return KW_OK;
@@ -329,8 +329,8 @@ void kw_protocol_input_destroy(kw_protocol_input *in)
     if (!in)
         return;
     for (int i = 0; i < in->n; i++)
-        free(in->ent[i].text);
-    free(in);
+        kw_free(in->ent[i].text);
+    kw_free(in);
 }
 
 kw_status kw_protocol_input_set(kw_protocol_input *in, const char *key, const char *value)

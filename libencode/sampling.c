@@ -369,15 +369,15 @@ kw_status kw_mask_poisson_scale(const kw_mask_options *caller, double *scale)
     if (st)
         return st;
     size_t n = o->dims[1] * o->dims[0];
-    uint8_t *mask = malloc(n), *fixed = malloc(n);
-    size_t *active = malloc(n * sizeof *active);
+    uint8_t *mask = kw_alloc_n(n, 1), *fixed = kw_alloc_n(n, 1);
+    size_t *active = kw_alloc_n(n, sizeof *active);
     if (!mask || !fixed || !active)
         st = kw_set_error(KW_ENOMEM, "poisson: out of memory");
     else
         st = poisson_scale(o, mask, fixed, active, scale);
-    free(mask);
-    free(fixed);
-    free(active);
+    kw_free(mask);
+    kw_free(fixed);
+    kw_free(active);
     return st;
 }
 
@@ -392,7 +392,7 @@ kw_status kw_mask_make(const kw_mask_options *caller, uint8_t *mask, float *prob
     if (st)
         return st;
     const size_t ny = o->dims[1], nz = o->dims[0], n = ny * nz;
-    uint8_t *fixed = malloc(n);
+    uint8_t *fixed = kw_alloc_n(n, 1);
     KW_FAIL_IF(!fixed, KW_ENOMEM, "mask: out of memory");
     switch (o->kind) {
     case KW_MASK_FULL:
@@ -422,7 +422,7 @@ kw_status kw_mask_make(const kw_mask_options *caller, uint8_t *mask, float *prob
         st = make_random(o, mask, prob, fixed);
         break;
     case KW_MASK_POISSON: {
-        size_t *active = malloc(n * sizeof *active);
+        size_t *active = kw_alloc_n(n, sizeof *active);
         if (!active) {
             st = kw_set_error(KW_ENOMEM, "mask: out of memory");
             break;
@@ -438,13 +438,13 @@ kw_status kw_mask_make(const kw_mask_options *caller, uint8_t *mask, float *prob
                     prob[i] = mask[i];
             }
         }
-        free(active);
+        kw_free(active);
         break;
     }
     default:
         st = kw_set_error_param(KW_EINVAL, "kind", "unknown mask kind %d", (int)o->kind);
     }
-    free(fixed);
+    kw_free(fixed);
     return st;
 }
 
@@ -478,13 +478,13 @@ kw_status kw_mask_fill(const kw_mask_options *caller, int ndim, const size_t *di
     KW_FAIL_PARAM(ny != o->dims[1] || nz != o->dims[0] || rep < 1, KW_EINVAL, "dims",
                   "mask dims differ from the options' %zu x %zu phase encodes", o->dims[0], o->dims[1]);
     const size_t np = ny * nz;
-    uint8_t *plane = rep == 1 ? mask : malloc(np);
+    uint8_t *plane = rep == 1 ? mask : kw_alloc_n(np, 1);
     KW_FAIL_IF(!plane, KW_ENOMEM, "mask: out of memory");
     kw_status st = kw_mask_make(o, plane, prob);
     if (!st && rep > 1)
         for (size_t i = 0; i < np; i++)
             memset(mask + i * rep, plane[i], rep);
     if (plane != mask)
-        free(plane);
+        kw_free(plane);
     return st;
 }

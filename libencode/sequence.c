@@ -350,9 +350,9 @@ static kw_status plan_limit_table(kw_plan_report *r, const plan_ctx *x)
         kw_spiral_spec sp;
         kw_plan_spiral_spec(r, &sp);
         size_t n = r->spiral.readout_points + r->spiral.rampdown_points;
-        double *gx = malloc(n * sizeof *gx), *gy = malloc(n * sizeof *gy);
+        double *gx = kw_alloc_n(n, sizeof *gx), *gy = kw_alloc_n(n, sizeof *gy);
         if (!gx || !gy) {
-            free(gx), free(gy);
+            kw_free(gx), kw_free(gy);
             return kw_set_error(KW_ENOMEM, "spiral: out of memory");
         }
         kw_status st = kw_spiral_design(&sp, &x->lim, NULL, gx, gy, NULL, NULL);
@@ -362,7 +362,7 @@ static kw_status plan_limit_table(kw_plan_report *r, const plan_ctx *x)
             sm = fmax(sm, hypot(gx[j] - px, gy[j] - py) / x->dt);
             px = gx[j], py = gy[j];
         }
-        free(gx), free(gy);
+        kw_free(gx), kw_free(gy);
         if (st)
             return st;
         add_limit(r, "spiral_gradient", gm, p->gmax_T_per_m, "T/m");
@@ -486,7 +486,7 @@ static kw_status plan_nearest(kw_plan_report *r)
     }
     if (n->has_interleaves)
         q.interleaves = n->interleaves;
-    kw_plan_report *t = malloc(sizeof *t);
+    kw_plan_report *t = kw_alloc_n(1, sizeof *t);
     if (!t)
         return kw_set_error(KW_ENOMEM, "plan: out of memory");
     for (int it = 0; it < 3; it++) {
@@ -508,7 +508,7 @@ static kw_status plan_nearest(kw_plan_report *r)
             failed(t, "slab_select_gradient"))
             break;
     }
-    free(t);
+    kw_free(t);
     return KW_OK;
 }
 
@@ -516,17 +516,17 @@ kw_status kw_plan_create(kw_plan_report **out, const kw_protocol *p)
 {
     KW_FAIL_IF(!out, KW_EINVAL, "plan: no output");
     *out = NULL;
-    kw_plan_report *r = malloc(sizeof *r);
+    kw_plan_report *r = kw_alloc_n(1, sizeof *r);
     KW_FAIL_IF(!r, KW_ENOMEM, "plan: out of memory");
     kw_status st = plan_core(r, p);
     if (!st && !r->feasible)
         st = plan_nearest(r);
     if (st) {
-        free(r);
+        kw_free(r);
         return st;
     }
     *out = r;
     return KW_OK;
 }
 
-void kw_plan_destroy(kw_plan_report *r) { free(r); }
+void kw_plan_destroy(kw_plan_report *r) { kw_free(r); }

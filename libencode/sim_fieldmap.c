@@ -59,8 +59,8 @@ void kw_fieldmap_destroy(kw_fieldmap *fm)
 {
     if (!fm)
         return;
-    free(fm->b_re);
-    free(fm->b_im);
+    kw_free(fm->b_re);
+    kw_free(fm->b_im);
     kw_free(fm->obj);
     kw_free(fm->cls);
     kw_free(fm->rt);
@@ -68,12 +68,12 @@ void kw_fieldmap_destroy(kw_fieldmap *fm)
     kw_free(fm->sphase);
     kw_free(fm->field);
     kw_free(fm->work);
-    free(fm->ex);
-    free(fm->ey);
+    kw_free(fm->ex);
+    kw_free(fm->ey);
     kw_fft_destroy(fm->plan);
     kw_nufft_destroy(fm->nu);
     kw_free(fm->kvals);
-    free(fm);
+    kw_free(fm);
 }
 
 /* Phase time of Cartesian sample i (column ix) or trajectory sample i. */
@@ -236,8 +236,8 @@ static kw_status fm_fit(kw_fieldmap *fm, size_t nobj)
     const size_t M = fm->mx * fm->my;
     const int nseg = fm->nseg;
     kw_status st = KW_OK;
-    fm->b_re = malloc((size_t)nseg * fm->nt * sizeof *fm->b_re);
-    fm->b_im = malloc((size_t)nseg * fm->nt * sizeof *fm->b_im);
+    fm->b_re = kw_alloc_n((size_t)nseg * fm->nt, sizeof *fm->b_re);
+    fm->b_im = kw_alloc_n((size_t)nseg * fm->nt, sizeof *fm->b_im);
     /* The least-squares interpolators of Sutton et al. over the object's
      * pixels (every pixel when the object is empty), subsampled to at most
      * ~20000: with e_l(x) = exp(-i 2 pi f_x tau_l) once per fit pixel,
@@ -249,11 +249,11 @@ static kw_status fm_fit(kw_fieldmap *fm, size_t nobj)
     for (size_t i = 0, k = 0; i < M; i++)
         if ((!nobj || fm->obj[i] != 0) && k++ % stride == 0)
             used++;
-    double complex *G = calloc((size_t)nseg * nseg, sizeof *G);
-    double complex *rhs = malloc((size_t)nseg * sizeof *rhs);
-    double complex *e = malloc(used * (size_t)nseg * sizeof *e);
-    double *fx = malloc(used * sizeof *fx);
-    double complex *y = malloc(used * sizeof *y); /* y(tau) of the node at hand */
+    double complex *G = kw_alloc_n((size_t)nseg * nseg, sizeof *G);
+    double complex *rhs = kw_alloc_n((size_t)nseg, sizeof *rhs);
+    double complex *e = kw_alloc_n(used * (size_t)nseg, sizeof *e);
+    double *fx = kw_alloc_n(used, sizeof *fx);
+    double complex *y = kw_alloc_n(used, sizeof *y); /* y(tau) of the node at hand */
     if (!fm->b_re || !fm->b_im || !G || !rhs || !e || !fx || !y) {
         st = kw_set_error(KW_ENOMEM, "field-map: out of memory");
         goto fit_done;
@@ -302,11 +302,11 @@ static kw_status fm_fit(kw_fieldmap *fm, size_t nobj)
         }
     }
 fit_done:
-    free(G);
-    free(rhs);
-    free(e);
-    free(fx);
-    free(y);
+    kw_free(G);
+    kw_free(rhs);
+    kw_free(e);
+    kw_free(fx);
+    kw_free(y);
     if (!st)
         fm->err = worst;
     return st;
@@ -332,7 +332,7 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *calle
         return st;
     const kw_sim_options *o = kw_sim_get_options(opt->sim);
     const size_t nx = o->n[2], ny = o->n[1];
-    kw_fieldmap *fm = calloc(1, sizeof *fm);
+    kw_fieldmap *fm = kw_alloc_n(1, sizeof *fm);
     KW_FAIL_IF(!fm, KW_ENOMEM, "field-map: out of memory");
     fm->sim = opt->sim;
     fm->o = o;
@@ -354,8 +354,8 @@ kw_status kw_fieldmap_create(kw_fieldmap **out, const kw_fieldmap_options *calle
     fm->sphase = kw_alloc(M * sizeof *fm->sphase);
     fm->field = kw_alloc(M * sizeof *fm->field);
     fm->work = kw_alloc(M * sizeof *fm->work);
-    fm->ex = malloc(fm->mx * (size_t)side * sizeof *fm->ex);
-    fm->ey = malloc(fm->my * (size_t)side * sizeof *fm->ey);
+    fm->ex = kw_alloc_n(fm->mx * (size_t)side, sizeof *fm->ex);
+    fm->ey = kw_alloc_n(fm->my * (size_t)side, sizeof *fm->ey);
     if (!fm->obj || !fm->field || !fm->work || !fm->ex || !fm->ey || !fm->cls || !fm->rt ||
         !fm->sens || !fm->sphase) {
         st = kw_set_error(KW_ENOMEM, "field-map: out of memory for the %zux%zu grid", fm->mx, fm->my);

@@ -122,7 +122,7 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
     const kw_contrast *c = &opt->contrast;
     KW_FAIL_PARAM(!isfinite(c->te_s) || c->te_s < 0, KW_EINVAL, "contrast", "must be >= 0");
 
-    kw_sim *s = calloc(1, sizeof *s);
+    kw_sim *s = kw_alloc_n(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "simulate: out of memory");
     s->o = *opt;
     s->o.n[0] = nz;
@@ -145,7 +145,7 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
             kw_tissue_values tv;
             kw_status st = kw_tissue_lookup(sh->tissue, c->b0_t, opt->tissue_values, &tv);
             if (st) {
-                free(s);
+                kw_free(s);
                 return st;
             }
             const kw_tissue *tt = kw_tissue_get(sh->tissue);
@@ -178,9 +178,9 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
             f->scale = 0; /* see kw_phantom_kspace_shape */
     }
     if (opt->ncoils > 0) {
-        s->shift_phase = malloc((size_t)p->nshapes * s->terms * sizeof *s->shift_phase);
+        s->shift_phase = kw_alloc_n((size_t)p->nshapes * s->terms, sizeof *s->shift_phase);
         if (!s->shift_phase) {
-            free(s);
+            kw_free(s);
             return kw_set_error(KW_ENOMEM, "simulate: out of memory");
         }
         int L = opt->coil_order, side = 2 * L + 1, Lz = s->lz;
@@ -210,8 +210,8 @@ void kw_sim_destroy(kw_sim *sim)
 {
     if (!sim)
         return;
-    free(sim->shift_phase);
-    free(sim);
+    kw_free(sim->shift_phase);
+    kw_free(sim);
 }
 
 static int has_decay(const kw_sim *sim, int i)

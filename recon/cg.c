@@ -140,9 +140,9 @@ void kw_solver_destroy(kw_solver *s)
                              s->g1, s->g2, s->g3, s->ybuf};
     for (size_t i = 0; i < sizeof bufs / sizeof *bufs; i++)
         kw_free(bufs[i]);
-    free(s->log);
-    free(s->part);
-    free(s);
+    kw_free(s->log);
+    kw_free(s->part);
+    kw_free(s);
 }
 
 void kw_solver_options_init(kw_solver_options *o)
@@ -185,7 +185,7 @@ kw_status kw_solver_create(kw_solver **out, kw_encoder *enc, int ndim, const siz
         o.inner = 10;
     if (o.wavelet_order == 0)
         o.wavelet_order = 4;
-    kw_solver *s = calloc(1, sizeof *s);
+    kw_solver *s = kw_alloc_n(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "solver: out of memory");
     s->enc = enc;
     s->o = o;
@@ -225,13 +225,13 @@ kw_status kw_solver_create(kw_solver **out, kw_encoder *enc, int ndim, const siz
     s->v5 = kw_alloc(nb);
     s->v6 = kw_alloc(nb);
     s->ybuf = kw_alloc(s->ndata * sizeof(float complex));
-    s->log = calloc((size_t)o.iterations, sizeof *s->log);
+    s->log = kw_alloc_n((size_t)o.iterations, sizeof *s->log);
 #ifdef _OPENMP
     s->nthreads = omp_get_max_threads();
 #else
     s->nthreads = 1;
 #endif
-    s->part = calloc((size_t)s->nthreads, sizeof *s->part);
+    s->part = kw_alloc_n((size_t)s->nthreads, sizeof *s->part);
     KW_FAIL_GOTO(!s->b || !s->v1 || !s->v2 || !s->v3 || !s->v4 || !s->v5 || !s->v6 ||
                      !s->ybuf || !s->log || !s->part,
                  st, KW_ENOMEM, fail, "solver: out of memory");

@@ -38,7 +38,7 @@ static size_t lines_in(const uint8_t *mask, const size_t d[3], int a, size_t fro
         return 0;
     if (to >= d[a])
         to = d[a] - 1;
-    uint8_t *seen = calloc(to - from + 1, 1);
+    uint8_t *seen = kw_alloc_n(to - from + 1, 1);
     if (!seen)
         return 0;
     size_t npix = d[0] * d[1] * d[2], n = 0;
@@ -49,7 +49,7 @@ static size_t lines_in(const uint8_t *mask, const size_t d[3], int a, size_t fro
             n++;
         }
     }
-    free(seen);
+    kw_free(seen);
     return n;
 }
 
@@ -67,7 +67,7 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
     size_t ctr[3] = {d[0] / 2, d[1] / 2, d[2] / 2};
     size_t maxd = d[0] > d[1] ? d[0] : d[1];
     maxd = maxd > d[2] ? maxd : d[2];
-    uint8_t *proj = calloc(maxd, 1);
+    uint8_t *proj = kw_alloc_n(maxd, 1);
     KW_FAIL_IF(!proj, KW_ENOMEM, "sampling: out of memory");
     s->uniform = 1;
     for (int a = 0; a < 3; a++) {
@@ -180,7 +180,7 @@ kw_status kw_cart_sampling_analyse(const uint8_t *mask, const size_t d[3],
         /* asymmetric by more than one lattice step */
         s->partial[a] = d[a] > 1 && (left > right + (size_t)R || right > left + (size_t)R);
     }
-    free(proj);
+    kw_free(proj);
     /* every lattice point sampled, nothing else outside the block */
     for (size_t p = 0; p < npix && s->uniform; p++) {
         size_t c3[3] = {p / (d[1] * d[2]), (p / d[2]) % d[1], p % d[2]};
@@ -237,11 +237,11 @@ kw_status kw_coilsens_walsh(const float complex *ksp, size_t nc, const size_t d[
     if (st)
         return st;
     float complex *low = kw_alloc(nc * npix * sizeof *low);
-    float *rss = malloc(npix * sizeof *rss);
+    float *rss = kw_alloc_n(npix, sizeof *rss);
     if (!low || !rss) {
         kw_fft_destroy(plan);
         kw_free(low);
-        free(rss);
+        kw_free(rss);
         return kw_set_error(KW_ENOMEM, "sens: out of memory");
     }
     for (size_t p = 0; p < npix; p++) {
@@ -274,6 +274,6 @@ kw_status kw_coilsens_walsh(const float complex *ksp, size_t nc, const size_t d[
                     sens[c * npix + p] = 0;
     }
     kw_free(low);
-    free(rss);
+    kw_free(rss);
     return st;
 }

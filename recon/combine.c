@@ -12,7 +12,7 @@
 kw_status kw_prewhiten_matrix(const float complex *cov, size_t nc, float complex *w)
 {
     KW_FAIL_IF(!cov || !w || nc == 0, KW_EINVAL, "noise-cov: empty");
-    double complex *L = calloc(nc * nc, sizeof *L);
+    double complex *L = kw_alloc_n(nc * nc, sizeof *L);
     KW_FAIL_IF(!L, KW_ENOMEM, "noise-cov: out of memory");
     double scale = 0;
     for (size_t i = 0; i < nc; i++)
@@ -52,31 +52,24 @@ kw_status kw_prewhiten_matrix(const float complex *cov, size_t nc, float complex
                 w[i * nc + col] = (float complex)(s / L[i * nc + i]);
             }
     }
-    free(L);
+    kw_free(L);
     return st;
 }
 
 void kw_prewhiten_apply(const float complex *w, size_t nc, size_t npts,
                         float complex *data)
 {
+    /* W is lower triangular: row i needs the inputs 0..i only, so the rows
+     * are made from the last to the first in place (no copy of the point's
+     * coils, hence nothing to allocate; the sums are those of the copy). */
 #pragma omp parallel for schedule(static)
     for (size_t p = 0; p < npts; p++) {
-        float complex tmp[64];
-        float complex *t = tmp;
-        float complex *heap = NULL;
-        if (nc > 64) /* rare: very many coils */
-            t = heap = malloc(nc * sizeof *t);
-        if (!t)
-            continue;
-        for (size_t c = 0; c < nc; c++)
-            t[c] = data[c * npts + p];
-        for (size_t i = 0; i < nc; i++) {
+        for (size_t i = nc; i-- > 0;) {
             double complex s = 0;
             for (size_t k = 0; k <= i; k++)
-                s += w[i * nc + k] * t[k];
+                s += w[i * nc + k] * data[k * npts + p];
             data[i * npts + p] = (float complex)s;
         }
-        free(heap);
     }
 }
 
@@ -153,7 +146,7 @@ kw_status kw_combine_adaptive(const float complex *coil, size_t nc,
     kw_status st = KW_OK;
 #pragma omp parallel
     {
-        double complex *a = malloc((nc * nc + 2 * nc) * sizeof *a);
+        double complex *a = kw_alloc_n(nc * nc + 2 * nc, sizeof *a);
         if (!a) {
 #pragma omp critical
             st = kw_set_error(KW_ENOMEM, "combine: out of memory");
@@ -195,7 +188,7 @@ kw_status kw_combine_adaptive(const float complex *coil, size_t nc,
             if (out)
                 out[p] = (float complex)s;
         }
-        free(a);
+        kw_free(a);
     }
     return st;
 }

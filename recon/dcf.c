@@ -59,7 +59,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
     double dz = 1.0;
     if (ndim == 3) {
         /* stack of stars: count distinct kz values (sorted copy) */
-        float *z = malloc(ns * sizeof *z);
+        float *z = kw_alloc_n(ns, sizeof *z);
         KW_FAIL_IF(!z, KW_ENOMEM, "dcf: out of memory");
         for (size_t j = 0; j < ns; j++)
             z[j] = traj[j * 3 + 2];
@@ -69,7 +69,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
             if (z[j] != z[j - 1])
                 nplanes++;
         dz = nplanes > 1 ? (double)(z[ns - 1] - z[0]) / (double)(nplanes - 1) : 1.0;
-        free(z);
+        kw_free(z);
     }
     /* Each full-diameter spoke direction theta (mod pi) owns the angular
      * sector halfway to its neighbours, width dtheta; a sample at radius r
@@ -77,12 +77,12 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
      * golden-angle: the sectors differ). Directions repeated (several
      * planes or repetitions) share: m = samples of the innermost ring at
      * that angle / 2 (the +r and -r of one spoke). */
-    double *th = malloc(ns * sizeof *th), *u = malloc(ns * sizeof *u);
-    size_t *cnt = calloc(ns, sizeof *cnt);
+    double *th = kw_alloc_n(ns, sizeof *th), *u = kw_alloc_n(ns, sizeof *u);
+    size_t *cnt = kw_alloc_n(ns, sizeof *cnt);
     if (!th || !u || !cnt) {
-        free(th);
-        free(u);
-        free(cnt);
+        kw_free(th);
+        kw_free(u);
+        kw_free(cnt);
         return kw_set_error(KW_ENOMEM, "dcf: out of memory");
     }
     size_t nu = 0, ncentre = 0;
@@ -128,9 +128,9 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
         double mult = cnt[i] >= 2 ? (double)cnt[i] / 2.0 : 1.0;
         w[j] = (float)(r * dth * dr * dz / mult);
     }
-    free(th);
-    free(u);
-    free(cnt);
+    kw_free(th);
+    kw_free(u);
+    kw_free(cnt);
     return KW_OK;
 }
 
@@ -160,10 +160,10 @@ kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj
     kw_status st = kw_nufft_create(&p, ndim, dims, ns, traj, &o);
     if (st)
         return st;
-    float complex *a = malloc(ns * sizeof *a), *b = malloc(ns * sizeof *b);
+    float complex *a = kw_alloc_n(ns, sizeof *a), *b = kw_alloc_n(ns, sizeof *b);
     if (!a || !b) {
-        free(a);
-        free(b);
+        kw_free(a);
+        kw_free(b);
         kw_nufft_destroy(p);
         return kw_set_error(KW_ENOMEM, "dcf: out of memory");
     }
@@ -178,8 +178,8 @@ kw_status kw_dcf_pipe(int ndim, const size_t *dims, size_t ns, const float *traj
     }
     for (size_t j = 0; j < ns; j++)
         w[j] = crealf(a[j]);
-    free(a);
-    free(b);
+    kw_free(a);
+    kw_free(b);
     kw_nufft_destroy(p);
     return st;
 }

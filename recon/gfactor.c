@@ -30,10 +30,10 @@ static kw_status sens_norm(const kw_recon *r, size_t npix, float **snorm)
     size_t nc = r->nc;
     *snorm = NULL;
     float complex *s = kw_alloc(nc * npix * sizeof *s);
-    float *n = malloc(npix * sizeof *n);
+    float *n = kw_alloc_n(npix, sizeof *n);
     if (!s || !n) {
         kw_free(s);
-        free(n);
+        kw_free(n);
         return kw_set_error_param(KW_ENOMEM, "gfactor", "out of memory");
     }
     memcpy(s, r->g.sens, nc * npix * sizeof *s);
@@ -42,12 +42,12 @@ static kw_status sens_norm(const kw_recon *r, size_t npix, float **snorm)
         float complex *w = NULL;
         if (!(st = kw_recon_whitener(r->g.noise_cov, nc, &w)))
             kw_prewhiten_apply(w, nc, npix, s);
-        free(w);
+        kw_free(w);
     }
     kw_combine_rss(s, nc, npix, n);
     kw_free(s);
     if (st)
-        free(n);
+        kw_free(n);
     else
         *snorm = n;
     return st;
@@ -169,8 +169,8 @@ kw_status kw_recon_pseudo_replica(kw_recon *r, const kw_cfloat *ksp, const float
     int sens_units = strcmp(r->m->info->name, "sense") == 0 ||
                      (r->o.combine && strcmp(r->o.combine, "optimal") == 0);
     /* noise colouring: n = L z with Psi = L L^H (identity without a covariance) */
-    double complex *L = calloc(nc * nc, sizeof *L);
-    double *acc = calloc(2 * npix, sizeof *acc);
+    double complex *L = kw_alloc_n(nc * nc, sizeof *L);
+    double *acc = kw_alloc_n(2 * npix, sizeof *acc);
     float *snorm = NULL;
     kw_status st = KW_OK;
     KW_FAIL_GOTO(!L || !acc, st, KW_ENOMEM, out, "gfactor: out of memory");
@@ -202,8 +202,8 @@ kw_status kw_recon_pseudo_replica(kw_recon *r, const kw_cfloat *ksp, const float
     r->rep.gfactor_method = "pseudo-replica (Robson et al. 2008)";
     r->rep.gfactor_replicas = (int)nrep;
 out:
-    free(L);
-    free(acc);
-    free(snorm);
+    kw_free(L);
+    kw_free(acc);
+    kw_free(snorm);
     return st;
 }

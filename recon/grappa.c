@@ -32,12 +32,12 @@ void kw_grappa_destroy(kw_grappa *g)
 {
     if (!g)
         return;
-    free(g->aha);
-    free(g->ahb);
-    free(g->row);
-    free(g->w);
-    free(g->src);
-    free(g);
+    kw_free(g->aha);
+    kw_free(g->ahb);
+    kw_free(g->row);
+    kw_free(g->w);
+    kw_free(g->src);
+    kw_free(g);
 }
 
 void kw_grappa_options_init(kw_grappa_options *o)
@@ -66,7 +66,7 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
         return ost;
     const kw_grappa_options *o = &local;
     KW_FAIL_PARAM(!(o->lambda >= 0) || !isfinite(o->lambda), KW_EINVAL, "lambda", "must be >= 0");
-    kw_grappa *g = calloc(1, sizeof *g);
+    kw_grappa *g = kw_alloc_n(1, sizeof *g);
     KW_FAIL_IF(!g, KW_ENOMEM, "grappa: out of memory");
     g->nc = nc;
     g->o = *o;
@@ -123,11 +123,11 @@ kw_status kw_grappa_create(kw_grappa **out, size_t nc, const size_t d[3],
 #else
     g->nthreads = 1;
 #endif
-    g->aha = malloc(g->ncols * g->ncols * sizeof *g->aha);
-    g->ahb = malloc(g->ncols * nc * sizeof *g->ahb);
-    g->row = malloc(g->ncols * sizeof *g->row);
-    g->w = malloc((size_t)(g->ntgt > 0 ? g->ntgt : 1) * nc * g->ncols * sizeof *g->w);
-    g->src = malloc((size_t)g->nthreads * g->ncols * sizeof *g->src);
+    g->aha = kw_alloc_n(g->ncols * g->ncols, sizeof *g->aha);
+    g->ahb = kw_alloc_n(g->ncols * nc, sizeof *g->ahb);
+    g->row = kw_alloc_n(g->ncols, sizeof *g->row);
+    g->w = kw_alloc_n((size_t)(g->ntgt > 0 ? g->ntgt : 1) * nc * g->ncols, sizeof *g->w);
+    g->src = kw_alloc_n((size_t)g->nthreads * g->ncols, sizeof *g->src);
     if (!g->aha || !g->ahb || !g->row || !g->w || !g->src) {
         kw_grappa_destroy(g);
         return kw_set_error(KW_ENOMEM, "grappa: out of memory");

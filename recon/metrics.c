@@ -83,7 +83,7 @@ kw_status kw_metrics_ssim(const double *ref, const double *test, int ndim,
 
     size_t maxd = d[0] > d[1] ? d[0] : d[1];
     maxd = maxd > d[2] ? maxd : d[2];
-    double *buf = malloc((5 * n + maxd) * sizeof *buf);
+    double *buf = kw_alloc_n(5 * n + maxd, sizeof *buf);
     KW_FAIL_IF(!buf, KW_ENOMEM, "ssim: out of memory");
     double *mx = buf, *my = buf + n, *sxx = buf + 2 * n, *syy = buf + 3 * n,
            *sxy = buf + 4 * n, *line = buf + 5 * n;
@@ -124,7 +124,7 @@ kw_status kw_metrics_ssim(const double *ref, const double *test, int ndim,
                     cnt++;
                 }
             }
-    free(buf);
+    kw_free(buf);
     *mean = sum / (double)cnt;
     return KW_OK;
 }
@@ -158,7 +158,7 @@ kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
     if ((st = kw_array_all_finite(test)))
         return st;
 
-    double *r = malloc(2 * n * sizeof *r);
+    double *r = kw_alloc_n(2 * n, sizeof *r);
     KW_FAIL_IF(!r, KW_ENOMEM, "metrics: out of memory");
     double *t = r + n;
     double num = 0, den = 0, rmax = 0, rmin = INFINITY;
@@ -171,7 +171,7 @@ kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
         rmin = r[i] < rmin ? r[i] : rmin;
     }
     if (!(den > 0)) {
-        free(r);
+        kw_free(r);
         return kw_set_error(KW_ENUMERIC, "ref: the reference image is all zero");
     }
     out->nrmse = sqrt(num / den);
@@ -201,7 +201,7 @@ kw_status kw_metrics_compute(const kw_array *ref, const kw_array *test,
             out->ssim = acc / (double)nb;
         }
     }
-    free(r);
+    kw_free(r);
     return st;
 }
 

@@ -28,7 +28,7 @@ void kw_pf_destroy(kw_pf *p)
     kw_free(p->lw);
     kw_free(p->phase);
     kw_free(p->work);
-    free(p);
+    kw_free(p);
 }
 
 void kw_pf_fraction(const kw_pf *p, double frac[3])
@@ -42,7 +42,7 @@ kw_status kw_pf_create(kw_pf **out, size_t batch, const size_t d[3],
 {
     KW_FAIL_IF(!out || !d || !lo || !hi || batch == 0, KW_EINVAL, "partial Fourier: NULL argument");
     *out = NULL;
-    kw_pf *p = calloc(1, sizeof *p);
+    kw_pf *p = kw_alloc_n(1, sizeof *p);
     KW_FAIL_IF(!p, KW_ENOMEM, "partial Fourier: out of memory");
     p->batch = batch;
     p->npix = d[0] * d[1] * d[2];

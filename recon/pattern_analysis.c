@@ -40,12 +40,12 @@ static void cartesian_counts(analysis *a, const float *w)
     a->acceleration = s ? (double)n / (double)s : INFINITY;
     /* ACS: the contiguous fully sampled block through k = 0 (mask_acs.h,
      * as the pattern sidecar measures it) */
-    uint8_t *m = malloc(n);
+    uint8_t *m = kw_alloc_n(n, 1);
     if (m) {
         for (size_t i = 0; i < n; i++)
             m[i] = w[i] > 0;
         kw_mask_acs_block(m, d, a->plane, a->acs_block);
-        free(m);
+        kw_free(m);
     }
     a->acs_lines = a->plane ? (double)(a->acs_block[0] * a->acs_block[1])
                             : (double)a->acs_block[0];
@@ -150,10 +150,10 @@ static kw_status traj_gap(const float *k, size_t stride, size_t ns, size_t reado
 {
     const long half = (long)n / 2 + 2, side = 2 * half + 1;
     size_t ncell = (size_t)(side * side);
-    size_t *head = malloc(ncell * sizeof *head), *next = malloc(ns * sizeof *next);
+    size_t *head = kw_alloc_n(ncell, sizeof *head), *next = kw_alloc_n(ns, sizeof *next);
     if (!head || !next) {
-        free(head);
-        free(next);
+        kw_free(head);
+        kw_free(next);
         return kw_set_error(KW_ENOMEM, "gap: out of memory");
     }
     for (size_t c = 0; c < ncell; c++)
@@ -202,8 +202,8 @@ static kw_status traj_gap(const float *k, size_t stride, size_t ns, size_t reado
         if (isfinite(best) && best > g)
             g = best;
     }
-    free(head);
-    free(next);
+    kw_free(head);
+    kw_free(next);
     *gap = g;
     return KW_OK;
 }
@@ -250,7 +250,7 @@ static kw_status analyse_traj(analysis *a, const float *k, size_t ns, size_t str
     a->gap_axis[0] = a->gap_axis[1] = NAN;
     float *w = NULL;
     if (ti->weights != KW_PATTERN_WEIGHTS_NONE) {
-        w = malloc(count * sizeof *w);
+        w = kw_alloc_n(count, sizeof *w);
         KW_FAIL_IF(!w, KW_ENOMEM, "weights: out of memory");
         kw_traj_options o;
         kw_traj_options_init(&o);
@@ -269,7 +269,7 @@ static kw_status analyse_traj(analysis *a, const float *k, size_t ns, size_t str
             st = kw_dcf_pipe(2, dd, count, kp, 0, NULL, w);
         }
         if (st) {
-            free(w);
+            kw_free(w);
             return st;
         }
     }
@@ -278,7 +278,7 @@ static kw_status analyse_traj(analysis *a, const float *k, size_t ns, size_t str
     a->psfdims[0] = a->psfdims[1] = m;
     a->psfbuf = kw_alloc(m * m * sizeof *a->psfbuf);
     if (!a->psfbuf) {
-        free(w);
+        kw_free(w);
         return kw_set_error(KW_ENOMEM, "psf: out of memory");
     }
     st = kw_psf_ndft(kp, stride, w, count, ti->n, m, a->psfbuf, progress, user);
@@ -286,7 +286,7 @@ static kw_status analyse_traj(analysis *a, const float *k, size_t ns, size_t str
         st = kw_psf_measure(a->psfbuf, 2, a->psfdims, &a->psf);
     if (!st) /* the continuous FWHM replaces the grid-interpolated one */
         st = kw_psf_fwhm_ndft(kp, stride, w, count, ti->n, a->psf.fwhm);
-    free(w);
+    kw_free(w);
     if (st)
         return st;
     a->tpsf_levels = 0;

@@ -318,15 +318,15 @@ kw_status kw_mask_gap(const float *w, size_t ny, size_t nx, double *gap)
     KW_FAIL_IF(!w || !gap || ny < 1 || nx < 1, KW_EINVAL, "gap: bad arguments");
     const size_t H = 2 * ny - 1, W = 2 * nx - 1;
     const size_t big = H + W + 4;
-    size_t *d = malloc(H * W * sizeof *d);
-    long *rmin = malloc(ny * sizeof *rmin), *rmax = malloc(ny * sizeof *rmax);
-    long *cmin = malloc(nx * sizeof *cmin), *cmax = malloc(nx * sizeof *cmax);
+    size_t *d = kw_alloc_n(H * W, sizeof *d);
+    long *rmin = kw_alloc_n(ny, sizeof *rmin), *rmax = kw_alloc_n(ny, sizeof *rmax);
+    long *cmin = kw_alloc_n(nx, sizeof *cmin), *cmax = kw_alloc_n(nx, sizeof *cmax);
     if (!d || !rmin || !rmax || !cmin || !cmax) {
-        free(d);
-        free(rmin);
-        free(rmax);
-        free(cmin);
-        free(cmax);
+        kw_free(d);
+        kw_free(rmin);
+        kw_free(rmax);
+        kw_free(cmin);
+        kw_free(cmax);
         return kw_set_error(KW_ENOMEM, "gap: out of memory");
     }
     for (size_t y = 0; y < ny; y++)
@@ -396,11 +396,11 @@ kw_status kw_mask_gap(const float *w, size_t ny, size_t nx, double *gap)
     /* g half-steps from the centre of the largest empty square to a sample:
      * its side, 2 g half-steps, is g delta-k; a full grid gives 1 */
     *gap = (double)g;
-    free(d);
-    free(rmin);
-    free(rmax);
-    free(cmin);
-    free(cmax);
+    kw_free(d);
+    kw_free(rmin);
+    kw_free(rmax);
+    kw_free(cmin);
+    kw_free(cmax);
     return KW_OK;
 }
 
@@ -453,10 +453,10 @@ kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, do
         if (dims[a] > nmax)
             nmax = dims[a];
     }
-    double *f = malloc(nmax * sizeof *f), *amp = malloc(nmax * sizeof *amp);
+    double *f = kw_alloc_n(nmax, sizeof *f), *amp = kw_alloc_n(nmax, sizeof *amp);
     if (!f || !amp) {
-        free(f);
-        free(amp);
+        kw_free(f);
+        kw_free(amp);
         return kw_set_error(KW_ENOMEM, "fwhm: out of memory");
     }
     for (int a = 0; a < rank; a++) {
@@ -477,8 +477,8 @@ kw_status kw_psf_fwhm_cartesian(const float *w, int rank, const size_t *dims, do
             amp[(i / inner) % dims[a]] += w[i];
         fwhm[a] = fwhm_of(f, amp, dims[a], 0.5 * (double)dims[a]);
     }
-    free(f);
-    free(amp);
+    kw_free(f);
+    kw_free(amp);
     return KW_OK;
 }
 
@@ -487,10 +487,10 @@ kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t
 {
     KW_FAIL_IF(!k || !fwhm || stride < 2 || samples < 1 || n < 2, KW_EINVAL,
                "fwhm: bad arguments");
-    double *f = malloc(samples * sizeof *f), *amp = malloc(samples * sizeof *amp);
+    double *f = kw_alloc_n(samples, sizeof *f), *amp = kw_alloc_n(samples, sizeof *amp);
     if (!f || !amp) {
-        free(f);
-        free(amp);
+        kw_free(f);
+        kw_free(amp);
         return kw_set_error(KW_ENOMEM, "fwhm: out of memory");
     }
     /* axis 0 of the picture is y (k column 1), axis 1 is x (column 0) */
@@ -502,7 +502,7 @@ kw_status kw_psf_fwhm_ndft(const float *k, size_t stride, const float *w, size_t
         }
         fwhm[a] = fwhm_of(f, amp, samples, 0.5 * (double)n);
     }
-    free(f);
-    free(amp);
+    kw_free(f);
+    kw_free(amp);
     return KW_OK;
 }

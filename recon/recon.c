@@ -184,7 +184,7 @@ kw_status kw_recon_create(kw_recon **rp, const kw_recon_geometry *g, const kw_re
     KW_FAIL_IF(!rp, KW_EINVAL, "recon: NULL argument");
     *rp = NULL;
     KW_FAIL_PARAM(!g, KW_EINVAL, "kspace", "no geometry");
-    kw_recon *r = calloc(1, sizeof *r);
+    kw_recon *r = kw_alloc_n(1, sizeof *r);
     KW_FAIL_IF(!r, KW_ENOMEM, "recon: out of memory");
     kw_status st = create(r, g, o);
     if (st) {
@@ -312,7 +312,7 @@ void kw_recon_destroy(kw_recon *r)
         return;
     kw_rssrecon_destroy(r->rss);
     kw_free(r->est_sens);
-    free(r->w);
-    free(r->log);
-    free(r);
+    kw_free(r->w);
+    kw_free(r->log);
+    kw_free(r);
 }

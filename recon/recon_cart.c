@@ -20,7 +20,7 @@ void kw_cart_free(kw_cart *c)
         return;
     kw_free(c->k);
     kw_free(c->sens);
-    free(c->wht);
+    kw_free(c->wht);
     memset(c, 0, sizeof *c);
 }
 
@@ -85,11 +85,11 @@ kw_status kw_cart_setup(kw_rjob *job, kw_cart *c)
     KW_FAIL_PARAM(!c->k, KW_ENOMEM, "kspace", "out of memory");
     memcpy(c->k, job->ksp, n * sizeof *c->k);
 
-    uint8_t *mask = malloc(c->npix);
+    uint8_t *mask = kw_alloc_n(c->npix, 1);
     KW_FAIL_PARAM(!mask, KW_ENOMEM, "kspace", "out of memory");
     kw_cart_mask(c->k, c->nc, c->npix, mask);
     kw_status st = kw_cart_sampling_analyse(mask, c->d, &c->smp);
-    free(mask);
+    kw_free(mask);
     if (st)
         return st;
     if (job->use_claims && r->has_claims && (st = kw_recon_check_claims(&r->claims, &c->smp)))

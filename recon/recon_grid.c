@@ -89,7 +89,7 @@ kw_status kw_nc_weights(kw_recon *r)
     if (kind == KW_RECON_DCF_AUTO)
         kind = is_radial(t, ns, (size_t)nd) ? KW_RECON_DCF_RADIAL : KW_RECON_DCF_PIPE;
     r->dcf_used = kind;
-    r->w = malloc(ns * sizeof *r->w);
+    r->w = kw_alloc_n(ns, sizeof *r->w);
     KW_FAIL_PARAM(!r->w, KW_ENOMEM, "dcf", "out of memory");
     if (kind == KW_RECON_DCF_GIVEN) {
         const float *v = r->g.weights;
@@ -132,7 +132,7 @@ kw_status kw_nc_sens(kw_rjob *job, float complex **sens)
         return KW_OK;
     const float *t = r->g.trajectory;
     double kc = (double)dims[ndim - 1] / 8.0;
-    float complex *y = malloc(nc * ns * sizeof *y);
+    float complex *y = kw_alloc_n(nc * ns, sizeof *y);
     float complex *img = kw_alloc(nc * np * sizeof *img);
     kw_nufft_plan *p = NULL;
     kw_nufft_options no;
@@ -177,7 +177,7 @@ kw_status kw_nc_sens(kw_rjob *job, float complex **sens)
     job->rep->sens_source = "estimated (low-resolution gridded coil images / root-sum-of-squares)";
 done:
     kw_nufft_destroy(p);
-    free(y);
+    kw_free(y);
     kw_free(img);
     return st;
 }
@@ -253,7 +253,7 @@ kw_status kw_recon_run_grid(kw_rjob *job)
     if ((st = kw_nufft_create(&p, ndim, dims, ns, r->g.trajectory, &no)))
         return st;
     job->rep->dcf_used = r->dcf_used;
-    y = malloc(nc * ns * sizeof *y);
+    y = kw_alloc_n(nc * ns, sizeof *y);
     img = kw_alloc(nc * np * sizeof *img);
     if (!y || !img) {
         st = kw_set_error(KW_ENOMEM, "grid: out of memory");
@@ -290,7 +290,7 @@ kw_status kw_recon_run_grid(kw_rjob *job)
     }
 done:
     kw_nufft_destroy(p);
-    free(y);
+    kw_free(y);
     kw_free(img);
     return st;
 }

@@ -52,7 +52,7 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
         return st;
     if (r->nc > 1 && (st = kw_cart_need_sens(job, cart, 2)))
         return st;
-    *mask = malloc(cart->npix);
+    *mask = kw_alloc_n(cart->npix, 1);
     KW_FAIL_IF(!*mask, KW_ENOMEM, "recon: out of memory");
     kw_cart_mask(cart->k, r->nc, cart->npix, *mask);
     *y = cart->k;
@@ -67,16 +67,16 @@ static kw_status lambda_abs(kw_encoder *enc, const float *w, const float complex
 {
     size_t nc = kw_encoder_coils(enc), nk = kw_encoder_kpoints(enc);
     float complex *b = kw_alloc(np * sizeof *b);
-    float complex *wy = malloc(nc * nk * sizeof *wy);
+    float complex *wy = kw_alloc_n(nc * nk, sizeof *wy);
     if (!b || !wy) {
-        free(wy);
+        kw_free(wy);
         kw_free(b);
         return kw_set_error(KW_ENOMEM, "recon: out of memory");
     }
     for (size_t i = 0; i < nc * nk; i++)
         wy[i] = (w ? w[i % nk] : 1.0f) * y[i];
     kw_status st = kw_encoder_adjoint(enc, wy, b);
-    free(wy);
+    kw_free(wy);
     double mx = 0;
     for (size_t i = 0; !st && i < np; i++)
         mx = cabsf(b[i]) > mx ? cabsf(b[i]) : mx;
@@ -93,8 +93,8 @@ static kw_status report_log(kw_rjob *job, const kw_solver *sol, int kind)
     rep->iterations = (int)nr;
     if (rep != &job->r->rep) /* a pseudo-replica: the log is not kept */
         return KW_OK;
-    free(job->r->log);
-    job->r->log = malloc((3 * nr + 1) * sizeof *job->r->log);
+    kw_free(job->r->log);
+    job->r->log = kw_alloc_n(3 * nr + 1, sizeof *job->r->log);
     KW_FAIL_IF(!job->r->log, KW_ENOMEM, "recon: out of memory");
     for (size_t i = 0; i < nr; i++) {
         job->r->log[i] = rec[i].iter;
@@ -174,7 +174,7 @@ done:
     kw_solver_destroy(sol);
     kw_encoder_destroy(enc);
     kw_cart_free(&cart);
-    free(mask);
+    kw_free(mask);
     kw_free(sens);
     kw_free(x);
     return st;

@@ -28,7 +28,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
     *out = NULL;
     KW_FAIL_IF(rank < 2 || rank > 3, KW_EINVAL, "rss recon: rank %d (2 or 3)", rank);
     KW_FAIL_IF(coils < 1, KW_EINVAL, "rss recon: no coils");
-    kw_rssrecon *r = calloc(1, sizeof *r);
+    kw_rssrecon *r = kw_alloc_n(1, sizeof *r);
     KW_FAIL_IF(!r, KW_ENOMEM, "rss recon: out of memory");
     r->rank = rank;
     r->coils = coils;
@@ -38,7 +38,7 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
     int ni[3];
     for (int i = 0; i < rank; i++) {
         if (dims[i] < 1 || dims[i] > (1u << 24)) {
-            free(r);
+            kw_free(r);
             return kw_set_error(KW_EINVAL, "rss recon: axis %d has length %zu", i, dims[i]);
         }
         r->d[3 - rank + i] = dims[i];
@@ -177,5 +177,5 @@ void kw_rssrecon_destroy(kw_rssrecon *r)
     kw_fft_destroy(r->generic);
     kw_free(r->scratch);
     kw_free(r->acc);
-    free(r);
+    kw_free(r);
 }

@@ -37,9 +37,9 @@ void kw_sense_destroy(kw_sense *s)
     kw_fft_destroy(s->plan);
     kw_free(s->fold);
     for (int a = 0; a < 3; a++)
-        free(s->ph[a]);
-    free(s->work);
-    free(s);
+        kw_free(s->ph[a]);
+    kw_free(s->work);
+    kw_free(s);
 }
 
 void kw_sense_options_init(kw_sense_options *o)
@@ -75,7 +75,7 @@ kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
                   KW_SENSE_MAX_R);
     KW_FAIL_PARAM((size_t)rtot > nc, KW_EINVAL, "accel",
                   "R = %d exceeds the %zu coils (SENSE needs R <= coils)", rtot, nc);
-    kw_sense *s = calloc(1, sizeof *s);
+    kw_sense *s = kw_alloc_n(1, sizeof *s);
     KW_FAIL_IF(!s, KW_ENOMEM, "sense: out of memory");
     s->nc = nc;
     s->npix = d[0] * d[1] * d[2];
@@ -85,7 +85,7 @@ kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
         s->d[a] = d[a];
         s->R[a] = accel[a];
         s->off[a] = ((offset[a] % accel[a]) + accel[a]) % accel[a];
-        s->ph[a] = malloc((size_t)accel[a] * sizeof *s->ph[a]);
+        s->ph[a] = kw_alloc_n((size_t)accel[a], sizeof *s->ph[a]);
         if (!s->ph[a]) {
             kw_sense_destroy(s);
             return kw_set_error(KW_ENOMEM, "sense: out of memory");
@@ -106,7 +106,7 @@ kw_status kw_sense_create(kw_sense **out, size_t nc, const size_t d[3],
     size_t r = (size_t)rtot;
     /* E (nc x r), A (r x r), L (r x r), b, x, inv (r x r), t (r x r) */
     s->wsize = nc * r + 4 * r * r + 2 * r + nc;
-    s->work = malloc((size_t)s->nthreads * s->wsize * sizeof *s->work);
+    s->work = kw_alloc_n((size_t)s->nthreads * s->wsize, sizeof *s->work);
     if (st || !s->fold || !s->work) {
         kw_sense_destroy(s);
         return st ? st : kw_set_error(KW_ENOMEM, "sense: out of memory");

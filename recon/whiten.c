@@ -25,11 +25,11 @@ void kw_recon_cov_normalise(float complex *cov, size_t nc)
 /* *w (malloc'd nc x nc): the whitening matrix of the normalised covariance. */
 kw_status kw_recon_whitener(const kw_cfloat *cov_in, size_t nc, float complex **w)
 {
-    *w = malloc(nc * nc * sizeof **w);
-    float complex *cov = malloc(nc * nc * sizeof *cov);
+    *w = kw_alloc_n(nc * nc, sizeof **w);
+    float complex *cov = kw_alloc_n(nc * nc, sizeof *cov);
     if (!*w || !cov) {
-        free(*w);
-        free(cov);
+        kw_free(*w);
+        kw_free(cov);
         *w = NULL;
         return kw_set_error_param(KW_ENOMEM, "noise_cov", "out of memory");
     }
@@ -37,9 +37,9 @@ kw_status kw_recon_whitener(const kw_cfloat *cov_in, size_t nc, float complex **
         cov[i] = cov_in[i];
     kw_recon_cov_normalise(cov, nc);
     kw_status st = kw_prewhiten_matrix(cov, nc, *w);
-    free(cov);
+    kw_free(cov);
     if (st) {
-        free(*w);
+        kw_free(*w);
         *w = NULL;
     }
     return st;
