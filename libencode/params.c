@@ -6,8 +6,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-/* Edit distance of two short keys (Levenshtein), for a suggestion. */
-static int distance(const char *a, const char *b)
+int kw_param_distance(const char *a, const char *b)
 {
     size_t na = strlen(a), nb = strlen(b);
     if (na > 32 || nb > 32)
@@ -41,7 +40,7 @@ int kw_param_find(const kw_param_key *keys, const char *key)
     for (int k = 0; keys[k].name; k++) {
         if (strcmp(keys[k].name, key) == 0)
             return k;
-        int d = distance(key, keys[k].name);
+        int d = kw_param_distance(key, keys[k].name);
         if (d < bd && d < (int)strlen(key)) {
             bd = d;
             best = k;

@@ -9,6 +9,10 @@
 
 #include "kw_params.h"
 
+/* Edit distance of two short keys (Levenshtein; 99 over 32 characters),
+ * for a suggestion of a near miss. */
+int kw_param_distance(const char *a, const char *b);
+
 /* The index of `key` in `keys` (terminated by a NULL name), or -1 with
  * KW_EINVAL "<key>: unknown key" (" (did you mean '<known>'?)" for a near
  * miss) set. */
