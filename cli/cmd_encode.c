@@ -28,71 +28,20 @@ static const char *usage =
     "Fourier transform of every shape evaluated at every sample). Phantoms:\n"
     "shepp-logan, shepp-logan-modified, weave, weave3d. See docs/simulator.md.";
 
-/* "256" / "256x192" / "64x64x16" -> n[0..2]; returns the number of values. */
-static int parse_matrix(const char *s, size_t n[3])
-{
-    int k = 0;
-    const char *p = s;
-    while (k < 3) {
-        char *end;
-        errno = 0;
-        if (!(*p >= '0' && *p <= '9'))
-            return -1;
-        long v = strtol(p, &end, 10);
-        if (errno || end == p || v < 1 || v > MAX_EDGE)
-            return -1;
-        n[k++] = (size_t)v;
-        if (*end == '\0')
-            break;
-        if (*end != 'x' && *end != 'X')
-            return -1;
-        p = end + 1;
-    }
-    if (*p && k == 3 && strpbrk(p, "xX"))
-        return -1;
-    return k;
-}
+/* How the library's messages name our options. */
+static const kw_param_spelling SPELLING = {"--", '-', " ", NULL};
 
-/* FOV: one to three positive lengths. */
-static int parse_fov(const char *s, double f[3], char *why, size_t wl)
-{
-    int k = kw_unit_parse_list(s, KW_UNIT_LENGTH, f, 3, why, wl);
-    for (int i = 0; i < k; i++)
-        if (!(f[i] > 0)) {
-            snprintf(why, wl, "must be positive (got %g m)", f[i]);
-            return -1;
-        }
-    return k;
-}
-
-
-/* The acquisition's option names (kw_last_error_param()) -> ours. */
-static const struct {
-    const char *param, *option;
-} param_map[] = {
-    {"phantom", "phantom"}, {"dims", "matrix"}, {"fov_m", "fov"}, {"sequence", "sequence"},
-    {"te_s", "te"}, {"tr_s", "tr"}, {"ti_s", "ti"}, {"flip_rad", "flip"}, {"b0_t", "b0"},
-    {"bandwidth_hz", "bandwidth"}, {"tissue_values", "tissue"}, {"tissue", "tissue"},
-    {"df_hz", "df"}, {"field_gradient_ndim", "field-gradient"},
-    {"field_gradient_t_per_m", "field-gradient"}, {"field_map", "field-map"},
-    {"coils", "coils"}, {"coil_radius_m", "coil-radius"}, {"coil_distance_m", "coil-distance"},
-    {"coil_rings", "coil-rings"}, {"coil_ring_gap_m", "coil-ring-gap"},
-    {"coil_order", "coil-order"}, {"coil_order_z", "coil-order-z"}, {"sens", "sens"},
-    {"snr", "snr"}, {"noise_corr", "noise-corr"}, {"noise_cov", "noise-cov"}, {"seed", "seed"},
-    {"slices", "slices"}, {"slice_thickness_m", "slice-thickness"}, {"slice_gap_m", "slice-gap"},
-    {"slice_points", "slice-points"}, {"mask", "pattern"}, {"traj", "trajectory"},
-    {"times", "times"}, {"protocol", "protocol"}, {"max_bytes", "shape"}, {"options", "encode"}};
-
-/* A failure of the acquisition, reported under our option's name. */
+/* A failure of the acquisition, reported under our option's name (the
+ * input's keys are our options; kw_acquisition_create() names fields). */
 static int acq_fail(kw_status st)
 {
     const char *p = kw_last_error_param();
     if (!*p)
         return kw_cli_status(st, ""); /* its reason names what failed */
-    const char *opt = "encode";
-    for (size_t i = 0; i < sizeof param_map / sizeof param_map[0]; i++)
-        if (strcmp(param_map[i].param, p) == 0)
-            opt = param_map[i].option;
+    const char *opt = kw_acquisition_input_key_of(p);
+    if (!opt)
+        opt = strcmp(p, "max_bytes") == 0 ? "shape" : strcmp(p, "protocol") == 0 ? "protocol"
+                                                                                  : "encode";
     char why[600];
     snprintf(why, sizeof why, "%s%s", kw_last_error_reason(),
              strcmp(p, "max_bytes") == 0 ? " (--max-memory)"
@@ -102,78 +51,30 @@ static int acq_fail(kw_status st)
     return kw_cli_status(st, opt);
 }
 
-/* Options given together that do not go together, and values that the
- * options struct reads as "not given". */
-static int check_combinations(const enc_args *a)
+/* A refused option: the input names it by our option's name. */
+static int input_fail(void)
 {
-    if ((a->s_slt || a->s_slg || a->s_slp) && !a->s_sl)
-        return kw_cli_fail("slices", "missing (slice options need --slices N)");
-    if (a->s_sl && (a->slices < 1 || a->slices > 256))
-        return kw_cli_fail("slices", "must be 1..256");
-    if (a->s_pat && a->s_traj)
-        return kw_cli_fail("pattern", "give --pattern (Cartesian) or --trajectory, not both");
-    if (a->s_fmap && a->s_fgrad)
-        return kw_cli_fail("field-map", "give --field-map or --field-gradient, not both "
-                           "(add the linear field to the map)");
-    if (a->s_coils && a->s_sens)
-        return kw_cli_fail("coils", "give --coils (a ring of loops) or --sens (maps), not both");
-    if (a->s_coils && (a->coils < 1 || a->coils > 128))
-        return kw_cli_fail("coils", "must be 1..128 (got %ld)", a->coils);
-    if ((a->s_cr || a->s_cd) && !a->s_coils)
-        return kw_cli_fail(a->s_cr ? "coil-radius" : "coil-distance", "only with --coils");
-    if ((a->s_cr && !(a->coil_radius > 0)) || (a->s_cd && !(a->coil_distance > 0)))
-        return kw_cli_fail(a->s_cr && !(a->coil_radius > 0) ? "coil-radius" : "coil-distance",
-                           "must be positive");
-    if (a->s_co && (a->coil_order < 0 || a->coil_order > 8))
-        return kw_cli_fail("coil-order", "must be 0..8");
-    if (a->s_coz && (a->coil_order_z < 0 || a->coil_order_z > 8))
-        return kw_cli_fail("coil-order-z", "must be 0..8");
-    if (a->s_sout && !a->s_coils && !a->s_sens)
-        return kw_cli_fail("sens-out", "needs --coils or --sens");
-    if ((a->s_coz || a->s_crings || a->s_crgap) && !a->s_coils && !a->s_sens)
-        return kw_cli_fail(a->s_coz ? "coil-order-z" : a->s_crings ? "coil-rings" : "coil-ring-gap",
-                           "only with --coils or --sens");
-    if ((a->s_crings || a->s_crgap) && !a->s_coils)
-        return kw_cli_fail(a->s_crings ? "coil-rings" : "coil-ring-gap", "only with --coils");
-    if (a->s_crgap && !(a->coil_ring_gap > 0))
-        return kw_cli_fail("coil-ring-gap", "a positive length, with --coil-rings 2");
-    if (a->s_ncorr && !a->s_snr)
-        return kw_cli_fail("noise-corr", "needs --snr (the noise level)");
-    if (a->s_ncorr && a->s_ncov)
-        return kw_cli_fail("noise-corr", "give --noise-corr or --noise-cov, not both");
-    static const char *const pos[] = {"te", "tr", "ti", "flip"};
-    const double v[] = {a->te, a->tr, a->ti, a->flip};
-    const int s[] = {a->s_te, a->s_tr, a->s_ti, a->s_flip};
-    for (int i = 0; i < 4; i++)
-        if (s[i] && !(v[i] > 0))
-            return kw_cli_fail(pos[i], "must be positive");
+    return kw_cli_fail(kw_last_error_param(), "%s", kw_last_error_reason());
+}
+
+/* The options of the table that are the input's keys, in its order (the
+ * file options declare their arrays given). */
+static int set_keys(kw_acquisition_input *in, const kw_opt *table)
+{
+    for (const kw_param_key *k = kw_acquisition_input_keys(); k->name; k++) {
+        const kw_opt *t = table;
+        while (t->name && strcmp(t->name, k->name) != 0)
+            t++;
+        const char *text = t->name && *t->seen ? *(const char **)t->dest : NULL;
+        if (text && kw_acquisition_input_set(in, k->name, text))
+            return input_fail();
+    }
     return -1;
 }
 
-/* Grid, FOV, contrast, bandwidth and fields: the arguments -> options. */
-static int args_grid(enc_args *a, kw_acquisition_options *o)
+/* What only the command checks: its outputs. */
+static int check_outputs(const enc_args *a)
 {
-    if (!a->s_ph)
-        return kw_cli_fail("phantom", "missing (see --help)");
-    o->phantom = a->phantom;
-    if (!a->s_mx)
-        return kw_cli_fail("matrix", "missing (e.g. --matrix 256)");
-    size_t n[3] = {1, 1, 1};
-    int nm = parse_matrix(a->matrix, n);
-    if (nm < 0)
-        return kw_cli_fail("matrix", "'%s' is not NX[xNY[xNZ]] with whole numbers 1..%d",
-                           a->matrix, MAX_EDGE);
-    for (int i = 0; i < nm; i++)
-        o->dims[2 - i] = n[i]; /* C order: (nz, ny, nx) */
-    if (!a->s_fov)
-        return kw_cli_fail("fov", "missing (e.g. --fov 256mm)");
-    double fov[3];
-    char why[200];
-    int nf = parse_fov(a->fov, fov, why, sizeof why);
-    if (nf < 0)
-        return kw_cli_fail("fov", "%s", why);
-    for (int i = 0; i < nf; i++)
-        o->fov_m[2 - i] = fov[i];
     if (!a->s_out)
         return kw_cli_fail("out", "missing (e.g. --out ks.npy)");
     if (strcmp(a->out, "-") == 0 && !a->s_sidecar)
@@ -181,65 +82,9 @@ static int args_grid(enc_args *a, kw_acquisition_options *o)
                                   "cannot go beside it)");
     if (a->s_sidecar && strcmp(a->sidecar, "-") == 0)
         return kw_cli_fail("sidecar", "needs a file name");
-    if (a->s_snr && !(a->snr > 0 && isfinite(a->snr)))
-        return kw_cli_fail("snr", "must be a positive number");
-    if (a->s_seed && a->seed < 0)
-        return kw_cli_fail("seed", "must be >= 0");
-    if (a->s_seq) {
-        static const char *const names[] = {"pd", "gre", "se", "ir"};
-        int k = 0;
-        while (k < 4 && strcmp(a->sequence, names[k]) != 0)
-            k++;
-        if (k == 4)
-            return kw_cli_fail("sequence", "unknown sequence '%s' (pd, gre, se, ir)", a->sequence);
-        o->sequence = (kw_contrast_kind)k;
-    }
-    if (a->s_bw) {
-        double bw = 0;
-        int bw_pp = 0;
-        if (kw_unit_parse_bandwidth(a->bandwidth, &bw, &bw_pp, why, sizeof why))
-            return kw_cli_fail("bandwidth", "%s", why);
-        if (!(bw > 0))
-            return kw_cli_fail("bandwidth", "must be positive");
-        o->bandwidth_hz = bw_pp ? bw * (double)n[0] : bw;
-    }
-    if (a->s_fgrad) {
-        double g[3] = {0, 0, 0};
-        int k = kw_unit_parse_list(a->field_grad, KW_UNIT_GRADIENT, g, 3, why, sizeof why);
-        if (k < 0)
-            return kw_cli_fail("field-gradient", "%s", why);
-        o->field_gradient_ndim = k;
-        for (int d = 0; d < k; d++)
-            o->field_gradient_t_per_m[2 - d] = g[d]; /* GX,GY[,GZ] -> (z, y, x) */
-    }
+    if (a->s_sout && !a->s_coils && !a->s_sens)
+        return kw_cli_fail("sens-out", "needs --coils or --sens");
     return -1;
-}
-
-static void args_rest(const enc_args *a, kw_acquisition_options *o)
-{
-    o->snr = a->s_snr ? a->snr : 0;
-    o->seed = (uint64_t)a->seed;
-    o->te_s = a->s_te ? a->te : 0;
-    o->tr_s = a->s_tr ? a->tr : 0;
-    o->ti_s = a->s_ti ? a->ti : 0;
-    o->flip_rad = a->s_flip ? a->flip : 0;
-    o->b0_t = a->b0;
-    o->df_hz = a->s_df ? a->df : 0;
-    o->coils = a->s_coils ? (int)a->coils : 0;
-    o->coil_radius_m = a->s_cr ? a->coil_radius : 0;
-    o->coil_distance_m = a->s_cd ? a->coil_distance : 0;
-    o->coil_rings = a->s_crings ? (int)a->coil_rings : 1;
-    o->coil_ring_gap_m = a->s_crgap ? a->coil_ring_gap : 0;
-    o->coil_order = a->s_co ? (int)a->coil_order : -1;
-    o->coil_order_z = a->s_coz ? (int)a->coil_order_z : -1;
-    o->noise_corr = a->s_ncorr ? a->noise_corr : 0;
-    if (a->s_sl) {
-        o->slices = (int)a->slices;
-        o->slice_thickness_m = a->s_slt ? a->slice_thk : 0;
-        o->slice_gap_m = a->s_slg ? a->slice_gap : 0;
-        o->slice_points = (int)a->slice_points;
-    }
-    o->max_bytes = kw_cli_memory_limit();
 }
 
 /* The outputs: truth, maps, the noise covariance, k-space, then the sidecar
@@ -351,14 +196,39 @@ done:
     return ret;
 }
 
+/* The options through the library's input (and the files), then the run. */
+static int run_input(const enc_args *a, enc_files *f, kw_acquisition_input *in,
+                     const kw_opt *table)
+{
+    int rc;
+    kw_acquisition_options o;
+    kw_acquisition_options_init(&o);
+    if ((rc = set_keys(in, table)) >= 0)
+        return rc;
+    if (a->s_tissue) {
+        if ((rc = enc_tissue_read(a->tissue, f->tissues)) >= 0)
+            return rc;
+        o.tissue_values = f->tissues;
+    }
+    /* a protocol file: its keys fill the options not given here */
+    if (a->s_prot && (rc = enc_protocol_read(a, in)) >= 0)
+        return rc;
+    if (!a->s_ph)
+        return kw_cli_fail("phantom", "missing (see --help)");
+    if (kw_acquisition_input_finish(in, &SPELLING, &o))
+        return input_fail();
+    if ((rc = check_outputs(a)) >= 0)
+        return rc;
+    f->plan_sequence = kw_acquisition_input_protocol_text(in, "sequence");
+    o.max_bytes = kw_cli_memory_limit();
+    rc = enc_files_read(a, f, &o);
+    return rc < 0 ? run(a, f, &o) : rc;
+}
+
 int kw_cmd_encode(int argc, char **argv)
 {
     enc_args a;
     memset(&a, 0, sizeof a);
-    kw_acquisition_options dflt; /* the library's defaults, as the package takes them */
-    kw_acquisition_options_init(&dflt);
-    a.b0 = dflt.b0_t;
-    a.slice_points = dflt.slice_points;
     const kw_opt table[] = {
         {"phantom", KW_OPT_STRING, &a.phantom, 0, &a.s_ph,
          "shepp-logan | shepp-logan-modified | weave | weave3d (required)"},
@@ -370,37 +240,37 @@ int kw_cmd_encode(int argc, char **argv)
          "sidecar .json (default: beside --out; needed with --out -)"},
         {"truth", KW_OPT_STRING, &a.truth, 0, &a.s_truth,
          "the image at the echo, rasterised at the matrix (.npy float32; default: not written)"},
-        {"snr", KW_OPT_DOUBLE, &a.snr, 0, &a.s_snr,
+        {"snr", KW_OPT_STRING, &a.snr, 0, &a.s_snr,
          "mean object signal / noise standard deviation in the image (default: no noise)"},
-        {"seed", KW_OPT_INT, &a.seed, 0, &a.s_seed, "noise seed (default 0)"},
+        {"seed", KW_OPT_STRING, &a.seed, 0, &a.s_seed, "noise seed (default 0)"},
         {"sequence", KW_OPT_STRING, &a.sequence, 0, &a.s_seq,
          "signal model: pd (default: proton density, needs no TE, TR or flip) | gre (spoiled "
          "gradient echo) | se (spin echo) | ir (inversion recovery); plan's --sequence is the "
          "pulse sequence timed (default gre), which --protocol passes on"},
-        {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time (k-space centre), e.g. 10ms (default: the shortest the readout allows; "
+        {"te", KW_OPT_STRING, &a.te, 0, &a.s_te, "echo time (k-space centre), e.g. 10ms (default: the shortest the readout allows; "
          "with --protocol the planner's minimum)"},
-        {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time (required by gre, se, ir; default: none, with --protocol the planner's "
+        {"tr", KW_OPT_STRING, &a.tr, 0, &a.s_tr, "repetition time (required by gre, se, ir; default: none, with --protocol the planner's "
          "minimum)"},
-        {"ti", KW_OPT_UNIT, &a.ti, KW_UNIT_TIME, &a.s_ti, "inversion time (required by ir; default: none)"},
-        {"flip", KW_OPT_UNIT, &a.flip, KW_UNIT_ANGLE, &a.s_flip, "flip angle (required by gre), degrees (default: none)"},
-        {"b0", KW_OPT_UNIT, &a.b0, KW_UNIT_FIELD, &a.s_b0, "field strength, 1.5T or 3T (default " KWD_B0_TEXT ")"},
+        {"ti", KW_OPT_STRING, &a.ti, 0, &a.s_ti, "inversion time (required by ir; default: none)"},
+        {"flip", KW_OPT_STRING, &a.flip, 0, &a.s_flip, "flip angle (required by gre), degrees (default: none)"},
+        {"b0", KW_OPT_STRING, &a.b0, 0, &a.s_b0, "field strength, 1.5T or 3T (default " KWD_B0_TEXT ")"},
         {"bandwidth", KW_OPT_STRING, &a.bandwidth, 0, &a.s_bw,
          "receiver bandwidth, 32kHz (across the FOV) or 250Hz/pixel: times the readout (default: "
          "none, every sample at TE; with --protocol the file's, else the planner's default)"},
-        {"df", KW_OPT_UNIT, &a.df, KW_UNIT_FREQUENCY, &a.s_df,
+        {"df", KW_OPT_STRING, &a.df, 0, &a.s_df,
          "off-resonance added everywhere (e.g. 50Hz; default 0)"},
-        {"coils", KW_OPT_INT, &a.coils, 0, &a.s_coils, "ring of N circular loop coils (default: none, one uniform coil)"},
-        {"coil-radius", KW_OPT_UNIT, &a.coil_radius, KW_UNIT_LENGTH, &a.s_cr,
+        {"coils", KW_OPT_STRING, &a.coils, 0, &a.s_coils, "ring of N circular loop coils (default: none, one uniform coil)"},
+        {"coil-radius", KW_OPT_STRING, &a.coil_radius, 0, &a.s_cr,
          "loop radius (default FOV/4)"},
-        {"coil-distance", KW_OPT_UNIT, &a.coil_distance, KW_UNIT_LENGTH, &a.s_cd,
+        {"coil-distance", KW_OPT_STRING, &a.coil_distance, 0, &a.s_cd,
          "loop centre to the axis (default 0.75 FOV)"},
-        {"coil-order", KW_OPT_INT, &a.coil_order, 0, &a.s_co,
+        {"coil-order", KW_OPT_STRING, &a.coil_order, 0, &a.s_co,
          "order L of the trigonometric series of each sensitivity (0..8, default 4; 3-D: 3)"},
-        {"coil-order-z", KW_OPT_INT, &a.coil_order_z, 0, &a.s_coz,
+        {"coil-order-z", KW_OPT_STRING, &a.coil_order_z, 0, &a.s_coz,
          "3-D phantoms: the series' order along z (0..8, default 2)"},
-        {"coil-rings", KW_OPT_INT, &a.coil_rings, 0, &a.s_crings,
+        {"coil-rings", KW_OPT_STRING, &a.coil_rings, 0, &a.s_crings,
          "1 (default) or 2 rings of --coils loops each (3-D: at z = -gap/2, +gap/2)"},
-        {"coil-ring-gap", KW_OPT_UNIT, &a.coil_ring_gap, KW_UNIT_LENGTH, &a.s_crgap,
+        {"coil-ring-gap", KW_OPT_STRING, &a.coil_ring_gap, 0, &a.s_crgap,
          "distance between the two rings' centres along z (default the z FOV / 2)"},
         {"sens", KW_OPT_STRING, &a.sens, 0, &a.s_sens, "sensitivity maps (coils, ny, nx) .npy (default: none)"},
         {"sens-out", KW_OPT_STRING, &a.sens_out, 0, &a.s_sout,
@@ -412,7 +282,7 @@ int kw_cmd_encode(int argc, char **argv)
         {"times", KW_OPT_STRING, &a.times, 0, &a.s_times,
          "sample times after excitation (s): (samples,) for a trajectory; (nx,) or (ny, nx) Cartesian "
          "(default: from --bandwidth, else every sample at TE)"},
-        {"noise-corr", KW_OPT_DOUBLE, &a.noise_corr, 0, &a.s_ncorr,
+        {"noise-corr", KW_OPT_STRING, &a.noise_corr, 0, &a.s_ncorr,
          "noise correlation coefficient between every pair of coils (default 0)"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
          "noise covariance (coils, coils) .npy (shape; --snr sets the level; default: none)"},
@@ -427,12 +297,12 @@ int kw_cmd_encode(int argc, char **argv)
          "(at any B0); list: print the table (default: none, the table's values)"},
         {"protocol", KW_OPT_STRING, &a.protocol, 0, &a.s_prot,
          "protocol file of `kweave plan` (options given here override its keys; default: none)"},
-        {"slices", KW_OPT_INT, &a.slices, 0, &a.s_sl,
+        {"slices", KW_OPT_STRING, &a.slices, 0, &a.s_sl,
          "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0 (default: none)"},
-        {"slice-thickness", KW_OPT_UNIT, &a.slice_thk, KW_UNIT_LENGTH, &a.s_slt,
+        {"slice-thickness", KW_OPT_STRING, &a.slice_thk, 0, &a.s_slt,
          "slice thickness (rectangular through-slice profile; required with --slices)"},
-        {"slice-gap", KW_OPT_UNIT, &a.slice_gap, KW_UNIT_LENGTH, &a.s_slg, "gap between slices (default 0)"},
-        {"slice-points", KW_OPT_INT, &a.slice_points, 0, &a.s_slp,
+        {"slice-gap", KW_OPT_STRING, &a.slice_gap, 0, &a.s_slg, "gap between slices (default 0)"},
+        {"slice-points", KW_OPT_STRING, &a.slice_points, 0, &a.s_slp,
          "Gauss-Legendre points across each slice (1..32, default 8)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
@@ -440,29 +310,13 @@ int kw_cmd_encode(int argc, char **argv)
         return rc;
     if (a.s_tissue && strcmp(a.tissue, "list") == 0)
         return enc_tissue_list();
+    kw_acquisition_input *in = NULL;
+    if (kw_acquisition_input_create(&in))
+        return kw_cli_status(KW_ENOMEM, "encode");
     static enc_files f;
     memset(&f, 0, sizeof f);
-    kw_acquisition_options o;
-    kw_acquisition_options_init(&o);
-    if (a.s_tissue) {
-        if ((rc = enc_tissue_read(a.tissue, f.tissues)) >= 0)
-            return rc;
-        o.tissue_values = f.tissues;
-    }
-    /* a protocol file: its keys fill the options not given here */
-    if (a.s_prot && (rc = enc_protocol_args(&a, &f)) >= 0)
-        return rc;
-    if ((rc = args_grid(&a, &o)) >= 0 || (rc = check_combinations(&a)) >= 0)
-        return rc;
-    args_rest(&a, &o);
-    if (a.s_prot) {
-        if ((rc = enc_protocol_read(&a, &f, o.sequence)) >= 0)
-            return rc;
-        o.protocol = &f.protocol;
-    }
-    rc = enc_files_read(&a, &f, &o);
-    if (rc < 0)
-        rc = run(&a, &f, &o);
+    rc = run_input(&a, &f, in, table);
     enc_files_free(&f);
+    kw_acquisition_input_destroy(in);
     return rc;
 }

@@ -31,93 +31,41 @@ static const char *USAGE =
     "rows; a 3-D matrix gives a ky-kz mask of shape (nz, ny). Trajectories are\n"
     "(samples, ndim) in cycles/FOV with sample times in F_times.npy.";
 
-/* ---- small parsers ---------------------------------------------------------- */
-
-/* "256", "256x128", "2x2", "4.5": up to `max` positive numbers */
-static int parse_list(const char *field, const char *s, double *v, int max, int *n)
-{
-    *n = 0;
-    const char *p = s;
-    while (*p) {
-        char *end;
-        double x = strtod(p, &end);
-        if (end == p || !isfinite(x))
-            return kw_cli_fail(field, "'%s' is not of the form AxB", s);
-        if (*n == max)
-            return kw_cli_fail(field, "'%s' has more than %d parts", s, max);
-        v[(*n)++] = x;
-        p = end;
-        if (*p == 'x' || *p == 'X') {
-            p++;
-            if (!*p)
-                return kw_cli_fail(field, "'%s' ends with x", s);
-        } else if (*p) {
-            return kw_cli_fail(field, "'%s' is not of the form AxB", s);
-        }
-    }
-    if (*n == 0)
-        return kw_cli_fail(field, "empty value");
-    return -1;
-}
-
-static int parse_sizes(const char *field, const char *s, size_t *v, int max, int *n)
-{
-    double d[3];
-    int rc = parse_list(field, s, d, max, n);
-    if (rc >= 0)
-        return rc;
-    for (int i = 0; i < *n; i++) {
-        if (d[i] != floor(d[i]) || d[i] < 0 || d[i] > 65536)
-            return kw_cli_fail(field, "'%s': sizes must be whole numbers in 0..65536", s);
-        v[i] = (size_t)d[i];
-    }
-    return -1;
-}
-
-
-
 typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
     const char *times;
-    double fraction, power, dwell, te, fov, gmax, slew, raster;
-    long shift, spokes, seed, tiny, psf_size, interleaves, shots, ros;
-    int seen_ros;
-    int seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
+    const char *fraction, *power, *dwell, *te, *fov, *gmax, *slew, *raster;
+    const char *shift, *spokes, *seed, *tiny, *interleaves, *shots, *ros;
+    long psf_size;
     int ellipse, compare;
+    int seen_ros, seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
     int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
-        seen_dwell, seen_ellipse, seen_accel, seen_acs;
+        seen_dwell, seen_accel, seen_acs;
+    kw_pattern_input *in; /* the options that make a pattern (kw_pattern.h) */
 } gen_opts;
 
-/* the library's parameter names (kw_pattern_options) and our options */
-static const struct {
-    const char *param, *option;
-} PARAM_OPTION[] = {
-    {"dims", "matrix"},       {"accel", "accel"},
-    {"acs", "acs"},           {"fraction", "fraction"},
-    {"ellipse", "ellipse"},   {"power", "power"},
-    {"shift", "shift"},       {"seed", "seed"},
-    {"spokes", "spokes"},     {"tiny", "tiny"},
-    {"readout_oversampling", "readout-oversampling"},
-    {"dwell_s", "dwell"},     {"te_s", "te"},
-    {"fov_m", "fov"},         {"gmax", "gmax"},
-    {"slew", "slew"},         {"raster", "raster"},
-    {"interleaves", "interleaves"}, {"shots", "shots"},
-    {"kind", "kind"},
-};
+/* How the library's messages name our options. */
+static const kw_param_spelling SPELLING = {"--", '-', " ", NULL};
 
-/* A failed library call: blame the option of the parameter at fault, or
- * report it under `context`. */
 /* The text report: stdout, or nowhere when --json - puts the JSON there (one
  * report on stdout). */
 static FILE *txt;
 
+/* A failed library call: blame the option of the parameter at fault
+ * (kw_pattern_create() names its fields, the input its keys: our options),
+ * or report it under `context`. */
 static int pattern_fail(kw_status st, const char *context)
 {
-    const char *param = kw_last_error_param();
-    for (size_t i = 0; i < sizeof PARAM_OPTION / sizeof PARAM_OPTION[0]; i++)
-        if (strcmp(param, PARAM_OPTION[i].param) == 0)
-            return kw_cli_fail(PARAM_OPTION[i].option, "%s", kw_last_error_reason());
+    const char *key = kw_pattern_input_key_of(kw_last_error_param());
+    if (key)
+        return kw_cli_fail(key, "%s", kw_last_error_reason());
     return kw_cli_status(st, context);
+}
+
+/* A refused option: the input names it by our option's name. */
+static int input_fail(void)
+{
+    return kw_cli_fail(kw_last_error_param(), "%s", kw_last_error_reason());
 }
 
 static char *times_path(const char *out)
@@ -138,101 +86,6 @@ static const char *base_name(const char *p)
 {
     const char *s = strrchr(p, '/');
     return s ? s + 1 : p;
-}
-
-static int clamp_int(long v) { return v > INT_MAX ? INT_MAX : v < INT_MIN ? INT_MIN : (int)v; }
-
-/* ---- options -> kw_pattern_options ----------------------------------------------------- */
-
-/* --accel R or RYxRZ, --acs N or NYxNZ into the C-order arrays */
-static int cartesian_options(const gen_opts *g, kw_pattern_options *o, int three_d)
-{
-    if (g->accel) {
-        double r[2];
-        int n;
-        int rc = parse_list("accel", g->accel, r, 2, &n);
-        if (rc >= 0)
-            return rc;
-        double ry = r[0], rz = n > 1 ? r[1] : 1.0;
-        if (!(ry > 0) || !(rz > 0))
-            return kw_cli_fail("accel", "must be positive");
-        o->accel[0] = three_d ? rz : ry;
-        o->accel[1] = three_d ? ry : rz; /* 2-D: the library rejects RZ != 1 */
-        o->accel[2] = three_d ? 1.0 : 0.0;
-    }
-    if (g->acs) {
-        size_t v[2];
-        int n;
-        int rc = parse_sizes("acs", g->acs, v, 2, &n);
-        if (rc >= 0)
-            return rc;
-        if (n > 1 && !three_d)
-            return kw_cli_fail("acs", "a 2-D ACS block AYxAZ needs a 3-D matrix");
-        o->acs[0] = three_d ? (n > 1 ? v[1] : v[0]) : v[0];
-        o->acs[1] = three_d ? v[0] : 0;
-    }
-    if (o->kind == KW_PATTERN_PARTIAL && !g->seen_fraction)
-        return kw_cli_fail("fraction", "required for --kind partial");
-    if (g->seen_fraction)
-        o->fraction = g->fraction;
-    if (g->seen_power)
-        o->power = g->power;
-    if (g->seen_shift)
-        o->shift = g->shift;
-    o->ellipse = g->ellipse;
-    o->seed = (uint64_t)g->seed;
-    return -1;
-}
-
-static int traj_options(const gen_opts *g, kw_pattern_options *o)
-{
-    const char *what = g->kind;
-    int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
-    if (!grad && (g->seen_accel || g->seen_acs || g->seen_fraction || g->ellipse))
-        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                           : g->seen_fraction ? "fraction" : "ellipse",
-                           "not used by --kind %s (set --spokes)", what);
-    if (grad && (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny))
-        return kw_cli_fail(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                           : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
-                           "not used by --kind %s", what);
-    if (o->kind == KW_PATTERN_SPIRAL && (g->seen_shots || g->seen_fraction))
-        return kw_cli_fail(g->seen_shots ? "shots" : "fraction", "not used by --kind spiral");
-    if (o->kind == KW_PATTERN_EPI && g->seen_interleaves)
-        return kw_cli_fail("interleaves", "not used by --kind epi (use --shots)");
-    /* 0 asks the library for its default: an explicit 0 is an error here */
-    if (g->seen_spokes && g->spokes < 1)
-        return kw_cli_fail("spokes", "%ld outside 1..10000000", g->spokes);
-    if (g->seen_tiny && g->tiny < 1)
-        return kw_cli_fail("tiny", "%ld outside 1..1000", g->tiny);
-    if (g->seen_ros && g->ros < 1)
-        return kw_cli_fail("readout-oversampling", "%ld outside 1..4", g->ros);
-    if (g->seen_interleaves && g->interleaves < 1)
-        return kw_cli_fail("interleaves", "%ld outside 1..4096", g->interleaves);
-    if (g->seen_dwell && !(g->dwell > 0))
-        return kw_cli_fail("dwell", grad ? "must be positive" : "must be a positive time");
-    o->spokes = g->seen_spokes ? (size_t)g->spokes : 0;
-    o->tiny = g->seen_tiny ? clamp_int(g->tiny) : 0;
-    o->readout_oversampling = g->seen_ros ? clamp_int(g->ros) : 0;
-    if (g->seen_dwell)
-        o->dwell_s = g->dwell;
-    if (g->seen_te)
-        o->te_s = g->te;
-    if (g->seen_fov)
-        o->fov_m = g->fov;
-    if (g->seen_gmax)
-        o->gmax = g->gmax;
-    if (g->seen_slew)
-        o->slew = g->slew;
-    if (g->seen_raster)
-        o->raster = g->raster;
-    if (g->seen_interleaves)
-        o->interleaves = clamp_int(g->interleaves);
-    if (g->seen_shots)
-        o->shots = clamp_int(g->shots);
-    if (g->seen_fraction)
-        o->fraction = g->fraction;
-    return -1;
 }
 
 /* ---- reports after generation ----------------------------------------------------------- */
@@ -305,9 +158,7 @@ static int mask_files(const gen_opts *g, const kw_pattern *p)
 
 static int gen_mask(const gen_opts *g, kw_pattern_options *o)
 {
-    int rc = cartesian_options(g, o, o->ndim == 3);
-    if (rc >= 0)
-        return rc;
+    int rc;
     kw_pattern *p;
     kw_status st = kw_pattern_create(&p, o);
     if (st)
@@ -437,9 +288,7 @@ static int traj_report(const gen_opts *g, const kw_pattern_options *o, const kw_
 
 static int gen_traj(const gen_opts *g, kw_pattern_options *o)
 {
-    int rc = traj_options(g, o);
-    if (rc >= 0)
-        return rc;
+    int rc;
     const int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
     kw_pattern *p;
     kw_status st = kw_pattern_create(&p, o);
@@ -514,64 +363,37 @@ static int run_analyse(const gen_opts *g)
     return rc < 0 ? KW_EXIT_OK : rc;
 }
 
-/* --kind and --matrix into the options; then the mask or the trajectory */
+/* The options through the library's input; then the mask or the trajectory */
 static int run_generate(const gen_opts *g)
 {
     if (!g->kind)
         return kw_cli_fail("kind", "missing (or give --analyse FILE or --compare FILES)");
-    if (!g->matrix)
-        return kw_cli_fail("matrix", "missing (e.g. --matrix 256x256)");
-    size_t mat[3];
-    int nmat;
-    int rc = parse_sizes("matrix", g->matrix, mat, 3, &nmat);
-    if (rc >= 0)
-        return rc;
     kw_pattern_options o;
-    kw_pattern_options_init(&o);
-    int k = 0;
-    while (kw_pattern_kind_name((kw_pattern_kind)k) &&
-           strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
-        k++;
-    if (!kw_pattern_kind_name((kw_pattern_kind)k)) { /* name the kinds there are */
-        char kinds[256];
-        size_t used = 0;
-        kinds[0] = '\0';
-        for (int j = 0; kw_pattern_kind_name((kw_pattern_kind)j) && used < sizeof kinds; j++)
-            used += (size_t)snprintf(kinds + used, sizeof kinds - used, "%s%s", j ? ", " : "",
-                                     kw_pattern_kind_name((kw_pattern_kind)j));
-        return kw_cli_fail("kind", "unknown kind '%s' (%s)", g->kind, kinds);
-    }
-    o.kind = (kw_pattern_kind)k;
-    /* --matrix NXxNY[xNZ] into C order */
-    o.ndim = nmat > 2 ? 3 : 2;
-    o.dims[o.ndim - 1] = mat[0];
-    o.dims[o.ndim - 2] = nmat > 1 ? mat[1] : mat[0];
-    if (nmat > 2)
-        o.dims[0] = mat[2];
-    const int grad = o.kind == KW_PATTERN_SPIRAL || o.kind == KW_PATTERN_EPI;
+    if (kw_pattern_input_finish(g->in, &SPELLING, &o))
+        return input_fail();
     const int mask = kw_pattern_kind_is_mask(o.kind);
-    if (g->seen_ros && !(o.kind == KW_PATTERN_RADIAL || o.kind == KW_PATTERN_GOLDEN ||
-                         o.kind == KW_PATTERN_STACK_OF_STARS))
-        return kw_cli_fail("readout-oversampling",
-                           "only for --kind radial, golden or stack-of-stars");
     if (!mask && g->density)
         return kw_cli_fail("density", "only for Cartesian masks");
-    if (!grad) {
-        const char *hw = g->seen_fov ? "fov" : g->seen_gmax ? "gmax" : g->seen_slew ? "slew"
-                         : g->seen_raster ? "raster" : g->seen_interleaves ? "interleaves"
-                         : g->seen_shots ? "shots" : NULL;
-        if (hw)
-            return kw_cli_fail(hw, "only used by --kind spiral or epi");
-    }
-    if (!mask)
-        return gen_traj(g, &o);
-    if (g->seen_spokes || g->seen_tiny || g->seen_dwell || g->seen_te)
-        return kw_cli_fail(g->seen_spokes ? "spokes" : g->seen_tiny ? "tiny"
-                           : g->seen_dwell ? "dwell" : "te",
-                           "not used by the Cartesian --kind %s", g->kind);
-    if (g->times)
+    if (mask && g->times)
         return kw_cli_fail("times", "a Cartesian mask has no sample times");
-    return gen_mask(g, &o);
+    return mask ? gen_mask(g, &o) : gen_traj(g, &o);
+}
+
+/* The options of the table that are the input's keys, in its order. */
+static int set_keys(gen_opts *g, const kw_opt *table)
+{
+    if (kw_pattern_input_create(&g->in))
+        return kw_cli_status(KW_ENOMEM, "pattern");
+    for (const kw_param_key *k = kw_pattern_input_keys(); k->name; k++) {
+        const kw_opt *t = table;
+        while (t->name && strcmp(t->name, k->name) != 0)
+            t++;
+        const char *text = t->type == KW_OPT_FLAG ? (*(int *)t->dest ? "1" : NULL)
+                                                  : *(const char **)t->dest;
+        if (text && kw_pattern_input_set(g->in, k->name, text))
+            return input_fail();
+    }
+    return -1;
 }
 
 int kw_cmd_pattern(int argc, char **argv)
@@ -585,24 +407,24 @@ int kw_cmd_pattern(int argc, char **argv)
         {"matrix", KW_OPT_STRING, &g.matrix, KW_UNIT_NONE, NULL, "NXxNY or NXxNYxNZ (3-D: ky-kz mask; required with --kind)"},
         {"accel", KW_OPT_STRING, &g.accel, KW_UNIT_NONE, &g.seen_accel, "acceleration R, or RYxRZ (required by uniform, random, poisson, lattice; default: none)"},
         {"acs", KW_OPT_STRING, &g.acs, KW_UNIT_NONE, &g.seen_acs, "autocalibration lines N (3-D: N or NYxNZ; default: none)"},
-        {"fraction", KW_OPT_DOUBLE, &g.fraction, KW_UNIT_NONE, &g.seen_fraction, "partial Fourier fraction in (0.5, 1] (default 1; required by --kind partial)"},
+        {"fraction", KW_OPT_STRING, &g.fraction, KW_UNIT_NONE, &g.seen_fraction, "partial Fourier fraction in (0.5, 1] (default 1; required by --kind partial)"},
         {"ellipse", KW_OPT_FLAG, &g.ellipse, KW_UNIT_NONE, NULL, "3-D: drop the ky-kz corners"},
-        {"power", KW_OPT_DOUBLE, &g.power, KW_UNIT_NONE, &g.seen_power, "density exponent d of (1-r)^d (default 3)"},
-        {"shift", KW_OPT_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift, "lattice: ky shift per kz row (default 1)"},
-        {"spokes", KW_OPT_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes, "radial spokes (default ceil(pi N/2))"},
-        {"tiny", KW_OPT_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (default 1 = 111.246 deg)"},
-        {"readout-oversampling", KW_OPT_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros, "radial kinds: F x N samples per spoke, 1/F cycle/FOV apart (1..4, default 1)"},
-        {"dwell", KW_OPT_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "radial: time per image pixel (default 1/(" KWD_BW_PER_PIXEL_TEXT " x N); samples every dwell/F); "
+        {"power", KW_OPT_STRING, &g.power, KW_UNIT_NONE, &g.seen_power, "density exponent d of (1-r)^d (default 3)"},
+        {"shift", KW_OPT_STRING, &g.shift, KW_UNIT_NONE, &g.seen_shift, "lattice: ky shift per kz row (default 1)"},
+        {"spokes", KW_OPT_STRING, &g.spokes, KW_UNIT_NONE, &g.seen_spokes, "radial spokes (default ceil(pi N/2))"},
+        {"tiny", KW_OPT_STRING, &g.tiny, KW_UNIT_NONE, &g.seen_tiny, "golden: tiny golden angle order (default 1 = 111.246 deg)"},
+        {"readout-oversampling", KW_OPT_STRING, &g.ros, KW_UNIT_NONE, &g.seen_ros, "radial kinds: F x N samples per spoke, 1/F cycle/FOV apart (1..4, default 1)"},
+        {"dwell", KW_OPT_STRING, &g.dwell, KW_UNIT_TIME, &g.seen_dwell, "radial: time per image pixel (default 1/(" KWD_BW_PER_PIXEL_TEXT " x N); samples every dwell/F); "
          "spiral/epi: time between samples (default 4us)"},
-        {"fov", KW_OPT_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default " KWD_FOV_TEXT ")"},
-        {"gmax", KW_OPT_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default " KWD_GMAX_TEXT ")"},
-        {"slew", KW_OPT_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default " KWD_SLEW_TEXT ")"},
-        {"raster", KW_OPT_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster, "spiral/epi: gradient raster (default " KWD_RASTER_TEXT ")"},
-        {"interleaves", KW_OPT_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves, "spiral: interleaves (default: the fewest with readouts <= "
+        {"fov", KW_OPT_STRING, &g.fov, KW_UNIT_LENGTH, &g.seen_fov, "spiral/epi: field of view (default " KWD_FOV_TEXT ")"},
+        {"gmax", KW_OPT_STRING, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax, "spiral/epi: gradient limit (default " KWD_GMAX_TEXT ")"},
+        {"slew", KW_OPT_STRING, &g.slew, KW_UNIT_SLEW, &g.seen_slew, "spiral/epi: slew-rate limit (default " KWD_SLEW_TEXT ")"},
+        {"raster", KW_OPT_STRING, &g.raster, KW_UNIT_TIME, &g.seen_raster, "spiral/epi: gradient raster (default " KWD_RASTER_TEXT ")"},
+        {"interleaves", KW_OPT_STRING, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves, "spiral: interleaves (default: the fewest with readouts <= "
          KWD_SPIRAL_MAX_READOUT_TEXT ")"},
-        {"shots", KW_OPT_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots, "epi: shots (default " KWD_EPI_SHOTS_TEXT ")"},
-        {"te", KW_OPT_UNIT, &g.te, KW_UNIT_TIME, &g.seen_te, "time of k = 0 (default N/2 x dwell)"},
-        {"seed", KW_OPT_INT, &g.seed, KW_UNIT_NONE, &g.seen_seed, "random seed (default 0)"},
+        {"shots", KW_OPT_STRING, &g.shots, KW_UNIT_NONE, &g.seen_shots, "epi: shots (default " KWD_EPI_SHOTS_TEXT ")"},
+        {"te", KW_OPT_STRING, &g.te, KW_UNIT_TIME, &g.seen_te, "time of k = 0 (default N/2 x dwell)"},
+        {"seed", KW_OPT_STRING, &g.seed, KW_UNIT_NONE, &g.seen_seed, "random seed (default 0)"},
         {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar (default: not written)"},
         {"times", KW_OPT_STRING, &g.times, KW_UNIT_NONE, NULL, "sample times file (default OUT_times.npy)"},
         {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy; default: not written)"},
@@ -623,21 +445,28 @@ int kw_cmd_pattern(int argc, char **argv)
         return kw_cli_fail(files[0], "unexpected argument (files to compare follow --compare)");
     if (g.psf_size && (g.psf_size < 8 || g.psf_size > 512))
         return kw_cli_fail("psf-size", "%ld outside 8..512", g.psf_size);
-    if (g.seen_seed && g.seed < 0)
-        return kw_cli_fail("seed", "must be >= 0");
-    if ((g.compare || g.analyse) && g.seen_ros)
+    if ((rc = set_keys(&g, table)) >= 0) {
+        kw_pattern_input_destroy(g.in);
+        return rc;
+    }
+    if ((g.compare || g.analyse) && g.seen_ros) {
+        kw_pattern_input_destroy(g.in);
         return kw_cli_fail("readout-oversampling", "only when making a trajectory (--kind); "
                            "the analysis reads it from the sidecar");
+    }
     FILE *sink = NULL;
     txt = stdout;
     if (g.json && strcmp(g.json, "-") == 0) {
-        if (!(sink = fopen("/dev/null", "w")))
+        if (!(sink = fopen("/dev/null", "w"))) {
+            kw_pattern_input_destroy(g.in);
             return kw_cli_fail("json", "cannot open /dev/null to set the text report aside");
+        }
         txt = sink;
     }
     rc = g.compare ? run_compare(&g, files, nfiles) : g.analyse ? run_analyse(&g) : run_generate(&g);
     txt = stdout;
     if (sink)
         fclose(sink);
+    kw_pattern_input_destroy(g.in);
     return rc;
 }

@@ -16,10 +16,10 @@ typedef struct enc_args {
     const char *sens, *sens_out, *pattern, *trajectory, *times, *noise_cov, *field_map, *protocol;
     const char *field_grad, *tissue;
     const char *sidecar; /* --sidecar: where the sidecar goes (needed with --out -) */
-    double snr, te, tr, ti, flip, b0, df, coil_radius, coil_distance, noise_corr;
-    double slice_thk, slice_gap;
-    long seed, coils, coil_order, coil_order_z, coil_rings, slices, slice_points;
-    double coil_ring_gap;
+    /* the texts of the other options, read by kw_acquisition_input */
+    const char *snr, *te, *tr, *ti, *flip, *b0, *df, *coil_radius, *coil_distance, *noise_corr;
+    const char *slice_thk, *slice_gap, *coil_ring_gap;
+    const char *seed, *coils, *coil_order, *coil_order_z, *coil_rings, *slices, *slice_points;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
         s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad, s_coz, s_crings,
@@ -34,7 +34,6 @@ typedef struct enc_files {
     double *times;
     kw_cfloat *sens;
     kw_cdouble *ncov;
-    kw_protocol protocol;
     const char *plan_sequence; /* the protocol file's sequence (NULL: none) */
     kw_tissue_values tissues[KW_TISSUE_COUNT];
 } enc_files;
@@ -42,8 +41,7 @@ typedef struct enc_files {
 /* encode_files.c. Each returns an exit code, or -1 to go on. */
 int enc_tissue_list(void);
 int enc_tissue_read(const char *path, kw_tissue_values *v);
-int enc_protocol_read(enc_args *a, enc_files *f, kw_contrast_kind seq);
-int enc_protocol_args(enc_args *a, enc_files *f);
+int enc_protocol_read(const enc_args *a, kw_acquisition_input *in);
 int enc_files_read(const enc_args *a, enc_files *f, kw_acquisition_options *o);
 void enc_files_free(enc_files *f);
 char *enc_rel_to_sidecar(const char *path, const char *out);

@@ -15,7 +15,6 @@
 #include "encode_cli.h"
 #include "jsonio.h"
 #include "npy.h"
-#include "plan_input_int.h"
 #include "protofile.h"
 
 /* Name of `path` as the sidecar beside `out` should record it: the base name
@@ -138,103 +137,19 @@ out:
 }
 
 
-/* ---- the protocol file: its keys fill the arguments not given ---------- */
-/* The planner's protocol files, read by the library's parser in the
- * simulator's dialect (libencode/plan_input_int.h): texts first, for the
- * arguments; then the planner's keys this command does not take itself. The
- * input lives until enc_files_free() (the arguments point into it). */
-static kw_protocol_input *enc_pin;
-
-static const char *proto_get(const char *key)
+/* ---- the protocol file: its keys fill the options not given --------- */
+/* The planner's protocol file, read here and handed to the library's input
+ * (kw_acquisition_input_protocol(): how its keys fill the options). */
+int enc_protocol_read(const enc_args *a, kw_acquisition_input *in)
 {
-    const char *v = NULL;
-    if (enc_pin && kw_protocol_input_get(enc_pin, key, &v)) {
-        kw_clear_error(); /* flip and ti are not the planner's: absent, not an error */
-        v = NULL;
-    }
-    return v;
-}
-
-int enc_protocol_args(enc_args *a, enc_files *f)
-{
-    kw_protocol_input_destroy(enc_pin);
-    enc_pin = NULL;
     char *buf = NULL;
     size_t n = 0;
-    kw_status pst = kw_protofile_load(a->protocol, &buf, &n);
-    if (!pst && !(pst = kw_protocol_input_create(&enc_pin))) {
-        kw_protocol_input_encode_dialect(enc_pin);
-        pst = kw_protocol_input_parse(enc_pin, buf, n);
-    }
+    kw_status st = kw_protofile_load(a->protocol, &buf, &n);
+    if (st)
+        return kw_cli_status(st, "protocol");
+    st = kw_acquisition_input_protocol(in, buf, n);
     free(buf);
-    if (pst)
-        return kw_cli_status(pst, "protocol");
-    const char *v;
-    char why[200];
-    if ((v = proto_get("sequence"))) {
-        f->plan_sequence = v;
-        if (!a->s_seq) {
-            if (strcmp(v, "gre") == 0 || strcmp(v, "epi") == 0 || strcmp(v, "radial") == 0 ||
-                strcmp(v, "spiral") == 0)
-                a->sequence = "gre";
-            else if (strcmp(v, "se") == 0)
-                a->sequence = "se";
-            else
-                return kw_cli_fail("protocol", "sequence: '%s' is not gre, se, epi, radial or spiral", v);
-            a->s_seq = 1;
-        }
-    }
-    if (!a->s_fov && (v = proto_get("fov"))) {
-        a->fov = v;
-        a->s_fov = 1;
-    }
-    if (!a->s_mx && (v = proto_get("matrix"))) {
-        a->matrix = v;
-        a->s_mx = 1;
-    }
-    if (!a->s_bw && (v = proto_get("bandwidth"))) {
-        a->bandwidth = v;
-        a->s_bw = 1;
-    }
-    static const struct {
-        const char *key;
-        kw_unit_kind kind;
-    } uk[] = {{"b0", KW_UNIT_FIELD}, {"te", KW_UNIT_TIME}, {"tr", KW_UNIT_TIME},
-              {"flip", KW_UNIT_ANGLE}, {"ti", KW_UNIT_TIME}};
-    double *dst[] = {&a->b0, &a->te, &a->tr, &a->flip, &a->ti};
-    int *seen[] = {&a->s_b0, &a->s_te, &a->s_tr, &a->s_flip, &a->s_ti};
-    for (int i = 0; i < 5; i++)
-        if (!*seen[i] && (v = proto_get(uk[i].key))) {
-            if (kw_unit_parse(v, uk[i].kind, dst[i], why, sizeof why))
-                return kw_cli_fail("protocol", "%s: %s", uk[i].key, why);
-            *seen[i] = 1;
-        }
-    return -1;
-}
-
-/* The planner's protocol of the file: its keys over the defaults; the
- * file's sequence gives the timing, without one spin-echo timing for se/ir
- * contrast and gradient-echo timing otherwise. */
-int enc_protocol_read(enc_args *a, enc_files *f, kw_contrast_kind seq)
-{
-    (void)a;
-    /* the keys the arguments took (enc_protocol_args) */
-    static const char *const own[] = {"sequence", "fov", "matrix", "bandwidth", "b0", "te",
-                                      "tr", "flip", "ti", NULL};
-    kw_protocol_defaults(&f->protocol);
-    kw_status pst = kw_protocol_input_encode_fill(enc_pin, own, &f->protocol);
-    if (pst)
-        return kw_cli_status(pst, "protocol");
-    /* its bandwidth line, if any, became --bandwidth; without one the library
-     * applies the planner's default per pixel to the matrix actually used */
-    f->protocol.bandwidth_hz = 0;
-    const char *sq = f->plan_sequence ? f->plan_sequence
-                                      : (seq == KW_CONTRAST_SE || seq == KW_CONTRAST_IR ? "se" : "gre");
-    static const char *const kinds[] = {"gre", "se", "epi", "radial", "spiral"};
-    for (int i = 0; i < 5; i++)
-        if (strcmp(sq, kinds[i]) == 0)
-            f->protocol.sequence = (kw_sequence_kind)i;
-    return -1;
+    return st ? kw_cli_fail("protocol", "%s", kw_last_error_reason()) : -1;
 }
 
 /* ---- arrays ------------------------------------------------------------- */
@@ -389,8 +304,6 @@ int enc_files_read(const enc_args *a, enc_files *f, kw_acquisition_options *o)
 
 void enc_files_free(enc_files *f)
 {
-    kw_protocol_input_destroy(enc_pin);
-    enc_pin = NULL;
     f->plan_sequence = NULL;
     kw_array_free(&f->mask_in);
     kw_array_free(&f->traj);

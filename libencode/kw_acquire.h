@@ -30,6 +30,7 @@
 #define KW_ACQUIRE_H
 
 #include "kw_base.h"
+#include "kw_params.h"
 #include "kw_phantom.h"
 #include "kw_protocol.h"
 #include "kw_tissue.h"
@@ -252,6 +253,87 @@ KW_API kw_status kw_acquisition_info_json(const kw_acquisition *a, char **json);
 
 /*! kw_acquisition_destroy(): free (NULL-safe). */
 KW_API void kw_acquisition_destroy(kw_acquisition *a);
+
+/* ---- the options as named parameters (kw_params.h) ------------------------------
+ * kw_acquisition_input: the options of `kweave encode` as `key` and text,
+ * read as the command reads them, with its rules and messages; what the
+ * command and the Python package's Acquisition do. Keys
+ * (kw_acquisition_input_keys()): phantom, matrix ("256", "64x64x16"), fov
+ * ("256mm", "256mm,192mm"), snr, seed, sequence (pd gre se ir), te, tr, ti
+ * ("10ms"), flip ("15deg", "15"), b0 ("3T"), bandwidth ("32kHz",
+ * "250Hz/pixel"), df ("50Hz"), coils, coil-radius, coil-distance,
+ * coil-order, coil-order-z, coil-rings, coil-ring-gap, noise-corr,
+ * field-gradient ("20uT/m,0"), slices, slice-thickness, slice-gap,
+ * slice-points; and the arrays the caller points the options to (sens,
+ * pattern = options.mask, trajectory, times, noise-cov, field-map, tissue
+ * = options.tissue_values): setting one of those (any text) declares it
+ * given, for the rules between options; finish leaves their fields alone.
+ *
+ * Errors: KW_EINVAL with kw_last_error_param() = the key at fault
+ * ("<key>: <reason>"). set() checks the text (forms, units, snr > 0,
+ * seed >= 0, the sequence's name, bandwidth > 0); finish() applies a
+ * protocol's keys, then requires phantom, matrix and fov, then the rules
+ * between the options in the command's order (slices, pattern or
+ * trajectory, field map or gradient, coils or sens and the coils' ranges,
+ * noise-corr, te/tr/ti/flip > 0). kw_acquisition_create() then names
+ * fields of the options: kw_acquisition_input_key_of() maps them to keys.
+ *
+ * Threads: an input belongs to one thread at a time. */
+typedef struct kw_acquisition_input kw_acquisition_input; /* opaque */
+
+/*! kw_acquisition_input_create() / _destroy() (NULL-safe). */
+KW_API kw_status kw_acquisition_input_create(kw_acquisition_input **in);
+KW_API void kw_acquisition_input_destroy(kw_acquisition_input *in);
+
+/*! kw_acquisition_input_keys(): the keys in the command's order, each with
+ * its form, unit and a line of help with its default; ends with a NULL
+ * name. Static storage. */
+KW_API const kw_param_key *kw_acquisition_input_keys(void);
+
+/*! kw_acquisition_input_set(): `key` from `text` (replacing an earlier
+ * value). On error the input is unchanged; an unknown key is "<key>:
+ * unknown key" (with a near miss: " (did you mean '<known>'?)"). */
+KW_API kw_status kw_acquisition_input_set(kw_acquisition_input *in, const char *key,
+                                          const char *text);
+
+/*! kw_acquisition_input_clear(): `key` back to not given;
+ * kw_acquisition_input_given(): 1 when it was set. */
+KW_API kw_status kw_acquisition_input_clear(kw_acquisition_input *in, const char *key);
+KW_API int kw_acquisition_input_given(const kw_acquisition_input *in, const char *key);
+
+/*! kw_acquisition_input_protocol(): a protocol file's text of `len` bytes
+ * (kweave plan's keys, kw_plan_input.h), read as `kweave encode --protocol`
+ * reads it: at finish its sequence (gre, epi, radial, spiral: gre contrast;
+ * se: se), fov, matrix, bandwidth, b0, te, tr, flip and ti fill the keys not
+ * set, and the planner's other keys make options.protocol (timing; kept in
+ * the input). Errors name "protocol" ("protocol: line 3: ..."). Replaces
+ * an earlier protocol. */
+KW_API kw_status kw_acquisition_input_protocol(kw_acquisition_input *in, const char *text,
+                                               size_t len);
+
+/*! kw_acquisition_input_protocol_text(): the protocol's text for `key`
+ * ("sequence": the planner's sequence), NULL when it has none. Valid until
+ * the protocol is replaced or the input destroyed. */
+KW_API const char *kw_acquisition_input_protocol_text(const kw_acquisition_input *in,
+                                                      const char *key);
+
+/*! kw_acquisition_input_finish(): the protocol's keys, the rules, then the
+ * keys given into *o, which the caller filled with
+ * kw_acquisition_options_init() (and may have pointed to its arrays):
+ * fields of keys not given keep their values; phantom and protocol point
+ * into the input (valid until it is destroyed or set again). *o is
+ * written only on success. `sp` spells the keys the messages name (the
+ * command's {"--", '-', " ", NULL}: "give --pattern (Cartesian) or
+ * --trajectory"); NULL: "key=value". */
+KW_API kw_status kw_acquisition_input_finish(kw_acquisition_input *in,
+                                             const kw_param_spelling *sp,
+                                             kw_acquisition_options *o);
+
+/*! kw_acquisition_input_key_of(): the key of a field of
+ * kw_acquisition_options that kw_acquisition_create() names ("dims" ->
+ * "matrix", "mask" -> "pattern", "coil_radius_m" -> "coil-radius"); NULL
+ * for another name (max_bytes, options). */
+KW_API const char *kw_acquisition_input_key_of(const char *field);
 
 #ifdef __cplusplus
 }

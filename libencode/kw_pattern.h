@@ -36,6 +36,7 @@
 #include <stdint.h>
 
 #include "kw_base.h"
+#include "kw_params.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -174,6 +175,63 @@ KW_API kw_status kw_pattern_info_json(const kw_pattern *p, char **json);
 
 /*! kw_pattern_destroy(): NULL-safe. */
 KW_API void kw_pattern_destroy(kw_pattern *p);
+
+/* ---- the options as named parameters (kw_params.h) ------------------------------
+ * kw_pattern_input: the options of `kweave pattern` as `key` and text, read
+ * as the command reads them, with its rules and messages; what the command
+ * and the Python package's pattern() do. Keys (kw_pattern_input_keys()):
+ * kind, matrix ("256x192", "64x64x16"), accel ("4", "2x2"), acs ("24",
+ * "24x16"), fraction, ellipse ("1"/"0"), power, shift, spokes, tiny,
+ * readout-oversampling, dwell ("4us"), fov ("256mm"), gmax ("40mT/m"), slew
+ * ("150T/m/s"), raster ("10us"), interleaves, shots, te ("2ms"), seed.
+ *
+ * Errors: KW_EINVAL with kw_last_error_param() = the key at fault
+ * ("<key>: <reason>", the command's line after "kweave: error: ").
+ * kw_pattern_input_set() checks the text's form (kind and matrix names,
+ * the lists, numbers, units, seed >= 0); kw_pattern_input_finish() the
+ * rules between keys, in the command's order: kind and matrix required,
+ * keys the kind does not use, counts of 1 and more (0 is the library's
+ * default and is refused when given), dwell > 0, acs blocks in 3-D,
+ * fraction required by partial. Then kw_pattern_create() checks the values
+ * and names fields of kw_pattern_options: kw_pattern_input_key_of() maps
+ * them back to keys.
+ *
+ * Threads: an input belongs to one thread at a time. */
+typedef struct kw_pattern_input kw_pattern_input; /* opaque */
+
+/*! kw_pattern_input_create(): an empty input (every key not given);
+ * kw_pattern_input_destroy() frees it (NULL-safe). */
+KW_API kw_status kw_pattern_input_create(kw_pattern_input **in);
+KW_API void kw_pattern_input_destroy(kw_pattern_input *in);
+
+/*! kw_pattern_input_keys(): the keys in the command's order, each with
+ * its form, unit and a line of help with its default; ends with a NULL
+ * name. Static storage. */
+KW_API const kw_param_key *kw_pattern_input_keys(void);
+
+/*! kw_pattern_input_set(): `key` from `text` (replacing an earlier value
+ * of the key). On error the input is unchanged. An unknown key is
+ * "<key>: unknown key", with " (did you mean '<known>'?)" for a near miss;
+ * an empty text "<key>: empty value". */
+KW_API kw_status kw_pattern_input_set(kw_pattern_input *in, const char *key, const char *text);
+
+/*! kw_pattern_input_clear(): `key` back to not given. */
+KW_API kw_status kw_pattern_input_clear(kw_pattern_input *in, const char *key);
+
+/*! kw_pattern_input_given(): 1 when `key` was set (ellipse: set to 1). */
+KW_API int kw_pattern_input_given(const kw_pattern_input *in, const char *key);
+
+/*! kw_pattern_input_finish(): the rules between the keys, then *o filled:
+ * kw_pattern_options_init()'s defaults with the keys given (written only
+ * on success). `sp` spells the keys the messages name ("not used by --kind
+ * radial" for the command's {"--", '-', " ", NULL}); NULL: "kind=radial". */
+KW_API kw_status kw_pattern_input_finish(const kw_pattern_input *in, const kw_param_spelling *sp,
+                                         kw_pattern_options *o);
+
+/*! kw_pattern_input_key_of(): the key of a field of kw_pattern_options
+ * that kw_pattern_create() names in kw_last_error_param() ("dims" ->
+ * "matrix", "dwell_s" -> "dwell"); NULL for another name. */
+KW_API const char *kw_pattern_input_key_of(const char *field);
 
 #ifdef __cplusplus
 }

@@ -11,6 +11,7 @@
 
 #include "kw_units.h"
 #include "defaults.h"
+#include "params_int.h"
 #include "plan_input_int.h"
 #include "protofile.h"
 
@@ -106,37 +107,11 @@ static int key_lookup(const char *key)
     return -1;
 }
 
-/* Edit distance of two short keys (Levenshtein), for a suggestion. */
-static int distance(const char *a, const char *b)
-{
-    size_t na = strlen(a), nb = strlen(b);
-    if (na > 32 || nb > 32)
-        return 99;
-    int row[33];
-    for (size_t j = 0; j <= nb; j++)
-        row[j] = (int)j;
-    for (size_t i = 1; i <= na; i++) {
-        int diag = row[0];
-        row[0] = (int)i;
-        for (size_t j = 1; j <= nb; j++) {
-            int up = row[j];
-            int best = diag + (a[i - 1] != b[j - 1]);
-            if (up + 1 < best)
-                best = up + 1;
-            if (row[j - 1] + 1 < best)
-                best = row[j - 1] + 1;
-            row[j] = best;
-            diag = up;
-        }
-    }
-    return row[nb];
-}
-
 static kw_status unknown_key(const char *key)
 {
     int best = -1, bd = 3;
     for (int k = 0; k < K_COUNT; k++) {
-        int d = distance(key, key_names[k]);
+        int d = kw_param_distance(key, key_names[k]);
         if (d < bd && d < (int)strlen(key)) {
             bd = d;
             best = k;

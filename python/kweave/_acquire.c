@@ -1,8 +1,8 @@
 /* _acquire.c: kweave.Acquisition and kweave.acquire(): the simulated
  * acquisition of libencode/kw_acquire.h, as `kweave encode` makes it. The
- * keywords are the command's options ('_' for '-'), checked with the
- * command's rules and messages (cli/cmd_encode.c); the options that name
- * input files there take arrays here (mask, trajectory, times, sens,
+ * keywords are the command's options ('_' for '-'), read and checked by
+ * the library's kw_acquisition_input (the command's rules and messages); the
+ * options that name input files there take arrays here (mask, trajectory, times, sens,
  * field_map, noise_cov) and tissue takes a dict. The object owns copies of
  * its arrays (the library borrows them until destroy). One run at a time
  * per object (a lock); the GIL is released while the library works. */
@@ -16,20 +16,43 @@
 
 #include "kw_acquire.h"
 
-#define MAX_EDGE 8192
+#define MAX_KEYS 40
 
-/* The keywords as given (the command's enc_args). */
+/* The keywords as given: the library's keys (kw_acquisition_input_keys(),
+ * vals[] in their order), the mask under its own name too, max_memory. */
 typedef struct acq_args {
-    const char *phantom, *sequence;
-    PyObject *matrix, *fov, *bandwidth, *field_grad, *flip, *tissue;
-    PyObject *mask, *traj, *times, *sens, *ncov, *fmap, *max_memory;
-    double snr, te, tr, ti, b0, df, coil_radius, coil_distance, coil_ring_gap, noise_corr;
-    double slice_thk, slice_gap;
-    long seed, coils, coil_order, coil_order_z, coil_rings, slices, slice_points;
-    int s_ph, s_mx, s_fov, s_snr, s_seed, s_seq, s_te, s_tr, s_ti, s_flip, s_b0, s_bw, s_df;
-    int s_coils, s_cr, s_cd, s_co, s_coz, s_crings, s_crgap, s_sens, s_pat, s_traj, s_times;
-    int s_ncorr, s_ncov, s_fmap, s_fgrad, s_tissue, s_sl, s_slt, s_slg, s_slp, s_mem;
+    PyObject *vals[MAX_KEYS];
+    PyObject *max_memory;
+    int nkeys;
+    /* the arrays among vals[] */
+    PyObject *mask, *traj, *times, *sens, *ncov, *fmap, *tissue;
 } acq_args;
+
+/* The library's messages in the package's words: no dashes, '_' for '-',
+ * name=value, the command's pattern is the mask. */
+static const char *const RENAME[] = {"pattern", "mask", NULL};
+static const kw_param_spelling SPELLING = {"", '_', "=", RENAME};
+
+/* the keyword of the library's key */
+static const char *keyword(const char *key, char *buf, size_t n)
+{
+    if (strcmp(key, "pattern") == 0)
+        return "mask";
+    size_t i = 0;
+    for (; key[i] && i + 1 < n; i++)
+        buf[i] = key[i] == '-' ? '_' : key[i];
+    buf[i] = '\0';
+    return buf;
+}
+
+/* InputError for the input's refusal, under the keyword of its key. */
+static PyObject *raise_key(kw_status st)
+{
+    char name[64], why[600];
+    snprintf(why, sizeof why, "%s", kw_last_error_reason());
+    kw_set_error_param(st, keyword(kw_last_error_param(), name, sizeof name), "%s", why);
+    return kwpy_raise(st, NULL);
+}
 
 typedef struct {
     PyObject_HEAD
@@ -37,86 +60,12 @@ typedef struct {
     PyThread_type_lock lock;
     /* what the options point to, owned here */
     PyArrayObject *traj, *sens, *fmap;
+    PyObject *phantom; /* its name (str) */
     uint8_t *mask;
     double *times;
     kw_cdouble *ncov;
     kw_tissue_values tissues[KW_TISSUE_COUNT];
 } AcqObject;
-
-/* ---- keyword values ------------------------------------------------------- */
-
-/* One to `max` quantities of `kind`: "256mm,200mm", a number (SI) or a
- * sequence of str and numbers. Returns the count or -1 (InputError). */
-static int unit_list(PyObject *v, kw_unit_kind kind, double *out, int max, const char *name)
-{
-    char why[200];
-    if (PyUnicode_Check(v)) {
-        const char *s = PyUnicode_AsUTF8(v);
-        if (!s)
-            return -1;
-        int k = kw_unit_parse_list(s, kind, out, max, why, sizeof why);
-        if (k < 0)
-            kwpy_value_error(name, "%s", why);
-        return k;
-    }
-    PyObject *seq = PySequence_Check(v) ? PySequence_Fast(v, name) : NULL;
-    if (!seq && PyErr_Occurred())
-        return -1;
-    Py_ssize_t n = seq ? PySequence_Fast_GET_SIZE(seq) : 1;
-    if (n < 1 || n > max) {
-        Py_XDECREF(seq);
-        if (max == 1)
-            kwpy_value_error(name, "expected one value (got %zd)", n);
-        else
-            kwpy_value_error(name, "expected 1 to %d values (got %zd)", max, n);
-        return -1;
-    }
-    for (Py_ssize_t i = 0; i < n; i++) {
-        PyObject *it = seq ? PySequence_Fast_GET_ITEM(seq, i) : v;
-        const char *s = PyUnicode_Check(it) ? PyUnicode_AsUTF8(it) : NULL;
-        if (s && kw_unit_parse(s, kind, &out[i], why, sizeof why)) {
-            kwpy_value_error(name, "%s", why);
-            s = NULL;
-            n = -1;
-        } else if (!s && !PyErr_Occurred() && (PyBool_Check(it) || !PyNumber_Check(it))) {
-            kwpy_value_error(name, "must be a str with units, a number in %s, or a sequence of them",
-                             kw_unit_name(kind));
-            n = -1;
-        } else if (!s && !PyErr_Occurred()) {
-            out[i] = PyFloat_AsDouble(it);
-        }
-        if (n < 0 || PyErr_Occurred()) {
-            Py_XDECREF(seq);
-            return -1;
-        }
-    }
-    Py_XDECREF(seq);
-    return (int)n;
-}
-
-/* "256" / "256x192" / "64x64x16" -> n[0..2]; the number of values or -1. */
-static int parse_matrix(const char *s, size_t n[3])
-{
-    int k = 0;
-    const char *p = s;
-    while (k < 3) {
-        char *end;
-        if (!(*p >= '0' && *p <= '9'))
-            return -1;
-        long v = strtol(p, &end, 10);
-        if (end == p || v < 1 || v > MAX_EDGE)
-            return -1;
-        n[k++] = (size_t)v;
-        if (*end == '\0')
-            break;
-        if (*end != 'x' && *end != 'X')
-            return -1;
-        p = end + 1;
-    }
-    if (*p && k == 3 && strpbrk(p, "xX"))
-        return -1;
-    return k;
-}
 
 /* tissue={name: {pd, t1_s, t2_s, t2star_s}} as the command's --tissue JSON. */
 static int tissue_values(PyObject *d, kw_tissue_values *v)
@@ -179,164 +128,38 @@ static int tissue_values(PyObject *d, kw_tissue_values *v)
     return 0;
 }
 
-/* ---- the command's checks (cli/cmd_encode.c), in its order ------------------ */
+/* ---- the keywords through the library's input -------------------------------- */
 
 #define FAIL(name, ...) return kwpy_value_error(name, __VA_ARGS__), -1
 
-/* Options given together that do not go together, and values that the
- * options struct reads as "not given". */
-static int check_combinations(const acq_args *a)
+/* The keywords onto the input, in the order of its keys (the command's). */
+static int set_keys(kw_acquisition_input *in, const acq_args *a)
 {
-    if ((a->s_slt || a->s_slg || a->s_slp) && !a->s_sl)
-        FAIL("slices", "missing (slice options need slices=N)");
-    if (a->s_sl && (a->slices < 1 || a->slices > 256))
-        FAIL("slices", "must be 1..256");
-    if (a->s_pat && a->s_traj)
-        FAIL("mask", "give mask (Cartesian) or trajectory, not both");
-    if (a->s_fmap && a->s_fgrad)
-        FAIL("field_map", "give field_map or field_gradient, not both (add the linear field to the map)");
-    if (a->s_coils && a->s_sens)
-        FAIL("coils", "give coils (a ring of loops) or sens (maps), not both");
-    if (a->s_coils && (a->coils < 1 || a->coils > 128))
-        FAIL("coils", "must be 1..128 (got %ld)", a->coils);
-    if ((a->s_cr || a->s_cd) && !a->s_coils)
-        FAIL(a->s_cr ? "coil_radius" : "coil_distance", "only with coils");
-    if ((a->s_cr && !(a->coil_radius > 0)) || (a->s_cd && !(a->coil_distance > 0)))
-        FAIL(a->s_cr && !(a->coil_radius > 0) ? "coil_radius" : "coil_distance", "must be positive");
-    if (a->s_co && (a->coil_order < 0 || a->coil_order > 8))
-        FAIL("coil_order", "must be 0..8");
-    if (a->s_coz && (a->coil_order_z < 0 || a->coil_order_z > 8))
-        FAIL("coil_order_z", "must be 0..8");
-    if ((a->s_coz || a->s_crings || a->s_crgap) && !a->s_coils && !a->s_sens)
-        FAIL(a->s_coz ? "coil_order_z" : a->s_crings ? "coil_rings" : "coil_ring_gap",
-             "only with coils or sens");
-    if ((a->s_crings || a->s_crgap) && !a->s_coils)
-        FAIL(a->s_crings ? "coil_rings" : "coil_ring_gap", "only with coils");
-    if (a->s_crgap && !(a->coil_ring_gap > 0))
-        FAIL("coil_ring_gap", "a positive length, with coil_rings=2");
-    if (a->s_ncorr && !a->s_snr)
-        FAIL("noise_corr", "needs snr (the noise level)");
-    if (a->s_ncorr && a->s_ncov)
-        FAIL("noise_corr", "give noise_corr or noise_cov, not both");
-    static const char *const pos[] = {"te", "tr", "ti", "flip"};
-    const double v[] = {a->te, a->tr, a->ti, 1.0};
-    const int s[] = {a->s_te, a->s_tr, a->s_ti, 0};
-    for (int i = 0; i < 4; i++)
-        if (s[i] && !(v[i] > 0))
-            FAIL(pos[i], "must be positive");
-    return 0;
-}
-
-/* Grid, FOV, contrast, bandwidth and fields: the keywords -> options. */
-static int args_grid(const acq_args *a, kw_acquisition_options *o)
-{
-    char txt[256], why[200];
-    if (!a->s_ph)
-        FAIL("phantom", "missing (shepp-logan, shepp-logan-modified, weave, weave3d)");
-    o->phantom = a->phantom;
-    if (!a->s_mx)
-        FAIL("matrix", "missing (e.g. matrix=256 or \"256x192\")");
-    size_t n[3] = {1, 1, 1};
-    if (kwpy_str_value(a->matrix, "matrix", "x", txt, sizeof txt) < 0)
-        return -1;
-    int nm = parse_matrix(txt, n);
-    if (nm < 0)
-        FAIL("matrix", "'%s' is not NX[xNY[xNZ]] with whole numbers 1..%d", txt, MAX_EDGE);
-    for (int i = 0; i < nm; i++)
-        o->dims[2 - i] = n[i]; /* C order: (nz, ny, nx) */
-    if (!a->s_fov)
-        FAIL("fov", "missing (e.g. fov=\"256mm\")");
-    double fov[3];
-    int nf = unit_list(a->fov, KW_UNIT_LENGTH, fov, 3, "fov");
-    if (nf < 0)
-        return -1;
-    for (int i = 0; i < nf; i++) {
-        if (!(fov[i] > 0))
-            FAIL("fov", "must be positive (got %g m)", fov[i]);
-        o->fov_m[2 - i] = fov[i];
-    }
-    if (a->s_snr && !(a->snr > 0 && isfinite(a->snr)))
-        FAIL("snr", "must be a positive number");
-    if (a->s_seed && a->seed < 0)
-        FAIL("seed", "must be >= 0");
-    if (a->s_seq) {
-        static const char *const names[] = {"pd", "gre", "se", "ir"};
-        int k = 0;
-        while (k < 4 && strcmp(a->sequence, names[k]) != 0)
-            k++;
-        if (k == 4)
-            FAIL("sequence", "unknown sequence '%s' (pd, gre, se, ir)", a->sequence);
-        o->sequence = (kw_contrast_kind)k;
-    }
-    if (a->s_bw) {
-        double bw = 0;
-        int bw_pp = 0;
-        if (PyUnicode_Check(a->bandwidth)) {
-            const char *s = PyUnicode_AsUTF8(a->bandwidth);
-            if (!s)
-                return -1;
-            if (kw_unit_parse_bandwidth(s, &bw, &bw_pp, why, sizeof why))
-                FAIL("bandwidth", "%s", why);
-        } else if (unit_list(a->bandwidth, KW_UNIT_FREQUENCY, &bw, 1, "bandwidth") < 0) {
+    const kw_param_key *keys = kw_acquisition_input_keys();
+    for (int k = 0; k < a->nkeys; k++) {
+        PyObject *v = a->vals[k];
+        if (!v)
+            continue;
+        char text[512], name[64];
+        const char *kw = keyword(keys[k].name, name, sizeof name);
+        if (keys[k].type == KW_PARAM_ARRAY)
+            snprintf(text, sizeof text, "%s", kw); /* given: the array is used below */
+        else if (kwpy_param_text(v, &keys[k], kw, text, sizeof text) < 0)
             return -1;
-        }
-        if (!(bw > 0))
-            FAIL("bandwidth", "must be positive");
-        o->bandwidth_hz = bw_pp ? bw * (double)n[0] : bw;
-    }
-    if (a->s_fgrad) {
-        double g[3] = {0, 0, 0};
-        int k = unit_list(a->field_grad, KW_UNIT_GRADIENT, g, 3, "field_gradient");
-        if (k < 0)
-            return -1;
-        o->field_gradient_ndim = k;
-        for (int d = 0; d < k; d++)
-            o->field_gradient_t_per_m[2 - d] = g[d]; /* GX,GY[,GZ] -> (z, y, x) */
+        kw_status st = kw_acquisition_input_set(in, keys[k].name, text);
+        if (st)
+            return raise_key(st), -1;
     }
     return 0;
 }
 
-/* flip: a str with a unit, or a number read as the command reads it
- * (degrees); then the remaining scalars. */
-static int args_rest(const acq_args *a, kw_acquisition_options *o)
+/* max_memory: as the command, half the physical memory unless given */
+static int max_memory(const acq_args *a, kw_acquisition_options *o)
 {
-    if (a->s_flip) {
-        char txt[128], why[200];
-        double f;
-        if (kwpy_str_value(a->flip, "flip", ",", txt, sizeof txt) < 0)
-            return -1;
-        if (kw_unit_parse(txt, KW_UNIT_ANGLE, &f, why, sizeof why))
-            FAIL("flip", "%s", why);
-        if (!(f > 0))
-            FAIL("flip", "must be positive");
-        o->flip_rad = f;
-    }
-    o->snr = a->s_snr ? a->snr : 0;
-    o->seed = (uint64_t)a->seed;
-    o->te_s = a->s_te ? a->te : 0;
-    o->tr_s = a->s_tr ? a->tr : 0;
-    o->ti_s = a->s_ti ? a->ti : 0;
-    o->b0_t = a->b0;
-    o->df_hz = a->s_df ? a->df : 0;
-    o->coils = a->s_coils ? (int)a->coils : 0;
-    o->coil_radius_m = a->s_cr ? a->coil_radius : 0;
-    o->coil_distance_m = a->s_cd ? a->coil_distance : 0;
-    o->coil_rings = a->s_crings ? (int)a->coil_rings : 1;
-    o->coil_ring_gap_m = a->s_crgap ? a->coil_ring_gap : 0;
-    o->coil_order = a->s_co ? (int)a->coil_order : -1;
-    o->coil_order_z = a->s_coz ? (int)a->coil_order_z : -1;
-    o->noise_corr = a->s_ncorr ? a->noise_corr : 0;
-    if (a->s_sl) {
-        o->slices = (int)a->slices;
-        o->slice_thickness_m = a->s_slt ? a->slice_thk : 0;
-        o->slice_gap_m = a->s_slg ? a->slice_gap : 0;
-        o->slice_points = (int)a->slice_points;
-    }
-    /* as the command: half the physical memory unless max_memory is given */
     long pages = sysconf(_SC_PHYS_PAGES), psize = sysconf(_SC_PAGE_SIZE);
     double half = pages > 0 && psize > 0 ? 0.5 * (double)pages * (double)psize : (double)(16UL << 30);
     o->max_bytes = half < (double)(64UL << 20) ? (64UL << 20) : (size_t)half;
-    if (a->s_mem) {
+    if (a->max_memory) {
         if (PyBool_Check(a->max_memory) || !PyLong_Check(a->max_memory))
             FAIL("max_memory", "must be a whole number of bytes");
         unsigned long long b = PyLong_AsUnsignedLongLong(a->max_memory);
@@ -388,7 +211,7 @@ static void set_dims(size_t *dst, int *ndim, PyArrayObject *a)
  * complex double): converted as the command converts its files. */
 static int arrays_converted(AcqObject *self, const acq_args *a, kw_acquisition_options *o)
 {
-    if (a->s_pat) {
+    if (a->mask) {
         PyArrayObject *m = array_owned(a->mask, KWPY_F32, "mask", 1, 3);
         if (!m)
             return -1;
@@ -402,7 +225,7 @@ static int arrays_converted(AcqObject *self, const acq_args *a, kw_acquisition_o
             return PyErr_NoMemory(), -1;
         o->mask = self->mask;
     }
-    if (a->s_times) {
+    if (a->times) {
         PyArrayObject *t = array_owned(a->times, KWPY_F32, "times", 1, 2);
         if (!t)
             return -1;
@@ -416,7 +239,7 @@ static int arrays_converted(AcqObject *self, const acq_args *a, kw_acquisition_o
             return PyErr_NoMemory(), -1;
         o->times = self->times;
     }
-    if (a->s_ncov) {
+    if (a->ncov) {
         PyArrayObject *c = array_owned(a->ncov, KWPY_C64, "noise_cov", 2, 2);
         if (!c)
             return -1;
@@ -436,7 +259,7 @@ static int arrays_converted(AcqObject *self, const acq_args *a, kw_acquisition_o
 /* trajectory, field_map, sens: used as they are (owned copies). */
 static int arrays_kept(AcqObject *self, const acq_args *a, kw_acquisition_options *o)
 {
-    if (a->s_traj) {
+    if (a->traj) {
         if (!(self->traj = array_owned(a->traj, KWPY_F32, "trajectory", 2, 2)))
             return -1;
         if (!PyArray_DIM(self->traj, 0))
@@ -444,13 +267,13 @@ static int arrays_kept(AcqObject *self, const acq_args *a, kw_acquisition_option
         o->traj = PyArray_DATA(self->traj);
         set_dims(o->traj_dims, NULL, self->traj);
     }
-    if (a->s_fmap) {
+    if (a->fmap) {
         if (!(self->fmap = array_owned(a->fmap, KWPY_F32, "field_map", 2, 3)))
             return -1;
         o->field_map = PyArray_DATA(self->fmap);
         set_dims(o->field_map_dims, &o->field_map_ndim, self->fmap);
     }
-    if (a->s_sens) {
+    if (a->sens) {
         if (!(self->sens = array_owned(a->sens, KWPY_C64, "sens", 2, 4)))
             return -1;
         o->sens = PyArray_DATA(self->sens);
@@ -461,30 +284,18 @@ static int arrays_kept(AcqObject *self, const acq_args *a, kw_acquisition_option
 
 /* ---- the object ------------------------------------------------------------------ */
 
-/* The library's option names (kw_last_error_param()) -> the keywords. */
-static const struct {
-    const char *param, *keyword;
-} param_map[] = {
-    {"dims", "matrix"}, {"fov_m", "fov"}, {"te_s", "te"}, {"tr_s", "tr"}, {"ti_s", "ti"},
-    {"flip_rad", "flip"}, {"b0_t", "b0"}, {"bandwidth_hz", "bandwidth"}, {"tissue_values", "tissue"},
-    {"df_hz", "df"}, {"field_gradient_ndim", "field_gradient"},
-    {"field_gradient_t_per_m", "field_gradient"}, {"coil_radius_m", "coil_radius"},
-    {"coil_distance_m", "coil_distance"}, {"coil_ring_gap_m", "coil_ring_gap"},
-    {"slice_thickness_m", "slice_thickness"}, {"slice_gap_m", "slice_gap"}, {"traj", "trajectory"},
-    {"max_bytes", "max_memory"}, {"options", "acquire"}};
-
 /* A failure of the acquisition, under the keyword's name. */
 static PyObject *acq_fail(kw_status st)
 {
     const char *p = kw_last_error_param();
     if (!*p)
         return kwpy_raise(st, NULL);
-    const char *kw = p;
-    for (size_t i = 0; i < sizeof param_map / sizeof param_map[0]; i++)
-        if (strcmp(param_map[i].param, p) == 0)
-            kw = param_map[i].keyword;
-    char name[64], why[600];
-    snprintf(name, sizeof name, "%s", kw);
+    const char *key = kw_acquisition_input_key_of(p);
+    char buf[64], why[600];
+    const char *name = key                           ? keyword(key, buf, sizeof buf)
+                       : strcmp(p, "max_bytes") == 0 ? "max_memory"
+                       : strcmp(p, "options") == 0   ? "acquire"
+                                                     : p;
     snprintf(why, sizeof why, "%s%s", kw_last_error_reason(),
              strcmp(p, "max_bytes") == 0 ? " (max_memory)" : "");
     kw_set_error_param(st, name, "%s", why);
@@ -498,6 +309,7 @@ static void acq_clear(AcqObject *self)
     Py_CLEAR(self->traj);
     Py_CLEAR(self->sens);
     Py_CLEAR(self->fmap);
+    Py_CLEAR(self->phantom);
     free(self->mask);
     free(self->times);
     free(self->ncov);
@@ -524,48 +336,54 @@ static void acq_dealloc(AcqObject *self)
 static int parse_keywords(PyObject *kwargs, acq_args *a)
 {
     memset(a, 0, sizeof *a);
-    kw_acquisition_options dflt; /* the library's defaults, as the command takes them */
-    kw_acquisition_options_init(&dflt);
-    a->b0 = dflt.b0_t;
-    a->slice_points = dflt.slice_points;
-    const kwpy_kw table[] = {
-        {"phantom", KWPY_STR, &a->phantom, 0, &a->s_ph},
-        {"matrix", KWPY_OBJ, &a->matrix, 0, &a->s_mx},
-        {"fov", KWPY_OBJ, &a->fov, 0, &a->s_fov},
-        {"snr", KWPY_FLOAT, &a->snr, 0, &a->s_snr},
-        {"seed", KWPY_INT, &a->seed, 0, &a->s_seed},
-        {"sequence", KWPY_STR, &a->sequence, 0, &a->s_seq},
-        {"te", KWPY_UNIT, &a->te, KW_UNIT_TIME, &a->s_te},
-        {"tr", KWPY_UNIT, &a->tr, KW_UNIT_TIME, &a->s_tr},
-        {"ti", KWPY_UNIT, &a->ti, KW_UNIT_TIME, &a->s_ti},
-        {"flip", KWPY_OBJ, &a->flip, 0, &a->s_flip},
-        {"b0", KWPY_UNIT, &a->b0, KW_UNIT_FIELD, &a->s_b0},
-        {"bandwidth", KWPY_OBJ, &a->bandwidth, 0, &a->s_bw},
-        {"df", KWPY_UNIT, &a->df, KW_UNIT_FREQUENCY, &a->s_df},
-        {"coils", KWPY_INT, &a->coils, 0, &a->s_coils},
-        {"coil-radius", KWPY_UNIT, &a->coil_radius, KW_UNIT_LENGTH, &a->s_cr},
-        {"coil-distance", KWPY_UNIT, &a->coil_distance, KW_UNIT_LENGTH, &a->s_cd},
-        {"coil-order", KWPY_INT, &a->coil_order, 0, &a->s_co},
-        {"coil-order-z", KWPY_INT, &a->coil_order_z, 0, &a->s_coz},
-        {"coil-rings", KWPY_INT, &a->coil_rings, 0, &a->s_crings},
-        {"coil-ring-gap", KWPY_UNIT, &a->coil_ring_gap, KW_UNIT_LENGTH, &a->s_crgap},
-        {"sens", KWPY_OBJ, &a->sens, 0, &a->s_sens},
-        {"mask", KWPY_OBJ, &a->mask, 0, &a->s_pat},
-        {"pattern", KWPY_OBJ, &a->mask, 0, &a->s_pat}, /* the command's name of the mask */
-        {"trajectory", KWPY_OBJ, &a->traj, 0, &a->s_traj},
-        {"times", KWPY_OBJ, &a->times, 0, &a->s_times},
-        {"noise-corr", KWPY_FLOAT, &a->noise_corr, 0, &a->s_ncorr},
-        {"noise-cov", KWPY_OBJ, &a->ncov, 0, &a->s_ncov},
-        {"field-map", KWPY_OBJ, &a->fmap, 0, &a->s_fmap},
-        {"field-gradient", KWPY_OBJ, &a->field_grad, 0, &a->s_fgrad},
-        {"tissue", KWPY_OBJ, &a->tissue, 0, &a->s_tissue},
-        {"slices", KWPY_INT, &a->slices, 0, &a->s_sl},
-        {"slice-thickness", KWPY_UNIT, &a->slice_thk, KW_UNIT_LENGTH, &a->s_slt},
-        {"slice-gap", KWPY_UNIT, &a->slice_gap, KW_UNIT_LENGTH, &a->s_slg},
-        {"slice-points", KWPY_INT, &a->slice_points, 0, &a->s_slp},
-        {"max-memory", KWPY_OBJ, &a->max_memory, 0, &a->s_mem},
-        {NULL, 0, NULL, 0, NULL}};
-    return kwpy_parse_kwargs(kwargs, table, "Acquisition");
+    const kw_param_key *keys = kw_acquisition_input_keys();
+    kwpy_kw table[MAX_KEYS + 3];
+    int n = 0, pattern = 0;
+    for (; keys[n].name && n < MAX_KEYS; n++) {
+        table[n] = (kwpy_kw){keys[n].name, KWPY_OBJ, &a->vals[n], 0, NULL};
+        if (strcmp(keys[n].name, "pattern") == 0)
+            pattern = n;
+    }
+    a->nkeys = n;
+    table[n++] = (kwpy_kw){"mask", KWPY_OBJ, &a->vals[pattern], 0, NULL};
+    table[n++] = (kwpy_kw){"max-memory", KWPY_OBJ, &a->max_memory, 0, NULL};
+    table[n] = (kwpy_kw){NULL, 0, NULL, 0, NULL};
+    if (kwpy_parse_kwargs(kwargs, table, "Acquisition") < 0)
+        return -1;
+    static const char *const arrays[] = {"pattern", "trajectory", "times", "sens", "noise-cov",
+                                         "field-map", "tissue"};
+    PyObject **dst[] = {&a->mask, &a->traj, &a->times, &a->sens, &a->ncov, &a->fmap, &a->tissue};
+    for (int k = 0; k < a->nkeys; k++)
+        for (int i = 0; i < 7; i++)
+            if (strcmp(keys[k].name, arrays[i]) == 0)
+                *dst[i] = a->vals[k];
+    return 0;
+}
+
+/* The keywords through the library's input into `o`. */
+static int acq_options(AcqObject *self, const acq_args *a, kw_acquisition_options *o)
+{
+    kw_acquisition_input *in = NULL;
+    kw_status st = kw_acquisition_input_create(&in);
+    if (st)
+        return kwpy_raise(st, NULL), -1;
+    int rc = set_keys(in, a);
+    if (!rc && a->tissue) {
+        rc = tissue_values(a->tissue, self->tissues);
+        o->tissue_values = self->tissues;
+    }
+    if (!rc && (st = kw_acquisition_input_finish(in, &SPELLING, o)))
+        rc = (raise_key(st), -1);
+    /* o->phantom points into the input: the name the library keeps */
+    if (!rc && !(self->phantom = PyUnicode_FromString(o->phantom)))
+        rc = -1;
+    kw_acquisition_input_destroy(in);
+    if (rc)
+        return -1;
+    o->phantom = PyUnicode_AsUTF8(self->phantom);
+    if (max_memory(a, o) < 0 || arrays_converted(self, a, o) < 0 || arrays_kept(self, a, o) < 0)
+        return -1;
+    return 0;
 }
 
 static int acq_init(AcqObject *self, PyObject *args, PyObject *kwargs)
@@ -588,13 +406,7 @@ static int acq_init(AcqObject *self, PyObject *args, PyObject *kwargs)
     acq_clear(self);
     kw_acquisition_options o;
     kw_acquisition_options_init(&o);
-    if (a.s_tissue) {
-        if (tissue_values(a.tissue, self->tissues) < 0)
-            return -1;
-        o.tissue_values = self->tissues;
-    }
-    if (args_grid(&a, &o) < 0 || check_combinations(&a) < 0 || args_rest(&a, &o) < 0 ||
-        arrays_converted(self, &a, &o) < 0 || arrays_kept(self, &a, &o) < 0)
+    if (acq_options(self, &a, &o) < 0)
         return -1;
     kw_status st;
     kw_acquisition *acq = NULL;

@@ -385,6 +385,98 @@ int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, 
     return 0;
 }
 
+/* One number (or str) of a key's value: the digits of an int, the shortest
+ * exact form of a float, with `unit` after a number (NULL: none). */
+static int param_one(PyObject *v, const char *unit, const char *name, char *buf, size_t n)
+{
+    if (PyUnicode_Check(v))
+        return one_text(v, name, buf, n);
+    if (PyBool_Check(v) || !PyNumber_Check(v)) {
+        kwpy_value_error(name, "must be a str or a number");
+        return -1;
+    }
+    char *num;
+    if (PyIndex_Check(v)) {
+        PyObject *s = PyObject_Str(v);
+        const char *t = s ? PyUnicode_AsUTF8(s) : NULL;
+        num = t ? PyMem_Malloc(strlen(t) + 1) : NULL;
+        if (num)
+            strcpy(num, t);
+        Py_XDECREF(s);
+    } else {
+        double x = PyFloat_AsDouble(v);
+        if (x == -1.0 && PyErr_Occurred())
+            return -1;
+        num = PyOS_double_to_string(x, 'r', 0, 0, NULL);
+    }
+    if (!num)
+        return PyErr_Occurred() ? -1 : (PyErr_NoMemory(), -1);
+    int w = snprintf(buf, n, "%s%s", num, unit ? unit : "");
+    PyMem_Free(num);
+    if (w < 0 || (size_t)w >= n) {
+        kwpy_value_error(name, "value too long");
+        return -1;
+    }
+    return 0;
+}
+
+int kwpy_param_text(PyObject *v, const kw_param_key *k, const char *name, char *buf, size_t n)
+{
+    const char *unit = NULL;
+    char sep = 0;
+    switch (k->type) {
+    case KW_PARAM_FLAG: {
+        int t = PyUnicode_Check(v) ? -2 : PyObject_IsTrue(v);
+        if (t == -1)
+            return -1;
+        if (t == -2)
+            return one_text(v, name, buf, n);
+        return snprintf(buf, n, "%d", t) < 0 ? -1 : 0;
+    }
+    case KW_PARAM_NAME:
+        if (!PyUnicode_Check(v)) {
+            kwpy_value_error(name, "must be a str");
+            return -1;
+        }
+        return one_text(v, name, buf, n);
+    case KW_PARAM_WHOLE:
+        if (!PyUnicode_Check(v) && (PyBool_Check(v) || !PyIndex_Check(v))) {
+            kwpy_value_error(name, "must be a whole number");
+            return -1;
+        }
+        break;
+    case KW_PARAM_QUANTITY:
+    case KW_PARAM_QUANTITIES: unit = k->unit == KW_UNIT_ANGLE ? "" : kw_unit_name(k->unit); break;
+    case KW_PARAM_BANDWIDTH: unit = "Hz"; break;
+    default: break;
+    }
+    sep = k->type == KW_PARAM_SIZES || k->type == KW_PARAM_NUMBERS ? 'x'
+          : k->type == KW_PARAM_QUANTITIES                       ? ','
+                                                                 : 0;
+    if (!sep || PyUnicode_Check(v) || !PySequence_Check(v))
+        return param_one(v, unit, name, buf, n);
+    Py_ssize_t len = PySequence_Length(v);
+    if (len < 0)
+        return -1;
+    size_t used = 0;
+    buf[0] = '\0';
+    for (Py_ssize_t i = 0; i < len; i++) {
+        PyObject *it = PySequence_GetItem(v, i);
+        char one[128];
+        int rc = it ? param_one(it, unit, name, one, sizeof one) : -1;
+        Py_XDECREF(it);
+        if (rc < 0)
+            return -1;
+        int w = snprintf(buf + used, n - used, "%s%s", i ? (char[]){sep, 0} : "", one);
+        if (w < 0 || (size_t)w >= n - used) {
+            kwpy_value_error(name, "value too long");
+            return -1;
+        }
+        used += (size_t)w;
+    }
+    return 0;
+}
+
 /* ---- JSON ------------------------------------------------------------------------ */
 
 PyObject *kwpy_json_dict(char *text)

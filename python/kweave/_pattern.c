@@ -1,9 +1,10 @@
 /* _pattern.c: kweave.pattern(kind, **options), what `kweave pattern --kind
  * K` makes (libencode/kw_pattern.h), and kweave.analyse(pattern, **options),
  * what `kweave pattern --analyse F --json J` reports
- * (recon/kw_pattern_analysis.h). The options, their checks and messages are
- * those of cli/cmd_pattern.c and cli/pattern_read.c; the figures, arrays and
- * sidecar are the library's. */
+ * (recon/kw_pattern_analysis.h). The options go through the library's
+ * kw_pattern_input (its keys, checks and messages, as the command's); the
+ * analysis's keywords are those of cli/pattern_read.c; the figures, arrays
+ * and sidecar are the library's. */
 #include "kwpy.h"
 
 #include <math.h>
@@ -12,57 +13,6 @@
 
 #include "kw_pattern.h"
 #include "kw_pattern_analysis.h"
-
-/* ---- the command's small parsers (cli/cmd_pattern.c) ------------------------------ */
-
-/* "256", "256x128", "2x2", "4.5": up to `max` numbers; 0 or -1 (raised). */
-static int parse_list(const char *field, const char *s, double *v, int max, int *n)
-{
-    *n = 0;
-    const char *p = s;
-    while (*p) {
-        char *end;
-        double x = strtod(p, &end);
-        if (end == p || !isfinite(x))
-            return kwpy_value_error(field, "'%s' is not of the form AxB", s), -1;
-        if (*n == max)
-            return kwpy_value_error(field, "'%s' has more than %d parts", s, max), -1;
-        v[(*n)++] = x;
-        p = end;
-        if (*p == 'x' || *p == 'X') {
-            p++;
-            if (!*p)
-                return kwpy_value_error(field, "'%s' ends with x", s), -1;
-        } else if (*p) {
-            return kwpy_value_error(field, "'%s' is not of the form AxB", s), -1;
-        }
-    }
-    if (*n == 0)
-        return kwpy_value_error(field, "empty value"), -1;
-    return 0;
-}
-
-static int parse_sizes(const char *field, const char *s, size_t *v, int max, int *n)
-{
-    double d[3];
-    if (parse_list(field, s, d, max, n) < 0)
-        return -1;
-    for (int i = 0; i < *n; i++) {
-        if (d[i] != floor(d[i]) || d[i] < 0 || d[i] > 65536)
-            return kwpy_value_error(field, "'%s': sizes must be whole numbers in 0..65536", s),
-                   -1;
-        v[i] = (size_t)d[i];
-    }
-    return 0;
-}
-
-/* A value given as "AxB", a number or a sequence of numbers, as text. */
-static int list_text(PyObject *obj, const char *field, char *buf, size_t n)
-{
-    return kwpy_str_value(obj, field, "x", buf, n);
-}
-
-static int clamp_int(long v) { return v > INT_MAX ? INT_MAX : v < INT_MIN ? INT_MIN : (int)v; }
 
 /* InputError "<option>: <reason>" for a failed library call whose parameter
  * maps to `option`, with .param = option and .status = the library's. */
@@ -89,199 +39,43 @@ static PyObject *raise_option(kw_status st, const char *option)
 
 /* ---- pattern(): the options ------------------------------------------------------------ */
 
-typedef struct gen_opts {
-    const char *kind;
-    PyObject *matrix, *accel, *acs;
-    double fraction, power, dwell, te, fov, gmax, slew, raster;
-    long shift, spokes, seed, tiny, interleaves, shots, ros;
-    int ellipse;
-    int seen_ros, seen_fov, seen_gmax, seen_slew, seen_raster, seen_interleaves, seen_shots;
-    int seen_fraction, seen_power, seen_shift, seen_spokes, seen_seed, seen_tiny, seen_te,
-        seen_dwell, seen_accel, seen_acs;
-} gen_opts;
+/* The library's messages as the command's ("not used by --kind radial"):
+ * the package's words are the command's here. */
+static const kw_param_spelling SPELLING = {"--", '-', " ", NULL};
 
-/* the library's parameter names (kw_pattern_options) and the keywords */
-static const struct {
-    const char *param, *option;
-} PARAM_OPTION[] = {
-    {"dims", "matrix"},       {"accel", "accel"},       {"acs", "acs"},
-    {"fraction", "fraction"}, {"ellipse", "ellipse"},   {"power", "power"},
-    {"shift", "shift"},       {"seed", "seed"},         {"spokes", "spokes"},
-    {"tiny", "tiny"},         {"readout_oversampling", "readout-oversampling"},
-    {"dwell_s", "dwell"},     {"te_s", "te"},           {"fov_m", "fov"},
-    {"gmax", "gmax"},         {"slew", "slew"},         {"raster", "raster"},
-    {"interleaves", "interleaves"}, {"shots", "shots"}, {"kind", "kind"},
-};
+#define MAX_KEYS 32
 
+/* A failure of kw_pattern_create(): under the key of the field at fault. */
 static PyObject *pattern_fail(kw_status st, const char *context)
 {
-    const char *param = kw_last_error_param();
-    for (size_t i = 0; i < sizeof PARAM_OPTION / sizeof PARAM_OPTION[0]; i++)
-        if (strcmp(param, PARAM_OPTION[i].param) == 0)
-            return raise_option(st, PARAM_OPTION[i].option);
-    return kwpy_raise(st, context);
+    const char *key = kw_pattern_input_key_of(kw_last_error_param());
+    return key ? raise_option(st, key) : kwpy_raise(st, context);
 }
 
-/* accel R or RYxRZ, acs N or NYxNZ into the C-order arrays */
-static int cartesian_options(const gen_opts *g, kw_pattern_options *o, int three_d)
+/* The keywords onto the library's input, in the order of its keys (the
+ * command's), then its rules into *o. 0 or -1 (raised). */
+static int pattern_options(const char *kind, PyObject *const *vals, kw_pattern_options *o)
 {
-    char buf[256];
-    if (g->accel) {
-        double r[2];
-        int n;
-        if (list_text(g->accel, "accel", buf, sizeof buf) < 0 ||
-            parse_list("accel", buf, r, 2, &n) < 0)
-            return -1;
-        double ry = r[0], rz = n > 1 ? r[1] : 1.0;
-        if (!(ry > 0) || !(rz > 0))
-            return kwpy_value_error("accel", "must be positive"), -1;
-        o->accel[0] = three_d ? rz : ry;
-        o->accel[1] = three_d ? ry : rz; /* 2-D: the library rejects RZ != 1 */
-        o->accel[2] = three_d ? 1.0 : 0.0;
+    const kw_param_key *keys = kw_pattern_input_keys();
+    kw_pattern_input *in = NULL;
+    kw_status st = kw_pattern_input_create(&in);
+    if (st)
+        return kwpy_raise(st, "pattern"), -1;
+    int rc = 0;
+    for (int k = 0; keys[k].name && k < MAX_KEYS && !rc; k++) {
+        char text[512];
+        const char *t = k == 0 ? kind : text;
+        if (k > 0 && !vals[k])
+            continue;
+        if (k > 0 && kwpy_param_text(vals[k], &keys[k], keys[k].name, text, sizeof text) < 0)
+            rc = -1;
+        else if (t && (st = kw_pattern_input_set(in, keys[k].name, t)))
+            rc = (kwpy_raise(st, NULL), -1);
     }
-    if (g->acs) {
-        size_t v[2];
-        int n;
-        if (list_text(g->acs, "acs", buf, sizeof buf) < 0 ||
-            parse_sizes("acs", buf, v, 2, &n) < 0)
-            return -1;
-        if (n > 1 && !three_d)
-            return kwpy_value_error("acs", "a 2-D ACS block AYxAZ needs a 3-D matrix"), -1;
-        o->acs[0] = three_d ? (n > 1 ? v[1] : v[0]) : v[0];
-        o->acs[1] = three_d ? v[0] : 0;
-    }
-    if (o->kind == KW_PATTERN_PARTIAL && !g->seen_fraction)
-        return kwpy_value_error("fraction", "required for --kind partial"), -1;
-    if (g->seen_fraction)
-        o->fraction = g->fraction;
-    if (g->seen_power)
-        o->power = g->power;
-    if (g->seen_shift)
-        o->shift = g->shift;
-    o->ellipse = g->ellipse;
-    o->seed = (uint64_t)g->seed;
-    return 0;
-}
-
-static int traj_options(const gen_opts *g, kw_pattern_options *o)
-{
-    const char *what = g->kind;
-    int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
-    if (!grad && (g->seen_accel || g->seen_acs || g->seen_fraction || g->ellipse))
-        return kwpy_value_error(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                                : g->seen_fraction ? "fraction" : "ellipse",
-                                "not used by --kind %s (set --spokes)", what), -1;
-    if (grad && (g->seen_accel || g->seen_acs || g->ellipse || g->seen_spokes || g->seen_tiny))
-        return kwpy_value_error(g->seen_accel ? "accel" : g->seen_acs ? "acs"
-                                : g->ellipse ? "ellipse" : g->seen_spokes ? "spokes" : "tiny",
-                                "not used by --kind %s", what), -1;
-    if (o->kind == KW_PATTERN_SPIRAL && (g->seen_shots || g->seen_fraction))
-        return kwpy_value_error(g->seen_shots ? "shots" : "fraction",
-                                "not used by --kind spiral"), -1;
-    if (o->kind == KW_PATTERN_EPI && g->seen_interleaves)
-        return kwpy_value_error("interleaves", "not used by --kind epi (use --shots)"), -1;
-    /* 0 asks the library for its default: an explicit 0 is an error here */
-    if (g->seen_spokes && g->spokes < 1)
-        return kwpy_value_error("spokes", "%ld outside 1..10000000", g->spokes), -1;
-    if (g->seen_tiny && g->tiny < 1)
-        return kwpy_value_error("tiny", "%ld outside 1..1000", g->tiny), -1;
-    if (g->seen_ros && g->ros < 1)
-        return kwpy_value_error("readout-oversampling", "%ld outside 1..4", g->ros), -1;
-    if (g->seen_interleaves && g->interleaves < 1)
-        return kwpy_value_error("interleaves", "%ld outside 1..4096", g->interleaves), -1;
-    if (g->seen_dwell && !(g->dwell > 0))
-        return kwpy_value_error("dwell", grad ? "must be positive" : "must be a positive time"),
-               -1;
-    o->spokes = g->seen_spokes ? (size_t)g->spokes : 0;
-    o->tiny = g->seen_tiny ? clamp_int(g->tiny) : 0;
-    o->readout_oversampling = g->seen_ros ? clamp_int(g->ros) : 0;
-    if (g->seen_dwell)
-        o->dwell_s = g->dwell;
-    if (g->seen_te)
-        o->te_s = g->te;
-    if (g->seen_fov)
-        o->fov_m = g->fov;
-    if (g->seen_gmax)
-        o->gmax = g->gmax;
-    if (g->seen_slew)
-        o->slew = g->slew;
-    if (g->seen_raster)
-        o->raster = g->raster;
-    if (g->seen_interleaves)
-        o->interleaves = clamp_int(g->interleaves);
-    if (g->seen_shots)
-        o->shots = clamp_int(g->shots);
-    if (g->seen_fraction)
-        o->fraction = g->fraction;
-    return 0;
-}
-
-/* "full, partial, ..., epi" */
-static void kind_list(char *buf, size_t n)
-{
-    size_t used = 0;
-    buf[0] = '\0';
-    for (int k = 0; kw_pattern_kind_name((kw_pattern_kind)k) && used < n; k++) {
-        int w = snprintf(buf + used, n - used, "%s%s", k ? ", " : "",
-                         kw_pattern_kind_name((kw_pattern_kind)k));
-        if (w < 0)
-            break;
-        used += (size_t)w;
-    }
-}
-
-/* kind and matrix into the options, the command's checks, the rest. */
-static int generate_options(const gen_opts *g, kw_pattern_options *o)
-{
-    if (!g->kind)
-        return kwpy_value_error("kind", "missing"), -1;
-    if (!g->matrix)
-        return kwpy_value_error("matrix", "missing (e.g. matrix=\"256x256\" or (256, 256))"), -1;
-    char buf[256];
-    size_t mat[3];
-    int nmat;
-    if (list_text(g->matrix, "matrix", buf, sizeof buf) < 0 ||
-        parse_sizes("matrix", buf, mat, 3, &nmat) < 0)
-        return -1;
-    kw_pattern_options_init(o);
-    int k = 0;
-    while (kw_pattern_kind_name((kw_pattern_kind)k) &&
-           strcmp(kw_pattern_kind_name((kw_pattern_kind)k), g->kind) != 0)
-        k++;
-    if (!kw_pattern_kind_name((kw_pattern_kind)k)) {
-        char kinds[256];
-        kind_list(kinds, sizeof kinds);
-        return kwpy_value_error("kind", "unknown kind '%s' (%s)", g->kind, kinds), -1;
-    }
-    o->kind = (kw_pattern_kind)k;
-    /* matrix NXxNY[xNZ] into C order */
-    o->ndim = nmat > 2 ? 3 : 2;
-    o->dims[o->ndim - 1] = mat[0];
-    o->dims[o->ndim - 2] = nmat > 1 ? mat[1] : mat[0];
-    if (nmat > 2)
-        o->dims[0] = mat[2];
-    const int grad = o->kind == KW_PATTERN_SPIRAL || o->kind == KW_PATTERN_EPI;
-    const int mask = kw_pattern_kind_is_mask(o->kind);
-    if (g->seen_seed && g->seed < 0)
-        return kwpy_value_error("seed", "must be >= 0"), -1;
-    if (g->seen_ros && !(o->kind == KW_PATTERN_RADIAL || o->kind == KW_PATTERN_GOLDEN ||
-                         o->kind == KW_PATTERN_STACK_OF_STARS))
-        return kwpy_value_error("readout-oversampling",
-                                "only for --kind radial, golden or stack-of-stars"), -1;
-    if (!grad) {
-        const char *hw = g->seen_fov ? "fov" : g->seen_gmax ? "gmax" : g->seen_slew ? "slew"
-                         : g->seen_raster ? "raster" : g->seen_interleaves ? "interleaves"
-                         : g->seen_shots ? "shots" : NULL;
-        if (hw)
-            return kwpy_value_error(hw, "only used by --kind spiral or epi"), -1;
-    }
-    if (!mask)
-        return traj_options(g, o);
-    if (g->seen_spokes || g->seen_tiny || g->seen_dwell || g->seen_te)
-        return kwpy_value_error(g->seen_spokes ? "spokes" : g->seen_tiny ? "tiny"
-                                : g->seen_dwell ? "dwell" : "te",
-                                "not used by the Cartesian --kind %s", g->kind), -1;
-    return cartesian_options(g, o, o->ndim == 3);
+    if (!rc && (st = kw_pattern_input_finish(in, &SPELLING, o)))
+        rc = (kwpy_raise(st, NULL), -1);
+    kw_pattern_input_destroy(in);
+    return rc;
 }
 
 /* ---- pattern(): the results -------------------------------------------------------------- */
@@ -347,48 +141,34 @@ static PyObject *pattern_result(const kw_pattern *p)
 static PyObject *py_pattern(PyObject *self, PyObject *args, PyObject *kwargs)
 {
     (void)self;
-    gen_opts g;
-    memset(&g, 0, sizeof g);
-    const kwpy_kw table[] = {
-        {"kind", KWPY_STR, &g.kind, KW_UNIT_NONE, NULL},
-        {"matrix", KWPY_OBJ, &g.matrix, KW_UNIT_NONE, NULL},
-        {"accel", KWPY_OBJ, &g.accel, KW_UNIT_NONE, &g.seen_accel},
-        {"acs", KWPY_OBJ, &g.acs, KW_UNIT_NONE, &g.seen_acs},
-        {"fraction", KWPY_UNIT, &g.fraction, KW_UNIT_NONE, &g.seen_fraction},
-        {"ellipse", KWPY_BOOL, &g.ellipse, KW_UNIT_NONE, NULL},
-        {"power", KWPY_UNIT, &g.power, KW_UNIT_NONE, &g.seen_power},
-        {"shift", KWPY_INT, &g.shift, KW_UNIT_NONE, &g.seen_shift},
-        {"spokes", KWPY_INT, &g.spokes, KW_UNIT_NONE, &g.seen_spokes},
-        {"tiny", KWPY_INT, &g.tiny, KW_UNIT_NONE, &g.seen_tiny},
-        {"readout-oversampling", KWPY_INT, &g.ros, KW_UNIT_NONE, &g.seen_ros},
-        {"dwell", KWPY_UNIT, &g.dwell, KW_UNIT_TIME, &g.seen_dwell},
-        {"fov", KWPY_UNIT, &g.fov, KW_UNIT_LENGTH, &g.seen_fov},
-        {"gmax", KWPY_UNIT, &g.gmax, KW_UNIT_GRADIENT, &g.seen_gmax},
-        {"slew", KWPY_UNIT, &g.slew, KW_UNIT_SLEW, &g.seen_slew},
-        {"raster", KWPY_UNIT, &g.raster, KW_UNIT_TIME, &g.seen_raster},
-        {"interleaves", KWPY_INT, &g.interleaves, KW_UNIT_NONE, &g.seen_interleaves},
-        {"shots", KWPY_INT, &g.shots, KW_UNIT_NONE, &g.seen_shots},
-        {"te", KWPY_UNIT, &g.te, KW_UNIT_TIME, &g.seen_te},
-        {"seed", KWPY_INT, &g.seed, KW_UNIT_NONE, &g.seen_seed},
-        {NULL, 0, NULL, 0, NULL}};
+    const kw_param_key *keys = kw_pattern_input_keys();
+    PyObject *vals[MAX_KEYS] = {0};
+    kwpy_kw table[MAX_KEYS + 1];
+    int n = 0;
+    for (; keys[n].name && n < MAX_KEYS; n++)
+        table[n] = (kwpy_kw){keys[n].name, KWPY_OBJ, &vals[n], KW_UNIT_NONE, NULL};
+    table[n] = (kwpy_kw){NULL, 0, NULL, 0, NULL};
     Py_ssize_t npos = PyTuple_GET_SIZE(args);
     if (npos > 1)
         return PyErr_Format(PyExc_TypeError, "pattern() takes one positional argument (kind), "
                                              "%zd given", npos);
     if (kwpy_parse_kwargs(kwargs, table, "pattern") < 0)
         return NULL;
+    PyObject *kobj = vals[0]; /* keys[0] is "kind" */
     if (npos == 1) {
-        if (g.kind)
+        if (kobj)
             return PyErr_Format(PyExc_TypeError, "pattern() got multiple values for 'kind'");
-        PyObject *k = PyTuple_GET_ITEM(args, 0);
-        if (!PyUnicode_Check(k))
+        kobj = PyTuple_GET_ITEM(args, 0);
+    }
+    const char *kind = NULL;
+    if (kobj) {
+        if (!PyUnicode_Check(kobj))
             return kwpy_value_error("kind", "must be a str");
-        g.kind = PyUnicode_AsUTF8(k);
-        if (!g.kind)
+        if (!(kind = PyUnicode_AsUTF8(kobj)))
             return NULL;
     }
     kw_pattern_options o;
-    if (generate_options(&g, &o) < 0)
+    if (pattern_options(kind, vals, &o) < 0)
         return NULL;
     const int grad = o.kind == KW_PATTERN_SPIRAL || o.kind == KW_PATTERN_EPI;
     kw_pattern *p = NULL;
@@ -398,7 +178,7 @@ static PyObject *py_pattern(PyObject *self, PyObject *args, PyObject *kwargs)
     Py_END_ALLOW_THREADS
     if (st)
         return pattern_fail(st, kw_pattern_kind_is_mask(o.kind) ? "pattern"
-                                : grad ? g.kind : "trajectory");
+                                : grad ? kind : "trajectory");
     PyObject *r = pattern_result(p);
     kw_pattern_destroy(p);
     return r;

@@ -16,6 +16,7 @@
 #include <numpy/arrayobject.h>
 
 #include "kw_base.h"
+#include "kw_params.h"
 #include "kw_units.h"
 
 /* ---- errors ---------------------------------------------------------------- */
@@ -86,6 +87,14 @@ int kwpy_parse_kwargs(PyObject *kwargs, const kwpy_kw *table, const char *call);
  * as is, int and float in full precision, a sequence joined by `sep`), in
  * buf. Returns 0, or -1 with InputError naming `name`. */
 int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, size_t n);
+
+/*! kwpy_param_text(): `v` as the text of the library's key `k`
+ * (kw_params.h) as the command line would carry it: a str as is; a flag's
+ * truth as "1"/"0"; an int as its digits; a float in its shortest exact
+ * form; a number of a quantity followed by its SI unit (an angle: degrees,
+ * no unit); a sequence joined by 'x' (sizes, numbers) or ',' (quantities).
+ * Returns 0, or -1 with InputError naming `name`. */
+int kwpy_param_text(PyObject *v, const kw_param_key *k, const char *name, char *buf, size_t n);
 
 /* ---- JSON ------------------------------------------------------------------ */
 

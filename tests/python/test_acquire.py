@@ -198,6 +198,9 @@ def test_array_errors_as_command(cli):
 
 def test_missing_and_unknown_keywords():
     with pytest.raises(kweave.InputError, match="snr: must be a positive number"):
+        kweave.acquire(**BASE, snr=-1.5)
+    # as the command's --snr nan (kw_acquisition_input reads both)
+    with pytest.raises(kweave.InputError, match="snr: 'nan' is not a number"):
         kweave.acquire(**BASE, snr=float("nan"))
     with pytest.raises(kweave.InputError, match="phantom: missing"):
         kweave.acquire(matrix=32, fov="256mm")
