@@ -107,7 +107,7 @@ const char *kw_acquisition_input_key_of(const char *field)
 kw_status kw_acquisition_input_create(kw_acquisition_input **in)
 {
     KW_FAIL_PARAM(!in, KW_EINVAL, "input", "NULL pointer for the result");
-    *in = calloc(1, sizeof **in);
+    *in = kw_alloc_n(1, sizeof **in);
     KW_FAIL_IF(!*in, KW_ENOMEM, "acquisition input: out of memory");
     return KW_OK;
 }
@@ -116,9 +116,9 @@ void kw_acquisition_input_destroy(kw_acquisition_input *in)
 {
     if (in) {
         kw_protocol_input_destroy(in->pin);
-        free(in->phantom);
+        kw_free(in->phantom);
     }
-    free(in);
+    kw_free(in);
 }
 
 /* ---- the texts ------------------------------------------------------------------- */
@@ -210,9 +210,9 @@ kw_status kw_acquisition_input_set(kw_acquisition_input *in, const char *key, co
     if (st || (st = parse_own(&v, k, text)))
         return st;
     if (k == A_PHANTOM) {
-        char *t = malloc(strlen(text) + 1);
+        char *t = kw_alloc_n(strlen(text) + 1, 1);
         KW_FAIL_IF(!t, KW_ENOMEM, "phantom: out of memory");
-        free(in->phantom);
+        kw_free(in->phantom);
         in->phantom = strcpy(t, text);
     }
     in->v = v;

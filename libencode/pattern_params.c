@@ -86,12 +86,12 @@ const char *kw_pattern_input_key_of(const char *field)
 kw_status kw_pattern_input_create(kw_pattern_input **in)
 {
     KW_FAIL_PARAM(!in, KW_EINVAL, "input", "NULL pointer for the result");
-    *in = calloc(1, sizeof **in);
+    *in = kw_alloc_n(1, sizeof **in);
     KW_FAIL_IF(!*in, KW_ENOMEM, "pattern input: out of memory");
     return KW_OK;
 }
 
-void kw_pattern_input_destroy(kw_pattern_input *in) { free(in); }
+void kw_pattern_input_destroy(kw_pattern_input *in) { kw_free(in); }
 
 /* ---- the texts ------------------------------------------------------------------- */
 
