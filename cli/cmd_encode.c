@@ -78,6 +78,7 @@ static const struct {
     {"coils", "coils"}, {"coil_radius_m", "coil-radius"}, {"coil_distance_m", "coil-distance"},
     {"coil_rings", "coil-rings"}, {"coil_ring_gap_m", "coil-ring-gap"},
     {"coil_order", "coil-order"}, {"coil_order_z", "coil-order-z"}, {"sens", "sens"},
+    {"coil_tolerance", "coil-tolerance"},
     {"snr", "snr"}, {"noise_corr", "noise-corr"}, {"noise_cov", "noise-cov"}, {"seed", "seed"},
     {"slices", "slices"}, {"slice_thickness_m", "slice-thickness"}, {"slice_gap_m", "slice-gap"},
     {"slice_points", "slice-points"}, {"mask", "pattern"}, {"traj", "trajectory"},
@@ -359,6 +360,7 @@ int kw_cmd_encode(int argc, char **argv)
     kw_acquisition_options_init(&dflt);
     a.b0 = dflt.b0_t;
     a.slice_points = dflt.slice_points;
+    double coil_tol = dflt.coil_tolerance;
     const kw_opt table[] = {
         {"phantom", KW_OPT_STRING, &a.phantom, 0, &a.s_ph,
          "shepp-logan | shepp-logan-modified | weave | weave3d (required)"},
@@ -396,6 +398,10 @@ int kw_cmd_encode(int argc, char **argv)
          "loop centre to the axis (default 0.75 FOV)"},
         {"coil-order", KW_OPT_INT, &a.coil_order, 0, &a.s_co,
          "order L of the trigonometric series of each sensitivity (0..8, default 4; 3-D: 3)"},
+        {"coil-tolerance", KW_OPT_DOUBLE, &coil_tol, 0, NULL,
+         "largest pointwise misfit of the fitted ring maps against the loops' field, a fraction "
+         "of the local value where a coil is >= 10% of its peak in the object; the series order "
+         "not given is raised to meet it (default 0.01 in 2-D; 3-D: none, orders 3 and 2; 0: no check)"},
         {"coil-order-z", KW_OPT_INT, &a.coil_order_z, 0, &a.s_coz,
          "3-D phantoms: the series' order along z (0..8, default 2)"},
         {"coil-rings", KW_OPT_INT, &a.coil_rings, 0, &a.s_crings,
@@ -455,6 +461,7 @@ int kw_cmd_encode(int argc, char **argv)
     if ((rc = args_grid(&a, &o)) >= 0 || (rc = check_combinations(&a)) >= 0)
         return rc;
     args_rest(&a, &o);
+    o.coil_tolerance = coil_tol;
     if (a.s_prot) {
         if ((rc = enc_protocol_read(&a, &f, o.sequence)) >= 0)
             return rc;
