@@ -243,9 +243,9 @@ static int acq_searching(const kw_acquisition *a)
 }
 
 /* Fit at the starting orders; while searching and the largest pointwise
- * misfit is above the tolerance, raise a free axis (3-D: the in-plane
- * order first while it is not above the z order + 1, then z) within 8 and
- * 1024 terms, and fit again. */
+ * misfit is above the tolerance, raise a free axis (3-D, both free: the one
+ * whose raise leaves the smaller misfit) within 8 and 1024 terms, and fit
+ * again. */
 static kw_status acq_fit_search(kw_acquisition *a, const double *ones, int search,
                                 const char *who)
 {
@@ -263,11 +263,21 @@ static kw_status acq_fit_search(kw_acquisition *a, const double *ones, int searc
             return KW_OK;
         const int up_l = free_l && L < 8 && series_terms(L + 1, Lz) <= 1024;
         const int up_z = free_z && Lz < 8 && series_terms(L, Lz + 1) <= 1024;
-        if (up_l && (!up_z || L <= Lz + 1))
+        if (up_l && up_z) {
+            /* both axes free: the one whose raise fits better (z tried
+             * first, kept only when the in-plane raise is worse) */
+            double wz = 0, wl = 0;
+            if ((st = acq_fit(a, ones, L, Lz + 1, &wz)) || (st = acq_fit(a, ones, L + 1, Lz, &wl)))
+                return kw_error_reparam(st, NULL, who);
+            if (wl <= wz)
+                L++;
+            else
+                Lz++;
+        } else if (up_l) {
             L++;
-        else if (up_z)
+        } else if (up_z) {
             Lz++;
-        else if (a->ndim == 3)
+        } else if (a->ndim == 3)
             return kw_set_error_param(KW_EINVAL, "coil_tolerance",
                                       "%g not met by any series up to 1024 terms: orders %d and "
                                       "%d (z) leave a pointwise misfit of %.3g",
