@@ -266,6 +266,10 @@ int kw_cmd_encode(int argc, char **argv)
          "loop centre to the axis (default 0.75 FOV)"},
         {"coil-order", KW_OPT_STRING, &a.coil_order, 0, &a.s_co,
          "order L of the trigonometric series of each sensitivity (0..8, default 4; 3-D: 3)"},
+        {"coil-tolerance", KW_OPT_STRING, &a.coil_tolerance, 0, &a.s_ctol,
+         "largest pointwise misfit of the fitted ring maps against the loops' field, a fraction "
+         "of the local value where a coil is >= 10% of its peak in the object; the series order "
+         "not given is raised to meet it (default 0.01 in 2-D; 3-D: none, orders 3 and 2; 0: no check)"},
         {"coil-order-z", KW_OPT_STRING, &a.coil_order_z, 0, &a.s_coz,
          "3-D phantoms: the series' order along z (0..8, default 2)"},
         {"coil-rings", KW_OPT_STRING, &a.coil_rings, 0, &a.s_crings,

@@ -18,12 +18,12 @@ typedef struct enc_args {
     const char *sidecar; /* --sidecar: where the sidecar goes (needed with --out -) */
     /* the texts of the other options, read by kw_acquisition_input */
     const char *snr, *te, *tr, *ti, *flip, *b0, *df, *coil_radius, *coil_distance, *noise_corr;
-    const char *slice_thk, *slice_gap, *coil_ring_gap;
+    const char *slice_thk, *slice_gap, *coil_ring_gap, *coil_tolerance;
     const char *seed, *coils, *coil_order, *coil_order_z, *coil_rings, *slices, *slice_points;
     int s_snr, s_seed, s_ph, s_mx, s_fov, s_out, s_truth, s_seq, s_te, s_tr, s_ti, s_flip,
         s_b0, s_bw, s_df, s_coils, s_cr, s_cd, s_co, s_sens, s_sout, s_pat, s_traj, s_times,
         s_ncorr, s_ncov, s_fmap, s_sl, s_slt, s_slg, s_slp, s_prot, s_fgrad, s_coz, s_crings,
-        s_crgap, s_tissue, s_sidecar;
+        s_crgap, s_tissue, s_sidecar, s_ctol;
 } enc_args;
 
 /* The arrays read from the files the arguments name, in the forms the

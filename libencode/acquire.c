@@ -23,6 +23,7 @@ void kw_acquisition_options_init(kw_acquisition_options *o)
     o->coil_order = -1;
     o->coil_order_z = -1;
     o->slice_points = 8;
+    o->coil_tolerance = -1;
 }
 
 /* Mean |truth| over the object: pixels at >= 10% of the maximum. */

@@ -22,6 +22,9 @@ static kw_status acq_coil_checks(kw_acquisition *a)
     KW_FAIL_PARAM(o->coil_distance_m != 0 && !o->coils, KW_EINVAL, "coil_distance_m",
                   "only with a ring of loops");
     KW_FAIL_PARAM(o->coil_order < -1 || o->coil_order > 8, KW_EINVAL, "coil_order", "must be 0..8");
+    KW_FAIL_PARAM(o->coil_tolerance != -1 && (!(o->coil_tolerance >= 0) || !(o->coil_tolerance < 1)),
+                  KW_EINVAL, "coil_tolerance",
+                  "must lie in [0, 1) (a fraction of the local magnitude)");
     KW_FAIL_PARAM(o->coil_order_z >= 0 && a->ndim != 3, KW_EINVAL, "coil_order_z",
                   a->nsl ? "not with slices (each slice has its own 2-D series)"
                          : "only for 3-D phantoms");
@@ -123,19 +126,39 @@ static kw_status acq_alloc_maps(kw_acquisition *a, int mnd, size_t *md, size_t m
     return KW_OK;
 }
 
-/* Fit each coil's maps by the series over the object's support; multi-slice
- * rings: each slice's maps over its own cut, the residual per coil the
- * worst over the slices. */
-static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
+/* Terms of one coil's series of orders (L, Lz). */
+static int series_terms(int L, int Lz)
+{
+    return (2 * L + 1) * (2 * L + 1) * (2 * Lz + 1);
+}
+
+/* The largest pointwise misfit of each coil's series (coef, orders L, Lz)
+ * against its maps (coil c at maps + c x stride, grid gd) over the object
+ * a->cover, into err[c] where larger (kw_coil_fit_error, floor 10%). */
+static kw_status fit_errors(kw_acquisition *a, const kw_cfloat *maps, size_t stride,
+                            const kw_cdouble *coef, int L, int Lz, const size_t *gd,
+                            kw_cfloat *scratch, double *err)
+{
+    const int nterm = series_terms(L, Lz);
+    for (int c = 0; c < a->ncoils; c++) {
+        double e = 0;
+        kw_status st = kw_coil_series_grid(coef + (size_t)c * nterm, L, Lz, KW_ACQ_COIL_PERIOD, gd,
+                                           scratch);
+        if (!st)
+            st = kw_coil_fit_error(maps + (size_t)c * stride, scratch, gd, a->cover, 0.1, &e);
+        if (st)
+            return st;
+        err[c] = e > err[c] ? e : err[c];
+    }
+    return KW_OK;
+}
+
+/* acq_fit for multi-slice rings: slice by slice, over its own cut. */
+static kw_status acq_fit_slices(kw_acquisition *a, const double *ones, int L, kw_cfloat *scratch)
 {
     const size_t *n = a->n;
-    const int L = a->coil_order, Lz = a->coil_order_z, ncoils = a->ncoils;
-    if (a->ndim == 3)
-        return kw_coil_fit3(a->maps, ncoils, a->cd, a->cover, L, Lz,
-                            KW_ACQ_COIL_PERIOD, a->coef, a->resid);
-    if (!a->per_slice)
-        return kw_coil_fit(a->maps, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD, a->coef,
-                           a->resid);
+    const int ncoils = a->ncoils, nterm = series_terms(L, 0);
+    const size_t plane_dims[3] = {1, n[1], n[0]};
     size_t pl = n[0] * n[1];
     double *rs = kw_alloc_n((size_t)ncoils, sizeof *rs);
     kw_cfloat *plane = kw_alloc_n((size_t)ncoils * pl, sizeof *plane);
@@ -150,9 +173,12 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
         for (int c = 0; !st && c < ncoils; c++)
             memcpy(plane + (size_t)c * pl, a->maps + ((size_t)c * a->nsl + sl) * pl,
                    pl * sizeof *plane);
+        const kw_cdouble *coef = a->coef + (size_t)sl * ncoils * nterm;
         if (!st)
             st = kw_coil_fit(plane, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD,
                              a->coef + (size_t)sl * ncoils * nterm, rs);
+        if (!st)
+            st = fit_errors(a, plane, pl, coef, L, 0, plane_dims, scratch, a->resid + ncoils);
         for (int c = 0; !st && c < ncoils; c++)
             a->resid[c] = rs[c] > a->resid[c] ? rs[c] : a->resid[c];
     }
@@ -162,6 +188,105 @@ static kw_status acq_fit(kw_acquisition *a, const double *ones, int nterm)
     kw_free(rs);
     kw_free(plane);
     return st;
+}
+
+/* Fit each coil's maps by the series of orders (L, Lz) over the object's
+ * support; multi-slice rings: each slice's maps over its own cut, the
+ * residual and the largest pointwise misfit per coil the worst over the
+ * slices. a->resid: the RMS residuals, then (a->resid + ncoils) the
+ * misfits; *worst: the largest misfit of any coil. */
+static kw_status acq_fit(kw_acquisition *a, const double *ones, int L, int Lz, double *worst)
+{
+    const size_t *n = a->n;
+    const int ncoils = a->ncoils;
+    const size_t pl = n[0] * n[1], plane_dims[3] = {1, n[1], n[0]};
+    const size_t nvox = a->ndim == 3 ? pl * n[2] : pl;
+    double *maxerr = a->resid + ncoils;
+    kw_cfloat *scratch = kw_alloc(nvox * sizeof *scratch);
+    KW_FAIL_PARAM(!scratch, KW_ENOMEM, "coils", "out of memory");
+    for (int c = 0; c < ncoils; c++)
+        maxerr[c] = 0;
+    kw_status st;
+    if (a->ndim == 3) {
+        st = kw_coil_fit3(a->maps, ncoils, a->cd, a->cover, L, Lz, KW_ACQ_COIL_PERIOD, a->coef,
+                          a->resid);
+        if (!st)
+            st = fit_errors(a, a->maps, nvox, a->coef, L, Lz, a->cd, scratch, maxerr);
+    } else if (!a->per_slice) {
+        st = kw_coil_fit(a->maps, ncoils, a->cd + 1, a->cover, L, KW_ACQ_COIL_PERIOD, a->coef,
+                         a->resid);
+        if (!st)
+            st = fit_errors(a, a->maps, pl, a->coef, L, 0, plane_dims, scratch, maxerr);
+    } else {
+        st = acq_fit_slices(a, ones, L, scratch);
+    }
+    kw_free(scratch);
+    *worst = 0;
+    for (int c = 0; !st && c < ncoils; c++)
+        *worst = maxerr[c] > *worst ? maxerr[c] : *worst;
+    return st;
+}
+
+/* The series order is searched for: a ring of loops, a tolerance, and an
+ * order left to the library on at least one axis. */
+static double acq_tolerance(const kw_acquisition *a)
+{
+    const double t = a->o.coil_tolerance;
+    return t >= 0 ? t : a->ndim == 3 ? 0.0 : 0.01; /* the default: kw_acquire.h */
+}
+
+static int acq_searching(const kw_acquisition *a)
+{
+    const kw_acquisition_options *o = &a->o;
+    return o->coils && acq_tolerance(a) > 0 &&
+           (o->coil_order < 0 || (a->ndim == 3 && o->coil_order_z < 0));
+}
+
+/* Fit at the starting orders; while searching and the largest pointwise
+ * misfit is above the tolerance, raise a free axis (3-D, both free: the one
+ * whose raise leaves the smaller misfit) within 8 and 1024 terms, and fit
+ * again. */
+static kw_status acq_fit_search(kw_acquisition *a, const double *ones, int search,
+                                const char *who)
+{
+    const kw_acquisition_options *o = &a->o;
+    const int free_l = o->coil_order < 0, free_z = a->ndim == 3 && o->coil_order_z < 0;
+    int L = a->coil_order, Lz = a->coil_order_z;
+    for (;;) {
+        double worst = 0;
+        kw_status st = acq_fit(a, ones, L, Lz, &worst);
+        if (st)
+            return kw_error_reparam(st, NULL, who);
+        a->coil_order = L;
+        a->coil_order_z = Lz;
+        if (!search || worst <= acq_tolerance(a))
+            return KW_OK;
+        const int up_l = free_l && L < 8 && series_terms(L + 1, Lz) <= 1024;
+        const int up_z = free_z && Lz < 8 && series_terms(L, Lz + 1) <= 1024;
+        if (up_l && up_z) {
+            /* both axes free: the one whose raise fits better (z tried
+             * first, kept only when the in-plane raise is worse) */
+            double wz = 0, wl = 0;
+            if ((st = acq_fit(a, ones, L, Lz + 1, &wz)) || (st = acq_fit(a, ones, L + 1, Lz, &wl)))
+                return kw_error_reparam(st, NULL, who);
+            if (wl <= wz)
+                L++;
+            else
+                Lz++;
+        } else if (up_l) {
+            L++;
+        } else if (up_z) {
+            Lz++;
+        } else if (a->ndim == 3)
+            return kw_set_error_param(KW_EINVAL, "coil_tolerance",
+                                      "%g not met by any series up to 1024 terms: orders %d and "
+                                      "%d (z) leave a pointwise misfit of %.3g",
+                                      acq_tolerance(a), L, Lz, worst);
+        else
+            return kw_set_error_param(KW_EINVAL, "coil_tolerance",
+                                      "%g not met by any series order up to 8: order %d leaves "
+                                      "a pointwise misfit of %.3g", acq_tolerance(a), L, worst);
+    }
 }
 
 kw_status kw_acq_coils(kw_acquisition *a)
@@ -219,13 +344,16 @@ kw_status kw_acq_coils(kw_acquisition *a)
                           KW_ENUMERIC, "sens", "non-finite value at index %zu", i);
         memcpy(a->maps, o->sens, a->maps_count * sizeof *a->maps);
     }
-    const int L = a->coil_order, Lz = a->coil_order_z, sd = 2 * L + 1, sidez = 2 * Lz + 1;
-    const int nterm = sd * sd * sidez, nfit = a->per_slice ? a->nsl : 1;
-    a->coef = kw_alloc_n((size_t)nfit * a->ncoils * nterm, sizeof *a->coef);
-    a->resid = kw_alloc_n((size_t)a->ncoils, sizeof *a->resid);
+    const int search = acq_searching(a);
+    const int nfit = a->per_slice ? a->nsl : 1,
+              maxterm = search ? (a->ndim == 3 ? 1024 : series_terms(8, 0))
+                               : series_terms(a->coil_order, a->coil_order_z);
+    a->coef = kw_alloc_n((size_t)nfit * a->ncoils * maxterm, sizeof *a->coef);
+    a->resid = kw_alloc_n((size_t)a->ncoils * 2, sizeof *a->resid); /* RMS, then max misfit */
     KW_FAIL_PARAM(!a->coef || !a->resid, KW_ENOMEM, "coils", "out of memory");
-    if ((st = acq_fit(a, ones, nterm)))
-        return kw_error_reparam(st, NULL, who);
+    if ((st = acq_fit_search(a, ones, search, who)))
+        return st;
+    const int L = a->coil_order, Lz = a->coil_order_z, nterm = series_terms(L, Lz);
     /* The data are exact for the fitted series: the maps are those. */
     size_t planes = a->ndim == 3 ? n[2] : a->per_slice ? (size_t)a->nsl : 1;
     const size_t gd[3] = {a->per_slice ? 1 : planes, n[1], n[0]}; /* one grid, C order */
@@ -240,6 +368,8 @@ kw_status kw_acq_coils(kw_acquisition *a)
     in->coil_order_z = Lz;
     in->coil_period = KW_ACQ_COIL_PERIOD;
     in->fit_residual = a->resid;
+    in->fit_max_error = a->resid + a->ncoils;
+    in->coil_tolerance = search ? acq_tolerance(a) : 0;
     return KW_OK;
 }
 

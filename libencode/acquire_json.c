@@ -121,6 +121,9 @@ static void add_coils(cJSON *js, const kw_acquisition_info *in)
         cJSON_AddNumberToObject(co, "order_z", (double)in->coil_order_z);
     cJSON_AddNumberToObject(co, "series_period_fov", in->coil_period);
     kw_json_add_vec(co, "fit_residual", in->fit_residual, in->coils);
+    kw_json_add_vec(co, "fit_max_error", in->fit_max_error, in->coils);
+    kw_json_add_number_or_null(co, "fit_tolerance",
+                               in->coil_tolerance > 0 ? in->coil_tolerance : NAN);
 }
 
 static void add_grid(cJSON *js, const kw_acquisition_info *in)

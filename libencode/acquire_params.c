@@ -18,7 +18,7 @@ enum {
     A_PHANTOM, A_MATRIX, A_FOV, A_SNR, A_SEED, A_SEQUENCE, A_TE, A_TR, A_TI, A_FLIP, A_B0,
     A_BANDWIDTH, A_DF, A_COILS, A_CR, A_CD, A_CO, A_COZ, A_CRINGS, A_CRGAP, A_SENS, A_PATTERN,
     A_TRAJ, A_TIMES, A_NCORR, A_NCOV, A_FMAP, A_FGRAD, A_TISSUE, A_SLICES, A_SLT, A_SLG, A_SLP,
-    A_COUNT
+    A_CTOL, A_COUNT
 };
 
 #define Q(unit) KW_PARAM_QUANTITY, KW_UNIT_##unit
@@ -62,6 +62,9 @@ static const kw_param_key keys[A_COUNT + 1] = {
     {"slice-thickness", Q(LENGTH), "slice thickness (required with slices)"},
     {"slice-gap", Q(LENGTH), "gap between slices (default 0)"},
     {"slice-points", KW_PARAM_WHOLE, KW_UNIT_NONE, "points across each slice, 1..32 (default 8)"},
+    {"coil-tolerance", KW_PARAM_NUMBER, KW_UNIT_NONE, "largest pointwise misfit of the fitted "
+     "ring maps, a fraction of the local value, 0 <= t < 1 (default 0.01 in 2-D, none in 3-D; "
+     "0: no check)"},
     {NULL, 0, KW_UNIT_NONE, NULL}};
 #undef Q
 
@@ -76,7 +79,8 @@ static const char *const field_keys[] = {
     "coil_order_z", "coil-order-z", "sens", "sens", "snr", "snr", "noise_corr", "noise-corr",
     "noise_cov", "noise-cov", "seed", "seed", "slices", "slices", "slice_thickness_m",
     "slice-thickness", "slice_gap_m", "slice-gap", "slice_points", "slice-points",
-    "mask", "pattern", "traj", "trajectory", "times", "times", NULL};
+    "mask", "pattern", "traj", "trajectory", "times", "times", "coil_tolerance", "coil-tolerance",
+    NULL};
 
 typedef struct ain_vals {
     size_t mat[3];
@@ -394,10 +398,11 @@ static void fill(const kw_acquisition_input *in, kw_acquisition_options *o)
             o->field_gradient_t_per_m[2 - d] = v->grad[d]; /* GX,GY[,GZ] -> (z, y, x) */
     }
     static const int dbl[] = {A_SNR, A_TE, A_TR, A_TI, A_FLIP, A_B0, A_DF, A_CR, A_CD, A_CRGAP,
-                              A_NCORR};
+                              A_NCORR, A_CTOL};
     double *dd[] = {&o->snr, &o->te_s, &o->tr_s, &o->ti_s, &o->flip_rad, &o->b0_t, &o->df_hz,
-                    &o->coil_radius_m, &o->coil_distance_m, &o->coil_ring_gap_m, &o->noise_corr};
-    for (int i = 0; i < 11; i++)
+                    &o->coil_radius_m, &o->coil_distance_m, &o->coil_ring_gap_m, &o->noise_corr,
+                    &o->coil_tolerance};
+    for (int i = 0; i < 12; i++)
         if (s[dbl[i]])
             *dd[i] = v->num[dbl[i]];
     static const int ints[] = {A_COILS, A_CO, A_COZ, A_CRINGS};

@@ -379,3 +379,30 @@ done:
     kw_free(fit);
     return st;
 }
+
+kw_status kw_coil_fit_error(const float complex *map, const float complex *fit, const size_t *dims,
+                            const float *weight, double floor, double *max_err)
+{
+    KW_FAIL_IF(!map || !fit || !dims || !max_err, KW_EINVAL, "coil fit error: NULL argument");
+    KW_FAIL_IF(!(floor >= 0 && floor < 1), KW_EINVAL, "coil fit error: floor %g outside [0, 1)",
+               floor);
+    const size_t nv = dims[0] * dims[1] * dims[2];
+    double peak = 0;
+    for (size_t v = 0; v < nv; v++)
+        if (!weight || weight[v] != 0) {
+            double m = cabs((double complex)map[v]);
+            peak = m > peak ? m : peak;
+        }
+    double worst = 0;
+    for (size_t v = 0; v < nv; v++) {
+        if (weight && weight[v] == 0)
+            continue;
+        double m = cabs((double complex)map[v]);
+        if (m <= 0 || m < floor * peak)
+            continue;
+        double e = cabs((double complex)fit[v] - (double complex)map[v]) / m;
+        worst = e > worst ? e : worst;
+    }
+    *max_err = worst;
+    return KW_OK;
+}

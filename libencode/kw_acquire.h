@@ -120,6 +120,22 @@ typedef struct kw_acquisition_options {
 
     size_t max_bytes;        /* working-set limit (0: none): create fails
                               * with KW_ENOMEM naming "max_bytes" above it */
+
+    /* ---- added later (growable: new fields at the end) ---- */
+    /* Coil maps of a ring of loops: the largest pointwise misfit allowed
+     * between the fitted series and the loops' field, relative to the local
+     * magnitude, over the object (the pixels a shape covers) where the coil
+     * is at least 10% of its peak there (kw_coil_fit_error()). The series
+     * order left at its default (coil_order, coil_order_z -1) is raised
+     * from 4 (3-D: 3 and 2 along z) until the fit meets it, up to 8 (3-D:
+     * within 1024 terms); KW_EINVAL naming "coil_tolerance" where none does.
+     * -1 (default): 0.01 for 2-D maps (single or multi-slice); for 3-D maps
+     * none (orders 3 and 2: a misfit of about 6%; 1% needs orders 5 and 3,
+     * 3.5 times the terms and the encoding time). 0: no check (the default
+     * orders). An order given is kept as given (the misfit is reported, not
+     * checked); the caller's maps are fitted at the order as set, their
+     * misfit reported likewise. */
+    double coil_tolerance;
 } kw_acquisition_options;
 
 /*! kw_acquisition_options_init(): the defaults of `kweave encode` (no
@@ -205,6 +221,11 @@ typedef struct kw_acquisition_info {
     /* added later (growable: new fields at the end) */
     double snr;              /* options.snr (0: not given) */
     int tissue_values_given; /* options.tissue_values was given */
+    const double *fit_max_error; /* per coil: largest pointwise misfit of the
+                              * series relative to the map's magnitude, over
+                              * the object where the coil is >= 10% of its
+                              * peak there (multi-slice: the worst slice) */
+    double coil_tolerance;   /* what the order was chosen to meet (0: none) */
 } kw_acquisition_info;
 
 /*! kw_acquisition_create(): check the options (copied with

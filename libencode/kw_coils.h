@@ -113,6 +113,16 @@ KW_API kw_status kw_coil_fit(const kw_cfloat *maps, int ncoils, const size_t *di
 KW_API kw_status kw_coil_series_grid(const kw_cdouble *coef, int order, int order_z, double period,
                               const size_t *dims, kw_cfloat *out);
 
+/*! kw_coil_fit_error(): the largest pointwise misfit of one coil's fitted
+ * series `fit` against its map `map` (both on the voxel grid dims = (nz,
+ * ny, nx), C order), relative to the map's local magnitude:
+ *   max |fit - map| / |map|
+ * over the voxels where weight != 0 (NULL: all) and |map| >= floor x the
+ * largest |map| among those voxels (floor in [0, 1); 0.1 for the
+ * acquisition's tolerance). *max_err = 0 where no voxel qualifies. */
+KW_API kw_status kw_coil_fit_error(const kw_cfloat *map, const kw_cfloat *fit, const size_t *dims,
+                                   const float *weight, double floor, double *max_err);
+
 #ifdef __cplusplus
 }
 #endif

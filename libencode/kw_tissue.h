@@ -10,8 +10,10 @@
  *  - CSF and fat, proton densities and T2*: representative literature values
  *    recalled from memory (marked so in tissue.c); not from one table.
  * Signal equations: spoiled gradient echo (Ernst 1966 steady state), spin
- * echo and inversion recovery (textbook forms, e.g. Haacke et al. 1999,
- * "Magnetic Resonance Imaging: Physical Principles and Sequence Design").
+ * echo and inversion recovery with the refocusing pulse (Bernstein, King &
+ * Zhou 2004, "Handbook of MRI Pulse Sequences"; the short forms in Haacke
+ * et al. 1999, "Magnetic Resonance Imaging: Physical Principles and
+ * Sequence Design", are their TE << TR limits).
  */
 #ifndef KW_TISSUE_H
 #define KW_TISSUE_H
@@ -86,8 +88,13 @@ KW_API kw_status kw_tissue_lookup(int id, double b0_t, const kw_tissue_values *g
  * equation without the echo-time decay:
  *   PD:  pd
  *   GRE: pd sin(a) (1 - E1) / (1 - cos(a) E1),  E1 = exp(-TR/T1)   (Ernst)
- *   SE:  pd (1 - exp(-TR/T1))                     (TE << TR form)
- *   IR:  pd |1 - 2 exp(-TI/T1) + exp(-TR/T1)|     (TE << TR form)
+ *   SE:  pd (1 - 2 exp(-(TR - TE/2)/T1) + exp(-TR/T1))
+ *   IR:  pd (1 - 2 exp(-TI/T1) + 2 exp(-(TR - TE/2)/T1) - exp(-TR/T1))
+ * the full forms with the refocusing pulse at TE/2 after the 90 (Bernstein,
+ * King & Zhou, "Handbook of MRI Pulse Sequences", 2004; derived in
+ * tissue.c); TR runs from excitation (SE) or inversion (IR) to the next,
+ * the transverse magnetisation is spoiled before each. With TE << TR they
+ * reduce to pd (1 - exp(-TR/T1)) and pd (1 - 2 exp(-TI/T1) + exp(-TR/T1)).
  * IR returns the signed value (negative before the null) so that a
  * phase-sensitive reconstruction shows it; magnitude images take |.|. */
 KW_API double kw_signal_steady(const kw_contrast *c, double pd, double t1);

@@ -89,9 +89,23 @@ double kw_signal_steady(const kw_contrast *c, double pd, double t1)
         return pd * sin(c->flip_rad) * (1 - e1) / (1 - cos(c->flip_rad) * e1);
     }
     case KW_CONTRAST_SE:
-        return pd * (1 - exp(-c->tr_s / t1));
-    case KW_CONTRAST_IR:
-        return pd * (1 - 2 * exp(-c->ti_s / t1) + exp(-c->tr_s / t1));
+        /* 90 at 0, 180 at TE/2, next 90 at TR, the transverse magnetisation
+         * spoiled before each 90 (Bernstein, King & Zhou, Handbook of MRI
+         * Pulse Sequences, 2004). Mz recovers from 0 to 1 - E(TE/2), the 180
+         * inverts it, and it recovers over TR - TE/2:
+         * Mz(TR) = 1 - (2 - e^(-TE/2T1)) e^(-(TR - TE/2)/T1)
+         *        = 1 - 2 e^(-(TR - TE/2)/T1) + e^(-TR/T1). */
+        return pd * (1 - 2 * exp(-(c->tr_s - 0.5 * c->te_s) / t1) + exp(-c->tr_s / t1));
+    case KW_CONTRAST_IR: {
+        /* 180 at 0, 90 at TI, 180 at TI + TE/2, next inversion at TR (the
+         * same handbook): with m = Mz(TR) before each inversion, Mz(TI) =
+         * 1 - (1 + m) e^(-TI/T1), and m = 1 - 2 e^(-(TR - TI - TE/2)/T1)
+         * + e^(-(TR - TI)/T1) as for the spin echo above (the recovery from
+         * the 90 at TI), so
+         * Mz(TI) = 1 - 2 e^(-TI/T1) + 2 e^(-(TR - TE/2)/T1) - e^(-TR/T1). */
+        double e_half = exp(-(c->tr_s - 0.5 * c->te_s) / t1);
+        return pd * (1 - 2 * exp(-c->ti_s / t1) + 2 * e_half - exp(-c->tr_s / t1));
+    }
     case KW_CONTRAST_PD:
     default:
         return pd;

@@ -29,14 +29,16 @@ Test(signal, ernst_angle_and_peak)
     cr_expect(fabs(kw_signal_steady(&c, 1.0, 1.0) - 0.095162582) < 1e-9);
 }
 
-/* Spin echo, TE << TR form: pd (1 - exp(-TR/T1)) exp(-TE/T2). T1 = 1 s,
- * TR = 2 s, T2 = TE = 0.1 s: (1 - e^-2) e^-1 = 0.864665 x 0.367879 =
- * 0.318092. */
+/* Spin echo with the refocusing pulse (Bernstein, King & Zhou, Handbook of
+ * MRI Pulse Sequences, 2004): pd (1 - 2 exp(-(TR - TE/2)/T1) + exp(-TR/T1))
+ * exp(-TE/T2). T1 = 1 s, TR = 2 s, T2 = TE = 0.1 s: e^-1.95 = 0.1422741,
+ * e^-2 = 0.1353353, 1 - 0.2845481 + 0.1353353 = 0.8507871; x e^-1
+ * (0.3678794) = 0.3129871 (the TE << TR form gave 0.3180924). */
 Test(signal, spin_echo)
 {
     kw_contrast c = {KW_CONTRAST_SE, 3.0, 0.1, 2.0, 0, 0};
     double s = kw_signal_steady(&c, 1.0, 1.0) * kw_signal_decay(&c, 0.1, 0.05, 0.1);
-    cr_expect(fabs(s - 0.3180924) < 1e-6, "SE %g", s);
+    cr_expect(fabs(s - 0.3129871) < 1e-6, "SE %g", s);
     /* away from the echo the reversible part decays with 1/T2' = 1/T2* - 1/T2:
      * at t = TE + 10 ms, T2* = 50 ms, T2 = 100 ms: exp(-0.11/0.1) exp(-0.01 x 10)
      * = 0.332871 x 0.904837 = 0.301194 */
@@ -44,16 +46,32 @@ Test(signal, spin_echo)
     cr_expect(fabs(kw_signal_phase_time(&c, 0.11) - 0.01) < 1e-15);
 }
 
-/* Inversion recovery: pd (1 - 2 exp(-TI/T1) + exp(-TR/T1)). With TR >> T1
- * the null is at TI = T1 ln 2 (1 - 2 x 1/2 = 0); at TI = 0 the magnetisation
- * is inverted: -1 + exp(-TR/T1) = -1 + e^-2 = -0.864665 (T1 = 1 s, TR = 2 s). */
+/* The case of issue 19: CSF at 1.5 T (T1 = 4.0 s, kweave's table), TR
+ * 2500 ms, TE 90 ms. Full form (Bernstein et al. 2004): e^-(2.455/4) =
+ * 0.5413171, e^-(2.5/4) = 0.5352614, 1 - 1.0826342 + 0.5352614 = 0.4526272;
+ * the TE << TR form 1 - 0.5352614 = 0.4647386 is 2.6% above it. */
+Test(signal, spin_echo_csf_full_form)
+{
+    kw_contrast c = {KW_CONTRAST_SE, 1.5, 0.09, 2.5, 0, 0};
+    double t1, t2, t2s;
+    cr_assert_eq(kw_tissue_relax(KW_TISSUE_CSF, 1.5, &t1, &t2, &t2s), KW_OK);
+    double s = kw_signal_steady(&c, 1.0, t1);
+    cr_expect(fabs(s - 0.4526272) < 1e-6, "SE CSF %g", s);
+    cr_expect(fabs(0.4647386 / s - 1 - 0.02676) < 1e-4, "short form off by %g", 0.4647386 / s - 1);
+}
+
+/* Inversion recovery with a spin-echo readout (the same handbook; derived in
+ * tissue.c): pd (1 - 2 exp(-TI/T1) + 2 exp(-(TR - TE/2)/T1) - exp(-TR/T1)).
+ * With TR >> T1 the null is at TI = T1 ln 2 (1 - 2 x 1/2 = 0); at TI = 0
+ * (T1 = 1 s, TR = 2 s, TE = 10 ms): -1 + 2 e^-1.995 - e^-2 = -1 + 0.2720273
+ * - 0.1353353 = -0.8633080. */
 Test(signal, inversion_recovery)
 {
     kw_contrast c = {KW_CONTRAST_IR, 3.0, 0.01, 100.0, log(2.0), 0};
     cr_expect(fabs(kw_signal_steady(&c, 1.0, 1.0)) < 1e-12);
     c.tr_s = 2.0;
     c.ti_s = 0.0;
-    cr_expect(fabs(kw_signal_steady(&c, 1.0, 1.0) + 0.8646647) < 1e-6);
+    cr_expect(fabs(kw_signal_steady(&c, 1.0, 1.0) + 0.8633080) < 1e-6);
 }
 
 /* Gradient echo decays with T2* from the excitation: exp(-t/T2*);
