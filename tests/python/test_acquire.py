@@ -290,3 +290,19 @@ def test_memory_flat_and_refcounts(one_thread):
         kweave.acquire(phantom="shepp-logan", matrix=16, fov="256mm", trajectory=traj)
     gc.collect()
     assert (sys.getrefcount(mask), sys.getrefcount(traj)) == refs
+
+
+def test_coil_tolerance_keyword_is_the_commands(cli):
+    """Issue 19: coil_tolerance= is encode's --coil-tolerance (the library's
+    acquisition input): the same sidecar, and the same refusal."""
+    cli.run("encode", "--phantom", "weave", "--matrix", "64", "--fov", "240mm", "--coils", "4",
+            "--coil-tolerance", "0.02", "--out", "k.npy")
+    cli.sync()
+    a = kweave.acquire(phantom="weave", matrix=64, fov="240mm", coils=4, coil_tolerance=0.02)
+    want = cli.json("k.json")["coil_model"]
+    assert a.info["coil_model"]["fit_tolerance"] == want["fit_tolerance"] == 0.02
+    assert a.info["coil_model"]["fit_max_error"] == want["fit_max_error"]
+    assert max(want["fit_max_error"]) <= 0.02
+    with pytest.raises(kweave.InputError, match="not met by any series order") as e:
+        kweave.acquire(phantom="weave", matrix=64, fov="240mm", coils=4, coil_tolerance=1e-9)
+    assert e.value.param == "coil_tolerance"
