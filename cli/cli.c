@@ -11,6 +11,7 @@
 #include <unistd.h>
 
 #include "npy.h"
+#include "kw_params.h"
 
 int kw_cli_quiet;
 
@@ -206,6 +207,32 @@ static const char *unit_word(kw_unit_kind u)
 static const kw_opt_arg *next_args, *help_args; /* set for, used by one parse */
 
 void kw_opts_set_args(const kw_opt_arg *list) { next_args = list; }
+
+static const char *unit_word(kw_unit_kind u);
+
+void kw_opts_set_args_from_keys(const kw_param_key *keys, const kw_opt_arg *extra)
+{
+    static kw_opt_arg buf[128];
+    size_t n = 0;
+    for (; extra && extra->name && n + 1 < sizeof buf / sizeof buf[0]; extra++)
+        buf[n++] = *extra;
+    for (; keys && keys->name && n + 1 < sizeof buf / sizeof buf[0]; keys++) {
+        const char *w = NULL;
+        switch (keys->type) {
+        case KW_PARAM_WHOLE: w = "N"; break;
+        case KW_PARAM_NUMBER: w = "X"; break;
+        case KW_PARAM_QUANTITY:
+        case KW_PARAM_QUANTITIES: w = unit_word(keys->unit); break;
+        case KW_PARAM_BANDWIDTH: w = "BANDWIDTH"; break;
+        case KW_PARAM_ARRAY: w = "FILE"; break;
+        default: break; /* names, sizes, number lists: the option's name */
+        }
+        if (w)
+            buf[n++] = (kw_opt_arg){keys->name, w};
+    }
+    buf[n] = (kw_opt_arg){NULL, NULL};
+    next_args = buf;
+}
 
 static int help_names(const char *help, const char *const *words)
 {

@@ -76,6 +76,12 @@ typedef struct kw_opt_arg {
 } kw_opt_arg;
 void kw_opts_set_args(const kw_opt_arg *list);
 
+/*! kw_opts_set_args_from_keys(): the same from a library input's keys (their
+ * types and units: N, X, LENGTH, ..., FILE for arrays), then `extra`
+ * (may be NULL) for the verb's own options. */
+struct kw_param_key;
+void kw_opts_set_args_from_keys(const struct kw_param_key *keys, const kw_opt_arg *extra);
+
 /*! kw_opts_parse(): parse argv[1..] ("--name value" or "--name=value").
  * Returns -1 when all went well, otherwise the exit code to return (0 after
  * --help printed `usage` and the table, 2 after an error line). Positional

@@ -15,6 +15,8 @@
 #include "jsonio.h"
 #include "npy.h"
 #include "outfile.h"
+#include "arrayio.h"
+#include "h5.h"
 
 #define MAX_EDGE 8192
 
@@ -82,13 +84,36 @@ static int check_outputs(const enc_args *a)
                                   "cannot go beside it)");
     if (a->s_sidecar && strcmp(a->sidecar, "-") == 0)
         return kw_cli_fail("sidecar", "needs a file name");
+    if (kw_array_is_hdf5(a->out)) {
+        char *file;
+        const char *dset;
+        kw_status st = kw_array_h5_target(a->out, "/kspace", &file, &dset);
+        free(file);
+        if (st)
+            return kw_cli_status(st, "out");
+    }
     if (a->s_sout && !a->s_coils && !a->s_sens)
         return kw_cli_fail("sens-out", "needs --coils or --sens");
     return -1;
 }
 
-/* The outputs: truth, maps, the noise covariance, k-space, then the sidecar
- * (a failed sidecar removes the k-space). */
+/* k-space as .npy, or as a dataset of an HDF5 file (FILE.h5[:/dataset],
+ * default /kspace) with the sidecar's keys as its attributes. */
+static kw_status write_kspace(const char *out, const kw_array *ks, cJSON *js)
+{
+    if (!kw_array_is_hdf5(out))
+        return kw_npy_write(out, ks);
+    char *file;
+    const char *dset;
+    kw_status st = kw_array_h5_target(out, "/kspace", &file, &dset);
+    if (st)
+        return st;
+    st = kw_h5_write(file, dset, ks, kw_h5w_attrs_json, js);
+    free(file);
+    return st;
+}
+
+/* The outputs: truth, maps, the noise covariance, k-space, then the sidecar. */
 static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisition_info *in,
                          const kw_array *ks, const kw_array *truth, const kw_array *maps)
 {
@@ -138,14 +163,14 @@ static int write_outputs(const enc_args *a, const enc_files *f, const kw_acquisi
         ret = kw_cli_status(st, "sidecar");
         goto done;
     }
-    if ((st = kw_npy_write(a->out, ks))) {
+    if ((st = write_kspace(a->out, ks, js))) {
         if (to_stdout)
-            remove(side);
+            remove(side); /* landed above for the reader; the stream failed */
         ret = kw_cli_status(st, "out");
         goto done;
     }
+    /* (a failure from here on leaves nothing: the run's files land together) */
     if (!to_stdout && (st = kw_json_write(side, js))) {
-        remove(a->out);
         ret = kw_cli_status(st, "out");
         goto done;
     }
@@ -235,7 +260,7 @@ int kw_cmd_encode(int argc, char **argv)
         {"matrix", KW_OPT_STRING, &a.matrix, 0, &a.s_mx, "NX[xNY[xNZ]] samples (e.g. 256x256; required, or from --protocol)"},
         {"fov", KW_OPT_STRING, &a.fov, 0, &a.s_fov, "field of view L[,LY[,LZ]] (e.g. 256mm; required, or from --protocol)"},
         {"out", KW_OPT_STRING, &a.out, 0, &a.s_out,
-         "k-space .npy (complex64; - for stdout); sidecar .json beside it (required)"},
+         "k-space .npy (complex64; - for stdout) or FILE.h5[:/dataset] (HDF5, default dataset /kspace, the sidecar's keys as attributes); sidecar .json beside it (required)"},
         {"sidecar", KW_OPT_STRING, &a.sidecar, 0, &a.s_sidecar,
          "sidecar .json (default: beside --out; needed with --out -)"},
         {"truth", KW_OPT_STRING, &a.truth, 0, &a.s_truth,
@@ -309,18 +334,31 @@ int kw_cmd_encode(int argc, char **argv)
         {"slice-points", KW_OPT_STRING, &a.slice_points, 0, &a.s_slp,
          "Gauss-Legendre points across each slice (1..32, default 8)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
+    static const kw_opt_arg extra[] = {{"tissue", "FILE"}, {NULL, NULL}};
+    kw_opts_set_args_from_keys(kw_acquisition_input_keys(), extra);
     int rc = kw_opts_parse(argc, argv, table, usage, NULL, 0, NULL);
     if (rc >= 0)
         return rc;
     if (a.s_tissue && strcmp(a.tissue, "list") == 0)
         return enc_tissue_list();
+    /* k-space into an HDF5 file: the sidecar goes beside the file (FILE.json) */
+    char *h5side = NULL;
+    if (a.s_out && !a.s_sidecar && kw_array_is_hdf5(a.out)) {
+        if (!(h5side = kw_array_sidecar_path(a.out)))
+            return kw_cli_fail("out", "out of memory");
+        a.sidecar = h5side;
+        a.s_sidecar = 1;
+    }
     kw_acquisition_input *in = NULL;
-    if (kw_acquisition_input_create(&in))
+    if (kw_acquisition_input_create(&in)) {
+        free(h5side);
         return kw_cli_status(KW_ENOMEM, "encode");
+    }
     static enc_files f;
     memset(&f, 0, sizeof f);
     rc = run_input(&a, &f, in, table);
     enc_files_free(&f);
     kw_acquisition_input_destroy(in);
+    free(h5side);
     return rc;
 }

@@ -438,6 +438,8 @@ int kw_cmd_pattern(int argc, char **argv)
     };
     const char *files[MAX_COMPARE];
     int nfiles = 0;
+    static const kw_opt_arg extra[] = {{"analyse", "FILE"}, {NULL, NULL}};
+    kw_opts_set_args_from_keys(kw_pattern_input_keys(), extra);
     int rc = kw_opts_parse(argc, argv, table, USAGE, files, MAX_COMPARE, &nfiles);
     if (rc >= 0)
         return rc;

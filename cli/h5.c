@@ -8,6 +8,7 @@
 #include <strings.h>
 #include <unistd.h>
 
+#include <cJSON.h>
 #include <hdf5.h>
 
 #include "cli.h"
@@ -418,4 +419,46 @@ kw_status kw_h5_write(const char *file, const char *dset, const kw_array *a, kw_
         return st;
     }
     return kw_h5w_commit(&w);
+}
+
+/* Attributes from a sidecar: every top-level number, boolean, string and list
+ * of numbers as a typed attribute of its own name, and the whole sidecar as
+ * the JSON text attribute "kweave_sidecar". */
+kw_status kw_h5w_attrs_json(kw_h5w *w, void *sidecar)
+{
+    const cJSON *js = sidecar, *it;
+    kw_status st = KW_OK;
+    cJSON_ArrayForEach(it, js) {
+        if (st || !it->string)
+            break;
+        if (cJSON_IsNumber(it)) {
+            st = kw_h5w_attr_f64(w, it->string, &it->valuedouble, 0);
+        } else if (cJSON_IsBool(it)) {
+            long long b = cJSON_IsTrue(it);
+            st = kw_h5w_attr_i64(w, it->string, &b, 0);
+        } else if (cJSON_IsString(it)) {
+            st = kw_h5w_attr_str(w, it->string, it->valuestring);
+        } else if (cJSON_IsArray(it)) {
+            double v[16];
+            int n = 0, all = 1;
+            const cJSON *e;
+            cJSON_ArrayForEach(e, it) {
+                if (!cJSON_IsNumber(e) || n == 16) {
+                    all = 0;
+                    break;
+                }
+                v[n++] = e->valuedouble;
+            }
+            if (all && n > 0)
+                st = kw_h5w_attr_f64(w, it->string, v, n);
+        }
+    }
+    if (st)
+        return st;
+    char *text = cJSON_PrintUnformatted(js);
+    if (!text)
+        return kw_set_error(KW_ENOMEM, "out of memory");
+    st = kw_h5w_attr_str(w, "kweave_sidecar", text);
+    cJSON_free(text);
+    return st;
 }

@@ -76,4 +76,10 @@ void kw_h5w_abort(kw_h5w *w);
 kw_status kw_h5_write(const char *file, const char *dset, const kw_array *a, kw_status (*attrs)(kw_h5w *, void *),
                       void *user);
 
+/*! kw_h5w_attrs_json(): for kw_h5_write: the sidecar `sidecar` (a cJSON
+ * object) as attributes: its top-level numbers, booleans, strings and lists
+ * of up to 16 numbers, each under its own name, and the whole sidecar as the
+ * JSON text "kweave_sidecar". */
+kw_status kw_h5w_attrs_json(kw_h5w *w, void *sidecar);
+
 #endif
