@@ -93,8 +93,15 @@ void enc_summary(FILE *f, const kw_acquisition_info *in)
         else
             fprintf(f, "coil sensitivities: trigonometric series of order %ld (%ld terms), fit residual "
                    "(relative RMS over the object):\n", L, (2 * L + 1) * (2 * L + 1));
-        for (int c = 0; c < in->coils; c++)
-            fprintf(f, "  coil %d: %.3g%%\n", c, 100.0 * in->fit_residual[c]);
+        for (int c = 0; c < in->coils; c++) {
+            fprintf(f, "  coil %d: %.3g%%", c, 100.0 * in->fit_residual[c]);
+            if (in->fit_max_error)
+                fprintf(f, ", largest pointwise misfit %.3g%%", 100.0 * in->fit_max_error[c]);
+            fputc('\n', f);
+        }
+        if (in->fit_max_error && in->coil_tolerance > 0)
+            fprintf(f, "  (order chosen to keep the pointwise misfit within %.3g%% where a coil is "
+                       ">= 10%% of its peak)\n", 100.0 * in->coil_tolerance);
     }
     double bw = in->bandwidth_hz, nx = (double)in->dims[2];
     if (bw > 0) {

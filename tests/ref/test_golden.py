@@ -24,6 +24,12 @@ reports gained intensity_ratio (sc.json, the demo's score and report); and
 two examples that overwrote an input's own sidecar now write their reports
 beside it (p_report.json, ms-report.json), which all-or-nothing runs refuse
 (p.json and ms.json are the sidecars again).
+Re-recorded a fourth time (issue 19; 120 files, all downstream of coil
+maps): the ring's maps are fitted at the order that keeps the pointwise
+misfit against the loops' field within 1% (order 5 instead of 4 for every
+2-D example), so every encode with coils, everything reconstructed from it
+and the encode summaries (which now print the largest pointwise misfit)
+change; encodes without coils are byte-identical.
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
