@@ -229,19 +229,13 @@ static int defer(kw_outfile *o)
     return 0;
 }
 
-kw_status kw_outfile_group_land(void)
+/* The pending files renamed into place in order (keep), or removed; after a
+ * failed rename the rest are removed. Frees the list. */
+static kw_status settle(pending *p, size_t np, int keep)
 {
-    int on = grp.on;
-    if (!on)
-        return KW_OK;
-    /* rename what is pending, keep the record of inputs and outputs */
-    pending *p = grp.p;
-    size_t np = grp.np;
-    grp.p = NULL;
-    grp.np = grp.capp = 0;
     kw_status st = KW_OK;
     for (size_t i = 0; i < np; i++) {
-        if (st == KW_OK) {
+        if (keep && st == KW_OK) {
             sigset_t old;
             block_signals(&old);
             int rc = rename(p[i].tmp, p[i].path);
@@ -253,7 +247,7 @@ kw_status kw_outfile_group_land(void)
                 st = kw_set_error(KW_EIO, "%s: cannot rename into place: %s", p[i].path,
                                   strerror(e));
         }
-        if (st != KW_OK) {
+        if (!keep || st != KW_OK) {
             unlink(p[i].tmp);
             release_slot(p[i].slot);
         }
@@ -264,37 +258,27 @@ kw_status kw_outfile_group_land(void)
     return st;
 }
 
+kw_status kw_outfile_group_land(void)
+{
+    if (!grp.on)
+        return KW_OK;
+    /* rename what is pending, keep the record of inputs and outputs */
+    pending *p = grp.p;
+    size_t np = grp.np;
+    grp.p = NULL;
+    grp.np = grp.capp = 0;
+    return settle(p, np, 1);
+}
+
 kw_status kw_outfile_group_end(int keep)
 {
-    kw_status st = KW_OK;
-    for (size_t i = 0; i < grp.np; i++) {
-        pending *p = &grp.p[i];
-        if (keep && st == KW_OK) {
-            sigset_t old;
-            block_signals(&old);
-            int rc = rename(p->tmp, p->path);
-            int e = errno;
-            if (rc == 0)
-                release_slot(p->slot);
-            sigprocmask(SIG_SETMASK, &old, NULL);
-            if (rc != 0)
-                st = kw_set_error(KW_EIO, "%s: cannot rename into place: %s", p->path,
-                                  strerror(e));
-        }
-        if (!keep || st != KW_OK) {
-            unlink(p->tmp);
-            release_slot(p->slot);
-        }
-        free(p->tmp);
-        free(p->path);
-    }
+    kw_status st = settle(grp.p, grp.np, keep);
     for (size_t i = 0; i < grp.nin; i++)
         free(grp.in[i].name);
     for (size_t i = 0; i < grp.nout; i++)
         free(grp.out[i].name);
     free(grp.in);
     free(grp.out);
-    free(grp.p);
     memset(&grp, 0, sizeof grp);
     return st;
 }

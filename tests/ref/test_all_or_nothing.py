@@ -10,10 +10,8 @@ written to standard output is a failed run."""
 import glob
 import os
 import resource
-import signal
 import stat
 import subprocess
-import time
 
 import numpy as np
 import pytest
@@ -255,38 +253,6 @@ def test_an_output_name_of_254_bytes_is_written(data, tmp_path):
     assert r.returncode == 0, r.stderr
     assert np.load(d / name).shape == (32, 32)
     assert not glob.glob(str(d / ".*kw-*"))
-
-
-@pytest.fixture(scope="module")
-def big(tmp_path_factory):
-    d = tmp_path_factory.mktemp("bigaon")
-    p = d / "stack.npy"
-    np.save(p, np.random.default_rng(0).uniform(0, 1, (4, 2048, 2048)).astype(np.float32))
-    return p
-
-
-@pytest.mark.parametrize("sig", [signal.SIGQUIT, signal.SIGUSR1, signal.SIGALRM])
-def test_other_signals_mid_write_leave_nothing(tmp_path, big, sig):
-    out = tmp_path / "o.png"
-    p = subprocess.Popen([KWEAVE, "render", "--in", str(big), "--out", str(out), "--depth", "16"],
-                         stderr=subprocess.PIPE)
-    pattern = str(tmp_path / ".o.png.kw-*")
-    seen = False
-    t0 = time.monotonic()
-    while time.monotonic() - t0 < 120 and p.poll() is None:
-        tmps = glob.glob(pattern)
-        if tmps and os.path.getsize(tmps[0]) > 0:
-            seen = True
-            break
-        time.sleep(0.005)
-    if not seen:
-        p.wait()
-        pytest.skip("the run ended before its temporary file was seen")
-    p.send_signal(sig)
-    p.wait(timeout=60)
-    assert p.returncode == -sig
-    assert not out.exists()
-    assert glob.glob(pattern) == []
 
 
 def test_recon_hdf5_output_onto_its_hdf5_input_is_refused(data, tmp_path):

@@ -9,6 +9,7 @@ still reading its input from a pipe."""
 import glob
 import io
 import os
+import resource
 import signal
 import subprocess
 import time
@@ -27,11 +28,15 @@ def big(tmp_path_factory):
     return p
 
 
-@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM])
+# SIGQUIT, SIGUSR1 and SIGALRM: issue 18 (they used to leave the temporary file)
+@pytest.mark.parametrize("sig", [signal.SIGINT, signal.SIGTERM, signal.SIGQUIT, signal.SIGUSR1,
+                                 signal.SIGALRM])
 def test_signal_mid_write_leaves_nothing(tmp_path, big, sig):
     out = tmp_path / "o.png"
+    # no core file from SIGQUIT, and none outside the test's folder
     p = subprocess.Popen([KWEAVE, "render", "--in", str(big), "--out", str(out), "--depth", "16"],
-                         stderr=subprocess.PIPE)
+                         stderr=subprocess.PIPE, cwd=tmp_path,
+                         preexec_fn=lambda: resource.setrlimit(resource.RLIMIT_CORE, (0, 0)))
     pattern = str(tmp_path / ".o.png.kw-*")
     seen = False
     t0 = time.monotonic()
