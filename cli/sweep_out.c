@@ -48,53 +48,88 @@ static int row_index(const kw_sweep *sw, const char *id)
     return -1;
 }
 
-/* Read the whole journal; a torn last line is cut off (file truncated). */
-static char *read_journal(const kw_sweep_ctx *c, int truncate_torn)
+/* A journal line is one experiment's JSON (about 1 KB); anything longer is
+ * not a journal of ours. */
+#define JOURNAL_LINE_MAX ((size_t)1 << 20)
+
+/* Each complete line of the journal, in order, read a line at a time (a
+ * journal of any size costs one line of memory); a torn last line (no
+ * newline) is cut off the file when `truncate_torn`. A missing journal is
+ * empty. -1 (message printed) for a journal that is not a regular file, a
+ * line over JOURNAL_LINE_MAX (the file is left as it is) or a read error. */
+static int journal_each(const kw_sweep_ctx *c, int truncate_torn,
+                        void (*fn)(const char *line, void *user), void *user)
 {
     char p[4200];
     journal_path(c, p, sizeof p);
     FILE *f = fopen(p, "rb");
     if (!f)
-        return calloc(1, 1);
-    fseek(f, 0, SEEK_END);
-    long n = ftell(f);
-    fseek(f, 0, SEEK_SET);
-    char *t = n >= 0 ? malloc((size_t)n + 1) : NULL;
-    size_t got = t ? fread(t, 1, (size_t)n, f) : 0;
-    fclose(f);
-    if (!t)
-        return NULL;
-    t[got] = 0;
-    char *last = strrchr(t, '\n');
-    size_t keep = last ? (size_t)(last - t) + 1 : 0;
-    if (keep < got) {
-        t[keep] = 0;
-        if (truncate_torn && truncate(p, (off_t)keep) != 0)
-            return free(t), NULL;
+        return errno == ENOENT ? 0 : (kw_cli_fail("journal", "cannot read %s: %s", p, strerror(errno)), -1);
+    struct stat sb;
+    if (fstat(fileno(f), &sb) != 0 || !S_ISREG(sb.st_mode)) {
+        fclose(f);
+        return kw_cli_fail("journal", "%s is not a regular file", p), -1;
     }
-    return t;
+    char *line = malloc(JOURNAL_LINE_MAX + 1);
+    if (!line) {
+        fclose(f);
+        return kw_cli_status(KW_ENOMEM, "journal"), -1;
+    }
+    size_t len = 0;
+    long long pos = 0, good = 0; /* bytes read; bytes up to the last newline */
+    int ch;
+    while ((ch = getc(f)) != EOF) {
+        pos++;
+        if (ch == '\n') {
+            line[len] = '\0';
+            fn(line, user);
+            len = 0;
+            good = pos;
+        } else if (len == JOURNAL_LINE_MAX) {
+            free(line);
+            fclose(f);
+            return kw_cli_fail("journal", "%s: the line at byte %lld is longer than 1 MiB: not a "
+                               "kweave journal (left as it is)", p, good), -1;
+        } else {
+            line[len++] = (char)ch;
+        }
+    }
+    int err = ferror(f);
+    free(line);
+    fclose(f);
+    if (err)
+        return kw_cli_fail("journal", "cannot read %s", p), -1;
+    if (len > 0 && truncate_torn && truncate(p, (off_t)good) != 0)
+        return kw_cli_fail("journal", "cannot cut the torn last line of %s: %s", p,
+                           strerror(errno)), -1;
+    return 0;
+}
+
+typedef struct load_ctx {
+    const kw_sweep *sw;
+    unsigned char *done;
+    int n;
+} load_ctx;
+
+static void load_line(const char *line, void *user)
+{
+    load_ctx *l = user;
+    cJSON *j = cJSON_Parse(line);
+    const char *id = j ? cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(j, "id")) : NULL;
+    int r = id ? row_index(l->sw, id) : -1;
+    if (r >= 0 && !l->done[r]) {
+        l->done[r] = 1;
+        l->n++;
+    }
+    cJSON_Delete(j);
 }
 
 int kw_sweep_journal_load(const kw_sweep_ctx *c, unsigned char *done, int primary)
 {
-    char *t = read_journal(c, primary);
-    if (!t)
-        return kw_cli_fail("journal", "cannot read %s/journal.jsonl: %s", c->out,
-                           strerror(errno)), -1;
-    int n = 0;
-    for (char *line = strtok(t, "\n"); line; line = strtok(NULL, "\n")) {
-        cJSON *j = cJSON_Parse(line);
-        const char *id = j ? cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(j, "id"))
-                           : NULL;
-        int r = id ? row_index(c->sw, id) : -1;
-        if (r >= 0 && !done[r]) {
-            done[r] = 1;
-            n++;
-        }
-        cJSON_Delete(j);
-    }
-    free(t);
-    return n;
+    load_ctx l = {c->sw, done, 0};
+    if (journal_each(c, primary, load_line, &l) != 0)
+        return -1;
+    return l.n;
 }
 
 int kw_sweep_journal_append(const kw_sweep_ctx *c, const char *text, unsigned char *done)
@@ -165,28 +200,34 @@ static void csv_field(FILE *f, const cJSON *v)
     }
 }
 
+typedef struct rows_ctx {
+    const kw_sweep *sw;
+    cJSON **rows;
+} rows_ctx;
+
+static void rows_line(const char *line, void *user)
+{
+    rows_ctx *x = user;
+    cJSON *j = cJSON_Parse(line);
+    const char *id = j ? cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(j, "id")) : NULL;
+    int r = id ? row_index(x->sw, id) : -1;
+    if (r >= 0 && !x->rows[r])
+        x->rows[r] = j;
+    else
+        cJSON_Delete(j);
+}
+
 int kw_sweep_write_results(const kw_sweep_ctx *c, int plots)
 {
     const kw_sweep *sw = c->sw;
-    char *t = read_journal(c, 0);
-    if (!t)
-        return kw_cli_fail("journal", "cannot read %s/journal.jsonl", c->out);
     cJSON **rows = calloc((size_t)sw->nrows, sizeof *rows);
-    if (!rows) {
-        free(t);
+    if (!rows)
         return kw_cli_status(KW_ENOMEM, "results");
+    rows_ctx rc_ = {sw, rows};
+    if (journal_each(c, 0, rows_line, &rc_) != 0) {
+        free(rows);
+        return KW_EXIT_USAGE;
     }
-    for (char *line = strtok(t, "\n"); line; line = strtok(NULL, "\n")) {
-        cJSON *j = cJSON_Parse(line);
-        const char *id = j ? cJSON_GetStringValue(cJSON_GetObjectItemCaseSensitive(j, "id"))
-                           : NULL;
-        int r = id ? row_index(sw, id) : -1;
-        if (r >= 0 && !rows[r])
-            rows[r] = j;
-        else
-            cJSON_Delete(j);
-    }
-    free(t);
 
     int rc = 0;
     char p[4200];

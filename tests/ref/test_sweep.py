@@ -250,3 +250,36 @@ def test_tables_identical_from_empty_and_measured_wisdom(tmp_path):
         tables.append(drop_run_columns(table(tmp_path / f"out{i}")))
     assert tables[0] == tables[1] == tables[2]
     assert measured.read_bytes() == before  # the user's cache is left as it was
+
+
+def test_a_sparse_2gib_journal_is_refused_untouched(tmp_path):
+    """Issue 18: a 2 GiB sparse journal was read whole (2 GiB RSS), then cut
+    to 0 bytes. The journal is read a line at a time; a line over 1 MiB is
+    not ours: exit 2, the file left as it is, little memory used."""
+    spec = write_spec(tmp_path / "s.json", dict(TINY, patterns=[{"kind": "uniform", "acs": 12}],
+                                                acceleration=[2], seeds=[1], methods=["fft"]))
+    out = tmp_path / "o"
+    out.mkdir()
+    j = out / "journal.jsonl"
+    with open(j, "wb") as f:
+        f.truncate(2 << 30)
+    code = (
+        "import resource, subprocess, sys\n"
+        "p = subprocess.run(sys.argv[1:], capture_output=True)\n"
+        "print(p.returncode, resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss)\n"
+        "sys.stderr.write(p.stderr.decode())\n")
+    p = subprocess.run(["/usr/bin/python3", "-c", code, KWEAVE, "sweep", "--spec", str(spec),
+                        "--out", str(out)], capture_output=True, text=True, timeout=600)
+    rc, kib = map(int, p.stdout.split())
+    assert rc == 2, p.stderr
+    assert "longer than 1 MiB" in p.stderr
+    assert kib < 100 * 1024, f"peak RSS {kib} KiB"
+    assert j.stat().st_size == 2 << 30
+
+
+def test_a_journal_that_is_a_folder_is_refused(tmp_path):
+    spec = write_spec(tmp_path / "s.json", dict(TINY, patterns=[{"kind": "uniform", "acs": 12}],
+                                                acceleration=[2], seeds=[1], methods=["fft"]))
+    out = tmp_path / "o"
+    (out / "journal.jsonl").mkdir(parents=True)
+    bad("sweep", "--spec", spec, "--out", out, field="journal")
