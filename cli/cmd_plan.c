@@ -377,6 +377,9 @@ int kw_cmd_plan(int argc, char **argv)
     free(av);
     if (rc >= 0)
         return rc;
+    if (protocol && reference && strcmp(protocol, "-") == 0 && strcmp(reference, "-") == 0)
+        return kw_cli_fail("reference", "standard input ('-') is already --protocol; give the "
+                           "reference protocol as a file");
 
     /* The file first, then the command line over it: its bandwidth (one or
      * both forms) replaces the file's, each other option replaces its key. */

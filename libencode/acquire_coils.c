@@ -21,6 +21,11 @@ static kw_status acq_coil_checks(kw_acquisition *a)
                   "only with a ring of loops");
     KW_FAIL_PARAM(o->coil_distance_m != 0 && !o->coils, KW_EINVAL, "coil_distance_m",
                   "only with a ring of loops");
+    /* the same bound as the FOV's (10 m): a coil farther away sees nothing */
+    KW_FAIL_PARAM(!(fabs(o->coil_radius_m) <= 10), KW_EINVAL, "coil_radius_m",
+                  "%g m is absurd (over 10 m)", o->coil_radius_m);
+    KW_FAIL_PARAM(!(fabs(o->coil_distance_m) <= 10), KW_EINVAL, "coil_distance_m",
+                  "%g m is absurd (over 10 m)", o->coil_distance_m);
     KW_FAIL_PARAM(o->coil_order < -1 || o->coil_order > 8, KW_EINVAL, "coil_order", "must be 0..8");
     KW_FAIL_PARAM(o->coil_tolerance != -1 && (!(o->coil_tolerance >= 0) || !(o->coil_tolerance < 1)),
                   KW_EINVAL, "coil_tolerance",

@@ -82,6 +82,10 @@ static kw_status acq_times(kw_acquisition *a)
                       "non-finite value at index %zu", i);
         KW_FAIL_PARAM(a->tvals[i] < 0, KW_EINVAL, "times",
                       "sample %zu is before the excitation (%g s)", i, a->tvals[i]);
+        /* the planner's longest TR is 100 s; no echo is sampled later */
+        KW_FAIL_PARAM(a->tvals[i] > 100, KW_EINVAL, "times",
+                      "sample %zu at %g s after the excitation is absurd (over 100 s)", i,
+                      a->tvals[i]);
     }
     KW_FAIL_PARAM(o->bandwidth_hz > 0 && !o->traj, KW_EINVAL, "times",
                   "give sample times or a bandwidth for a Cartesian readout, not both");
@@ -104,9 +108,14 @@ static kw_status acq_field_map(kw_acquisition *a)
                                   "values in Hz", n[1], n[0], a->nsl, n[1], n[0]);
     KW_FAIL_PARAM(!okf, KW_EINVAL, "field_map", "expected (%zu, %zu) values in Hz", n[1], n[0]);
     size_t cnt = n[0] * n[1] * (o->field_map_ndim == 3 ? fd[0] : 1);
-    for (size_t i = 0; i < cnt; i++)
+    for (size_t i = 0; i < cnt; i++) {
         KW_FAIL_PARAM(!isfinite(o->field_map[i]), KW_ENUMERIC, "field_map",
                       "non-finite value at index %zu", i);
+        /* a few kHz near metal at 7 T; beyond 1 MHz the map is not in Hz */
+        KW_FAIL_PARAM(fabs(o->field_map[i]) > 1e6, KW_EINVAL, "field_map",
+                      "%g Hz at index %zu is absurd (over 1 MHz off resonance; the map is in Hz)",
+                      (double)o->field_map[i], i);
+    }
     return KW_OK;
 }
 

@@ -94,9 +94,14 @@ kw_status kw_nc_weights(kw_recon *r)
     if (kind == KW_RECON_DCF_GIVEN) {
         const float *v = r->g.weights;
         KW_FAIL_PARAM(!v, KW_EINVAL, "dcf", "given weights expected (weights is NULL)");
-        for (size_t j = 0; j < ns; j++)
+        size_t nonzero = 0;
+        for (size_t j = 0; j < ns; j++) {
             KW_FAIL_PARAM(!(v[j] >= 0) || !isfinite(v[j]), KW_ERANGE, "dcf",
                           "weight %zu is negative or not finite", j);
+            nonzero += v[j] > 0;
+        }
+        /* all zero: every sample dropped, an image of nothing */
+        KW_FAIL_PARAM(nonzero == 0, KW_EINVAL, "dcf", "every weight is zero");
         memcpy(r->w, v, ns * sizeof *r->w);
         return KW_OK;
     }

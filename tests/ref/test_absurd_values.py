@@ -60,3 +60,53 @@ def test_lattice_shift_of_2_63_minus_1_equals_its_residue(tmp_path):
                 "--shift", str((2 ** 31 - 1) % 2), "--out", tmp_path / "b.npy")
     assert big.returncode == small.returncode == 0
     np.testing.assert_array_equal(np.load(tmp_path / "a.npy"), np.load(tmp_path / "b.npy"))
+
+
+def test_encode_coil_distance_1e6m_is_refused(tmp_path):
+    bad(*BASE, "--coil-distance", "1e6m", "--out", tmp_path / "k.npy", field="coil-distance")
+
+
+def test_encode_field_map_of_1e30_hz_is_refused(tmp_path):
+    np.save(tmp_path / "fm.npy", np.full((32, 32), 1e30, np.float32))
+    bad("encode", "--phantom", "weave", "--fov", "200mm", "--matrix", "32",
+        "--field-map", tmp_path / "fm.npy", "--out", tmp_path / "k.npy", field="field-map")
+
+
+def test_encode_times_of_1e30_s_are_refused(tmp_path):
+    np.save(tmp_path / "t.npy", np.full((32,), 1e30, np.float32))
+    bad("encode", "--phantom", "weave", "--fov", "200mm", "--matrix", "32",
+        "--times", tmp_path / "t.npy", "--out", tmp_path / "k.npy", field="times")
+
+
+@pytest.fixture(scope="module")
+def noise_nc(tmp_path_factory):
+    """Pure noise on a random 2-D trajectory (2 coils, 2000 samples)."""
+    d = tmp_path_factory.mktemp("noise-nc")
+    rng = np.random.default_rng(0)
+    np.save(d / "t.npy", (rng.uniform(-0.5, 0.5, (2000, 2)) * 32).astype(np.float32))
+    np.save(d / "k.npy", (rng.standard_normal((2, 2000)) +
+                          1j * rng.standard_normal((2, 2000))).astype(np.complex64))
+    (d / "k.json").write_text('{"matrix": [32, 32], "fov_m": [0.2, 0.2]}')
+    return d
+
+
+def test_recon_all_zero_dcf_is_refused(noise_nc, tmp_path):
+    np.save(tmp_path / "w.npy", np.zeros(2000, np.float32))
+    bad("recon", "--in", noise_nc / "k.npy", "--trajectory", noise_nc / "t.npy", "--method", "grid",
+        "--dcf", tmp_path / "w.npy", "--out", tmp_path / "i.npy", field="dcf")
+
+
+def test_cg_at_1000_iterations_on_noise_stops_cleanly(noise_nc, tmp_path):
+    """It used to fail with "not positive definite (p^H N p = -458)" once float
+    rounding had lost the search direction; it now stops there, x kept."""
+    import json
+    run("recon", "--in", noise_nc / "k.npy", "--trajectory", noise_nc / "t.npy",
+        "--method", "cg-sense", "--iterations", "1000", "--stop", "0",
+        "--out", tmp_path / "i.npy", "--json", tmp_path / "r.json")
+    assert np.isfinite(np.load(tmp_path / "i.npy")).all()
+    rep = json.loads((tmp_path / "r.json").read_text())
+    assert 1 <= rep["iterations"] <= 1000
+
+
+def test_plan_protocol_and_reference_both_from_stdin_is_refused():
+    bad("plan", "--protocol", "-", "--reference", "-", input="fov = 200mm\n", field="reference")
