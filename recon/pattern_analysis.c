@@ -334,6 +334,15 @@ kw_status kw_pattern_analyse_trajectory(kw_pattern_analysis *a, const float *k, 
                   ndim);
     KW_FAIL_PARAM(d->n < 2, KW_EINVAL, "n", "matrix %zu under 2", d->n);
     KW_FAIL_PARAM(d->readout < 1, KW_EINVAL, "readout", "no samples per readout");
+    /* cycles/FOV: the matrix reaches +-n/2; a sample beyond +-n (twice the
+     * extent) is no sampling of this matrix, and huge values would
+     * overflow the grid arithmetic below */
+    const double lim = (double)d->n;
+    for (size_t j = 0; j < samples * (size_t)ndim; j++)
+        KW_FAIL_PARAM(!isfinite(k[j]) || fabs(k[j]) > lim, KW_ERANGE, "trajectory",
+                      "sample %zu coordinate %zu = %g outside [-%g, %g] cycles/FOV (twice the "
+                      "extent of matrix %zu)", j / (size_t)ndim, j % (size_t)ndim, (double)k[j],
+                      lim, lim, d->n);
     a->cartesian = 0;
     kw_status st = analyse_traj(a, k, samples, (size_t)ndim, d, progress, user);
     a->fwhm_main = fwhm_main(a);

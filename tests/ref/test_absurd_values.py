@@ -110,3 +110,17 @@ def test_cg_at_1000_iterations_on_noise_stops_cleanly(noise_nc, tmp_path):
 
 def test_plan_protocol_and_reference_both_from_stdin_is_refused():
     bad("plan", "--protocol", "-", "--reference", "-", input="fov = 200mm\n", field="reference")
+
+
+def test_pattern_analyse_of_a_trajectory_at_1e30_is_refused(tmp_path):
+    """It overflowed the analysis's grid arithmetic (signed overflow under
+    UBSan); a sample beyond twice the matrix's extent is refused."""
+    import json
+    run("pattern", "--kind", "golden", "--matrix", "32", "--spokes", "8", "--out", tmp_path / "g.npy")
+    t = np.load(tmp_path / "g.npy")
+    t[5, 0] = 1e30
+    np.save(tmp_path / "h.npy", t)
+    (tmp_path / "h.json").write_text((tmp_path / "g.json").read_text())
+    line = bad("pattern", "--analyse", tmp_path / "h.npy", field="trajectory")
+    assert "outside" in line
+    assert json.loads((tmp_path / "g.json").read_text())["matrix"] == [32, 32]

@@ -58,3 +58,37 @@ def test_a_sweep_matrix_of_16_5_names_the_value(tmp_path):
     (tmp_path / "s.json").write_text(json.dumps(spec))
     line = bad("sweep", "--spec", tmp_path / "s.json", "--out", tmp_path / "o", field="matrix")
     assert "16.5" in line
+
+
+def test_npy_with_text_after_the_header_dict_is_refused_as_numpy_refuses_it(tmp_path):
+    """Issue 18: strict parsers (one .npy header parser for both readers,
+    cli/npyhdr.c)."""
+    np.save(tmp_path / "a.npy", np.zeros((4, 4), np.float32))
+    b = (tmp_path / "a.npy").read_bytes()
+    i = b.index(b"}")
+    (tmp_path / "bad.npy").write_bytes(b[:i + 1] + b"x" + b[i + 2:])
+    with pytest.raises(Exception):
+        np.load(tmp_path / "bad.npy")
+    line = bad("render", "--in", tmp_path / "bad.npy", "--out", tmp_path / "b.png", field="in")
+    assert "text after the dictionary" in line
+    # the block-wise reader (multi-slice recon) uses the same parser
+    k = np.zeros((2, 3, 8, 8), np.complex64)
+    np.save(tmp_path / "ms.npy", k)
+    b = (tmp_path / "ms.npy").read_bytes()
+    i = b.index(b"}")
+    (tmp_path / "msbad.npy").write_bytes(b[:i + 1] + b"x" + b[i + 2:])
+    line = bad("recon", "--in", tmp_path / "msbad.npy", "--slices", "1", "--out",
+               tmp_path / "i.npy")
+    assert "text after the dictionary" in line
+
+
+@pytest.mark.parametrize("tail", [b" x", b"\x00", b"{}"])
+def test_json_sidecar_with_anything_after_the_value_is_refused(acq, tmp_path, tail):
+    """Python's json refuses these too (strict JSON, RFC 8259)."""
+    ks = with_sidecar(acq, tmp_path, "ks", lambda s: None)
+    side = tmp_path / "ks.json"
+    side.write_bytes(side.read_bytes().rstrip() + tail)
+    with pytest.raises(ValueError):
+        json.loads(side.read_bytes())
+    line = bad("recon", "--in", ks, "--out", tmp_path / "img.npy")
+    assert "not valid JSON" in line
