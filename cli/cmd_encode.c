@@ -314,7 +314,8 @@ int kw_cmd_encode(int argc, char **argv)
         {"noise-corr", KW_OPT_STRING, &a.noise_corr, 0, &a.s_ncorr,
          "noise correlation coefficient between every pair of coils (default 0)"},
         {"noise-cov", KW_OPT_STRING, &a.noise_cov, 0, &a.s_ncov,
-         "noise covariance (coils, coils) .npy (shape; --snr sets the level; default: none)"},
+         "noise covariance (coils, coils) .npy: the noise as given, or only its shape when --snr "
+         "sets the level (--noise-corr has no level of its own and needs --snr; default: none)"},
         {"field-map", KW_OPT_STRING, &a.field_map, 0, &a.s_fmap,
          "off-resonance map (ny, nx) in Hz (2-D; multi-slice: (slices, ny, nx) or one for all; "
          "time-segmented on a 4x grid; default: none)"},
