@@ -229,13 +229,14 @@ clean:
 # test`) replays tests/fuzz/<target>/ - the seeds and every input that ever
 # crashed - through the same targets built without libFuzzer.
 FUZZ_CC ?= clang
-FUZZ_TARGETS := npy json units $(if $(wildcard tests/fuzz/fuzz_protofile.c),protofile)
-FUZZ_DEP_SRC := libencode/base.c libencode/json_build.c cli/npy.c cli/npyhdr.c cli/outfile.c cli/jsonio.c libencode/units.c cli/cli.c \
-                $(wildcard cli/protofile.c cli/cmd_plan.c libencode/protocol.c libencode/protofile.c libencode/plan_input.c libencode/plan_json.c \
-                  libencode/sequence.c libencode/gradient.c cli/plot.c) $(FUZZ_EXTRA_SRC)
-FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas \
-              -fsanitize=fuzzer-no-link,address,undefined -fno-sanitize-recover=undefined \
-              -Ilibencode -Irecon -Icli $(PKG_CFLAGS)
+FUZZ_TARGETS := npy json units protofile npystream sidecar
+# Every target links the whole library and command, built with clang for
+# coverage and the sanitizers (the sidecar target runs the verbs in-process).
+FUZZ_DEP_SRC := $(LIB_SRC) $(CLI_SRC) $(FUZZ_EXTRA_SRC)
+FUZZ_CFLAGS = -std=c11 -D_DEFAULT_SOURCE -g -O1 -Wall -Wextra -Wno-unknown-pragmas -fopenmp \
+              -fsanitize=fuzzer-no-link,address,undefined,float-cast-overflow \
+              -fno-sanitize-recover=undefined,float-cast-overflow \
+              -Ilibencode -Irecon -Icli $(PKG_CFLAGS) $(H5_CFLAGS)
 FUZZ_OBJ = $(FUZZ_DEP_SRC:%.c=$(BUILD)/fuzz/obj/%.o)
 FUZZ_TIME ?= 600
 FUZZ ?= npy
@@ -246,14 +247,15 @@ $(BUILD)/fuzz/obj/%.o: %.c
 	@$(FUZZ_CC) $(FUZZ_CFLAGS) -c $< -o $@
 
 $(BUILD)/fuzz/fuzz_%: $(BUILD)/fuzz/obj/tests/fuzz/fuzz_%.o $(FUZZ_OBJ)
-	$(FUZZ_CC) -fsanitize=fuzzer,address,undefined -o $@ $^ $(PKG_LIBS) $(FUZZ_LIBS) -lm
+	$(FUZZ_CC) -fsanitize=fuzzer,address,undefined,float-cast-overflow -fopenmp -o $@ $^ \
+	  $(H5_LIBS) -lfftw3f_omp $(PKG_LIBS) $(FUZZ_LIBS) -lm
 
 fuzz: $(FUZZ_TARGETS:%=$(BUILD)/fuzz/fuzz_%)
 
 fuzz-run: $(BUILD)/fuzz/fuzz_$(FUZZ)
 	@mkdir -p $(BUILD)/fuzz/corpus-$(FUZZ) $(BUILD)/fuzz/artifacts-$(FUZZ)
 	$(BUILD)/fuzz/fuzz_$(FUZZ) -max_total_time=$(FUZZ_TIME) -rss_limit_mb=2048 -timeout=10 \
-	  $(if $(filter protofile,$(FUZZ)),-close_fd_mask=2) \
+	  $(if $(filter protofile sidecar,$(FUZZ)),-close_fd_mask=2) \
 	  -print_final_stats=1 -artifact_prefix=$(BUILD)/fuzz/artifacts-$(FUZZ)/ \
 	  $(BUILD)/fuzz/corpus-$(FUZZ) tests/fuzz/$(FUZZ)
 
