@@ -30,7 +30,7 @@ static const char USAGE[] =
 static kw_status write_diff(const char *path, const kw_array *ref, const kw_array *d)
 {
     size_t n = kw_array_count(d);
-    float *mag = malloc(n * sizeof *mag);
+    float *mag = kw_alloc_n(n, sizeof *mag);
     KW_FAIL_IF(!mag, KW_ENOMEM, "out of memory for %zu values", n);
     const float *dv = d->data;
     for (size_t i = 0; i < n; i++)
@@ -43,7 +43,7 @@ static kw_status write_diff(const char *path, const kw_array *ref, const kw_arra
             mag[i] = fabsf(dv[i]);
         st = kw_png_window(mag, n, &lo, &diff_hi);
     }
-    free(mag);
+    kw_free(mag);
     if (st)
         return st;
     double mult = kw_figure_diff_multiplier(ref_hi, diff_hi);

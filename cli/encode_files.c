@@ -167,7 +167,7 @@ static int read_mask(const char *path, enc_files *f, kw_acquisition_options *o)
     if (m->dtype == KW_F32 && (st = kw_array_all_finite(m)))
         return kw_cli_status(st, "pattern");
     size_t cnt = kw_array_count(m);
-    f->mask = malloc(cnt ? cnt : 1);
+    f->mask = kw_alloc_n(cnt ? cnt : 1, 1);
     if (!f->mask)
         return kw_cli_fail("pattern", "out of memory");
     for (size_t i = 0; i < cnt; i++)
@@ -206,7 +206,7 @@ static int read_times(const char *path, enc_files *f, kw_acquisition_options *o)
     if ((st = kw_array_all_finite(t)))
         return kw_cli_status(st, "times");
     size_t cnt = kw_array_count(t);
-    f->times = malloc((cnt ? cnt : 1) * sizeof *f->times);
+    f->times = kw_alloc_n(cnt ? cnt : 1, sizeof *f->times);
     if (!f->times)
         return kw_cli_fail("times", "out of memory");
     for (size_t i = 0; i < cnt; i++)
@@ -247,7 +247,7 @@ static int read_sens(const char *path, enc_files *f, kw_acquisition_options *o)
     if ((st = kw_array_all_finite(s)))
         return kw_cli_status(st, "sens");
     size_t cnt = kw_array_count(s);
-    f->sens = malloc((cnt ? cnt : 1) * sizeof *f->sens);
+    f->sens = kw_alloc_n(cnt ? cnt : 1, sizeof *f->sens);
     if (!f->sens)
         return kw_cli_fail("sens", "out of memory");
     for (size_t i = 0; i < cnt; i++)
@@ -273,7 +273,7 @@ static int read_ncov(const char *path, enc_files *f, kw_acquisition_options *o)
     if ((st = kw_array_all_finite(c)))
         return kw_cli_status(st, "noise-cov");
     size_t cnt = kw_array_count(c);
-    f->ncov = malloc((cnt ? cnt : 1) * sizeof *f->ncov);
+    f->ncov = kw_alloc_n(cnt ? cnt : 1, sizeof *f->ncov);
     if (!f->ncov)
         return kw_cli_fail("noise-cov", "out of memory");
     for (size_t i = 0; i < cnt; i++)
@@ -311,8 +311,8 @@ void enc_files_free(enc_files *f)
     kw_array_free(&f->fmap);
     kw_array_free(&f->sens_in);
     kw_array_free(&f->ncov_in);
-    free(f->mask);
-    free(f->times);
-    free(f->sens);
-    free(f->ncov);
+    kw_free(f->mask);
+    kw_free(f->times);
+    kw_free(f->sens);
+    kw_free(f->ncov);
 }

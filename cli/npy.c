@@ -115,7 +115,7 @@ static kw_status fortran_to_c(kw_array *a)
     size_t n = kw_array_count(a), es = kw_dtype_size(a->dtype);
     if (a->ndim < 2 || n < 2)
         return KW_OK;
-    unsigned char *tmp = malloc(n * es);
+    unsigned char *tmp = kw_alloc_n(n, es);
     KW_FAIL_IF(!tmp, KW_ENOMEM, "out of memory reordering a Fortran-ordered array");
     size_t idx[KW_MAX_DIMS] = {0}, stride[KW_MAX_DIMS];
     stride[0] = 1;
@@ -135,7 +135,7 @@ static kw_status fortran_to_c(kw_array *a)
         }
     }
     memcpy(a->data, tmp, n * es);
-    free(tmp);
+    kw_free(tmp);
     return KW_OK;
 }
 

@@ -180,7 +180,7 @@ static void release_font_caches(void)
 static void draw_panel(cairo_t *cr, const float *v, size_t h, size_t w, double x0, double y0)
 {
     int stride = cairo_format_stride_for_width(CAIRO_FORMAT_RGB24, (int)w);
-    unsigned char *buf = calloc((size_t)stride * h, 1);
+    unsigned char *buf = kw_alloc_n((size_t)stride * h, 1);
     if (!buf)
         return;
     for (size_t y = 0; y < h; y++) {
@@ -202,7 +202,7 @@ static void draw_panel(cairo_t *cr, const float *v, size_t h, size_t w, double x
     cairo_paint(cr);
     cairo_restore(cr);
     cairo_surface_destroy(s);
-    free(buf);
+    kw_free(buf);
 }
 
 int kw_pattern_cli_compare_png(const char *path, const kw_pattern_report *as, int n)
@@ -240,7 +240,7 @@ int kw_pattern_cli_compare_png(const char *path, const kw_pattern_report *as, in
     cairo_surface_flush(surf);
     const unsigned char *data = cairo_image_surface_get_data(surf);
     int stride = cairo_image_surface_get_stride(surf);
-    uint8_t *rgb = malloc((size_t)W * (size_t)H * 3);
+    uint8_t *rgb = kw_alloc_n((size_t)W * (size_t)H, 3);
     kw_status st = KW_OK;
     if (!rgb || !data) {
         st = kw_set_error(KW_ENOMEM, "out of memory");
@@ -255,7 +255,7 @@ int kw_pattern_cli_compare_png(const char *path, const kw_pattern_report *as, in
             }
         st = kw_png_write_rgb8(path, rgb, (size_t)W, (size_t)H);
     }
-    free(rgb);
+    kw_free(rgb);
     cairo_destroy(cr);
     cairo_surface_destroy(surf);
     release_font_caches();

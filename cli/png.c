@@ -123,11 +123,11 @@ static size_t percentile(const float *v, size_t n, double q, float *work, double
 kw_status kw_png_window(const float *v, size_t n, float *lo, float *hi)
 {
     KW_FAIL_IF(!v || n == 0, KW_EINVAL, "window: no values");
-    float *work = malloc(n * sizeof *work);
+    float *work = kw_alloc_n(n, sizeof *work);
     KW_FAIL_IF(!work, KW_ENOMEM, "window: out of memory for %zu values", n);
     double p;
     size_t m = percentile(v, n, 99.5, work, &p);
-    free(work);
+    kw_free(work);
     float mn = 0;
     for (size_t i = 0; i < n; i++)
         if (isfinite(v[i]) && v[i] < mn)
@@ -286,7 +286,7 @@ void kw_png_grid(size_t ns, size_t *cols, size_t *rows)
 void kw_png_values_free(kw_png_values *pv)
 {
     if (pv) {
-        free(pv->v);
+        kw_free(pv->v);
         pv->v = NULL;
     }
 }
@@ -335,11 +335,11 @@ kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_val
     if (st)
         return st;
     size_t n = ns * w * h;
-    float *v = malloc(n * sizeof *v);
+    float *v = kw_alloc_n(n, sizeof *v);
     KW_FAIL_IF(!v, KW_ENOMEM, "picture: out of memory for %zu values", n);
     st = part_values(a, o->part, v, n);
     if (st) {
-        free(v);
+        kw_free(v);
         return st;
     }
 
@@ -360,7 +360,7 @@ kw_status kw_png_values_make(const kw_array *a, const kw_png_opts *o, kw_png_val
     } else {
         st = kw_png_window(v, n, &lo, &hi);
         if (st) {
-            free(v);
+            kw_free(v);
             return st;
         }
     }
@@ -409,7 +409,7 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
         return st;
     size_t W = cols * w, H = rows * h;
     size_t bps = (size_t)o->depth / 8;
-    unsigned char *pix = calloc(W * H, bps);
+    unsigned char *pix = kw_alloc_n(W * H, bps);
     if (!pix) {
         kw_png_values_free(&pv);
         return kw_set_error(KW_ENOMEM, "%s: out of memory for a %zu x %zu picture",
@@ -434,6 +434,6 @@ kw_status kw_png_write_array(const char *path, const kw_array *a, const kw_png_o
     }
     kw_png_values_free(&pv);
     st = write_png(path, pix, W, H, o->depth, PNG_COLOR_TYPE_GRAY);
-    free(pix);
+    kw_free(pix);
     return st;
 }

@@ -338,7 +338,7 @@ static int open_cov_ref(ms_ctx *m)
                  (ref->ndim == 2 && m->ns == 1 && ref->dims[0] == m->ny && ref->dims[1] == m->nx);
         if (!ok)
             return kw_cli_fail("ref", "shape must be (slices, ny, nx) = (%zu, %zu, %zu)", m->ns, m->ny, m->nx);
-        m->score = malloc(m->ns * m->npix * sizeof *m->score);
+        m->score = kw_alloc_n(m->ns * m->npix, sizeof *m->score);
         if (!m->score)
             return kw_cli_fail("ref", "out of memory");
     }
@@ -558,7 +558,7 @@ int kw_recon_multislice(const kw_recon_opts *o, const cJSON *sidecar, const char
     kw_array_free(&m.ref);
     kw_free(m.kbuf);
     kw_free(m.ibuf);
-    free(m.score);
+    kw_free(m.score);
     free(m.spath);
     free(m.cpath);
     cJSON_Delete(m.report);
