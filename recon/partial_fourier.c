@@ -1,5 +1,8 @@
 /* partial_fourier.c: homodyne (Noll, Nishimura & Macovski 1991) and POCS
- * (Haacke, Lindskog & Lin 1991) partial Fourier reconstruction; see kw_pf.h. */
+ * (Haacke, Lindskog & Lin 1991) partial Fourier reconstruction; see kw_pf.h.
+ * POCS alternates the projections onto two closed convex sets (Youla & Webb
+ * 1982, IEEE TMI 1:81): the images with the estimated phase and the images
+ * that agree with the measured k-space. */
 #include "kw_pf.h"
 
 #include <math.h>
@@ -163,8 +166,13 @@ kw_status kw_pf_pocs(kw_pf *p, const float complex *ksp, float complex *img,
         return st;
     int it = 0;
     for (it = 1; it <= iters; it++) {
+        /* Projection onto the convex set {r e^{i phi}: r real} (a subspace):
+         * Re(x e^{-i phi}) e^{i phi}. Haacke's update |x| e^{i phi} is not a
+         * projection; where the low-resolution phase is off by pi (Gibbs
+         * lobes near edges) it flips the sign of the image, and on
+         * band-limited data its error grows with iterations (issue 19). */
         for (size_t i = 0; i < tot; i++)
-            p->work[i] = cabsf(img[i]) * p->phase[i];
+            p->work[i] = crealf(img[i] * conjf(p->phase[i])) * p->phase[i];
         if ((st = kw_fft_forward(p->plan, p->work)))
             return st;
         for (size_t b = 0; b < p->batch; b++)

@@ -30,6 +30,9 @@ misfit against the loops' field within 1% (order 5 instead of 4 for every
 2-D example), so every encode with coils, everything reconstructed from it
 and the encode summaries (which now print the largest pointwise misfit)
 change; encodes without coils are byte-identical.
+Re-recorded a fifth time (issue 19): POCS projects onto the phase set,
+Re(x e^(-i phi)) e^(i phi), instead of |x| e^(i phi) (po.npy, the compare
+table's POCS row and its report and picture, compare.out; 5 files).
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
