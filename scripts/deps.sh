@@ -6,7 +6,8 @@
 #               reference libraries (numpy, scipy, scikit-image, PyWavelets,
 #               pytest; h5py and nibabel for the file-format checks) for
 #               /usr/bin/python3; Chromium (Debian's chromium) for the check that
-#               opens report.html in a headless browser (tests/ref/test_report_html.py)
+#               opens report.html in a headless browser (tests/ref/test_report_html.py);
+#               Open MPI (the sweep's MPI build and its check under mpirun)
 # Missing Debian packages are installed with apt-get when run as root;
 # otherwise the script names them and fails.
 mode=${1:-build}
@@ -44,6 +45,9 @@ if [ "$mode" = test ]; then
         /usr/bin/python3 -c "import $mod" >/dev/null 2>&1 || need "$deb"
     done
     command -v chromium >/dev/null 2>&1 || need chromium
+    # Open MPI: `kweave sweep` under mpirun (tests/ref/test_sweep_mpi.py)
+    command -v mpicc >/dev/null 2>&1 || need libopenmpi-dev
+    command -v mpirun >/dev/null 2>&1 || need openmpi-bin
 fi
 [ -z "$pkgs" ] && exit 0
 if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
