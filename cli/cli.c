@@ -335,6 +335,29 @@ static size_t edit_distance(const char *a, size_t na, const char *b)
     return d[na][nb];
 }
 
+int kw_cli_choice_fail(const char *what, const char *noun, const char *value,
+                       const char *const *names)
+{
+    char list[384];
+    size_t used = 0;
+    const char *best = NULL;
+    size_t bd = 3, nv = value ? strlen(value) : 0;
+    list[0] = '\0';
+    for (size_t k = 0; names[k]; k++) {
+        if (used < sizeof list)
+            used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", k ? ", " : "", names[k]);
+        size_t d = value ? edit_distance(value, nv, names[k]) : 99;
+        if (d < bd && d < nv) {
+            bd = d;
+            best = names[k];
+        }
+    }
+    if (best)
+        return kw_cli_fail(what, "unknown %s '%s'; did you mean '%s'? (one of: %s)", noun,
+                           value ? value : "", best, list);
+    return kw_cli_fail(what, "unknown %s '%s' (one of: %s)", noun, value ? value : "", list);
+}
+
 /* The option `name` (nlen characters) stands for: exactly, or in the other
  * spelling of -ise/-ize ("--analyze" for "--analyse"). */
 static const kw_opt *find_option(const kw_opt *table, const char *name, size_t nlen)

@@ -28,6 +28,13 @@ int kw_cli_fail(const char *what, const char *fmt, ...)
 #endif
     ;
 
+/*! kw_cli_choice_fail(): an unknown value of an enumerated option: "unknown
+ * <noun> '<value>'; did you mean '<near>'? (one of: a, b, c)" (the
+ * suggestion only for a near miss by edit distance) under kw_cli_fail(what).
+ * `names` ends with NULL. Returns KW_EXIT_USAGE (2). */
+int kw_cli_choice_fail(const char *what, const char *noun, const char *value,
+                       const char *const *names);
+
 /*! kw_cli_status(): report a failed library/file call: prints
  * "kweave: error: <context>: <kw_last_error()>" and returns the exit code for
  * the status (2 for bad input, 1 for internal failures). */

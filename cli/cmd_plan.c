@@ -88,8 +88,9 @@ static void report_text(const kw_plan_report *r, double ref_factor)
                                         "spiral"};
     char u1[48], u2[48], u3[48];
     printf("kweave plan: %s, %d-D\n", label[p->sequence], p->ndim);
-    printf("  B0 %.4g T: %s %.6f MHz; %s at %.2f K %.4g (%.3f per million)\n", p->b0_t,
-           RN_LABEL(PLAN_LARMOR), b->larmor_hz / 1e6, RN_LABEL(PLAN_POLARIZATION), p->temperature_k, b->polarization, b->polarization * 1e6);
+    printf("  B0 %.4g T: %s %.6f MHz; %s %.2f K %.4g (%.3f per million)\n", p->b0_t,
+           RN_LABEL(PLAN_LARMOR), b->larmor_hz / 1e6, RN_LABEL(PLAN_TEMPERATURE), p->temperature_k,
+           b->polarization, b->polarization * 1e6);
     printf("Resolution\n");
     if (p->ndim == 3)
         printf("  %s %.1f x %.1f x %.1f mm, %s %d x %d x %d, %s %.4f x %.4f x %.4f mm\n",
@@ -116,12 +117,16 @@ static void report_text(const kw_plan_report *r, double ref_factor)
            RN_LABEL(PLAN_DWELL), r->dwell_s * 1e6, RN_LABEL(PLAN_READOUT),
            r->readout_duration_s * 1e3);
     if (p->sequence != KW_SEQ_SPIRAL)
-        printf("  %s %.4f mT/m of %.4f mT/m\n", RN_LABEL(PLAN_READOUT_GRADIENT),
-               b->readout_gradient_T_per_m * 1e3,
-               p->gmax_T_per_m * 1e3);
-    printf("  %s %.4f mT/m (%s %.3g over %.3f ms)\n",
+        printf("  %s %.4f mT/m (%s %.4f mT/m, %s %.1f T/m/s)\n", RN_LABEL(PLAN_READOUT_GRADIENT),
+               b->readout_gradient_T_per_m * 1e3, RN_LABEL(PLAN_GMAX), p->gmax_T_per_m * 1e3,
+               RN_LABEL(PLAN_SLEW), p->slew_T_per_m_per_s);
+    else
+        printf("  %s %.4f mT/m, %s %.1f T/m/s\n", RN_LABEL(PLAN_GMAX), p->gmax_T_per_m * 1e3,
+               RN_LABEL(PLAN_SLEW), p->slew_T_per_m_per_s);
+    printf("  %s %.4f mT/m (%s %.3f ms, %s %.3g)\n",
            p->ndim == 3 ? RN_LABEL(PLAN_SLAB_GRADIENT) : RN_LABEL(PLAN_SLICE_GRADIENT),
-           r->slice_gradient_T_per_m * 1e3, RN_LABEL(PLAN_TBW), p->tbw, r->rf_duration_s * 1e3);
+           r->slice_gradient_T_per_m * 1e3, RN_LABEL(PLAN_RF_DURATION), r->rf_duration_s * 1e3,
+           RN_LABEL(PLAN_TBW), p->tbw);
     if (p->sequence == KW_SEQ_EPI)
         printf("  EPI: %d %s, %s %d, %s %.4f ms, %s %.3f ms, %s %.3g\n", p->shots,
                RN_LABEL(PLAN_SHOTS), RN_LABEL(PLAN_ECHO_TRAIN_LENGTH), r->echo_train_length,
@@ -135,9 +140,10 @@ static void report_text(const kw_plan_report *r, double ref_factor)
                RN_LABEL(PLAN_INTERLEAVES), r->readout_per_interleave_s * 1e3,
                RN_LABEL(PLAN_READOUT_INTERLEAF), r->spiral.samples, RN_LABEL(PLAN_SAMPLES_INTERLEAF));
     printf("Timing\n");
-    printf("  %s %.4f ms (%s %.4f ms)%s, %s %.4f ms (%s %.4f ms), %s %.3f s%s\n",
+    printf("  %s %.4f ms (%s %.4f ms)%s%s, %s %.4f ms (%s %.4f ms), %s %.3f s%s\n",
            RN_LABEL(PLAN_TE), r->te_s * 1e3, RN_LABEL(PLAN_MIN_TE), r->min_te_s * 1e3,
-           p->sequence == KW_SEQ_EPI ? " effective" : "", RN_LABEL(PLAN_TR), r->tr_s * 1e3,
+           p->sequence == KW_SEQ_EPI ? " " : "",
+           p->sequence == KW_SEQ_EPI ? RN_LABEL(PLAN_EFFECTIVE_TE) : "", RN_LABEL(PLAN_TR), r->tr_s * 1e3,
            RN_LABEL(PLAN_MIN_TR), r->min_tr_s * 1e3, RN_LABEL(PLAN_SCAN), r->scan_time_s,
            p->ndim == 2 ? " per slice" : "");
     printf("  lobes (%s %.0f us):\n", RN_LABEL(PLAN_RASTER), p->raster_s * 1e6);
@@ -159,15 +165,16 @@ static void report_text(const kw_plan_report *r, double ref_factor)
                "played as one lobe)\n");
     printf("Artefacts and signal\n");
     if (p->sequence == KW_SEQ_SPIRAL)
-        printf("  %s %.1f Hz (%.1f ppm): a blur, %.2f cycles of phase by the end of the "
-               "readout\n", RN_LABEL(PLAN_FAT_WATER), r->fat_water_hz, KW_FAT_WATER_PPM,
-               r->fat_water_hz * r->readout_per_interleave_s);
+        printf("  %s %.1f Hz (%.1f ppm): a blur, %.2f %s\n", RN_LABEL(PLAN_FAT_WATER),
+               r->fat_water_hz, KW_FAT_WATER_PPM, r->fat_water_hz * r->readout_per_interleave_s,
+               RN_LABEL(PLAN_FAT_CYCLES));
     else
-        printf("  %s shift %.1f Hz (%.1f ppm): %.3f pixels = %.3f mm along the readout\n",
-               RN_LABEL(PLAN_FAT_WATER), r->fat_water_hz, KW_FAT_WATER_PPM, r->chemical_shift_pixels, r->chemical_shift_mm);
+        printf("  %s %.1f Hz (%.1f ppm): %.3f pixels = %.3f mm along the readout\n",
+               RN_LABEL(PLAN_SHIFT_PIXELS), r->fat_water_hz, KW_FAT_WATER_PPM,
+               r->chemical_shift_pixels, r->chemical_shift_mm);
     if (p->sequence == KW_SEQ_EPI)
-        printf("  EPI phase direction: %.5f %s; fat-water %.2f pixels = %.2f mm\n",
-               r->distortion_pixels_per_hz, RN_LABEL(PLAN_DISTORTION), r->chemical_shift_phase_pixels,
+        printf("  %s: %.5f %s; fat-water %.2f pixels = %.2f mm\n",
+               RN_LABEL(PLAN_SHIFT_PHASE_PIXELS), r->distortion_pixels_per_hz, RN_LABEL(PLAN_DISTORTION), r->chemical_shift_phase_pixels,
                r->chemical_shift_phase_mm);
     if (isfinite(r->readout_to_t2star))
         printf("  %s %s = %.3f (T2* %.2f ms)\n",

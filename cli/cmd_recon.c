@@ -448,13 +448,8 @@ static int read_noncart(recon_ctx *c)
 static int check_method(recon_ctx *c)
 {
     c->mname = c->o.method ? c->o.method : c->noncart ? "grid" : "fft";
-    const kw_recon_method_info *m = kw_recon_method_find(c->mname);
-    if (!m)
-        return kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", c->mname);
-    if (c->noncart && !m->noncartesian)
-        return kw_cli_fail("method", "%s takes Cartesian data only; this input has a trajectory", c->mname);
-    if (!c->noncart && !m->cartesian)
-        return kw_cli_fail("method", "%s takes non-Cartesian data only (give --trajectory)", c->mname);
+    if (kw_recon_method_check(c->mname, c->noncart, NULL))
+        return kw_cli_fail("method", "%s", kw_last_error_reason());
     if (c->o.ref) {
         kw_status st;
         if ((st = kw_array_read(c->o.ref, &c->ref)))

@@ -121,7 +121,9 @@ int kw_cmd_render(int argc, char **argv)
     kw_png_opts po;
     kw_png_opts_default(&po);
     if (part && parse_part(part, &po.part))
-        return kw_cli_fail("part", "'%s' is not one of mag, phase, real, imag, logmag", part);
+        return kw_cli_choice_fail("part", "part", part,
+                                  (const char *const[]){"mag", "phase", "real", "imag", "logmag",
+                                                        "magnitude", "log-magnitude", NULL});
     if (depth != 8 && depth != 16)
         return kw_cli_fail("depth", "%ld bits is not supported (8 or 16)", depth);
     po.depth = (int)depth;

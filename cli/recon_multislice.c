@@ -211,8 +211,10 @@ static int open_kspace(ms_ctx *m)
 
     m->mname = o->method ? o->method : "fft";
     const kw_recon_method_info *mi = kw_recon_method_find(m->mname);
-    if (!mi)
-        return kw_cli_fail("method", "'%s' is not a method (see kweave recon --help)", m->mname);
+    if (!mi) {
+        (void)kw_recon_method_check(m->mname, 0, NULL); /* the list and a near miss */
+        return kw_cli_fail("method", "%s", kw_last_error_reason());
+    }
     if (!mi->cartesian)
         return kw_cli_fail("method", "%s takes non-Cartesian data only; multi-slice data are Cartesian", m->mname);
 

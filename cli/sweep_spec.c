@@ -252,9 +252,11 @@ static int read_pattern(const cJSON *e, int i, pat_spec *p)
     int known = 0;
     for (const char *const *k = kinds; kind && *k; k++)
         known |= strcmp(kind, *k) == 0;
-    if (!kind || !known)
-        return kw_cli_fail(f, "expected one of full uniform random poisson partial radial "
-                              "golden");
+    if (!kind)
+        return kw_cli_fail(f, "missing (one of: full, uniform, random, poisson, partial, radial, "
+                              "golden)");
+    if (!known)
+        return kw_cli_choice_fail(f, "kind", kind, kinds);
     snprintf(p->p.kind, sizeof p->p.kind, "%s", kind);
     if (!cJSON_IsObject(e))
         return 0;
@@ -464,8 +466,10 @@ int kw_sweep_load(const char *path, kw_sweep *sw)
         snprintf(f, sizeof f, "spec.methods[%d].name", i);
         const kw_recon_method_info *rm = name ? kw_recon_method_find(name) : NULL;
         if (!rm) {
-            rc = kw_cli_fail(f, "unknown method '%s' (kweave recon --help lists them)",
-                             name ? name : "(not a string)");
+            if (name)
+                (void)kw_recon_method_check(name, 0, NULL); /* the list and a near miss */
+            rc = name ? kw_cli_fail(f, "%s", kw_last_error_reason())
+                      : kw_cli_fail(f, "unknown method '(not a string)'");
             goto done;
         }
         snprintf(m->name, sizeof m->name, "%s", name);

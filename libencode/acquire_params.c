@@ -166,12 +166,11 @@ static kw_status parse_own(ain_vals *v, int k, const char *text)
                           v->fov[i]);
         return KW_OK;
     case A_SEQUENCE: {
-        static const char *const names[] = {"pd", "gre", "se", "ir"};
+        static const char *const names[] = {"pd", "gre", "se", "ir", NULL};
         for (v->seq = 0; v->seq < 4; v->seq++)
             if (strcmp(text, names[v->seq]) == 0)
                 return KW_OK;
-        return kw_set_error_param(KW_EINVAL, "sequence", "unknown sequence '%s' (pd, gre, se, ir)",
-                                  text);
+        return kw_param_choice_error("sequence", "sequence", text, names);
     }
     case A_BANDWIDTH:
         if (kw_unit_parse_bandwidth(text, &v->bw, &v->bw_pp, why, sizeof why))
@@ -277,8 +276,12 @@ static kw_status protocol_keys(kw_acquisition_input *in)
                                 strcmp(v, "radial") == 0 || strcmp(v, "spiral") == 0
                             ? "gre"
                         : strcmp(v, "se") == 0 ? "se" : NULL;
-        KW_FAIL_PARAM(!s, KW_EINVAL, "protocol", "sequence: '%s' is not gre, se, epi, radial or "
-                      "spiral", v);
+        static const char *const plan_seqs[] = {"gre", "se", "epi", "radial", "spiral", NULL};
+        const char *near = s ? NULL : kw_param_near(v, plan_seqs);
+        KW_FAIL_PARAM(!s && near, KW_EINVAL, "protocol", "sequence: unknown sequence '%s'; did you "
+                      "mean '%s'? (one of: gre, se, epi, radial, spiral)", v, near);
+        KW_FAIL_PARAM(!s, KW_EINVAL, "protocol", "sequence: unknown sequence '%s' (one of: gre, se, "
+                      "epi, radial, spiral)", v);
         kw_acquisition_input_set(in, "sequence", s);
     }
     static const int texts[] = {A_FOV, A_MATRIX, A_BANDWIDTH};

@@ -9,7 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 
-static _Thread_local char last_error[256];
+static _Thread_local char last_error[512];
 static _Thread_local char last_param[64];
 static _Thread_local const char *last_reason = "";
 

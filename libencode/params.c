@@ -30,6 +30,36 @@ int kw_param_distance(const char *a, const char *b)
     return row[nb];
 }
 
+const char *kw_param_near(const char *value, const char *const *names)
+{
+    const char *best = NULL;
+    int bd = 3;
+    for (size_t k = 0; value && names[k]; k++) {
+        int d = kw_param_distance(value, names[k]);
+        if (d < bd && d < (int)strlen(value)) {
+            bd = d;
+            best = names[k];
+        }
+    }
+    return best;
+}
+
+kw_status kw_param_choice_error(const char *param, const char *what, const char *value,
+                                const char *const *names)
+{
+    char list[384];
+    size_t used = 0;
+    list[0] = '\0';
+    for (size_t k = 0; names[k] && used < sizeof list; k++)
+        used += (size_t)snprintf(list + used, sizeof list - used, "%s%s", k ? ", " : "", names[k]);
+    const char *near = kw_param_near(value, names);
+    if (near)
+        return kw_set_error_param(KW_EINVAL, param, "unknown %s '%s'; did you mean '%s'? (one of: %s)",
+                                  what, value ? value : "", near, list);
+    return kw_set_error_param(KW_EINVAL, param, "unknown %s '%s' (one of: %s)", what,
+                              value ? value : "", list);
+}
+
 int kw_param_find(const kw_param_key *keys, const char *key)
 {
     if (!key) {

@@ -18,6 +18,16 @@ int kw_param_distance(const char *a, const char *b);
  * miss) set. */
 int kw_param_find(const kw_param_key *keys, const char *key);
 
+/* KW_EINVAL naming `param`: "unknown <what> '<value>'; did you mean
+ * '<near>'? (one of: a, b, c)" (the suggestion only for a near miss by edit
+ * distance). `names` is terminated by NULL. Returns KW_EINVAL. */
+kw_status kw_param_choice_error(const char *param, const char *what, const char *value,
+                                const char *const *names);
+
+/* The closest of `names` (NULL-terminated) to `value` when it is a near
+ * miss (edit distance under 3 and under its length), else NULL. */
+const char *kw_param_near(const char *value, const char *const *names);
+
 /* A key as `sp` spells it, with " value" / "=value" when value is not
  * NULL, into one of the rotating buffers of `sb` (valid until reused). */
 typedef struct kw_param_names {

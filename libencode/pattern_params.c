@@ -140,13 +140,14 @@ static kw_status parse_kind(const char *s, kw_pattern_kind *k)
         *k = (kw_pattern_kind)i;
         return KW_OK;
     }
-    char kinds[256]; /* name the kinds there are */
-    size_t used = 0;
-    kinds[0] = '\0';
-    for (int j = 0; kw_pattern_kind_name((kw_pattern_kind)j) && used < sizeof kinds; j++)
-        used += (size_t)snprintf(kinds + used, sizeof kinds - used, "%s%s", j ? ", " : "",
-                                 kw_pattern_kind_name((kw_pattern_kind)j));
-    return kw_set_error_param(KW_EINVAL, "kind", "unknown kind '%s' (%s)", s, kinds);
+    const char *names[32]; /* name the kinds there are */
+    int n = 0;
+    while (n < 31 && kw_pattern_kind_name((kw_pattern_kind)n)) {
+        names[n] = kw_pattern_kind_name((kw_pattern_kind)n);
+        n++;
+    }
+    names[n] = NULL;
+    return kw_param_choice_error("kind", "kind", s, names);
 }
 
 static kw_status set_value(pin_vals *v, int k, const char *text)

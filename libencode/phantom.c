@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "kw_tissue.h"
+#include "params_int.h"
 
 #define DEG (KW_PI / 180.0)
 
@@ -351,9 +352,9 @@ kw_status kw_phantom_make(kw_phantom *p, const char *name)
     } else if (strcmp(name, "weave3d") == 0) {
         make_weave(p, 1);
     } else {
-        return kw_set_error_param(KW_EINVAL, "name",
-                            "unknown phantom '%s' (shepp-logan, "
-                            "shepp-logan-modified, weave, weave3d)", name);
+        static const char *const known[] = {"shepp-logan", "shepp-logan-modified", "weave",
+                                            "weave3d", NULL};
+        return kw_param_choice_error("name", "phantom", name, known);
     }
     snprintf(p->name, sizeof p->name, "%s", name);
     return KW_OK;

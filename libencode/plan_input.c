@@ -65,7 +65,7 @@ static const struct key_def {
 #undef F
 };
 
-static const char *const seq_names[] = {"gre", "se", "epi", "radial", "spiral"};
+static const char *const seq_names[] = {"gre", "se", "epi", "radial", "spiral", NULL};
 
 /* The values read so far; a set works on a copy and commits it on success. */
 typedef struct pin_vals {
@@ -236,8 +236,7 @@ static kw_status set_value(pin_vals *v, int k, const char *val, int encode)
                 v->p.sequence = (kw_sequence_kind)s;
                 return KW_OK;
             }
-        return kw_set_error_param(KW_EINVAL, "sequence",
-                                  "'%s' is not gre, se, epi, radial or spiral", val);
+        return kw_param_choice_error("sequence", "sequence", val, seq_names);
     case K_FOV: return parse_fov(val, v->fov, &v->fov_n);
     case K_MATRIX: return parse_matrix(val, v->matrix, &v->matrix_n);
     case K_BANDWIDTH: return set_bandwidth(v, val);

@@ -45,12 +45,12 @@ cJSON *kw_plan_report_cjson(const kw_plan_report *r, double ref_factor)
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_BANDWIDTH_PIXEL), b->bandwidth_per_pixel_hz);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_READOUT_GRADIENT), b->readout_gradient_T_per_m);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_SLICE_GRADIENT), r->slice_gradient_T_per_m);
-    cJSON_AddNumberToObject(j, "rf_duration_s", r->rf_duration_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_RF_DURATION), r->rf_duration_s);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_TBW), p->tbw);
-    cJSON_AddNumberToObject(j, "gmax_T_per_m", p->gmax_T_per_m);
-    cJSON_AddNumberToObject(j, "slew_T_per_m_per_s", p->slew_T_per_m_per_s);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_GMAX), p->gmax_T_per_m);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_SLEW), p->slew_T_per_m_per_s);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_RASTER), p->raster_s);
-    cJSON_AddNumberToObject(j, "temperature_k", p->temperature_k);
+    cJSON_AddNumberToObject(j, RN_KEY(PLAN_TEMPERATURE), p->temperature_k);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_POLARIZATION), b->polarization);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_MIN_TE), r->min_te_s);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_MIN_TR), r->min_tr_s);
@@ -58,18 +58,18 @@ cJSON *kw_plan_report_cjson(const kw_plan_report *r, double ref_factor)
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_TR), r->tr_s);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_SCAN), r->scan_time_s);
     cJSON_AddNumberToObject(j, RN_KEY(PLAN_FAT_WATER), r->fat_water_hz);
-    kw_json_add_number_or_null(j, "chemical_shift_pixels", r->chemical_shift_pixels);
-    kw_json_add_number_or_null(j, "chemical_shift_mm", r->chemical_shift_mm);
+    kw_json_add_number_or_null(j, RN_KEY(PLAN_SHIFT_PIXELS), r->chemical_shift_pixels);
+    kw_json_add_number_or_null(j, RN_KEY(PLAN_SHIFT_MM), r->chemical_shift_mm);
     if (p->sequence == KW_SEQ_EPI) {
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_SPACING), r->echo_spacing_s);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_TRAIN_LENGTH), r->echo_train_length);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_ECHO_TRAIN), r->echo_train_s);
-        cJSON_AddNumberToObject(j, "effective_te_s", r->te_s);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_EFFECTIVE_TE), r->te_s);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_SHOTS), p->shots);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_PARTIAL_FOURIER), p->partial_fourier);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_DISTORTION), r->distortion_pixels_per_hz);
-        cJSON_AddNumberToObject(j, "chemical_shift_phase_pixels", r->chemical_shift_phase_pixels);
-        cJSON_AddNumberToObject(j, "chemical_shift_phase_mm", r->chemical_shift_phase_mm);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SHIFT_PHASE_PIXELS), r->chemical_shift_phase_pixels);
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_SHIFT_PHASE_MM), r->chemical_shift_phase_mm);
     }
     if (p->sequence == KW_SEQ_RADIAL) {
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_SPOKES_NYQUIST), r->spokes_nyquist);
@@ -79,7 +79,7 @@ cJSON *kw_plan_report_cjson(const kw_plan_report *r, double ref_factor)
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_INTERLEAVES), r->interleaves);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_READOUT_INTERLEAF), r->readout_per_interleave_s);
         cJSON_AddNumberToObject(j, RN_KEY(PLAN_SAMPLES_INTERLEAF), (double)r->spiral.samples);
-        cJSON_AddNumberToObject(j, "fat_water_cycles_per_readout",
+        cJSON_AddNumberToObject(j, RN_KEY(PLAN_FAT_CYCLES),
                                 r->fat_water_hz * r->readout_per_interleave_s);
     }
     kw_json_add_number_or_null(j, RN_KEY(PLAN_T2STAR_RATIO), r->readout_to_t2star);

@@ -34,6 +34,16 @@
     X(PLAN_SLICE_GRADIENT, "slice_select_gradient_T_per_m", "slice-select gradient", "mT/m") \
     X(PLAN_SLAB_GRADIENT, "slice_select_gradient_T_per_m", "slab-select gradient", "mT/m") \
     X(PLAN_TBW, "tbw", "TBW", "")                                                          \
+    X(PLAN_RF_DURATION, "rf_duration_s", "RF pulse", "ms")                                 \
+    X(PLAN_GMAX, "gmax_T_per_m", "gradient limit", "mT/m")                                 \
+    X(PLAN_SLEW, "slew_T_per_m_per_s", "slew limit", "T/m/s")                              \
+    X(PLAN_TEMPERATURE, "temperature_k", "polarization at", "K")                           \
+    X(PLAN_EFFECTIVE_TE, "effective_te_s", "effective", "ms")                              \
+    X(PLAN_SHIFT_PIXELS, "chemical_shift_pixels", "fat-water shift", "pixels")             \
+    X(PLAN_SHIFT_MM, "chemical_shift_mm", "fat-water shift", "mm")                         \
+    X(PLAN_SHIFT_PHASE_PIXELS, "chemical_shift_phase_pixels", "EPI phase direction", "pixels") \
+    X(PLAN_SHIFT_PHASE_MM, "chemical_shift_phase_mm", "EPI phase direction", "mm")         \
+    X(PLAN_FAT_CYCLES, "fat_water_cycles_per_readout", "cycles of phase by the end of the readout", "") \
     X(PLAN_SHOTS, "shots", "shot(s)", "")                                                  \
     X(PLAN_ECHO_TRAIN_LENGTH, "echo_train_length", "echo-train length", "")                \
     X(PLAN_ECHO_SPACING, "echo_spacing_s", "echo spacing", "ms")                           \

@@ -170,6 +170,17 @@ KW_API const kw_recon_method_info *kw_recon_methods(void);
 /*! kw_recon_method_find(): the entry named `name`, or NULL. */
 KW_API const kw_recon_method_info *kw_recon_method_find(const char *name);
 
+/*! kw_recon_method_check(): is `name` (NULL: the default, fft for Cartesian
+ * data, grid for non-Cartesian) a method for this kind of data? KW_OK with
+ * *info (when info is not NULL) set to its entry; else KW_EINVAL naming
+ * "method": an unknown name gets the closest method when it is a near miss
+ * and the list of methods ("unknown method 'sens'; did you mean 'sense'?
+ * (one of: fft, homodyne, ...)"), a known one the kind of data it takes.
+ * The checks kw_recon_create() makes, for a caller that wants them before
+ * reading its data. */
+KW_API kw_status kw_recon_method_check(const char *name, int noncartesian,
+                                       const kw_recon_method_info **info);
+
 /*! kw_recon_create(): check the request and plan. *r is NULL on failure. */
 KW_API kw_status kw_recon_create(kw_recon **r, const kw_recon_geometry *g,
                                  const kw_recon_options *o);

@@ -8,6 +8,7 @@
 #include <string.h>
 
 #include "kw_fft.h"
+#include "params_int.h"
 #include "recon_priv.h"
 
 static const kw_recon_method_info infos[] = {
@@ -60,6 +61,29 @@ const kw_recon_method_info *kw_recon_method_find(const char *name)
     return e ? e->info : NULL;
 }
 
+kw_status kw_recon_method_check(const char *name, int noncartesian,
+                                const kw_recon_method_info **info)
+{
+    if (!name)
+        name = noncartesian ? "grid" : "fft";
+    const kw_recon_method_entry *e = find_entry(name);
+    if (!e) {
+        const char *names[sizeof infos / sizeof infos[0]];
+        size_t n = 0;
+        for (; infos[n].name; n++)
+            names[n] = infos[n].name;
+        names[n] = NULL;
+        return kw_param_choice_error("method", "method", name, names);
+    }
+    KW_FAIL_PARAM(noncartesian && !e->info->noncartesian, KW_EINVAL, "method",
+                  "%s takes Cartesian data only; this input has a trajectory", name);
+    KW_FAIL_PARAM(!noncartesian && !e->info->cartesian, KW_EINVAL, "method",
+                  "%s takes non-Cartesian data only (give a trajectory)", name);
+    if (info)
+        *info = e->info;
+    return KW_OK;
+}
+
 void kw_recon_options_init(kw_recon_options *o)
 {
     if (!o)
@@ -73,9 +97,10 @@ void kw_recon_options_init(kw_recon_options *o)
 
 static kw_status check_options(const kw_recon_options *o)
 {
-    KW_FAIL_PARAM(o->combine && strcmp(o->combine, "rss") && strcmp(o->combine, "optimal") &&
-                      strcmp(o->combine, "adaptive"),
-                  KW_EINVAL, "combine", "'%s' is not rss, optimal or adaptive", o->combine);
+    static const char *const combines[] = {"rss", "optimal", "adaptive", NULL};
+    if (o->combine && strcmp(o->combine, "rss") && strcmp(o->combine, "optimal") &&
+        strcmp(o->combine, "adaptive"))
+        return kw_param_choice_error("combine", "combination", o->combine, combines);
     KW_FAIL_PARAM(o->kernel[0] < 0 || o->kernel[0] > 16 || o->kernel[1] < 0 || o->kernel[1] > 31,
                   KW_EINVAL, "kernel", "must be 1 <= KY <= 16, 1 <= KX <= 31 (0: default)");
     KW_FAIL_PARAM(!isnan(o->lambda) && !(o->lambda >= 0 && o->lambda < 1e6), KW_EINVAL, "lambda",
@@ -165,12 +190,9 @@ static kw_status create(kw_recon *r, const kw_recon_geometry *g, const kw_recon_
         r->has_claims = 1;
     }
     const char *name = r->o.method ? r->o.method : r->noncart ? "grid" : "fft";
+    if ((st = kw_recon_method_check(name, r->noncart, NULL)))
+        return st;
     r->m = find_entry(name);
-    KW_FAIL_PARAM(!r->m, KW_EINVAL, "method", "'%s' is not a method", name);
-    KW_FAIL_PARAM(r->noncart && !r->m->info->noncartesian, KW_EINVAL, "method",
-                  "%s takes Cartesian data only; this input has a trajectory", name);
-    KW_FAIL_PARAM(!r->noncart && !r->m->info->cartesian, KW_EINVAL, "method",
-                  "%s takes non-Cartesian data only (give a trajectory)", name);
     if (r->noncart) {
         if ((st = kw_nc_geometry(r)) || (st = kw_nc_weights(r)))
             return st;

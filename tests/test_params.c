@@ -208,7 +208,7 @@ Test(params, acquisition_bad_text_names_the_key)
     acq_refused("snr", "-3", "must be a positive number");
     acq_refused("snr", "nan", "is not a number");
     acq_refused("seed", "-1", "must be >= 0");
-    acq_refused("sequence", "xx", "unknown sequence 'xx' (pd, gre, se, ir)");
+    acq_refused("sequence", "xx", "unknown sequence 'xx' (one of: pd, gre, se, ir)");
     acq_refused("bandwidth", "-3kHz", "must be positive");
     acq_refused("te", "5", NULL);
     acq_refused("coils", "two", "is not a whole number");
@@ -268,7 +268,7 @@ Test(params, acquisition_protocol)
     const char bad[] = "sequence = foo\n";
     cr_assert_eq(kw_acquisition_input_protocol(in, bad, sizeof bad - 1), KW_OK);
     cr_expect_neq(kw_acquisition_input_finish(in, NULL, &o), KW_OK);
-    cr_expect_str_eq(kw_last_error(), "protocol: sequence: 'foo' is not gre, se, epi, radial or spiral");
+    cr_expect_str_eq(kw_last_error(), "protocol: sequence: unknown sequence 'foo' (one of: gre, se, epi, radial, spiral)");
     const char junk[] = "no equals sign\n";
     cr_expect_neq(kw_acquisition_input_protocol(in, junk, sizeof junk - 1), KW_OK);
     cr_expect_str_eq(kw_last_error_param(), "protocol");

@@ -168,7 +168,7 @@ Test(plan_input, bad_values_fail_as_the_command_does)
         {"fov", "256", NULL},
         {"matrix", "256y3", "matrix: '256y3' is not NX, NXxNY or NXxNYxNZ"},
         {"matrix", "9000", "matrix: 9000 is outside 1 to 8192"},
-        {"sequence", "fse", "sequence: 'fse' is not gre, se, epi, radial or spiral"},
+        {"sequence", "fse", "sequence: unknown sequence 'fse'; did you mean 'se'? (one of: gre, se, epi, radial, spiral)"},
         {"te", "0ms", "te: must be positive (got '0ms')"},
         {"tr", "-1ms", "tr: must be positive (got '-1ms')"},
         {"t2star", "0s", "t2star: must be positive (got '0s')"},

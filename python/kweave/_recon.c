@@ -277,13 +277,8 @@ static int maps_in(ReconObject *self, const recon_args *a)
 static int check_method(ReconObject *self, const recon_args *a)
 {
     const char *name = a->method ? a->method : self->noncart ? "grid" : "fft";
-    const kw_recon_method_info *m = kw_recon_method_find(name);
-    if (!m)
-        FAIL("method", "'%s' is not a method (see kweave recon --help)", name);
-    if (self->noncart && !m->noncartesian)
-        FAIL("method", "%s takes Cartesian data only; this input has a trajectory", name);
-    if (!self->noncart && !m->cartesian)
-        FAIL("method", "%s takes non-Cartesian data only (give trajectory)", name);
+    if (kw_recon_method_check(name, self->noncart, NULL))
+        FAIL("method", "%s", kw_last_error_reason());
     snprintf(self->method, sizeof self->method, "%s", name);
     return 0;
 }

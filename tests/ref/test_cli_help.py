@@ -81,10 +81,52 @@ def test_analyze_is_analyse(tmp_path):
 
 
 def test_unknown_kind_lists_the_kinds():
-    p = run("pattern", "--kind", "poison", "--matrix", "64", check=False)
+    p = run("pattern", "--kind", "nope", "--matrix", "64", check=False)
     assert p.returncode == 2
-    assert p.stderr.strip() == ("kweave: error: kind: unknown kind 'poison' (full, partial, uniform, "
-                                "random, poisson, lattice, radial, golden, stack-of-stars, spiral, epi)")
+    assert p.stderr.strip() == ("kweave: error: kind: unknown kind 'nope' (one of: full, partial, "
+                                "uniform, random, poisson, lattice, radial, golden, stack-of-stars, "
+                                "spiral, epi)")
+
+
+# Every enumerated value: a near miss gets the closest value, and the list.
+ENUMS = [
+    (["pattern", "--kind", "poison", "--matrix", "64"], "kind", "poisson", "spiral, epi"),
+    (["pattern", "--kind", "unifrom", "--matrix", "64"], "kind", "uniform", "spiral, epi"),
+    (["encode", "--phantom", "wave", "--fov", "200mm", "--matrix", "32"], "phantom", "weave",
+     "weave, weave3d"),
+    (["encode", "--phantom", "weave", "--fov", "200mm", "--matrix", "32", "--sequence", "gr"],
+     "sequence", "gre", "pd, gre, se, ir"),
+    (["plan", "--sequence", "epo", "--fov", "200mm", "--matrix", "64"], "sequence", "epi",
+     "gre, se, epi, radial, spiral"),
+    (["recon", "--method", "sens"], "method", "sense", "cs-wavelet-admm, cs-tv-admm"),
+    (["recon", "--method", "grapa"], "method", "grappa", "fft, homodyne, pocs"),
+    (["recon", "--combine", "rms"], "combine", "rss", "rss, optimal, adaptive"),
+    (["render", "--part", "magn"], "part", "mag", "mag, phase, real, imag, logmag"),
+]
+
+
+@pytest.mark.parametrize("args,field,near,listed", ENUMS)
+def test_an_unknown_value_names_the_closest_and_the_list(tmp_path, args, field, near, listed):
+    import numpy as np
+    np.save(tmp_path / "ks.npy", np.ones((2, 8, 8), np.complex64))
+    verb = args[0]
+    extra = {"recon": ["--in", tmp_path / "ks.npy", "--out", tmp_path / "o.npy"],
+             "render": ["--in", tmp_path / "ks.npy", "--out", tmp_path / "o.png"],
+             "encode": ["--out", tmp_path / "o.npy"],
+             "pattern": ["--out", tmp_path / "o.npy"], "plan": []}[verb]
+    p = run(*args, *extra, check=False)
+    assert p.returncode == 2
+    line = p.stderr.strip()
+    assert line.count("\n") == 0, line
+    assert line.startswith(f"kweave: error: {field}: unknown "), line
+    assert f"; did you mean '{near}'? (one of: " in line and listed in line, line
+    assert not any((tmp_path / n).exists() for n in ("o.npy", "o.png"))
+
+
+def test_an_unknown_value_far_from_all_has_no_suggestion(tmp_path):
+    p = run("render", "--in", tmp_path / "x.npy", "--out", tmp_path / "o.png", "--part", "zzzzzz",
+            check=False)
+    assert p.returncode == 2 and "did you mean" not in p.stderr and "(one of: mag," in p.stderr
 
 
 def test_a_field_without_tabulated_times_names_the_tissue_option(tmp_path):
