@@ -123,6 +123,28 @@ Test(recon_api, options_init)
     kw_recon_destroy(NULL);
 }
 
+/* An unknown method: the closest name for a near miss, and the whole list. */
+Test(recon_api, method_check_suggests_and_lists)
+{
+    const kw_recon_method_info *info = NULL;
+    cr_expect_eq(kw_recon_method_check("cs-tv", 1, &info), KW_OK);
+    cr_expect_str_eq(info->name, "cs-tv");
+    cr_expect_eq(kw_recon_method_check(NULL, 1, &info), KW_OK);
+    cr_expect_str_eq(info->name, "grid");
+    cr_expect_eq(kw_recon_method_check(NULL, 0, &info), KW_OK);
+    cr_expect_str_eq(info->name, "fft");
+    cr_expect_eq(kw_recon_method_check("sens", 0, NULL), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "method");
+    cr_expect_str_eq(kw_last_error(), "method: unknown method 'sens'; did you mean 'sense'? (one of: "
+                                      "fft, homodyne, pocs, sense, grappa, grid, cg-sense, "
+                                      "cs-wavelet, cs-tv, cs-wavelet-admm, cs-tv-admm)");
+    cr_expect_eq(kw_recon_method_check("zzzzzzz", 0, NULL), KW_EINVAL);
+    cr_expect_null(strstr(kw_last_error(), "did you mean"));
+    cr_expect_eq(kw_recon_method_check("grid", 0, NULL), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error(), "method: grid takes non-Cartesian data only (give a trajectory)");
+    cr_expect_eq(kw_recon_method_check("sense", 1, NULL), KW_EINVAL);
+}
+
 Test(recon_api, fft_optimal)
 {
     simulate();
