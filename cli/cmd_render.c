@@ -3,13 +3,14 @@
  *   kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]
  *                 [--depth 8|16] [--window LO:HI] [--montage]
  *                 [--bar LABEL] [--units UNITS] [--title TEXT] [--tile-label WORD]
+ *                 [--tile-labels LIST] [--columns N]
  *
  * "-" reads standard input / writes standard output. Arrays of 3 or more
  * dimensions always come out as a montage of their 2-D slices (png.h);
  * --montage says so explicitly and refuses inputs with fewer than 3 dims, so
  * a script that expects a stack notices when it gets a single picture.
  *
- * Without --bar, --units, --title and --tile-label the output is the bare
+ * Without --bar, --units, --title, --tile-label(s) and --columns the output is the bare
  * picture (one pixel per value, grey PNG of the array's size: for pipelines);
  * any of them makes it a figure (figure.h: grey bar with values, quantity
  * and units, title, montage tiles with gaps and labels; 8-bit RGB). */
@@ -27,13 +28,14 @@
 static const char usage_text[] =
     "usage: kweave render --in X.npy --out X.png [--part mag|phase|real|imag|logmag]\n"
     "                     [--depth 8|16] [--window LO:HI] [--montage]\n"
-    "                     [--bar LABEL] [--units UNITS] [--title TEXT] [--tile-label WORD]\n\n"
+    "                     [--bar LABEL] [--units UNITS] [--title TEXT] [--tile-label WORD]\n"
+    "                     [--tile-labels LIST] [--columns N]\n\n"
     "Draws any .npy array as a grey-scale PNG. 2-D arrays are one picture (row 0\n"
     "at the top); 3+-D arrays are a montage of their 2-D slices (last two axes)\n"
     "on a near-square grid. The automatic window runs from 0 (or the minimum if\n"
     "a value is negative) to the 99.5th percentile; phase uses -pi..pi.\n"
     "\"-\" means standard input / standard output.\n\n"
-    "Without --bar, --units, --title or --tile-label the PNG is the bare picture\n"
+    "Without --bar, --units, --title, --tile-label(s) or --columns the PNG is the bare picture\n"
     "(one pixel per value, grey). Any of them draws a figure instead: a grey bar\n"
     "beside the picture with its values, the quantity and the units, a title,\n"
     "and a montage with gaps between tiles (labelled WORD 0, 1, ...) on a\n"
@@ -86,7 +88,8 @@ int kw_cmd_render(int argc, char **argv)
     kw_figure_opts_default(&fo);
     long depth = 8;
     int montage = 0;
-    int seen[9] = {0};
+    int seen[11] = {0};
+    long columns = 0;
     const kw_opt table[] = {
         {"in", KW_OPT_STRING, &in, KW_UNIT_NONE, &seen[0], "input .npy (\"-\": stdin) or FILE.h5:/dataset (required)"},
         {"out", KW_OPT_STRING, &out, KW_UNIT_NONE, &seen[1], "output .png (\"-\": stdout) (required)"},
@@ -105,10 +108,15 @@ int kw_cmd_render(int argc, char **argv)
          "figure; title above the picture (default none)"},
         {"tile-label", KW_OPT_STRING, &fo.tile_label, KW_UNIT_NONE, &seen[8],
          "figure; montage tiles labelled WORD 0, 1, ... e.g. coil (default none)"},
+        {"tile-labels", KW_OPT_STRING, &fo.tile_names, KW_UNIT_NONE, &seen[9],
+         "figure; one label per montage tile, comma-separated, e.g. truth,grid,cg-sense "
+         "(default none)"},
+        {"columns", KW_OPT_INT, &columns, KW_UNIT_NONE, &seen[10],
+         "figure; montage columns (default: the grid without empty tiles)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
     static const kw_opt_arg args[] = {{"bar", "LABEL"}, {"title", "TEXT"}, {"tile-label", "WORD"},
-                                      {NULL, NULL}};
+                                      {"tile-labels", "LIST"}, {NULL, NULL}};
     kw_opts_set_args(args);
     int rc = kw_opts_parse(argc, argv, table, usage_text, NULL, 0, NULL);
     if (rc >= 0)
@@ -127,9 +135,15 @@ int kw_cmd_render(int argc, char **argv)
     if (depth != 8 && depth != 16)
         return kw_cli_fail("depth", "%ld bits is not supported (8 or 16)", depth);
     po.depth = (int)depth;
-    int figure = seen[5] || seen[6] || seen[7] || seen[8];
+    int figure = seen[5] || seen[6] || seen[7] || seen[8] || seen[9] || seen[10];
+    if (seen[8] && seen[9])
+        return kw_cli_fail("tile-labels", "give --tile-label WORD or --tile-labels LIST, not both");
+    if (seen[10] && columns < 1)
+        return kw_cli_fail("columns", "%ld is not a number of columns (1 or more)", columns);
+    fo.columns = seen[10] ? (size_t)columns : 0;
     if (figure && depth != 8)
-        return kw_cli_fail("depth", "a figure (--bar, --units, --title, --tile-label) is 8-bit; "
+        return kw_cli_fail("depth", "a figure (--bar, --units, --title, --tile-label, --tile-labels, "
+                           "--columns) is 8-bit; "
                            "leave those out for a 16-bit bare picture");
     if (window) {
         rc = parse_window(window, &po.lo, &po.hi);
@@ -151,6 +165,24 @@ int kw_cmd_render(int argc, char **argv)
     if (kw_array_count(&a) == 0) {
         kw_array_free(&a);
         return kw_cli_fail("in", "the array is empty (a dimension is 0), nothing to draw");
+    }
+    if (seen[9] || seen[10]) { /* one label per tile; columns within the tiles */
+        size_t tiles = 1, names = 1;
+        for (int d = 0; d + 2 < a.ndim; d++)
+            tiles *= a.dims[d];
+        for (const char *c = fo.tile_names; c && *c; c++)
+            names += *c == ',';
+        int nd = a.ndim;
+        if (nd < 3 || (seen[9] && names != tiles) || (seen[10] && (size_t)columns > tiles)) {
+            kw_array_free(&a);
+            if (nd < 3)
+                return kw_cli_fail(seen[9] ? "tile-labels" : "columns",
+                                   "the input is one picture, not a stack of tiles");
+            if (seen[9] && names != tiles)
+                return kw_cli_fail("tile-labels", "%zu label%s for %zu tiles (give one per tile)",
+                                   names, names == 1 ? "" : "s", tiles);
+            return kw_cli_fail("columns", "%ld columns for %zu tiles", columns, tiles);
+        }
     }
     /* The picture needs the values shown and a scratch copy for the
      * percentile (2 floats per element) and the pixels (up to 2 bytes each,

@@ -35,6 +35,8 @@ void kw_figure_opts_default(kw_figure_opts *f)
     f->quantity = NULL;
     f->units = NULL;
     f->tile_label = NULL;
+    f->tile_names = NULL;
+    f->columns = 0;
 }
 
 /* Release cairo's and fontconfig's process-wide caches once a figure is
@@ -171,8 +173,19 @@ static void text_at(cairo_t *cr, double x, double y, const char *s, double align
 
 /* The tile index as text: the flat index for a stack of 2-D slices, all the
  * leading indices ("1,3") for more dimensions. */
-static void tile_name(char *b, size_t n, const kw_array *a, size_t s, const char *word)
+static void tile_name(char *b, size_t n, const kw_array *a, size_t s, const kw_figure_opts *fo)
 {
+    if (fo->tile_names) { /* the s-th comma-separated name */
+        const char *t = fo->tile_names;
+        for (size_t i = 0; i < s && t; i++) {
+            t = strchr(t, ',');
+            t = t ? t + 1 : NULL;
+        }
+        size_t len = t ? strcspn(t, ",") : 0;
+        snprintf(b, n, "%.*s", (int)(len < n ? len : n - 1), t ? t : "");
+        return;
+    }
+    const char *word = fo->tile_label;
     int lead = a->ndim - 2;
     char idx[96] = "";
     size_t rest = s, len = 0;
@@ -201,7 +214,10 @@ static kw_status plan_layout(cairo_t *cr, layout *L, const kw_png_values *pv,
                              size_t nt, double step)
 {
     size_t ns = pv->ns;
-    if (ns > 1)
+    if (ns > 1 && fo->columns > 0) {
+        L->cols = fo->columns < ns ? fo->columns : ns;
+        L->rows = (ns + L->cols - 1) / L->cols;
+    } else if (ns > 1)
         kw_figure_grid(ns, &L->cols, &L->rows);
     else
         L->cols = L->rows = 1;
@@ -213,7 +229,7 @@ static kw_status plan_layout(cairo_t *cr, layout *L, const kw_png_values *pv,
                L->rows, pv->w, pv->h, MAX_SIDE);
     L->tw = (int)(pv->w * L->k);
     L->th = (int)(pv->h * L->k);
-    L->label_h = (ns > 1 && fo->tile_label) ? TILE_LABEL_H : 0;
+    L->label_h = (ns > 1 && (fo->tile_label || fo->tile_names)) ? TILE_LABEL_H : 0;
     L->gap = ns > 1 ? GAP : 0;
     int title_h = (fo->title && fo->title[0]) ? TITLE_H : 0;
     L->px = MARGIN;
@@ -271,7 +287,7 @@ static void draw_text(cairo_t *cr, const layout *L, const kw_array *a, const kw_
         cairo_set_font_size(cr, 12);
         for (size_t s = 0; s < pv->ns; s++) {
             char b[160];
-            tile_name(b, sizeof b, a, s, fo->tile_label);
+            tile_name(b, sizeof b, a, s, fo);
             int x0 = L->px + (int)(s % L->cols) * (L->tw + L->gap);
             int y0 = L->py + (int)(s / L->cols) * (L->th + L->label_h + L->gap);
             text_at(cr, x0 + 1, y0 + L->label_h / 2.0, b, 0);

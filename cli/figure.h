@@ -25,6 +25,9 @@ typedef struct kw_figure_opts {
     const char *units;      /* "(UNITS)" after the quantity; NULL or "": none */
     const char *tile_label; /* montage tiles "WORD i" (i from 0, the index along the
                              * stack); NULL: tiles unlabelled; "": the index alone */
+    const char *tile_names; /* "a,b,c": one name per tile, in stack order (instead of
+                             * tile_label); the caller checks the count */
+    size_t columns;         /* montage columns; 0: kw_figure_grid() */
 } kw_figure_opts;
 
 /*! kw_figure_opts_default(): no title, the part's name, no units, no tile labels. */

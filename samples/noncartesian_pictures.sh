@@ -24,7 +24,8 @@
 # 5. Pictures: every image as OUTDIR/<name>.png (window 0 .. 1.1 x the
 #    truth's maximum, shared by all), and two strips:
 #    OUTDIR/noncartesian.png (truth | golden grid | golden cg-sense |
-#    spiral grid | spiral cg-sense) and OUTDIR/cs.png (truth | zero-filled |
+#    spiral grid | spiral cg-sense; labelled tiles, a grey bar) and
+#    OUTDIR/cs.png (truth | zero-filled |
 #    cg-sense | cs-wavelet | cs-tv lambda 0.03 | cs-tv), each with a row of
 #    |image - truth| x 5 below in the same window.
 # Environment: KWEAVE (default build/kweave), PY (default /usr/bin/python3),
@@ -104,10 +105,10 @@ hi = 1.1 * t.max()
 def img(name):
     return np.abs(np.load(f"{out}/{name}.npy")) if name != "truth" else t
 def strip(names, fname):
+    # a stack of tiles: the images, then |image - truth| x 5 below each
     ims = [img(n) for n in names]
-    top = np.concatenate(ims, 1)
-    err = np.concatenate([np.abs(i - t) * 5 for i in ims], 1)
-    np.save(f"{out}/{fname}.npy", np.concatenate([top, err], 0).astype(np.float32))
+    err = [np.abs(i - t) * 5 for i in ims]
+    np.save(f"{out}/{fname}.npy", np.stack(ims + err).astype(np.float32))
 strip(["truth", "golden_grid", "golden_cg", "spiral_grid", "spiral_cg"], "strip_noncartesian")
 strip(["truth", "vd4_zf", "vd4_cg", "vd4_csw", "vd4_cstv", "vd4_cstv3"], "strip_cs")
 open(f"{out}/window.txt", "w").write("0:%.6g\n" % hi)
@@ -116,8 +117,14 @@ WIN=$(cat "$OUT/window.txt")
 for f in truth golden_grid golden_cg spiral_grid spiral_cg vd4_zf vd4_cg vd4_csw vd4_cstv vd4_cstv3; do
     "$KWEAVE" render $Q --in "$OUT/$f.npy" --out "$OUT/$f.png" --window "$WIN"
 done
-"$KWEAVE" render $Q --in "$OUT/strip_noncartesian.npy" --out "$OUT/noncartesian.png" --window "$WIN"
-"$KWEAVE" render $Q --in "$OUT/strip_cs.npy" --out "$OUT/cs.png" --window "$WIN"
+"$KWEAVE" render $Q --in "$OUT/strip_noncartesian.npy" --out "$OUT/noncartesian.png" --window "$WIN" \
+    --columns 5 --bar "magnitude" --units "a.u." \
+    --title "golden-angle radial and spiral; below: |image - truth| x 5" \
+    --tile-labels "truth,radial grid,radial cg-sense,spiral grid,spiral cg-sense,(truth: 0),error x 5,error x 5,error x 5,error x 5"
+"$KWEAVE" render $Q --in "$OUT/strip_cs.npy" --out "$OUT/cs.png" --window "$WIN" \
+    --columns 6 --bar "magnitude" --units "a.u." \
+    --title "Cartesian variable-density R = 4.9; below: |image - truth| x 5" \
+    --tile-labels "truth,zero-filled,cg-sense,cs-wavelet,cs-tv 0.03,cs-tv 0.003,(truth: 0),error x 5,error x 5,error x 5,error x 5,error x 5"
 "$KWEAVE" render $Q --in "$OUT/vd4.npy" --out "$OUT/vd4_mask.png"
 
 {

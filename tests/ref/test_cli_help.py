@@ -14,7 +14,7 @@ VERBS = ["plan", "pattern", "encode", "recon", "score", "render", "sweep", "demo
 # placeholders by type (cli/cli.c): quantities by kind, N integer, X number,
 # FILE / DIR, SIZE (--max-memory), and a few texts named for what they hold
 TYPED = {"LENGTH", "FIELD", "GRADIENT", "SLEW", "FREQ", "TIME", "TEMP", "ANGLE", "PPM", "N", "X",
-         "FILE", "DIR", "SIZE", "BANDWIDTH", "LABEL", "TEXT", "WORD"}
+         "FILE", "DIR", "SIZE", "BANDWIDTH", "LABEL", "TEXT", "WORD", "LIST"}
 
 
 @pytest.mark.parametrize("verb,opt,arg", [

@@ -139,6 +139,43 @@ def test_montage_empty_tile_is_background(tmp_path):
     assert (fig[y1:y1 + t, M:M + t, 0] == 128).all()
 
 
+def test_columns_and_one_label_per_tile(tmp_path):
+    # 6 tiles in 3 columns (2 x 3 would be the default grid's choice too, so
+    # ask for 2 columns: 3 rows); each tile's label strip has ink, and the
+    # labels differ from one another (distinct names drawn).
+    v = np.random.default_rng(4).uniform(0, 0.9, (6, 30, 40)).astype(np.float32)
+    np.save(tmp_path / "m.npy", v)
+    run("render", "--in", tmp_path / "m.npy", "--out", tmp_path / "m.png", "--window", "0:1",
+        "--columns", "2", "--tile-labels", "truth,grid,cg-sense,cs-wavelet,cs-tv,error x 5")
+    _, fig = load(tmp_path / "m.png")
+    k = 128 // 40
+    tw, th = 40 * k, 30 * k
+    strips = []
+    for s in range(6):
+        r, c = divmod(s, 2)
+        x0 = M + c * (tw + GAP)
+        y0 = M + LABEL + r * (th + LABEL + GAP)
+        np.testing.assert_array_equal(fig[y0:y0 + th, x0:x0 + tw, 0], magnify(levels(v[s], 0, 1), k))
+        strip = fig[y0 - LABEL:y0, x0:x0 + tw, 0]
+        assert (strip < 128).sum() > 10, f"tile {s} has no label"
+        strips.append(strip)
+    assert len({st.tobytes() for st in strips}) == 6
+    check_bar(fig, M + 2 * tw + GAP + BAR_GAP, M + LABEL, M + 3 * (th + LABEL) + 2 * GAP)
+
+
+@pytest.mark.parametrize("args,field", [
+    (["--tile-labels", "a,b"], "tile-labels"),                 # 3 tiles, 2 labels
+    (["--tile-labels", "a,b,c,d"], "tile-labels"),
+    (["--tile-labels", "a,b,c", "--tile-label", "coil"], "tile-labels"),
+    (["--columns", "0"], "columns"),
+    (["--columns", "4"], "columns"),                           # more than the tiles
+])
+def test_tile_labels_and_columns_refused(tmp_path, args, field):
+    np.save(tmp_path / "m.npy", np.ones((3, 8, 8), np.float32))
+    bad("render", "--in", tmp_path / "m.npy", "--out", tmp_path / "m.png", *args, field=field)
+    assert not (tmp_path / "m.png").exists()
+
+
 def test_figure_options_refuse_16_bits(tmp_path):
     np.save(tmp_path / "a.npy", np.ones((4, 4), np.float32))
     bad("render", "--in", tmp_path / "a.npy", "--out", tmp_path / "a.png", "--depth", "16",
