@@ -290,7 +290,11 @@ static void draw_text(cairo_t *cr, const layout *L, const kw_array *a, const kw_
             tile_name(b, sizeof b, a, s, fo);
             int x0 = L->px + (int)(s % L->cols) * (L->tw + L->gap);
             int y0 = L->py + (int)(s / L->cols) * (L->th + L->label_h + L->gap);
+            cairo_save(cr); /* a long label is cut at its tile's edge, never over the next */
+            cairo_rectangle(cr, x0, y0, L->tw, L->label_h);
+            cairo_clip(cr);
             text_at(cr, x0 + 1, y0 + L->label_h / 2.0, b, 0);
+            cairo_restore(cr);
         }
     }
     /* bar outline, ticks and their values */

@@ -99,7 +99,7 @@ import numpy as np
 out, n = sys.argv[1], int(sys.argv[2])
 ld = lambda f: np.abs(np.load(f"{out}/{f}_img.npy"))
 c = [ld(f) for f in ("pd", "gre", "se", "ir")]
-np.save(f"{out}/strip_contrast.npy", np.concatenate([i / i.max() for i in c], 1).astype(np.float32))
+np.save(f"{out}/strip_contrast.npy", np.stack([i / i.max() for i in c]).astype(np.float32))
 pairs = [("fat0", "fat1"), ("fm0", "fm1"), ("epi0", "epi1"), ("rad0", "rad1"), ("sp0", "sp1"),
          ("nz0", "nz1")]
 top, bot = [], []
@@ -108,8 +108,7 @@ for a, b in pairs:
     m = ia.max()
     top.append(ib / m)
     bot.append(np.abs(ib - ia) / m * 4)
-np.save(f"{out}/strip_offres.npy",
-        np.concatenate([np.concatenate(top, 1), np.concatenate(bot, 1)], 0).astype(np.float32))
+np.save(f"{out}/strip_offres.npy", np.stack(top + bot).astype(np.float32))
 side = lambda f: json.load(open(f"{out}/{f}.json"))
 plan = json.load(open(f"{out}/epi_plan.json"))
 with open(f"{out}/predictions.txt", "w") as o:
@@ -127,6 +126,11 @@ with open(f"{out}/predictions.txt", "w") as o:
             % (np.ptp(np.load(f"{out}/spiral_times.npy")) * 1e3,
                150 * np.ptp(np.load(f"{out}/spiral_times.npy"))))
 PYEOF
-"$KWEAVE" render $Q --in "$OUT/strip_contrast.npy" --out "$OUT/contrast.png" --window 0:1
-"$KWEAVE" render $Q --in "$OUT/strip_offres.npy" --out "$OUT/offres.png" --window 0:1.1
+"$KWEAVE" render $Q --in "$OUT/strip_contrast.npy" --out "$OUT/contrast.png" --window 0:1 \
+    --columns 4 --bar "signal / image maximum" --title "contrast at 3 T (each image to its own maximum)" \
+    --tile-labels "proton density,GRE (T1-weighted),SE (T2-weighted),IR (WM nulled)"
+"$KWEAVE" render $Q --in "$OUT/strip_offres.npy" --out "$OUT/offres.png" --window 0:1.1 \
+    --columns 6 --bar "signal / maximum without the effect" \
+    --title "each effect; below: |with - without| x 4" \
+    --tile-labels "fat 100 Hz/px,150 Hz bump,bump in EPI,bump radial,bump spiral,noise rho 0.5,x 4,x 4,x 4,x 4,x 4,x 4"
 cat "$OUT/predictions.txt"
