@@ -97,6 +97,23 @@ def test_title_moves_the_picture_down(tmp_path):
     assert (fig[M:M + TITLE - 4, M:M + 100, 0] < 128).any()  # the title's text
 
 
+def check_labelled_tiles(fig, v, cols, k, ink):
+    """Each tile of the stack v (window 0:1, magnified k) at its place on a
+    grid of `cols` columns with label strips; each strip has ink. Returns the
+    strips."""
+    th, tw = v.shape[1] * k, v.shape[2] * k
+    strips = []
+    for s in range(v.shape[0]):
+        r, c = divmod(s, cols)
+        x0 = M + c * (tw + GAP)
+        y0 = M + LABEL + r * (th + LABEL + GAP)
+        np.testing.assert_array_equal(fig[y0:y0 + th, x0:x0 + tw, 0], magnify(levels(v[s], 0, 1), k))
+        strip = fig[y0 - LABEL:y0, x0:x0 + tw, 0]
+        assert (strip < 128).sum() > ink, f"tile {s} has no label"
+        strips.append(strip)
+    return strips
+
+
 def test_montage_gaps_labels_and_no_empty_tile(tmp_path):
     # 8 tiles -> 4 x 2 with no empty tile; values below 1 with window 0:1, so
     # no tile pixel is white and white columns are gaps.
@@ -107,13 +124,7 @@ def test_montage_gaps_labels_and_no_empty_tile(tmp_path):
     _, fig = load(tmp_path / "m.png")
     k = 128 // 50  # 2
     tw, th = 50 * k, 40 * k
-    for s in range(8):
-        r, c = divmod(s, 4)
-        x0 = M + c * (tw + GAP)
-        y0 = M + LABEL + r * (th + LABEL + GAP)
-        np.testing.assert_array_equal(fig[y0:y0 + th, x0:x0 + tw, 0], magnify(levels(v[s], 0, 1), k))
-        strip = fig[y0 - LABEL:y0, x0:x0 + tw, 0]
-        assert (strip < 128).sum() > 20, f"tile {s} has no label"
+    check_labelled_tiles(fig, v, 4, k, ink=20)
     # along a row through the first tile row: four runs of picture, gaps white
     row = fig[M + LABEL + th // 2, M:M + 4 * tw + 3 * GAP, 0]
     white = row == 255
@@ -150,15 +161,7 @@ def test_columns_and_one_label_per_tile(tmp_path):
     _, fig = load(tmp_path / "m.png")
     k = 128 // 40
     tw, th = 40 * k, 30 * k
-    strips = []
-    for s in range(6):
-        r, c = divmod(s, 2)
-        x0 = M + c * (tw + GAP)
-        y0 = M + LABEL + r * (th + LABEL + GAP)
-        np.testing.assert_array_equal(fig[y0:y0 + th, x0:x0 + tw, 0], magnify(levels(v[s], 0, 1), k))
-        strip = fig[y0 - LABEL:y0, x0:x0 + tw, 0]
-        assert (strip < 128).sum() > 10, f"tile {s} has no label"
-        strips.append(strip)
+    strips = check_labelled_tiles(fig, v, 2, k, ink=10)
     assert len({st.tobytes() for st in strips}) == 6
     check_bar(fig, M + 2 * tw + GAP + BAR_GAP, M + LABEL, M + 3 * (th + LABEL) + 2 * GAP)
 
