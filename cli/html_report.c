@@ -525,75 +525,126 @@ static int row_ok(const cJSON *o)
 static const char *const score_key[] = {"nrmse", "psnr_db", "ssim"};
 static const int score_prec[] = {4, 2, 4};
 
-/* Mean scores over the seeds of each group of rows that share every varying
- * parameter, groups in the order of the spec. */
-static void sweep_means(FILE *f, const kw_sweep *sw, cJSON *const *rows, const int *vary)
+/* A row's group: its varying parameters' cells joined (unit separator). */
+typedef struct group_key {
+    char *key;
+    int row;
+} group_key;
+
+static int group_key_cmp(const void *pa, const void *pb)
 {
-    fputs("<h2>Mean scores over seeds</h2>\n<table>\n<thead><tr>", f);
+    const group_key *a = pa, *b = pb;
+    int c = strcmp(a->key, b->key);
+    return c ? c : (a->row > b->row) - (a->row < b->row);
+}
+
+/* A group: where it starts in the sorted keys, and its first row. */
+typedef struct group_span {
+    int start, row;
+} group_span;
+
+static int group_first_cmp(const void *pa, const void *pb)
+{
+    const group_span *a = pa, *b = pb;
+    return (a->row > b->row) - (a->row < b->row);
+}
+
+static char *row_group_key(const cJSON *row_obj, const int *vary)
+{
+    size_t len = 1;
+    char b[256];
+    for (int k = 0; k < NGROUP; k++)
+        if (vary[k]) {
+            cell_text(b, sizeof b, row_obj, sweep_params[k]);
+            len += strlen(b) + 1;
+        }
+    char *key = kw_alloc(len), *p = key;
+    for (int k = 0; key && k < NGROUP; k++)
+        if (vary[k]) {
+            cell_text(b, sizeof b, row_obj, sweep_params[k]);
+            size_t n = strlen(b);
+            memcpy(p, b, n);
+            p[n] = '\x1f';
+            p += n + 1;
+        }
+    if (key)
+        *p = '\0';
+    return key;
+}
+
+/* One group's row of the table: its parameters, how many rows are ok, the
+ * mean scores of those. rows[idx[0..n)] make the group. */
+static void group_row(FILE *f, cJSON *const *rows, const group_key *idx, int n, const int *vary)
+{
+    double sum[3] = {0, 0, 0};
+    int nok = 0;
+    for (int i = 0; i < n; i++) {
+        const cJSON *o = rows[idx[i].row];
+        double v[3];
+        int good = row_ok(o);
+        for (int m = 0; m < 3 && good; m++)
+            good = kw_json_get_number(o, score_key[m], &v[m]) == KW_OK;
+        if (good) {
+            for (int m = 0; m < 3; m++)
+                sum[m] += v[m];
+            nok++;
+        }
+    }
+    fputs("<tr>", f);
     for (int k = 0; k < NGROUP; k++)
         if (vary[k])
-            fprintf(f, "<th>%s</th>", sweep_params[k]);
-    fputs("<th>rows ok</th><th>NRMSE</th><th>PSNR (dB)</th><th>SSIM</th></tr></thead>\n<tbody>\n",
-          f);
-    char a[256], b[256];
-    for (int r = 0; r < sw->nrows; r++) {
-        if (!rows[r])
-            continue;
-        int seen = 0;
-        for (int q = 0; q < r && !seen; q++) {
-            if (!rows[q])
-                continue;
-            int same = 1;
-            for (int k = 0; k < NGROUP && same; k++) {
-                if (!vary[k])
-                    continue;
-                cell_text(a, sizeof a, rows[r], sweep_params[k]);
-                cell_text(b, sizeof b, rows[q], sweep_params[k]);
-                same = strcmp(a, b) == 0;
-            }
-            seen = same;
+            td_text(f, rows[idx[0].row], sweep_params[k]);
+    fprintf(f, "<td class=\"n\">%d of %d</td>", nok, n);
+    for (int m = 0; m < 3; m++)
+        if (nok)
+            td_num(f, sum[m] / nok, score_prec[m]);
+        else
+            fputs("<td>&mdash;</td>", f);
+    fputs("</tr>\n", f);
+}
+
+/* Mean scores over the seeds of each group of rows that share every varying
+ * parameter, groups in the order of the spec (of their first row). Rows are
+ * grouped by sorting their keys: n log n for sweeps of many rows. */
+static kw_status sweep_means(FILE *f, const kw_sweep *sw, cJSON *const *rows, const int *vary)
+{
+    int n = 0;
+    group_key *g = kw_alloc_n((size_t)sw->nrows + 1, sizeof *g);
+    group_span *first = kw_alloc_n((size_t)sw->nrows + 1, sizeof *first);
+    kw_status st = g && first ? KW_OK : kw_set_error(KW_ENOMEM, "report: out of memory");
+    for (int r = 0; !st && r < sw->nrows; r++)
+        if (rows[r]) {
+            g[n].row = r;
+            if (!(g[n++].key = row_group_key(rows[r], vary)))
+                st = kw_set_error(KW_ENOMEM, "report: out of memory");
         }
-        if (seen)
-            continue; /* counted with the first row of its group */
-        double sum[3] = {0, 0, 0};
-        int nok = 0, nall = 0;
-        for (int q = r; q < sw->nrows; q++) {
-            if (!rows[q])
-                continue;
-            int same = 1;
-            for (int k = 0; k < NGROUP && same; k++) {
-                if (!vary[k])
-                    continue;
-                cell_text(a, sizeof a, rows[r], sweep_params[k]);
-                cell_text(b, sizeof b, rows[q], sweep_params[k]);
-                same = strcmp(a, b) == 0;
-            }
-            if (!same)
-                continue;
-            nall++;
-            double v[3];
-            int good = row_ok(rows[q]);
-            for (int m = 0; m < 3 && good; m++)
-                good = kw_json_get_number(rows[q], score_key[m], &v[m]) == KW_OK;
-            if (good) {
-                for (int m = 0; m < 3; m++)
-                    sum[m] += v[m];
-                nok++;
-            }
-        }
-        fputs("<tr>", f);
+    if (!st) {
+        qsort(g, (size_t)n, sizeof *g, group_key_cmp);
+        int ng = 0; /* the groups, then in the order of their first rows */
+        for (int i = 0; i < n; i++)
+            if (i == 0 || strcmp(g[i].key, g[i - 1].key) != 0)
+                first[ng++] = (group_span){i, g[i].row};
+        qsort(first, (size_t)ng, sizeof *first, group_first_cmp);
+        fputs("<h2>Mean scores over seeds</h2>\n<table>\n<thead><tr>", f);
         for (int k = 0; k < NGROUP; k++)
             if (vary[k])
-                td_text(f, rows[r], sweep_params[k]);
-        fprintf(f, "<td class=\"n\">%d of %d</td>", nok, nall);
-        for (int m = 0; m < 3; m++)
-            if (nok)
-                td_num(f, sum[m] / nok, score_prec[m]);
-            else
-                fputs("<td>&mdash;</td>", f);
-        fputs("</tr>\n", f);
+                fprintf(f, "<th>%s</th>", sweep_params[k]);
+        fputs("<th>rows ok</th><th>NRMSE</th><th>PSNR (dB)</th><th>SSIM</th></tr></thead>\n"
+              "<tbody>\n", f);
+        for (int i = 0; i < ng; i++) {
+            const group_key *at = g + first[i].start;
+            int m = 1;
+            while (first[i].start + m < n && strcmp(at[m].key, at[0].key) == 0)
+                m++;
+            group_row(f, rows, at, m, vary);
+        }
+        fputs("</tbody>\n</table>\n", f);
     }
-    fputs("</tbody>\n</table>\n", f);
+    for (int i = 0; g && i < n; i++)
+        kw_free(g[i].key);
+    kw_free(g);
+    kw_free(first);
+    return st;
 }
 
 static void sweep_rows(FILE *f, const kw_sweep *sw, cJSON *const *rows, const int *vary)
@@ -717,10 +768,12 @@ kw_status kw_html_sweep(const kw_sweep *sw, cJSON *const *rows, const char *dir)
         fputs("</tr>\n", f);
     }
     fputs("</tbody>\n</table>\n", f);
-    sweep_means(f, sw, rows, vary);
-    sweep_rows(f, sw, rows, vary);
-    fputs("<h2>Summary plots</h2>\n", f);
-    st = figures(f, dir, sweep_captions, "a plot the sweep wrote.");
+    st = sweep_means(f, sw, rows, vary);
+    if (!st) {
+        sweep_rows(f, sw, rows, vary);
+        fputs("<h2>Summary plots</h2>\n", f);
+        st = figures(f, dir, sweep_captions, "a plot the sweep wrote.");
+    }
     if (!st)
         st = sweep_pictures(f, sw, rows, dir, vary);
     if (st) {
