@@ -25,6 +25,16 @@ def run(*args, input=None, check=True):
     return p
 
 
+def krun(d, *args, check=True):
+    """kweave with the FFTW wisdom of folder d shared by the runs (and one
+    thread): byte-identical outputs from run to run."""
+    env = dict(os.environ, KWEAVE_WISDOM=str(d / "wisdom"), OMP_NUM_THREADS="1")
+    p = subprocess.run([KWEAVE, *map(str, args)], capture_output=True, text=True, env=env, timeout=300)
+    if check and p.returncode != 0:
+        raise AssertionError(f"kweave {' '.join(map(str, args))} exited {p.returncode}: {p.stderr}")
+    return p
+
+
 def centered_ifft2(k):
     """The centered unitary inverse DFT over the last two axes (docs/api.md's
     convention, numpy.fft)."""

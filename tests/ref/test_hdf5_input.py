@@ -16,7 +16,6 @@ References, all outside kweave:
   (runs share one FFTW wisdom file: docs/reliability.md's promise).
 """
 import json
-import os
 import shutil
 import subprocess
 
@@ -24,7 +23,7 @@ import h5py
 import numpy as np
 import pytest
 
-from conftest import KWEAVE, KWEAVE_LIB, bad, relerr
+from conftest import KWEAVE, KWEAVE_LIB, bad, krun, relerr
 
 NX, NY = 64, 48
 
@@ -33,15 +32,6 @@ def ifft2c(k):
     ax = (-2, -1)
     k = np.asarray(k, dtype=np.complex128)
     return np.fft.fftshift(np.fft.ifft2(np.fft.ifftshift(k, axes=ax), axes=ax, norm="ortho"), axes=ax)
-
-
-def krun(d, *args, check=True):
-    """kweave with the directory's shared FFTW wisdom (byte-identical outputs)."""
-    env = dict(os.environ, KWEAVE_WISDOM=str(d / "wisdom"), OMP_NUM_THREADS="1")
-    p = subprocess.run([KWEAVE, *map(str, args)], capture_output=True, text=True, env=env, timeout=300)
-    if check and p.returncode != 0:
-        raise AssertionError(f"kweave {' '.join(map(str, args))} exited {p.returncode}: {p.stderr}")
-    return p
 
 
 @pytest.fixture(scope="module")

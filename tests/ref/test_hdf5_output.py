@@ -9,25 +9,14 @@ References, outside kweave:
   matrix (the definition of the voxel size of a Cartesian image).
 """
 import json
-import os
-import subprocess
 
 import h5py
 import numpy as np
 import pytest
 
-from conftest import KWEAVE, bad
+from conftest import bad, krun
 
 NX, NY = 64, 48
-
-
-def krun(d, *args, check=True):
-    """kweave with the directory's shared FFTW wisdom (byte-identical outputs)."""
-    env = dict(os.environ, KWEAVE_WISDOM=str(d / "wisdom"), OMP_NUM_THREADS="1")
-    p = subprocess.run([KWEAVE, *map(str, args)], capture_output=True, text=True, env=env, timeout=300)
-    if check and p.returncode != 0:
-        raise AssertionError(f"kweave {' '.join(map(str, args))} exited {p.returncode}: {p.stderr}")
-    return p
 
 
 @pytest.fixture(scope="module")
