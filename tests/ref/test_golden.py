@@ -33,6 +33,10 @@ change; encodes without coils are byte-identical.
 Re-recorded a fifth time (issue 19): POCS projects onto the phase set,
 Re(x e^(-i phi)) e^(i phi), instead of |x| e^(i phi) (po.npy, the compare
 table's POCS row and its report and picture, compare.out; 5 files).
+Then the planner's text reports (10 files, every one a plan report; the JSON
+unchanged): their names now come from the names table too, so the readout
+gradient line gives the gradient and slew limits by name and the
+slice-select line "RF pulse 2.000 ms, TBW 4".
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
