@@ -1,0 +1,47 @@
+/* preview_int.h: the preview object's insides, shared by preview.c and
+ * preview_report.c (not a public header). */
+#ifndef KW_PREVIEW_INT_H
+#define KW_PREVIEW_INT_H
+
+#include "kw_preview.h"
+#include "kw_sequence.h"
+#include "kw_tissue.h"
+
+struct kw_preview {
+    kw_preview_options o;
+    kw_protocol prot;        /* the caller's, copied */
+    kw_plan_report *rep;     /* the planner's report of it */
+    /* what the scenario's acquisition resolved */
+    kw_contrast con;
+    double bw;               /* receiver bandwidth across the FOV (Hz) */
+    long first_row;          /* EPI: first row of the train (partial Fourier) */
+    double esp;              /* EPI echo spacing (s) */
+    int shots;
+    float *image;            /* (ny, nx) */
+    kw_preview_result res;
+    int done;
+};
+
+typedef struct kw_preview_progress {
+    kw_progress_fn fn;
+    void *user;
+} kw_preview_progress;
+
+/* kw_preview_recon(): Cartesian k-space (ny, nx) of one channel -> the
+ * image by kw_recon's fft: magnitude (float) or, with `complex_out`, the
+ * complex image (kw_cfloat). */
+kw_status kw_preview_recon(const kw_cfloat *ks, size_t ny, size_t nx, int complex_out, void *out);
+
+/* kw_preview_dft(): the centered unitary DFT of an (ny, nx) image into out. */
+kw_status kw_preview_dft(const kw_cfloat *img, size_t ny, size_t nx, kw_cfloat *out);
+
+/* kw_preview_phase_shift(): see preview.c. */
+double kw_preview_phase_shift(const kw_cfloat *fa, const kw_cfloat *fb, size_t ny, size_t nx,
+                              int axis);
+
+/* The result's protocol figures, and one effect each from a measured shift. */
+void kw_preview_result_head(kw_preview *p);
+void kw_preview_effect_fat(const kw_preview *p, kw_preview_effect *e, double measured);
+void kw_preview_effect_bump(const kw_preview *p, kw_preview_effect *e, double measured);
+
+#endif
