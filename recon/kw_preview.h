@@ -43,7 +43,7 @@
  * (NULL-safe).
  *
  * Errors: kw_last_error_param() names the field at fault: "protocol",
- * "sequence", "ndim", "bump_hz", "flip_rad", "fat_tolerance_px",
+ * "sequence", "ndim", "matrix", "b0_t", "bump_hz", "flip_rad", "fat_tolerance_px",
  * "bump_tolerance" (or a field of the protocol, from kw_protocol_check).
  *
  * Threads: one object is used by one thread at a time; create plans FFTs

@@ -63,6 +63,9 @@ kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
                   KW_ENOTSUP, "sequence",
                   "preview measures Cartesian gre, se and epi protocols so far (radial and "
                   "spiral blur instead of shifting; not yet measured)");
+    KW_FAIL_PARAM(fabs(pr->b0_t - 1.5) > 0.05 && fabs(pr->b0_t - 3.0) > 0.05, KW_EINVAL, "b0_t",
+                  "the weave object's tissue values are tabulated at 1.5 T and 3 T only (got "
+                  "%g T)", pr->b0_t);
     KW_FAIL_PARAM(pr->matrix[0] < 16 || pr->matrix[1] < 16 || pr->matrix[0] > 1024 ||
                       pr->matrix[1] > 1024,
                   KW_EINVAL, "matrix", "preview needs 16 .. 1024 pixels per axis (got %dx%d)",
