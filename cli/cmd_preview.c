@@ -26,6 +26,7 @@ static const kw_cli_param param_map[] = {
     {"flip_rad", "flip"},
     {"fat_tolerance_px", "fat-tolerance"},
     {"bump_tolerance", "bump-tolerance"},
+    {"blur_tolerance", "blur-tolerance"},
     {"ndim", "matrix"},
     {"b0_t", "b0"},
     {"sequence", "sequence"},
@@ -53,7 +54,11 @@ static void report_text(const kw_preview_result *r)
     if (r->bump_hz > 0)
         printf(", a %.4g Hz field bump on the CSF vial", r->bump_hz);
     printf("), reconstructed by FFT\n");
-    printf("Effects (pixels; +x = right along the columns, +y = down along the rows)\n");
+    for (int i = 0; i < r->neffects; i++)
+        if (strcmp(r->effects[i].name, "t2star_blur") == 0)
+            printf("  T2* blur: the point-spread function's FWHM (pixels) along %s of a point at "
+                   "the centre with the protocol's T2*\n", r->effects[i].axis);
+    printf("Effects (pixels; shifts signed: +x = right along the columns, +y = down along the rows)\n");
     printf("  %-28s %4s %11s %11s %11s %10s  %s\n", "effect", "axis", "predicted", "measured",
            "difference", "tolerance", "verdict");
     for (int i = 0; i < r->neffects; i++) {
@@ -262,11 +267,18 @@ static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, dou
         char b[256];
         snprintf(b, sizeof b, "%d  %s %s: predicted %+.3f px, measured %+.3f px, "
                  "difference %+.3f px (tolerance %.3f px): %s", i + 1,
-                 strcmp(e->name, "fat_water_shift") == 0 ? "fat-water shift" : "field-bump shift",
-                 e->axis[0] == 'x' ? "along x" : "along y (down)", e->predicted_px,
+                 strcmp(e->name, "fat_water_shift") == 0   ? "fat-water shift"
+                 : strcmp(e->name, "t2star_blur") == 0     ? "T2* blur (PSF FWHM)"
+                                                           : "field-bump shift",
+                 e->axis[0] == 'x'                     ? "along x"
+                 : strcmp(e->name, "t2star_blur") == 0 ? "along y"
+                                                       : "along y (down)",
+                 e->predicted_px,
                  e->measured_px, e->difference_px, e->tolerance_px, e->pass ? "pass" : "FAIL");
         if (i < 2)
             cairo_set_source_rgb(cr, colours[i][0] * 0.8, colours[i][1] * 0.6, colours[i][2] * 0.8);
+        else
+            cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
         y = draw_wrapped(cr, b, x, y, w, 16);
     }
     cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
@@ -406,12 +418,15 @@ int kw_cmd_preview(int argc, char **argv)
                           "fat shift: allowed |measured - predicted| in pixels (default 0.1)"};
     table[t++] = (kw_opt){"bump-tolerance", KW_OPT_DOUBLE, &o.bump_tolerance, KW_UNIT_NONE, NULL,
                           "bump displacement: allowed fraction of the prediction (default 0.1)"};
+    table[t++] = (kw_opt){"blur-tolerance", KW_OPT_DOUBLE, &o.blur_tolerance, KW_UNIT_NONE, NULL,
+                          "T2* blur width: allowed fraction of the prediction (default 0.15; "
+                          "measured when the protocol gives t2star)"};
     table[t++] = (kw_opt){"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL,
                           "write the report as JSON (- for stdout, in place of the text)"};
     table[t++] = (kw_opt){"png", KW_OPT_STRING, &png, KW_UNIT_NONE, NULL,
                           "the image with each effect marked, PNG FILE (default: not written)"};
     table[t] = (kw_opt){NULL, 0, NULL, 0, NULL, NULL};
-    static const kw_opt_arg args[] = {{"fat-tolerance", "PIXELS"}, {"bump-tolerance", "X"},
+    static const kw_opt_arg args[] = {{"fat-tolerance", "PIXELS"}, {"bump-tolerance", "X"}, {"blur-tolerance", "X"},
                                       {NULL, NULL}};
     kw_opts_set_args(args);
     int rc = kw_opts_parse(argc, argv, table,

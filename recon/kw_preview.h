@@ -18,7 +18,10 @@
  *   - off-resonance displacement (pixels, signed) of a field bump (bump_hz
  *     on a plateau over one vial, raised-cosine edge, zero elsewhere:
  *     simulated through the field-map path, kw_fieldmap): along x for GRE and
- *     SE, along y for EPI, registered against the same vial without the bump.
+ *     SE, along y for EPI, registered against the same vial without the bump;
+ *   - T2* blurring (protocols with t2star_s; GRE and EPI): the FWHM of a
+ *     point's profile along y (EPI) or x (GRE), against the FWHM of the
+ *     Fourier transform of exp(-t/T2*) sampled at the planner's echo times.
  * Registration: phase correlation (Kuglin & Hines 1975): the cross-power
  * spectrum R(k) = F[a](k) conj(F[b](k)) of the two images (centered unitary
  * DFT) has, for a = b moved by s pixels along an axis of N pixels, the phase
@@ -44,7 +47,7 @@
  *
  * Errors: kw_last_error_param() names the field at fault: "protocol",
  * "sequence", "ndim", "matrix", "b0_t", "bump_hz", "flip_rad", "fat_tolerance_px",
- * "bump_tolerance" (or a field of the protocol, from kw_protocol_check).
+ * "bump_tolerance", "blur_tolerance" (or a field of the protocol, from kw_protocol_check).
  *
  * Threads: one object is used by one thread at a time; create plans FFTs
  * (call it from one thread, as every FFTW planner); execute makes
@@ -71,6 +74,8 @@ typedef struct kw_preview_options {
                               * (default 0.1) */
     double bump_tolerance;   /* allowed as a fraction of the predicted
                               * displacement (default 0.10) */
+    double blur_tolerance;   /* allowed as a fraction of the predicted
+                              * T2* blur width (default 0.15) */
 } kw_preview_options;
 
 /*! kw_preview_options_init(): the defaults above, no protocol,
@@ -83,7 +88,8 @@ KW_API void kw_preview_options_init(kw_preview_options *o);
  * signed along the axis: +x = columns to the right, +y = ROWS DOWNWARDS
  * (the array's row index; phantom y points up). */
 typedef struct kw_preview_effect {
-    const char *name;        /* "fat_water_shift", "off_resonance_displacement" */
+    const char *name;        /* "fat_water_shift", "off_resonance_displacement",
+                              * "t2star_blur" (a width: not signed) */
     const char *axis;        /* "x" (readout, columns) or "y" (phase, rows) */
     double predicted_px;
     double measured_px;

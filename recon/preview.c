@@ -33,6 +33,7 @@ void kw_preview_options_init(kw_preview_options *o)
     o->flip_rad = 15.0 * KW_PI / 180.0;
     o->fat_tolerance_px = 0.1;
     o->bump_tolerance = 0.10;
+    o->blur_tolerance = 0.15;
 }
 
 kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
@@ -53,6 +54,8 @@ kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
                   "fat_tolerance_px", "must be positive");
     KW_FAIL_PARAM(!(opt.bump_tolerance > 0) || !(opt.bump_tolerance < 1), KW_EINVAL,
                   "bump_tolerance", "must be in (0, 1)");
+    KW_FAIL_PARAM(!(opt.blur_tolerance > 0) || !(opt.blur_tolerance < 1), KW_EINVAL,
+                  "blur_tolerance", "must be in (0, 1)");
     const kw_protocol *pr = opt.protocol;
     if ((st = kw_protocol_check(pr)))
         return st;
@@ -206,57 +209,6 @@ static void epi_times(const kw_preview *p, size_t ny, size_t nx, double *t)
     }
 }
 
-/* One insert (a vial of weave) alone, with the protocol's timing: its image
- * (complex, (ny, nx)) and that image's DFT (kdft). shape_df: the shape's own
- * extra off-resonance; field: a field map or NULL. */
-static kw_status insert_image(const kw_preview *p, const kw_shape *shape, double shape_df,
-                              const float *field, const double *times, const uint8_t *mask,
-                              kw_cfloat *img, kw_cfloat *kdft)
-{
-    size_t ny = (size_t)p->prot.matrix[1], nx = (size_t)p->prot.matrix[0];
-    kw_phantom ph;
-    memset(&ph, 0, sizeof ph);
-    snprintf(ph.name, sizeof ph.name, "insert");
-    ph.ndim = 2;
-    ph.tissue = 1;
-    ph.nshapes = 1;
-    ph.shapes[0] = *shape;
-    ph.shapes[0].parent = -1;
-    ph.shapes[0].df_hz = shape_df;
-    kw_sim_options so;
-    kw_sim_options_init(&so);
-    so.phantom = &ph;
-    so.n[0] = 1;
-    so.n[1] = ny;
-    so.n[2] = nx;
-    so.mask = mask;
-    so.times = times;
-    so.times_per_sample = times != NULL;
-    so.bandwidth_hz = times ? 0 : p->bw;
-    so.contrast = p->con;
-    kw_sim *sim = NULL;
-    kw_status st = kw_sim_create(&sim, &so);
-    if (!st)
-        st = kw_sim_execute(sim, kdft, NULL, NULL);
-    if (!st && field) {
-        kw_fieldmap_options fo;
-        kw_fieldmap_options_init(&fo);
-        fo.sim = sim;
-        fo.field_hz = field;
-        kw_fieldmap *fm = NULL;
-        st = kw_fieldmap_create(&fm, &fo);
-        if (!st)
-            st = kw_fieldmap_execute(fm, kdft, NULL, NULL);
-        kw_fieldmap_destroy(fm);
-    }
-    kw_sim_destroy(sim);
-    if (!st)
-        st = kw_preview_recon(kdft, ny, nx, 1, img);
-    if (!st)
-        st = kw_preview_dft(img, ny, nx, kdft);
-    return st;
-}
-
 static void effect_place(kw_preview_effect *e, const kw_shape *s, size_t ny, size_t nx)
 {
     e->centre_px[0] = (double)(ny / 2) - s->center[1] * (double)ny / 2;
@@ -271,9 +223,9 @@ static kw_status measure(kw_preview *p, const kw_shape *s, double df_a, double d
                          int axis, kw_cfloat *buf, double *shift)
 {
     size_t ny = (size_t)p->prot.matrix[1], nx = (size_t)p->prot.matrix[0], n = ny * nx;
-    kw_status st = insert_image(p, s, df_a, field_a, times, mask, buf, buf + n);
+    kw_status st = kw_preview_insert(p, s, df_a, field_a, times, mask, buf, buf + n);
     if (!st)
-        st = insert_image(p, s, df_b, NULL, times, mask, buf + 2 * n, buf + 3 * n);
+        st = kw_preview_insert(p, s, df_b, NULL, times, mask, buf + 2 * n, buf + 3 * n);
     if (!st)
         *shift = kw_preview_phase_shift(buf + n, buf + 3 * n, ny, nx, axis);
     return st;
@@ -332,6 +284,15 @@ kw_status kw_preview_execute(kw_preview *p, kw_progress_fn progress, void *user)
             goto done;
         kw_preview_effect_bump(p, &r->effects[r->neffects], s);
         effect_place(&r->effects[r->neffects++], vial, ny, nx);
+    }
+    if (p->prot.t2star_s > 0 && p->prot.sequence != KW_SEQ_SE) {
+        double pred = 0, meas = 0;
+        if ((st = kw_preview_blur(p, times, mask, buf, &pred, &meas)))
+            goto done;
+        kw_preview_effect *e = &r->effects[r->neffects++];
+        kw_preview_effect_blur(p, e, pred, meas);
+        e->centre_px[0] = (double)(ny / 2);
+        e->centre_px[1] = (double)(nx / 2);
     }
     r->all_pass = 1;
     for (int i = 0; i < r->neffects; i++)

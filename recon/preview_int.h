@@ -3,6 +3,7 @@
 #ifndef KW_PREVIEW_INT_H
 #define KW_PREVIEW_INT_H
 
+#include "kw_phantom.h"
 #include "kw_preview.h"
 #include "kw_sequence.h"
 #include "kw_tissue.h"
@@ -18,6 +19,7 @@ struct kw_preview {
     double esp;              /* EPI echo spacing (s) */
     int shots;
     float *image;            /* (ny, nx) */
+    const kw_tissue_values *tvals; /* the inserts' tissue values (NULL: the table's) */
     kw_preview_result res;
     int done;
 };
@@ -34,6 +36,19 @@ kw_status kw_preview_recon(const kw_cfloat *ks, size_t ny, size_t nx, int comple
 
 /* kw_preview_dft(): the centered unitary DFT of an (ny, nx) image into out. */
 kw_status kw_preview_dft(const kw_cfloat *img, size_t ny, size_t nx, kw_cfloat *out);
+
+/* kw_preview_insert(): one shape of a tissue phantom imaged alone with the
+ * protocol's timing (preview_psf.c). */
+kw_status kw_preview_insert(const kw_preview *p, const kw_shape *shape, double shape_df,
+                            const float *field, const double *times, const uint8_t *mask,
+                            kw_cfloat *img, kw_cfloat *kdft);
+
+/* kw_preview_fwhm(), kw_preview_blur(): preview_psf.c. */
+double kw_preview_fwhm(const kw_cdouble *c, size_t n);
+kw_status kw_preview_blur(kw_preview *p, const double *times, const uint8_t *mask,
+                          kw_cfloat *buf, double *predicted, double *measured);
+void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double predicted,
+                            double measured);
 
 /* kw_preview_phase_shift(): see preview.c. */
 double kw_preview_phase_shift(const kw_cfloat *fa, const kw_cfloat *fb, size_t ny, size_t nx,

@@ -105,6 +105,22 @@ void kw_preview_effect_bump(const kw_preview *p, kw_preview_effect *e, double me
     verdict(e, measured);
 }
 
+/* The decay's blur: the FWHM of |FT| of the decay at the planner's times. */
+void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double predicted,
+                            double measured)
+{
+    int epi = p->prot.sequence == KW_SEQ_EPI;
+    e->name = "t2star_blur";
+    e->axis = epi ? "y" : "x";
+    e->predicted_px = predicted;
+    e->tolerance_px = p->o.blur_tolerance * fabs(predicted);
+    e->tolerance_rule = "relative, a fraction of the predicted width";
+    e->source = "FWHM of the Fourier transform of exp(-t/T2*) sampled at the planner's echo "
+                "times (a symmetric exponential's is a Lorentzian of FWHM N esp / (pi T2*), "
+                "from the Fourier pair exp(-a|k|) <-> 2a / (a^2 + (2 pi y / N)^2))";
+    verdict(e, measured);
+}
+
 static const char *seq_name(int s)
 {
     static const char *const names[] = {"gre", "se", "epi", "radial", "spiral"};

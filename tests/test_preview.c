@@ -147,3 +147,31 @@ Test(preview, bad_input_names_the_field)
     cr_expect_eq(kw_preview_report_json(NULL, &j), KW_EINVAL);
     kw_preview_destroy(NULL);
 }
+
+/* The width routine on the plain sampling (all weights 1): the Dirichlet
+ * kernel |sin(pi y) / (n sin(pi y / n))|, whose half-maximum point is found
+ * here by bisection of the closed form (a naive reference); for large n it
+ * tends to the sinc's FWHM 2 x 0.60335 = 1.2067 pixels (sin(pi x)/(pi x) =
+ * 1/2 at x = 0.60335, worked by hand). */
+Test(preview, fwhm_of_the_dirichlet_kernel)
+{
+    const size_t ns[3] = {16, 48, 255};
+    for (int i = 0; i < 3; i++) {
+        size_t n = ns[i];
+        kw_cdouble c[256];
+        for (size_t k = 0; k < n; k++)
+            c[k] = 1;
+        double lo = 0.1, hi = 0.99;
+        for (int it = 0; it < 60; it++) {
+            double y = (lo + hi) / 2;
+            double d = fabs(sin(KW_PI * y) / ((double)n * sin(KW_PI * y / (double)n)));
+            if (d > 0.5)
+                lo = y;
+            else
+                hi = y;
+        }
+        double w = kw_preview_fwhm(c, n);
+        cr_expect(fabs(w - 2 * lo) < 2e-4, "n %zu: %.6f, closed form %.6f", n, w, 2 * lo);
+        cr_expect(fabs(w - 1.2067) < 0.01, "n %zu: %.6f", n, w);
+    }
+}
