@@ -26,6 +26,9 @@ static const kw_cli_param param_map[] = {
     {"flip_rad", "flip"},
     {"fat_tolerance_px", "fat-tolerance"},
     {"bump_tolerance", "bump-tolerance"},
+    {"snr_tolerance", "snr-tolerance"},
+    {"replicas", "replicas"},
+    {"reference", "reference"},
     {"blur_tolerance", "blur-tolerance"},
     {"ndim", "matrix"},
     {"b0_t", "b0"},
@@ -58,13 +61,13 @@ static void report_text(const kw_preview_result *r)
         if (strcmp(r->effects[i].name, "t2star_blur") == 0)
             printf("  T2* blur: the point-spread function's FWHM (pixels) along %s of a point at "
                    "the centre with the protocol's T2*\n", r->effects[i].axis);
-    printf("Effects (pixels; shifts signed: +x = right along the columns, +y = down along the rows)\n");
-    printf("  %-28s %4s %11s %11s %11s %10s  %s\n", "effect", "axis", "predicted", "measured",
-           "difference", "tolerance", "verdict");
+    printf("Effects (shifts signed: +x = right along the columns, +y = down along the rows)\n");
+    printf("  %-28s %4s %6s %11s %11s %11s %10s  %s\n", "effect", "axis", "unit", "predicted",
+           "measured", "difference", "tolerance", "verdict");
     for (int i = 0; i < r->neffects; i++) {
         const kw_preview_effect *e = &r->effects[i];
-        printf("  %-28s %4s %+11.4f %+11.4f %+11.4f %10.4f  %s\n", e->name, e->axis,
-               e->predicted_px, e->measured_px, e->difference_px, e->tolerance_px,
+        printf("  %-28s %4s %6s %+11.4f %+11.4f %+11.4f %10.4f  %s\n", e->name,
+               e->axis[0] ? e->axis : "-", e->unit, e->predicted, e->measured, e->difference, e->tolerance,
                e->pass ? "pass" : "FAIL");
     }
     for (int i = 0; i < r->neffects; i++)
@@ -133,7 +136,7 @@ static void draw_marks(const fig *f, const kw_preview_result *r)
     cairo_t *cr = f->cr;
     for (int i = 0; i < r->neffects && i < 2; i++) {
         const kw_preview_effect *e = &r->effects[i];
-        double dy = e->axis[0] == 'y' ? e->measured_px : 0, dx = e->axis[0] == 'x' ? e->measured_px : 0;
+        double dy = e->axis[0] == 'y' ? e->measured : 0, dx = e->axis[0] == 'x' ? e->measured : 0;
         /* pixel (row, col) is centred at (col + 0.5, row + 0.5) picture pixels */
         double cx = f->x0 + (e->centre_px[1] + 0.5) * f->mag, cy = f->y0 + (e->centre_px[0] + 0.5) * f->mag;
         double rx = e->radius_px[1] * f->mag, ry = e->radius_px[0] * f->mag;
@@ -265,16 +268,18 @@ static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, dou
     for (int i = 0; i < r->neffects; i++) {
         const kw_preview_effect *e = &r->effects[i];
         char b[256];
-        snprintf(b, sizeof b, "%d  %s %s: predicted %+.3f px, measured %+.3f px, "
-                 "difference %+.3f px (tolerance %.3f px): %s", i + 1,
-                 strcmp(e->name, "fat_water_shift") == 0   ? "fat-water shift"
-                 : strcmp(e->name, "t2star_blur") == 0     ? "T2* blur (PSF FWHM)"
-                                                           : "field-bump shift",
-                 e->axis[0] == 'x'                     ? "along x"
-                 : strcmp(e->name, "t2star_blur") == 0 ? "along y"
-                                                       : "along y (down)",
-                 e->predicted_px,
-                 e->measured_px, e->difference_px, e->tolerance_px, e->pass ? "pass" : "FAIL");
+        const char *u = strcmp(e->unit, "pixels") == 0 ? " px" : "";
+        const char *what = strcmp(e->name, "fat_water_shift") == 0 ? "fat-water shift"
+                           : strcmp(e->name, "t2star_blur") == 0   ? "T2* blur (PSF FWHM)"
+                           : strcmp(e->name, "snr_ratio") == 0     ? "SNR / the reference's"
+                                                                   : "field-bump shift";
+        const char *along = e->axis[0] == 'x'                     ? " along x"
+                            : e->axis[0] != 'y'                   ? ""
+                            : strcmp(e->name, "t2star_blur") == 0 ? " along y"
+                                                                  : " along y (down)";
+        snprintf(b, sizeof b, "%d  %s%s: predicted %+.3f%s, measured %+.3f%s, difference "
+                 "%+.3f%s (tolerance %.3f%s): %s", i + 1, what, along, e->predicted, u,
+                 e->measured, u, e->difference, u, e->tolerance, u, e->pass ? "pass" : "FAIL");
         if (i < 2)
             cairo_set_source_rgb(cr, colours[i][0] * 0.8, colours[i][1] * 0.6, colours[i][2] * 0.8);
         else
@@ -398,10 +403,11 @@ int kw_cmd_preview(int argc, char **argv)
     const char *val[MAX_KEYS] = {0};
     int seen[MAX_KEYS] = {0};
     char help[MAX_KEYS][80];
-    const char *protocol = NULL, *json = NULL, *png = NULL;
+    const char *protocol = NULL, *json = NULL, *png = NULL, *reference = NULL;
+    long replicas = 50, seed = 1;
     kw_preview_options o;
     kw_preview_options_init(&o);
-    kw_opt table[MAX_KEYS + 10];
+    kw_opt table[MAX_KEYS + 16];
     int t = 0;
     table[t++] = (kw_opt){"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
                           "protocol file of key = value lines, as kweave plan reads it (options "
@@ -421,6 +427,15 @@ int kw_cmd_preview(int argc, char **argv)
     table[t++] = (kw_opt){"blur-tolerance", KW_OPT_DOUBLE, &o.blur_tolerance, KW_UNIT_NONE, NULL,
                           "T2* blur width: allowed fraction of the prediction (default 0.15; "
                           "measured when the protocol gives t2star)"};
+    table[t++] = (kw_opt){"reference", KW_OPT_STRING, &reference, KW_UNIT_NONE, NULL,
+                          "protocol file of a reference protocol: the SNR ratio measured by "
+                          "pseudo-replicas (default: none)"};
+    table[t++] = (kw_opt){"replicas", KW_OPT_INT, &replicas, KW_UNIT_NONE, NULL,
+                          "pseudo-replicas per protocol for the SNR (default 50)"};
+    table[t++] = (kw_opt){"seed", KW_OPT_INT, &seed, KW_UNIT_NONE, NULL,
+                          "noise seed of the pseudo-replicas (default 1)"};
+    table[t++] = (kw_opt){"snr-tolerance", KW_OPT_DOUBLE, &o.snr_tolerance, KW_UNIT_NONE, NULL,
+                          "SNR ratio: allowed fraction of the prediction (default 0.1)"};
     table[t++] = (kw_opt){"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL,
                           "write the report as JSON (- for stdout, in place of the text)"};
     table[t++] = (kw_opt){"png", KW_OPT_STRING, &png, KW_UNIT_NONE, NULL,
@@ -437,6 +452,25 @@ int kw_cmd_preview(int argc, char **argv)
                            NULL, 0, NULL);
     if (rc >= 0)
         return rc;
+    if (replicas < 2 || replicas > 10000)
+        return kw_cli_fail("--replicas", "must be 2 .. 10000 (got %ld)", replicas);
+    if (seed < 0)
+        return kw_cli_fail("--seed", "must be >= 0 (got %ld)", seed);
+    o.replicas = (int)replicas;
+    o.seed = (uint64_t)seed;
+    kw_protocol ref;
+    if (reference) {
+        kw_protocol_input *ri = NULL;
+        kw_status rs = kw_protocol_input_create(&ri);
+        if (!rs)
+            rs = read_protocol(ri, reference);
+        if (!rs)
+            rs = kw_protocol_input_finish(ri, &ref);
+        kw_protocol_input_destroy(ri);
+        if (rs)
+            return kw_cli_status(rs, "--reference");
+        o.reference = &ref;
+    }
     kw_protocol_input *in = NULL;
     kw_status st = kw_protocol_input_create(&in);
     if (st)

@@ -21,7 +21,11 @@
  *     SE, along y for EPI, registered against the same vial without the bump;
  *   - T2* blurring (protocols with t2star_s; GRE and EPI): the FWHM of a
  *     point's profile along y (EPI) or x (GRE), against the FWHM of the
- *     Fourier transform of exp(-t/T2*) sampled at the planner's echo times.
+ *     Fourier transform of exp(-t/T2*) sampled at the planner's echo times;
+ *   - with a reference protocol: the SNR ratio (protocol / reference)
+ *     measured by pseudo-replicas against the planner's ratio of
+ *     snr_factor (voxel volume x sqrt(total sampling time)); the noise
+ *     model is in docs/preview.md.
  * Registration: phase correlation (Kuglin & Hines 1975): the cross-power
  * spectrum R(k) = F[a](k) conj(F[b](k)) of the two images (centered unitary
  * DFT) has, for a = b moved by s pixels along an axis of N pixels, the phase
@@ -47,7 +51,7 @@
  *
  * Errors: kw_last_error_param() names the field at fault: "protocol",
  * "sequence", "ndim", "matrix", "b0_t", "bump_hz", "flip_rad", "fat_tolerance_px",
- * "bump_tolerance", "blur_tolerance" (or a field of the protocol, from kw_protocol_check).
+ * "bump_tolerance", "blur_tolerance", "reference", "replicas", "snr_tolerance" (or a field of the protocol, from kw_protocol_check).
  *
  * Threads: one object is used by one thread at a time; create plans FFTs
  * (call it from one thread, as every FFTW planner); execute makes
@@ -76,6 +80,12 @@ typedef struct kw_preview_options {
                               * displacement (default 0.10) */
     double blur_tolerance;   /* allowed as a fraction of the predicted
                               * T2* blur width (default 0.15) */
+    const kw_protocol *reference; /* a second protocol (2-D gre, se or epi)
+                              * for the SNR ratio, or NULL; copied at create */
+    int replicas;            /* pseudo-replicas per protocol (default 50; 2..10000) */
+    uint64_t seed;           /* their noise seed (default 1) */
+    double snr_tolerance;    /* allowed as a fraction of the predicted ratio
+                              * (default 0.10) */
 } kw_preview_options;
 
 /*! kw_preview_options_init(): the defaults above, no protocol,
@@ -84,17 +94,19 @@ KW_API void kw_preview_options_init(kw_preview_options *o);
 
 #define KW_PREVIEW_MAX_EFFECTS 8
 
-/* One effect: predicted by the planner, measured on the image. Pixels are
- * signed along the axis: +x = columns to the right, +y = ROWS DOWNWARDS
+/* One effect: predicted by the planner, measured on the image, in `unit`.
+ * Shifts are signed along the axis: +x = columns to the right, +y = ROWS DOWNWARDS
  * (the array's row index; phantom y points up). */
 typedef struct kw_preview_effect {
     const char *name;        /* "fat_water_shift", "off_resonance_displacement",
                               * "t2star_blur" (a width: not signed) */
-    const char *axis;        /* "x" (readout, columns) or "y" (phase, rows) */
-    double predicted_px;
-    double measured_px;
-    double difference_px;    /* measured - predicted */
-    double tolerance_px;     /* |difference| allowed */
+    const char *axis;        /* "x" (readout, columns), "y" (phase, rows) or
+                              * "" (the SNR ratio) */
+    const char *unit;        /* "pixels" or "ratio" (snr_ratio) */
+    double predicted;
+    double measured;
+    double difference;    /* measured - predicted */
+    double tolerance;     /* |difference| allowed */
     const char *tolerance_rule; /* how the tolerance was set, in words */
     const char *source;      /* the formula's source, in words */
     int pass;                /* |difference| <= tolerance */
@@ -139,8 +151,8 @@ KW_API const kw_preview_result *kw_preview_get_result(const kw_preview *p);
  * protocol {sequence, b0_t, larmor_hz, fat_water_hz, matrix [nx, ny],
  * fov_m [x, y], bandwidth_per_pixel_hz, te_s, tr_s, flip_deg,
  * echo_spacing_s, distortion_pixels_per_hz}, scenario {phantom, bump_hz,
- * registration}, effects [{name, axis, predicted_px, measured_px,
- * difference_px, tolerance_px, tolerance_rule, source, verdict ("pass" or
+ * registration}, effects [{name, axis, unit, predicted, measured,
+ * difference, tolerance, tolerance_rule, source, verdict ("pass" or
  * "fail"), centre_px [row, column]}], all_pass, safety_caution. KW_EINVAL before execute. */
 KW_API kw_status kw_preview_report_json(const kw_preview *p, char **json);
 

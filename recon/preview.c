@@ -34,6 +34,30 @@ void kw_preview_options_init(kw_preview_options *o)
     o->fat_tolerance_px = 0.1;
     o->bump_tolerance = 0.10;
     o->blur_tolerance = 0.15;
+    o->replicas = 50;
+    o->seed = 1;
+    o->snr_tolerance = 0.10;
+}
+
+/* A protocol preview can simulate: 2-D, gre, se or epi, 16..1024 pixels. */
+static kw_status check_protocol(const kw_protocol *pr, const char *what)
+{
+    kw_status st = kw_protocol_check(pr);
+    if (st)
+        return strcmp(what, "protocol") ? kw_error_reparam(st, NULL, what) : st;
+    KW_FAIL_PARAM(pr->ndim != 2, KW_ENOTSUP, strcmp(what, "protocol") ? what : "ndim",
+                  "preview measures 2-D protocols so far (a %d-D protocol was given)", pr->ndim);
+    KW_FAIL_PARAM(pr->sequence != KW_SEQ_GRE && pr->sequence != KW_SEQ_SE &&
+                      pr->sequence != KW_SEQ_EPI,
+                  KW_ENOTSUP, strcmp(what, "protocol") ? what : "sequence",
+                  "preview measures Cartesian gre, se and epi protocols so far (radial and "
+                  "spiral blur instead of shifting; not yet measured)");
+    KW_FAIL_PARAM(pr->matrix[0] < 16 || pr->matrix[1] < 16 || pr->matrix[0] > 1024 ||
+                      pr->matrix[1] > 1024,
+                  KW_EINVAL, strcmp(what, "protocol") ? what : "matrix",
+                  "preview needs 16 .. 1024 pixels per axis (got %dx%d)", pr->matrix[0],
+                  pr->matrix[1]);
+    return KW_OK;
 }
 
 kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
@@ -56,31 +80,31 @@ kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
                   "bump_tolerance", "must be in (0, 1)");
     KW_FAIL_PARAM(!(opt.blur_tolerance > 0) || !(opt.blur_tolerance < 1), KW_EINVAL,
                   "blur_tolerance", "must be in (0, 1)");
+    KW_FAIL_PARAM(opt.replicas < 2 || opt.replicas > 10000, KW_EINVAL, "replicas",
+                  "must be 2 .. 10000 (got %d)", opt.replicas);
+    KW_FAIL_PARAM(!(opt.snr_tolerance > 0) || !(opt.snr_tolerance < 1), KW_EINVAL,
+                  "snr_tolerance", "must be in (0, 1)");
     const kw_protocol *pr = opt.protocol;
-    if ((st = kw_protocol_check(pr)))
+    if ((st = check_protocol(pr, "protocol")))
         return st;
-    KW_FAIL_PARAM(pr->ndim != 2, KW_ENOTSUP, "ndim",
-                  "preview measures 2-D protocols so far (a %d-D protocol was given)", pr->ndim);
-    KW_FAIL_PARAM(pr->sequence != KW_SEQ_GRE && pr->sequence != KW_SEQ_SE &&
-                      pr->sequence != KW_SEQ_EPI,
-                  KW_ENOTSUP, "sequence",
-                  "preview measures Cartesian gre, se and epi protocols so far (radial and "
-                  "spiral blur instead of shifting; not yet measured)");
     KW_FAIL_PARAM(fabs(pr->b0_t - 1.5) > 0.05 && fabs(pr->b0_t - 3.0) > 0.05, KW_EINVAL, "b0_t",
                   "the weave object's tissue values are tabulated at 1.5 T and 3 T only (got "
                   "%g T)", pr->b0_t);
-    KW_FAIL_PARAM(pr->matrix[0] < 16 || pr->matrix[1] < 16 || pr->matrix[0] > 1024 ||
-                      pr->matrix[1] > 1024,
-                  KW_EINVAL, "matrix", "preview needs 16 .. 1024 pixels per axis (got %dx%d)",
-                  pr->matrix[0], pr->matrix[1]);
+    if (opt.reference && (st = check_protocol(opt.reference, "reference")))
+        return st;
     kw_preview *p = kw_alloc(sizeof *p);
     KW_FAIL_IF(!p, KW_ENOMEM, "preview: out of memory");
     p->o = opt;
     p->prot = *pr;
     p->o.protocol = &p->prot;
-    if ((st = kw_plan_create(&p->rep, &p->prot))) {
+    if (opt.reference)
+        p->ref = *opt.reference;
+    p->o.reference = opt.reference ? &p->ref : NULL;
+    if ((st = kw_plan_create(&p->rep, &p->prot)) ||
+        (opt.reference && (st = kw_plan_create(&p->ref_rep, &p->ref)))) {
+        kw_plan_destroy(p->rep);
         kw_free(p);
-        return kw_error_reparam(st, NULL, "protocol");
+        return kw_error_reparam(st, NULL, opt.reference && p->rep ? "reference" : "protocol");
     }
     *out = p;
     return KW_OK;
@@ -91,6 +115,7 @@ void kw_preview_destroy(kw_preview *p)
     if (!p)
         return;
     kw_plan_destroy(p->rep);
+    kw_plan_destroy(p->ref_rep);
     kw_free(p->image);
     kw_free(p);
 }
@@ -291,6 +316,15 @@ kw_status kw_preview_execute(kw_preview *p, kw_progress_fn progress, void *user)
             goto done;
         kw_preview_effect *e = &r->effects[r->neffects++];
         kw_preview_effect_blur(p, e, pred, meas);
+        e->centre_px[0] = (double)(ny / 2);
+        e->centre_px[1] = (double)(nx / 2);
+    }
+    if (p->o.reference) {
+        double pred = 0, meas = 0;
+        if ((st = kw_preview_snr(p, &pred, &meas)))
+            goto done;
+        kw_preview_effect *e = &r->effects[r->neffects++];
+        kw_preview_effect_snr(p, e, pred, meas);
         e->centre_px[0] = (double)(ny / 2);
         e->centre_px[1] = (double)(nx / 2);
     }

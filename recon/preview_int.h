@@ -12,6 +12,8 @@ struct kw_preview {
     kw_preview_options o;
     kw_protocol prot;        /* the caller's, copied */
     kw_plan_report *rep;     /* the planner's report of it */
+    kw_protocol ref;         /* the reference protocol (with o.reference) */
+    kw_plan_report *ref_rep;
     /* what the scenario's acquisition resolved */
     kw_contrast con;
     double bw;               /* receiver bandwidth across the FOV (Hz) */
@@ -49,6 +51,11 @@ kw_status kw_preview_blur(kw_preview *p, const double *times, const uint8_t *mas
                           kw_cfloat *buf, double *predicted, double *measured);
 void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double predicted,
                             double measured);
+
+/* kw_preview_snr(): preview_snr.c; kw_preview_effect_snr(): preview_report.c. */
+kw_status kw_preview_snr(kw_preview *p, double *predicted, double *measured);
+void kw_preview_effect_snr(const kw_preview *p, kw_preview_effect *e, double predicted,
+                           double measured);
 
 /* kw_preview_phase_shift(): see preview.c. */
 double kw_preview_phase_shift(const kw_cfloat *fa, const kw_cfloat *fb, size_t ny, size_t nx,

@@ -66,9 +66,9 @@ void kw_preview_result_head(kw_preview *p)
 
 static void verdict(kw_preview_effect *e, double measured)
 {
-    e->measured_px = measured;
-    e->difference_px = measured - e->predicted_px;
-    e->pass = fabs(e->difference_px) <= e->tolerance_px;
+    e->measured = measured;
+    e->difference = measured - e->predicted;
+    e->pass = fabs(e->difference) <= e->tolerance;
 }
 
 /* Fat resonates 3.4 ppm below water: towards earlier sample times, -x along
@@ -78,8 +78,9 @@ void kw_preview_effect_fat(const kw_preview *p, kw_preview_effect *e, double mea
     int epi = p->prot.sequence == KW_SEQ_EPI;
     e->name = "fat_water_shift";
     e->axis = epi ? "y" : "x";
-    e->predicted_px = epi ? -p->rep->chemical_shift_phase_pixels : -p->rep->chemical_shift_pixels;
-    e->tolerance_px = p->o.fat_tolerance_px;
+    e->unit = "pixels";
+    e->predicted = epi ? -p->rep->chemical_shift_phase_pixels : -p->rep->chemical_shift_pixels;
+    e->tolerance = p->o.fat_tolerance_px;
     e->tolerance_rule = "absolute, in pixels";
     e->source = epi ? "3.4 ppm x Larmor x (ny x echo spacing / shots): the EPI phase-direction "
                       "displacement (Jezzard & Balaban 1995; Bernstein, King & Zhou 2004)"
@@ -95,9 +96,10 @@ void kw_preview_effect_bump(const kw_preview *p, kw_preview_effect *e, double me
     double f = p->o.bump_hz;
     e->name = "off_resonance_displacement";
     e->axis = epi ? "y" : "x";
-    e->predicted_px = epi ? f * p->rep->distortion_pixels_per_hz
+    e->unit = "pixels";
+    e->predicted = epi ? f * p->rep->distortion_pixels_per_hz
                           : f / p->rep->bandwidth_per_pixel_hz;
-    e->tolerance_px = p->o.bump_tolerance * fabs(e->predicted_px);
+    e->tolerance = p->o.bump_tolerance * fabs(e->predicted);
     e->tolerance_rule = "relative, a fraction of the prediction";
     e->source = epi ? "field x ny x echo spacing / shots (Jezzard & Balaban 1995)"
                     : "field / (bandwidth per pixel): the readout displacement (Bernstein, King "
@@ -112,12 +114,29 @@ void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double pr
     int epi = p->prot.sequence == KW_SEQ_EPI;
     e->name = "t2star_blur";
     e->axis = epi ? "y" : "x";
-    e->predicted_px = predicted;
-    e->tolerance_px = p->o.blur_tolerance * fabs(predicted);
+    e->unit = "pixels";
+    e->predicted = predicted;
+    e->tolerance = p->o.blur_tolerance * fabs(predicted);
     e->tolerance_rule = "relative, a fraction of the predicted width";
     e->source = "FWHM of the Fourier transform of exp(-t/T2*) sampled at the planner's echo "
                 "times (a symmetric exponential's is a Lorentzian of FWHM N esp / (pi T2*), "
                 "from the Fourier pair exp(-a|k|) <-> 2a / (a^2 + (2 pi y / N)^2))";
+    verdict(e, measured);
+}
+
+/* The SNR ratio: the planner's snr_factor ratio. */
+void kw_preview_effect_snr(const kw_preview *p, kw_preview_effect *e, double predicted,
+                           double measured)
+{
+    e->name = "snr_ratio";
+    e->axis = "";
+    e->unit = "ratio";
+    e->predicted = predicted;
+    e->tolerance = p->o.snr_tolerance * fabs(predicted);
+    e->tolerance_rule = "relative, a fraction of the predicted ratio";
+    e->source = "voxel volume x sqrt(total sampling time), protocol over reference (Edelstein "
+                "et al. 1986; Haacke et al. 1999); measured by pseudo-replicas (Robson et al. "
+                "2008)";
     verdict(e, measured);
 }
 
@@ -169,10 +188,11 @@ kw_status kw_preview_report_json(const kw_preview *p, char **json)
         }
         cJSON_AddStringToObject(j, "name", e->name);
         cJSON_AddStringToObject(j, "axis", e->axis);
-        cJSON_AddNumberToObject(j, "predicted_px", e->predicted_px);
-        cJSON_AddNumberToObject(j, "measured_px", e->measured_px);
-        cJSON_AddNumberToObject(j, "difference_px", e->difference_px);
-        cJSON_AddNumberToObject(j, "tolerance_px", e->tolerance_px);
+        cJSON_AddStringToObject(j, "unit", e->unit);
+        cJSON_AddNumberToObject(j, "predicted", e->predicted);
+        cJSON_AddNumberToObject(j, "measured", e->measured);
+        cJSON_AddNumberToObject(j, "difference", e->difference);
+        cJSON_AddNumberToObject(j, "tolerance", e->tolerance);
         cJSON_AddStringToObject(j, "tolerance_rule", e->tolerance_rule);
         cJSON_AddStringToObject(j, "source", e->source);
         cJSON_AddStringToObject(j, "verdict", e->pass ? "pass" : "fail");

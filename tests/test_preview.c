@@ -86,9 +86,9 @@ Test(preview, gre_fat_shift_at_two_fields_and_three_bandwidths, .timeout = 120)
             double want = -3.4e-6 * GAMMA_BAR_CODATA * b0[f] / bw[i];
             cr_expect_str_eq(e->name, "fat_water_shift");
             cr_expect_str_eq(e->axis, "x");
-            cr_expect(fabs(e->measured_px - want) <= 0.1, "%s %s: measured %.4f px, formula %.4f",
-                      fields[f], bws[i], e->measured_px, want);
-            cr_expect(fabs(e->predicted_px - want) <= 1e-9 * fabs(want));
+            cr_expect(fabs(e->measured - want) <= 0.1, "%s %s: measured %.4f px, formula %.4f",
+                      fields[f], bws[i], e->measured, want);
+            cr_expect(fabs(e->predicted - want) <= 1e-9 * fabs(want));
             cr_expect(e->pass);
             kw_preview_destroy(pv);
         }
@@ -111,8 +111,8 @@ Test(preview, epi_bump_displacement, .timeout = 120)
     double want = 48 * r->echo_spacing_s * 100.0;
     cr_expect(r->echo_spacing_s >= 48 / (2000.0 * 48) * 0.999, "echo spacing %g under the "
               "readout's duration", r->echo_spacing_s);
-    cr_expect(fabs(e->measured_px - want) <= 0.1 * want, "measured %.4f, N esp df %.4f",
-              e->measured_px, want);
+    cr_expect(fabs(e->measured - want) <= 0.1 * want, "measured %.4f, N esp df %.4f",
+              e->measured, want);
     cr_expect(e->pass);
     char *j = NULL;
     cr_assert_eq(kw_preview_report_json(pv, &j), KW_OK);
