@@ -13,6 +13,7 @@
 
 #include "cli.h"
 #include "figure.h"
+#include "jsonio.h"
 #include "kw_plan_input.h"
 #include "kw_preview.h"
 #include "outfile.h"
@@ -76,7 +77,6 @@ static void report_text(const kw_preview_result *r)
     printf("  measured by phase correlation (Kuglin & Hines 1975) of the insert imaged alone with "
            "and without the effect\n");
     printf("All within tolerance: %s\n", r->all_pass ? "yes" : "NO");
-    printf("\n%s\n", KW_SAFETY_CAUTION);
 }
 
 /* ---- the picture ------------------------------------------------------------------ */
@@ -357,41 +357,109 @@ static kw_status read_protocol(kw_protocol_input *in, const char *path)
     return st;
 }
 
+/* The two protocols side by side: each effect's prediction and
+ * measurement for the protocol and for the reference (its own run). */
+static void side_by_side(const kw_preview_result *r, const kw_preview_result *q)
+{
+    printf("Side by side (protocol | reference; predicted / measured)\n");
+    printf("  %-28s %4s %25s   %25s\n", "effect", "axis", "protocol", "reference");
+    for (int i = 0; i < r->neffects; i++) {
+        const kw_preview_effect *e = &r->effects[i], *g = NULL;
+        for (int j = 0; j < q->neffects; j++)
+            if (strcmp(q->effects[j].name, e->name) == 0)
+                g = &q->effects[j];
+        char a[64], b[64];
+        snprintf(a, sizeof a, "%+.4f / %+.4f", e->predicted, e->measured);
+        if (g)
+            snprintf(b, sizeof b, "%+.4f / %+.4f%s", g->predicted, g->measured,
+                     strcmp(g->axis, e->axis) ? (g->axis[0] == 'x' ? " (x)" : " (y)") : "");
+        else
+            snprintf(b, sizeof b, "%s", strcmp(e->name, "snr_ratio") == 0 ? "1 (itself)" : "-");
+        printf("  %-28s %4s %25s   %25s\n", e->name, e->axis[0] ? e->axis : "-", a, b);
+    }
+}
+
+/* The JSON: the protocol's report, with the reference's own report under
+ * "reference_preview" when there is one. */
+static kw_status write_json(const char *path, kw_preview *pv, kw_preview *rv)
+{
+    char *text = NULL, *rtext = NULL;
+    kw_status st = kw_preview_report_json(pv, &text);
+    if (!st && !rv) {
+        st = kw_outfile_write_all(path, text, strlen(text));
+        kw_free(text);
+        return st;
+    }
+    if (!st)
+        st = kw_preview_report_json(rv, &rtext);
+    cJSON *root = NULL, *ref = NULL;
+    if (!st)
+        st = kw_json_parse(text, strlen(text), &root);
+    if (!st)
+        st = kw_json_parse(rtext, strlen(rtext), &ref);
+    if (!st && !cJSON_AddItemToObject(root, "reference_preview", ref)) {
+        cJSON_Delete(ref);
+        st = kw_set_error(KW_ENOMEM, "out of memory");
+    }
+    if (!st)
+        st = kw_json_write(path, root);
+    cJSON_Delete(root);
+    kw_free(text);
+    kw_free(rtext);
+    return st;
+}
+
+/* One preview made and run; an exit code (or -1) and *out. */
+static int make_run(const kw_preview_options *o, const char *what, kw_preview **out)
+{
+    kw_status st = kw_preview_create(out, o);
+    if (!st)
+        st = kw_preview_execute(*out, kw_cli_progress, NULL);
+    kw_cli_progress_done();
+    if (st) {
+        kw_preview_destroy(*out);
+        *out = NULL;
+        return kw_cli_lib_status(st, what, param_map);
+    }
+    return -1;
+}
+
 static int run(const kw_protocol *p, const kw_preview_options *base, const char *json,
                const char *png)
 {
     kw_preview_options o = *base;
     o.protocol = p;
-    kw_preview *pv = NULL;
-    kw_status st = kw_preview_create(&pv, &o);
-    if (st)
-        return kw_cli_lib_status(st, "preview", param_map);
-    if ((st = kw_preview_execute(pv, kw_cli_progress, NULL))) {
-        kw_cli_progress_done();
-        kw_preview_destroy(pv);
-        return kw_cli_lib_status(st, "preview", param_map);
-    }
-    kw_cli_progress_done();
-    const kw_preview_result *r = kw_preview_get_result(pv);
-    if (json) {
-        char *text = NULL;
-        st = kw_preview_report_json(pv, &text);
-        if (!st)
-            st = kw_outfile_write_all(json, text, strlen(text));
-        kw_free(text);
-        if (st) {
+    kw_preview *pv = NULL, *rv = NULL;
+    int rc = make_run(&o, "preview", &pv);
+    if (rc >= 0)
+        return rc;
+    if (base->reference) { /* the reference's own effects, for the side by side */
+        kw_preview_options ro = *base;
+        ro.protocol = base->reference;
+        ro.reference = NULL;
+        if ((rc = make_run(&ro, "reference", &rv)) >= 0) {
             kw_preview_destroy(pv);
-            return kw_cli_status(st, "json");
+            return rc;
         }
     }
-    if (png && (st = write_png(png, r))) {
-        kw_preview_destroy(pv);
-        return kw_cli_status(st, "png");
+    const kw_preview_result *r = kw_preview_get_result(pv);
+    kw_status st = json ? write_json(json, pv, rv) : KW_OK;
+    if (st) {
+        rc = kw_cli_status(st, "json");
+    } else if (png && (st = write_png(png, r))) {
+        rc = kw_cli_status(st, "png");
+    } else {
+        if (!json || strcmp(json, "-") != 0) {
+            report_text(r);
+            if (rv)
+                side_by_side(r, kw_preview_get_result(rv));
+            printf("\n%s\n", KW_SAFETY_CAUTION);
+        }
+        rc = KW_EXIT_OK;
     }
-    if (!json || strcmp(json, "-") != 0)
-        report_text(r);
     kw_preview_destroy(pv);
-    return KW_EXIT_OK;
+    kw_preview_destroy(rv);
+    return rc;
 }
 
 int kw_cmd_preview(int argc, char **argv)

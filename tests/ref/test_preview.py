@@ -253,3 +253,22 @@ def test_reference_bad_input(tmp_path):
     radial = write_protocol(tmp_path / "r.protocol", sequence="radial", matrix=32)
     bad("preview", "--matrix", "32", "--reference", radial, field="reference")
     bad("preview", "--matrix", "32", "--replicas", "1", field="--replicas")
+
+
+def test_reference_side_by_side(tmp_path):
+    # the reference's own effects beside the protocol's: the text table and
+    # the JSON's "reference_preview" (its own report); its fat shift is its
+    # own formula's (3.4 ppm x gamma-bar B0 / 400 Hz/pixel, along x).
+    refp = write_protocol(tmp_path / "ref.protocol", sequence="gre", b0="3T", fov="240mm",
+                          matrix=64, bandwidth="400Hz/pixel")
+    args = ["--sequence", "epi", "--matrix", "64", "--fov", "240mm", "--bandwidth",
+            "2000Hz/pixel", "--reference", refp]
+    p = run("preview", *args)
+    assert "Side by side" in p.stdout and p.stdout.count("Caution:") == 1
+    rep = preview(*args)
+    ref = rep["reference_preview"]
+    f = effect(ref, "fat_water_shift")
+    want = -FAT_PPM * 1e-6 * GAMMA_BAR * 3.0 / 400.0
+    assert f["axis"] == "x" and abs(f["measured"] - want) <= 0.1, f
+    assert not any(e["name"] == "snr_ratio" for e in ref["effects"])
+    assert effect(rep, "fat_water_shift")["axis"] == "y"
