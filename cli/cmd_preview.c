@@ -170,26 +170,24 @@ static void draw_marks(const fig *f, const kw_preview_result *r)
     }
 }
 
-/* Grey bar with ticks, and a scale bar in mm under the picture. */
-static void draw_scales(const fig *f, const kw_preview_result *r, double hi, double bx)
+/* The grey bar with ticks at bx, as tall as the picture (the window 0..hi). */
+static void draw_bar(cairo_t *cr, double bx, double y0, double ph, double hi)
 {
-    cairo_t *cr = f->cr;
-    double ph = (double)f->ny * f->mag, pw = (double)f->nx * f->mag;
     for (int k = 0; k < (int)ph; k++) {
         double g = 1.0 - (double)k / ph;
         cairo_set_source_rgb(cr, g, g, g);
-        cairo_rectangle(cr, bx, f->y0 + k, BARW, 1);
+        cairo_rectangle(cr, bx, y0 + k, BARW, 1);
         cairo_fill(cr);
     }
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_line_width(cr, 1);
-    cairo_rectangle(cr, bx + 0.5, f->y0 + 0.5, BARW, ph);
+    cairo_rectangle(cr, bx + 0.5, y0 + 0.5, BARW, ph);
     cairo_stroke(cr);
     double ticks[16], step;
     size_t nt = kw_figure_ticks(0, hi, 5, ticks, 16, &step);
     cairo_set_font_size(cr, 11);
     for (size_t i = 0; i < nt; i++) {
-        double y = f->y0 + ph - ticks[i] / hi * ph;
+        double y = y0 + ph - ticks[i] / hi * ph;
         char b[32];
         kw_figure_tick_text(b, sizeof b, ticks[i], step);
         cairo_move_to(cr, bx + BARW, y);
@@ -199,17 +197,25 @@ static void draw_scales(const fig *f, const kw_preview_result *r, double hi, dou
         cairo_show_text(cr, b);
     }
     cairo_save(cr);
-    cairo_move_to(cr, bx + BARW + 52, f->y0 + ph / 2 + 70);
+    cairo_move_to(cr, bx + BARW + 52, y0 + ph / 2 + 70);
     cairo_rotate(cr, -KW_PI / 2);
     cairo_show_text(cr, "magnitude (signal / water PD)");
     cairo_restore(cr);
-    /* scale bar: a round length near a quarter of the FOV */
+}
+
+/* A scale bar in mm under the picture (a round length near a quarter of
+ * the FOV) and the axes' names. */
+static void draw_scalebar(const fig *f, const kw_preview_result *r)
+{
+    cairo_t *cr = f->cr;
+    double ph = (double)f->ny * f->mag;
     static const double lens[] = {5, 10, 20, 50, 100, 200, 500};
     double fov_mm = (double)f->nx * r->pixel_m[1] * 1e3, len = lens[0];
     for (int i = 0; i < 7; i++)
         if (lens[i] <= fov_mm / 4)
             len = lens[i];
     double px = len / (r->pixel_m[1] * 1e3) * f->mag, y = f->y0 + ph + 16;
+    cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_line_width(cr, 3);
     cairo_move_to(cr, f->x0, y);
     cairo_line_to(cr, f->x0 + px, y);
@@ -219,9 +225,8 @@ static void draw_scales(const fig *f, const kw_preview_result *r, double hi, dou
     cairo_set_font_size(cr, 12);
     cairo_move_to(cr, f->x0 + px + 8, y + 4);
     cairo_show_text(cr, b);
-    snprintf(b, sizeof b, "x: readout (columns), y: phase (rows)");
-    cairo_move_to(cr, f->x0 + pw - 230, y + 4);
-    cairo_show_text(cr, b);
+    cairo_move_to(cr, f->x0 + px + 60, y + 4);
+    cairo_show_text(cr, "x: readout, y: phase");
 }
 
 /* `text` in lines no wider than w from (x, y), `lh` apart; returns the y
@@ -261,8 +266,9 @@ static double draw_wrapped(cairo_t *cr, const char *c, double x, double y, doubl
     return y;
 }
 
-/* The legend under the picture: each effect, then the caution. */
-static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, double y, double w)
+/* The legend: each effect of r (numbered as marked, after `head`). */
+static double draw_effects(cairo_t *cr, const kw_preview_result *r, const char *head, double x,
+                           double y, double w)
 {
     cairo_set_font_size(cr, 12);
     for (int i = 0; i < r->neffects; i++) {
@@ -277,8 +283,8 @@ static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, dou
                             : e->axis[0] != 'y'                   ? ""
                             : strcmp(e->name, "t2star_blur") == 0 ? " along y"
                                                                   : " along y (down)";
-        snprintf(b, sizeof b, "%d  %s%s: predicted %+.3f%s, measured %+.3f%s, difference "
-                 "%+.3f%s (tolerance %.3f%s): %s", i + 1, what, along, e->predicted, u,
+        snprintf(b, sizeof b, "%s%d  %s%s: predicted %+.3f%s, measured %+.3f%s, difference "
+                 "%+.3f%s (tolerance %.3f%s): %s", head, i + 1, what, along, e->predicted, u,
                  e->measured, u, e->difference, u, e->tolerance, u, e->pass ? "pass" : "FAIL");
         if (i < 2)
             cairo_set_source_rgb(cr, colours[i][0] * 0.8, colours[i][1] * 0.6, colours[i][2] * 0.8);
@@ -286,6 +292,13 @@ static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, dou
             cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
         y = draw_wrapped(cr, b, x, y, w, 16);
     }
+    return y;
+}
+
+/* The notes under the legend, then the caution. */
+static double draw_notes(cairo_t *cr, double x, double y, double w)
+{
+    cairo_set_font_size(cr, 12);
     cairo_set_source_rgb(cr, 0.2, 0.2, 0.2);
     y = draw_wrapped(cr, "dashed: the insert's true place; solid: where the image shows it "
                          "(arrow: the measured shift)", x, y, w, 16);
@@ -293,49 +306,92 @@ static double draw_legend(cairo_t *cr, const kw_preview_result *r, double x, dou
     return draw_wrapped(cr, KW_SAFETY_CAUTION, x, y + 4, w, 13);
 }
 
-static kw_status write_png(const char *path, const kw_preview_result *r)
+/* One picture at f (nearest neighbour, window 0..hi) with its label above. */
+static void draw_picture(cairo_surface_t *s, const fig *f, const kw_preview_result *r, double hi,
+                         const char *label)
 {
-    size_t ny = r->dims[0], nx = r->dims[1], side = ny > nx ? ny : nx;
-    double mag = side >= 384 ? 1 : ceil(384.0 / (double)side);
-    double pw = (double)nx * mag, ph = (double)ny * mag;
-    int W = (int)(MARG + pw + 16 + BARW + 70 + MARG);
+    double pw = (double)f->nx * f->mag, ph = (double)f->ny * f->mag;
+    cairo_surface_flush(s);
+    unsigned char *data = cairo_image_surface_get_data(s);
+    int stride = cairo_image_surface_get_stride(s);
+    for (size_t yy = 0; yy < (size_t)ph; yy++) {
+        uint32_t *row = (uint32_t *)(data + (size_t)stride * (yy + (size_t)f->y0));
+        for (size_t xx = 0; xx < (size_t)pw; xx++) {
+            double v = r->image[(size_t)((double)yy / f->mag) * f->nx +
+                                (size_t)((double)xx / f->mag)] / hi;
+            unsigned g = (unsigned)(255.0 * (v < 0 ? 0 : v > 1 ? 1 : v) + 0.5);
+            row[xx + (size_t)f->x0] = (g << 16) | (g << 8) | g;
+        }
+    }
+    cairo_surface_mark_dirty(s);
+    char t[160];
+    snprintf(t, sizeof t, "%s%s, %zu x %zu, %.0f Hz/pixel", label, seq_label[r->sequence],
+             f->nx, f->ny, r->bandwidth_per_pixel_hz);
+    if (r->sequence == 2)
+        snprintf(t, sizeof t, "%sEPI, %zu x %zu, echo spacing %.3f ms", label, f->nx, f->ny,
+                 r->echo_spacing_s * 1e3);
+    cairo_set_source_rgb(f->cr, 0, 0, 0);
+    cairo_set_font_size(f->cr, 13);
+    cairo_move_to(f->cr, f->x0, f->y0 - 6);
+    cairo_show_text(f->cr, t);
+    draw_marks(f, r);
+    draw_scalebar(f, r);
+}
+
+static double magnification(const kw_preview_result *r)
+{
+    size_t side = r->dims[0] > r->dims[1] ? r->dims[0] : r->dims[1];
+    return side >= 384 ? 1 : ceil(384.0 / (double)side);
+}
+
+/* The picture of r (and of the reference q beside it, when given). */
+static kw_status write_png(const char *path, const kw_preview_result *r,
+                           const kw_preview_result *q)
+{
+    fig f = {NULL, MARG, MARG + TITLE + 20, magnification(r), r->dims[0], r->dims[1]};
+    fig g = f;
+    double pw = (double)f.nx * f.mag, ph = (double)f.ny * f.mag, hi = window_hi(r->image, f.ny * f.nx);
+    double right = MARG + pw;
+    if (q) {
+        g.mag = magnification(q);
+        g.ny = q->dims[0];
+        g.nx = q->dims[1];
+        g.x0 = MARG + pw + 40;
+        right = g.x0 + (double)g.nx * g.mag;
+        if ((double)g.ny * g.mag > ph)
+            ph = (double)g.ny * g.mag;
+        double h2 = window_hi(q->image, g.ny * g.nx);
+        hi = h2 > hi ? h2 : hi;
+    }
+    int W = (int)(right + 16 + BARW + 70 + MARG);
     if (W < FIG_W_MIN)
         W = FIG_W_MIN;
-    int H = (int)(MARG + TITLE + ph + 30 + 32 * r->neffects + 20 + 13 * 5 + MARG);
-    double hi = window_hi(r->image, ny * nx);
+    int nlines = r->neffects + (q ? q->neffects + 1 : 0);
+    int H = (int)(f.y0 + ph + 30 + 32 * nlines + 20 + 13 * 5 + MARG);
     cairo_surface_t *s = cairo_image_surface_create(CAIRO_FORMAT_RGB24, W, H);
     cairo_t *cr = cairo_create(s);
     cairo_set_source_rgb(cr, 1, 1, 1);
     cairo_paint(cr);
     cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    fig f = {cr, MARG, MARG + TITLE, mag, ny, nx};
-    /* the picture, nearest neighbour */
-    cairo_surface_flush(s);
-    unsigned char *data = cairo_image_surface_get_data(s);
-    int stride = cairo_image_surface_get_stride(s);
-    for (size_t yy = 0; yy < (size_t)ph; yy++) {
-        uint32_t *row = (uint32_t *)(data + (size_t)stride * (yy + (size_t)f.y0));
-        for (size_t xx = 0; xx < (size_t)pw; xx++) {
-            double v = r->image[(size_t)(yy / mag) * nx + (size_t)(xx / mag)] / hi;
-            unsigned g = (unsigned)(255.0 * (v < 0 ? 0 : v > 1 ? 1 : v) + 0.5);
-            row[xx + (size_t)f.x0] = (g << 16) | (g << 8) | g;
-        }
-    }
-    cairo_surface_mark_dirty(s);
+    f.cr = g.cr = cr;
     char title[160];
-    snprintf(title, sizeof title, "kweave preview: %s at %.3g T, %.0f Hz/pixel%s",
-             seq_label[r->sequence], r->b0_t, r->bandwidth_per_pixel_hz,
-             r->sequence == 2 ? ", EPI" : "");
-    if (r->sequence == 2)
-        snprintf(title, sizeof title, "kweave preview: EPI at %.3g T, echo spacing %.3f ms",
-                 r->b0_t, r->echo_spacing_s * 1e3);
+    snprintf(title, sizeof title, "kweave preview at %.3g T: the planner's predictions on the "
+             "simulated image", r->b0_t);
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_font_size(cr, 15);
     cairo_move_to(cr, MARG, MARG + 17);
     cairo_show_text(cr, title);
-    draw_marks(&f, r);
-    draw_scales(&f, r, hi, MARG + pw + 16);
-    draw_legend(cr, r, MARG, f.y0 + ph + 44, W - 2 * MARG);
+    draw_picture(s, &f, r, hi, q ? "protocol: " : "");
+    if (q)
+        draw_picture(s, &g, q, hi, "reference: ");
+    draw_bar(cr, right + 16, f.y0, ph, hi);
+    double y = draw_effects(cr, r, "", MARG, f.y0 + ph + 44, W - 2 * MARG);
+    if (q) {
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        y = draw_wrapped(cr, "reference (right):", MARG, y + 4, W - 2 * MARG, 16);
+        y = draw_effects(cr, q, "ref ", MARG, y, W - 2 * MARG);
+    }
+    draw_notes(cr, MARG, y, W - 2 * MARG);
     cairo_destroy(cr);
     kw_status st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
@@ -446,7 +502,7 @@ static int run(const kw_protocol *p, const kw_preview_options *base, const char 
     kw_status st = json ? write_json(json, pv, rv) : KW_OK;
     if (st) {
         rc = kw_cli_status(st, "json");
-    } else if (png && (st = write_png(png, r))) {
+    } else if (png && (st = write_png(png, r, rv ? kw_preview_get_result(rv) : NULL))) {
         rc = kw_cli_status(st, "png");
     } else {
         if (!json || strcmp(json, "-") != 0) {
