@@ -28,6 +28,7 @@ static const kw_cli_param param_map[] = {
     {"fat_tolerance_px", "fat-tolerance"},
     {"bump_tolerance", "bump-tolerance"},
     {"snr_tolerance", "snr-tolerance"},
+    {"edge_tolerance", "edge-tolerance"},
     {"replicas", "replicas"},
     {"reference", "reference"},
     {"blur_tolerance", "blur-tolerance"},
@@ -129,6 +130,13 @@ static void ellipse(cairo_t *cr, double cx, double cy, double rx, double ry)
 
 static const double colours[2][3] = {{1.0, 0.55, 0.0}, {0.1, 0.8, 1.0}};
 
+/* The effects marked on the picture: the two shifts of an insert. */
+static int marked(const kw_preview_effect *e)
+{
+    return strcmp(e->name, "fat_water_shift") == 0 ||
+           strcmp(e->name, "off_resonance_displacement") == 0;
+}
+
 /* Each effect: its insert's true outline (dashed), its measured place
  * (solid) and an arrow between the centres, on the picture. */
 static void draw_marks(const fig *f, const kw_preview_result *r)
@@ -136,6 +144,8 @@ static void draw_marks(const fig *f, const kw_preview_result *r)
     cairo_t *cr = f->cr;
     for (int i = 0; i < r->neffects && i < 2; i++) {
         const kw_preview_effect *e = &r->effects[i];
+        if (!marked(e))
+            continue;
         double dy = e->axis[0] == 'y' ? e->measured : 0, dx = e->axis[0] == 'x' ? e->measured : 0;
         /* pixel (row, col) is centred at (col + 0.5, row + 0.5) picture pixels */
         double cx = f->x0 + (e->centre_px[1] + 0.5) * f->mag, cy = f->y0 + (e->centre_px[0] + 0.5) * f->mag;
@@ -274,10 +284,13 @@ static double draw_effects(cairo_t *cr, const kw_preview_result *r, const char *
     for (int i = 0; i < r->neffects; i++) {
         const kw_preview_effect *e = &r->effects[i];
         char b[256];
-        const char *u = strcmp(e->unit, "pixels") == 0 ? " px" : "";
+        const char *u = strcmp(e->unit, "pixels") == 0 ? " px"
+                        : strcmp(e->name, "gibbs_overshoot") == 0 ? " of the jump" : "";
         const char *what = strcmp(e->name, "fat_water_shift") == 0 ? "fat-water shift"
                            : strcmp(e->name, "t2star_blur") == 0   ? "T2* blur (PSF FWHM)"
                            : strcmp(e->name, "snr_ratio") == 0     ? "SNR / the reference's"
+                           : strcmp(e->name, "edge_width_10_90") == 0 ? "edge 10-90% width"
+                           : strcmp(e->name, "gibbs_overshoot") == 0  ? "Gibbs overshoot"
                                                                    : "field-bump shift";
         const char *along = e->axis[0] == 'x'                     ? " along x"
                             : e->axis[0] != 'y'                   ? ""
@@ -286,7 +299,7 @@ static double draw_effects(cairo_t *cr, const kw_preview_result *r, const char *
         snprintf(b, sizeof b, "%s%d  %s%s: predicted %+.3f%s, measured %+.3f%s, difference "
                  "%+.3f%s (tolerance %.3f%s): %s", head, i + 1, what, along, e->predicted, u,
                  e->measured, u, e->difference, u, e->tolerance, u, e->pass ? "pass" : "FAIL");
-        if (i < 2)
+        if (i < 2 && marked(e))
             cairo_set_source_rgb(cr, colours[i][0] * 0.8, colours[i][1] * 0.6, colours[i][2] * 0.8);
         else
             cairo_set_source_rgb(cr, 0.1, 0.1, 0.1);
@@ -560,12 +573,15 @@ int kw_cmd_preview(int argc, char **argv)
                           "noise seed of the pseudo-replicas (default 1)"};
     table[t++] = (kw_opt){"snr-tolerance", KW_OPT_DOUBLE, &o.snr_tolerance, KW_UNIT_NONE, NULL,
                           "SNR ratio: allowed fraction of the prediction (default 0.1)"};
+    table[t++] = (kw_opt){"edge-tolerance", KW_OPT_DOUBLE, &o.edge_tolerance, KW_UNIT_NONE, NULL,
+                          "edge: allowed fraction of the 10-90% width; x 0.1 of the jump for the "
+                          "overshoot (default 0.05)"};
     table[t++] = (kw_opt){"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL,
                           "write the report as JSON (- for stdout, in place of the text)"};
     table[t++] = (kw_opt){"png", KW_OPT_STRING, &png, KW_UNIT_NONE, NULL,
                           "the image with each effect marked, PNG FILE (default: not written)"};
     table[t] = (kw_opt){NULL, 0, NULL, 0, NULL, NULL};
-    static const kw_opt_arg args[] = {{"fat-tolerance", "PIXELS"}, {"bump-tolerance", "X"}, {"blur-tolerance", "X"},
+    static const kw_opt_arg args[] = {{"fat-tolerance", "PIXELS"}, {"bump-tolerance", "X"}, {"blur-tolerance", "X"}, {"edge-tolerance", "X"}, {"snr-tolerance", "X"},
                                       {NULL, NULL}};
     kw_opts_set_args(args);
     int rc = kw_opts_parse(argc, argv, table,

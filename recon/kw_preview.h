@@ -25,7 +25,11 @@
  *   - with a reference protocol: the SNR ratio (protocol / reference)
  *     measured by pseudo-replicas against the planner's ratio of
  *     snr_factor (voxel volume x sqrt(total sampling time)); the noise
- *     model is in docs/preview.md.
+ *     model is in docs/preview.md;
+ *   - the edge response along x of a square insert (proton-density
+ *     contrast): its 10-90% width (pixels) and its Gibbs overshoot (a
+ *     fraction of the jump), against the ideal band-limited edge 1/2 +
+ *     Si(pi x)/pi.
  * Registration: phase correlation (Kuglin & Hines 1975): the cross-power
  * spectrum R(k) = F[a](k) conj(F[b](k)) of the two images (centered unitary
  * DFT) has, for a = b moved by s pixels along an axis of N pixels, the phase
@@ -51,7 +55,7 @@
  *
  * Errors: kw_last_error_param() names the field at fault: "protocol",
  * "sequence", "ndim", "matrix", "b0_t", "bump_hz", "flip_rad", "fat_tolerance_px",
- * "bump_tolerance", "blur_tolerance", "reference", "replicas", "snr_tolerance" (or a field of the protocol, from kw_protocol_check).
+ * "bump_tolerance", "blur_tolerance", "reference", "replicas", "snr_tolerance", "edge_tolerance" (or a field of the protocol, from kw_protocol_check).
  *
  * Threads: one object is used by one thread at a time; create plans FFTs
  * (call it from one thread, as every FFTW planner); execute makes
@@ -86,23 +90,29 @@ typedef struct kw_preview_options {
     uint64_t seed;           /* their noise seed (default 1) */
     double snr_tolerance;    /* allowed as a fraction of the predicted ratio
                               * (default 0.10) */
+    double edge_tolerance;   /* the edge's 10-90% width: a fraction of the
+                              * prediction; its overshoot: this x 0.1 of the
+                              * jump (default 0.05) */
 } kw_preview_options;
 
 /*! kw_preview_options_init(): the defaults above, no protocol,
  * struct_size = sizeof *o. */
 KW_API void kw_preview_options_init(kw_preview_options *o);
 
-#define KW_PREVIEW_MAX_EFFECTS 8
+#define KW_PREVIEW_MAX_EFFECTS 8 /* at most 6 so far */
 
 /* One effect: predicted by the planner, measured on the image, in `unit`.
  * Shifts are signed along the axis: +x = columns to the right, +y = ROWS DOWNWARDS
  * (the array's row index; phantom y points up). */
 typedef struct kw_preview_effect {
     const char *name;        /* "fat_water_shift", "off_resonance_displacement",
-                              * "t2star_blur" (a width: not signed) */
+                              * "t2star_blur" (a width: not signed),
+                              * "edge_width_10_90", "gibbs_overshoot",
+                              * "snr_ratio" */
     const char *axis;        /* "x" (readout, columns), "y" (phase, rows) or
                               * "" (the SNR ratio) */
-    const char *unit;        /* "pixels" or "ratio" (snr_ratio) */
+    const char *unit;        /* "pixels", "ratio" (snr_ratio) or "fraction"
+                              * (gibbs_overshoot: of the edge's jump) */
     double predicted;
     double measured;
     double difference;    /* measured - predicted */

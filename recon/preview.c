@@ -37,6 +37,7 @@ void kw_preview_options_init(kw_preview_options *o)
     o->replicas = 50;
     o->seed = 1;
     o->snr_tolerance = 0.10;
+    o->edge_tolerance = 0.05;
 }
 
 /* A protocol preview can simulate: 2-D, gre, se or epi, 16..1024 pixels. */
@@ -80,6 +81,8 @@ kw_status kw_preview_create(kw_preview **out, const kw_preview_options *o)
                   "bump_tolerance", "must be in (0, 1)");
     KW_FAIL_PARAM(!(opt.blur_tolerance > 0) || !(opt.blur_tolerance < 1), KW_EINVAL,
                   "blur_tolerance", "must be in (0, 1)");
+    KW_FAIL_PARAM(!(opt.edge_tolerance > 0) || !(opt.edge_tolerance < 1), KW_EINVAL,
+                  "edge_tolerance", "must be in (0, 1)");
     KW_FAIL_PARAM(opt.replicas < 2 || opt.replicas > 10000, KW_EINVAL, "replicas",
                   "must be 2 .. 10000 (got %d)", opt.replicas);
     KW_FAIL_PARAM(!(opt.snr_tolerance > 0) || !(opt.snr_tolerance < 1), KW_EINVAL,
@@ -318,6 +321,18 @@ kw_status kw_preview_execute(kw_preview *p, kw_progress_fn progress, void *user)
         kw_preview_effect_blur(p, e, pred, meas);
         e->centre_px[0] = (double)(ny / 2);
         e->centre_px[1] = (double)(nx / 2);
+    }
+    {
+        double pw = 0, po = 0, mw = 0, mo = 0;
+        kw_preview_edge_ideal(&pw, &po);
+        if ((st = kw_preview_edge(p, buf, &mw, &mo)))
+            goto done;
+        for (int w = 0; w < 2; w++) {
+            kw_preview_effect *e = &r->effects[r->neffects++];
+            kw_preview_effect_edge(p, e, w, w ? po : pw, w ? mo : mw);
+            e->centre_px[0] = (double)(ny / 2);
+            e->centre_px[1] = (double)(nx / 2 + nx / 4);
+        }
     }
     if (p->o.reference) {
         double pred = 0, meas = 0;

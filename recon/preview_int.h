@@ -52,6 +52,13 @@ kw_status kw_preview_blur(kw_preview *p, const double *times, const uint8_t *mas
 void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double predicted,
                             double measured);
 
+/* The edge response (preview_psf.c): the ideal band-limited edge's 10-90%
+ * width and overshoot, and the measured ones; their effects (preview_report.c). */
+void kw_preview_edge_ideal(double *width, double *overshoot);
+kw_status kw_preview_edge(kw_preview *p, kw_cfloat *buf, double *width, double *overshoot);
+void kw_preview_effect_edge(const kw_preview *p, kw_preview_effect *e, int which,
+                            double predicted, double measured);
+
 /* kw_preview_snr(): preview_snr.c; kw_preview_effect_snr(): preview_report.c. */
 kw_status kw_preview_snr(kw_preview *p, double *predicted, double *measured);
 void kw_preview_effect_snr(const kw_preview *p, kw_preview_effect *e, double predicted,

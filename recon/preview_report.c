@@ -71,6 +71,15 @@ static void verdict(kw_preview_effect *e, double measured)
     e->pass = fabs(e->difference) <= e->tolerance;
 }
 
+/* A shift along an axis of n pixels: the image wraps (the DFT is periodic),
+ * so the registration sees it modulo n; the difference is taken so. */
+static void verdict_shift(kw_preview_effect *e, double measured, size_t n)
+{
+    verdict(e, measured);
+    e->difference = remainder(measured - e->predicted, (double)n);
+    e->pass = fabs(e->difference) <= e->tolerance;
+}
+
 /* Fat resonates 3.4 ppm below water: towards earlier sample times, -x along
  * a readout, up the picture (-rows) along an EPI train. */
 void kw_preview_effect_fat(const kw_preview *p, kw_preview_effect *e, double measured)
@@ -81,12 +90,12 @@ void kw_preview_effect_fat(const kw_preview *p, kw_preview_effect *e, double mea
     e->unit = "pixels";
     e->predicted = epi ? -p->rep->chemical_shift_phase_pixels : -p->rep->chemical_shift_pixels;
     e->tolerance = p->o.fat_tolerance_px;
-    e->tolerance_rule = "absolute, in pixels";
+    e->tolerance_rule = "absolute, in pixels (shifts modulo the axis's pixels: the image wraps)";
     e->source = epi ? "3.4 ppm x Larmor x (ny x echo spacing / shots): the EPI phase-direction "
                       "displacement (Jezzard & Balaban 1995; Bernstein, King & Zhou 2004)"
                     : "3.4 ppm x Larmor / (bandwidth per pixel): the chemical-shift displacement "
                       "(Bernstein, King & Zhou 2004)";
-    verdict(e, measured);
+    verdict_shift(e, measured, (size_t)p->prot.matrix[epi ? 1 : 0]);
 }
 
 /* A field of f Hz: +x along a readout, down the picture (+rows) for EPI. */
@@ -100,11 +109,12 @@ void kw_preview_effect_bump(const kw_preview *p, kw_preview_effect *e, double me
     e->predicted = epi ? f * p->rep->distortion_pixels_per_hz
                           : f / p->rep->bandwidth_per_pixel_hz;
     e->tolerance = p->o.bump_tolerance * fabs(e->predicted);
-    e->tolerance_rule = "relative, a fraction of the prediction";
+    e->tolerance_rule = "relative, a fraction of the prediction (shifts modulo the axis's "
+                        "pixels: the image wraps)";
     e->source = epi ? "field x ny x echo spacing / shots (Jezzard & Balaban 1995)"
                     : "field / (bandwidth per pixel): the readout displacement (Bernstein, King "
                       "& Zhou 2004)";
-    verdict(e, measured);
+    verdict_shift(e, measured, (size_t)p->prot.matrix[epi ? 1 : 0]);
 }
 
 /* The decay's blur: the FWHM of |FT| of the decay at the planner's times. */
@@ -121,6 +131,24 @@ void kw_preview_effect_blur(const kw_preview *p, kw_preview_effect *e, double pr
     e->source = "FWHM of the Fourier transform of exp(-t/T2*) sampled at the planner's echo "
                 "times (a symmetric exponential's is a Lorentzian of FWHM N esp / (pi T2*), "
                 "from the Fourier pair exp(-a|k|) <-> 2a / (a^2 + (2 pi y / N)^2))";
+    verdict(e, measured);
+}
+
+/* The edge response: which 0 the 10-90% width, 1 the overshoot. */
+void kw_preview_effect_edge(const kw_preview *p, kw_preview_effect *e, int which,
+                            double predicted, double measured)
+{
+    e->name = which ? "gibbs_overshoot" : "edge_width_10_90";
+    e->axis = "x";
+    e->unit = which ? "fraction" : "pixels";
+    e->predicted = predicted;
+    e->tolerance = which ? p->o.edge_tolerance * 0.1 : p->o.edge_tolerance * predicted;
+    e->tolerance_rule = which ? "absolute, edge_tolerance x 0.1 of the jump"
+                              : "relative, a fraction of the predicted width";
+    e->source = which ? "the ideal band-limited edge 1/2 + Si(pi x)/pi: overshoot Si(pi)/pi - 1/2 "
+                        "(the Wilbraham-Gibbs phenomenon; Hewitt & Hewitt 1979)"
+                      : "the ideal band-limited edge 1/2 + Si(pi x)/pi at the protocol's pixel: "
+                        "10-90% over 2 x90, Si(pi x90)/pi = 0.4";
     verdict(e, measured);
 }
 

@@ -104,7 +104,8 @@ Test(preview, epi_bump_displacement, .timeout = 120)
     protocol_of(&p, kv);
     kw_preview *pv = run(&p);
     const kw_preview_result *r = kw_preview_get_result(pv);
-    cr_assert(r && r->neffects == 2);
+    /* fat, the bump, the edge's width and overshoot (no t2star: no blur) */
+    cr_assert(r && r->neffects == 4);
     const kw_preview_effect *e = &r->effects[1];
     cr_expect_str_eq(e->name, "off_resonance_displacement");
     cr_expect_str_eq(e->axis, "y");
@@ -114,6 +115,8 @@ Test(preview, epi_bump_displacement, .timeout = 120)
     cr_expect(fabs(e->measured - want) <= 0.1 * want, "measured %.4f, N esp df %.4f",
               e->measured, want);
     cr_expect(e->pass);
+    cr_expect_str_eq(r->effects[2].name, "edge_width_10_90");
+    cr_expect_str_eq(r->effects[3].name, "gibbs_overshoot");
     char *j = NULL;
     cr_assert_eq(kw_preview_report_json(pv, &j), KW_OK);
     cr_expect(strstr(j, "\"safety_caution\""));

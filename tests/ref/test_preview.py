@@ -272,3 +272,27 @@ def test_reference_side_by_side(tmp_path):
     assert f["axis"] == "x" and abs(f["measured"] - want) <= 0.1, f
     assert not any(e["name"] == "snr_ratio" for e in ref["effects"])
     assert effect(rep, "fat_water_shift")["axis"] == "y"
+
+
+@pytest.mark.parametrize("matrix", [48, 64])
+def test_edge_width_and_gibbs_overshoot(matrix):
+    # the ideal band-limited edge 1/2 + Si(pi x)/pi (x in pixels; sampling
+    # to +-N/2 cycles per FOV): its 10-90% width 2 x90, Si(pi x90)/pi = 0.4,
+    # and its overshoot Si(pi)/pi - 1/2 = 8.95% of the jump (the
+    # Wilbraham-Gibbs phenomenon: Hewitt & Hewitt 1979, Arch. Hist. Exact
+    # Sci. 21:129); Si from scipy.special.sici. Width within 5%, overshoot
+    # within 0.005 of the jump.
+    from scipy.optimize import brentq
+    from scipy.special import sici
+    x90 = brentq(lambda x: sici(np.pi * x)[0] / np.pi - 0.4, 0.01, 1.0)
+    over = sici(np.pi)[0] / np.pi - 0.5
+    assert over == pytest.approx(0.0895, abs=1e-4)
+    rep = preview("--sequence", "gre", "--matrix", str(matrix), "--fov", "240mm",
+                  "--bump", "0Hz")
+    w = effect(rep, "edge_width_10_90")
+    o = effect(rep, "gibbs_overshoot")
+    assert w["predicted"] == pytest.approx(2 * x90, rel=1e-6)
+    assert o["predicted"] == pytest.approx(over, rel=1e-6)
+    assert abs(w["measured"] - 2 * x90) <= 0.05 * 2 * x90, w
+    assert abs(o["measured"] - over) <= 0.005, o
+    assert w["verdict"] == "pass" and o["verdict"] == "pass"
