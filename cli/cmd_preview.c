@@ -414,6 +414,24 @@ static kw_status write_png(const char *path, const kw_preview_result *r,
 
 /* ---- the verb --------------------------------------------------------------------- */
 
+/* The quantity of a protocol key's text, for its placeholder in the help. */
+static kw_unit_kind key_unit(const char *key)
+{
+    static const struct {
+        const char *key;
+        kw_unit_kind unit;
+    } units[] = {{"fov", KW_UNIT_LENGTH},        {"slice", KW_UNIT_LENGTH},
+                 {"b0", KW_UNIT_FIELD},          {"gmax", KW_UNIT_GRADIENT},
+                 {"slew", KW_UNIT_SLEW},         {"raster", KW_UNIT_TIME},
+                 {"te", KW_UNIT_TIME},           {"tr", KW_UNIT_TIME},
+                 {"rf-duration", KW_UNIT_TIME},  {"t2star", KW_UNIT_TIME},
+                 {"max-readout", KW_UNIT_TIME},  {"temperature", KW_UNIT_TEMPERATURE}};
+    for (size_t i = 0; i < sizeof units / sizeof units[0]; i++)
+        if (strcmp(units[i].key, key) == 0)
+            return units[i].unit;
+    return KW_UNIT_NONE;
+}
+
 static kw_status read_protocol(kw_protocol_input *in, const char *path)
 {
     char *buf;
@@ -548,10 +566,11 @@ int kw_cmd_preview(int argc, char **argv)
     int t = 0;
     table[t++] = (kw_opt){"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
                           "protocol file of key = value lines, as kweave plan reads it (options "
-                          "override it)"};
+                          "override it; default: none, plan's defaults)"};
     for (int k = 0; k < nk; k++) {
-        snprintf(help[k], sizeof help[k], "as kweave plan --%s", keys[k]);
-        table[t++] = (kw_opt){keys[k], KW_OPT_STRING, &val[k], KW_UNIT_NONE, &seen[k], help[k]};
+        snprintf(help[k], sizeof help[k], "as kweave plan --%s (default: plan's)", keys[k]);
+        table[t++] = (kw_opt){keys[k], KW_OPT_STRING, &val[k], key_unit(keys[k]), &seen[k],
+                              help[k]};
     }
     table[t++] = (kw_opt){"bump", KW_OPT_UNIT, &o.bump_hz, KW_UNIT_FREQUENCY, NULL,
                           "field bump on the CSF vial (default 100Hz; 0Hz: none)"};
@@ -577,18 +596,25 @@ int kw_cmd_preview(int argc, char **argv)
                           "edge: allowed fraction of the 10-90% width; x 0.1 of the jump for the "
                           "overshoot (default 0.05)"};
     table[t++] = (kw_opt){"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL,
-                          "write the report as JSON (- for stdout, in place of the text)"};
+                          "write the report as JSON (- for stdout, in place of the text; default: "
+                          "not written)"};
     table[t++] = (kw_opt){"png", KW_OPT_STRING, &png, KW_UNIT_NONE, NULL,
                           "the image with each effect marked, PNG FILE (default: not written)"};
     table[t] = (kw_opt){NULL, 0, NULL, 0, NULL, NULL};
-    static const kw_opt_arg args[] = {{"fat-tolerance", "PIXELS"}, {"bump-tolerance", "X"}, {"blur-tolerance", "X"}, {"edge-tolerance", "X"}, {"snr-tolerance", "X"},
+    static const kw_opt_arg args[] = {{"sequence", "WORD"}, {"bandwidth", "BANDWIDTH"},
+                                      {"shots", "N"}, {"interleaves", "N"}, {"spokes", "N"},
+                                      {"averages", "N"}, {"tbw", "X"}, {"spoiler", "X"},
+                                      {"crusher", "X"}, {"partial-fourier", "X"},
+                                      {"fat-tolerance", "X"}, {"bump-tolerance", "X"}, {"blur-tolerance", "X"}, {"edge-tolerance", "X"}, {"snr-tolerance", "X"},
                                       {NULL, NULL}};
     kw_opts_set_args(args);
     int rc = kw_opts_parse(argc, argv, table,
                            "usage: kweave preview [--protocol FILE] [plan options] [--bump HZ] "
                            "[--json FILE] [--png FILE]\n"
                            "Simulates the protocol's acquisition of the weave object and checks "
-                           "the planner's fat shift and off-resonance displacement on the image.",
+                           "the planner's predictions on the image: fat shift, off-resonance "
+                           "displacement, T2* blur, edge width and ringing, SNR against a "
+                           "reference.",
                            NULL, 0, NULL);
     if (rc >= 0)
         return rc;

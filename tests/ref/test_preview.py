@@ -126,6 +126,9 @@ def test_bad_input(tmp_path):
     bad("preview", "--matrix", "8", field="--matrix")
     bad("preview", "--sequence", "zigzag", field="sequence")
     bad("preview", "--b0", "2T", field="--b0")   # tissue values exist at 1.5 T and 3 T
+    for opt, v in (("--edge-tolerance", "2"), ("--snr-tolerance", "0"),
+                   ("--blur-tolerance", "-1"), ("--bump-tolerance", "1"), ("--seed", "-1")):
+        bad("preview", "--matrix", "32", opt, v, field=opt)
     out = tmp_path / "no" / "r.json"
     bad("preview", "--matrix", "32", "--json", out)
     assert not out.exists()
