@@ -52,6 +52,9 @@ static void report_text(const kw_preview_result *r)
     if (r->flip_rad > 0)
         printf(", flip %.4g deg", r->flip_rad * 180 / KW_PI);
     printf("; fat-water %.2f Hz (3.4 ppm)\n", r->fat_water_hz);
+    if (!r->feasible)
+        printf("  NOTE: the protocol breaks a hardware limit (kweave plan lists which); simulated "
+               "as planned\n");
     if (r->sequence == 2)
         printf("  EPI echo spacing %.4f ms: %.5f pixels/Hz along y\n", r->echo_spacing_s * 1e3,
                r->distortion_pixels_per_hz);

@@ -140,6 +140,8 @@ typedef struct kw_preview_result {
     int neffects;
     kw_preview_effect effects[KW_PREVIEW_MAX_EFFECTS];
     int all_pass;
+    int feasible;            /* the planner's verdict on the hardware limits
+                              * (kweave plan lists them); simulated either way */
 } kw_preview_result;
 
 typedef struct kw_preview kw_preview;
@@ -160,7 +162,7 @@ KW_API const kw_preview_result *kw_preview_get_result(const kw_preview *p);
  * with kw_free(); ends with a newline): kweave_version, kind ("preview"),
  * protocol {sequence, b0_t, larmor_hz, fat_water_hz, matrix [nx, ny],
  * fov_m [x, y], bandwidth_per_pixel_hz, te_s, tr_s, flip_deg,
- * echo_spacing_s, distortion_pixels_per_hz}, scenario {phantom, bump_hz,
+ * echo_spacing_s, distortion_pixels_per_hz, feasible}, scenario {phantom, bump_hz,
  * registration}, effects [{name, axis, unit, predicted, measured,
  * difference, tolerance, tolerance_rule, source, verdict ("pass" or
  * "fail"), centre_px [row, column]}], all_pass, safety_caution. KW_EINVAL before execute. */

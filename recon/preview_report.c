@@ -58,6 +58,7 @@ void kw_preview_result_head(kw_preview *p)
     r->tr_s = p->con.tr_s;
     r->flip_rad = p->con.seq == KW_CONTRAST_GRE ? p->con.flip_rad : 0;
     r->bump_hz = p->o.bump_hz;
+    r->feasible = rep->feasible;
     r->dims[0] = (size_t)p->prot.matrix[1];
     r->dims[1] = (size_t)p->prot.matrix[0];
     r->pixel_m[0] = p->prot.fov_m[1] / p->prot.matrix[1];
@@ -200,6 +201,7 @@ kw_status kw_preview_report_json(const kw_preview *p, char **json)
     kw_json_add_number_or_null(pr, "flip_deg", r->flip_rad > 0 ? r->flip_rad * 180 / KW_PI : NAN);
     cJSON_AddNumberToObject(pr, "echo_spacing_s", r->echo_spacing_s);
     cJSON_AddNumberToObject(pr, "distortion_pixels_per_hz", r->distortion_pixels_per_hz);
+    cJSON_AddBoolToObject(pr, "feasible", r->feasible);
     cJSON *sc = cJSON_AddObjectToObject(o, "scenario");
     cJSON_AddStringToObject(sc, "phantom", "weave");
     cJSON_AddNumberToObject(sc, "bump_hz", r->bump_hz);

@@ -113,6 +113,12 @@ def test_sample_protocols(tmp_path):
                         ("weave-epi", ["--matrix", "64"])):
         rep = preview("--protocol", os.path.join(SAMPLES, f"{name}.protocol"), *extra)
         assert rep["all_pass"], rep
+    # the thin-slice sample breaks a gradient limit (kweave plan exits 3): it is
+    # simulated as planned and the report says so
+    rep = preview("--protocol", os.path.join(SAMPLES, "weave-too-thin.protocol"), "--matrix", "48")
+    assert rep["protocol"]["feasible"] is False and rep["all_pass"]
+    assert run("plan", "--protocol", os.path.join(SAMPLES, "weave-too-thin.protocol"),
+               check=False).returncode == 3
     bad("preview", "--protocol", os.path.join(SAMPLES, "weave-radial.protocol"), field="--sequence")
     bad("preview", "--protocol", os.path.join(SAMPLES, "weave-spiral.protocol"), field="--sequence")
     bad("preview", "--protocol", os.path.join(SAMPLES, "weave-3d-gre.protocol"), field="--matrix")
