@@ -132,5 +132,6 @@ int kw_cmd_score(int argc, char **argv);
 int kw_cmd_render(int argc, char **argv);
 int kw_cmd_demo(int argc, char **argv);
 int kw_cmd_sweep(int argc, char **argv);
+int kw_cmd_preview(int argc, char **argv);
 
 #endif
