@@ -1,0 +1,242 @@
+/* kw_waveform.h: a sequence programmer's own gradient waveform, checked:
+ * gradient limits (amplitude, slew, per axis and of the vector), every
+ * interval that breaks one, the raster of the ADC windows, duty (RMS
+ * gradient), the gradient moments M0, M1, M2 at every ADC centre and at the
+ * echo, the k-space trajectory at the ADC samples, and an estimate of the
+ * nerve-stimulation figure dB/dt against the strength-duration limit.
+ *
+ * The waveform: g[samples * axes], C order (samples, axes), T/m, axes 1..3
+ * in the order x, y, z (the columns of the trajectory are (kx, ky, kz) in
+ * the same order). Sample i is the gradient at t_i = i raster after the
+ * waveform's start, and the gradient is linear between samples (a
+ * trapezoid whose corners lie on the raster is exact), zero outside
+ * [t_0, t_(samples-1)]. Interval i runs from sample i to sample i + 1; its
+ * slew is (g[i+1] - g[i]) / raster.
+ *
+ * Times: the RF centre (the excitation's isodelay point) rf_centre_s and
+ * the ADC windows' starts are in seconds after the waveform's start; the
+ * echo time te_s, moment times and the trajectory's times are in seconds
+ * after the RF centre. An ADC window of n samples, dwell d starting at s
+ * takes sample j at s + j d (j = 0..n-1); its centre is s + n d / 2 (the
+ * time of sample n/2, k = 0 of a symmetric readout, as kw_traj.h counts).
+ *
+ * Moments (Bernstein, King & Zhou, Handbook of MRI Pulse Sequences, 2004,
+ * sec. 9.1): M_n(t) = integral from the RF centre to t of G(tau) (tau -
+ * t_rf)^n dtau, in T s^(n+1) / m. On the piecewise-linear waveform the
+ * integrand is a polynomial of degree n + 1 <= 3 on every interval, which
+ * Simpson's rule integrates exactly: the moments are exact for the sampled
+ * waveform, up to double rounding.
+ *
+ * Trajectory: k(t) = gamma_bar M0(t) cycles/m, gamma_bar = KW_GAMMA_BAR_P
+ * (CODATA 2018), times FOV per axis: cycles per FOV, kweave's convention
+ * (kw_base.h), a (adc_samples, axes) array, windows one after the other.
+ *
+ * Nerve stimulation (an ESTIMATE: stimulation depends on the coil, the
+ * body and its position; the scanner's own supervision and IEC 60601-2-33
+ * govern; research and planning only): a ramp is a run of intervals on one
+ * axis whose slew keeps one sign; its dB/dt = peak |slew| x radius (the
+ * field change at that distance from the isocentre; default radius 0.2 m,
+ * as recalled from IEC 60601-2-33 for whole-body gradients, from memory),
+ * held against the strength-duration limit of the normal operating mode
+ * dB/dt_limit = fraction x rheobase x (1 + chronaxie / t_eff), t_eff the
+ * ramp's duration, rheobase 20 T/s, chronaxie 0.36 ms, fraction 0.8 (80 %
+ * of the mean threshold) (values recalled from IEC 60601-2-33, from
+ * memory: check them against the standard). The figure is 100 x dB/dt /
+ * limit per ramp.
+ *
+ * Object model: kw_waveform_create() checks and computes everything and
+ * keeps it; the accessors return pointers into the object, valid until
+ * kw_waveform_destroy() (NULL-safe). The object is read-only after create:
+ * its accessors may be used from any thread; different objects may be made
+ * in different threads at once.
+ *
+ * Errors: KW_EINVAL / KW_ERANGE / KW_ENUMERIC with kw_last_error_param()
+ * naming the argument or field at fault: "waveform" (NULL, a non-finite
+ * sample: the sample and axis in the reason), "samples" (< 2), "axes"
+ * (outside 1..3), "raster_s", "rf_centre_s" (NaN: not given; outside the
+ * waveform), "te_s", "gmax", "slew", "tr_s", "fov_m", "adc" (a window
+ * off the raster, outside the waveform, before the RF centre, dwell <= 0,
+ * no samples; the window's number in the reason), "pns_radius_m",
+ * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "options".
+ */
+#ifndef KW_WAVEFORM_H
+#define KW_WAVEFORM_H
+
+#include "kw_base.h"
+
+#ifdef __cplusplus
+extern "C" {
+#endif
+
+/* Defaults of the nerve-stimulation estimate (values recalled from IEC
+ * 60601-2-33, from memory; see above). */
+#define KW_PNS_RADIUS_M 0.2
+#define KW_PNS_RHEOBASE_T_PER_S 20.0
+#define KW_PNS_CHRONAXIE_S 0.36e-3
+#define KW_PNS_FRACTION 0.8
+
+/* One ADC window: `samples` samples, `dwell_s` apart, the first at
+ * `start_s` after the waveform's start. start_s and samples x dwell_s must
+ * be whole multiples of the raster (to 1e-6 of a raster). */
+typedef struct kw_waveform_adc {
+    double start_s;
+    double dwell_s;
+    size_t samples;
+} kw_waveform_adc;
+
+typedef struct kw_waveform_options {
+    size_t struct_size;   /* sizeof, set by kw_waveform_options_init() */
+    double raster_s;      /* time between samples, s (10 us) */
+    double rf_centre_s;   /* RF centre after the waveform's start, s (NaN:
+                           * not given, refused) */
+    double te_s;          /* echo time after the RF centre, s (NaN: none) */
+    double gmax;          /* T/m per axis (40 mT/m) */
+    double slew;          /* T/m/s per axis (150 T/m/s) */
+    int limit_vector;     /* 1: the vector sums are held against gmax and
+                           * slew too (axis -1 in the violations) (0) */
+    double tr_s;          /* repetition for the RMS gradient (0: the
+                           * waveform's span, (samples - 1) raster) */
+    double fov_m[3];      /* per axis, for the trajectory (0.256 m each) */
+    const kw_waveform_adc *adc; /* the ADC windows (NULL: none) */
+    size_t nadc;
+    double pns_radius_m;  /* KW_PNS_RADIUS_M */
+    double pns_rheobase;  /* T/s, KW_PNS_RHEOBASE_T_PER_S */
+    double pns_chronaxie_s; /* KW_PNS_CHRONAXIE_S */
+    double pns_fraction;  /* KW_PNS_FRACTION */
+} kw_waveform_options;
+
+/*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
+ * those of the planner, defaults.h) and o->struct_size = sizeof *o.
+ * kw_waveform_create() copies the caller's struct over them
+ * (kw_options_take()). */
+KW_API void kw_waveform_options_init(kw_waveform_options *o);
+
+/* Which limit a violation breaks. */
+typedef enum kw_waveform_limit {
+    KW_WAVEFORM_AMPLITUDE = 0, /* |G| > gmax: first/last are samples */
+    KW_WAVEFORM_SLEW = 1       /* |dG/dt| > slew: first/last are intervals */
+} kw_waveform_limit;
+
+/* One run of consecutive samples (amplitude) or intervals (slew) over a
+ * limit on one axis (0..2; -1: the vector sum). start_s / end_s: the time
+ * of the first sample (interval: its start) and of the last sample
+ * (interval: its end), after the waveform's start. peak: the largest |G|
+ * (T/m) or |slew| (T/m/s) in the run; excess = peak - limit (same unit).
+ * A value within 1e-5 of the limit (relative) counts as at the limit: the
+ * rounding of a float32 file. */
+typedef struct kw_waveform_violation {
+    kw_waveform_limit limit;
+    int axis;
+    size_t first, last;
+    double start_s, end_s;
+    double peak, limit_value, excess;
+} kw_waveform_violation;
+
+/* Moments at one time t_s (after the RF centre), per axis (unused axes 0). */
+typedef struct kw_waveform_moments {
+    double t_s;
+    double m0[3]; /* T s / m */
+    double m1[3]; /* T s^2 / m */
+    double m2[3]; /* T s^3 / m */
+} kw_waveform_moments;
+
+/* One ramp of the nerve-stimulation estimate (intervals first..last on
+ * `axis`). */
+typedef struct kw_waveform_ramp {
+    int axis;
+    size_t first, last;
+    double start_s;    /* after the waveform's start */
+    double duration_s; /* t_eff = (last - first + 1) raster */
+    double slew;       /* peak |dG/dt| in the ramp, T/m/s */
+    double dbdt;       /* slew x radius, T/s */
+    double limit;      /* fraction x rheobase x (1 + chronaxie / t_eff), T/s */
+    double percent;    /* 100 dbdt / limit */
+} kw_waveform_ramp;
+
+/* Whole-waveform figures. Indices: samples for amplitudes, intervals for
+ * slews. */
+typedef struct kw_waveform_summary {
+    size_t samples;
+    int axes;
+    double raster_s, span_s, tr_s;
+    double peak_g[3];
+    size_t peak_g_at[3];
+    double peak_g_vector;
+    size_t peak_g_vector_at;
+    double peak_slew[3];
+    size_t peak_slew_at[3];
+    double peak_slew_vector;
+    size_t peak_slew_vector_at;
+    double rms_g[3];          /* sqrt(integral G^2 dt / tr), T/m */
+    double rms_g_vector;
+    int starts_at_zero, ends_at_zero; /* first / last sample exactly 0 on every axis */
+    size_t adc_samples;       /* over all windows */
+    size_t violations, ramps;
+    double pns_percent_max;   /* the largest ramp percentage (0: no ramp) */
+    size_t pns_worst;         /* its index in kw_waveform_ramps() */
+    double gamma_bar;         /* Hz/T used for k */
+} kw_waveform_summary;
+
+typedef struct kw_waveform kw_waveform;
+
+/*! kw_waveform_create(): copy g[samples * axes] (T/m, C order), check it
+ * and the options, and compute every figure. *w is NULL on failure. A
+ * waveform over a limit is not an error: the violations list it. */
+KW_API kw_status kw_waveform_create(kw_waveform **w, const double *g, size_t samples, int axes,
+                                    const kw_waveform_options *o);
+
+/*! kw_waveform_destroy(): NULL-safe. */
+KW_API void kw_waveform_destroy(kw_waveform *w);
+
+/*! kw_waveform_summary_of(): the figures above (owned by w). */
+KW_API const kw_waveform_summary *kw_waveform_summary_of(const kw_waveform *w);
+
+/*! kw_waveform_violations(): the runs over a limit, amplitude runs first,
+ * then slew, each by axis then time; *n their count. Owned by w. */
+KW_API const kw_waveform_violation *kw_waveform_violations(const kw_waveform *w, size_t *n);
+
+/*! kw_waveform_ramps(): the ramps of the nerve-stimulation estimate, by
+ * axis then time; *n their count. Owned by w. */
+KW_API const kw_waveform_ramp *kw_waveform_ramps(const kw_waveform *w, size_t *n);
+
+/*! kw_waveform_adc_moments(): the moments at the centre of every ADC
+ * window, in the order of the options; *n = nadc. Owned by w. */
+KW_API const kw_waveform_moments *kw_waveform_adc_moments(const kw_waveform *w, size_t *n);
+
+/*! kw_waveform_moments_at(): the moments at t_s after the RF centre
+ * (t_s within the waveform; KW_ERANGE naming "t_s" otherwise). */
+KW_API kw_status kw_waveform_moments_at(const kw_waveform *w, double t_s, kw_waveform_moments *m);
+
+/*! kw_waveform_trajectory(): k[adc_samples * axes] in cycles/FOV (column
+ * a: gamma_bar M0_a(t) fov_m[a]) and t[adc_samples], the sample times
+ * after the RF centre (t may be NULL); windows one after the other.
+ * KW_EINVAL naming "adc" when there is no ADC window. */
+KW_API kw_status kw_waveform_trajectory(const kw_waveform *w, float *k, float *t);
+
+/*! kw_waveform_pns_limit(): fraction x rheobase x (1 + chronaxie / t_eff)
+ * in T/s (NaN for t_eff <= 0 or non-finite arguments). */
+KW_API double kw_waveform_pns_limit(double t_eff_s, double rheobase, double chronaxie_s,
+                                    double fraction);
+
+/*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
+ * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),
+ * samples, axes, raster_s, span_s, tr_s, rf_centre_s, te_s (null when
+ * none), gmax_T_per_m, slew_T_per_m_per_s, limit_vector, peak_G_T_per_m
+ * (per axis), peak_G_sample, peak_G_vector_T_per_m, peak_G_vector_sample,
+ * peak_slew_T_per_m_per_s, peak_slew_interval, peak_slew_vector_T_per_m_per_s,
+ * peak_slew_vector_interval, rms_G_T_per_m, rms_G_vector_T_per_m,
+ * duty_percent (100 rms / gmax per axis), starts_at_zero, ends_at_zero,
+ * raster_ok, within_limits, violations [{limit ("amplitude"|"slew"), axis
+ * ("x","y","z","vector"), first, last, start_s, end_s, peak, limit_value,
+ * excess}], adc [{start_s, dwell_s, samples, centre_s, m0, m1, m2}], echo
+ * ({t_s, m0, m1, m2} or null), gamma_bar_Hz_per_T, fov_m, pns {estimate
+ * (true), radius_m, rheobase_T_per_s, chronaxie_s, fraction, source,
+ * caution, percent_max, worst (the ramp or null), ramps [{axis, first,
+ * last, start_s, duration_s, slew, dbdt_T_per_s, limit_T_per_s,
+ * percent}]}, safety_caution. NaN figures are null. */
+KW_API kw_status kw_waveform_report_json(const kw_waveform *w, char **json);
+
+#ifdef __cplusplus
+}
+#endif
+#endif /* KW_WAVEFORM_H */
