@@ -125,5 +125,6 @@ int kw_cmd_score(int argc, char **argv);
 int kw_cmd_render(int argc, char **argv);
 int kw_cmd_demo(int argc, char **argv);
 int kw_cmd_sweep(int argc, char **argv);
+int kw_cmd_waveform(int argc, char **argv);
 
 #endif

@@ -1,0 +1,695 @@
+/* cmd_waveform.c: `kweave waveform`: a sequence programmer's own gradient
+ * waveform (.npy (samples, axes) in T/m) checked by the library
+ * (kw_waveform.h): limits, violations, duty, moments, k-space, a
+ * nerve-stimulation estimate; the report as text, JSON and a picture, the
+ * trajectory as a kweave trajectory (.npy + times + sidecar). The timing
+ * (raster, RF centre, TE, ADC windows) comes from the options or from a
+ * JSON sidecar (docs/waveform.md). */
+#include <cairo.h>
+#include <dlfcn.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "arrayio.h"
+#include "cli.h"
+#include "defaults.h"
+#include "figure.h"
+#include "jsonio.h"
+#include "kw_waveform.h"
+#include "npy.h"
+#include "outfile.h"
+#include "plot.h"
+
+static const char USAGE[] =
+    "usage: kweave waveform --in G.npy [--rf-centre T] [--raster T] [--adc START:N:DWELL[,...]]\n"
+    "                       [--te T] [--gmax G] [--slew S] [--fov L[,LY[,LZ]]]\n"
+    "                       [--json F] [--trajectory K.npy] [--png F]\n"
+    "\n"
+    "Checks a gradient waveform of your own: G.npy is float32/float64 (samples, axes)\n"
+    "in T/m, axes x, y, z (1 to 3), sample i at i x raster, linear in between.\n"
+    "Reports peak amplitude and slew per axis and of the vector sum, every run of\n"
+    "samples over a limit, the RMS gradient, the moments M0, M1, M2 at every ADC\n"
+    "centre and at TE (from the RF centre), and an ESTIMATE of nerve stimulation:\n"
+    "dB/dt = slew x radius per ramp against 0.8 x 20 T/s x (1 + 0.36 ms / ramp)\n"
+    "(IEC 60601-2-33 normal mode; values from memory). The trajectory\n"
+    "k = gamma_bar x integral G dt in cycles/FOV at the ADC samples is a kweave\n"
+    "trajectory that `encode --trajectory` and `recon` take. Timing keys may come\n"
+    "from a sidecar G.json (raster_s, rf_centre_s, te_s, tr_s, adc: [{start_s or\n"
+    "start_sample, samples, dwell_s}]); options override it. See docs/waveform.md.";
+
+typedef struct wf_args {
+    const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
+    double raster, rf, te, tr, gmax, slew, radius;
+    int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector;
+} wf_args;
+
+static const kw_cli_param PARAM_MAP[] = {
+    {"waveform", "in"},     {"axes", "in"},   {"samples", "in"},   {"raster_s", "raster"},
+    {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
+    {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
+    {NULL, NULL},
+};
+
+/* ---- input ---------------------------------------------------------------------------- */
+
+/* One window "START:N:DWELL": START a time (1.2ms) or a sample index (a
+ * whole number without unit). */
+static int parse_window(const char *s, double raster, kw_waveform_adc *w)
+{
+    char buf[128], why[160];
+    if (strlen(s) >= sizeof buf)
+        return kw_cli_fail("adc", "'%s': too long", s);
+    strcpy(buf, s);
+    char *c1 = strchr(buf, ':'), *c2 = c1 ? strchr(c1 + 1, ':') : NULL;
+    if (!c1 || !c2 || strchr(c2 + 1, ':'))
+        return kw_cli_fail("adc", "'%s': expected START:SAMPLES:DWELL (e.g. 1.2ms:256:4us)", s);
+    *c1 = *c2 = '\0';
+    char *end;
+    double idx = strtod(buf, &end);
+    long long v;
+    if (*buf && !*end) {
+        if (kw_checked_whole(idx, 0, 1LL << 40, &v))
+            return kw_cli_fail("adc", "'%s': a sample index is a whole number >= 0", buf);
+        w->start_s = (double)v * raster;
+    } else if (kw_unit_parse(buf, KW_UNIT_TIME, &w->start_s, why, sizeof why)) {
+        return kw_cli_fail("adc", "start '%s': %s", buf, why);
+    }
+    double n = strtod(c1 + 1, &end);
+    if (!c1[1] || *end || kw_checked_whole(n, 1, 1LL << 28, &v))
+        return kw_cli_fail("adc", "samples '%s': a whole number from 1", c1 + 1);
+    w->samples = (size_t)v;
+    if (kw_unit_parse(c2 + 1, KW_UNIT_TIME, &w->dwell_s, why, sizeof why))
+        return kw_cli_fail("adc", "dwell '%s': %s", c2 + 1, why);
+    return -1;
+}
+
+static int parse_adc_list(const char *list, double raster, kw_waveform_adc **out, size_t *n)
+{
+    size_t cap = 1;
+    for (const char *p = list; *p; p++)
+        cap += *p == ',';
+    kw_waveform_adc *w = calloc(cap, sizeof *w);
+    char *copy = strdup(list);
+    if (!w || !copy) {
+        free(w);
+        free(copy);
+        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
+    }
+    size_t k = 0;
+    int rc = -1;
+    for (char *save = NULL, *tok = strtok_r(copy, ",", &save); tok && rc < 0;
+         tok = strtok_r(NULL, ",", &save))
+        rc = parse_window(tok, raster, &w[k++]);
+    free(copy);
+    if (rc < 0 && k == 0)
+        rc = kw_cli_fail("adc", "no window given");
+    if (rc >= 0) {
+        free(w);
+        return rc;
+    }
+    *out = w;
+    *n = k;
+    return -1;
+}
+
+static int side_number(const cJSON *j, const char *key, double *v, int *seen)
+{
+    const cJSON *it = cJSON_GetObjectItemCaseSensitive(j, key);
+    if (!it || cJSON_IsNull(it))
+        return -1;
+    if (!cJSON_IsNumber(it) || !isfinite(it->valuedouble))
+        return kw_cli_fail("sidecar", "%s: not a number", key);
+    if (!*seen)
+        *v = it->valuedouble;
+    *seen = 1;
+    return -1;
+}
+
+/* The windows of the sidecar's "adc" array. */
+static int side_adc(const cJSON *arr, double raster, kw_waveform_adc **out, size_t *n)
+{
+    if (!cJSON_IsArray(arr))
+        return kw_cli_fail("sidecar", "adc: expected an array of {start_s or start_sample, samples, dwell_s}");
+    size_t cnt = (size_t)cJSON_GetArraySize(arr), k = 0;
+    kw_waveform_adc *w = calloc(cnt ? cnt : 1, sizeof *w);
+    if (!w)
+        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
+    const cJSON *it;
+    cJSON_ArrayForEach(it, arr) {
+        const cJSON *ss = cJSON_GetObjectItemCaseSensitive(it, "start_s"),
+                    *si = cJSON_GetObjectItemCaseSensitive(it, "start_sample"),
+                    *ns = cJSON_GetObjectItemCaseSensitive(it, "samples"),
+                    *dw = cJSON_GetObjectItemCaseSensitive(it, "dwell_s");
+        long long v, nn;
+        int bad = !cJSON_IsNumber(ns) || kw_checked_whole(ns->valuedouble, 1, 1LL << 28, &nn) ||
+                  !cJSON_IsNumber(dw) || !isfinite(dw->valuedouble) ||
+                  (cJSON_IsNumber(ss) == cJSON_IsNumber(si));
+        if (!bad && cJSON_IsNumber(si))
+            bad = kw_checked_whole(si->valuedouble, 0, 1LL << 40, &v) != KW_OK;
+        if (bad || (cJSON_IsNumber(ss) && !isfinite(ss->valuedouble))) {
+            free(w);
+            return kw_cli_fail("sidecar", "adc[%zu]: expected start_s (s) or start_sample (a whole "
+                               "number), samples (>= 1) and dwell_s (s)", k);
+        }
+        w[k].start_s = cJSON_IsNumber(ss) ? ss->valuedouble : (double)v * raster;
+        w[k].samples = (size_t)nn;
+        w[k].dwell_s = dw->valuedouble;
+        k++;
+    }
+    *out = w;
+    *n = k;
+    return -1;
+}
+
+/* The sidecar (--sidecar, or G.json beside --in when it exists): the keys
+ * the options did not give. */
+static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
+{
+    char *path = a->s_sidecar ? strdup(a->sidecar) : kw_array_sidecar_path(a->in);
+    if (!path)
+        return -1;
+    FILE *f = a->s_sidecar ? NULL : fopen(path, "rb");
+    if (!a->s_sidecar && !f) { /* none beside the waveform: the options alone */
+        free(path);
+        return -1;
+    }
+    if (f)
+        fclose(f);
+    cJSON *j = NULL;
+    kw_status st = kw_json_read(path, &j);
+    free(path);
+    if (st)
+        return kw_cli_status(st, "sidecar");
+    int rc = -1;
+    if (!cJSON_IsObject(j))
+        rc = kw_cli_fail("sidecar", "expected a JSON object");
+    if (rc < 0)
+        rc = side_number(j, "raster_s", &a->raster, &a->s_raster);
+    if (rc < 0)
+        rc = side_number(j, "rf_centre_s", &a->rf, &a->s_rf);
+    if (rc < 0)
+        rc = side_number(j, "te_s", &a->te, &a->s_te);
+    if (rc < 0)
+        rc = side_number(j, "tr_s", &a->tr, &a->s_tr);
+    const cJSON *arr = cJSON_GetObjectItemCaseSensitive(j, "adc");
+    if (rc < 0 && !a->adc && arr && !cJSON_IsNull(arr))
+        rc = side_adc(arr, a->s_raster ? a->raster : KWD_RASTER_S, adc, nadc);
+    cJSON_Delete(j);
+    return rc;
+}
+
+/* The waveform (samples, axes) as doubles. */
+static int read_waveform(const char *path, double **g, size_t *n, int *axes)
+{
+    kw_array a = {0};
+    kw_status st = kw_array_read(path, &a);
+    if (st)
+        return kw_cli_status(st, "in");
+    int rc = -1;
+    if (a.dtype != KW_F32)
+        rc = kw_cli_fail("in", "expected real numbers (float32 or float64) in T/m");
+    else if (a.ndim != 1 && a.ndim != 2)
+        rc = kw_cli_fail("in", "expected (samples, axes) or (samples,), got %d dimensions", a.ndim);
+    else if (a.ndim == 2 && (a.dims[1] < 1 || a.dims[1] > 3))
+        rc = kw_cli_fail("in", "%zu axes; 1 to 3 (x, y, z) in the last dimension", a.dims[1]);
+    if (rc >= 0) {
+        kw_array_free(&a);
+        return rc;
+    }
+    *n = a.dims[0];
+    *axes = a.ndim == 2 ? (int)a.dims[1] : 1;
+    size_t cnt = kw_array_count(&a);
+    *g = kw_alloc_n(cnt ? cnt : 1, sizeof **g);
+    if (!*g) {
+        kw_array_free(&a);
+        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory for %zu samples", cnt), "in");
+    }
+    const float *src = a.data;
+    for (size_t i = 0; i < cnt; i++)
+        (*g)[i] = src[i];
+    kw_array_free(&a);
+    return -1;
+}
+
+/* ---- outputs ---------------------------------------------------------------------------- */
+
+static char *times_path(const char *out)
+{
+    size_t n = strlen(out), stem = n > 4 && strcmp(out + n - 4, ".npy") == 0 ? n - 4 : n;
+    char *s = malloc(stem + 11);
+    if (s) {
+        memcpy(s, out, stem);
+        memcpy(s + stem, "_times.npy", 11);
+    }
+    return s;
+}
+
+static const char *base_name(const char *p)
+{
+    const char *s = strrchr(p, '/');
+    return s ? s + 1 : p;
+}
+
+/* The trajectory (samples, max(2, axes)) in cycles/FOV (a 1-axis waveform
+ * gets ky = 0), its times after the RF centre and its sidecar. */
+static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_waveform_options *o)
+{
+    const kw_waveform_summary *s = kw_waveform_summary_of(w);
+    const size_t ns = s->adc_samples, na = (size_t)s->axes, nc = na < 2 ? 2 : na;
+    if (!ns)
+        return kw_cli_fail("trajectory", "no ADC window (--adc or the sidecar's adc): no samples");
+    float *k = kw_alloc_n(ns * na, sizeof *k), *kc = kw_alloc_n(ns * nc, sizeof *kc),
+          *t = kw_alloc_n(ns, sizeof *t);
+    char *tp = a->times ? strdup(a->times) : times_path(a->traj), *sp = kw_sidecar_path(a->traj);
+    kw_status st = !k || !kc || !t || !tp ? kw_set_error(KW_ENOMEM, "out of memory") : KW_OK;
+    if (!st)
+        st = kw_waveform_trajectory(w, k, t);
+    for (size_t i = 0; !st && i < ns; i++)
+        for (size_t c = 0; c < na; c++)
+            kc[i * nc + c] = k[i * na + c];
+    kw_array ka = {.dtype = KW_F32, .ndim = 2, .dims = {ns, nc}, .data = kc};
+    kw_array ta = {.dtype = KW_F32, .ndim = 1, .dims = {ns}, .data = t};
+    if (!st)
+        st = kw_npy_write(a->traj, &ka);
+    if (!st)
+        st = kw_npy_write(tp, &ta);
+    if (!st && sp) {
+        cJSON *j = cJSON_CreateObject();
+        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+        cJSON_AddStringToObject(j, "kind", "trajectory");
+        cJSON_AddStringToObject(j, "layout", "noncartesian");
+        cJSON_AddStringToObject(j, "pattern_kind", "waveform");
+        double sh[2] = {(double)ns, (double)nc};
+        kw_json_add_vec(j, "shape", sh, 2);
+        const char *cols[3] = {"kx", "ky", "kz"};
+        cJSON_AddItemToObject(j, "columns", cJSON_CreateStringArray(cols, (int)nc));
+        cJSON_AddStringToObject(j, "units", "cycles/FOV");
+        kw_json_add_number_or_null(j, "readouts", (double)o->nadc);
+        kw_json_add_vec(j, "fov_m", o->fov_m, (int)na);
+        kw_json_add_number_or_null(j, "raster_s", o->raster_s);
+        kw_json_add_number_or_null(j, "gamma_bar_Hz_per_T", s->gamma_bar);
+        cJSON_AddStringToObject(j, "waveform", a->in);
+        cJSON_AddStringToObject(j, "times", base_name(tp));
+        cJSON_AddStringToObject(j, "times_origin", "RF centre");
+        cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
+        st = kw_json_write(sp, j);
+        cJSON_Delete(j);
+    }
+    kw_free(k);
+    kw_free(kc);
+    kw_free(t);
+    free(tp);
+    free(sp);
+    return st ? kw_cli_status(st, "trajectory") : -1;
+}
+
+/* ---- the picture --------------------------------------------------------------------------- */
+
+static void release_font_caches(void)
+{
+    cairo_debug_reset_static_data();
+    void (*fc_fini)(void);
+    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
+    if (fc_fini)
+        fc_fini();
+}
+
+static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
+{
+    cairo_text_extents_t e;
+    cairo_text_extents(cr, s, &e);
+    cairo_move_to(cr, x - ax * e.width - e.x_bearing, y - ay * e.height - e.y_bearing);
+    cairo_show_text(cr, s);
+}
+
+enum { PW = 1200, PH = 150, PGAP = 46, PLEFT = 96, PRIGHT = 24, PTOP = 56, PBOTTOM = 60 };
+
+typedef struct panel {
+    double y0;     /* top, px */
+    double lo, hi; /* value range */
+    double t1;     /* ms, the time axis 0..t1 */
+} panel;
+
+static double px_t(const panel *p, double t_ms) { return PLEFT + t_ms / p->t1 * (PW - PLEFT - PRIGHT); }
+static double px_v(const panel *p, double v) { return p->y0 + (p->hi - v) / (p->hi - p->lo) * PH; }
+
+/* frame, value ticks, the limit lines (dashed red at +-lim), the label */
+static void panel_frame(cairo_t *cr, const panel *p, double lim, const char *label)
+{
+    double ticks[16], step;
+    size_t nt = kw_figure_ticks(p->lo, p->hi, 4, ticks, 16, &step);
+    char buf[64];
+    cairo_set_font_size(cr, 12);
+    for (size_t i = 0; i < nt; i++) {
+        double y = px_v(p, ticks[i]);
+        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
+        cairo_move_to(cr, PLEFT, y);
+        cairo_line_to(cr, PW - PRIGHT, y);
+        cairo_stroke(cr);
+        cairo_set_source_rgb(cr, 0, 0, 0);
+        kw_figure_tick_text(buf, sizeof buf, ticks[i], step);
+        text_at(cr, PLEFT - 6, y, buf, 1.0, 0.5);
+    }
+    cairo_set_source_rgb(cr, 0.8, 0, 0);
+    double dash[2] = {6, 4};
+    cairo_set_dash(cr, dash, 2, 0);
+    for (int sg = -1; sg <= 1; sg += 2) {
+        cairo_move_to(cr, PLEFT, px_v(p, sg * lim));
+        cairo_line_to(cr, PW - PRIGHT, px_v(p, sg * lim));
+    }
+    cairo_stroke(cr);
+    cairo_set_dash(cr, NULL, 0, 0);
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_rectangle(cr, PLEFT, p->y0, PW - PLEFT - PRIGHT, PH);
+    cairo_stroke(cr);
+    cairo_save(cr);
+    cairo_translate(cr, 18, p->y0 + PH / 2.0);
+    cairo_rotate(cr, -M_PI / 2);
+    text_at(cr, 0, 0, label, 0.5, 0.5);
+    cairo_restore(cr);
+}
+
+/* shaded ADC windows and the RF centre / TE lines (times in ms) */
+static void panel_marks(cairo_t *cr, const panel *p, const kw_waveform_options *o)
+{
+    cairo_set_source_rgba(cr, 0.2, 0.6, 0.2, 0.18);
+    for (size_t i = 0; i < o->nadc; i++) {
+        double a0 = o->adc[i].start_s * 1e3,
+               a1 = (o->adc[i].start_s + (double)o->adc[i].samples * o->adc[i].dwell_s) * 1e3;
+        cairo_rectangle(cr, px_t(p, a0), p->y0, px_t(p, a1) - px_t(p, a0), PH);
+        cairo_fill(cr);
+    }
+    double lines[2] = {o->rf_centre_s * 1e3, (o->rf_centre_s + o->te_s) * 1e3};
+    for (int i = 0; i < 2; i++) {
+        if (!isfinite(lines[i]))
+            continue;
+        cairo_set_source_rgb(cr, i == 0 ? 0.5 : 0.1, 0.1, i == 0 ? 0.6 : 0.7);
+        cairo_move_to(cr, px_t(p, lines[i]), p->y0);
+        cairo_line_to(cr, px_t(p, lines[i]), p->y0 + PH);
+        cairo_stroke(cr);
+    }
+}
+
+/* 1 when sample/interval i of `axis` lies in a violation of `lim` */
+static int in_violation(const kw_waveform_violation *v, size_t nv, kw_waveform_limit lim, int axis,
+                        size_t i)
+{
+    for (size_t k = 0; k < nv; k++)
+        if (v[k].limit == lim && (v[k].axis == axis || v[k].axis == -1) && i >= v[k].first &&
+            i <= v[k].last)
+            return 1;
+    return 0;
+}
+
+/* The curve of one panel: G (kind 0, mT/m) or slew (kind 1, T/m/s, a step
+ * per interval), black, red where it breaks the limit. */
+static void panel_curve(cairo_t *cr, const panel *p, const double *g, size_t n, int axes, int axis,
+                        int kind, double h, const kw_waveform_violation *v, size_t nv)
+{
+    cairo_set_line_width(cr, 1.2);
+    for (int pass = 0; pass < 2; pass++) {
+        cairo_set_source_rgb(cr, pass ? 0.85 : 0.05, pass ? 0.05 : 0.05, pass ? 0.05 : 0.05);
+        for (size_t i = 0; i + 1 < n; i++) {
+            double a = g[i * (size_t)axes + (size_t)axis], b = g[(i + 1) * (size_t)axes + (size_t)axis];
+            int bad = kind == 0 ? in_violation(v, nv, KW_WAVEFORM_AMPLITUDE, axis, i) ||
+                                      in_violation(v, nv, KW_WAVEFORM_AMPLITUDE, axis, i + 1)
+                                : in_violation(v, nv, KW_WAVEFORM_SLEW, axis, i);
+            if (bad != pass)
+                continue;
+            double t0 = (double)i * h * 1e3, t1 = (double)(i + 1) * h * 1e3;
+            if (kind == 0) {
+                cairo_move_to(cr, px_t(p, t0), px_v(p, a * 1e3));
+                cairo_line_to(cr, px_t(p, t1), px_v(p, b * 1e3));
+            } else {
+                double s = (b - a) / h, prev = s;
+                if (i > 0)
+                    prev = (a - g[(i - 1) * (size_t)axes + (size_t)axis]) / h;
+                cairo_move_to(cr, px_t(p, t0), px_v(p, prev));
+                cairo_line_to(cr, px_t(p, t0), px_v(p, s));
+                cairo_line_to(cr, px_t(p, t1), px_v(p, s));
+            }
+            cairo_stroke(cr);
+        }
+    }
+    cairo_set_line_width(cr, 1.0);
+}
+
+static void time_axis(cairo_t *cr, const panel *p, double ybottom)
+{
+    double ticks[32], step;
+    size_t nt = kw_figure_ticks(0, p->t1, 8, ticks, 32, &step);
+    char buf[64];
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_set_font_size(cr, 12);
+    for (size_t i = 0; i < nt; i++) {
+        kw_figure_tick_text(buf, sizeof buf, ticks[i], step);
+        text_at(cr, px_t(p, ticks[i]), ybottom + 6, buf, 0.5, 0.0);
+    }
+    text_at(cr, (PLEFT + PW - PRIGHT) / 2.0, ybottom + 28, "time from the waveform's start (ms)", 0.5, 0.0);
+}
+
+static kw_status write_png(const char *path, const double *g, size_t n, int axes, const kw_waveform *w,
+                           const kw_waveform_options *o)
+{
+    const kw_waveform_summary *s = kw_waveform_summary_of(w);
+    size_t nv;
+    const kw_waveform_violation *v = kw_waveform_violations(w, &nv);
+    const int rows = 2 * axes;
+    const int height = PTOP + rows * PH + (rows - 1) * PGAP + PBOTTOM;
+    cairo_surface_t *sf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, PW, height);
+    cairo_t *cr = cairo_create(sf);
+    cairo_set_source_rgb(cr, 1, 1, 1);
+    cairo_paint(cr);
+    cairo_set_line_width(cr, 1.0);
+    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
+    cairo_set_source_rgb(cr, 0, 0, 0);
+    cairo_set_font_size(cr, 15);
+    char title[256];
+    snprintf(title, sizeof title, "gradient waveform: %zu samples, raster %g us; limits %g mT/m, %g T/m/s "
+             "(dashed red), over a limit in red; ADC green, RF centre and TE lines", s->samples,
+             s->raster_s * 1e6, o->gmax * 1e3, o->slew);
+    text_at(cr, PW / 2.0, 14, title, 0.5, 0.0);
+    const char *an[3] = {"x", "y", "z"};
+    panel p = {0, 0, 0, s->span_s * 1e3};
+    double ybottom = 0;
+    for (int r = 0; r < rows; r++) {
+        const int axis = r / 2, kind = r % 2;
+        const double lim = kind == 0 ? o->gmax * 1e3 : o->slew;
+        const double peak = kind == 0 ? s->peak_g[axis] * 1e3 : s->peak_slew[axis];
+        const double top = 1.1 * (peak > lim ? peak : lim);
+        p.y0 = PTOP + r * (PH + PGAP);
+        p.lo = -top;
+        p.hi = top;
+        char label[64];
+        snprintf(label, sizeof label, kind == 0 ? "G%s (mT/m)" : "slew %s (T/m/s)", an[axis]);
+        panel_marks(cr, &p, o);
+        panel_frame(cr, &p, lim, label);
+        panel_curve(cr, &p, g, n, axes, axis, kind, s->raster_s, v, nv);
+        ybottom = p.y0 + PH;
+    }
+    time_axis(cr, &p, ybottom);
+    cairo_destroy(cr);
+    kw_status st = kw_plot_write_png(sf, path);
+    cairo_surface_destroy(sf);
+    release_font_caches();
+    return st;
+}
+
+/* ---- the text report ---------------------------------------------------------------------- */
+
+static void print_moments(const char *what, const kw_waveform_moments *m, int axes)
+{
+    const char *an[3] = {"x", "y", "z"};
+    printf("%s at %.6g ms after the RF centre:\n", what, m->t_s * 1e3);
+    for (int a = 0; a < axes; a++)
+        printf("  %s  M0 %+.6e T s/m   M1 %+.6e T s^2/m   M2 %+.6e T s^3/m\n", an[a], m->m0[a],
+               m->m1[a], m->m2[a]);
+}
+
+static const char *axis_word(int a)
+{
+    return a == 0 ? "x" : a == 1 ? "y" : a == 2 ? "z" : "vector";
+}
+
+static void print_pns(const kw_waveform *w, const kw_waveform_options *o)
+{
+    const kw_waveform_summary *s = kw_waveform_summary_of(w);
+    size_t nr, over = 0;
+    const kw_waveform_ramp *r = kw_waveform_ramps(w, &nr);
+    for (size_t i = 0; i < nr; i++)
+        over += r[i].percent > 100.0;
+    printf("nerve stimulation (ESTIMATE): dB/dt = slew x %g m against %g x %g T/s x (1 + %g ms / ramp)\n",
+           o->pns_radius_m, o->pns_fraction, o->pns_rheobase, o->pns_chronaxie_s * 1e3);
+    printf("  (IEC 60601-2-33 normal operating mode; radius and limit values recalled from memory)\n");
+    if (nr) {
+        const kw_waveform_ramp *b = &r[s->pns_worst];
+        printf("  worst ramp: %s intervals %zu..%zu (%.6g us): slew %.6g T/m/s, dB/dt %.6g T/s, "
+               "limit %.6g T/s: %.1f %%\n", axis_word(b->axis), b->first, b->last, b->duration_s * 1e6,
+               b->slew, b->dbdt, b->limit, b->percent);
+    }
+    printf("  %zu ramps, %zu over 100 %%. An estimate only: stimulation depends on the coil, the subject\n"
+           "  and the position; the scanner's own supervision and IEC 60601-2-33 govern.\n", nr, over);
+}
+
+static void print_report(const kw_waveform *w, const kw_waveform_options *o)
+{
+    const kw_waveform_summary *s = kw_waveform_summary_of(w);
+    const char *an[3] = {"x", "y", "z"};
+    printf("waveform: %zu samples x %d axes, raster %g us, span %.6g ms, RF centre at %.6g ms\n",
+           s->samples, s->axes, s->raster_s * 1e6, s->span_s * 1e3, o->rf_centre_s * 1e3);
+    for (int a = 0; a < s->axes; a++)
+        printf("axis %s: peak |G| %.4f mT/m (sample %zu), peak slew %.2f T/m/s (interval %zu), "
+               "RMS %.4f mT/m (%.1f %% of gmax)\n", an[a], s->peak_g[a] * 1e3, s->peak_g_at[a],
+               s->peak_slew[a], s->peak_slew_at[a], s->rms_g[a] * 1e3, 100 * s->rms_g[a] / o->gmax);
+    printf("vector: peak |G| %.4f mT/m (sample %zu), peak slew %.2f T/m/s (interval %zu), RMS %.4f mT/m "
+           "over %.6g ms\n", s->peak_g_vector * 1e3, s->peak_g_vector_at, s->peak_slew_vector,
+           s->peak_slew_vector_at, s->rms_g_vector * 1e3, s->tr_s * 1e3);
+    printf("starts at zero: %s; ends at zero: %s; ADC windows on the raster: yes\n",
+           s->starts_at_zero ? "yes" : "NO", s->ends_at_zero ? "yes" : "NO");
+    size_t nv;
+    const kw_waveform_violation *v = kw_waveform_violations(w, &nv);
+    printf("limits %g mT/m, %g T/m/s%s: %s\n", o->gmax * 1e3, o->slew,
+           o->limit_vector ? " (per axis and vector)" : " (per axis)",
+           nv ? "BROKEN" : "within");
+    for (size_t i = 0; i < nv; i++) {
+        const int amp = v[i].limit == KW_WAVEFORM_AMPLITUDE;
+        printf("  %s %s %s %zu..%zu (%.6g .. %.6g ms): peak %.6g %s, %.6g %s over\n",
+               amp ? "amplitude" : "slew", axis_word(v[i].axis), amp ? "samples" : "intervals",
+               v[i].first, v[i].last, v[i].start_s * 1e3, v[i].end_s * 1e3,
+               amp ? v[i].peak * 1e3 : v[i].peak, amp ? "mT/m" : "T/m/s",
+               amp ? v[i].excess * 1e3 : v[i].excess, amp ? "mT/m" : "T/m/s");
+    }
+    size_t na;
+    const kw_waveform_moments *m = kw_waveform_adc_moments(w, &na);
+    for (size_t i = 0; i < na && i < 4; i++) {
+        char what[96];
+        snprintf(what, sizeof what, "ADC window %zu (%zu samples x %g us) centre", i, o->adc[i].samples,
+                 o->adc[i].dwell_s * 1e6);
+        print_moments(what, &m[i], s->axes);
+    }
+    if (na > 4)
+        printf("... and %zu more ADC windows (all of them in the JSON report)\n", na - 4);
+    kw_waveform_moments e;
+    if (!isnan(o->te_s) && kw_waveform_moments_at(w, o->te_s, &e) == KW_OK)
+        print_moments("echo (TE)", &e, s->axes);
+    print_pns(w, o);
+    printf("\n%s\n", KW_SAFETY_CAUTION);
+}
+
+/* ---- the verb ------------------------------------------------------------------------------- */
+
+static int parse_fov(const char *s, double fov[3])
+{
+    char why[160];
+    double v[3];
+    int n = kw_unit_parse_list(s, KW_UNIT_LENGTH, v, 3, why, sizeof why);
+    if (n < 0)
+        return kw_cli_fail("fov", "%s", why);
+    for (int a = 0; a < 3; a++)
+        fov[a] = v[a < n ? a : n - 1];
+    return -1;
+}
+
+static int run(wf_args *a)
+{
+    double *g = NULL;
+    size_t n = 0, nadc = 0;
+    int axes = 0;
+    kw_waveform_adc *adc = NULL;
+    kw_waveform *w = NULL;
+    char *js = NULL;
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    int rc = read_sidecar(a, &adc, &nadc);
+    if (rc < 0 && a->adc)
+        rc = parse_adc_list(a->adc, a->s_raster ? a->raster : KWD_RASTER_S, &adc, &nadc);
+    if (rc < 0 && a->fov)
+        rc = parse_fov(a->fov, o.fov_m);
+    if (rc < 0)
+        rc = read_waveform(a->in, &g, &n, &axes);
+    if (rc >= 0)
+        goto done;
+    if (a->s_raster)
+        o.raster_s = a->raster;
+    o.rf_centre_s = a->s_rf ? a->rf : NAN;
+    o.te_s = a->s_te ? a->te : NAN;
+    o.tr_s = a->s_tr ? a->tr : 0;
+    o.gmax = a->gmax;
+    o.slew = a->slew;
+    o.limit_vector = a->limit_vector;
+    o.pns_radius_m = a->radius;
+    o.adc = adc;
+    o.nadc = nadc;
+    kw_status st = kw_waveform_create(&w, g, n, axes, &o);
+    if (st) {
+        rc = kw_cli_lib_status(st, "waveform", PARAM_MAP);
+        goto done;
+    }
+    if (a->traj && (rc = write_trajectory(a, w, &o)) >= 0)
+        goto done;
+    if (a->png && (st = write_png(a->png, g, n, axes, w, &o))) {
+        rc = kw_cli_status(st, "png");
+        goto done;
+    }
+    if (a->json) {
+        st = kw_waveform_report_json(w, &js);
+        if (!st)
+            st = strcmp(a->json, "-") == 0 ? (fputs(js, stdout) < 0 ? KW_EIO : KW_OK)
+                                           : kw_outfile_write_all(a->json, js, strlen(js));
+        if (st) {
+            rc = kw_cli_status(st, "json");
+            goto done;
+        }
+    }
+    if (!a->json || strcmp(a->json, "-") != 0)
+        print_report(w, &o);
+    rc = KW_EXIT_OK;
+done:
+    kw_free(js);
+    kw_waveform_destroy(w);
+    kw_free(g);
+    free(adc);
+    return rc;
+}
+
+int kw_cmd_waveform(int argc, char **argv)
+{
+    wf_args a = {0};
+    a.gmax = KWD_GMAX_T_PER_M;
+    a.slew = KWD_SLEW_T_PER_M_PER_S;
+    a.radius = KW_PNS_RADIUS_M;
+    const kw_opt table[] = {
+        {"in", KW_OPT_STRING, &a.in, 0, NULL, "gradient waveform .npy (samples, axes) in T/m, axes x, y, z (required)"},
+        {"sidecar", KW_OPT_STRING, &a.sidecar, 0, &a.s_sidecar,
+         "timing keys .json (default: the .json beside --in when there is one)"},
+        {"raster", KW_OPT_UNIT, &a.raster, KW_UNIT_TIME, &a.s_raster, "time between samples (default " KWD_RASTER_TEXT ")"},
+        {"rf-centre", KW_OPT_UNIT, &a.rf, KW_UNIT_TIME, &a.s_rf,
+         "time of the RF centre after the first sample (required, or rf_centre_s in the sidecar)"},
+        {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time after the RF centre: moments there (default: none)"},
+        {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time for the RMS gradient (default: the waveform's span)"},
+        {"adc", KW_OPT_STRING, &a.adc, 0, NULL,
+         "ADC windows START:SAMPLES:DWELL[,...], START a time after the first sample or a sample index (default: none)"},
+        {"gmax", KW_OPT_UNIT, &a.gmax, KW_UNIT_GRADIENT, NULL, "amplitude limit per axis (default " KWD_GMAX_TEXT ")"},
+        {"slew", KW_OPT_UNIT, &a.slew, KW_UNIT_SLEW, NULL, "slew-rate limit per axis (default " KWD_SLEW_TEXT ")"},
+        {"limit-vector", KW_OPT_FLAG, &a.limit_vector, 0, NULL, "hold the vector sums against the limits too (default: per axis)"},
+        {"fov", KW_OPT_STRING, &a.fov, KW_UNIT_LENGTH, NULL, "field of view L[,LY[,LZ]] of the trajectory's cycles/FOV (default " KWD_FOV_TEXT ")"},
+        {"pns-radius", KW_OPT_UNIT, &a.radius, KW_UNIT_LENGTH, NULL,
+         "distance from the isocentre for dB/dt (default 0.2m, IEC 60601-2-33 whole-body, from memory)"},
+        {"json", KW_OPT_STRING, &a.json, 0, NULL, "JSON report (- for stdout; default: none)"},
+        {"trajectory", KW_OPT_STRING, &a.traj, 0, NULL,
+         "write k at the ADC samples (.npy (samples, 2|3) cycles/FOV) + times + sidecar (default: none)"},
+        {"times", KW_OPT_STRING, &a.times, 0, NULL, "sample times file (default TRAJECTORY_times.npy)"},
+        {"png", KW_OPT_STRING, &a.png, 0, NULL, "picture of G and slew per axis with the limits (default: none)"},
+        {NULL, 0, NULL, 0, NULL, NULL},
+    };
+    int rc = kw_opts_parse(argc, argv, table, USAGE, NULL, 0, NULL);
+    if (rc >= 0)
+        return rc;
+    if (!a.in)
+        return kw_cli_fail("in", "missing (--in G.npy)");
+    if (a.times && !a.traj)
+        return kw_cli_fail("times", "only with --trajectory");
+    return run(&a);
+}
