@@ -44,6 +44,20 @@
  * memory: check them against the standard). The figure is 100 x dB/dt /
  * limit per ramp.
  *
+ * Actual gradient: an imperfect system plays, per axis a,
+ *   G_act(t) = (1 - alpha) G(t - d) + alpha y(t - d),
+ *   y' = (G - y) / tau, y = 0 before the waveform,
+ * d = delay_s[a], tau = response_tau_s[a], alpha = response_amp[a]:
+ * alpha = 1 is a first-order low-pass of time constant tau; a small alpha
+ * the usual single-exponential eddy-current term, since
+ * G - alpha integral G'(s) e^{-(t-s)/tau} ds = (1 - alpha) G + alpha y
+ * (integration by parts). On the piecewise-linear waveform y and its
+ * integral have closed forms on every interval, so the actual k-space
+ * (kw_waveform_trajectory_actual()) is exact; it obeys
+ * k_nominal(t - d) - k_actual(t) = alpha tau y(t - d) x gamma_bar FOV
+ * (the area the lag holds back). The moments, limits and ramps above are
+ * those of the nominal waveform.
+ *
  * Object model: kw_waveform_create() checks and computes everything and
  * keeps it; the accessors return pointers into the object, valid until
  * kw_waveform_destroy() (NULL-safe). The object is read-only after create:
@@ -57,7 +71,8 @@
  * waveform), "te_s", "gmax", "slew", "tr_s", "fov_m", "adc" (a window
  * off the raster, outside the waveform, before the RF centre, dwell <= 0,
  * no samples; the window's number in the reason), "pns_radius_m",
- * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "options".
+ * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
+ * "response_tau_s", "response_amp", "options".
  */
 #ifndef KW_WAVEFORM_H
 #define KW_WAVEFORM_H
@@ -103,6 +118,14 @@ typedef struct kw_waveform_options {
     double pns_rheobase;  /* T/s, KW_PNS_RHEOBASE_T_PER_S */
     double pns_chronaxie_s; /* KW_PNS_CHRONAXIE_S */
     double pns_fraction;  /* KW_PNS_FRACTION */
+    /* The imperfect gradient system, per axis (see "Actual gradient"):
+     * delay (s, any sign; 0), and one first-order term of time constant
+     * response_tau_s (s, >= 0; 0) and amplitude response_amp (0..1; 0):
+     * amplitude 1 is a first-order low-pass, a small amplitude an eddy
+     * current. */
+    double delay_s[3];
+    double response_tau_s[3];
+    double response_amp[3];
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
@@ -212,6 +235,18 @@ KW_API kw_status kw_waveform_moments_at(const kw_waveform *w, double t_s, kw_wav
  * after the RF centre (t may be NULL); windows one after the other.
  * KW_EINVAL naming "adc" when there is no ADC window. */
 KW_API kw_status kw_waveform_trajectory(const kw_waveform *w, float *k, float *t);
+
+/*! kw_waveform_has_imperfection(): 1 when a delay or a response term is
+ * set on some axis (the actual gradient differs from the nominal). */
+KW_API int kw_waveform_has_imperfection(const kw_waveform *w);
+
+/*! kw_waveform_actual(): the actual gradient (see above) at every sample
+ * time t_i into g[samples * axes] (T/m). */
+KW_API kw_status kw_waveform_actual(const kw_waveform *w, double *g);
+
+/*! kw_waveform_trajectory_actual(): kw_waveform_trajectory() of the actual
+ * gradient (exact), the same sample times. */
+KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, float *t);
 
 /*! kw_waveform_pns_limit(): fraction x rheobase x (1 + chronaxie / t_eff)
  * in T/s (NaN for t_eff <= 0 or non-finite arguments). */

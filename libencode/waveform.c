@@ -188,7 +188,8 @@ static kw_status check_options(const kw_waveform_options *o, size_t n)
                   "pns_chronaxie_s", "must be >= 0");
     KW_FAIL_PARAM(!(o->pns_fraction > 0) || !isfinite(o->pns_fraction), KW_ERANGE, "pns_fraction",
                   "must be positive");
-    return check_adc(o, span);
+    kw_status st = kw_waveform_actual_check(o, span);
+    return st ? st : check_adc(o, span);
 }
 
 /* ---- create / destroy / accessors --------------------------------------------------- */
@@ -203,6 +204,8 @@ void kw_waveform_destroy(kw_waveform *w)
     kw_free(w->viol);
     kw_free(w->ramps);
     kw_free(w->adcm);
+    kw_free(w->lp);
+    kw_free(w->f0);
     kw_free(w);
 }
 
@@ -234,7 +237,8 @@ static kw_status fill(struct kw_waveform *w, const double *g)
         double centre = a->start_s + 0.5 * (double)a->samples * a->dwell_s;
         moments(w, centre - w->o.rf_centre_s, &w->adcm[i]);
     }
-    return kw_waveform_check_limits(w);
+    kw_status st = kw_waveform_actual_prepare(w);
+    return st ? st : kw_waveform_check_limits(w);
 }
 
 kw_status kw_waveform_create(kw_waveform **out, const double *g, size_t samples, int axes,

@@ -24,10 +24,18 @@ struct kw_waveform {
     kw_waveform_ramp *ramps;
     size_t nramps;
     kw_waveform_moments *adcm;
+    double *lp;  /* (2, axes, n): the response y at sample i and its
+                  * integral from the start to sample i (NULL: no term) */
+    double *f0;  /* (axes, n): integral of G from the start to sample i */
 };
 
 /* waveform_check.c: peaks, RMS, violations and ramps into w (allocates
  * w->viol and w->ramps). */
 kw_status kw_waveform_check_limits(struct kw_waveform *w);
+
+/* waveform_actual.c: the checks of the imperfection fields (naming them)
+ * and the tables of the actual gradient (allocates w->lp, w->f0). */
+kw_status kw_waveform_actual_check(const kw_waveform_options *o, double span);
+kw_status kw_waveform_actual_prepare(struct kw_waveform *w);
 
 #endif

@@ -343,3 +343,120 @@ Test(waveform, report_json_has_the_caution)
     kw_free(js);
     kw_waveform_destroy(w);
 }
+
+/* The readout of readout_kspace_steps_one_cycle_per_fov with an imperfect
+ * gradient on x; returns the object, fills the nominal and actual k and
+ * the actual samples (g_act, n values). */
+static kw_waveform *readout_with(double delay, double tau, double amp, float *kn, float *ka,
+                                 double *g_act, size_t *n_out, size_t *adc0)
+{
+    const size_t r = 10, fr = 128, fp = fr / 2 - r / 2;
+    const size_t s1 = 10, s2 = s1 + 2 * r + fp, n = s2 + 2 * r + fr + 20;
+    const double Gr = 1.0 / (KW_GAMMA_BAR_P * 0.256 * H);
+    double *g = calloc(n, sizeof *g);
+    trap(g, 1, 0, s1, r, fp, -Gr);
+    trap(g, 1, 0, s2, r, fr, Gr);
+    kw_waveform_adc adc = {(double)(s2 + r) * H, H, fr};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 5 * H;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.delay_s[0] = delay;
+    o.response_tau_s[0] = tau;
+    o.response_amp[0] = amp;
+    kw_waveform *w = make(g, n, 1, &o);
+    cr_assert_eq(kw_waveform_trajectory(w, kn, NULL), KW_OK);
+    cr_assert_eq(kw_waveform_trajectory_actual(w, ka, NULL), KW_OK);
+    cr_assert_eq(kw_waveform_actual(w, g_act), KW_OK);
+    *n_out = n;
+    *adc0 = s2 + r;
+    free(g);
+    return w;
+}
+
+/* A pure delay d moves the readout's k by gamma_bar G d per FOV: with one
+ * cycle/FOV per 10 us, a 2 us delay shifts the echo by 0.2 samples
+ * (k_actual(t) = k_nominal(t - d)); a delay of one raster moves the samples
+ * by one. */
+Test(waveform, delay_shifts_the_echo)
+{
+    float kn[128], ka[128];
+    double ga[400];
+    size_t n, a0;
+    kw_waveform *w = readout_with(2e-6, 0, 0, kn, ka, ga, &n, &a0);
+    cr_expect(kw_waveform_has_imperfection(w));
+    /* sample 0 at the flat top's start: t - d lies on the ramp, whose last
+     * 2 us hold 0.2 (1 - 0.01) = 0.198 cycles/FOV (G = Gr (1 - t'/100 us)) */
+    cr_expect(fabsf(ka[0] - (kn[0] - 0.198f)) < 1e-4f, "k[0]: %g vs %g - 0.198", ka[0], kn[0]);
+    for (size_t j = 1; j < 128; j++)
+        cr_expect(fabsf(ka[j] - (kn[j] - 0.2f)) < 1e-4f, "k[%zu]: %g vs %g - 0.2", j, ka[j], kn[j]);
+    kw_waveform_destroy(w);
+    w = readout_with(H, 0, 0, kn, ka, ga, &n, &a0);
+    double *gn = calloc(n, sizeof *gn);
+    cr_assert_eq(kw_waveform_actual(w, gn), KW_OK);
+    kw_waveform_destroy(w);
+    w = readout_with(0, 0, 0, kn, ka, gn, &n, &a0);
+    cr_expect(!kw_waveform_has_imperfection(w));
+    for (size_t i = 1; i < n; i++)
+        cr_expect(fabs(ga[i] - gn[i - 1]) < 1e-15, "sample %zu", i);
+    for (size_t j = 0; j < 128; j++) /* two integrators, float output */
+        cr_expect(fabsf(kn[j] - ka[j]) < 1e-5f, "k[%zu]: %g vs %g", j, kn[j], ka[j]);
+    kw_waveform_destroy(w);
+    free(gn);
+}
+
+/* First-order low-pass (amplitude 1, tau = 20 us): on the first ramp (slew
+ * s from rest at t0) the response is s (t - tau (1 - e^{-t/tau})), the
+ * textbook first-order response to a ramp; and since tau y' = G - y, the
+ * area held back is tau y: k_nominal - k_actual = gamma_bar FOV tau y(t)
+ * at every ADC sample. An eddy-current term (amplitude 0.05, tau 50 us)
+ * holds back alpha tau y, y = (G_act - (1 - alpha) G) / alpha. */
+Test(waveform, lowpass_and_eddy_lag_closed_form)
+{
+    float kn[128], ka[128];
+    double ga[400], gn[400];
+    size_t n, a0;
+    const double fov = 0.256;
+    const double Gr = 1.0 / (KW_GAMMA_BAR_P * fov * H), s = Gr / (10 * H);
+    const double tau = 20e-6;
+    kw_waveform *w = readout_with(0, tau, 1, kn, ka, ga, &n, &a0);
+    for (size_t i = 10; i <= 20; i++) { /* the prephaser's ramp, down from sample 10 */
+        const double t = (double)(i - 10) * H;
+        const double want = -s * (t - tau * (1 - exp(-t / tau)));
+        cr_expect(fabs(ga[i] - want) <= 1e-12 * Gr, "sample %zu: %.15g vs %.15g", i, ga[i], want);
+    }
+    for (size_t j = 0; j < 128; j++) {
+        const double lag = KW_GAMMA_BAR_P * fov * tau * ga[a0 + j];
+        cr_expect(fabs((kn[j] - ka[j]) - lag) < 2e-5, "k[%zu]: %g - %g vs lag %g", j, kn[j], ka[j], lag);
+    }
+    kw_waveform_destroy(w);
+    const double al = 0.05, te = 50e-6;
+    w = readout_with(0, te, al, kn, ka, ga, &n, &a0);
+    kw_waveform_destroy(w);
+    w = readout_with(0, 0, 0, kn, kn, gn, &n, &a0);
+    kw_waveform_destroy(w);
+    w = readout_with(0, te, al, kn, ka, ga, &n, &a0);
+    for (size_t j = 0; j < 128; j++) {
+        const double y = (ga[a0 + j] - (1 - al) * gn[a0 + j]) / al;
+        const double lag = KW_GAMMA_BAR_P * fov * al * te * y;
+        cr_expect(fabs((kn[j] - ka[j]) - lag) < 2e-5, "k[%zu]: %g - %g vs lag %g", j, kn[j], ka[j], lag);
+    }
+    kw_waveform_destroy(w);
+}
+
+Test(waveform, imperfection_fields_are_checked)
+{
+    double g[40] = {0};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 0;
+    o.response_amp[1] = 0.1;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "response_tau_s");
+    o.response_amp[1] = 1.5;
+    o.response_tau_s[1] = 1e-5;
+    expect_refused(g, 20, 2, &o, KW_ERANGE, "response_amp");
+    o.response_amp[1] = 0;
+    o.delay_s[0] = NAN;
+    expect_refused(g, 20, 2, &o, KW_ERANGE, "delay_s");
+}
