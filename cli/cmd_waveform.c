@@ -41,6 +41,7 @@ static const char USAGE[] =
 
 typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
+    const char *delay, *lowpass, *eddy, *traj_actual;
     double raster, rf, te, tr, gmax, slew, radius;
     int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector;
 } wf_args;
@@ -49,6 +50,7 @@ static const kw_cli_param PARAM_MAP[] = {
     {"waveform", "in"},     {"axes", "in"},   {"samples", "in"},   {"raster_s", "raster"},
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
     {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
+    {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"},
     {NULL, NULL},
 };
 
@@ -254,25 +256,27 @@ static const char *base_name(const char *p)
 
 /* The trajectory (samples, max(2, axes)) in cycles/FOV (a 1-axis waveform
  * gets ky = 0), its times after the RF centre and its sidecar. */
-static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_waveform_options *o)
+static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_waveform_options *o,
+                            const char *path, const char *times, int actual)
 {
+    const char *what = actual ? "trajectory-actual" : "trajectory";
     const kw_waveform_summary *s = kw_waveform_summary_of(w);
     const size_t ns = s->adc_samples, na = (size_t)s->axes, nc = na < 2 ? 2 : na;
     if (!ns)
-        return kw_cli_fail("trajectory", "no ADC window (--adc or the sidecar's adc): no samples");
+        return kw_cli_fail(what, "no ADC window (--adc or the sidecar's adc): no samples");
     float *k = kw_alloc_n(ns * na, sizeof *k), *kc = kw_alloc_n(ns * nc, sizeof *kc),
           *t = kw_alloc_n(ns, sizeof *t);
-    char *tp = a->times ? strdup(a->times) : times_path(a->traj), *sp = kw_sidecar_path(a->traj);
+    char *tp = times ? strdup(times) : times_path(path), *sp = kw_sidecar_path(path);
     kw_status st = !k || !kc || !t || !tp ? kw_set_error(KW_ENOMEM, "out of memory") : KW_OK;
     if (!st)
-        st = kw_waveform_trajectory(w, k, t);
+        st = actual ? kw_waveform_trajectory_actual(w, k, t) : kw_waveform_trajectory(w, k, t);
     for (size_t i = 0; !st && i < ns; i++)
         for (size_t c = 0; c < na; c++)
             kc[i * nc + c] = k[i * na + c];
     kw_array ka = {.dtype = KW_F32, .ndim = 2, .dims = {ns, nc}, .data = kc};
     kw_array ta = {.dtype = KW_F32, .ndim = 1, .dims = {ns}, .data = t};
     if (!st)
-        st = kw_npy_write(a->traj, &ka);
+        st = kw_npy_write(path, &ka);
     if (!st)
         st = kw_npy_write(tp, &ta);
     if (!st && sp) {
@@ -293,6 +297,12 @@ static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_wav
         cJSON_AddStringToObject(j, "waveform", a->in);
         cJSON_AddStringToObject(j, "times", base_name(tp));
         cJSON_AddStringToObject(j, "times_origin", "RF centre");
+        cJSON_AddStringToObject(j, "gradient", actual ? "actual" : "nominal");
+        if (actual) {
+            kw_json_add_vec(j, "delay_s", o->delay_s, (int)na);
+            kw_json_add_vec(j, "response_tau_s", o->response_tau_s, (int)na);
+            kw_json_add_vec(j, "response_amp", o->response_amp, (int)na);
+        }
         cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
         st = kw_json_write(sp, j);
         cJSON_Delete(j);
@@ -302,7 +312,7 @@ static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_wav
     kw_free(t);
     free(tp);
     free(sp);
-    return st ? kw_cli_status(st, "trajectory") : -1;
+    return st ? kw_cli_status(st, what) : -1;
 }
 
 /* ---- the picture --------------------------------------------------------------------------- */
@@ -450,9 +460,29 @@ static void time_axis(cairo_t *cr, const panel *p, double ybottom)
     text_at(cr, (PLEFT + PW - PRIGHT) / 2.0, ybottom + 28, "time from the waveform's start (ms)", 0.5, 0.0);
 }
 
+/* the actual gradient (blue) over the nominal one's G panel */
+static void panel_actual(cairo_t *cr, const panel *p, const double *ga, size_t n, int axes, int axis, double h)
+{
+    cairo_set_source_rgb(cr, 0.1, 0.3, 0.9);
+    for (size_t i = 0; i < n; i++) {
+        double x = px_t(p, (double)i * h * 1e3), y = px_v(p, ga[i * (size_t)axes + (size_t)axis] * 1e3);
+        if (i == 0)
+            cairo_move_to(cr, x, y);
+        else
+            cairo_line_to(cr, x, y);
+    }
+    cairo_stroke(cr);
+}
+
 static kw_status write_png(const char *path, const double *g, size_t n, int axes, const kw_waveform *w,
                            const kw_waveform_options *o)
 {
+    double *ga = NULL;
+    if (kw_waveform_has_imperfection(w)) {
+        ga = kw_alloc_n(n * (size_t)axes, sizeof *ga);
+        KW_FAIL_IF(!ga, KW_ENOMEM, "out of memory for the actual gradient");
+        kw_waveform_actual(w, ga);
+    }
     const kw_waveform_summary *s = kw_waveform_summary_of(w);
     size_t nv;
     const kw_waveform_violation *v = kw_waveform_violations(w, &nv);
@@ -467,10 +497,13 @@ static kw_status write_png(const char *path, const double *g, size_t n, int axes
     cairo_set_source_rgb(cr, 0, 0, 0);
     cairo_set_font_size(cr, 15);
     char title[256];
-    snprintf(title, sizeof title, "gradient waveform: %zu samples, raster %g us; limits %g mT/m, %g T/m/s "
-             "(dashed red), over a limit in red; ADC green, RF centre and TE lines", s->samples,
-             s->raster_s * 1e6, o->gmax * 1e3, o->slew);
-    text_at(cr, PW / 2.0, 14, title, 0.5, 0.0);
+    snprintf(title, sizeof title, "gradient waveform: %zu samples, raster %g us; limits %g mT/m, %g T/m/s",
+             s->samples, s->raster_s * 1e6, o->gmax * 1e3, o->slew);
+    text_at(cr, PW / 2.0, 8, title, 0.5, 0.0);
+    cairo_set_font_size(cr, 12);
+    snprintf(title, sizeof title, "limits dashed red; over a limit in red; ADC windows green; RF centre "
+             "(violet) and TE (blue) lines%s", ga ? "; actual G blue curve" : "");
+    text_at(cr, PW / 2.0, 30, title, 0.5, 0.0);
     const char *an[3] = {"x", "y", "z"};
     panel p = {0, 0, 0, s->span_s * 1e3};
     double ybottom = 0;
@@ -487,6 +520,8 @@ static kw_status write_png(const char *path, const double *g, size_t n, int axes
         panel_marks(cr, &p, o);
         panel_frame(cr, &p, lim, label);
         panel_curve(cr, &p, g, n, axes, axis, kind, s->raster_s, v, nv);
+        if (ga && kind == 0)
+            panel_actual(cr, &p, ga, n, axes, axis, s->raster_s);
         ybottom = p.y0 + PH;
     }
     time_axis(cr, &p, ybottom);
@@ -494,6 +529,7 @@ static kw_status write_png(const char *path, const double *g, size_t n, int axes
     kw_status st = kw_plot_write_png(sf, path);
     cairo_surface_destroy(sf);
     release_font_caches();
+    kw_free(ga);
     return st;
 }
 
@@ -574,11 +610,64 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     kw_waveform_moments e;
     if (!isnan(o->te_s) && kw_waveform_moments_at(w, o->te_s, &e) == KW_OK)
         print_moments("echo (TE)", &e, s->axes);
+    if (kw_waveform_has_imperfection(w))
+        for (int a = 0; a < s->axes; a++)
+            printf("actual gradient, axis %s: delay %g us, response term amplitude %g, time constant %g us\n",
+                   an[a], o->delay_s[a] * 1e6, o->response_amp[a], o->response_tau_s[a] * 1e6);
     print_pns(w, o);
     printf("\n%s\n", KW_SAFETY_CAUTION);
 }
 
 /* ---- the verb ------------------------------------------------------------------------------- */
+
+/* --delay D[,DY,DZ] (one value: every axis), --lowpass TAU[,...] (amplitude
+ * 1), --eddy AMP:TAU[,...]: one response term per axis. */
+static int parse_imperfections(const wf_args *a, kw_waveform_options *o)
+{
+    char why[160];
+    double v[3];
+    int n;
+    if (a->delay) {
+        if ((n = kw_unit_parse_list(a->delay, KW_UNIT_TIME, v, 3, why, sizeof why)) < 0)
+            return kw_cli_fail("delay", "%s", why);
+        for (int k = 0; k < 3; k++)
+            o->delay_s[k] = n == 1 ? v[0] : k < n ? v[k] : 0;
+    }
+    if (a->lowpass) {
+        if ((n = kw_unit_parse_list(a->lowpass, KW_UNIT_TIME, v, 3, why, sizeof why)) < 0)
+            return kw_cli_fail("lowpass", "%s", why);
+        for (int k = 0; k < 3; k++) {
+            o->response_tau_s[k] = n == 1 ? v[0] : k < n ? v[k] : 0;
+            o->response_amp[k] = o->response_tau_s[k] > 0 ? 1.0 : 0.0;
+        }
+    }
+    if (!a->eddy)
+        return -1;
+    if (a->lowpass)
+        return kw_cli_fail("eddy", "one response term per axis in this version: --lowpass or --eddy");
+    char buf[256];
+    if (strlen(a->eddy) >= sizeof buf)
+        return kw_cli_fail("eddy", "too long");
+    strcpy(buf, a->eddy);
+    int k = 0;
+    for (char *save = NULL, *tok = strtok_r(buf, ",", &save); tok; tok = strtok_r(NULL, ",", &save), k++) {
+        char *c = strchr(tok, ':'), *end;
+        if (k >= 3 || !c)
+            return kw_cli_fail("eddy", "'%s': expected AMP:TAU[,AMP:TAU,...] (e.g. 0.02:50us), one per axis", a->eddy);
+        *c = '\0';
+        double amp = strtod(tok, &end);
+        if (!*tok || *end || !(amp >= 0 && amp <= 1))
+            return kw_cli_fail("eddy", "amplitude '%s': a number in [0, 1]", tok);
+        if (kw_unit_parse(c + 1, KW_UNIT_TIME, &o->response_tau_s[k], why, sizeof why))
+            return kw_cli_fail("eddy", "time constant '%s': %s", c + 1, why);
+        o->response_amp[k] = amp;
+    }
+    for (int j = k; k == 1 && j < 3; j++) { /* one term: every axis */
+        o->response_amp[j] = o->response_amp[0];
+        o->response_tau_s[j] = o->response_tau_s[0];
+    }
+    return -1;
+}
 
 static int parse_fov(const char *s, double fov[3])
 {
@@ -608,6 +697,8 @@ static int run(wf_args *a)
     if (rc < 0 && a->fov)
         rc = parse_fov(a->fov, o.fov_m);
     if (rc < 0)
+        rc = parse_imperfections(a, &o);
+    if (rc < 0)
         rc = read_waveform(a->in, &g, &n, &axes);
     if (rc >= 0)
         goto done;
@@ -627,7 +718,9 @@ static int run(wf_args *a)
         rc = kw_cli_lib_status(st, "waveform", PARAM_MAP);
         goto done;
     }
-    if (a->traj && (rc = write_trajectory(a, w, &o)) >= 0)
+    if (a->traj && (rc = write_trajectory(a, w, &o, a->traj, a->times, 0)) >= 0)
+        goto done;
+    if (a->traj_actual && (rc = write_trajectory(a, w, &o, a->traj_actual, NULL, 1)) >= 0)
         goto done;
     if (a->png && (st = write_png(a->png, g, n, axes, w, &o))) {
         rc = kw_cli_status(st, "png");
@@ -681,6 +774,14 @@ int kw_cmd_waveform(int argc, char **argv)
         {"trajectory", KW_OPT_STRING, &a.traj, 0, NULL,
          "write k at the ADC samples (.npy (samples, 2|3) cycles/FOV) + times + sidecar (default: none)"},
         {"times", KW_OPT_STRING, &a.times, 0, NULL, "sample times file (default TRAJECTORY_times.npy)"},
+        {"delay", KW_OPT_STRING, &a.delay, KW_UNIT_TIME, NULL,
+         "gradient delay D[,DY,DZ] of the actual system (one value: every axis; default 0)"},
+        {"lowpass", KW_OPT_STRING, &a.lowpass, KW_UNIT_TIME, NULL,
+         "first-order low-pass time constant TAU[,TY,TZ] of the actual system (default: none)"},
+        {"eddy", KW_OPT_STRING, &a.eddy, 0, NULL,
+         "eddy-current term AMP:TAU[,...] per axis, e.g. 0.02:50us (one: every axis; default: none)"},
+        {"trajectory-actual", KW_OPT_STRING, &a.traj_actual, 0, NULL,
+         "write the actual gradient's k-space (.npy) + times + sidecar, as --trajectory (default: none)"},
         {"png", KW_OPT_STRING, &a.png, 0, NULL, "picture of G and slew per axis with the limits (default: none)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
@@ -691,5 +792,7 @@ int kw_cmd_waveform(int argc, char **argv)
         return kw_cli_fail("in", "missing (--in G.npy)");
     if (a.times && !a.traj)
         return kw_cli_fail("times", "only with --trajectory");
+    if (a.traj_actual && !a.delay && !a.lowpass && !a.eddy)
+        return kw_cli_fail("trajectory-actual", "needs an imperfection: --delay, --lowpass or --eddy");
     return run(&a);
 }

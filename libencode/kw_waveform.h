@@ -264,7 +264,8 @@ KW_API double kw_waveform_pns_limit(double t_eff_s, double rheobase, double chro
  * raster_ok, within_limits, violations [{limit ("amplitude"|"slew"), axis
  * ("x","y","z","vector"), first, last, start_s, end_s, peak, limit_value,
  * excess}], adc [{start_s, dwell_s, samples, centre_s, m0, m1, m2}], echo
- * ({t_s, m0, m1, m2} or null), gamma_bar_Hz_per_T, fov_m, pns {estimate
+ * ({t_s, m0, m1, m2} or null), gamma_bar_Hz_per_T, fov_m, actual
+ * ({delay_s, response_tau_s, response_amp} per axis, or null), pns {estimate
  * (true), radius_m, rheobase_T_per_s, chronaxie_s, fraction, source,
  * caution, percent_max, worst (the ramp or null), ramps [{axis, first,
  * last, start_s, duration_s, slew, dbdt_T_per_s, limit_T_per_s,

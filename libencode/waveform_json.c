@@ -169,6 +169,16 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
         add_adc(j, w);
         add_num(j, "gamma_bar_Hz_per_T", s->gamma_bar);
         kw_json_add_vec(j, "fov_m", o->fov_m, s->axes);
+        if (kw_waveform_has_imperfection(w)) {
+            cJSON *ac = cJSON_AddObjectToObject(j, "actual");
+            if (ac) {
+                kw_json_add_vec(ac, "delay_s", o->delay_s, s->axes);
+                kw_json_add_vec(ac, "response_tau_s", o->response_tau_s, s->axes);
+                kw_json_add_vec(ac, "response_amp", o->response_amp, s->axes);
+            }
+        } else {
+            cJSON_AddNullToObject(j, "actual");
+        }
         add_pns(j, w);
         cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
     }

@@ -222,3 +222,57 @@ def test_bad_input_names_the_field_and_writes_nothing(tmp_path):
     refused("waveform", "--in", tmp_path / "g.npy", *outs, opt="sidecar")
     for f in ("r.json", "k.npy", "k_times.npy", "k.json", "p.png"):
         assert not (tmp_path / f).exists(), f
+
+
+def test_delay_shifts_every_spoke_and_recon_sees_it(tmp_path):
+    """A 2 us delay on both axes moves every radial sample back along its
+    spoke by gamma_bar G d FOV = 0.2 cycles/FOV (G = 1 / (gamma_bar FOV
+    dwell), dwell 10 us): the echo moves by 0.2 samples. The first sample
+    of a spoke sits where the delayed ramp still rises (0.198, kw_waveform
+    tests). Written in a FOV of 200 mm (k x 200/256, so that the delayed
+    spokes stay inside the 64 x 64 grid), the shifts scale alike. Data
+    simulated on the actual trajectory and reconstructed with the nominal
+    one are worse than with the actual one."""
+    g, adc = radial_waveform(128, 64, 0.256)
+    np.save(tmp_path / "rad.npy", g)
+    json.dump({"raster_s": H, "rf_centre_s": 5 * H, "adc": adc}, open(tmp_path / "rad.json", "w"))
+    run("waveform", "--in", tmp_path / "rad.npy", "--delay", "2us", "--fov", "200mm", "--trajectory", tmp_path / "kn.npy",
+        "--trajectory-actual", tmp_path / "ka.npy", "--json", tmp_path / "r.json")
+    kn, ka = np.load(tmp_path / "kn.npy"), np.load(tmp_path / "ka.npy")
+    th = np.repeat(np.pi * np.arange(128) / 128, 64)
+    u = np.stack([np.cos(th), np.sin(th)], axis=1)
+    d = (kn - ka).reshape(128, 64, 2)
+    shift = (d * u.reshape(128, 64, 2)).sum(axis=2)
+    sc = 0.2 / 0.256
+    assert np.abs(shift[:, 1:] - 0.2 * sc).max() < 2e-4, np.abs(shift[:, 1:] - 0.2 * sc).max()
+    assert np.abs(shift[:, 0] - 0.198 * sc).max() < 2e-4
+    side = json.load(open(tmp_path / "ka.json"))
+    assert side["gradient"] == "actual" and side["delay_s"] == [2e-6, 2e-6]
+    assert json.load(open(tmp_path / "r.json"))["actual"]["delay_s"] == [2e-6, 2e-6]
+    enc = ["encode", "--phantom", "shepp-logan", "--matrix", "64x64", "--fov", "200mm"]
+    run(*enc, "--trajectory", tmp_path / "ka.npy", "--out", tmp_path / "ks.npy", "--truth", tmp_path / "t.npy")
+    # --dcf pipe: the radial weights take |k| < 1e-6 as the centre, and k
+    # integrated from float32 gradients lands within a few 1e-6 of it
+    run("recon", "--in", tmp_path / "ks.npy", "--dcf", "pipe", "--out", tmp_path / "im_act.npy")
+    run("recon", "--in", tmp_path / "ks.npy", "--dcf", "pipe", "--trajectory", tmp_path / "kn.npy", "--out",
+        tmp_path / "im_nom.npy")
+    truth = np.load(tmp_path / "t.npy")
+
+    def nrmse(im):
+        im = np.abs(im)
+        s = (im * truth).sum() / (im * im).sum()
+        return np.linalg.norm(s * im - truth) / np.linalg.norm(truth)
+    e_act, e_nom = nrmse(np.load(tmp_path / "im_act.npy")), nrmse(np.load(tmp_path / "im_nom.npy"))
+    print(f"delay 2 us: NRMSE nominal-trajectory recon {e_nom:.4f}, actual {e_act:.4f}")
+    assert e_nom > e_act * 1.05, (e_nom, e_act)
+
+
+def test_imperfection_options_are_checked(tmp_path):
+    np.save(tmp_path / "g.npy", trap(60, 5, 10, 10, 10e-3)[:, None])
+    base = ["waveform", "--in", tmp_path / "g.npy", "--rf-centre", "0s", "--adc", "100us:10:10us"]
+    refused(*base, "--delay", "2", opt="delay")
+    refused(*base, "--eddy", "2:50us", opt="eddy")
+    refused(*base, "--eddy", "0.1:50us", "--lowpass", "20us", opt="eddy")
+    refused(*base, "--trajectory-actual", tmp_path / "k.npy", opt="trajectory-actual")
+    refused(*base, "--delay", "1s", opt="delay")
+    assert not (tmp_path / "k.npy").exists()
