@@ -78,6 +78,7 @@
 #define KW_WAVEFORM_H
 
 #include "kw_base.h"
+#include "kw_pattern.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -252,6 +253,25 @@ KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, f
  * in T/s (NaN for t_eff <= 0 or non-finite arguments). */
 KW_API double kw_waveform_pns_limit(double t_eff_s, double rheobase, double chronaxie_s,
                                     double fraction);
+
+/*! kw_waveform_epi(): the gradient waveform of one shot (0-based) of the
+ * EPI train kw_pattern_create(o) makes (kind KW_PATTERN_EPI; the planner's
+ * design, kw_gradient.h), in this header's format: g (samples, 2) T/m,
+ * x the readout, y the phase encoding, on the design's raster, the RF
+ * centre at t = 0; the prephasers (the shortest trapezoids of the areas
+ * that bring k to the first line: kw_trapezoid_for_area()) from sample 0,
+ * the train after them; one ADC window per line with the sample times of
+ * kw_epi_design() (forward lines from the echo - nx/2 dwell, reversed ones
+ * from the echo - (nx/2 - 1) dwell). Imported with kw_waveform_create()
+ * (rf_centre_s 0, these windows), its trajectory is the pattern's rows of
+ * that shot. The windows lie on the raster when the dwell does (e.g. the
+ * dwell equal to the raster). Size query: with g NULL, *samples and *nadc
+ * receive the sizes; otherwise they give the room in g (rows) and adc and
+ * receive the sizes (KW_ERANGE naming "samples" when short). Errors of
+ * kw_pattern_create() pass through; "kind" when not EPI, "shot" outside
+ * 0..shots-1. */
+KW_API kw_status kw_waveform_epi(const kw_pattern_options *o, int shot, double *g, size_t *samples,
+                                 kw_waveform_adc *adc, size_t *nadc);
 
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),

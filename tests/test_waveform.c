@@ -460,3 +460,57 @@ Test(waveform, imperfection_fields_are_checked)
     o.delay_s[0] = NAN;
     expect_refused(g, 20, 2, &o, KW_ERANGE, "delay_s");
 }
+
+/* kweave's own EPI train written as a waveform and imported back: its
+ * k-space at the ADC samples is the trajectory kw_pattern makes for that
+ * shot (the planner's grid points, kw_gradient.h), within float rounding
+ * and the prephasers' area rounding (kw_trapezoid_for_area: 1e-6
+ * relative), and the sample times are the pattern's plus the prephasers'
+ * time. */
+Test(waveform, epi_design_imported_back_is_the_pattern)
+{
+    for (int shots = 1; shots <= 2; shots++) {
+        kw_pattern_options po;
+        kw_pattern_options_init(&po);
+        po.kind = KW_PATTERN_EPI;
+        po.ndim = 2;
+        po.dims[0] = po.dims[1] = 32;
+        po.dwell_s = 10e-6;
+        po.shots = shots;
+        kw_pattern *p = NULL;
+        cr_assert_eq(kw_pattern_create(&p, &po), KW_OK, "%s", kw_last_error());
+        size_t n = 0, na = 0;
+        const int shot = shots - 1;
+        cr_assert_eq(kw_waveform_epi(&po, shot, NULL, &n, NULL, &na), KW_OK, "%s", kw_last_error());
+        double *g = calloc(n * 2, sizeof *g);
+        kw_waveform_adc *adc = calloc(na, sizeof *adc);
+        cr_assert_eq(kw_waveform_epi(&po, shot, g, &n, adc, &na), KW_OK, "%s", kw_last_error());
+        const kw_pattern_info *in = kw_pattern_info_of(p);
+        const size_t per_shot = in->shape[0] / (size_t)shots;
+        cr_assert_eq(na * 32, per_shot);
+        kw_waveform_options o;
+        kw_waveform_options_init(&o);
+        o.rf_centre_s = 0;
+        o.adc = adc;
+        o.nadc = na;
+        kw_waveform *w = make(g, n, 2, &o);
+        float *k = malloc(per_shot * 2 * sizeof *k), *t = malloc(per_shot * sizeof *t);
+        cr_assert_eq(kw_waveform_trajectory(w, k, t), KW_OK);
+        const float *kp = kw_pattern_trajectory(p) + (size_t)shot * per_shot * 2;
+        const float *tp = kw_pattern_times(p) + (size_t)shot * per_shot;
+        const double off = adc[0].start_s - (double)tp[0];
+        double worst = 0;
+        for (size_t i = 0; i < per_shot * 2; i++)
+            worst = fmax(worst, fabs((double)k[i] - (double)kp[i]));
+        cr_expect(worst < 1e-4, "shots %d: |k - k_pattern| up to %g cycles/FOV", shots, worst);
+        for (size_t i = 0; i < per_shot; i++)
+            cr_expect(fabs((double)t[i] - ((double)tp[i] + off)) < 1e-8, "t[%zu]", i);
+        cr_expect(kw_waveform_summary_of(w)->violations == 0);
+        free(k);
+        free(t);
+        kw_waveform_destroy(w);
+        free(g);
+        free(adc);
+        kw_pattern_destroy(p);
+    }
+}

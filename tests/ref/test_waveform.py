@@ -276,3 +276,26 @@ def test_imperfection_options_are_checked(tmp_path):
     refused(*base, "--trajectory-actual", tmp_path / "k.npy", opt="trajectory-actual")
     refused(*base, "--delay", "1s", opt="delay")
     assert not (tmp_path / "k.npy").exists()
+
+
+@pytest.mark.parametrize("shots", [1, 2])
+def test_epi_waveform_imported_back_is_the_pattern(tmp_path, shots):
+    """`kweave pattern --kind epi --waveform` writes shot 0's gradients
+    (float32) and timing; `kweave waveform` on them gives back the
+    trajectory the pattern writes for that shot (the planner's grid points,
+    kw_gradient.h) within float rounding."""
+    run("pattern", "--kind", "epi", "--matrix", "32x32", "--dwell", "10us", "--shots", shots,
+        "--out", tmp_path / "epi.npy", "--waveform", tmp_path / "g.npy")
+    side = json.load(open(tmp_path / "g.json"))
+    assert side["rf_centre_s"] == 0 and side["safety_caution"].startswith("Caution")
+    run("waveform", "--in", tmp_path / "g.npy", "--trajectory", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    kp = np.load(tmp_path / "epi.npy")
+    k = np.load(tmp_path / "k.npy")
+    assert k.shape[0] * shots == kp.shape[0]
+    assert np.abs(k - kp[:k.shape[0]]).max() < 1e-4, np.abs(k - kp[:k.shape[0]]).max()
+    assert json.load(open(tmp_path / "r.json"))["within_limits"] is True
+
+
+def test_pattern_waveform_only_for_epi(tmp_path):
+    refused("pattern", "--kind", "radial", "--matrix", "32x32", "--waveform", tmp_path / "g.npy", opt="waveform")
+    assert not (tmp_path / "g.npy").exists()
