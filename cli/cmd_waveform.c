@@ -41,7 +41,7 @@ static const char USAGE[] =
 
 typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
-    const char *delay, *lowpass, *eddy, *traj_actual;
+    const char *delay, *lowpass, *eddy, *traj_actual, *estimate;
     double raster, rf, te, tr, gmax, slew, radius;
     int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector;
 } wf_args;
@@ -116,57 +116,8 @@ static int parse_adc_list(const char *list, double raster, kw_waveform_adc **out
     return -1;
 }
 
-static int side_number(const cJSON *j, const char *key, double *v, int *seen)
-{
-    const cJSON *it = cJSON_GetObjectItemCaseSensitive(j, key);
-    if (!it || cJSON_IsNull(it))
-        return -1;
-    if (!cJSON_IsNumber(it) || !isfinite(it->valuedouble))
-        return kw_cli_fail("sidecar", "%s: not a number", key);
-    if (!*seen)
-        *v = it->valuedouble;
-    *seen = 1;
-    return -1;
-}
-
-/* The windows of the sidecar's "adc" array. */
-static int side_adc(const cJSON *arr, double raster, kw_waveform_adc **out, size_t *n)
-{
-    if (!cJSON_IsArray(arr))
-        return kw_cli_fail("sidecar", "adc: expected an array of {start_s or start_sample, samples, dwell_s}");
-    size_t cnt = (size_t)cJSON_GetArraySize(arr), k = 0;
-    kw_waveform_adc *w = calloc(cnt ? cnt : 1, sizeof *w);
-    if (!w)
-        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
-    const cJSON *it;
-    cJSON_ArrayForEach(it, arr) {
-        const cJSON *ss = cJSON_GetObjectItemCaseSensitive(it, "start_s"),
-                    *si = cJSON_GetObjectItemCaseSensitive(it, "start_sample"),
-                    *ns = cJSON_GetObjectItemCaseSensitive(it, "samples"),
-                    *dw = cJSON_GetObjectItemCaseSensitive(it, "dwell_s");
-        long long v, nn;
-        int bad = !cJSON_IsNumber(ns) || kw_checked_whole(ns->valuedouble, 1, 1LL << 28, &nn) ||
-                  !cJSON_IsNumber(dw) || !isfinite(dw->valuedouble) ||
-                  (cJSON_IsNumber(ss) == cJSON_IsNumber(si));
-        if (!bad && cJSON_IsNumber(si))
-            bad = kw_checked_whole(si->valuedouble, 0, 1LL << 40, &v) != KW_OK;
-        if (bad || (cJSON_IsNumber(ss) && !isfinite(ss->valuedouble))) {
-            free(w);
-            return kw_cli_fail("sidecar", "adc[%zu]: expected start_s (s) or start_sample (a whole "
-                               "number), samples (>= 1) and dwell_s (s)", k);
-        }
-        w[k].start_s = cJSON_IsNumber(ss) ? ss->valuedouble : (double)v * raster;
-        w[k].samples = (size_t)nn;
-        w[k].dwell_s = dw->valuedouble;
-        k++;
-    }
-    *out = w;
-    *n = k;
-    return -1;
-}
-
 /* The sidecar (--sidecar, or G.json beside --in when it exists): the keys
- * the options did not give. */
+ * the options did not give (kw_waveform_timing_parse()). */
 static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
 {
     char *path = a->s_sidecar ? strdup(a->sidecar) : kw_array_sidecar_path(a->in);
@@ -184,22 +135,32 @@ static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
     free(path);
     if (st)
         return kw_cli_status(st, "sidecar");
-    int rc = -1;
-    if (!cJSON_IsObject(j))
-        rc = kw_cli_fail("sidecar", "expected a JSON object");
-    if (rc < 0)
-        rc = side_number(j, "raster_s", &a->raster, &a->s_raster);
-    if (rc < 0)
-        rc = side_number(j, "rf_centre_s", &a->rf, &a->s_rf);
-    if (rc < 0)
-        rc = side_number(j, "te_s", &a->te, &a->s_te);
-    if (rc < 0)
-        rc = side_number(j, "tr_s", &a->tr, &a->s_tr);
-    const cJSON *arr = cJSON_GetObjectItemCaseSensitive(j, "adc");
-    if (rc < 0 && !a->adc && arr && !cJSON_IsNull(arr))
-        rc = side_adc(arr, a->s_raster ? a->raster : KWD_RASTER_S, adc, nadc);
+    char *text = cJSON_PrintUnformatted(j);
     cJSON_Delete(j);
-    return rc;
+    kw_waveform_timing t;
+    st = text ? kw_waveform_timing_parse(text, a->s_raster ? a->raster : 0, &t) : KW_ENOMEM;
+    cJSON_free(text);
+    if (st)
+        return kw_cli_status(st, "sidecar");
+    const double v[4] = {t.raster_s, t.rf_centre_s, t.te_s, t.tr_s};
+    double *dst[4] = {&a->raster, &a->rf, &a->te, &a->tr};
+    int *seen[4] = {&a->s_raster, &a->s_rf, &a->s_te, &a->s_tr};
+    for (int k = 0; k < 4; k++)
+        if (!isnan(v[k]) && !*seen[k]) {
+            *dst[k] = v[k];
+            *seen[k] = 1;
+        }
+    if (t.adc && !a->adc) {
+        *adc = calloc(t.nadc ? t.nadc : 1, sizeof **adc);
+        if (!*adc) {
+            kw_free(t.adc);
+            return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
+        }
+        memcpy(*adc, t.adc, t.nadc * sizeof **adc);
+        *nadc = t.nadc;
+    }
+    kw_free(t.adc);
+    return -1;
 }
 
 /* The waveform (samples, axes) as doubles. */
@@ -256,8 +217,8 @@ static const char *base_name(const char *p)
 
 /* The trajectory (samples, max(2, axes)) in cycles/FOV (a 1-axis waveform
  * gets ky = 0), its times after the RF centre and its sidecar. */
-static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_waveform_options *o,
-                            const char *path, const char *times, int actual)
+static int write_trajectory(const wf_args *a, const kw_waveform *w, const char *path, const char *times,
+                            int actual)
 {
     const char *what = actual ? "trajectory-actual" : "trajectory";
     const kw_waveform_summary *s = kw_waveform_summary_of(w);
@@ -279,34 +240,12 @@ static int write_trajectory(const wf_args *a, const kw_waveform *w, const kw_wav
         st = kw_npy_write(path, &ka);
     if (!st)
         st = kw_npy_write(tp, &ta);
-    if (!st && sp) {
-        cJSON *j = cJSON_CreateObject();
-        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
-        cJSON_AddStringToObject(j, "kind", "trajectory");
-        cJSON_AddStringToObject(j, "layout", "noncartesian");
-        cJSON_AddStringToObject(j, "pattern_kind", "waveform");
-        double sh[2] = {(double)ns, (double)nc};
-        kw_json_add_vec(j, "shape", sh, 2);
-        const char *cols[3] = {"kx", "ky", "kz"};
-        cJSON_AddItemToObject(j, "columns", cJSON_CreateStringArray(cols, (int)nc));
-        cJSON_AddStringToObject(j, "units", "cycles/FOV");
-        kw_json_add_number_or_null(j, "readouts", (double)o->nadc);
-        kw_json_add_vec(j, "fov_m", o->fov_m, (int)na);
-        kw_json_add_number_or_null(j, "raster_s", o->raster_s);
-        kw_json_add_number_or_null(j, "gamma_bar_Hz_per_T", s->gamma_bar);
-        cJSON_AddStringToObject(j, "waveform", a->in);
-        cJSON_AddStringToObject(j, "times", base_name(tp));
-        cJSON_AddStringToObject(j, "times_origin", "RF centre");
-        cJSON_AddStringToObject(j, "gradient", actual ? "actual" : "nominal");
-        if (actual) {
-            kw_json_add_vec(j, "delay_s", o->delay_s, (int)na);
-            kw_json_add_vec(j, "response_tau_s", o->response_tau_s, (int)na);
-            kw_json_add_vec(j, "response_amp", o->response_amp, (int)na);
-        }
-        cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
-        st = kw_json_write(sp, j);
-        cJSON_Delete(j);
-    }
+    char *js = NULL;
+    if (!st && sp)
+        st = kw_waveform_trajectory_json(w, actual, base_name(tp), a->in, &js);
+    if (!st && sp)
+        st = kw_outfile_write_all(sp, js, strlen(js));
+    kw_free(js);
     kw_free(k);
     kw_free(kc);
     kw_free(t);
@@ -618,6 +557,54 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     printf("\n%s\n", KW_SAFETY_CAUTION);
 }
 
+/* ---- delay estimate ---------------------------------------------------------------------------- */
+
+static const kw_cli_param DELAY_MAP[] = {
+    {"data", "estimate-delay"}, {"spokes", "estimate-delay"}, {"n", "estimate-delay"}, {NULL, NULL},
+};
+
+/* --estimate-delay KS.npy: radial data (coils, samples) acquired with this
+ * waveform's ADC windows as spokes, window s opposed to s + windows/2. */
+static int estimate_delay(const char *path, const kw_waveform_options *o, double *est)
+{
+    int same = o->nadc >= 2 && o->nadc % 2 == 0;
+    for (size_t i = 1; same && i < o->nadc; i++)
+        same = o->adc[i].samples == o->adc[0].samples && o->adc[i].dwell_s == o->adc[0].dwell_s;
+    if (!same)
+        return kw_cli_fail("estimate-delay", "needs an even number of ADC windows (spokes) of equal samples and "
+                           "dwell, window s opposed to window s + windows/2");
+    kw_array ks = {0};
+    kw_status st = kw_array_read_complex(path, &ks);
+    if (st)
+        return kw_cli_status(st, "estimate-delay");
+    const size_t total = o->nadc * o->adc[0].samples;
+    int rc = -1;
+    if (ks.dtype != KW_C64 || (ks.ndim != 1 && ks.ndim != 2) || ks.dims[ks.ndim - 1] != total)
+        rc = kw_cli_fail("estimate-delay", "expected complex k-space (coils, %zu) of the ADC windows' samples", total);
+    else if ((st = kw_waveform_estimate_delay(ks.data, ks.ndim == 2 ? ks.dims[0] : 1, o->nadc, o->adc[0].samples,
+                                              o->adc[0].dwell_s, est)))
+        rc = kw_cli_lib_status(st, "estimate-delay", DELAY_MAP);
+    kw_array_free(&ks);
+    return rc;
+}
+
+/* The report's JSON with the delay estimate added ("-" or a file). */
+static kw_status write_json(const char *path, const char *js, double est)
+{
+    if (isnan(est))
+        return strcmp(path, "-") == 0 ? (fputs(js, stdout) < 0 ? KW_EIO : KW_OK)
+                                      : kw_outfile_write_all(path, js, strlen(js));
+    cJSON *j = cJSON_Parse(js);
+    KW_FAIL_IF(!j, KW_ENOMEM, "json: out of memory");
+    cJSON *d = cJSON_CreateObject();
+    kw_json_add_number_or_null(d, "delay_s", est);
+    cJSON_AddStringToObject(d, "method", "shift between opposed spokes' echoes (Peters et al. 2003), one delay for every axis");
+    cJSON_AddItemToObject(j, "delay_estimate", d);
+    kw_status st = kw_json_write(path, j);
+    cJSON_Delete(j);
+    return st;
+}
+
 /* ---- the verb ------------------------------------------------------------------------------- */
 
 /* --delay D[,DY,DZ] (one value: every axis), --lowpass TAU[,...] (amplitude
@@ -718,26 +705,32 @@ static int run(wf_args *a)
         rc = kw_cli_lib_status(st, "waveform", PARAM_MAP);
         goto done;
     }
-    if (a->traj && (rc = write_trajectory(a, w, &o, a->traj, a->times, 0)) >= 0)
+    if (a->traj && (rc = write_trajectory(a, w, a->traj, a->times, 0)) >= 0)
         goto done;
-    if (a->traj_actual && (rc = write_trajectory(a, w, &o, a->traj_actual, NULL, 1)) >= 0)
+    if (a->traj_actual && (rc = write_trajectory(a, w, a->traj_actual, NULL, 1)) >= 0)
         goto done;
     if (a->png && (st = write_png(a->png, g, n, axes, w, &o))) {
         rc = kw_cli_status(st, "png");
         goto done;
     }
+    double est = NAN;
+    if (a->estimate && (rc = estimate_delay(a->estimate, &o, &est)) >= 0)
+        goto done;
     if (a->json) {
         st = kw_waveform_report_json(w, &js);
         if (!st)
-            st = strcmp(a->json, "-") == 0 ? (fputs(js, stdout) < 0 ? KW_EIO : KW_OK)
-                                           : kw_outfile_write_all(a->json, js, strlen(js));
+            st = write_json(a->json, js, est);
         if (st) {
             rc = kw_cli_status(st, "json");
             goto done;
         }
     }
-    if (!a->json || strcmp(a->json, "-") != 0)
+    if (!a->json || strcmp(a->json, "-") != 0) {
         print_report(w, &o);
+        if (!isnan(est))
+            printf("gradient delay estimated from %s (shift between opposed spokes' echoes, Peters et al. 2003; "
+                   "one delay for every axis): %.4f us\n", a->estimate, est * 1e6);
+    }
     rc = KW_EXIT_OK;
 done:
     kw_free(js);
@@ -783,6 +776,9 @@ int kw_cmd_waveform(int argc, char **argv)
         {"trajectory-actual", KW_OPT_STRING, &a.traj_actual, 0, NULL,
          "write the actual gradient's k-space (.npy) + times + sidecar, as --trajectory (default: none)"},
         {"png", KW_OPT_STRING, &a.png, 0, NULL, "picture of G and slew per axis with the limits (default: none)"},
+        {"estimate-delay", KW_OPT_STRING, &a.estimate, 0, NULL,
+         "radial k-space .npy (coils, samples) taken with these ADC windows as spokes (window s opposed to s + "
+         "windows/2): estimate the gradient delay (Peters et al. 2003; default: none)"},
         {NULL, 0, NULL, 0, NULL, NULL},
     };
     int rc = kw_opts_parse(argc, argv, table, USAGE, NULL, 0, NULL);

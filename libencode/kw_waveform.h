@@ -273,6 +273,52 @@ KW_API double kw_waveform_pns_limit(double t_eff_s, double rheobase, double chro
 KW_API kw_status kw_waveform_epi(const kw_pattern_options *o, int shot, double *g, size_t *samples,
                                  kw_waveform_adc *adc, size_t *nadc);
 
+/*! kw_waveform_estimate_delay(): the gradient delay from radial data by
+ * the shift between opposed spokes' echoes (Peters, Derbyshire & McVeigh,
+ * "Centering the projection reconstruction trajectory: reducing gradient
+ * delay errors", MRM 50:1-6, 2003). data: (coils, spokes * n) samples,
+ * spoke after spoke, n per spoke on the readout's flat top, dwell_s apart;
+ * spoke s and spoke s + spokes/2 run along the same line in opposite
+ * directions (spokes even), sample n/2 at k = 0 nominally. A delay d moves
+ * every sample back along its spoke by d / dwell samples, so the second
+ * spoke of a pair, reversed, is the first shifted by 1 + 2 d / dwell
+ * samples (the one from reversing an even count about n/2); the shift is
+ * the slope of the phase of P_b(x) P_a(x)* over the projection position x
+ * (P the inverse DFT of a spoke), taken from the sum over pairs, coils and
+ * x of C(x+1) C(x)*, C = P_b P_a*. One delay for every axis (isotropic).
+ * *delay_s in s. KW_EINVAL naming "spokes" (odd, < 2), "n" (< 4), "dwell_s"
+ * (<= 0), "data" (NULL, non-finite, or no signal). */
+KW_API kw_status kw_waveform_estimate_delay(const kw_cfloat *data, size_t coils, size_t spokes, size_t n,
+                                            double dwell_s, double *delay_s);
+
+/* The timing keys of a waveform's JSON sidecar (kweave waveform's): NaN
+ * where the text has none. */
+typedef struct kw_waveform_timing {
+    double raster_s, rf_centre_s, te_s, tr_s;
+    kw_waveform_adc *adc; /* kw_alloc'd, free with kw_free(); NULL: no "adc" */
+    size_t nadc;
+} kw_waveform_timing;
+
+/*! kw_waveform_timing_parse(): read a JSON object's keys raster_s,
+ * rf_centre_s, te_s, tr_s (numbers or null) and adc (null or a list of
+ * {start_s or start_sample, samples, dwell_s}; start_sample counts rasters
+ * of `raster_s` when it is > 0, else of the text's raster_s, else 10 us).
+ * KW_EFORMAT naming "json" (not an object), the key ("rf_centre_s", ...)
+ * or "adc" (the entry's number in the reason); *t is then empty. */
+KW_API kw_status kw_waveform_timing_parse(const char *json, double raster_s, kw_waveform_timing *t);
+
+/*! kw_waveform_trajectory_json(): the sidecar of a trajectory file written
+ * from kw_waveform_trajectory() (actual 0) or kw_waveform_trajectory_actual()
+ * (actual 1) padded to max(2, axes) columns, as JSON text (kw_alloc'd,
+ * free with kw_free()): kweave_version, kind ("trajectory"), layout
+ * ("noncartesian"), pattern_kind ("waveform"), shape, columns, units
+ * ("cycles/FOV"), readouts (the ADC windows), fov_m, raster_s,
+ * gamma_bar_Hz_per_T, waveform (`source`), times (`times_name`),
+ * times_origin ("RF centre"), gradient ("nominal" | "actual"; actual also
+ * delay_s, response_tau_s, response_amp), safety_caution. */
+KW_API kw_status kw_waveform_trajectory_json(const kw_waveform *w, int actual, const char *times_name,
+                                             const char *source, char **json);
+
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),
  * samples, axes, raster_s, span_s, tr_s, rf_centre_s, te_s (null when

@@ -1,6 +1,7 @@
 /* waveform_json.c: the report of a kw_waveform as JSON text
  * (kw_waveform_report_json(), keys in kw_waveform.h). */
 #include <math.h>
+#include <string.h>
 
 #include "json_build.h"
 #include "waveform_int.h"
@@ -180,6 +181,119 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
             cJSON_AddNullToObject(j, "actual");
         }
         add_pns(j, w);
+        cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
+    }
+    return kw_json_text(j, json);
+}
+
+/* ---- the timing sidecar ------------------------------------------------------------- */
+
+static kw_status timing_number(const cJSON *j, const char *key, double *v)
+{
+    const cJSON *it = cJSON_GetObjectItemCaseSensitive(j, key);
+    *v = NAN;
+    if (!it || cJSON_IsNull(it))
+        return KW_OK;
+    KW_FAIL_PARAM(!cJSON_IsNumber(it) || !isfinite(it->valuedouble), KW_EFORMAT, key, "not a number");
+    *v = it->valuedouble;
+    return KW_OK;
+}
+
+static kw_status timing_adc(const cJSON *arr, double raster, kw_waveform_timing *t)
+{
+    KW_FAIL_PARAM(!cJSON_IsArray(arr), KW_EFORMAT, "adc",
+                  "expected a list of {start_s or start_sample, samples, dwell_s}");
+    size_t cnt = (size_t)cJSON_GetArraySize(arr), k = 0;
+    t->adc = kw_alloc_n(cnt ? cnt : 1, sizeof *t->adc);
+    KW_FAIL_IF(!t->adc, KW_ENOMEM, "adc: out of memory");
+    const cJSON *it;
+    cJSON_ArrayForEach(it, arr) {
+        const cJSON *ss = cJSON_GetObjectItemCaseSensitive(it, "start_s"),
+                    *si = cJSON_GetObjectItemCaseSensitive(it, "start_sample"),
+                    *ns = cJSON_GetObjectItemCaseSensitive(it, "samples"),
+                    *dw = cJSON_GetObjectItemCaseSensitive(it, "dwell_s");
+        long long v = 0, nn = 0;
+        int bad = !cJSON_IsNumber(ns) || kw_checked_whole(ns->valuedouble, 1, 1LL << 28, &nn) ||
+                  !cJSON_IsNumber(dw) || !isfinite(dw->valuedouble) ||
+                  cJSON_IsNumber(ss) == cJSON_IsNumber(si) ||
+                  (cJSON_IsNumber(ss) && !isfinite(ss->valuedouble)) ||
+                  (cJSON_IsNumber(si) && kw_checked_whole(si->valuedouble, 0, 1LL << 40, &v));
+        KW_FAIL_PARAM(bad, KW_EFORMAT, "adc",
+                      "adc[%zu]: expected start_s (s) or start_sample (a whole number), samples (>= 1) "
+                      "and dwell_s (s)", k);
+        t->adc[k].start_s = cJSON_IsNumber(ss) ? ss->valuedouble : (double)v * raster;
+        t->adc[k].samples = (size_t)nn;
+        t->adc[k].dwell_s = dw->valuedouble;
+        k++;
+    }
+    t->nadc = k;
+    return KW_OK;
+}
+
+static kw_status timing_read(const cJSON *j, double raster_s, kw_waveform_timing *t)
+{
+    KW_FAIL_PARAM(!cJSON_IsObject(j), KW_EFORMAT, "json", "expected a JSON object");
+    kw_status st;
+    if ((st = timing_number(j, "raster_s", &t->raster_s)) || (st = timing_number(j, "rf_centre_s", &t->rf_centre_s)) ||
+        (st = timing_number(j, "te_s", &t->te_s)) || (st = timing_number(j, "tr_s", &t->tr_s)))
+        return st;
+    const cJSON *arr = cJSON_GetObjectItemCaseSensitive(j, "adc");
+    if (!arr || cJSON_IsNull(arr))
+        return KW_OK;
+    double r = raster_s > 0 ? raster_s : t->raster_s > 0 ? t->raster_s : 10e-6;
+    return timing_adc(arr, r, t);
+}
+
+kw_status kw_waveform_timing_parse(const char *json, double raster_s, kw_waveform_timing *t)
+{
+    KW_FAIL_PARAM(!t, KW_EINVAL, "timing", "NULL argument");
+    memset(t, 0, sizeof *t);
+    KW_FAIL_PARAM(!json, KW_EINVAL, "json", "NULL argument");
+    cJSON *j = cJSON_Parse(json);
+    KW_FAIL_PARAM(!j, KW_EFORMAT, "json", "not JSON");
+    kw_status st = timing_read(j, raster_s, t);
+    cJSON_Delete(j);
+    if (st) {
+        kw_free(t->adc);
+        memset(t, 0, sizeof *t);
+    }
+    return st;
+}
+
+/* ---- a trajectory's sidecar ------------------------------------------------------------ */
+
+kw_status kw_waveform_trajectory_json(const kw_waveform *w, int actual, const char *times_name,
+                                      const char *source, char **json)
+{
+    KW_FAIL_PARAM(!json, KW_EINVAL, "json", "NULL argument");
+    *json = NULL;
+    KW_FAIL_PARAM(!w || !times_name || !source, KW_EINVAL, "waveform", "NULL argument");
+    const kw_waveform_options *o = &w->o;
+    const int na = w->axes, nc = na < 2 ? 2 : na;
+    cJSON *j = cJSON_CreateObject();
+    if (j) {
+        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+        cJSON_AddStringToObject(j, "kind", "trajectory");
+        cJSON_AddStringToObject(j, "layout", "noncartesian");
+        cJSON_AddStringToObject(j, "pattern_kind", "waveform");
+        double sh[2] = {(double)w->sum.adc_samples, (double)nc};
+        kw_json_add_vec(j, "shape", sh, 2);
+        const char *cols[3] = {"kx", "ky", "kz"};
+        cJSON_AddItemToObject(j, "columns", cJSON_CreateStringArray(cols, nc));
+        cJSON_AddStringToObject(j, "units", "cycles/FOV");
+        add_num(j, "readouts", (double)o->nadc);
+        kw_json_add_vec(j, "fov_m", o->fov_m, na);
+        add_num(j, "raster_s", o->raster_s);
+        add_num(j, "gamma_bar_Hz_per_T", w->sum.gamma_bar);
+        cJSON_AddStringToObject(j, "waveform", source);
+        cJSON_AddStringToObject(j, "times", times_name);
+        cJSON_AddStringToObject(j, "times_origin", "RF centre");
+        cJSON_AddStringToObject(j, "gradient", actual ? "actual" : "nominal");
+        if (actual) {
+            kw_json_add_vec(j, "delay_s", o->delay_s, na);
+            kw_json_add_vec(j, "response_tau_s", o->response_tau_s, na);
+            kw_json_add_vec(j, "response_amp", o->response_amp, na);
+        }
         cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
     }
     return kw_json_text(j, json);

@@ -514,3 +514,40 @@ Test(waveform, epi_design_imported_back_is_the_pattern)
         kw_pattern_destroy(p);
     }
 }
+
+/* Peters et al. 2003 on noise-free data: an off-centre Gaussian blob of
+ * width sigma (FOV units) has the k-space 2 pi sigma^2
+ * exp(-2 pi^2 sigma^2 |k|^2) e^{-2 pi i k.r0} (the Fourier pair of a
+ * Gaussian); 2 S spokes over 360 degrees sampled where a delay d puts them,
+ * k_n = (n - N/2 - d / dwell) u: the estimate recovers d within 0.2 us
+ * (the issue's bound) for d = 2 us, -3 us and 0. */
+Test(waveform, delay_estimate_opposed_spokes)
+{
+    const size_t S = 16, N = 64, coils = 2;
+    const double dwell = 10e-6, sigma = 0.05, r0[2] = {0.12, -0.07};
+    const double delays[3] = {2e-6, -3e-6, 0};
+    kw_cfloat *d = malloc(coils * 2 * S * N * sizeof *d);
+    for (int t = 0; t < 3; t++) {
+        const double delta = delays[t] / dwell;
+        for (size_t c = 0; c < coils; c++)
+            for (size_t s = 0; s < 2 * S; s++) {
+                const double th = KW_PI * (double)s / (double)S;
+                for (size_t i = 0; i < N; i++) {
+                    const double r = (double)i - (double)N / 2 - delta;
+                    const double kx = r * cos(th), ky = r * sin(th);
+                    const double mag = 2 * KW_PI * sigma * sigma *
+                                       exp(-2 * KW_PI * KW_PI * sigma * sigma * (kx * kx + ky * ky));
+                    const double ph = -2 * KW_PI * (kx * r0[0] + ky * r0[1]) + 0.3 * (double)c;
+                    d[(c * 2 * S + s) * N + i] = (float)(mag * cos(ph)) + I * (float)(mag * sin(ph));
+                }
+            }
+        double est = NAN;
+        cr_assert_eq(kw_waveform_estimate_delay(d, coils, 2 * S, N, dwell, &est), KW_OK, "%s", kw_last_error());
+        cr_expect(fabs(est - delays[t]) < 0.2e-6, "delay %g s estimated as %g s", delays[t], est);
+        cr_expect(fabs(est - delays[t]) < 0.02e-6, "delay %g s estimated as %g s", delays[t], est);
+    }
+    double est;
+    cr_expect_eq(kw_waveform_estimate_delay(d, coils, 2 * S - 1, N, dwell, &est), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "spokes");
+    free(d);
+}
