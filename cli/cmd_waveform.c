@@ -25,7 +25,8 @@
 static const char USAGE[] =
     "usage: kweave waveform --in G.npy [--rf-centre T] [--raster T] [--adc START:N:DWELL[,...]]\n"
     "                       [--te T] [--gmax G] [--slew S] [--fov L[,LY[,LZ]]]\n"
-    "                       [--json F] [--trajectory K.npy] [--png F]\n"
+    "                       [--json F] [--trajectory K.npy] [--png F] [--delay D] [--lowpass T | --eddy A:T]\n"
+    "                       [--trajectory-actual K.npy] [--estimate-delay KS.npy]\n"
     "\n"
     "Checks a gradient waveform of your own: G.npy is float32/float64 (samples, axes)\n"
     "in T/m, axes x, y, z (1 to 3), sample i at i x raster, linear in between.\n"
