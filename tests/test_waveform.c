@@ -551,3 +551,50 @@ Test(waveform, delay_estimate_opposed_spokes)
     cr_expect_str_eq(kw_last_error_param(), "spokes");
     free(d);
 }
+
+/* The allocation budget (kw_base.h; as tests/test_memory.c does for the
+ * other objects): without a limit everything kw_alloc'd comes back; under
+ * every limit from nothing up to the unlimited peak, create and the report
+ * either succeed or fail with KW_ENOMEM, and nothing is held afterwards. */
+static kw_status budget_run(const double *g, size_t n, const kw_waveform_options *o)
+{
+    kw_waveform *w = NULL;
+    kw_status st = kw_waveform_create(&w, g, n, 2, o);
+    char *js = NULL;
+    if (!st)
+        st = kw_waveform_report_json(w, &js);
+    kw_free(js);
+    kw_waveform_destroy(w);
+    return st;
+}
+
+Test(waveform, allocation_budget)
+{
+    const size_t n = 300;
+    double *g = calloc(2 * n, sizeof *g);
+    trap(g, 2, 0, 10, 20, 50, 45e-3);
+    trap(g, 2, 1, 100, 5, 30, -20e-3);
+    kw_waveform_adc adc[2] = {{1e-3, 5e-6, 40}, {2e-3, 10e-6, 30}};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 50e-6;
+    o.te_s = 1.5e-3;
+    o.adc = adc;
+    o.nadc = 2;
+    o.response_tau_s[0] = 20e-6;
+    o.response_amp[0] = 1;
+    kw_memory_set_limit(0);
+    const size_t base = kw_memory_in_use();
+    kw_memory_reset_peak();
+    cr_assert_eq(budget_run(g, n, &o), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(kw_memory_in_use(), base);
+    const size_t peak = kw_memory_peak() - base;
+    for (size_t lim = 0; lim <= peak + 64; lim += 256) {
+        kw_memory_set_limit(base + lim);
+        kw_status st = budget_run(g, n, &o);
+        cr_expect(st == KW_OK || st == KW_ENOMEM, "limit %zu: status %d", lim, st);
+        kw_memory_set_limit(0);
+        cr_expect_eq(kw_memory_in_use(), base, "limit %zu: bytes held afterwards", lim);
+    }
+    free(g);
+}
