@@ -29,7 +29,8 @@ static const char USAGE[] =
     "                       [--trajectory-actual K.npy] [--estimate-delay KS.npy]\n"
     "\n"
     "Checks a gradient waveform of your own: G.npy is float32/float64 (samples, axes)\n"
-    "in T/m, axes x, y, z (1 to 3), sample i at i x raster, linear in between.\n"
+    "in T/m (or G.csv / G.txt, a table of one sample a line), axes x, y, z (1 to 3),\n"
+    "sample i at i x raster, linear in between.\n"
     "Reports peak amplitude and slew per axis and of the vector sum, every run of\n"
     "samples over a limit, the RMS gradient, the moments M0, M1, M2 at every ADC\n"
     "centre and at TE (from the RF centre), and an ESTIMATE of nerve stimulation:\n"
@@ -56,66 +57,6 @@ static const kw_cli_param PARAM_MAP[] = {
 };
 
 /* ---- input ---------------------------------------------------------------------------- */
-
-/* One window "START:N:DWELL": START a time (1.2ms) or a sample index (a
- * whole number without unit). */
-static int parse_window(const char *s, double raster, kw_waveform_adc *w)
-{
-    char buf[128], why[160];
-    if (strlen(s) >= sizeof buf)
-        return kw_cli_fail("adc", "'%s': too long", s);
-    strcpy(buf, s);
-    char *c1 = strchr(buf, ':'), *c2 = c1 ? strchr(c1 + 1, ':') : NULL;
-    if (!c1 || !c2 || strchr(c2 + 1, ':'))
-        return kw_cli_fail("adc", "'%s': expected START:SAMPLES:DWELL (e.g. 1.2ms:256:4us)", s);
-    *c1 = *c2 = '\0';
-    char *end;
-    double idx = strtod(buf, &end);
-    long long v;
-    if (*buf && !*end) {
-        if (kw_checked_whole(idx, 0, 1LL << 40, &v))
-            return kw_cli_fail("adc", "'%s': a sample index is a whole number >= 0", buf);
-        w->start_s = (double)v * raster;
-    } else if (kw_unit_parse(buf, KW_UNIT_TIME, &w->start_s, why, sizeof why)) {
-        return kw_cli_fail("adc", "start '%s': %s", buf, why);
-    }
-    double n = strtod(c1 + 1, &end);
-    if (!c1[1] || *end || kw_checked_whole(n, 1, 1LL << 28, &v))
-        return kw_cli_fail("adc", "samples '%s': a whole number from 1", c1 + 1);
-    w->samples = (size_t)v;
-    if (kw_unit_parse(c2 + 1, KW_UNIT_TIME, &w->dwell_s, why, sizeof why))
-        return kw_cli_fail("adc", "dwell '%s': %s", c2 + 1, why);
-    return -1;
-}
-
-static int parse_adc_list(const char *list, double raster, kw_waveform_adc **out, size_t *n)
-{
-    size_t cap = 1;
-    for (const char *p = list; *p; p++)
-        cap += *p == ',';
-    kw_waveform_adc *w = calloc(cap, sizeof *w);
-    char *copy = strdup(list);
-    if (!w || !copy) {
-        free(w);
-        free(copy);
-        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
-    }
-    size_t k = 0;
-    int rc = -1;
-    for (char *save = NULL, *tok = strtok_r(copy, ",", &save); tok && rc < 0;
-         tok = strtok_r(NULL, ",", &save))
-        rc = parse_window(tok, raster, &w[k++]);
-    free(copy);
-    if (rc < 0 && k == 0)
-        rc = kw_cli_fail("adc", "no window given");
-    if (rc >= 0) {
-        free(w);
-        return rc;
-    }
-    *out = w;
-    *n = k;
-    return -1;
-}
 
 /* The sidecar (--sidecar, or G.json beside --in when it exists): the keys
  * the options did not give (kw_waveform_timing_parse()). */
@@ -164,9 +105,65 @@ static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
     return -1;
 }
 
-/* The waveform (samples, axes) as doubles. */
+/* --adc through the library (kw_waveform_adc_parse()); the windows copied
+ * to a malloc'd list as the sidecar's are. */
+static int parse_adc(const char *text, double raster, kw_waveform_adc **out, size_t *n)
+{
+    kw_waveform_adc *w = NULL;
+    kw_status st = kw_waveform_adc_parse(text, raster, &w, n);
+    if (st)
+        return kw_cli_lib_status(st, "adc", PARAM_MAP);
+    free(*out);
+    *out = malloc(*n * sizeof **out);
+    if (*out)
+        memcpy(*out, w, *n * sizeof **out);
+    kw_free(w);
+    return *out ? -1 : kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "adc");
+}
+
+/* A text table (.csv, .txt): the file's text through kw_waveform_table_parse(). */
+static int read_table(const char *path, double **g, size_t *n, int *axes)
+{
+    FILE *f = fopen(path, "rb");
+    if (!f)
+        return kw_cli_fail("in", "%s: cannot be read", path);
+    char *text = NULL;
+    size_t len = 0, cap = 0;
+    int bad = 0;
+    for (;;) {
+        if (len + 4096 + 1 > cap) {
+            char *t = realloc(text, cap = 2 * cap + 8192);
+            if (!t) {
+                bad = 1;
+                break;
+            }
+            text = t;
+        }
+        size_t r = fread(text + len, 1, cap - len - 1, f);
+        len += r;
+        if (r == 0)
+            break;
+    }
+    bad |= ferror(f) || !text;
+    fclose(f);
+    kw_status st = bad ? KW_EIO : (text[len] = '\0', kw_outfile_note_input(path));
+    if (!st)
+        st = kw_waveform_table_parse(text, g, n, axes);
+    free(text);
+    return st ? kw_cli_lib_status(st, "in", PARAM_MAP) : -1;
+}
+
+static int has_suffix(const char *s, const char *suf)
+{
+    size_t n = strlen(s), m = strlen(suf);
+    return n >= m && strcmp(s + n - m, suf) == 0;
+}
+
+/* The waveform (samples, axes) as doubles: .npy / HDF5, or a text table. */
 static int read_waveform(const char *path, double **g, size_t *n, int *axes)
 {
+    if (has_suffix(path, ".csv") || has_suffix(path, ".txt"))
+        return read_table(path, g, n, axes);
     kw_array a = {0};
     kw_status st = kw_array_read(path, &a);
     if (st)
@@ -681,7 +678,7 @@ static int run(wf_args *a)
     kw_waveform_options_init(&o);
     int rc = read_sidecar(a, &adc, &nadc);
     if (rc < 0 && a->adc)
-        rc = parse_adc_list(a->adc, a->s_raster ? a->raster : KWD_RASTER_S, &adc, &nadc);
+        rc = parse_adc(a->adc, a->s_raster ? a->raster : KWD_RASTER_S, &adc, &nadc);
     if (rc < 0 && a->fov)
         rc = parse_fov(a->fov, o.fov_m);
     if (rc < 0)
@@ -748,7 +745,7 @@ int kw_cmd_waveform(int argc, char **argv)
     a.slew = KWD_SLEW_T_PER_M_PER_S;
     a.radius = KW_PNS_RADIUS_M;
     const kw_opt table[] = {
-        {"in", KW_OPT_STRING, &a.in, 0, NULL, "gradient waveform .npy (samples, axes) in T/m, axes x, y, z (required)"},
+        {"in", KW_OPT_STRING, &a.in, 0, NULL, "gradient waveform .npy (samples, axes) in T/m, axes x, y, z, or a .csv/.txt table (required)"},
         {"sidecar", KW_OPT_STRING, &a.sidecar, 0, &a.s_sidecar,
          "timing keys .json (default: the .json beside --in when there is one)"},
         {"raster", KW_OPT_UNIT, &a.raster, KW_UNIT_TIME, &a.s_raster, "time between samples (default " KWD_RASTER_TEXT ")"},

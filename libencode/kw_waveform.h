@@ -319,6 +319,22 @@ KW_API kw_status kw_waveform_timing_parse(const char *json, double raster_s, kw_
 KW_API kw_status kw_waveform_trajectory_json(const kw_waveform *w, int actual, const char *times_name,
                                              const char *source, char **json);
 
+/*! kw_waveform_adc_parse(): ADC windows from text
+ * "START:SAMPLES:DWELL[,...]" (START a time with its unit, "1.2ms", or a
+ * sample index, a whole number without unit, counted in rasters of
+ * raster_s; DWELL a time, "4us"); *adc kw_alloc'd (kw_free()), *n windows.
+ * KW_EINVAL naming "adc" with the reason. */
+KW_API kw_status kw_waveform_adc_parse(const char *text, double raster_s, kw_waveform_adc **adc, size_t *n);
+
+/*! kw_waveform_table_parse(): a waveform written as a plain text table:
+ * one sample a line, 1 to 3 numbers (T/m, axes x, y, z) separated by
+ * commas, semicolons, tabs or spaces; '#' starts a comment; empty lines
+ * and a first line of column names are skipped. *g (samples, axes),
+ * kw_alloc'd (kw_free()). KW_EFORMAT naming "waveform" with the line at
+ * fault (not numbers, more than 3 columns, a different count). Non-finite
+ * numbers are read; kw_waveform_create() refuses them. */
+KW_API kw_status kw_waveform_table_parse(const char *text, double **g, size_t *samples, int *axes);
+
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),
  * samples, axes, raster_s, span_s, tr_s, rf_centre_s, te_s (null when

@@ -598,3 +598,37 @@ Test(waveform, allocation_budget)
     }
     free(g);
 }
+
+/* Text inputs: a table with a header, comments and mixed separators; the
+ * ADC windows with units or sample indices. */
+Test(waveform, text_inputs)
+{
+    double *g = NULL;
+    size_t n = 0;
+    int axes = 0;
+    cr_assert_eq(kw_waveform_table_parse("x, y  # T/m\n0,0\n1e-3;-2e-3\n\n2e-3\t-4e-3 # top\n0 0\n", &g, &n, &axes),
+                 KW_OK, "%s", kw_last_error());
+    cr_expect_eq(n, 4);
+    cr_expect_eq(axes, 2);
+    const double want[8] = {0, 0, 1e-3, -2e-3, 2e-3, -4e-3, 0, 0};
+    for (int i = 0; i < 8; i++)
+        cr_expect(g[i] == want[i], "g[%d] = %g", i, g[i]);
+    kw_free(g);
+    cr_expect_eq(kw_waveform_table_parse("0,0\n1\n", &g, &n, &axes), KW_EFORMAT);
+    cr_expect_str_eq(kw_last_error_param(), "waveform");
+    cr_expect(strstr(kw_last_error(), "line 2") != NULL, "%s", kw_last_error());
+    cr_expect_eq(kw_waveform_table_parse("0,0,0,0\n", &g, &n, &axes), KW_EFORMAT);
+    cr_expect_eq(kw_waveform_table_parse("# nothing\n", &g, &n, &axes), KW_EFORMAT);
+    kw_waveform_adc *adc = NULL;
+    cr_assert_eq(kw_waveform_adc_parse("1.2ms:256:4us,30:10:10us", H, &adc, &n), KW_OK, "%s", kw_last_error());
+    cr_expect_eq(n, 2);
+    REL(adc[0].start_s, 1.2e-3, 1e-12);
+    cr_expect_eq(adc[0].samples, 256);
+    REL(adc[0].dwell_s, 4e-6, 1e-12);
+    REL(adc[1].start_s, 30 * H, 1e-12); /* a sample index */
+    kw_free(adc);
+    cr_expect_eq(kw_waveform_adc_parse("1.2ms:256", H, &adc, &n), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "adc");
+    cr_expect_eq(kw_waveform_adc_parse("1.2:256:4us", H, &adc, &n), KW_EINVAL); /* no unit, not whole */
+    cr_expect_eq(kw_waveform_adc_parse("1ms:0:4us", H, &adc, &n), KW_EINVAL);
+}

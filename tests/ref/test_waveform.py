@@ -322,3 +322,25 @@ def test_delay_estimated_from_simulated_radial_data(tmp_path):
     # an odd number of windows cannot pair spokes
     json.dump({"raster_s": H, "rf_centre_s": 5 * H, "adc": adc[:-1]}, open(tmp_path / "rad.json", "w"))
     refused("waveform", "--in", tmp_path / "rad.npy", "--estimate-delay", tmp_path / "ks.npy", opt="estimate-delay")
+
+
+def test_csv_table_reads_as_the_npy(tmp_path):
+    """The same waveform as a text table (header, comments) and as .npy
+    (float32) gives the same report."""
+    g = smooth_waveform(n=80, axes=3)
+    np.save(tmp_path / "g.npy", g)
+    with open(tmp_path / "g.csv", "w") as f:
+        f.write("# my waveform, T/m\nx,y,z\n")
+        for row in g:
+            f.write(",".join(repr(float(v)) for v in row) + "\n")
+    reps = []
+    for name in ("g.npy", "g.csv"):
+        run("waveform", "--in", tmp_path / name, "--rf-centre", "20us", "--te", "0.5ms", "--json",
+            tmp_path / (name + ".json"))
+        reps.append(json.load(open(tmp_path / (name + ".json"))))
+    assert reps[0]["echo"] == reps[1]["echo"]
+    assert reps[0]["peak_G_T_per_m"] == reps[1]["peak_G_T_per_m"]
+    with open(tmp_path / "bad.csv", "w") as f:
+        f.write("0,0\n1e-3\n")
+    refused("waveform", "--in", tmp_path / "bad.csv", "--rf-centre", "0s", "--json", tmp_path / "r.json", opt="in")
+    assert not (tmp_path / "r.json").exists()
