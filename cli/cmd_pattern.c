@@ -288,20 +288,23 @@ static int traj_report(const gen_opts *g, const kw_pattern_options *o, const kw_
     return rc;
 }
 
-/* --waveform: shot 0 of an EPI train as the gradient waveform `kweave
- * waveform` checks (kw_waveform_epi()), float32 (samples, 2) T/m, with a
- * sidecar of its timing. */
+/* --waveform: shot 0 of an EPI train or interleaf 0 of a spiral as the
+ * gradient waveform `kweave waveform` checks (kw_waveform_epi(),
+ * kw_waveform_spiral()), float32 (samples, 2) T/m, with a sidecar of its
+ * timing (a spiral's samples are held over a raster: "held" true). */
 static int waveform_write(const gen_opts *g, const kw_pattern_options *o)
 {
     size_t n = 0, na = 0;
-    kw_status st = kw_waveform_epi(o, 0, NULL, &n, NULL, &na);
+    const int spiral = o->kind == KW_PATTERN_SPIRAL;
+    kw_status st = spiral ? kw_waveform_spiral(o, 0, NULL, &n, NULL, &na) : kw_waveform_epi(o, 0, NULL, &n, NULL, &na);
     if (st)
         return pattern_fail(st, "waveform");
     double *gd = kw_alloc_n(2 * n, sizeof *gd);
     float *gf = kw_alloc_n(2 * n, sizeof *gf);
     kw_waveform_adc *adc = kw_alloc_n(na, sizeof *adc);
     char *sp = kw_sidecar_path(g->waveform);
-    st = gd && gf && adc && sp ? kw_waveform_epi(o, 0, gd, &n, adc, &na) : kw_set_error(KW_ENOMEM, "out of memory");
+    st = !gd || !gf || !adc || !sp ? kw_set_error(KW_ENOMEM, "out of memory")
+         : spiral ? kw_waveform_spiral(o, 0, gd, &n, adc, &na) : kw_waveform_epi(o, 0, gd, &n, adc, &na);
     for (size_t i = 0; !st && i < 2 * n; i++)
         gf[i] = (float)gd[i];
     kw_array a = {.dtype = KW_F32, .ndim = 2, .dims = {n, 2}, .data = gf};
@@ -311,7 +314,9 @@ static int waveform_write(const gen_opts *g, const kw_pattern_options *o)
         cJSON *j = cJSON_CreateObject(), *arr = cJSON_AddArrayToObject(j, "adc");
         cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
         cJSON_AddStringToObject(j, "kind", "waveform");
-        cJSON_AddStringToObject(j, "source", "kweave pattern --kind epi, shot 0");
+        cJSON_AddStringToObject(j, "source", spiral ? "kweave pattern --kind spiral, interleaf 0"
+                                                    : "kweave pattern --kind epi, shot 0");
+        cJSON_AddBoolToObject(j, "held", spiral);
         cJSON_AddStringToObject(j, "units", "T/m");
         kw_json_add_number_or_null(j, "raster_s", o->raster);
         kw_json_add_number_or_null(j, "rf_centre_s", 0);
@@ -425,8 +430,8 @@ static int run_generate(const gen_opts *g)
         return kw_cli_fail("density", "only for Cartesian masks");
     if (mask && g->times)
         return kw_cli_fail("times", "a Cartesian mask has no sample times");
-    if (g->waveform && o.kind != KW_PATTERN_EPI)
-        return kw_cli_fail("waveform", "only --kind epi in this version");
+    if (g->waveform && o.kind != KW_PATTERN_EPI && o.kind != KW_PATTERN_SPIRAL)
+        return kw_cli_fail("waveform", "only --kind epi or spiral in this version");
     return mask ? gen_mask(g, &o) : gen_traj(g, &o);
 }
 
@@ -479,7 +484,7 @@ int kw_cmd_pattern(int argc, char **argv)
         {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar (default: not written)"},
         {"times", KW_OPT_STRING, &g.times, KW_UNIT_NONE, NULL, "sample times file (default OUT_times.npy)"},
         {"waveform", KW_OPT_STRING, &g.waveform, KW_UNIT_NONE, NULL,
-         "epi: write shot 0's gradient waveform (.npy (samples, 2) T/m) + timing sidecar for `kweave waveform` (default: not written)"},
+         "epi/spiral: write shot/interleaf 0's gradient waveform (.npy (samples, 2) T/m) + timing sidecar for `kweave waveform` (default: not written)"},
         {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy; default: not written)"},
         {"png", KW_OPT_STRING, &g.png, KW_UNIT_NONE, NULL, "picture of the pattern (or of --compare; default: not written)"},
         {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON (- for stdout, in place of the text; default: not written)"},

@@ -45,14 +45,14 @@ typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
     const char *delay, *lowpass, *eddy, *traj_actual, *estimate;
     double raster, rf, te, tr, gmax, slew, radius;
-    int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector;
+    int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector, held;
 } wf_args;
 
 static const kw_cli_param PARAM_MAP[] = {
     {"waveform", "in"},     {"axes", "in"},   {"samples", "in"},   {"raster_s", "raster"},
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
     {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
-    {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"},
+    {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"}, {"held", "held"},
     {NULL, NULL},
 };
 
@@ -92,6 +92,8 @@ static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
             *dst[k] = v[k];
             *seen[k] = 1;
         }
+    if (t.held >= 0 && !a->held)
+        a->held = t.held;
     if (t.adc && !a->adc) {
         *adc = calloc(t.nadc ? t.nadc : 1, sizeof **adc);
         if (!*adc) {
@@ -353,7 +355,7 @@ static int in_violation(const kw_waveform_violation *v, size_t nv, kw_waveform_l
 /* The curve of one panel: G (kind 0, mT/m) or slew (kind 1, T/m/s, a step
  * per interval), black, red where it breaks the limit. */
 static void panel_curve(cairo_t *cr, const panel *p, const double *g, size_t n, int axes, int axis,
-                        int kind, double h, const kw_waveform_violation *v, size_t nv)
+                        int kind, double h, const kw_waveform_violation *v, size_t nv, int held)
 {
     cairo_set_line_width(cr, 1.2);
     for (int pass = 0; pass < 2; pass++) {
@@ -366,9 +368,11 @@ static void panel_curve(cairo_t *cr, const panel *p, const double *g, size_t n, 
             if (bad != pass)
                 continue;
             double t0 = (double)i * h * 1e3, t1 = (double)(i + 1) * h * 1e3;
-            if (kind == 0) {
+            if (kind == 0) { /* held: a over the interval, then the step to b */
                 cairo_move_to(cr, px_t(p, t0), px_v(p, a * 1e3));
-                cairo_line_to(cr, px_t(p, t1), px_v(p, b * 1e3));
+                cairo_line_to(cr, px_t(p, t1), px_v(p, (held ? a : b) * 1e3));
+                if (held)
+                    cairo_line_to(cr, px_t(p, t1), px_v(p, b * 1e3));
             } else {
                 double s = (b - a) / h, prev = s;
                 if (i > 0)
@@ -456,7 +460,7 @@ static kw_status write_png(const char *path, const double *g, size_t n, int axes
         snprintf(label, sizeof label, kind == 0 ? "G%s (mT/m)" : "slew %s (T/m/s)", an[axis]);
         panel_marks(cr, &p, o);
         panel_frame(cr, &p, lim, label);
-        panel_curve(cr, &p, g, n, axes, axis, kind, s->raster_s, v, nv);
+        panel_curve(cr, &p, g, n, axes, axis, kind, s->raster_s, v, nv, o->held);
         if (ga && kind == 0)
             panel_actual(cr, &p, ga, n, axes, axis, s->raster_s);
         ybottom = p.y0 + PH;
@@ -695,6 +699,7 @@ static int run(wf_args *a)
     o.gmax = a->gmax;
     o.slew = a->slew;
     o.limit_vector = a->limit_vector;
+    o.held = a->held;
     o.pns_radius_m = a->radius;
     o.adc = adc;
     o.nadc = nadc;
@@ -758,6 +763,7 @@ int kw_cmd_waveform(int argc, char **argv)
         {"gmax", KW_OPT_UNIT, &a.gmax, KW_UNIT_GRADIENT, NULL, "amplitude limit per axis (default " KWD_GMAX_TEXT ")"},
         {"slew", KW_OPT_UNIT, &a.slew, KW_UNIT_SLEW, NULL, "slew-rate limit per axis (default " KWD_SLEW_TEXT ")"},
         {"limit-vector", KW_OPT_FLAG, &a.limit_vector, 0, NULL, "hold the vector sums against the limits too (default: per axis)"},
+        {"held", KW_OPT_FLAG, &a.held, 0, NULL, "each sample held over one raster (default: linear between samples)"},
         {"fov", KW_OPT_STRING, &a.fov, KW_UNIT_LENGTH, NULL, "field of view L[,LY[,LZ]] of the trajectory's cycles/FOV (default " KWD_FOV_TEXT ")"},
         {"pns-radius", KW_OPT_UNIT, &a.radius, KW_UNIT_LENGTH, NULL,
          "distance from the isocentre for dB/dt (default 0.2m, IEC 60601-2-33 whole-body, from memory)"},

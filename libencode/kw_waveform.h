@@ -127,6 +127,11 @@ typedef struct kw_waveform_options {
     double delay_s[3];
     double response_tau_s[3];
     double response_amp[3];
+    /* 1: sample i is held over [t_i, t_i+1) (the planner's spiral,
+     * kw_gradient.h; the waveform spans samples x raster); 0: linear
+     * between samples (default). The actual-gradient calls refuse held
+     * waveforms in this version (KW_ENOTSUP naming "held"). */
+    int held;
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
@@ -297,6 +302,7 @@ typedef struct kw_waveform_timing {
     double raster_s, rf_centre_s, te_s, tr_s;
     kw_waveform_adc *adc; /* kw_alloc'd, free with kw_free(); NULL: no "adc" */
     size_t nadc;
+    int held;             /* -1: no "held" key; else its value (true 1) */
 } kw_waveform_timing;
 
 /*! kw_waveform_timing_parse(): read a JSON object's keys raster_s,
@@ -335,10 +341,22 @@ KW_API kw_status kw_waveform_adc_parse(const char *text, double raster_s, kw_wav
  * numbers are read; kw_waveform_create() refuses them. */
 KW_API kw_status kw_waveform_table_parse(const char *text, double **g, size_t *samples, int *axes);
 
+/*! kw_waveform_spiral(): interleaf `interleaf` (0-based) of the spiral
+ * kw_pattern_create(o) makes (kind KW_PATTERN_SPIRAL; the planner's
+ * design, kw_gradient.h) as a waveform (samples, 2) T/m, x and y, each
+ * value held over one raster interval (options' held = 1), the RF centre
+ * and the readout's start at t = 0, one ADC window of the design's samples
+ * and dwell from t = 0. Imported with kw_waveform_create() (held 1,
+ * rf_centre_s 0), its trajectory is the pattern's rows of that interleaf.
+ * Sizes and errors as kw_waveform_epi() ("interleaf" outside
+ * 0..interleaves-1). */
+KW_API kw_status kw_waveform_spiral(const kw_pattern_options *o, int interleaf, double *g, size_t *samples,
+                                    kw_waveform_adc *adc, size_t *nadc);
+
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),
  * samples, axes, raster_s, span_s, tr_s, rf_centre_s, te_s (null when
- * none), gmax_T_per_m, slew_T_per_m_per_s, limit_vector, peak_G_T_per_m
+ * none), gmax_T_per_m, slew_T_per_m_per_s, limit_vector, held, peak_G_T_per_m
  * (per axis), peak_G_sample, peak_G_vector_T_per_m, peak_G_vector_sample,
  * peak_slew_T_per_m_per_s, peak_slew_interval, peak_slew_vector_T_per_m_per_s,
  * peak_slew_vector_interval, rms_G_T_per_m, rms_G_vector_T_per_m,

@@ -39,6 +39,8 @@ static double g_at(const struct kw_waveform *w, int axis, size_t i, double tau)
 {
     const double h = w->o.raster_s;
     const double ga = w->g[i * (size_t)w->axes + (size_t)axis];
+    if (w->o.held)
+        return ga;
     const double gb = w->g[(i + 1) * (size_t)w->axes + (size_t)axis];
     return ga + (gb - ga) * (tau - (double)i * h) / h;
 }
@@ -59,20 +61,26 @@ static double seg(const struct kw_waveform *w, int axis, int m, size_t i, double
     return (tb - ta) / 6.0 * (ga * upow(ua, m) + 2.0 * (ga + gb) * upow(um, m) + gb * upow(ub, m));
 }
 
-/* the interval holding tau (clamped to 0..n-2) */
+/* intervals: n - 1 between linear samples, n held ones */
+static size_t intervals(const struct kw_waveform *w)
+{
+    return w->o.held ? w->n : w->n - 1;
+}
+
+/* the interval holding tau (clamped to the first and last) */
 static size_t interval_of(const struct kw_waveform *w, double tau)
 {
     double f = floor(tau / w->o.raster_s);
     if (!(f > 0))
         return 0;
-    if (f >= (double)(w->n - 1))
-        return w->n - 2;
+    if (f >= (double)intervals(w))
+        return intervals(w) - 1;
     return (size_t)f;
 }
 
 static double *cum_of(const struct kw_waveform *w, int m, int axis)
 {
-    return w->cum + ((size_t)m * (size_t)w->axes + (size_t)axis) * w->n;
+    return w->cum + ((size_t)m * (size_t)w->axes + (size_t)axis) * (w->n + 1);
 }
 
 /* cum[m][axis][i] = M_m from the RF centre to sample i (negative before it). */
@@ -85,7 +93,7 @@ static void build_cumulative(struct kw_waveform *w)
             double *c = cum_of(w, m, a);
             c[r] = -seg(w, a, m, r, (double)r * h, trf);
             c[r + 1] = seg(w, a, m, r, trf, (double)(r + 1) * h);
-            for (size_t i = r + 1; i + 1 < w->n; i++)
+            for (size_t i = r + 1; i < intervals(w); i++)
                 c[i + 1] = c[i] + seg(w, a, m, i, (double)i * h, (double)(i + 1) * h);
             for (size_t i = r; i > 0; i--)
                 c[i - 1] = c[i] - seg(w, a, m, i - 1, (double)(i - 1) * h, (double)i * h);
@@ -166,7 +174,7 @@ static kw_status check_options(const kw_waveform_options *o, size_t n)
 {
     KW_FAIL_PARAM(!(o->raster_s > 0) || !isfinite(o->raster_s) || o->raster_s > 1.0, KW_ERANGE,
                   "raster_s", "%g s; must lie in (0, 1] s", o->raster_s);
-    const double span = (double)(n - 1) * o->raster_s;
+    const double span = (double)(o->held ? n : n - 1) * o->raster_s;
     KW_FAIL_PARAM(isnan(o->rf_centre_s), KW_EINVAL, "rf_centre_s", "not given: the moments and k-space "
                   "are counted from the RF centre");
     KW_FAIL_PARAM(!isfinite(o->rf_centre_s) || o->rf_centre_s < 0 || o->rf_centre_s > span, KW_ERANGE,
@@ -213,7 +221,7 @@ static kw_status fill(struct kw_waveform *w, const double *g)
 {
     const size_t na = (size_t)w->axes;
     w->g = kw_alloc_n(w->n * na, sizeof *w->g);
-    w->cum = kw_alloc_n(3 * na * w->n, sizeof *w->cum);
+    w->cum = kw_alloc_n(3 * na * (w->n + 1), sizeof *w->cum);
     KW_FAIL_IF(!w->g || !w->cum, KW_ENOMEM, "waveform: out of memory for %zu samples", w->n);
     memcpy(w->g, g, w->n * na * sizeof *g);
     if (w->o.nadc) {
@@ -228,7 +236,7 @@ static kw_status fill(struct kw_waveform *w, const double *g)
     s->samples = w->n;
     s->axes = w->axes;
     s->raster_s = w->o.raster_s;
-    s->span_s = (double)(w->n - 1) * w->o.raster_s;
+    s->span_s = (double)intervals(w) * w->o.raster_s;
     s->tr_s = w->o.tr_s > 0 ? w->o.tr_s : s->span_s;
     s->gamma_bar = KW_GAMMA_BAR_P;
     for (size_t i = 0; i < w->o.nadc; i++) {

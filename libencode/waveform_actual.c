@@ -11,6 +11,8 @@
 kw_status kw_waveform_actual_check(const kw_waveform_options *o, double span)
 {
     for (int a = 0; a < 3; a++) {
+        KW_FAIL_PARAM(o->held && (o->delay_s[a] != 0 || o->response_amp[a] != 0), KW_ENOTSUP, "held",
+                      "the actual gradient of a waveform of held samples is not supported in this version");
         KW_FAIL_PARAM(!isfinite(o->delay_s[a]) || fabs(o->delay_s[a]) > span, KW_ERANGE, "delay_s",
                       "axis %d: %g s; at most the waveform's span (%g s) either way", a, o->delay_s[a],
                       span);
@@ -132,6 +134,7 @@ int kw_waveform_has_imperfection(const kw_waveform *w)
 kw_status kw_waveform_actual(const kw_waveform *w, double *g)
 {
     KW_FAIL_PARAM(!w || !g, KW_EINVAL, "waveform", "NULL argument");
+    KW_FAIL_PARAM(w->o.held, KW_ENOTSUP, "held", "not supported for a waveform of held samples");
     const double h = w->o.raster_s;
     for (size_t i = 0; i < w->n; i++)
         for (int a = 0; a < w->axes; a++) {
@@ -155,6 +158,7 @@ static double actual_integral(const struct kw_waveform *w, int a, double t)
 kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, float *t)
 {
     KW_FAIL_PARAM(!w || !k, KW_EINVAL, "waveform", "NULL argument");
+    KW_FAIL_PARAM(w->o.held, KW_ENOTSUP, "held", "not supported for a waveform of held samples");
     KW_FAIL_PARAM(!w->o.nadc, KW_EINVAL, "adc", "no ADC window: no samples to place in k-space");
     double ref[3] = {0, 0, 0};
     for (int a = 0; a < w->axes; a++)

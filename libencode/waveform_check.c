@@ -65,7 +65,8 @@ static void peaks(struct kw_waveform *w)
 }
 
 /* RMS gradient over the repetition: the integral of G^2 over each interval
- * of the piecewise-linear waveform is h/3 (a^2 + ab + b^2), exactly. */
+ * of the piecewise-linear waveform is h/3 (a^2 + ab + b^2), exactly (h a^2
+ * for a held value). */
 static void rms(struct kw_waveform *w)
 {
     kw_waveform_summary *s = &w->sum;
@@ -73,9 +74,14 @@ static void rms(struct kw_waveform *w)
     double total = 0;
     for (size_t a = 0; a < na; a++) {
         double acc = 0;
-        for (size_t i = 0; i + 1 < w->n; i++) {
-            double ga = w->g[i * na + a], gb = w->g[(i + 1) * na + a];
-            acc += ga * ga + ga * gb + gb * gb;
+        if (w->o.held) { /* each value held over one raster */
+            for (size_t i = 0; i < w->n; i++)
+                acc += 3.0 * w->g[i * na + a] * w->g[i * na + a];
+        } else {
+            for (size_t i = 0; i + 1 < w->n; i++) {
+                double ga = w->g[i * na + a], gb = w->g[(i + 1) * na + a];
+                acc += ga * ga + ga * gb + gb * gb;
+            }
         }
         acc *= w->o.raster_s / 3.0;
         total += acc;

@@ -119,3 +119,43 @@ kw_status kw_waveform_epi(const kw_pattern_options *o, int shot, double *g, size
     kw_free(buf);
     return st;
 }
+
+kw_status kw_waveform_spiral(const kw_pattern_options *o, int interleaf, double *g, size_t *samples,
+                             kw_waveform_adc *adc, size_t *nadc)
+{
+    KW_FAIL_PARAM(!o || !samples || !nadc, KW_EINVAL, "options", "NULL argument");
+    kw_pattern *p = NULL;
+    kw_status st = kw_pattern_create(&p, o);
+    if (st)
+        return st;
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    const int spiral = in->kind == KW_PATTERN_SPIRAL, il = in->interleaves;
+    kw_spiral_spec sp = {in->fov_m, (int)(o->dims[o->ndim - 1]), il, in->dwell_s};
+    kw_gradient_limits lim = {in->gmax, in->slew, in->raster};
+    kw_pattern_destroy(p);
+    KW_FAIL_PARAM(!spiral, KW_EINVAL, "kind", "only the spiral kind here");
+    KW_FAIL_PARAM(interleaf < 0 || interleaf >= il, KW_ERANGE, "interleaf", "%d outside 0..%d", interleaf, il - 1);
+    kw_spiral_info si;
+    if ((st = kw_spiral_size(&sp, &lim, &si)))
+        return st;
+    const size_t n = si.readout_points + si.rampdown_points, cap = *samples, acap = *nadc;
+    *samples = n;
+    *nadc = 1;
+    if (!g)
+        return KW_OK;
+    KW_FAIL_PARAM(cap < n || acap < 1 || !adc, KW_ERANGE, "samples", "room for %zu samples and 1 window needed", n);
+    double *gx = kw_alloc_n(2 * n, sizeof *gx), *gy = gx ? gx + n : NULL;
+    KW_FAIL_IF(!gx, KW_ENOMEM, "spiral waveform: out of memory");
+    st = kw_spiral_design(&sp, &lim, NULL, gx, gy, NULL, NULL);
+    /* interleaf i is interleaf 0 turned by 2 pi i / interleaves (kw_gradient.h) */
+    const double phi = 2 * KW_PI * interleaf / il, c = cos(phi), s = sin(phi);
+    for (size_t i = 0; !st && i < n; i++) {
+        g[2 * i] = c * gx[i] - s * gy[i];
+        g[2 * i + 1] = s * gx[i] + c * gy[i];
+    }
+    kw_free(gx);
+    adc[0].start_s = 0;
+    adc[0].dwell_s = sp.dwell_s;
+    adc[0].samples = si.samples;
+    return st;
+}

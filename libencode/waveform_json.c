@@ -160,6 +160,7 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
         add_num(j, "gmax_T_per_m", o->gmax);
         add_num(j, "slew_T_per_m_per_s", o->slew);
         cJSON_AddBoolToObject(j, "limit_vector", o->limit_vector != 0);
+        cJSON_AddBoolToObject(j, "held", o->held != 0);
         add_peaks(j, s, o);
         cJSON_AddBoolToObject(j, "starts_at_zero", s->starts_at_zero);
         cJSON_AddBoolToObject(j, "ends_at_zero", s->ends_at_zero);
@@ -237,6 +238,12 @@ static kw_status timing_read(const cJSON *j, double raster_s, kw_waveform_timing
     if ((st = timing_number(j, "raster_s", &t->raster_s)) || (st = timing_number(j, "rf_centre_s", &t->rf_centre_s)) ||
         (st = timing_number(j, "te_s", &t->te_s)) || (st = timing_number(j, "tr_s", &t->tr_s)))
         return st;
+    const cJSON *hd = cJSON_GetObjectItemCaseSensitive(j, "held");
+    t->held = -1;
+    if (hd && !cJSON_IsNull(hd)) {
+        KW_FAIL_PARAM(!cJSON_IsBool(hd), KW_EFORMAT, "held", "expected true or false");
+        t->held = cJSON_IsTrue(hd);
+    }
     const cJSON *arr = cJSON_GetObjectItemCaseSensitive(j, "adc");
     if (!arr || cJSON_IsNull(arr))
         return KW_OK;

@@ -632,3 +632,85 @@ Test(waveform, text_inputs)
     cr_expect_eq(kw_waveform_adc_parse("1.2:256:4us", H, &adc, &n), KW_EINVAL); /* no unit, not whole */
     cr_expect_eq(kw_waveform_adc_parse("1ms:0:4us", H, &adc, &n), KW_EINVAL);
 }
+
+/* Held samples (the planner's spiral convention, kw_gradient.h): a value A
+ * held over m rasters from t0 is a rectangle: M0 = A m h, M1 = M0 (t0 +
+ * m h / 2) (area x centroid, Bernstein et al. 2004, sec. 9.1); RMS over
+ * the span n h: |A| sqrt(m / n). */
+Test(waveform, held_samples_are_rectangles)
+{
+    const size_t n = 50, s0 = 10, m = 7;
+    double g[50] = {0};
+    for (size_t i = s0; i < s0 + m; i++)
+        g[i] = 12e-3;
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 2 * H;
+    o.held = 1;
+    kw_waveform *w = make(g, n, 1, &o);
+    kw_waveform_moments mo;
+    const double t0 = (double)(s0 - 2) * H, M0 = 12e-3 * (double)m * H;
+    cr_assert_eq(kw_waveform_moments_at(w, (double)(n - 2) * H, &mo), KW_OK, "%s", kw_last_error());
+    REL(mo.m0[0], M0, 1e-12);
+    REL(mo.m1[0], M0 * (t0 + (double)m * H / 2), 1e-12);
+    REL(kw_waveform_summary_of(w)->span_s, (double)n * H, 1e-12);
+    REL(kw_waveform_summary_of(w)->rms_g[0], 12e-3 * sqrt((double)m / (double)n), 1e-12);
+    /* halfway through the third held value: 2.5 rasters */
+    cr_assert_eq(kw_waveform_moments_at(w, t0 + 2.5 * H, &mo), KW_OK);
+    REL(mo.m0[0], 12e-3 * 2.5 * H, 1e-12);
+    float k[1];
+    cr_expect_eq(kw_waveform_actual(w, g), KW_ENOTSUP);
+    cr_expect_eq(kw_waveform_trajectory_actual(w, k, NULL), KW_ENOTSUP);
+    kw_waveform_destroy(w);
+    o.delay_s[0] = 1e-6;
+    expect_refused(g, n, 1, &o, KW_ENOTSUP, "held");
+}
+
+/* kweave's own spiral written as a waveform (held samples) and imported
+ * back: its k-space at the ADC samples is the pattern's trajectory of that
+ * interleaf (within float rounding; the pattern moves samples landing on
+ * +N/2 inside by one float step). */
+Test(waveform, spiral_design_imported_back_is_the_pattern)
+{
+    kw_pattern_options po;
+    kw_pattern_options_init(&po);
+    po.kind = KW_PATTERN_SPIRAL;
+    po.ndim = 2;
+    po.dims[0] = po.dims[1] = 32;
+    po.dwell_s = 10e-6;
+    po.interleaves = 4;
+    kw_pattern *p = NULL;
+    cr_assert_eq(kw_pattern_create(&p, &po), KW_OK, "%s", kw_last_error());
+    const kw_pattern_info *in = kw_pattern_info_of(p);
+    const size_t per = in->readout_samples;
+    for (int il = 0; il < 4; il += 3) {
+        size_t n = 0, na = 0;
+        cr_assert_eq(kw_waveform_spiral(&po, il, NULL, &n, NULL, &na), KW_OK, "%s", kw_last_error());
+        double *g = calloc(2 * n, sizeof *g);
+        kw_waveform_adc adc;
+        cr_assert_eq(kw_waveform_spiral(&po, il, g, &n, &adc, &na), KW_OK, "%s", kw_last_error());
+        cr_assert_eq(adc.samples, per);
+        kw_waveform_options o;
+        kw_waveform_options_init(&o);
+        o.rf_centre_s = 0;
+        o.held = 1;
+        o.adc = &adc;
+        o.nadc = 1;
+        kw_waveform *w = make(g, n, 2, &o);
+        float *k = malloc(per * 2 * sizeof *k), *t = malloc(per * sizeof *t);
+        cr_assert_eq(kw_waveform_trajectory(w, k, t), KW_OK);
+        const float *kp = kw_pattern_trajectory(p) + (size_t)il * per * 2, *tp = kw_pattern_times(p);
+        double worst = 0;
+        for (size_t i = 0; i < 2 * per; i++)
+            worst = fmax(worst, fabs((double)k[i] - (double)kp[i]));
+        cr_expect(worst < 1e-4, "interleaf %d: |k - k_pattern| up to %g cycles/FOV", il, worst);
+        for (size_t i = 0; i < per; i++)
+            cr_expect(fabsf(t[i] - tp[i]) < 1e-9f, "t[%zu]", i);
+        cr_expect(kw_waveform_summary_of(w)->violations == 0);
+        free(k);
+        free(t);
+        free(g);
+        kw_waveform_destroy(w);
+    }
+    kw_pattern_destroy(p);
+}

@@ -296,9 +296,25 @@ def test_epi_waveform_imported_back_is_the_pattern(tmp_path, shots):
     assert json.load(open(tmp_path / "r.json"))["within_limits"] is True
 
 
-def test_pattern_waveform_only_for_epi(tmp_path):
+def test_spiral_waveform_imported_back_is_the_pattern(tmp_path):
+    """The same for the spiral (interleaf 0; its design holds each value
+    over a raster, the sidecar says "held": true)."""
+    run("pattern", "--kind", "spiral", "--matrix", "32x32", "--dwell", "10us", "--interleaves", "4",
+        "--out", tmp_path / "sp.npy", "--waveform", tmp_path / "g.npy")
+    assert json.load(open(tmp_path / "g.json"))["held"] is True
+    run("waveform", "--in", tmp_path / "g.npy", "--trajectory", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    kp, k = np.load(tmp_path / "sp.npy"), np.load(tmp_path / "k.npy")
+    assert 4 * k.shape[0] == kp.shape[0]
+    assert np.abs(k - kp[:k.shape[0]]).max() < 1e-4, np.abs(k - kp[:k.shape[0]]).max()
+    rep = json.load(open(tmp_path / "r.json"))
+    assert rep["held"] is True and rep["within_limits"] is True
+
+
+def test_pattern_waveform_only_for_epi_and_spiral(tmp_path):
     refused("pattern", "--kind", "radial", "--matrix", "32x32", "--waveform", tmp_path / "g.npy", opt="waveform")
     assert not (tmp_path / "g.npy").exists()
+    np.save(tmp_path / "h.npy", trap(60, 5, 10, 10, 10e-3)[:, None])
+    refused("waveform", "--in", tmp_path / "h.npy", "--rf-centre", "0s", "--held", "--delay", "2us", opt="held")
 
 
 def test_delay_estimated_from_simulated_radial_data(tmp_path):
