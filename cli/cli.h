@@ -133,5 +133,6 @@ int kw_cmd_render(int argc, char **argv);
 int kw_cmd_demo(int argc, char **argv);
 int kw_cmd_sweep(int argc, char **argv);
 int kw_cmd_preview(int argc, char **argv);
+int kw_cmd_waveform(int argc, char **argv);
 
 #endif

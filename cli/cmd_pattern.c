@@ -13,7 +13,9 @@
 
 #include "cli.h"
 #include "defaults.h"
+#include "jsonio.h"
 #include "kw_pattern.h"
+#include "kw_waveform.h"
 #include "npy.h"
 #include "outfile.h"
 #include "pattern_cli.h"
@@ -33,7 +35,7 @@ static const char *USAGE =
 
 typedef struct gen_opts {
     const char *kind, *matrix, *accel, *acs, *out, *png, *json, *psf, *analyse, *density;
-    const char *times;
+    const char *times, *waveform;
     const char *fraction, *power, *dwell, *te, *fov, *gmax, *slew, *raster;
     const char *shift, *spokes, *seed, *tiny, *interleaves, *shots, *ros;
     long psf_size;
@@ -286,6 +288,56 @@ static int traj_report(const gen_opts *g, const kw_pattern_options *o, const kw_
     return rc;
 }
 
+/* --waveform: shot 0 of an EPI train or interleaf 0 of a spiral as the
+ * gradient waveform `kweave waveform` checks (kw_waveform_epi(),
+ * kw_waveform_spiral()), float32 (samples, 2) T/m, with a sidecar of its
+ * timing (a spiral's samples are held over a raster: "held" true). */
+static int waveform_write(const gen_opts *g, const kw_pattern_options *o)
+{
+    size_t n = 0, na = 0;
+    const int spiral = o->kind == KW_PATTERN_SPIRAL;
+    kw_status st = spiral ? kw_waveform_spiral(o, 0, NULL, &n, NULL, &na) : kw_waveform_epi(o, 0, NULL, &n, NULL, &na);
+    if (st)
+        return pattern_fail(st, "waveform");
+    double *gd = kw_alloc_n(2 * n, sizeof *gd);
+    float *gf = kw_alloc_n(2 * n, sizeof *gf);
+    kw_waveform_adc *adc = kw_alloc_n(na, sizeof *adc);
+    char *sp = kw_sidecar_path(g->waveform);
+    st = !gd || !gf || !adc || !sp ? kw_set_error(KW_ENOMEM, "out of memory")
+         : spiral ? kw_waveform_spiral(o, 0, gd, &n, adc, &na) : kw_waveform_epi(o, 0, gd, &n, adc, &na);
+    for (size_t i = 0; !st && i < 2 * n; i++)
+        gf[i] = (float)gd[i];
+    kw_array a = {.dtype = KW_F32, .ndim = 2, .dims = {n, 2}, .data = gf};
+    if (!st)
+        st = kw_npy_write(g->waveform, &a);
+    if (!st) {
+        cJSON *j = cJSON_CreateObject(), *arr = cJSON_AddArrayToObject(j, "adc");
+        cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+        cJSON_AddStringToObject(j, "kind", "waveform");
+        cJSON_AddStringToObject(j, "source", spiral ? "kweave pattern --kind spiral, interleaf 0"
+                                                    : "kweave pattern --kind epi, shot 0");
+        cJSON_AddBoolToObject(j, "held", spiral);
+        cJSON_AddStringToObject(j, "units", "T/m");
+        kw_json_add_number_or_null(j, "raster_s", o->raster);
+        kw_json_add_number_or_null(j, "rf_centre_s", 0);
+        for (size_t i = 0; arr && i < na; i++) {
+            cJSON *w = cJSON_CreateObject();
+            kw_json_add_number_or_null(w, "start_s", adc[i].start_s);
+            kw_json_add_number_or_null(w, "samples", (double)adc[i].samples);
+            kw_json_add_number_or_null(w, "dwell_s", adc[i].dwell_s);
+            cJSON_AddItemToArray(arr, w);
+        }
+        cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
+        st = kw_json_write(sp, j);
+        cJSON_Delete(j);
+    }
+    kw_free(gd);
+    kw_free(gf);
+    kw_free(adc);
+    free(sp);
+    return st ? kw_cli_status(st, "waveform") : -1;
+}
+
 static int gen_traj(const gen_opts *g, kw_pattern_options *o)
 {
     int rc;
@@ -295,6 +347,8 @@ static int gen_traj(const gen_opts *g, kw_pattern_options *o)
     if (st)
         return pattern_fail(st, grad ? g->kind : "trajectory");
     rc = traj_write(g, p);
+    if (rc < 0 && g->waveform)
+        rc = waveform_write(g, o);
     if (rc < 0)
         rc = traj_report(g, o, p);
     kw_pattern_destroy(p);
@@ -376,6 +430,8 @@ static int run_generate(const gen_opts *g)
         return kw_cli_fail("density", "only for Cartesian masks");
     if (mask && g->times)
         return kw_cli_fail("times", "a Cartesian mask has no sample times");
+    if (g->waveform && o.kind != KW_PATTERN_EPI && o.kind != KW_PATTERN_SPIRAL)
+        return kw_cli_fail("waveform", "only --kind epi or spiral in this version");
     return mask ? gen_mask(g, &o) : gen_traj(g, &o);
 }
 
@@ -427,6 +483,8 @@ int kw_cmd_pattern(int argc, char **argv)
         {"seed", KW_OPT_STRING, &g.seed, KW_UNIT_NONE, &g.seen_seed, "random seed (default 0)"},
         {"out", KW_OPT_STRING, &g.out, KW_UNIT_NONE, NULL, "write the mask / trajectory (.npy) + sidecar (default: not written)"},
         {"times", KW_OPT_STRING, &g.times, KW_UNIT_NONE, NULL, "sample times file (default OUT_times.npy)"},
+        {"waveform", KW_OPT_STRING, &g.waveform, KW_UNIT_NONE, NULL,
+         "epi/spiral: write shot/interleaf 0's gradient waveform (.npy (samples, 2) T/m) + timing sidecar for `kweave waveform` (default: not written)"},
         {"density", KW_OPT_STRING, &g.density, KW_UNIT_NONE, NULL, "write the sampling probability (.npy; default: not written)"},
         {"png", KW_OPT_STRING, &g.png, KW_UNIT_NONE, NULL, "picture of the pattern (or of --compare; default: not written)"},
         {"json", KW_OPT_STRING, &g.json, KW_UNIT_NONE, NULL, "analysis as JSON (- for stdout, in place of the text; default: not written)"},

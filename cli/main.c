@@ -23,6 +23,7 @@ static const verb verbs[] = {
     {"recon", kw_cmd_recon, "k-space -> image, by the method asked for or the right default", 0},
     {"score", kw_cmd_score, "compare an image with a reference: NRMSE, PSNR, SSIM", 0},
     {"preview", kw_cmd_preview, "protocol -> simulated image: the planner's fat shift and distortion checked on it", 0},
+    {"waveform", kw_cmd_waveform, "check a gradient waveform of your own: limits, moments, k-space, dB/dt estimate", 0},
     {"render", kw_cmd_render, "any .npy -> PNG (magnitude, phase, montage, window)", 0},
     {"sweep", kw_cmd_sweep, "run a grid of undersampling experiments from a JSON spec (local or MPI)", 1},
     {"demo", kw_cmd_demo, "the whole chain on the built-in scenario, into one folder", 1},

@@ -1,0 +1,41 @@
+/* waveform_int.h: the inside of kw_waveform (kw_waveform.h), shared by
+ * waveform.c (checks, moments, trajectory), waveform_check.c (limits,
+ * duty, ramps) and waveform_json.c (the report). Not installed. */
+#ifndef KW_WAVEFORM_INT_H
+#define KW_WAVEFORM_INT_H
+
+#include "kw_waveform.h"
+
+/* Relative margin within which a value counts as at a limit: the rounding
+ * of a float32 file (6e-8 relative on G; a slew is a difference of two
+ * such samples). */
+#define WF_LIMIT_MARGIN 1e-5
+
+struct kw_waveform {
+    kw_waveform_options o; /* o.adc points at `adc` below */
+    kw_waveform_adc *adc;
+    double *g;   /* (n, axes) */
+    size_t n;
+    int axes;
+    double *cum; /* (3, axes, n): M_m from the RF centre to sample i */
+    kw_waveform_summary sum;
+    kw_waveform_violation *viol;
+    size_t nviol;
+    kw_waveform_ramp *ramps;
+    size_t nramps;
+    kw_waveform_moments *adcm;
+    double *lp;  /* (2, axes, n): the response y at sample i and its
+                  * integral from the start to sample i (NULL: no term) */
+    double *f0;  /* (axes, n): integral of G from the start to sample i */
+};
+
+/* waveform_check.c: peaks, RMS, violations and ramps into w (allocates
+ * w->viol and w->ramps). */
+kw_status kw_waveform_check_limits(struct kw_waveform *w);
+
+/* waveform_actual.c: the checks of the imperfection fields (naming them)
+ * and the tables of the actual gradient (allocates w->lp, w->f0). */
+kw_status kw_waveform_actual_check(const kw_waveform_options *o, double span);
+kw_status kw_waveform_actual_prepare(struct kw_waveform *w);
+
+#endif
