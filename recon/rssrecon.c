@@ -171,34 +171,44 @@ static void finish_seq(kw_rssrecon *r, const float *t, const float *p,
     }
 }
 
+/* The last coil of a group: t = p + |s|^2 (first group) or t += p + |s|^2,
+ * p (the group's other coils) NULL when the group has one coil. */
+static void fold_group(float *restrict t, const float *restrict p, const float complex *s_,
+                       size_t n, int first)
+{
+    const float *restrict s = (const float *)s_;
+    if (!p) {
+        add_power(t, s_, n, first);
+    } else if (first) {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            t[i] = p[i] + (s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1]);
+    } else {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            t[i] += p[i] + (s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1]);
+    }
+}
+
 /* One thread of FFTW's (or threads inside FFTW's plan), coils in order: the
  * open group's sum p, the finished groups' sum t (t = ((a0 + a1) + a2) ...,
- * the order of the coil-parallel path); the last coil goes straight into
- * the image. */
+ * the order of the coil-parallel path); a group's last coil goes straight
+ * into t, and the last coil of all straight into the image. */
 static void execute_seq(kw_rssrecon *r, const float complex *ksp, float *img)
 {
     const size_t n = r->n;
-    float *t = r->acc, *p = r->acc + n, *tp = NULL;
+    float *t = r->acc, *p = r->acc + n;
     float complex *s = r->scratch;
     for (size_t g = 0; g < r->ngroups; g++) {
         size_t c0 = g * r->group, c1 = c0 + r->group < r->coils ? c0 + r->group : r->coils;
         for (size_t c = c0; c < c1; c++) {
             fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + c * n), (fftwf_complex *)s);
-            if (c + 1 == r->coils) {
-                finish_seq(r, tp, c == c0 ? NULL : p, s, img, r->nthreads);
-                return;
-            }
-            add_power(p, s, n, c == c0);
-        }
-        if (g == 0) { /* t = a0: swap the buffers */
-            float *x = t;
-            t = p;
-            p = x;
-            tp = t;
-        } else {
-#pragma omp simd
-            for (size_t i = 0; i < n; i++)
-                t[i] += p[i];
+            if (c + 1 == r->coils)
+                finish_seq(r, g ? t : NULL, c == c0 ? NULL : p, s, img, r->nthreads);
+            else if (c + 1 == c1)
+                fold_group(t, c == c0 ? NULL : p, s, n, g == 0);
+            else
+                add_power(p, s, n, c == c0);
         }
     }
 }
