@@ -68,6 +68,9 @@ $(BUILD)/libkweave.a: $(LIB_OBJ)
 # The library's objects hide every symbol that KW_API does not mark.
 $(LIB_OBJ): ALL_CFLAGS += -fvisibility=hidden
 $(BUILD)/obj/cli/h5.o: ALL_CFLAGS += $(H5_CFLAGS)
+# Square roots of sums of squares (never negative): no errno branch, so that
+# the loops vectorise (issue 22).
+$(BUILD)/obj/recon/rssrecon.o: ALL_CFLAGS += -fno-math-errno
 
 SOMAJOR := $(firstword $(subst ., ,$(VERSION)))
 $(BUILD)/libkweave.so: $(LIB_OBJ)

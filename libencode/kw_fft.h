@@ -14,7 +14,8 @@
  *
  * Threads: a plan is sized for the threads at create and never runs more:
  * FFTW's threads are fixed in the plan (kw_fft_setup()), and the centering
- * modulation runs at most the OpenMP threads of create (omp_get_max_threads()),
+ * modulation runs at most the OpenMP threads of create (omp_get_max_threads())
+ * and, once kw_fft_setup() has run, at most kw_fft_threads() of create,
  * whatever omp_set_num_threads() says later. The modulation is elementwise,
  * so the result depends on the FFTW plan only. Execute on one plan from one
  * thread at a time (odd sizes use the plan's scratch): one plan per thread

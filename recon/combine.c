@@ -8,6 +8,25 @@
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
+#ifdef _OPENMP
+#include <omp.h>
+#endif
+
+#include "kw_fft.h"
+
+/* The threads of a combination: OpenMP's, at most the library's setting
+ * once kw_fft_setup() has run (as the transforms before it). */
+static int combine_threads(void)
+{
+#ifdef _OPENMP
+    int nt = omp_get_max_threads();
+#else
+    int nt = 1;
+#endif
+    if (kw_fft_threads_ready() && kw_fft_threads() < nt)
+        nt = kw_fft_threads();
+    return nt < 1 ? 1 : nt;
+}
 
 kw_status kw_prewhiten_matrix(const float complex *cov, size_t nc, float complex *w)
 {
@@ -62,7 +81,8 @@ void kw_prewhiten_apply(const float complex *w, size_t nc, size_t npts,
     /* W is lower triangular: row i needs the inputs 0..i only, so the rows
      * are made from the last to the first in place (no copy of the point's
      * coils, hence nothing to allocate; the sums are those of the copy). */
-#pragma omp parallel for schedule(static)
+    const int nt = combine_threads();
+#pragma omp parallel for num_threads(nt) schedule(static)
     for (size_t p = 0; p < npts; p++) {
         for (size_t i = nc; i-- > 0;) {
             double complex s = 0;
@@ -75,7 +95,8 @@ void kw_prewhiten_apply(const float complex *w, size_t nc, size_t npts,
 
 void kw_combine_rss(const float complex *coil, size_t nc, size_t npix, float *out)
 {
-#pragma omp parallel for schedule(static)
+    const int nt = combine_threads();
+#pragma omp parallel for num_threads(nt) schedule(static)
     for (size_t p = 0; p < npix; p++) {
         double s = 0;
         for (size_t c = 0; c < nc; c++) {
@@ -89,7 +110,8 @@ void kw_combine_rss(const float complex *coil, size_t nc, size_t npix, float *ou
 void kw_combine_optimal(const float complex *coil, const float complex *sens,
                         size_t nc, size_t npix, float complex *out)
 {
-#pragma omp parallel for schedule(static)
+    const int nt = combine_threads();
+#pragma omp parallel for num_threads(nt) schedule(static)
     for (size_t p = 0; p < npix; p++) {
         double complex num = 0;
         double den = 0;
@@ -144,7 +166,8 @@ kw_status kw_combine_adaptive(const float complex *coil, size_t nc,
     size_t npix = dims[0] * dims[1] * dims[2];
     int rz = dims[0] > 1 ? radius : 0;
     kw_status st = KW_OK;
-#pragma omp parallel
+    const int nt = combine_threads();
+#pragma omp parallel num_threads(nt)
     {
         double complex *a = kw_alloc_n(nc * nc + 2 * nc, sizeof *a);
         if (!a) {

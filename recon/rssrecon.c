@@ -14,6 +14,7 @@
 
 struct kw_rssrecon {
     int rank, nthreads, even;
+    int seq;                  /* coils in order, one FFTW plan of nthreads threads */
     size_t d[3], n, coils;
     fftwf_plan plan;          /* one coil, out of place, unnormalised backward */
     float complex *scratch;   /* nthreads x n */
@@ -55,10 +56,13 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
     r->group = (coils + KW_RSS_GROUPS - 1) / KW_RSS_GROUPS;
     r->ngroups = (coils + r->group - 1) / r->group;
     r->nthreads = kw_fft_threads();
-    if ((size_t)r->nthreads > r->ngroups)
-        r->nthreads = (int)r->ngroups;
     if (r->nthreads < 1)
         r->nthreads = 1;
+    /* One thread, or one coil: the coils in order, each transform threaded
+     * by FFTW (the sequential path); else whole groups per thread. */
+    r->seq = r->nthreads == 1 || r->ngroups == 1;
+    if (!r->seq && (size_t)r->nthreads > r->ngroups)
+        r->nthreads = (int)r->ngroups;
     kw_status st = KW_OK;
     if (!r->even) {
         /* Odd sizes: a centered transform of one coil at a time. */
@@ -67,18 +71,20 @@ kw_status kw_rssrecon_create(kw_rssrecon **out, int rank, const size_t *dims,
         if (st)
             goto fail;
     }
-    r->scratch = kw_alloc((size_t)r->nthreads * r->n * sizeof(float complex));
-    r->acc = kw_alloc((r->even ? r->ngroups : 1) * r->n * sizeof(float));
+    size_t nacc = !r->even ? 1 : r->seq ? (r->coils > 1 ? 2 : 1) : r->ngroups;
+    r->scratch = kw_alloc((r->seq ? 1 : (size_t)r->nthreads) * r->n * sizeof(float complex));
+    r->acc = kw_alloc(nacc * r->n * sizeof(float));
     KW_FAIL_GOTO(!r->scratch || !r->acc, st, KW_ENOMEM, fail, "rss recon: out of memory");
     if (r->even) {
         /* Plan on a scratch pair; executed later with fftwf_execute_dft on the
-         * caller's input (same alignment) and a thread's scratch. Each thread
-         * runs a whole single-threaded transform: parallelism is over coils. */
+         * caller's input (same alignment) and a thread's scratch. The
+         * coil-parallel path runs whole single-threaded transforms; the
+         * sequential one FFTW's threads within each. */
         float complex *in = kw_alloc(r->n * sizeof(float complex));
         KW_FAIL_GOTO(!in, st, KW_ENOMEM, fail, "rss recon: out of memory");
         kw_fft_planner_lock();
         if (kw_fft_threads_ready())
-            fftwf_plan_with_nthreads(1);
+            fftwf_plan_with_nthreads(r->seq ? r->nthreads : 1);
         r->plan = fftwf_plan_dft(rank, ni, (fftwf_complex *)in, (fftwf_complex *)r->scratch,
                                  FFTW_BACKWARD,
                                  kw_fft_rigor(flags & KW_FFT_MEASURE) |
@@ -96,6 +102,117 @@ fail:
     return st;
 }
 
+/* a[i] = |s[i]|^2 (first) or a[i] += |s[i]|^2, s read as interleaved floats. */
+static void add_power(float *restrict a, const float complex *s_, size_t n, int first)
+{
+    const float *restrict s = (const float *)s_;
+    if (first) {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            a[i] = s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1];
+    } else {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            a[i] += s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1];
+    }
+}
+
+/* o[k] = sqrt((t[k] + (p[k] + |s[k]|^2)) * scale) over k < len, where t
+ * (the sum of the finished groups) and p (the open group's sum) may be NULL:
+ * the last coil's power, added in the order of the group sums. */
+static void last_row(float *restrict o, const float *t, const float *p,
+                     const float complex *s_, size_t len, float scale)
+{
+    const float *restrict s = (const float *)s_;
+    if (!t && !p) {
+#pragma omp simd
+        for (size_t k = 0; k < len; k++)
+            o[k] = sqrtf((s[2 * k] * s[2 * k] + s[2 * k + 1] * s[2 * k + 1]) * scale);
+    } else if (!t) {
+#pragma omp simd
+        for (size_t k = 0; k < len; k++)
+            o[k] = sqrtf((p[k] + (s[2 * k] * s[2 * k] + s[2 * k + 1] * s[2 * k + 1])) *
+                                   scale);
+    } else if (!p) {
+#pragma omp simd
+        for (size_t k = 0; k < len; k++)
+            o[k] = sqrtf((t[k] + (s[2 * k] * s[2 * k] + s[2 * k + 1] * s[2 * k + 1])) *
+                                   scale);
+    } else {
+#pragma omp simd
+        for (size_t k = 0; k < len; k++)
+            o[k] = sqrtf(
+                (t[k] + (p[k] + (s[2 * k] * s[2 * k] + s[2 * k + 1] * s[2 * k + 1]))) * scale);
+    }
+}
+
+/* The output shift as indexing: image row (i, j) reads transform row
+ * (i + h0, j + h1) and, within it, index k reads k + h2 (modulo the sizes). */
+static size_t src_row(const kw_rssrecon *r, size_t row)
+{
+    size_t d0 = r->d[0], d1 = r->d[1];
+    size_t i = row / d1, j = row % d1;
+    return ((i + d0 / 2) % d0) * d1 + (j + d1 / 2) % d1;
+}
+
+/* The last coil of the sequential path: its power joins the sums as the
+ * image is written, shifted. */
+static void finish_seq(kw_rssrecon *r, const float *t, const float *p,
+                       const float complex *s, float *img, int nt)
+{
+    const size_t d2 = r->d[2], h2 = d2 / 2, rows = r->d[0] * r->d[1];
+    const float scale = 1.0f / (float)r->n; /* unitary: |x/sqrt(n)|^2 */
+#pragma omp parallel for num_threads(nt) schedule(static) if (nt > 1)
+    for (long long row = 0; row < (long long)rows; row++) {
+        size_t q = src_row(r, (size_t)row) * d2;
+        float *o = img + (size_t)row * d2;
+        last_row(o, t ? t + q + h2 : NULL, p ? p + q + h2 : NULL, s + q + h2, d2 - h2, scale);
+        last_row(o + d2 - h2, t ? t + q : NULL, p ? p + q : NULL, s + q, h2, scale);
+    }
+}
+
+/* The last coil of a group: t = p + |s|^2 (first group) or t += p + |s|^2,
+ * p (the group's other coils) NULL when the group has one coil. */
+static void fold_group(float *restrict t, const float *restrict p, const float complex *s_,
+                       size_t n, int first)
+{
+    const float *restrict s = (const float *)s_;
+    if (!p) {
+        add_power(t, s_, n, first);
+    } else if (first) {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            t[i] = p[i] + (s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1]);
+    } else {
+#pragma omp simd
+        for (size_t i = 0; i < n; i++)
+            t[i] += p[i] + (s[2 * i] * s[2 * i] + s[2 * i + 1] * s[2 * i + 1]);
+    }
+}
+
+/* One thread of FFTW's (or threads inside FFTW's plan), coils in order: the
+ * open group's sum p, the finished groups' sum t (t = ((a0 + a1) + a2) ...,
+ * the order of the coil-parallel path); a group's last coil goes straight
+ * into t, and the last coil of all straight into the image. */
+static void execute_seq(kw_rssrecon *r, const float complex *ksp, float *img)
+{
+    const size_t n = r->n;
+    float *t = r->acc, *p = r->acc + n;
+    float complex *s = r->scratch;
+    for (size_t g = 0; g < r->ngroups; g++) {
+        size_t c0 = g * r->group, c1 = c0 + r->group < r->coils ? c0 + r->group : r->coils;
+        for (size_t c = c0; c < c1; c++) {
+            fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + c * n), (fftwf_complex *)s);
+            if (c + 1 == r->coils)
+                finish_seq(r, g ? t : NULL, c == c0 ? NULL : p, s, img, r->nthreads);
+            else if (c + 1 == c1)
+                fold_group(t, c == c0 ? NULL : p, s, n, g == 0);
+            else
+                add_power(p, s, n, c == c0);
+        }
+    }
+}
+
 kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *img)
 {
     KW_FAIL_IF(!r || !ksp || !img, KW_EINVAL, "rss recon: NULL argument");
@@ -107,19 +224,20 @@ kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *i
             kw_status st = kw_fft_inverse(r->generic, r->scratch);
             if (st)
                 return st;
-            for (size_t i = 0; i < n; i++) {
-                float complex v = r->scratch[i];
-                r->acc[i] += crealf(v) * crealf(v) + cimagf(v) * cimagf(v);
-            }
+            add_power(r->acc, r->scratch, n, 0);
         }
+#pragma omp simd
         for (size_t i = 0; i < n; i++)
-            img[i] = (float)sqrt(r->acc[i]);
+            img[i] = sqrtf(r->acc[i]);
         return KW_OK;
     }
     KW_FAIL_IF(fftwf_alignment_of((float *)ksp) != 0, KW_EINVAL,
                "rss recon: k-space must be 16-byte aligned");
-    const size_t d0 = r->d[0], d1 = r->d[1], d2 = r->d[2];
-    const size_t h0 = d0 / 2, h1 = d1 / 2, h2 = d2 / 2;
+    if (r->seq) {
+        execute_seq(r, ksp, img);
+        return KW_OK;
+    }
+    const size_t d2 = r->d[2], h2 = d2 / 2, rows = r->d[0] * r->d[1];
     const float scale = 1.0f / (float)n; /* unitary: |x/sqrt(n)|^2 */
     const int nt = r->nthreads;
     float *acc = r->acc;
@@ -137,29 +255,27 @@ kw_status kw_rssrecon_execute(kw_rssrecon *r, const float complex *ksp, float *i
             size_t c0 = (size_t)g * group, c1 = c0 + group < r->coils ? c0 + group : r->coils;
             for (size_t c = c0; c < c1; c++) {
                 fftwf_execute_dft(r->plan, (fftwf_complex *)(ksp + c * n), (fftwf_complex *)s);
-                if (c == c0)
-                    for (size_t i = 0; i < n; i++)
-                        a[i] = crealf(s[i]) * crealf(s[i]) + cimagf(s[i]) * cimagf(s[i]);
-                else
-                    for (size_t i = 0; i < n; i++)
-                        a[i] += crealf(s[i]) * crealf(s[i]) + cimagf(s[i]) * cimagf(s[i]);
+                add_power(a, s, n, c == c0);
             }
         }
-        /* The output shift: image index (i, j, k) reads transform index
-         * (i + h0, j + h1, k + h2) modulo the sizes. */
+        /* The group sums, in order, into group 0's row (each image row reads
+         * its own transform row), then the shifted square root. */
 #pragma omp for schedule(static)
-        for (long long row = 0; row < (long long)(d0 * d1); row++) {
-            size_t i = (size_t)row / d1, j = (size_t)row % d1;
-            size_t si = (i + h0) % d0, sj = (j + h1) % d1;
-            const float *src = acc + (si * d1 + sj) * d2;
-            float *o = img + (size_t)row * d2;
-            for (size_t k = 0; k < d2; k++) {
-                size_t sk = k + h2 < d2 ? k + h2 : k + h2 - d2;
-                float v = src[sk];
-                for (size_t g = 1; g < ngroups; g++)
-                    v += src[g * n + sk];
-                o[k] = sqrtf(v * scale);
+        for (long long row = 0; row < (long long)rows; row++) {
+            float *restrict src = acc + src_row(r, (size_t)row) * d2;
+            for (size_t g = 1; g < ngroups; g++) {
+                const float *restrict sg = src + g * n;
+#pragma omp simd
+                for (size_t k = 0; k < d2; k++)
+                    src[k] += sg[k];
             }
+            float *restrict o = img + (size_t)row * d2;
+#pragma omp simd
+            for (size_t k = 0; k < d2 - h2; k++)
+                o[k] = sqrtf(src[k + h2] * scale);
+#pragma omp simd
+            for (size_t k = 0; k < h2; k++)
+                o[d2 - h2 + k] = sqrtf(src[k] * scale);
         }
     }
     return KW_OK;

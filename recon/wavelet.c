@@ -135,86 +135,133 @@ static inline size_t wrap(long v, size_t n)
     return (size_t)(r < 0 ? r + (long)n : r);
 }
 
+/* Columns are filtered a block of KW_WB contiguous floats (columns times
+ * components) at a time, so that the inner loops run along rows and
+ * vectorise; every element's sum keeps the order of the taps. */
+enum { KW_WB = 64 };
+
+/* One row of the analysis along x: taps at 2k + off + m, wrapped at the
+ * edges only. */
+static void analyse_row(const kw_wavelet_plan *p, const float *xr, float *sr, size_t w,
+                        int nc)
+{
+    const int F = p->taps;
+    const long off = 1 - F / 2;
+    const size_t w2 = w / 2;
+    for (size_t k = 0; k < w2; k++) {
+        long b0 = (long)(2 * k) + off;
+        int inside = b0 >= 0 && b0 + F <= (long)w;
+        for (int c = 0; c < nc; c++) {
+            double a = 0, d = 0;
+            if (inside) {
+                const float *v0 = xr + (size_t)b0 * nc + c;
+                for (int m = 0; m < F; m++) {
+                    double v = v0[(size_t)m * nc];
+                    a += p->lo[m] * v;
+                    d += p->hi[m] * v;
+                }
+            } else {
+                for (int m = 0; m < F; m++) {
+                    double v = xr[wrap(b0 + m, w) * nc + c];
+                    a += p->lo[m] * v;
+                    d += p->hi[m] * v;
+                }
+            }
+            sr[k * nc + c] = (float)a;
+            sr[(w2 + k) * nc + c] = (float)d;
+        }
+    }
+}
+
 /* One analysis level over the active h x w block of `x` (row stride nx,
  * nc floats per element), using `s` (same layout) as scratch. */
 static void analyse_level(const kw_wavelet_plan *p, float *x, float *s,
                           size_t h, size_t w, int nc)
 {
-    const size_t nx = p->nx;
+    const size_t nx = p->nx, rs = nx * (size_t)nc, wn = w * (size_t)nc;
     const int F = p->taps;
     const long off = 1 - F / 2;
-    const size_t w2 = w / 2, h2 = h / 2;
+    const size_t h2 = h / 2;
     /* rows: x -> s */
 #pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
-    for (size_t r = 0; r < h; r++) {
-        const float *xr = x + r * nx * nc;
-        float *sr = s + r * nx * nc;
-        for (size_t k = 0; k < w2; k++)
-            for (int c = 0; c < nc; c++) {
-                double a = 0, d = 0;
-                for (int m = 0; m < F; m++) {
-                    double v = xr[wrap((long)(2 * k) + off + m, w) * nc + c];
-                    a += p->lo[m] * v;
-                    d += p->hi[m] * v;
-                }
-                sr[k * nc + c] = (float)a;
-                sr[(w2 + k) * nc + c] = (float)d;
-            }
-    }
-    /* columns: s -> x */
+    for (size_t r = 0; r < h; r++)
+        analyse_row(p, x + r * rs, s + r * rs, w, nc);
+    /* columns: s -> x, output rows k and h2 + k from input rows 2k + off + m */
 #pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
-    for (size_t col = 0; col < w; col++)
-        for (size_t k = 0; k < h2; k++)
-            for (int c = 0; c < nc; c++) {
-                double a = 0, d = 0;
-                for (int m = 0; m < F; m++) {
-                    double v = s[(wrap((long)(2 * k) + off + m, h) * nx + col) * nc + c];
-                    a += p->lo[m] * v;
-                    d += p->hi[m] * v;
+    for (size_t k = 0; k < h2; k++) {
+        for (size_t i0 = 0; i0 < wn; i0 += KW_WB) {
+            const size_t len = wn - i0 < KW_WB ? wn - i0 : KW_WB;
+            double a[KW_WB], d[KW_WB];
+            for (size_t i = 0; i < len; i++)
+                a[i] = d[i] = 0;
+            for (int m = 0; m < F; m++) {
+                const float *restrict v = s + wrap((long)(2 * k) + off + m, h) * rs + i0;
+                const double lo = p->lo[m], hi = p->hi[m];
+#pragma omp simd
+                for (size_t i = 0; i < len; i++) {
+                    a[i] += lo * v[i];
+                    d[i] += hi * v[i];
                 }
-                x[(k * nx + col) * nc + c] = (float)a;
-                x[((h2 + k) * nx + col) * nc + c] = (float)d;
             }
+            float *restrict xa = x + k * rs + i0, *restrict xd = x + (h2 + k) * rs + i0;
+#pragma omp simd
+            for (size_t i = 0; i < len; i++) {
+                xa[i] = (float)a[i];
+                xd[i] = (float)d[i];
+            }
+        }
+    }
 }
 
 /* The transpose of analyse_level (the synthesis of an orthogonal bank). */
 static void synthesise_level(const kw_wavelet_plan *p, float *x, float *s,
                              size_t h, size_t w, int nc)
 {
-    const size_t nx = p->nx;
+    const size_t nx = p->nx, rs = nx * (size_t)nc, wn = w * (size_t)nc;
     const int F = p->taps;
     const long off = 1 - F / 2;
     const size_t w2 = w / 2, h2 = h / 2;
-    /* columns: x -> s (scatter; each column is independent) */
+    /* columns: x -> s (scatter, in the order k then m for every element;
+     * each block of columns is independent) */
 #pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
-    for (size_t col = 0; col < w; col++) {
+    for (size_t i0 = 0; i0 < wn; i0 += KW_WB) {
+        const size_t len = wn - i0 < KW_WB ? wn - i0 : KW_WB;
         for (size_t r = 0; r < h; r++)
-            for (int c = 0; c < nc; c++)
-                s[(r * nx + col) * nc + c] = 0.0f;
-        for (size_t k = 0; k < h2; k++)
-            for (int c = 0; c < nc; c++) {
-                const float a = x[(k * nx + col) * nc + c];
-                const float d = x[((h2 + k) * nx + col) * nc + c];
-                for (int m = 0; m < F; m++)
-                    s[(wrap((long)(2 * k) + off + m, h) * nx + col) * nc + c] +=
-                        (float)(p->lo[m] * a + p->hi[m] * d);
+            memset(s + r * rs + i0, 0, len * sizeof(float));
+        for (size_t k = 0; k < h2; k++) {
+            const float *restrict xa = x + k * rs + i0, *restrict xd = x + (h2 + k) * rs + i0;
+            for (int m = 0; m < F; m++) {
+                float *restrict o = s + wrap((long)(2 * k) + off + m, h) * rs + i0;
+                const double lo = p->lo[m], hi = p->hi[m];
+#pragma omp simd
+                for (size_t i = 0; i < len; i++)
+                    o[i] += (float)(lo * xa[i] + hi * xd[i]);
             }
+        }
     }
     /* rows: s -> x */
 #pragma omp parallel for num_threads(p->nthreads) schedule(static) if (h * w > 65536)
     for (size_t r = 0; r < h; r++) {
-        float *xr = x + r * nx * nc;
-        const float *sr = s + r * nx * nc;
+        float *xr = x + r * rs;
+        const float *sr = s + r * rs;
         for (size_t i = 0; i < w * (size_t)nc; i++)
             xr[i] = 0.0f;
-        for (size_t k = 0; k < w2; k++)
+        for (size_t k = 0; k < w2; k++) {
+            long b0 = (long)(2 * k) + off;
+            int inside = b0 >= 0 && b0 + F <= (long)w;
             for (int c = 0; c < nc; c++) {
                 const float a = sr[k * nc + c];
                 const float d = sr[(w2 + k) * nc + c];
-                for (int m = 0; m < F; m++)
-                    xr[wrap((long)(2 * k) + off + m, w) * nc + c] +=
-                        (float)(p->lo[m] * a + p->hi[m] * d);
+                if (inside) {
+                    float *o = xr + (size_t)b0 * nc + c;
+                    for (int m = 0; m < F; m++)
+                        o[(size_t)m * nc] += (float)(p->lo[m] * a + p->hi[m] * d);
+                } else {
+                    for (int m = 0; m < F; m++)
+                        xr[wrap(b0 + m, w) * nc + c] += (float)(p->lo[m] * a + p->hi[m] * d);
+                }
             }
+        }
     }
 }
 
