@@ -10,7 +10,7 @@ import pytest
 
 from conftest import run
 
-VERBS = ["plan", "pattern", "encode", "recon", "score", "render", "sweep", "demo"]
+VERBS = ["plan", "pattern", "encode", "recon", "score", "preview", "waveform", "render", "sweep", "demo"]
 # placeholders by type (cli/cli.c): quantities by kind, N integer, X number,
 # FILE / DIR, SIZE (--max-memory), and a few texts named for what they hold
 TYPED = {"LENGTH", "FIELD", "GRADIENT", "SLEW", "FREQ", "TIME", "TEMP", "ANGLE", "PPM", "N", "X",
