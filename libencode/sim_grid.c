@@ -43,6 +43,8 @@ typedef struct grid_axis {
     double phi[NTERM1];     /* each class's fractional offset, in [0, 1) */
     int lo[NTERM1], hi[NTERM1]; /* each class's integer shifts' range */
     int span;               /* the largest hi - lo */
+    int mcl[NTERM1];        /* the class of the points -k (-1: none) */
+    long mo[NTERM1];        /* point g's mirror is point mo - g of that class */
 } grid_axis;
 
 struct kw_sim_grid {
@@ -97,6 +99,17 @@ static void plan_axis(grid_axis *ax, int n, int L, double period)
     for (int c = 0; c < ax->ncl; c++)
         if (ax->hi[c] - ax->lo[c] > ax->span)
             ax->span = ax->hi[c] - ax->lo[c];
+    /* -k = -(g + lo + phi - n/2) = g' + lo' + phi' - n/2 with phi' = 1 - phi
+     * (0 when phi is 0) */
+    for (int c = 0; c < ax->ncl; c++) {
+        double want = ax->phi[c] > 0 ? 1.0 - ax->phi[c] : 0.0;
+        ax->mcl[c] = -1;
+        for (int d = 0; d < ax->ncl; d++)
+            if (fabs(ax->phi[d] - want) < 1e-9)
+                ax->mcl[c] = d;
+        if (ax->mcl[c] >= 0)
+            ax->mo[c] = 2L * (n / 2) - ax->lo[c] - ax->lo[ax->mcl[c]] - (ax->phi[c] > 0);
+    }
 }
 
 /* k (cycles/FOV) of point g of class c's grid along axis `ax`. */
@@ -226,8 +239,8 @@ kw_status kw_sim_grid_create(kw_sim *s)
     /* scratch: the coils' sums, a row of class sums and of factors
      * (combine_row); a row of amplitudes and values (fill_row) */
     g->scr_n = nc * nx + nx + (size_t)g->nt * nx;
-    if (g->scr_n < 2 * g->len[0] + 2)
-        g->scr_n = 2 * g->len[0] + 2;
+    if (g->scr_n < (size_t)g->ax[0].ncl * g->len[0])
+        g->scr_n = (size_t)g->ax[0].ncl * g->len[0]; /* two rows of amplitudes (fill_band) */
     int ok = 1;
     for (int a = 0; a < 3 && ok; a++)
         ok = !!(g->tab[a] = kw_alloc_n((size_t)s->nshapes * g->ax[a].ncl * g->len[a], sizeof **g->tab));
@@ -266,94 +279,160 @@ void kw_sim_grid_destroy(kw_sim_grid *g)
     kw_free(g);
 }
 
-/* The non-separable shapes' amplitude along one grid row (the same formulas
- * as kw_sim_shape_mag()). */
-static void row_mag(const struct kw_sim_shape *f, const grid_axis *ax, int cx, size_t nxr, double fy,
-                    double fz, double *m)
+/* A non-separable shape's amplitude at phantom frequency (fx, fy, fz) (the
+ * formulas of kw_sim_shape_mag()). */
+static double mag_at(const struct kw_sim_shape *f, double fx, double fy, double fz)
 {
-    for (size_t k = 0; k < nxr; k++) {
-        double fx = 0.5 * axis_k(ax, cx, k);
-        double fu = fx * f->ca + fy * f->sa;
-        double fv = -fx * f->sa + fy * f->ca;
-        double au = f->a * fu, bv = f->b * fv;
-        if (f->kind == KW_SHAPE_ELLIPSE) {
-            m[k] = 2.0 * KW_PI * f->a * f->b * kw_ft_jinc(2.0 * KW_PI * sqrt(au * au + bv * bv));
-        } else if (f->kind == KW_SHAPE_ELLIPSOID) {
-            double cw = f->c * fz;
-            m[k] = 4.0 * KW_PI * f->a * f->b * f->c *
-                   kw_ft_sjinc(2.0 * KW_PI * sqrt(au * au + bv * bv + cw * cw));
-        } else {
-            m[k] = kw_sim_shape_mag(f, fx, fy, fz);
+    double fu = fx * f->ca + fy * f->sa;
+    double fv = -fx * f->sa + fy * f->ca;
+    double au = f->a * fu, bv = f->b * fv;
+    if (f->kind == KW_SHAPE_ELLIPSE)
+        return 2.0 * KW_PI * f->a * f->b * kw_ft_jinc(2.0 * KW_PI * sqrt(au * au + bv * bv));
+    if (f->kind == KW_SHAPE_ELLIPSOID) {
+        double cw = f->c * fz;
+        return 4.0 * KW_PI * f->a * f->b * f->c * kw_ft_sjinc(2.0 * KW_PI * sqrt(au * au + bv * bv + cw * cw));
+    }
+    return kw_sim_shape_mag(f, fx, fy, fz);
+}
+
+/* Points of class c along an axis: n + hi - lo (the banded axis: fewer). */
+static long axis_points(const grid_axis *ax, int c)
+{
+    return (long)ax->n + ax->hi[c] - ax->lo[c];
+}
+
+/* The point -k of point g of class c: its class *cm and index (-1: none). */
+static long axis_mirror(const grid_axis *ax, int c, long g, int *cm)
+{
+    *cm = ax->mcl[c];
+    if (*cm < 0)
+        return -1;
+    long gm = ax->mo[c] - g;
+    return gm >= 0 && gm < axis_points(ax, *cm) ? gm : -1;
+}
+
+/* Amplitudes of shape f on grid row (fy, fz) for every x class into m
+ * (ncx x len): each spectrum is even, A(-f) = A(f), and an axis-aligned
+ * one is even in fx alone, so the point -fx of a row takes the value
+ * already found. `from`: the amplitudes of the mirror row (-fy) or NULL. */
+static void mag_row(const struct kw_sim_shape *f, const grid_axis *ax, size_t len, double fy,
+                    double fz, const double *from, double *m)
+{
+    const int aligned = f->sa == 0;
+    for (int c = 0; c < ax->ncl; c++) {
+        long np = axis_points(ax, c);
+        for (long g = 0; g < np; g++) {
+            int cm;
+            long gm = axis_mirror(ax, c, g, &cm);
+            double *dst = m + (size_t)c * len + (size_t)g;
+            if (from && aligned)
+                *dst = from[(size_t)c * len + (size_t)g];
+            else if (from && gm >= 0)
+                *dst = from[(size_t)cm * len + (size_t)gm];
+            else if (!from && aligned && gm >= 0 && (cm < c || (cm == c && gm < g)))
+                *dst = m[(size_t)cm * len + (size_t)gm];
+            else
+                *dst = mag_at(f, 0.5 * axis_k(ax, c, (size_t)g), fy, fz);
         }
     }
 }
 
-/* One grid row: class (cz, cy, cx) at local plane gz and row gy of the band
- * starting at output index s0 along the banded axis. */
-static void fill_row(const kw_sim *s, kw_sim_grid *g, int cz, int cy, int cx, size_t gz, size_t gy,
-                     size_t s0, double complex *scr)
+/* Add shape i's values on grid row (cz, zg, cy, yg) (global indices; the
+ * block row at band-local gz, gy) to the time classes' grids; m: its
+ * amplitudes (NULL: separable). */
+static void add_row(const kw_sim *s, kw_sim_grid *g, int i, int cz, size_t zg, size_t gz, int cy,
+                    size_t yg, size_t gy, const double *m)
 {
     const grid_axis *ax = g->ax;
-    size_t zg = gz + (g->ca == 2 ? s0 : 0), yg = gy + (g->ca == 1 ? s0 : 0);
-    size_t nxr = (size_t)(ax[0].n + ax[0].hi[cx] - ax[0].lo[cx]);
-    double fy = -0.5 * axis_k(&ax[1], cy, yg), fz = 0.5 * axis_k(&ax[2], cz, zg);
-    size_t b0 = ((size_t)cz * ax[1].ncl + cy) * ax[0].ncl + cx;
-    size_t bstride = (size_t)ax[2].ncl * ax[1].ncl * ax[0].ncl * g->blk;
-    double complex *row0 = g->g + b0 * g->blk + (gz * g->dim[1] + gy) * g->dim[0];
-    double *m = (double *)scr;
-    double complex *v = scr + (nxr + 1) / 2 + 1;
-    for (int t = 0; t < g->nt; t++)
-        memset(row0 + t * bstride, 0, nxr * sizeof *row0);
-    for (int i = 0; i < s->nshapes; i++) {
-        if (!g->nw[i])
-            continue;
-        const double complex *tx = g->tab[0] + ((size_t)i * ax[0].ncl + cx) * g->len[0];
-        double complex tyz = g->tab[1][((size_t)i * ax[1].ncl + cy) * g->len[1] + yg] *
-                             g->tab[2][((size_t)i * ax[2].ncl + cz) * g->len[2] + zg];
-        if (g->sep[i]) {
-            tyz *= g->amp[i];
-            for (size_t k = 0; k < nxr; k++)
-                m[k] = 1.0;
-        } else {
-            row_mag(&s->fs[i], &ax[0], cx, nxr, fy, fz, m);
-        }
-        double yr = creal(tyz), yi = cimag(tyz);
-        for (size_t k = 0; k < nxr; k++) {
-            double xr = creal(tx[k]), xi = cimag(tx[k]);
-            v[k] = m[k] * (xr * yr - xi * yi) + I * (m[k] * (xr * yi + xi * yr));
-        }
+    const size_t bstride = (size_t)ax[2].ncl * ax[1].ncl * ax[0].ncl * g->blk;
+    double complex tyz = g->tab[1][((size_t)i * ax[1].ncl + cy) * g->len[1] + yg] *
+                         g->tab[2][((size_t)i * ax[2].ncl + cz) * g->len[2] + zg];
+    if (!m)
+        tyz *= g->amp[i];
+    (void)s;
+    for (int cx = 0; cx < ax[0].ncl; cx++) {
+        size_t np = (size_t)axis_points(&ax[0], cx);
+        const double *tx = (const double *)(g->tab[0] + ((size_t)i * ax[0].ncl + cx) * g->len[0]);
+        const double *mc = m ? m + (size_t)cx * g->len[0] : NULL;
+        size_t b0 = ((size_t)cz * ax[1].ncl + cy) * ax[0].ncl + cx;
         for (int u = 0; u < g->nw[i]; u++) {
-            double *dst = (double *)(row0 + (size_t)g->wcls[i][u] * bstride);
-            double wr = creal(g->w[i][u]), wi = cimag(g->w[i][u]);
-            const double *vv = (const double *)v;
-            for (size_t k = 0; k < nxr; k++) {
-                dst[2 * k] += wr * vv[2 * k] - wi * vv[2 * k + 1];
-                dst[2 * k + 1] += wr * vv[2 * k + 1] + wi * vv[2 * k];
+            double complex wyz = g->w[i][u] * tyz;
+            double wr = creal(wyz), wi = cimag(wyz);
+            double *dst = (double *)(g->g + (size_t)g->wcls[i][u] * bstride + b0 * g->blk +
+                                     (gz * g->dim[1] + gy) * g->dim[0]);
+            for (size_t k = 0; k < np; k++) {
+                double a = mc ? mc[k] : 1.0;
+                double xr = a * tx[2 * k], xi = a * tx[2 * k + 1];
+                dst[2 * k] += xr * wr - xi * wi;
+                dst[2 * k + 1] += xr * wi + xi * wr;
             }
         }
     }
 }
 
-/* The grids of the band [s0, s1) along the banded axis. */
+/* The grids of the band [s0, s1) along the banded axis: one task per grid
+ * row pair (fy and its mirror -fy, which share the amplitudes). */
 static void fill_band(const kw_sim *s, kw_sim_grid *g, size_t s0, size_t s1)
 {
     const grid_axis *ax = g->ax;
-    const long ncz = ax[2].ncl, ncy = ax[1].ncl, ncx = ax[0].ncl;
+    const long ncz = ax[2].ncl, ncy = ax[1].ncl;
     const long dz = (long)g->dim[2], dy = (long)g->dim[1];
-    const long rows = ncz * dz * ncy * dy * ncx;
-#pragma omp parallel for num_threads(g->nthreads) schedule(dynamic, 4)
+    const long rows = ncz * dz * ncy * dy;
+    const size_t bstride = (size_t)ax[2].ncl * ax[1].ncl * ax[0].ncl * g->blk;
+    const long yoff = g->ca == 1 ? (long)s0 : 0, zoff = g->ca == 2 ? (long)s0 : 0;
+#pragma omp parallel for num_threads(g->nthreads) schedule(dynamic, 2)
     for (long r = 0; r < rows; r++) {
-        long cx = r % ncx, gy = (r / ncx) % dy, cy = (r / (ncx * dy)) % ncy;
-        long gz = (r / (ncx * dy * ncy)) % dz, cz = r / (ncx * dy * ncy * dz);
+        long gy = r % dy, cy = (r / dy) % ncy, gz = (r / (dy * ncy)) % dz, cz = r / (dy * ncy * dz);
         /* the rows this class's grid has in the band */
-        long lz = g->ca == 2 ? (long)(s1 - s0) + ax[2].hi[cz] - ax[2].lo[cz]
-                             : ax[2].n + ax[2].hi[cz] - ax[2].lo[cz];
-        long ly = g->ca == 1 ? (long)(s1 - s0) + ax[1].hi[cy] - ax[1].lo[cy]
-                             : ax[1].n + ax[1].hi[cy] - ax[1].lo[cy];
+        long lz = g->ca == 2 ? (long)(s1 - s0) + ax[2].hi[cz] - ax[2].lo[cz] : axis_points(&ax[2], (int)cz);
+        long ly = g->ca == 1 ? (long)(s1 - s0) + ax[1].hi[cy] - ax[1].lo[cy] : axis_points(&ax[1], (int)cy);
         if (gz >= lz || gy >= ly)
             continue;
-        double complex *scr = g->scr + (size_t)omp_get_thread_num() * g->scr_n;
-        fill_row(s, g, (int)cz, (int)cy, (int)cx, (size_t)gz, (size_t)gy, s0, scr);
+        /* the mirror row: handled with the first of the two */
+        int cyp;
+        long ygp = axis_mirror(&ax[1], (int)cy, gy + yoff, &cyp), gyp = ygp - yoff;
+        long lyp = ygp < 0 ? 0
+                           : g->ca == 1 ? (long)(s1 - s0) + ax[1].hi[cyp] - ax[1].lo[cyp]
+                                        : axis_points(&ax[1], cyp);
+        int pair = ygp >= 0 && gyp >= 0 && gyp < lyp;
+        if (pair && (cyp < cy || (cyp == cy && gyp < gy)))
+            continue;
+        if (pair && cyp == cy && gyp == gy)
+            pair = 0;
+        double *m = (double *)(g->scr + (size_t)omp_get_thread_num() * g->scr_n);
+        double *mp = m + (size_t)ax[0].ncl * g->len[0];
+        size_t zg = (size_t)(gz + zoff);
+        double fz = 0.5 * axis_k(&ax[2], (int)cz, zg);
+        double fy = -0.5 * axis_k(&ax[1], (int)cy, (size_t)(gy + yoff));
+        for (int t = 0; t < g->nt; t++)
+            for (int cx = 0; cx < ax[0].ncl; cx++) {
+                size_t b0 = ((size_t)cz * ax[1].ncl + cy) * ax[0].ncl + cx;
+                memset(g->g + t * bstride + b0 * g->blk + ((size_t)gz * g->dim[1] + (size_t)gy) * g->dim[0],
+                       0, g->dim[0] * sizeof *g->g);
+                if (pair) {
+                    b0 = ((size_t)cz * ax[1].ncl + cyp) * ax[0].ncl + cx;
+                    memset(g->g + t * bstride + b0 * g->blk +
+                               ((size_t)gz * g->dim[1] + (size_t)gyp) * g->dim[0],
+                           0, g->dim[0] * sizeof *g->g);
+                }
+            }
+        for (int i = 0; i < s->nshapes; i++) {
+            if (!g->nw[i])
+                continue;
+            const double *mi = NULL, *mpi = NULL;
+            if (!g->sep[i]) {
+                mag_row(&s->fs[i], &ax[0], g->len[0], fy, fz, NULL, m);
+                mi = m;
+                if (pair) {
+                    double fyp = -0.5 * axis_k(&ax[1], cyp, (size_t)ygp);
+                    mag_row(&s->fs[i], &ax[0], g->len[0], fyp, fz, m, mp);
+                    mpi = mp;
+                }
+            }
+            add_row(s, g, i, (int)cz, zg, (size_t)gz, (int)cy, (size_t)(gy + yoff), (size_t)gy, mi);
+            if (pair)
+                add_row(s, g, i, (int)cz, zg, (size_t)gz, cyp, (size_t)ygp, (size_t)gyp, mpi);
+        }
     }
 }
 
