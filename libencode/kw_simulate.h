@@ -112,6 +112,10 @@ KW_API int kw_sim_channels(const kw_sim *sim);
 KW_API kw_status kw_sim_execute(kw_sim *sim, kw_cfloat *out,
                          kw_progress_fn progress, void *user);
 
+/*! kw_sim_uses_grid(): 1 when kw_sim_execute takes the grid path (see
+ * per_sample above), 0 when it evaluates every sample. */
+KW_API int kw_sim_uses_grid(const kw_sim *sim);
+
 /*! kw_sim_destroy(): free (NULL-safe). */
 KW_API void kw_sim_destroy(kw_sim *sim);
 

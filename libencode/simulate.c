@@ -169,6 +169,7 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
 
 size_t kw_sim_output_count(const kw_sim *sim) { return sim->count; }
 int kw_sim_channels(const kw_sim *sim) { return sim->channels; }
+int kw_sim_uses_grid(const kw_sim *sim) { return sim && sim->grid; }
 
 void kw_sim_destroy(kw_sim *sim)
 {
