@@ -134,7 +134,7 @@ def made(lib, name):
 
 
 CASES = ["sl-2d", "weave-gre-bandwidth", "weave-epi-times-mask", "weave3d", "period-1.37",
-         "sl-mask-order8"]
+         "sl-mask-order8", "odd-sizes-3d", "period-3-and-order-z-only"]
 
 
 @pytest.mark.parametrize("case", CASES)
@@ -159,6 +159,12 @@ def test_grid_path_equals_per_sample_path(lib, case):
         kw = dict(contrast=gre, bandwidth_hz=20e3)
     elif case == "period-1.37":
         ph, n, L, Lz, P = made(lib, "shepp-logan"), (1, 24, 28), 3, 0, 1.37
+    elif case == "odd-sizes-3d":
+        ph, n, L, Lz, P = made(lib, "weave3d"), (9, 11, 13), 2, 1, 1.5
+        kw = dict(contrast=Contrast(0, 3.0, 0, 0, 0, 0))
+    elif case == "period-3-and-order-z-only":
+        ph, n, L, Lz, P = made(lib, "weave3d"), (6, 5, 7), 0, 2, 3.0
+        kw = dict(contrast=gre, bandwidth_hz=10e3)
     else:
         ph, n, L, Lz, P = made(lib, "shepp-logan-modified"), (1, 36, 36), 8, 0, 1.5
         mask = np.zeros((36, 36), np.uint8)
