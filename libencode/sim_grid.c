@@ -235,6 +235,14 @@ kw_status kw_sim_grid_create(kw_sim *s)
         g->amp[i] = f->kind == KW_SHAPE_BOX ? 8.0 * f->a * f->b * f->c : 4.0 * f->a * f->b;
     }
     plan_weights(s, g);
+    for (int i = 0; i < s->nshapes; i++) {
+        /* a shape of zero extent (a multi-slice cut beyond it) has a zero
+         * spectrum everywhere: it adds nothing */
+        const struct kw_sim_shape *f = &s->fs[i];
+        int k3 = f->kind == KW_SHAPE_ELLIPSOID || f->kind == KW_SHAPE_BOX;
+        if (f->a == 0 || f->b == 0 || (k3 && f->c == 0))
+            g->nw[i] = 0;
+    }
     const size_t nx = g->ax[0].n, nc = (size_t)o->ncoils;
     g->nthreads = omp_get_max_threads();
     /* scratch: the coils' sums, a row of class sums and of factors
@@ -361,11 +369,18 @@ static void add_row(const kw_sim *s, kw_sim_grid *g, int i, int cz, size_t zg, s
             double wr = creal(wyz), wi = cimag(wyz);
             double *dst = (double *)(g->g + (size_t)g->wcls[i][u] * bstride + b0 * g->blk +
                                      (gz * g->dim[1] + gy) * g->dim[0]);
-            for (size_t k = 0; k < np; k++) {
-                double a = mc ? mc[k] : 1.0;
-                double xr = a * tx[2 * k], xi = a * tx[2 * k + 1];
-                dst[2 * k] += xr * wr - xi * wi;
-                dst[2 * k + 1] += xr * wi + xi * wr;
+            if (mc) {
+                for (size_t k = 0; k < np; k++) {
+                    double xr = mc[k] * tx[2 * k], xi = mc[k] * tx[2 * k + 1];
+                    dst[2 * k] += xr * wr - xi * wi;
+                    dst[2 * k + 1] += xr * wi + xi * wr;
+                }
+            } else {
+                for (size_t k = 0; k < np; k++) {
+                    double xr = tx[2 * k], xi = tx[2 * k + 1];
+                    dst[2 * k] += xr * wr - xi * wi;
+                    dst[2 * k + 1] += xr * wi + xi * wr;
+                }
             }
         }
     }
