@@ -199,8 +199,13 @@ valgrind: all $(BUILD)/kw_tests
 $(BUILD)/kw_bench: bench/bench.c $(BUILD)/libkwcli.a $(BUILD)/libkweave.a
 	$(CC) $(ALL_CFLAGS) -o $@ $^ $(CLI_LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
 
-bench: deps-test all $(BUILD)/kw_bench
+# The encoding cases (issue 19): grid path against the per-sample path.
+$(BUILD)/kw_encode_bench: bench/encode_bench.c $(BUILD)/libkweave.a
+	$(CC) $(ALL_CFLAGS) -o $@ $^ $(LIBS) $(SAN_LDFLAGS) $(LDFLAGS)
+
+bench: deps-test all $(BUILD)/kw_bench $(BUILD)/kw_encode_bench
 	$(PY) bench/run.py --build $(BUILD)
+	$(BUILD)/kw_encode_bench
 
 demo: all
 	$(BUILD)/kweave demo --out demo-out

@@ -184,6 +184,7 @@ static void acq_sim_options(kw_acquisition *a)
     so->coil_order_z = a->ndim == 3 ? a->coil_order_z : 0;
     so->coil_period = KW_ACQ_COIL_PERIOD;
     so->coil_coef = a->coef;
+    so->per_sample = a->o.per_sample;
 }
 
 static void acq_kspace_shape(kw_acquisition *a)

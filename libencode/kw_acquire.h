@@ -136,6 +136,11 @@ typedef struct kw_acquisition_options {
      * checked); the caller's maps are fitted at the order as set, their
      * misfit reported likewise. */
     double coil_tolerance;
+    /* 1: every sample's transforms evaluated at the sample (the reference
+     * path of kw_sim_options' per_sample); 0 (default): the grid path where
+     * it applies (Cartesian with coils, no field gradient); the same k-space
+     * within 1e-6 of its largest sample (docs/simulator.md). */
+    int per_sample;
 } kw_acquisition_options;
 
 /*! kw_acquisition_options_init(): the defaults of `kweave encode` (no

@@ -10,51 +10,10 @@
 #include <string.h>
 
 #include "kw_rng.h"
+#include "sim_int.h"
 
-#define MAX_ORDER 8
-#define MAX_TERMS 1024 /* (2L+1)^2 in 2-D, (2Lz+1)(2L+1)^2 in 3-D */
-
-struct kw_sim {
-    kw_sim_options o;
-    size_t cdims[3];         /* o.n in C order (nz, ny, nx) */
-    int nshapes;
-    int channels;
-    int terms;               /* (2L+1)^2 (3-D: (2Lz+1)(2L+1)^2), 1 without coils */
-    int lz;                  /* Lz: the series' order along z (0 in 2-D) */
-    double steady[KW_PHANTOM_MAX_SHAPES];
-    double t2[KW_PHANTOM_MAX_SHAPES], t2s[KW_PHANTOM_MAX_SHAPES];
-    double df[KW_PHANTOM_MAX_SHAPES];
-    size_t count;            /* samples per channel */
-    /* per shape, precomputed for the inner loop: rotation, axes, centre (in
-     * the frequency convention of kw_phantom_kspace_shape) and scale */
-    struct fast_shape {
-        int kind;
-        double ca, sa, a, b, c, cx, cy, cz, scale;
-    } fs[KW_PHANTOM_MAX_SHAPES];
-    double complex *shift_phase; /* nshapes x terms: exp(+i 2 pi delta.c) */
-};
-
-/* Real amplitude of shape i's spectrum at phantom frequency (fx, fy, fz)
- * (the same formulas as kw_shape_ft(), without the centre's phase). */
-static double fast_mag(const struct fast_shape *f, double fx, double fy, double fz)
-{
-    double fu = fx * f->ca + fy * f->sa;
-    double fv = -fx * f->sa + fy * f->ca;
-    switch (f->kind) {
-    case KW_SHAPE_ELLIPSE:
-        return 2.0 * KW_PI * f->a * f->b * kw_ft_jinc(2.0 * KW_PI * hypot(f->a * fu, f->b * fv));
-    case KW_SHAPE_RECT:
-        return 4.0 * f->a * f->b * kw_ft_sinc(2.0 * f->a * fu) * kw_ft_sinc(2.0 * f->b * fv);
-    case KW_SHAPE_ELLIPSOID: {
-        double q = sqrt(f->a * fu * f->a * fu + f->b * fv * f->b * fv + f->c * fz * f->c * fz);
-        return 4.0 * KW_PI * f->a * f->b * f->c * kw_ft_sjinc(2.0 * KW_PI * q);
-    }
-    case KW_SHAPE_BOX:
-        return 8.0 * f->a * f->b * f->c * kw_ft_sinc(2.0 * f->a * fu) * kw_ft_sinc(2.0 * f->b * fv) *
-               kw_ft_sinc(2.0 * f->c * fz);
-    }
-    return 0.0;
-}
+#define MAX_ORDER KW_SIM_MAX_ORDER
+#define MAX_TERMS KW_SIM_MAX_TERMS
 
 void kw_sim_options_init(kw_sim_options *o)
 {
@@ -163,7 +122,7 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
         scale *= sqrt((double)nz) * 0.5;
     for (int i = 0; i < p->nshapes; i++) {
         const kw_shape *sh = &p->shapes[i];
-        struct fast_shape *f = &s->fs[i];
+        struct kw_sim_shape *f = &s->fs[i];
         f->kind = sh->kind;
         f->ca = cos(sh->angle);
         f->sa = sin(sh->angle);
@@ -199,58 +158,26 @@ kw_status kw_sim_create(kw_sim **out, const kw_sim_options *caller)
                                        (pp + L)] = cos(ph) + I * sin(ph);
                     }
     }
+    kw_status gst = kw_sim_grid_create(s);
+    if (gst) {
+        kw_sim_destroy(s);
+        return gst;
+    }
     *out = s;
     return KW_OK;
 }
 
 size_t kw_sim_output_count(const kw_sim *sim) { return sim->count; }
 int kw_sim_channels(const kw_sim *sim) { return sim->channels; }
+int kw_sim_uses_grid(const kw_sim *sim) { return sim && sim->grid; }
 
 void kw_sim_destroy(kw_sim *sim)
 {
     if (!sim)
         return;
+    kw_sim_grid_destroy(sim->grid);
     kw_free(sim->shift_phase);
     kw_free(sim);
-}
-
-static int has_decay(const kw_sim *sim, int i)
-{
-    return sim->o.phantom->tissue && sim->o.phantom->shapes[i].tissue >= 0;
-}
-
-double complex kw_sim_shape_factor(const kw_sim *sim, int i, double t)
-{
-    const kw_contrast *c = &sim->o.contrast;
-    double a = has_decay(sim, i) ? kw_signal_decay(c, sim->t2[i], sim->t2s[i], t) : 1.0;
-    double ph = -2.0 * KW_PI * sim->df[i] * kw_signal_phase_time(c, t);
-    return a * (cos(ph) + I * sin(ph));
-}
-
-double kw_sim_shape_steady(const kw_sim *sim, int i) { return sim->steady[i]; }
-
-int kw_sim_shape_classes(const kw_sim *sim, int *cls)
-{
-    int n = 0, rep[KW_PHANTOM_MAX_SHAPES];
-    for (int i = 0; i < sim->nshapes; i++) {
-        int c = 0;
-        for (; c < n; c++) {
-            int j = rep[c];
-            if (has_decay(sim, i) == has_decay(sim, j) && sim->df[i] == sim->df[j] &&
-                (!has_decay(sim, i) || (sim->t2[i] == sim->t2[j] && sim->t2s[i] == sim->t2s[j])))
-                break;
-        }
-        if (c == n)
-            rep[n++] = i;
-        cls[i] = c;
-    }
-    return n;
-}
-
-void kw_sim_shape_signal(const kw_sim *sim, double t, double complex *own)
-{
-    for (int i = 0; i < sim->nshapes; i++)
-        own[i] = sim->steady[i] * kw_sim_shape_factor(sim, i, t);
 }
 
 void kw_sim_image_weights(const kw_sim *sim, double *w)
@@ -269,15 +196,6 @@ void kw_sim_image_weights(const kw_sim *sim, double *w)
     }
     (void)own;
     kw_phantom_weights(sim->o.phantom, re, w);
-}
-
-double kw_sim_sample_time(const kw_sim_options *o, size_t i, size_t ix)
-{
-    if (o->times)
-        return o->times[o->traj || o->times_per_sample ? i : ix];
-    if (!o->traj && o->bandwidth_hz > 0)
-        return o->contrast.te_s + ((double)ix - (double)(o->n[2] / 2)) / o->bandwidth_hz;
-    return o->contrast.te_s;
 }
 
 static double sample_time(const kw_sim *s, size_t i, size_t ix)
@@ -317,7 +235,7 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
     double complex wph[KW_PHANTOM_MAX_SHAPES];
     double fx = 0.5 * kx, fy = -0.5 * kv, fz = 0.5 * kz;
     for (int i = 0; i < s->nshapes; i++) {
-        const struct fast_shape *f = &s->fs[i];
+        const struct kw_sim_shape *f = &s->fs[i];
         double ph = -2.0 * KW_PI * (fx * f->cx + fy * f->cy + fz * f->cz);
         wph[i] = w[i] * f->scale * (cos(ph) + I * sin(ph));
     }
@@ -326,7 +244,7 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
     for (int i = 0; i < s->nshapes; i++) {
         if (wph[i] == 0)
             continue;
-        const struct fast_shape *f = &s->fs[i];
+        const struct kw_sim_shape *f = &s->fs[i];
         const double complex *sp = s->shift_phase + (size_t)i * s->terms;
         if ((f->kind == KW_SHAPE_BOX || f->kind == KW_SHAPE_RECT) && f->sa == 0) {
             /* an axis-aligned box or rectangle: its spectrum is a product of
@@ -355,7 +273,7 @@ static void one_sample(const kw_sim *s, double kx, double kv, double kz, double 
                 double fyq = fy + 0.5 * q * inv;
                 for (int pp = -L; pp <= L; pp++) {
                     int j = ((r + Lz) * side + (q + L)) * side + (pp + L);
-                    g[j] += wph[i] * sp[j] * fast_mag(f, fx - 0.5 * pp * inv, fyq, fzr);
+                    g[j] += wph[i] * sp[j] * kw_sim_shape_mag(f, fx - 0.5 * pp * inv, fyq, fzr);
                 }
             }
         }
@@ -378,6 +296,14 @@ kw_status kw_sim_execute(kw_sim *s, float complex *out, kw_progress_fn progress,
     const double *g = s->o.df_grad_hz;
     const int grad = g[0] != 0 || g[1] != 0 || (nz > 1 || s->o.traj_ndim == 3 ? g[2] != 0 : 0);
     memset(out, 0, count * (size_t)s->channels * sizeof *out);
+    if (s->grid) {
+        kw_status gst = kw_sim_grid_execute(s, out, progress, user);
+        if (gst)
+            return gst;
+        if (s->o.noise_chol)
+            return kw_sim_add_noise(s, s->o.noise_chol, s->o.seed, out);
+        return KW_OK;
+    }
     const size_t nchunk = 64;
     const size_t chunk = (count + nchunk - 1) / nchunk;
     for (size_t c0 = 0, it = 0; c0 < count; c0 += chunk, it++) {
