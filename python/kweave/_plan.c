@@ -207,6 +207,22 @@ static int set_keys(kw_protocol_input *in, const char *const *keys, PyObject *co
     return 0;
 }
 
+int kwpy_protocol_build(PyObject *path, const char *const *keys, PyObject *const *vals,
+                        kw_protocol *p, const char *context)
+{
+    kw_protocol_input *in = NULL;
+    kw_status st = kw_protocol_input_create(&in);
+    if (st)
+        return kwpy_raise(st, context), -1;
+    int rc = path ? read_protocol(in, path, context) : 0;
+    if (!rc && keys && set_keys(in, keys, vals) < 0)
+        rc = -1;
+    if (!rc && (st = kw_protocol_input_finish(in, p)))
+        rc = (kwpy_raise(st, keys ? NULL : context), -1);
+    kw_protocol_input_destroy(in);
+    return rc;
+}
+
 /* the reference protocol's SNR factor (0 when none) */
 static int reference_factor(PyObject *reference, double *factor)
 {

@@ -17,6 +17,7 @@
 
 #include "kw_base.h"
 #include "kw_params.h"
+#include "kw_protocol.h"
 #include "kw_units.h"
 
 /* ---- errors ---------------------------------------------------------------- */
@@ -109,6 +110,15 @@ PyObject *kwpy_namespace(PyObject *fields);
  * (libencode/fft_lock.h), so the parts call it from any thread with the GIL
  * released; each object's own lock keeps one call at a time per object. */
 
+/* ---- protocols (_plan.c) ---------------------------------------------------- */
+
+/*! kwpy_protocol_build(): the protocol of the file `path` (may be NULL) with
+ * the keywords vals[k] (NULL: not given) for the keys `keys` (NULL: none)
+ * applied over it, as `kweave plan` reads its options; errors name
+ * `context` ("protocol", "reference") or the key. 0, or -1 raised. */
+int kwpy_protocol_build(PyObject *path, const char *const *keys, PyObject *const *vals,
+                        kw_protocol *p, const char *context);
+
 /* ---- the parts -------------------------------------------------------------- */
 
 /* Each part adds its functions and types to the module; 0 or -1. */
@@ -118,6 +128,7 @@ int kwpy_add_recon(PyObject *m);
 int kwpy_add_acquire(PyObject *m);
 int kwpy_add_pattern(PyObject *m);
 int kwpy_add_plan(PyObject *m);
+int kwpy_add_preview(PyObject *m);
 
 /*! kwpy_add_functions(): add a NULL-terminated PyMethodDef table. */
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs);
