@@ -37,6 +37,11 @@ Then the planner's text reports (10 files, every one a plan report; the JSON
 unchanged): their names now come from the names table too, so the readout
 gradient line gives the gradient and slew limits by name and the
 slice-select line "RF pulse 2.000 ms, TBW 4".
+Then the grid path of exact Cartesian encoding (issue 19: each shape's
+transform once on the grids the coil series needs): the demo's k-space
+(one value of 524,288 by one float step, 9.7e-12 relative), its
+reconstruction (6.3e-10) and the scores in recon.json, score.json and
+report.json at the 13th digit; every other output byte-identical (5 files).
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
