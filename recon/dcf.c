@@ -45,7 +45,17 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
         double r = hypot(kx, ky);
         if (r > rmax)
             rmax = r;
-        if (r < 1e-6)
+    }
+    /* A sample within ctol of k = 0 is the centre: relative to the extent,
+     * so that a trajectory integrated from sampled gradients (its centre a
+     * few 1e-6 cycles/FOV off in float) is not taken for a first ring of
+     * radius 1e-6 (which made every weight, and the image, tiny). The
+     * innermost true ring is half a step or more out: 0.5 / rmax >= 1.2e-4
+     * of the extent up to matrix 8192, far above 1e-5. */
+    const double ctol = fmax(1e-6, 1e-5 * rmax);
+    for (size_t j = 0; j < ns; j++) {
+        double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
+        if (r < ctol)
             centre = 1;
         else if (r < rmin)
             rmin = r;
@@ -94,7 +104,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
         if (t >= KW_PI - 1e-9)
             t -= KW_PI;
         th[j] = t;
-        if (hypot(kx, ky) >= 1e-6)
+        if (hypot(kx, ky) >= ctol)
             u[nu++] = t;
         else
             ncentre++;
@@ -106,7 +116,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
             u[m++] = u[i];
     for (size_t j = 0; j < ns; j++) {
         double r = hypot(traj[j * ndim], traj[j * ndim + 1]);
-        if (r >= 1e-6 && fabs(r - rmin) < 0.25 * dr)
+        if (r >= ctol && fabs(r - rmin) < 0.25 * dr)
             cnt[nearest(u, m, th[j])]++;
     }
     for (size_t j = 0; j < ns; j++) {
@@ -117,7 +127,7 @@ kw_status kw_dcf_radial(int ndim, size_t ns, const float *traj, float *w)
          * Stegun 23.1.30) with g(r) = 2 pi r f(r), g(0) = 0, g'(0) = 2 pi f(0)
          * gives sum_{m>=1} g(m dr) dr = int g - 2 pi f(0) dr^2 / 12 + O(dr^4),
          * so the centre carries pi dr^2 / 6 */
-        if (r < 1e-6) {
+        if (r < ctol) {
             w[j] = (float)(KW_PI * dr * dr / 6 * dz * (double)nplanes / (double)ncentre);
             continue;
         }

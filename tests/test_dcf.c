@@ -43,6 +43,34 @@ Test(dcf, radial_matches_voronoi_area)
     free(w);
 }
 
+/* A trajectory integrated from sampled gradients (kweave waveform) puts its
+ * centre samples a few 1e-6 cycles/FOV off k = 0 in float: they are still
+ * the centre, and every weight stays the Voronoi one (before: the 3e-6
+ * sample was taken for a first ring, dr = 6e-6, every weight ~1e-6 too
+ * small). */
+Test(dcf, radial_centre_off_by_rounding)
+{
+    size_t ns = 50, n = 32;
+    float *t = radial(ns, n), *w = malloc(ns * n * sizeof *w);
+    for (size_t s = 0; s < ns; s++) { /* the centre sample of each spoke */
+        size_t j = s * n + n / 2;
+        t[2 * j] = (float)(3e-6 * cos(0.7 * (double)s));
+        t[2 * j + 1] = (float)(-2e-6 * sin(1.3 * (double)s));
+    }
+    cr_assert_eq(kw_dcf_radial(2, ns * n, t, w), KW_OK, "%s", kw_last_error());
+    double worst = 0;
+    for (size_t j = 0; j < ns * n; j++) {
+        double r = hypot(t[2 * j], t[2 * j + 1]);
+        double ref = r < 1e-4 ? KW_PI / 6 / ns : KW_PI * r / ns;
+        double e = fabs(w[j] - ref) / ref;
+        if (e > worst)
+            worst = e;
+    }
+    cr_expect(worst < 1e-4, "worst rel deviation %g", worst);
+    free(t);
+    free(w);
+}
+
 /* A lattice of spacing 1/2 cycle/FOV has Voronoi cells of area 1/4. */
 Test(dcf, pipe_fine_lattice_quarter)
 {
