@@ -65,6 +65,10 @@ KIND = {"ellipse": 0, "rect": 1, "ellipsoid": 2, "box": 3}
 
 
 def bind(lib):
+    """A private handle with this file's argument types: set on the session's
+    shared handle they would leak into other files' calls (kw_phantom_make
+    takes a buffer there)."""
+    lib = C.CDLL(lib._name)
     lib.kw_sim_create.argtypes = [C.POINTER(C.c_void_p), C.POINTER(SimOptions)]
     lib.kw_sim_execute.argtypes = [C.c_void_p, C.c_void_p, C.c_void_p, C.c_void_p]
     lib.kw_sim_destroy.argtypes = [C.c_void_p]
@@ -75,6 +79,7 @@ def bind(lib):
     lib.kw_last_error.restype = C.c_char_p
     lib.kw_phantom_make.argtypes = [C.POINTER(Phantom), C.c_char_p]
     lib.kw_sim_options_init.argtypes = [C.POINTER(SimOptions)]
+    return lib
 
 
 def options(lib, ph, n, coef=None, L=0, Lz=0, period=1.5, **kw):
@@ -139,7 +144,7 @@ CASES = ["sl-2d", "weave-gre-bandwidth", "weave-epi-times-mask", "weave3d", "per
 
 @pytest.mark.parametrize("case", CASES)
 def test_grid_path_equals_per_sample_path(lib, case):
-    bind(lib)
+    lib = bind(lib)
     rng = np.random.default_rng(CASES.index(case) + 1)
     gre = Contrast(1, 3.0, 0.02, 0.1, 0.0, np.deg2rad(30))  # KW_CONTRAST_GRE
     kw = {}
@@ -184,7 +189,7 @@ def test_grid_path_equals_per_sample_path(lib, case):
 
 def test_grid_path_thread_counts_bit_identical(lib):
     """docs/api.md: results are bit-identical for any thread count."""
-    bind(lib)
+    lib = bind(lib)
     omp = C.CDLL("libgomp.so.1")
     ph = made(lib, "weave")
     rng = np.random.default_rng(7)
@@ -200,7 +205,7 @@ def test_grid_path_thread_counts_bit_identical(lib):
 
 def test_path_choice(lib):
     """A trajectory, a field gradient and no coils take the per-sample path."""
-    bind(lib)
+    lib = bind(lib)
     ph = made(lib, "shepp-logan")
     rng = np.random.default_rng(3)
     coef = series(rng, 2, 9)
@@ -269,7 +274,7 @@ def phantom_of(shapes, ndim):
 def test_grid_path_against_numpy_2d(lib):
     """Ellipses (one rotated) and a rotated and an aligned rectangle times a
     random order-2 series, 20 x 24 samples, period 1.5."""
-    bind(lib)
+    lib = bind(lib)
     shapes = [dict(kind="ellipse", center=(0.05, -0.02, 0), axes=(0.7, 0.8, 0), angle=0.0, value=1.0),
               dict(kind="ellipse", center=(0.2, 0.1, 0), axes=(0.15, 0.3, 0), angle=0.4, value=-0.4),
               dict(kind="rect", center=(-0.3, 0.2, 0), axes=(0.1, 0.2, 0), angle=0.0, value=0.3),
@@ -287,7 +292,7 @@ def test_grid_path_against_numpy_2d(lib):
 def test_grid_path_against_numpy_3d(lib):
     """Ellipsoids and a box times a random series of orders 1 (x, y) and 1
     (z), 10 x 12 x 14 samples."""
-    bind(lib)
+    lib = bind(lib)
     shapes = [dict(kind="ellipsoid", center=(0, 0.05, -0.1), axes=(0.7, 0.6, 0.8), angle=0.0, value=1.0),
               dict(kind="ellipsoid", center=(0.3, -0.2, 0.1), axes=(0.2, 0.1, 0.3), angle=0.5, value=0.5),
               dict(kind="box", center=(-0.2, 0.2, 0.0), axes=(0.1, 0.15, 0.2), angle=0.0, value=-0.3)]
