@@ -290,6 +290,17 @@ KW_API kw_status kw_waveform_actual(const kw_waveform *w, double *g);
  * gradient (exact), the same sample times. */
 KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, float *t);
 
+/*! kw_waveform_girf_split(): a GIRF table held as one complex array
+ * table[rows * (1 + axes)], C order (rows, 1 + axes): column 0 the
+ * frequency in Hz (imaginary part 0), column 1 + a H(f) of axis a; into
+ * *freq_hz[rows] and *h[axes * rows] (C order (axes, rows)), both
+ * kw_alloc'd (kw_free()), for kw_waveform_options' girf_* fields (which
+ * kw_waveform_create() checks). KW_EINVAL naming "girf": NULL, no rows,
+ * axes outside 1..3, a frequency that is not real (its row in the
+ * reason); *freq_hz and *h are then NULL. */
+KW_API kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, double **freq_hz,
+                                        kw_cdouble **h);
+
 /*! kw_waveform_pns_limit(): fraction x rheobase x (1 + chronaxie / t_eff)
  * in T/s (NaN for t_eff <= 0 or non-finite arguments). */
 KW_API double kw_waveform_pns_limit(double t_eff_s, double rheobase, double chronaxie_s,

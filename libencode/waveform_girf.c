@@ -152,3 +152,33 @@ double kw_waveform_girf_integral(const struct kw_waveform *w, int a, double t)
     const double d = t - (double)i * h, g0 = w->ga[i * na + (size_t)a], s = (w->ga[(i + 1) * na + (size_t)a] - g0) / h;
     return w->gaf[i * na + (size_t)a] + g0 * d + 0.5 * s * d * d;
 }
+
+kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, double **freq_hz,
+                                 kw_cdouble **h)
+{
+    KW_FAIL_PARAM(!freq_hz || !h, KW_EINVAL, "girf", "NULL argument");
+    *freq_hz = NULL;
+    *h = NULL;
+    KW_FAIL_PARAM(!table || !rows, KW_EINVAL, "girf", "no rows given");
+    KW_FAIL_PARAM(axes < 1 || axes > 3, KW_EINVAL, "girf", "%d axes; 1 to 3", axes);
+    const size_t nc = (size_t)axes + 1;
+    for (size_t j = 0; j < rows; j++)
+        KW_FAIL_PARAM(cimagf(table[j * nc]) != 0, KW_EINVAL, "girf",
+                      "row %zu: the frequency (column 0) %g%+gi Hz is not real", j, (double)crealf(table[j * nc]),
+                      (double)cimagf(table[j * nc]));
+    double *f = kw_alloc_n(rows, sizeof *f);
+    kw_cdouble *hv = kw_alloc_n(rows * (size_t)axes, sizeof *hv);
+    if (!f || !hv) {
+        kw_free(f);
+        kw_free(hv);
+        KW_FAIL_IF(1, KW_ENOMEM, "girf: out of memory for %zu rows", rows);
+    }
+    for (size_t j = 0; j < rows; j++) {
+        f[j] = crealf(table[j * nc]);
+        for (size_t c = 0; c + 1 < nc; c++)
+            hv[c * rows + j] = (double)crealf(table[j * nc + 1 + c]) + I * (double)cimagf(table[j * nc + 1 + c]);
+    }
+    *freq_hz = f;
+    *h = hv;
+    return KW_OK;
+}
