@@ -896,3 +896,51 @@ Test(waveform, girf_fields_are_checked)
     cr_expect(kw_waveform_has_imperfection(w));
     kw_waveform_destroy(w);
 }
+
+/* The GIRF under a sweep of allocation budgets (every refusal frees what
+ * the call took), and kw_waveform_girf_split() of a complex table. */
+Test(waveform, girf_allocation_budget_and_split)
+{
+    const size_t n = 300;
+    double *g = calloc(2 * n, sizeof *g);
+    trap(g, 2, 0, 10, 20, 50, 45e-3);
+    trap(g, 2, 1, 100, 5, 30, -20e-3);
+    kw_cfloat table[3 * 3] = {0, 1, 2, 1e3, 0.5f + 0.25f * I, 3, 2e3, 0.25f, -1};
+    double *f = NULL;
+    kw_cdouble *hv = NULL;
+    cr_assert_eq(kw_waveform_girf_split(table, 3, 2, &f, &hv), KW_OK, "%s", kw_last_error());
+    cr_expect(f[0] == 0 && f[1] == 1e3 && f[2] == 2e3);
+    cr_expect(hv[0] == 1 && hv[1] == 0.5 + 0.25 * I && hv[2] == 0.25); /* axis x */
+    cr_expect(hv[3] == 2 && hv[4] == 3 && hv[5] == -1);                /* axis y */
+    kw_waveform_adc adc = {1e-3, 5e-6, 40};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 50e-6;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = 3;
+    o.girf_axes = 2;
+    kw_memory_set_limit(0);
+    const size_t base = kw_memory_in_use();
+    kw_memory_reset_peak();
+    cr_assert_eq(budget_run(g, n, &o), KW_OK, "%s", kw_last_error());
+    const size_t peak = kw_memory_peak() - base;
+    for (size_t lim = 0; lim <= peak + 64; lim += 512) {
+        kw_memory_set_limit(base + lim);
+        kw_status st = budget_run(g, n, &o);
+        cr_expect(st == KW_OK || st == KW_ENOMEM, "limit %zu: status %d", lim, st);
+        kw_memory_set_limit(0);
+        cr_expect_eq(kw_memory_in_use(), base, "limit %zu: bytes held afterwards", lim);
+    }
+    kw_free(f);
+    kw_free(hv);
+    table[6] = 2e3f + 1e-3f * I;
+    cr_expect_eq(kw_waveform_girf_split(table, 3, 2, &f, &hv), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "girf");
+    cr_expect(strstr(kw_last_error(), "row 2") != NULL, "%s", kw_last_error());
+    cr_expect_null(f);
+    cr_expect_null(hv);
+    free(g);
+}
