@@ -26,7 +26,7 @@ static const char USAGE[] =
     "usage: kweave waveform --in G.npy [--rf-centre T] [--raster T] [--adc START:N:DWELL[,...]]\n"
     "                       [--te T] [--gmax G] [--slew S] [--fov L[,LY[,LZ]]]\n"
     "                       [--json F] [--trajectory K.npy] [--png F] [--delay D] [--lowpass T | --eddy A:T]\n"
-    "                       [--trajectory-actual K.npy] [--estimate-delay KS.npy]\n"
+    "                       [--girf H.npy] [--trajectory-actual K.npy] [--estimate-delay KS.npy]\n"
     "\n"
     "Checks a gradient waveform of your own: G.npy is float32/float64 (samples, axes)\n"
     "in T/m (or G.csv / G.txt, a table of one sample a line), axes x, y, z (1 to 3),\n"
@@ -43,7 +43,7 @@ static const char USAGE[] =
 
 typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
-    const char *delay, *lowpass, *eddy, *traj_actual, *estimate;
+    const char *delay, *lowpass, *eddy, *traj_actual, *estimate, *girf;
     double raster, rf, te, tr, gmax, slew, radius;
     int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector, held;
 } wf_args;
@@ -53,7 +53,7 @@ static const kw_cli_param PARAM_MAP[] = {
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
     {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"}, {"held", "held"},
-    {NULL, NULL},
+    {"girf", "girf"},       {"girf_freq_hz", "girf"}, {"girf_axes", "girf"}, {NULL, NULL},
 };
 
 /* ---- input ---------------------------------------------------------------------------- */
@@ -66,12 +66,10 @@ static int read_sidecar(wf_args *a, kw_waveform_adc **adc, size_t *nadc)
     if (!path)
         return -1;
     FILE *f = a->s_sidecar ? NULL : fopen(path, "rb");
-    if (!a->s_sidecar && !f) { /* none beside the waveform: the options alone */
-        free(path);
-        return -1;
-    }
     if (f)
         fclose(f);
+    else if (!a->s_sidecar) /* none beside the waveform: the options alone */
+        return free(path), -1;
     cJSON *j = NULL;
     kw_status st = kw_json_read(path, &j);
     free(path);
@@ -129,42 +127,39 @@ static int read_table(const char *path, double **g, size_t *n, int *axes)
     FILE *f = fopen(path, "rb");
     if (!f)
         return kw_cli_fail("in", "%s: cannot be read", path);
-    char *text = NULL;
-    size_t len = 0, cap = 0;
-    int bad = 0;
-    for (;;) {
-        if (len + 4096 + 1 > cap) {
-            char *t = realloc(text, cap = 2 * cap + 8192);
-            if (!t) {
-                bad = 1;
-                break;
-            }
-            text = t;
-        }
-        size_t r = fread(text + len, 1, cap - len - 1, f);
-        len += r;
-        if (r == 0)
-            break;
-    }
-    bad |= ferror(f) || !text;
+    long len = fseek(f, 0, SEEK_END) == 0 ? ftell(f) : -1;
+    char *text = len >= 0 && fseek(f, 0, SEEK_SET) == 0 ? malloc((size_t)len + 1) : NULL;
+    kw_status st = !text || fread(text, 1, (size_t)len, f) != (size_t)len ? KW_EIO : KW_OK;
     fclose(f);
-    kw_status st = bad ? KW_EIO : (text[len] = '\0', kw_outfile_note_input(path));
-    if (!st)
+    if (!st && !(st = (text[len] = '\0', kw_outfile_note_input(path))))
         st = kw_waveform_table_parse(text, g, n, axes);
     free(text);
     return st ? kw_cli_lib_status(st, "in", PARAM_MAP) : -1;
 }
 
-static int has_suffix(const char *s, const char *suf)
+/* --girf H.npy: complex (frequencies, 1 + axes), split by the library
+ * (kw_waveform_girf_split()); f and h kw_alloc'd. */
+static int read_girf(const char *path, int axes, double **f, kw_cdouble **h, size_t *nf)
 {
-    size_t n = strlen(s), m = strlen(suf);
-    return n >= m && strcmp(s + n - m, suf) == 0;
+    kw_array a = {0};
+    kw_status st = kw_array_read_complex(path, &a);
+    if (st)
+        return kw_cli_status(st, "girf");
+    int rc = -1;
+    if (a.dtype != KW_C64 || a.ndim != 2 || a.dims[1] != (size_t)axes + 1)
+        rc = kw_cli_fail("girf", "expected complex (frequencies, %d): the frequency in Hz, then H of each of "
+                         "the waveform's %d axes", axes + 1, axes);
+    else if ((st = kw_waveform_girf_split(a.data, *nf = a.dims[0], axes, f, h)))
+        rc = kw_cli_lib_status(st, "girf", PARAM_MAP);
+    kw_array_free(&a);
+    return rc;
 }
 
 /* The waveform (samples, axes) as doubles: .npy / HDF5, or a text table. */
 static int read_waveform(const char *path, double **g, size_t *n, int *axes)
 {
-    if (has_suffix(path, ".csv") || has_suffix(path, ".txt"))
+    const char *dot = strrchr(path, '.');
+    if (dot && (strcmp(dot, ".csv") == 0 || strcmp(dot, ".txt") == 0))
         return read_table(path, g, n, axes);
     kw_array a = {0};
     kw_status st = kw_array_read(path, &a);
@@ -202,10 +197,8 @@ static char *times_path(const char *out)
 {
     size_t n = strlen(out), stem = n > 4 && strcmp(out + n - 4, ".npy") == 0 ? n - 4 : n;
     char *s = malloc(stem + 11);
-    if (s) {
-        memcpy(s, out, stem);
-        memcpy(s + stem, "_times.npy", 11);
-    }
+    if (s)
+        snprintf(s, stem + 11, "%.*s_times.npy", (int)stem, out);
     return s;
 }
 
@@ -551,7 +544,10 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     kw_waveform_moments e;
     if (!isnan(o->te_s) && kw_waveform_moments_at(w, o->te_s, &e) == KW_OK)
         print_moments("echo (TE)", &e, s->axes);
-    if (kw_waveform_has_imperfection(w))
+    if (o->girf_nfreq)
+        printf("actual gradient: through the GIRF's transfer function, %zu frequencies (Vannesjo et al. 2013; "
+               "H = 0 beyond the last)\n", o->girf_nfreq);
+    else if (kw_waveform_has_imperfection(w))
         for (int a = 0; a < s->axes; a++)
             printf("actual gradient, axis %s: delay %g us, response term amplitude %g, time constant %g us\n",
                    an[a], o->delay_s[a] * 1e6, o->response_amp[a], o->response_tau_s[a] * 1e6);
@@ -677,6 +673,8 @@ static int run(wf_args *a)
     int axes = 0;
     kw_waveform_adc *adc = NULL;
     kw_waveform *w = NULL;
+    double *gf = NULL;
+    kw_cdouble *gh = NULL;
     char *js = NULL;
     kw_waveform_options o;
     kw_waveform_options_init(&o);
@@ -689,6 +687,11 @@ static int run(wf_args *a)
         rc = parse_imperfections(a, &o);
     if (rc < 0)
         rc = read_waveform(a->in, &g, &n, &axes);
+    if (rc < 0 && a->girf && (rc = read_girf(a->girf, axes, &gf, &gh, &o.girf_nfreq)) < 0) {
+        o.girf_freq_hz = gf;
+        o.girf = gh;
+        o.girf_axes = axes;
+    }
     if (rc >= 0)
         goto done;
     if (a->s_raster)
@@ -712,18 +715,13 @@ static int run(wf_args *a)
         goto done;
     if (a->traj_actual && (rc = write_trajectory(a, w, a->traj_actual, NULL, 1)) >= 0)
         goto done;
-    if (a->png && (st = write_png(a->png, g, n, axes, w, &o))) {
-        rc = kw_cli_status(st, "png");
+    if (a->png && (st = write_png(a->png, g, n, axes, w, &o)) && (rc = kw_cli_status(st, "png")) >= 0)
         goto done;
-    }
     double est = NAN;
     if (a->estimate && (rc = estimate_delay(a->estimate, &o, &est)) >= 0)
         goto done;
     if (a->json) {
-        st = kw_waveform_report_json(w, &js);
-        if (!st)
-            st = write_json(a->json, js, est);
-        if (st) {
+        if ((st = kw_waveform_report_json(w, &js)) || (st = write_json(a->json, js, est))) {
             rc = kw_cli_status(st, "json");
             goto done;
         }
@@ -740,6 +738,8 @@ done:
     kw_waveform_destroy(w);
     kw_free(g);
     free(adc);
+    kw_free(gf);
+    kw_free(gh);
     return rc;
 }
 
@@ -779,6 +779,8 @@ int kw_cmd_waveform(int argc, char **argv)
          "eddy-current term AMP:TAU[,...] per axis, e.g. 0.02:50us (one: every axis; default: none)"},
         {"trajectory-actual", KW_OPT_STRING, &a.traj_actual, 0, NULL,
          "write the actual gradient's k-space (.npy) + times + sidecar, as --trajectory (default: none)"},
+        {"girf", KW_OPT_STRING, &a.girf, 0, NULL, "measured gradient impulse response: complex .npy (frequencies, "
+         "1 + axes), column 0 the frequency in Hz, then H(f) per axis (Vannesjo et al. 2013; default: none)"},
         {"png", KW_OPT_STRING, &a.png, 0, NULL, "picture of G and slew per axis with the limits (default: none)"},
         {"estimate-delay", KW_OPT_STRING, &a.estimate, 0, NULL,
          "radial k-space .npy (coils, samples) taken with these ADC windows as spokes (window s opposed to s + "
@@ -792,7 +794,7 @@ int kw_cmd_waveform(int argc, char **argv)
         return kw_cli_fail("in", "missing (--in G.npy)");
     if (a.times && !a.traj)
         return kw_cli_fail("times", "only with --trajectory");
-    if (a.traj_actual && !a.delay && !a.lowpass && !a.eddy)
-        return kw_cli_fail("trajectory-actual", "needs an imperfection: --delay, --lowpass or --eddy");
+    if (a.traj_actual && !a.delay && !a.lowpass && !a.eddy && !a.girf)
+        return kw_cli_fail("trajectory-actual", "needs an imperfection: --delay, --lowpass, --eddy or --girf");
     return run(&a);
 }

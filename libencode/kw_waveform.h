@@ -58,6 +58,24 @@
  * (the area the lag holds back). The moments, limits and ramps above are
  * those of the nominal waveform.
  *
+ * Actual gradient: GIRF. When the options give a sampled transfer function
+ * H(f) per axis (girf_*), the actual samples are the nominal samples
+ * filtered by H: zero-padded to N >= 2 samples (the next power of 2;
+ * a response tail shorter than the waveform's span does not wrap onto it),
+ * a discrete Fourier transform in double precision, each bin f_k = k / (N
+ * raster) (|f_k| <= 1 / (2 raster)) times H(f_k), the inverse transform.
+ * H(f_k) is interpolated linearly in its real and imaginary parts between
+ * the given frequencies; below the first given frequency f_0 > 0 between
+ * conj H(f_0) at -f_0 and H(f_0) at f_0; H(-f) = conj H(f) (a real
+ * response); the DC and Nyquist bins take the real part; ABOVE THE LAST
+ * GIVEN FREQUENCY H = 0 (nothing is assumed outside the measured band;
+ * give H up to 1 / (2 raster) to keep the whole band of the samples).
+ * H = 1 to 1 / (2 raster) returns the nominal samples (to double
+ * rounding); H = exp(-i 2 pi f d) with d a whole number of rasters delays
+ * them by d (to the interpolation of the phase). The actual gradient is
+ * then linear between its samples, and the actual k-space its exact
+ * integral, as for the nominal waveform.
+ *
  * Object model: kw_waveform_create() checks and computes everything and
  * keeps it; the accessors return pointers into the object, valid until
  * kw_waveform_destroy() (NULL-safe). The object is read-only after create:
@@ -72,7 +90,11 @@
  * off the raster, outside the waveform, before the RF centre, dwell <= 0,
  * no samples; the window's number in the reason), "pns_radius_m",
  * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
- * "response_tau_s", "response_amp", "options".
+ * "response_tau_s", "response_amp", "girf" (a NULL array, a count below
+ * 2, a non-finite value, combined with a delay or a response term, a held
+ * waveform), "girf_freq_hz" (non-finite, negative or not strictly
+ * increasing: the index in the reason), "girf_axes" (not the waveform's),
+ * "options".
  */
 #ifndef KW_WAVEFORM_H
 #define KW_WAVEFORM_H
@@ -132,6 +154,19 @@ typedef struct kw_waveform_options {
      * between samples (default). The actual-gradient calls refuse held
      * waveforms in this version (KW_ENOTSUP naming "held"). */
     int held;
+    /* A measured gradient impulse response (GIRF; Vannesjo et al., "Gradient
+     * system characterization by impulse response measurements with a
+     * dynamic field camera", MRM 69:583-593, 2013) as a sampled transfer
+     * function (see "Actual gradient: GIRF"): girf_nfreq (>= 2)
+     * frequencies girf_freq_hz (Hz, >= 0, strictly increasing) and
+     * girf[girf_axes * girf_nfreq] (C order (axes, nfreq)) the complex
+     * H(f) per axis; girf_axes must equal the waveform's axes. NULL / 0:
+     * none (default). Not combined with delay_s or a response term: put
+     * those into H (KW_EINVAL naming "girf"). */
+    const double *girf_freq_hz;
+    const kw_cdouble *girf;
+    size_t girf_nfreq;
+    int girf_axes;
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
@@ -243,7 +278,8 @@ KW_API kw_status kw_waveform_moments_at(const kw_waveform *w, double t_s, kw_wav
 KW_API kw_status kw_waveform_trajectory(const kw_waveform *w, float *k, float *t);
 
 /*! kw_waveform_has_imperfection(): 1 when a delay or a response term is
- * set on some axis (the actual gradient differs from the nominal). */
+ * set on some axis, or a GIRF is given (the actual gradient differs from
+ * the nominal). */
 KW_API int kw_waveform_has_imperfection(const kw_waveform *w);
 
 /*! kw_waveform_actual(): the actual gradient (see above) at every sample
@@ -253,6 +289,17 @@ KW_API kw_status kw_waveform_actual(const kw_waveform *w, double *g);
 /*! kw_waveform_trajectory_actual(): kw_waveform_trajectory() of the actual
  * gradient (exact), the same sample times. */
 KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, float *t);
+
+/*! kw_waveform_girf_split(): a GIRF table held as one complex array
+ * table[rows * (1 + axes)], C order (rows, 1 + axes): column 0 the
+ * frequency in Hz (imaginary part 0), column 1 + a H(f) of axis a; into
+ * *freq_hz[rows] and *h[axes * rows] (C order (axes, rows)), both
+ * kw_alloc'd (kw_free()), for kw_waveform_options' girf_* fields (which
+ * kw_waveform_create() checks). KW_EINVAL naming "girf": NULL, no rows,
+ * axes outside 1..3, a frequency that is not real (its row in the
+ * reason); *freq_hz and *h are then NULL. */
+KW_API kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, double **freq_hz,
+                                        kw_cdouble **h);
 
 /*! kw_waveform_pns_limit(): fraction x rheobase x (1 + chronaxie / t_eff)
  * in T/s (NaN for t_eff <= 0 or non-finite arguments). */

@@ -214,6 +214,8 @@ void kw_waveform_destroy(kw_waveform *w)
     kw_free(w->adcm);
     kw_free(w->lp);
     kw_free(w->f0);
+    kw_free(w->ga);
+    kw_free(w->gaf);
     kw_free(w);
 }
 
@@ -246,6 +248,8 @@ static kw_status fill(struct kw_waveform *w, const double *g)
         moments(w, centre - w->o.rf_centre_s, &w->adcm[i]);
     }
     kw_status st = kw_waveform_actual_prepare(w);
+    if (!st)
+        st = kw_waveform_girf_prepare(w);
     return st ? st : kw_waveform_check_limits(w);
 }
 
@@ -259,7 +263,8 @@ kw_status kw_waveform_create(kw_waveform **out, const double *g, size_t samples,
     kw_status st = kw_options_take(&o, sizeof o, opts, "options");
     if (st)
         return st;
-    if ((st = check_samples(g, samples, axes)) || (st = check_options(&o, samples)))
+    if ((st = check_samples(g, samples, axes)) || (st = check_options(&o, samples)) ||
+        (st = kw_waveform_girf_check(&o, axes)))
         return st;
     struct kw_waveform *w = kw_alloc(sizeof *w);
     KW_FAIL_IF(!w, KW_ENOMEM, "waveform: out of memory");

@@ -125,6 +125,8 @@ int kw_waveform_has_imperfection(const kw_waveform *w)
 {
     if (!w)
         return 0;
+    if (w->ga)
+        return 1;
     for (int a = 0; a < w->axes; a++)
         if (w->o.delay_s[a] != 0 || w->o.response_amp[a] != 0)
             return 1;
@@ -136,6 +138,10 @@ kw_status kw_waveform_actual(const kw_waveform *w, double *g)
     KW_FAIL_PARAM(!w || !g, KW_EINVAL, "waveform", "NULL argument");
     KW_FAIL_PARAM(w->o.held, KW_ENOTSUP, "held", "not supported for a waveform of held samples");
     const double h = w->o.raster_s;
+    if (w->ga) {
+        memcpy(g, w->ga, w->n * (size_t)w->axes * sizeof *g);
+        return KW_OK;
+    }
     for (size_t i = 0; i < w->n; i++)
         for (int a = 0; a < w->axes; a++) {
             const double al = w->o.response_amp[a];
@@ -149,6 +155,8 @@ kw_status kw_waveform_actual(const kw_waveform *w, double *g)
 /* integral of the actual gradient on axis a from the start to t */
 static double actual_integral(const struct kw_waveform *w, int a, double t)
 {
+    if (w->ga)
+        return kw_waveform_girf_integral(w, a, t);
     const double al = w->o.response_amp[a];
     double g, f, y, iy;
     eval(w, a, t - w->o.delay_s[a], &g, &f, &y, &iy);

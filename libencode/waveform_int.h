@@ -27,6 +27,9 @@ struct kw_waveform {
     double *lp;  /* (2, axes, n): the response y at sample i and its
                   * integral from the start to sample i (NULL: no term) */
     double *f0;  /* (axes, n): integral of G from the start to sample i */
+    double *ga;  /* (n, axes): the actual samples through the GIRF (NULL: none) */
+    double *gaf; /* (n, axes): their integral from the start to sample i */
+    double girf_band[2]; /* the GIRF's first and last frequency, Hz */
 };
 
 /* waveform_check.c: peaks, RMS, violations and ramps into w (allocates
@@ -37,5 +40,13 @@ kw_status kw_waveform_check_limits(struct kw_waveform *w);
  * and the tables of the actual gradient (allocates w->lp, w->f0). */
 kw_status kw_waveform_actual_check(const kw_waveform_options *o, double span);
 kw_status kw_waveform_actual_prepare(struct kw_waveform *w);
+
+/* waveform_girf.c: the checks of the girf_* fields (naming them), the
+ * actual samples through the GIRF and their integral (allocates w->ga,
+ * w->gaf; forgets the caller's arrays in w->o), the integral from the
+ * start to t on axis a. */
+kw_status kw_waveform_girf_check(const kw_waveform_options *o, int axes);
+kw_status kw_waveform_girf_prepare(struct kw_waveform *w);
+double kw_waveform_girf_integral(const struct kw_waveform *w, int a, double t);
 
 #endif

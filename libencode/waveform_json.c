@@ -139,6 +139,18 @@ static void add_pns(cJSON *j, const struct kw_waveform *w)
         cJSON_AddItemToArray(arr, ramp_json(&w->ramps[i]));
 }
 
+/* the GIRF's band (only when one is given: the keys of other reports stay) */
+static void add_girf(cJSON *j, const struct kw_waveform *w)
+{
+    cJSON *g = cJSON_AddObjectToObject(j, "girf");
+    if (!g)
+        return;
+    add_num(g, "frequencies", (double)w->o.girf_nfreq);
+    kw_json_add_vec(g, "band_Hz", w->girf_band, 2);
+    cJSON_AddStringToObject(g, "beyond_band", "H = 0");
+    cJSON_AddStringToObject(g, "method", "GIRF as a sampled transfer function (Vannesjo et al. 2013)");
+}
+
 kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
 {
     KW_FAIL_PARAM(!json, KW_EINVAL, "json", "NULL argument");
@@ -177,6 +189,8 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
                 kw_json_add_vec(ac, "delay_s", o->delay_s, s->axes);
                 kw_json_add_vec(ac, "response_tau_s", o->response_tau_s, s->axes);
                 kw_json_add_vec(ac, "response_amp", o->response_amp, s->axes);
+                if (w->ga)
+                    add_girf(ac, w);
             }
         } else {
             cJSON_AddNullToObject(j, "actual");
@@ -300,6 +314,8 @@ kw_status kw_waveform_trajectory_json(const kw_waveform *w, int actual, const ch
             kw_json_add_vec(j, "delay_s", o->delay_s, na);
             kw_json_add_vec(j, "response_tau_s", o->response_tau_s, na);
             kw_json_add_vec(j, "response_amp", o->response_amp, na);
+            if (w->ga)
+                add_girf(j, w);
         }
         cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
     }

@@ -714,3 +714,233 @@ Test(waveform, spiral_design_imported_back_is_the_pattern)
     }
     kw_pattern_destroy(p);
 }
+
+/* ---- the actual gradient through a sampled transfer function (GIRF) ---- */
+
+/* A readout of one cycle/FOV per 10 us on raster h = 10 us / up (prephaser,
+ * then the readout; ramps of 100 us), the ADC on the flat top every 10 us,
+ * run once with a delay / first-order term (closed form) and once with the
+ * GIRF table (f, hv: (nf) for the one axis). Returns the largest
+ * difference of the actual samples (relative to the readout's amplitude)
+ * and of the actual k (cycles/FOV); *dk_nom the largest of k_actual -
+ * k_nominal of the GIRF run. */
+static void girf_vs_closed(size_t up, double delay, double tau, const double *f, const kw_cdouble *hv,
+                           size_t nf, double *dg, double *dk, double *dk_nom)
+{
+    const double h = H / (double)up;
+    const size_t r = 10 * up, fr = 128 * up, fp = fr / 2 - r / 2;
+    const size_t s1 = 10 * up, s2 = s1 + 2 * r + fp, n = s2 + 2 * r + fr + 20 * up;
+    const double Gr = 1.0 / (KW_GAMMA_BAR_P * 0.256 * H);
+    double *g = calloc(n, sizeof *g), *g1 = calloc(n, sizeof *g1), *g2 = calloc(n, sizeof *g2);
+    float k1[128], k2[128], kn[128];
+    trap(g, 1, 0, s1, r, fp, -Gr);
+    trap(g, 1, 0, s2, r, fr, Gr);
+    kw_waveform_adc adc = {(double)(s2 + r) * h, H, 128};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.raster_s = h;
+    o.rf_centre_s = 5 * H;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.delay_s[0] = delay;
+    o.response_tau_s[0] = tau;
+    o.response_amp[0] = tau > 0 ? 1 : 0;
+    kw_waveform *w = make(g, n, 1, &o);
+    cr_assert_eq(kw_waveform_actual(w, g1), KW_OK);
+    cr_assert_eq(kw_waveform_trajectory_actual(w, k1, NULL), KW_OK);
+    kw_waveform_destroy(w);
+    kw_waveform_options_init(&o);
+    o.raster_s = h;
+    o.rf_centre_s = 5 * H;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = nf;
+    o.girf_axes = 1;
+    w = make(g, n, 1, &o);
+    cr_expect(kw_waveform_has_imperfection(w));
+    cr_assert_eq(kw_waveform_actual(w, g2), KW_OK);
+    cr_assert_eq(kw_waveform_trajectory_actual(w, k2, NULL), KW_OK);
+    cr_assert_eq(kw_waveform_trajectory(w, kn, NULL), KW_OK);
+    kw_waveform_destroy(w);
+    *dg = *dk = *dk_nom = 0;
+    for (size_t i = 0; i < n; i++)
+        *dg = fmax(*dg, fabs(g1[i] - g2[i]) / Gr);
+    for (size_t j = 0; j < 128; j++) {
+        *dk = fmax(*dk, fabs((double)k1[j] - (double)k2[j]));
+        *dk_nom = fmax(*dk_nom, fabs((double)k2[j] - (double)kn[j]));
+    }
+    free(g);
+    free(g1);
+    free(g2);
+}
+
+/* the table: nf frequencies 0 .. fmax, H(f) = exp(-i 2 pi f d) /
+ * (1 + i 2 pi f tau) (tau 0: a pure delay; both 0: H = 1) */
+static void girf_table(double fmax, size_t nf, double d, double tau, double *f, kw_cdouble *hv)
+{
+    for (size_t j = 0; j < nf; j++) {
+        f[j] = fmax * (double)j / (double)(nf - 1);
+        const double ph = -2 * M_PI * f[j] * d;
+        const kw_cdouble e = cos(ph) + I * sin(ph);
+        hv[j] = e / (1.0 + I * 2 * M_PI * f[j] * tau);
+    }
+}
+
+#define GIRF_NF 20004
+static double gf[GIRF_NF];
+static kw_cdouble gh[GIRF_NF];
+
+/* H = 1 to the raster's Nyquist frequency (50 kHz): the nominal samples
+ * back to double rounding (the DFT there and back), and the actual k the
+ * nominal one within float output rounding. */
+Test(waveform, girf_identity_is_the_nominal_waveform)
+{
+    double dg, dk, dn;
+    girf_table(50e3, 2, 0, 0, gf, gh);
+    girf_vs_closed(1, 0, 0, gf, gh, 2, &dg, &dk, &dn);
+    cr_expect(dg < 1e-12, "G: %g of the amplitude", dg);
+    cr_expect(dn < 1e-5, "k: %g cycles/FOV from the nominal", dn);
+}
+
+/* H = exp(-i 2 pi f d) against the closed-form delay (G(t - d), linear
+ * between samples). d = 2 rasters: the DFT shifts the zero-padded samples
+ * by exactly 2, so the only difference is the linear interpolation of the
+ * phase ramp between table points 10 Hz apart, which shortens the unit
+ * phasor by at most (2 pi d df)^2 / 8 = 2e-7 (chord of an arc); bound 5e-7
+ * of the amplitude, k within float output rounding (|k| <= 64: 5e-5).
+ * d = 2 us (a fifth of a raster): the GIRF delays the band-limited
+ * interpolant of the samples, the closed form the piecewise-linear one;
+ * they part at the ramps' corners (a kink; measured 7.7e-3 of the
+ * amplitude, bound 1e-2) and their integrals agree closer (k within 2e-3
+ * cycles/FOV, measured 1.6e-3); both move the echo by gamma_bar G d / dk
+ * = 0.2 samples (k_actual - k_nominal = -0.2 on the flat top, within the
+ * same 2e-3). */
+Test(waveform, girf_pure_delay_matches_the_delay)
+{
+    double dg, dk, dn;
+    girf_table(50e3, 5001, 20e-6, 0, gf, gh);
+    girf_vs_closed(1, 20e-6, 0, gf, gh, 5001, &dg, &dk, &dn);
+    cr_expect(dg < 5e-7, "G: %g of the amplitude", dg);
+    cr_expect(dk < 5e-5, "k: %g cycles/FOV", dk);
+    cr_expect(fabs(dn - 2.0) < 5e-5, "echo moved by %g samples, expected 2", dn);
+    girf_table(50e3, 5001, 2e-6, 0, gf, gh);
+    girf_vs_closed(1, 2e-6, 0, gf, gh, 5001, &dg, &dk, &dn);
+    cr_expect(dg < 1e-2, "G: %g of the amplitude", dg);
+    cr_expect(dk < 2e-3, "k: %g cycles/FOV", dk);
+    cr_expect(fabs(dn - 0.2) < 2e-3, "echo moved by %g samples, expected 0.2", dn);
+}
+
+/* H = 1 / (1 + i 2 pi f tau), the first-order low-pass (textbook transfer
+ * function of tau y' = G - y), tau = 20 us, against the closed form of the
+ * same low-pass on the piecewise-linear waveform. The GIRF filters the
+ * samples' band-limited interpolant within the raster's Nyquist band, the
+ * closed form the continuous waveform: a sampling difference that falls
+ * with the raster (measured 3.6e-3 of the amplitude at 10 us, 1.1e-3 at
+ * 5 us, k 4.3e-4 and 7.6e-5 cycles/FOV; bounds 5e-3, 1.5e-3, 1e-3, 2e-4),
+ * and the k lag tau G gamma_bar FOV = 2 cycles/FOV on the flat top. */
+Test(waveform, girf_lowpass_matches_the_lowpass)
+{
+    double dg, dk, dn, prev = 1;
+    const double bg[3] = {5e-3, 1.5e-3, 1.5e-3}, bk[3] = {1e-3, 2e-4, 2e-4};
+    for (size_t up = 1, q = 0; up <= 4; up *= 2, q++) {
+        girf_table(50e3 * (double)up, 5001 * up, 0, 20e-6, gf, gh);
+        girf_vs_closed(up, 0, 20e-6, gf, gh, 5001 * up, &dg, &dk, &dn);
+        cr_expect(dg < bg[q], "raster %g us: G %g of the amplitude", 10.0 / (double)up, dg);
+        cr_expect(dk < bk[q], "raster %g us: k %g cycles/FOV", 10.0 / (double)up, dk);
+        cr_expect(dg < prev, "raster %g us: %g not below %g", 10.0 / (double)up, dg, prev);
+        cr_expect(fabs(dn - 2.0) < 1e-3, "lag %g cycles/FOV, expected 2", dn);
+        prev = dg;
+    }
+}
+
+Test(waveform, girf_fields_are_checked)
+{
+    double g[40] = {0};
+    double f[3] = {0, 1e3, 2e3};
+    kw_cdouble hv[6] = {1, 1, 1, 1, 1, 1};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 0;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = 3;
+    o.girf_axes = 1;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf_axes");
+    o.girf_axes = 2;
+    f[2] = 1e3;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf_freq_hz");
+    f[2] = NAN;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf_freq_hz");
+    f[2] = 2e3;
+    f[0] = -1;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf_freq_hz");
+    f[0] = 0;
+    hv[4] = NAN;
+    expect_refused(g, 20, 2, &o, KW_ENUMERIC, "girf");
+    hv[4] = 1;
+    o.girf_nfreq = 1;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf");
+    o.girf_nfreq = 3;
+    o.girf = NULL;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf");
+    o.girf = hv;
+    o.delay_s[1] = 1e-6;
+    expect_refused(g, 20, 2, &o, KW_EINVAL, "girf");
+    o.delay_s[1] = 0;
+    o.held = 1;
+    expect_refused(g, 20, 2, &o, KW_ENOTSUP, "girf");
+    o.held = 0;
+    kw_waveform *w = make(g, 20, 2, &o);
+    cr_expect(kw_waveform_has_imperfection(w));
+    kw_waveform_destroy(w);
+}
+
+/* The GIRF under a sweep of allocation budgets (every refusal frees what
+ * the call took), and kw_waveform_girf_split() of a complex table. */
+Test(waveform, girf_allocation_budget_and_split)
+{
+    const size_t n = 300;
+    double *g = calloc(2 * n, sizeof *g);
+    trap(g, 2, 0, 10, 20, 50, 45e-3);
+    trap(g, 2, 1, 100, 5, 30, -20e-3);
+    kw_cfloat table[3 * 3] = {0, 1, 2, 1e3, 0.5f + 0.25f * I, 3, 2e3, 0.25f, -1};
+    double *f = NULL;
+    kw_cdouble *hv = NULL;
+    cr_assert_eq(kw_waveform_girf_split(table, 3, 2, &f, &hv), KW_OK, "%s", kw_last_error());
+    cr_expect(f[0] == 0 && f[1] == 1e3 && f[2] == 2e3);
+    cr_expect(hv[0] == 1 && hv[1] == 0.5 + 0.25 * I && hv[2] == 0.25); /* axis x */
+    cr_expect(hv[3] == 2 && hv[4] == 3 && hv[5] == -1);                /* axis y */
+    kw_waveform_adc adc = {1e-3, 5e-6, 40};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 50e-6;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = 3;
+    o.girf_axes = 2;
+    kw_memory_set_limit(0);
+    const size_t base = kw_memory_in_use();
+    kw_memory_reset_peak();
+    cr_assert_eq(budget_run(g, n, &o), KW_OK, "%s", kw_last_error());
+    const size_t peak = kw_memory_peak() - base;
+    for (size_t lim = 0; lim <= peak + 64; lim += 512) {
+        kw_memory_set_limit(base + lim);
+        kw_status st = budget_run(g, n, &o);
+        cr_expect(st == KW_OK || st == KW_ENOMEM, "limit %zu: status %d", lim, st);
+        kw_memory_set_limit(0);
+        cr_expect_eq(kw_memory_in_use(), base, "limit %zu: bytes held afterwards", lim);
+    }
+    kw_free(f);
+    kw_free(hv);
+    table[6] = 2e3f + 1e-3f * I;
+    cr_expect_eq(kw_waveform_girf_split(table, 3, 2, &f, &hv), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "girf");
+    cr_expect(strstr(kw_last_error(), "row 2") != NULL, "%s", kw_last_error());
+    cr_expect_null(f);
+    cr_expect_null(hv);
+    free(g);
+}

@@ -360,3 +360,135 @@ def test_csv_table_reads_as_the_npy(tmp_path):
         f.write("0,0\n1e-3\n")
     refused("waveform", "--in", tmp_path / "bad.csv", "--rf-centre", "0s", "--json", tmp_path / "r.json", opt="in")
     assert not (tmp_path / "r.json").exists()
+
+
+# ---- the actual gradient through a measured GIRF (--girf) ----
+
+
+def girf_file(path, f, hs):
+    """The --girf table: complex (frequencies, 1 + axes), column 0 f in Hz."""
+    np.save(path, np.column_stack([np.asarray(f, np.complex128)] + [np.asarray(h) for h in hs]).astype(np.complex64))
+
+
+def readout_waveform():
+    """Prephaser and readout (ramps 100 us, one cycle/FOV per 10 us in 256
+    mm) on x, a smaller lobe on y; ADC on the readout's flat top."""
+    gr = 1.0 / (GAMMA_BAR * 0.256 * H)
+    n = 10 + 20 + 59 + 20 + 128 + 20 + 20
+    gx = trap(n, 10, 10, 59, -gr) + trap(n, 109, 10, 128, gr)
+    gy = trap(n, 30, 15, 40, 0.3 * gr)
+    return np.column_stack([gx, gy]).astype(np.float32), "1190us:128:10us"
+
+
+def actual_k(tmp_path, g, adc, *imperfection, name="k"):
+    np.save(tmp_path / "g.npy", g)
+    run("waveform", "--in", tmp_path / "g.npy", "--rf-centre", "50us", "--adc", adc, *imperfection,
+        "--trajectory-actual", tmp_path / f"{name}.npy", "--trajectory", tmp_path / f"{name}_nom.npy")
+    return np.load(tmp_path / f"{name}.npy").astype(np.float64), np.load(tmp_path / f"{name}_nom.npy")
+
+
+def test_girf_identity_delay_and_lowpass_reproduce_the_closed_forms(tmp_path):
+    """H built here in numpy (independently of kweave): H = 1 to the
+    raster's Nyquist frequency gives the nominal k (float32 output rounding:
+    |k| <= 64, 2e-5); H = exp(-i 2 pi f d), d = 20 us (2 rasters) gives the
+    --delay result (the phase interpolated between table points 10 Hz
+    apart: <= (2 pi d df)^2 / 8 = 2e-7 relative on G, k within 1e-4);
+    H = 1 / (1 + i 2 pi f tau), tau = 20 us (the first-order low-pass's
+    transfer function, textbook), gives the --lowpass result within the
+    sampling difference of the discrete filter (measured in
+    tests/test_waveform.c: k within 1e-3 cycles/FOV at a 10 us raster)."""
+    g, adc = readout_waveform()
+    f = np.linspace(0, 50e3, 5001)
+    girf_file(tmp_path / "h1.npy", f, [np.ones_like(f), np.ones_like(f)])
+    ka, kn = actual_k(tmp_path, g, adc, "--girf", tmp_path / "h1.npy", name="k1")
+    np.testing.assert_allclose(ka, kn, rtol=0, atol=2e-5)
+    d = 20e-6
+    girf_file(tmp_path / "hd.npy", f, [np.exp(-2j * np.pi * f * d)] * 2)
+    kg, _ = actual_k(tmp_path, g, adc, "--girf", tmp_path / "hd.npy", name="kd")
+    kc, _ = actual_k(tmp_path, g, adc, "--delay", "20us", name="kdc")
+    np.testing.assert_allclose(kg, kc, rtol=0, atol=1e-4)
+    assert np.max(np.abs(kg[:, 0] - kn[:, 0])) > 1.9  # the delay moved the echo by 2 samples
+    tau = 20e-6
+    girf_file(tmp_path / "hl.npy", f, [1 / (1 + 2j * np.pi * f * tau)] * 2)
+    kg, _ = actual_k(tmp_path, g, adc, "--girf", tmp_path / "hl.npy", name="kl")
+    kc, _ = actual_k(tmp_path, g, adc, "--lowpass", "20us", name="klc")
+    np.testing.assert_allclose(kg, kc, rtol=0, atol=1e-3)
+    side = json.load(open(tmp_path / "kl.json"))
+    assert side["gradient"] == "actual" and side["girf"]["band_Hz"] == [0, 50e3]
+
+
+def test_girf_against_numpy_fft_filter(tmp_path):
+    """A coarse table (40 frequencies from 2 kHz to 30 kHz, below the
+    Nyquist frequency 50 kHz) of a lag with a resonance, on a smooth
+    2-axis waveform: the actual k against numpy's own filter: rfft of the
+    samples zero-padded to the next power of 2 >= 2 n, H interpolated
+    linearly (real and imaginary parts) on the two-sided table (conj H(f)
+    at -f, which makes the rule below the first frequency), H = 0 above
+    30 kHz, irfft, then k = gamma_bar FOV x the trapezoid integral from the
+    RF centre (scipy, exact for the piecewise-linear actual gradient).
+    Float32 k (and H read back as stored, complex64): atol 2e-6 x max |k|
+    (measured 3.5e-8; holding the last value instead of H = 0 above the
+    band would be off by 2e-4, holding H(f_0) below the first frequency
+    instead of the conjugate rule by 0.28 on x)."""
+    g = smooth_waveform(n=300, axes=2, seed=5).astype(np.float64)
+    g32 = g.astype(np.float32)
+    f = np.linspace(2e3, 30e3, 40)
+    hx = np.exp(-2j * np.pi * f * 3e-6) / (1 + 2j * np.pi * f * 15e-6)
+    hy = 1 + 0.2 * np.exp(-((f - 12e3) / 3e3) ** 2) * np.exp(0.5j)
+    girf_file(tmp_path / "h.npy", f, [hx, hy])
+    table = np.load(tmp_path / "h.npy")
+    np.save(tmp_path / "g.npy", g32)
+    rf, adc0, nadc = 100e-6, 40, 200
+    run("waveform", "--in", tmp_path / "g.npy", "--rf-centre", "100us", "--adc", f"{adc0}:{nadc}:10us",
+        "--girf", tmp_path / "h.npy", "--trajectory-actual", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    k = np.load(tmp_path / "k.npy")
+    n = len(g32)
+    nf = 1 << int(np.ceil(np.log2(2 * n)))
+    fk = np.fft.rfftfreq(nf, H)
+    ft = np.real(table[:, 0]).astype(np.float64)
+    f2 = np.concatenate([-ft[::-1], ft])
+    t = np.arange(n) * H
+    for a in range(2):
+        h = table[:, 1 + a].astype(np.complex128)
+        h2 = np.concatenate([np.conj(h[::-1]), h])
+        hk = np.interp(fk, f2, h2.real, right=0) + 1j * np.interp(fk, f2, h2.imag, right=0)
+        ga = np.fft.irfft(np.fft.rfft(g32[:, a].astype(np.float64), nf) * hk, nf)[:n]
+        m0 = integrate.cumulative_trapezoid(ga, t, initial=0)
+        ref = GAMMA_BAR * 0.256 * (m0[adc0:adc0 + nadc] - m0[int(round(rf / H))])
+        np.testing.assert_allclose(k[:, a], ref, rtol=0, atol=2e-6 * np.max(np.abs(ref)))
+    rep = json.load(open(tmp_path / "r.json"))
+    assert rep["actual"]["girf"]["frequencies"] == 40 and rep["actual"]["girf"]["beyond_band"] == "H = 0"
+
+
+def test_girf_bad_input_names_the_option_and_writes_nothing(tmp_path):
+    g, adc = readout_waveform()
+    np.save(tmp_path / "g.npy", g)
+    f = np.linspace(0, 50e3, 11)
+    outs = ["--trajectory-actual", tmp_path / "k.npy", "--json", tmp_path / "r.json", "--png", tmp_path / "p.png"]
+    base = ["waveform", "--in", tmp_path / "g.npy", "--rf-centre", "50us", "--adc", adc]
+    h = np.ones_like(f)
+    hn = h.astype(np.complex128)
+    hn[4] = np.nan
+    girf_file(tmp_path / "nan.npy", f, [h, hn])
+    assert "axis 1, frequency 4" in refused(*base, "--girf", tmp_path / "nan.npy", *outs, opt="girf")
+    fd = f.copy()
+    fd[6] = fd[5]
+    girf_file(tmp_path / "dup.npy", fd, [h, h])
+    assert "frequency 6" in refused(*base, "--girf", tmp_path / "dup.npy", *outs, opt="girf")
+    fn = f.copy()
+    fn[3] = np.nan
+    girf_file(tmp_path / "fnan.npy", fn, [h, h])
+    refused(*base, "--girf", tmp_path / "fnan.npy", *outs, opt="girf")
+    girf_file(tmp_path / "one.npy", f, [h])  # one axis for a 2-axis waveform
+    refused(*base, "--girf", tmp_path / "one.npy", *outs, opt="girf")
+    np.save(tmp_path / "real.npy", np.column_stack([f, h, h]))
+    refused(*base, "--girf", tmp_path / "real.npy", *outs, opt="girf")
+    t = np.column_stack([f + 0j, h, h]).astype(np.complex64)
+    t[2, 0] += 1j
+    np.save(tmp_path / "cf.npy", t)
+    assert "row 2" in refused(*base, "--girf", tmp_path / "cf.npy", *outs, opt="girf")
+    girf_file(tmp_path / "ok.npy", f, [h, h])
+    refused(*base, "--girf", tmp_path / "ok.npy", "--delay", "2us", *outs, opt="girf")
+    refused(*base, "--girf", tmp_path / "missing.npy", *outs, opt="girf")
+    for name in ("k.npy", "k_times.npy", "k.json", "r.json", "p.png"):
+        assert not (tmp_path / name).exists(), name
