@@ -5,7 +5,6 @@
  * marked). Exit 0 when the run completes (the verdicts are in the report),
  * 2 bad input. */
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -19,6 +18,7 @@
 #include "outfile.h"
 #include "plot.h"
 #include "protofile.h"
+#include "fonts.h"
 
 #define MAX_KEYS 32
 
@@ -85,14 +85,6 @@ static void report_text(const kw_preview_result *r)
 
 /* ---- the picture ------------------------------------------------------------------ */
 
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
-}
 
 static int cmp_float(const void *a, const void *b)
 {
@@ -411,7 +403,7 @@ static kw_status write_png(const char *path, const kw_preview_result *r,
     cairo_destroy(cr);
     kw_status st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
-    release_font_caches();
+    kw_figure_release_fonts();
     return st;
 }
 

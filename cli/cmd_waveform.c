@@ -6,7 +6,6 @@
  * (raster, RF centre, TE, ADC windows) comes from the options or from a
  * JSON sidecar (docs/waveform.md). */
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -20,7 +19,9 @@
 #include "kw_waveform.h"
 #include "npy.h"
 #include "outfile.h"
+#include "protofile.h"
 #include "plot.h"
+#include "fonts.h"
 
 static const char USAGE[] =
     "usage: kweave waveform --in G.npy [--rf-centre T] [--raster T] [--adc START:N:DWELL[,...]]\n"
@@ -124,16 +125,13 @@ static int parse_adc(const char *text, double raster, kw_waveform_adc **out, siz
 /* A text table (.csv, .txt): the file's text through kw_waveform_table_parse(). */
 static int read_table(const char *path, double **g, size_t *n, int *axes)
 {
-    FILE *f = fopen(path, "rb");
-    if (!f)
-        return kw_cli_fail("in", "%s: cannot be read", path);
-    long len = fseek(f, 0, SEEK_END) == 0 ? ftell(f) : -1;
-    char *text = len >= 0 && fseek(f, 0, SEEK_SET) == 0 ? malloc((size_t)len + 1) : NULL;
-    kw_status st = !text || fread(text, 1, (size_t)len, f) != (size_t)len ? KW_EIO : KW_OK;
-    fclose(f);
-    if (!st && !(st = (text[len] = '\0', kw_outfile_note_input(path))))
-        st = kw_waveform_table_parse(text, g, n, axes);
-    free(text);
+    char *text = NULL;
+    size_t len = 0;
+    kw_status st = kw_textfile_load(path, (size_t)1 << 30, &text, &len);
+    if (st)
+        return kw_cli_status(st, "in");
+    st = kw_waveform_table_parse(text, g, n, axes);
+    kw_free(text);
     return st ? kw_cli_lib_status(st, "in", PARAM_MAP) : -1;
 }
 
@@ -249,14 +247,6 @@ static int write_trajectory(const wf_args *a, const kw_waveform *w, const char *
 
 /* ---- the picture --------------------------------------------------------------------------- */
 
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
-}
 
 static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
 {
@@ -462,7 +452,7 @@ static kw_status write_png(const char *path, const double *g, size_t n, int axes
     cairo_destroy(cr);
     kw_status st = kw_plot_write_png(sf, path);
     cairo_surface_destroy(sf);
-    release_font_caches();
+    kw_figure_release_fonts();
     kw_free(ga);
     return st;
 }

@@ -5,9 +5,9 @@
  * straight into the surface (no smoothing), the text and lines by cairo. */
 #define _POSIX_C_SOURCE 200809L
 #include "figure.h"
+#include "fonts.h"
 
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdint.h>
 #include <stdio.h>
@@ -37,18 +37,6 @@ void kw_figure_opts_default(kw_figure_opts *f)
     f->tile_label = NULL;
     f->tile_names = NULL;
     f->columns = 0;
-}
-
-/* Release cairo's and fontconfig's process-wide caches once a figure is
- * done, as cli/plot.c does, so leak checkers see nothing held by the font
- * system; FcFini is looked up at run time (kweave does not link fontconfig). */
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
 }
 
 /* ---- numbers ------------------------------------------------------------------ */
@@ -396,6 +384,6 @@ kw_status kw_figure_write(const char *path, const kw_array *a, const kw_png_opts
         cairo_surface_destroy(surf);
     }
     kw_png_values_free(&pv);
-    release_font_caches();
+    kw_figure_release_fonts();
     return st;
 }

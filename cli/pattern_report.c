@@ -3,7 +3,6 @@
  * come from recon/kw_pattern_analysis.h. */
 #define _POSIX_C_SOURCE 200809L
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -15,6 +14,7 @@
 #include "pattern_cli.h"
 #include "png.h"
 #include "report_names.h"
+#include "fonts.h"
 
 #define PSF_DB_FLOOR -60.0 /* picture window: common practice, no source */
 
@@ -163,19 +163,6 @@ int kw_pattern_cli_psf_png(const char *path, const kw_pattern_report *p)
 #define PANEL 256
 #define LABEL 28
 
-/* Release cairo's and fontconfig's process-wide caches after the picture so
- * leak checkers (make asan) see nothing held by the font system (the same
- * measure as cli/plot.c); FcFini is looked up at run time because kweave
- * does not link fontconfig itself. */
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
-}
-
 /* draw a gray picture (values 0..1, h x w) scaled into a PANEL square */
 static void draw_panel(cairo_t *cr, const float *v, size_t h, size_t w, double x0, double y0)
 {
@@ -258,7 +245,7 @@ int kw_pattern_cli_compare_png(const char *path, const kw_pattern_report *as, in
     kw_free(rgb);
     cairo_destroy(cr);
     cairo_surface_destroy(surf);
-    release_font_caches();
+    kw_figure_release_fonts();
     return st ? kw_cli_status(st, "png") : -1;
 }
 

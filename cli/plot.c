@@ -2,28 +2,15 @@
 #include "plot.h"
 
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "outfile.h"
+#include "fonts.h"
 
 static const char *const seq_label[] = {"gradient echo", "spin echo", "EPI", "radial", "spiral"};
-
-/* Release cairo's and fontconfig's process-wide caches once a picture is
- * done, so leak checkers (make asan) see no memory held by the font system.
- * FcFini is looked up at run time: cairo brings fontconfig in, kweave does not
- * link it directly. */
-static void release_font_caches(void)
-{
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
-}
 
 /* ---- PNG through kw_outfile ---------------------------------------------------- */
 
@@ -353,7 +340,7 @@ kw_status kw_plot_timing(const char *path, const kw_plan_report *r)
     cairo_destroy(cr);
     kw_status st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
-    release_font_caches();
+    kw_figure_release_fonts();
     return st;
 }
 
@@ -545,6 +532,6 @@ kw_status kw_plot_kspace(const char *path, const kw_plan_report *r)
     if (!st)
         st = kw_plot_write_png(s, path);
     cairo_surface_destroy(s);
-    release_font_caches();
+    kw_figure_release_fonts();
     return st;
 }

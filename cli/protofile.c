@@ -40,3 +40,42 @@ kw_status kw_protofile_load(const char *path, char **buf, size_t *len)
     *len = n;
     return KW_OK;
 }
+
+kw_status kw_textfile_load(const char *path, size_t max, char **buf, size_t *len)
+{
+    *buf = NULL;
+    *len = 0;
+    KW_FAIL_IF(!path || !*path, KW_EINVAL, "no file name");
+    kw_status st = kw_outfile_note_input(path);
+    if (st)
+        return st;
+    FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
+    KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
+    size_t cap = 1 << 16, n = 0;
+    char *b = kw_alloc(cap);
+    while (b) { /* grow by doubling until the end of the file */
+        n += fread(b + n, 1, cap - 1 - n, f);
+        if (n < cap - 1 || ferror(f) || n > max)
+            break;
+        char *nb = kw_alloc(cap * 2);
+        if (nb)
+            memcpy(nb, b, n);
+        kw_free(b);
+        b = nb;
+        cap *= 2;
+    }
+    int err = ferror(f);
+    if (f != stdin)
+        fclose(f);
+    if (!b)
+        return kw_set_error(KW_ENOMEM, "%s: out of memory (the memory budget)", path);
+    if (err || n > max) {
+        kw_free(b);
+        return err ? kw_set_error(KW_EIO, "%s: read error", path)
+                   : kw_set_error(KW_EFORMAT, "%s: larger than %zu bytes", path, max);
+    }
+    b[n] = '\0';
+    *buf = b;
+    *len = n;
+    return KW_OK;
+}

@@ -14,4 +14,12 @@
  * larger than 1 MiB. */
 kw_status kw_protofile_load(const char *path, char **buf, size_t *len);
 
+/*! kw_textfile_load(): the text of the file at `path` ("-": standard input;
+ * a pipe or FIFO read as it comes) into *buf, NUL-terminated, from the
+ * library's budgeted allocator (free with kw_free(); *len bytes before the
+ * NUL), noted as an input of the run. KW_EIO with "<path>: <why>" when it
+ * cannot be read, KW_EFORMAT "<path>: larger than <max> bytes", KW_ENOMEM
+ * when the memory budget refuses it. */
+kw_status kw_textfile_load(const char *path, size_t max, char **buf, size_t *len);
+
 #endif

@@ -5,7 +5,6 @@
  * through the mean over seeds, with a bar from the smallest to the largest
  * value over seeds. */
 #include <cairo.h>
-#include <dlfcn.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -16,6 +15,7 @@
 #include "plot.h"
 #include "outfile.h"
 #include "sweep.h"
+#include "fonts.h"
 
 #define MAXP 32
 #define MAXS 16
@@ -332,11 +332,6 @@ kw_status kw_sweep_plot(const kw_sweep *sw, cJSON *const *rows, const char *out)
         st = draw(sw, rows, metric[m], title[m], p, pn, &np);
     }
     free(pn);
-    /* cairo's and fontconfig's process-wide caches, for leak checkers */
-    cairo_debug_reset_static_data();
-    void (*fc_fini)(void);
-    *(void **)&fc_fini = dlsym(RTLD_DEFAULT, "FcFini");
-    if (fc_fini)
-        fc_fini();
+    kw_figure_release_fonts(); /* cairo's and fontconfig's caches, for leak checkers */
     return st;
 }
