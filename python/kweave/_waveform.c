@@ -5,7 +5,8 @@
  * imperfection is given, the actual gradient's k-space as
  * `--trajectory-actual` writes it and the actual gradient itself. The
  * options are the command's (names, defaults, texts with units, messages);
- * the sidecar file's timing keys come as a dict (`sidecar=`). */
+ * the sidecar file's timing keys come as a dict (`sidecar=`), the
+ * --estimate-delay file as an array (`estimate_delay=`). */
 #include "kwpy.h"
 
 #include <math.h>
@@ -45,7 +46,7 @@ static PyObject *raise_lib(kw_status st, const char *context)
 /* ---- options ---------------------------------------------------------------------------- */
 
 typedef struct wf_kw {
-    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass;
+    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate;
     const char *eddy;
     double raster, rf, te, tr;
     int s_raster, s_rf, s_te, s_tr, s_held;
@@ -279,6 +280,51 @@ static double *read_g(PyObject *obj, size_t *n, int *axes)
     return g;
 }
 
+/* ---- the delay estimate ------------------------------------------------------------------ */
+
+/* estimate_delay: radial k-space (coils, samples) or (samples,), complex,
+ * taken with the ADC windows as spokes (window s opposed to s + windows/2),
+ * as the command's --estimate-delay file; the gradient delay by
+ * kw_waveform_estimate_delay() (Peters et al. 2003). 0 or -1 raised. */
+static int estimate_delay(PyObject *obj, const kw_waveform_options *o, double *est)
+{
+    int same = o->nadc >= 2 && o->nadc % 2 == 0;
+    for (size_t i = 1; same && i < o->nadc; i++)
+        same = o->adc[i].samples == o->adc[0].samples && o->adc[i].dwell_s == o->adc[0].dwell_s;
+    if (!same)
+        return kwpy_value_error("estimate-delay", "needs an even number of ADC windows (spokes) of equal samples and "
+                                "dwell, window s opposed to window s + windows/2"), -1;
+    const size_t total = o->nadc * o->adc[0].samples;
+    PyArrayObject *ks = NULL;
+    PyObject *src = PyArray_FROM_O(obj);
+    if (!src)
+        PyErr_Clear();
+    if (src && PyArray_ISCOMPLEX((PyArrayObject *)src))
+        ks = kwpy_array_in(src, KWPY_C64, "estimate-delay", 0, NPY_MAXDIMS);
+    Py_XDECREF(src);
+    if (!ks && PyErr_Occurred())
+        return -1;
+    int nd = ks ? PyArray_NDIM(ks) : 0;
+    if (!ks || (nd != 1 && nd != 2) || (size_t)PyArray_DIM(ks, nd - 1) != total) {
+        Py_XDECREF(ks);
+        return kwpy_value_error("estimate-delay", "expected complex k-space (coils, %zu) of the ADC windows' samples",
+                                total), -1;
+    }
+    kw_status st;
+    const kw_cfloat *data = PyArray_DATA(ks);
+    const size_t coils = nd == 2 ? (size_t)PyArray_DIM(ks, 0) : 1;
+    Py_BEGIN_ALLOW_THREADS
+    st = kw_waveform_estimate_delay(data, coils, o->nadc, o->adc[0].samples, o->adc[0].dwell_s, est);
+    Py_END_ALLOW_THREADS
+    Py_DECREF(ks);
+    if (st) { /* data, spokes, n: the file's */
+        const char *why = kw_last_error_reason();
+        kw_set_error_param(st, "estimate-delay", "%s", why && *why ? why : kw_strerror(st));
+        return kwpy_raise(st, NULL), -1;
+    }
+    return 0;
+}
+
 /* ---- results --------------------------------------------------------------------------- */
 
 static int put(PyObject *d, const char *key, PyObject *v)
@@ -348,7 +394,9 @@ static int put_actual_gradient(PyObject *d, const kw_waveform *w)
     return put(d, "actual_gradient", (PyObject *)a);
 }
 
-static PyObject *result(const kw_waveform *w)
+/* The report (with the delay estimate when est is not NaN, as the
+ * command's JSON), the trajectories and the actual gradient. */
+static PyObject *result(const kw_waveform *w, int with_estimate, double est)
 {
     char *json = NULL;
     kw_status st = kw_waveform_report_json(w, &json);
@@ -357,7 +405,17 @@ static PyObject *result(const kw_waveform *w)
     PyObject *d = kwpy_json_dict(json);
     if (!d)
         return NULL;
-    int rc = put_trajectory(d, w, 0, "trajectory");
+    int rc = 0;
+    if (with_estimate) {
+        PyObject *e = Py_BuildValue("{s:O,s:s}", "delay_s", Py_None, "method",
+                                    "shift between opposed spokes' echoes (Peters et al. 2003), one delay "
+                                    "for every axis");
+        if (e && isfinite(est) && put(e, "delay_s", PyFloat_FromDouble(est)) < 0)
+            Py_CLEAR(e);
+        rc = put(d, "delay_estimate", e);
+    }
+    if (!rc)
+        rc = put_trajectory(d, w, 0, "trajectory");
     if (!rc && kw_waveform_has_imperfection(w))
         rc = put_trajectory(d, w, 1, "trajectory_actual") < 0 || put_actual_gradient(d, w) < 0 ? -1 : 0;
     if (rc < 0) {
@@ -394,6 +452,7 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         {"delay", KWPY_OBJ, &a.delay, KW_UNIT_NONE, NULL},
         {"lowpass", KWPY_OBJ, &a.lowpass, KW_UNIT_NONE, NULL},
         {"eddy", KWPY_STR, &a.eddy, KW_UNIT_NONE, NULL},
+        {"estimate-delay", KWPY_OBJ, &a.estimate, KW_UNIT_NONE, NULL},
         {NULL, 0, NULL, 0, NULL},
     };
     Py_ssize_t npos = PyTuple_GET_SIZE(args);
@@ -442,10 +501,11 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     Py_BEGIN_ALLOW_THREADS
     st = kw_waveform_create(&w, g, n, axes, &o);
     Py_END_ALLOW_THREADS
+    double est = NAN;
     if (st)
         raise_lib(st, "waveform");
-    else
-        d = result(w);
+    else if (!a.estimate || estimate_delay(a.estimate, &o, &est) == 0)
+        d = result(w, a.estimate != NULL, est);
 done:
     kw_waveform_destroy(w);
     kw_free(g);
@@ -468,7 +528,9 @@ static PyMethodDef waveform_methods[] = {
      "sidecar's), gmax (40mT/m), slew (150T/m/s), limit_vector, held, fov\n"
      "(256mm; up to 3), pns_radius (0.2m), delay, lowpass, eddy (\"AMP:TAU\");\n"
      "sidecar: a dict of the sidecar file's timing keys, the keywords override\n"
-     "it. See docs/waveform.md."},
+     "it. estimate_delay: radial k-space (coils, samples), complex, taken with\n"
+     "the ADC windows as spokes: \"delay_estimate\" as the command's\n"
+     "--estimate-delay. See docs/waveform.md."},
     {NULL, NULL, 0, NULL}};
 
 int kwpy_add_waveform(PyObject *m) { return kwpy_add_functions(m, waveform_methods); }

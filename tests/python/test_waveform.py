@@ -122,6 +122,82 @@ def test_no_adc_gives_no_trajectory():
     assert got["trajectory"] is None and got["times"] is None and got["adc"] == []
 
 
+def radial(spokes=32, n=64, fov=0.2):
+    """Spokes at 2 pi s / S (spoke s opposed to s + S/2), each a prephaser
+    to -n/2 cycles/FOV and a readout whose dwell is the raster with one
+    cycle/FOV per sample (G = 1 / (gamma_bar FOV raster)), sample n/2 at
+    k = 0, and a rewinder back to k = 0; one ADC window per spoke on the
+    flat top. RF centre at sample 2."""
+    h, r = 10e-6, 8
+    gr = 1 / (GAMMA_BAR * fov * h)
+    # prephaser and rewinder: area (r + flat) rasters x gr = n/2 + r/2
+    # cycles/FOV (the readout's ramp before the first sample adds r/2)
+    flat = n // 2 - r // 2
+    seg = 2 * (2 * r + flat + 1) + (2 * r + n + 1) + 4
+    g = np.zeros((4 + spokes * seg, 2))
+    adc = []
+
+    def trap(s, f, a):
+        k = np.arange(2 * r + f + 1)
+        return s, np.where(k <= r, a * k / r, np.where(k <= r + f, a, a * (2 * r + f - k) / r))
+
+    for sp in range(spokes):
+        th = 2 * np.pi * sp / spokes
+        s0 = 4 + sp * seg
+        s1 = s0 + 2 * r + flat + 1
+        s2 = s1 + 2 * r + n + 1
+        for s, b in (trap(s0, flat, -gr), trap(s1, n, gr), trap(s2, flat, -gr)):
+            g[s:s + len(b), 0] += b * np.cos(th)
+            g[s:s + len(b), 1] += b * np.sin(th)
+        adc.append({"start_sample": s1 + r, "samples": n, "dwell_s": h})
+    return g.astype(np.float32), {"raster_s": h, "rf_centre_s": 2 * h, "adc": adc}
+
+
+def test_delay_estimate_as_command(cli):
+    """A 2 us delay put in by the package (trajectory_actual), the data
+    simulated on it (acquire), the delay estimated back from them
+    (Peters, Derbyshire & McVeigh, MRM 50:1-6, 2003): the command's figure,
+    and within 0.2 us of 2 us (the bound of tests/ref/test_waveform.py,
+    noise-free)."""
+    g, sidecar = radial()
+    r = kweave.waveform(g, sidecar=sidecar, delay="2us", fov="200mm")
+    # the nominal spokes are those of the helper's design: sample j of
+    # spoke s at (j - n/2)(cos, sin)(2 pi s / S) cycles/FOV
+    th = 2 * np.pi * np.arange(32)[:, None] / 32
+    j = np.arange(64)[None, :] - 32
+    want_k = np.stack([j * np.cos(th), j * np.sin(th)], axis=-1).reshape(-1, 2)
+    assert np.abs(r["trajectory"] - want_k).max() < 1e-4
+    ka = r["trajectory_actual"]
+    ks = kweave.acquire(phantom="shepp-logan", matrix=64, fov="200mm", trajectory=ka).kspace
+    cli.save("rad.npy", g)
+    with open(cli.path("rad.json"), "w") as f:
+        json.dump(sidecar, f)
+    cli.save("ks.npy", ks)
+    cli.run("waveform", "--in", "rad.npy", "--estimate-delay", "ks.npy", "--json", "r.json")
+    want = cli.json("r.json")
+    got = kweave.waveform(g, sidecar=sidecar, estimate_delay=ks)
+    assert {k: got[k] for k in want} == want
+    est = got["delay_estimate"]["delay_s"]
+    print(f"delay 2 us estimated as {est * 1e6:.4f} us")
+    assert abs(est - 2e-6) < 0.2e-6, est
+    # the command's messages: an odd number of windows, data of another size, real data
+    odd = dict(sidecar, adc=sidecar["adc"][:-1])
+    with open(cli.path("rad.json"), "w") as f:
+        json.dump(odd, f)
+    want = cli.error("waveform", "--in", "rad.npy", "--estimate-delay", "ks.npy")
+    with pytest.raises(kweave.InputError) as e:
+        kweave.waveform(g, sidecar=odd, estimate_delay=ks)
+    assert str(e.value) == want
+    with open(cli.path("rad.json"), "w") as f:
+        json.dump(sidecar, f)
+    for bad in (ks[..., :-1], ks.real.astype(np.float32)):
+        cli.save("bad.npy", bad)
+        want = cli.error("waveform", "--in", "rad.npy", "--estimate-delay", "bad.npy")
+        with pytest.raises(kweave.InputError) as e:
+            kweave.waveform(g, sidecar=sidecar, estimate_delay=bad)
+        assert str(e.value) == want
+
+
 def command_error(cli, g, *args):
     """The command's message for the waveform file `g` (the command's --in
     is the package's g)."""
