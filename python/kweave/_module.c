@@ -605,7 +605,7 @@ PyMODINIT_FUNC PyInit__kweave(void)
         PyModule_AddStringConstant(m, "__version__", kw_version()) < 0 ||
         kwpy_add_nufft(m) < 0 || kwpy_add_score(m) < 0 || kwpy_add_recon(m) < 0 ||
         kwpy_add_acquire(m) < 0 || kwpy_add_pattern(m) < 0 || kwpy_add_plan(m) < 0 ||
-        kwpy_add_preview(m) < 0) {
+        kwpy_add_preview(m) < 0 || kwpy_add_waveform(m) < 0) {
         Py_DECREF(m);
         return NULL;
     }

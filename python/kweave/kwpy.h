@@ -129,6 +129,7 @@ int kwpy_add_acquire(PyObject *m);
 int kwpy_add_pattern(PyObject *m);
 int kwpy_add_plan(PyObject *m);
 int kwpy_add_preview(PyObject *m);
+int kwpy_add_waveform(PyObject *m);
 
 /*! kwpy_add_functions(): add a NULL-terminated PyMethodDef table. */
 int kwpy_add_functions(PyObject *m, PyMethodDef *defs);
