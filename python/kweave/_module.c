@@ -1,6 +1,6 @@
 /* _module.c: the kweave extension module: errors, arrays, keyword tables,
  * JSON text as dicts; the parts (_nufft.c, _score.c, _recon.c, _acquire.c,
- * _pattern.c, _plan.c) add their calls. */
+ * _pattern.c, _plan.c, _preview.c, _waveform.c) add their calls. */
 #define KWPY_MODULE_MAIN
 #include "kwpy.h"
 
