@@ -25,6 +25,11 @@ struct kw_encoder {
     /* Cartesian, every axis even: one coil at a time through raw FFTW plans
      * in place on cbuf's first coil, the centering folded into the passes */
     fftwf_plan cfwd, cinv;
+    /* the normal operator's pair out of place, cbuf -> obuf -> cbuf (FFTW
+     * may then skip the copies an in-place transform needs); obuf is cbuf's
+     * second coil, or its own buffer for one coil */
+    fftwf_plan nfwd, ninv;
+    float complex *obuf, *obuf_own;
     float cscale;          /* (-1)^(sum N/2) / sqrt(npix): kw_fft.h's factor */
     size_t rowlen, nrows;  /* last axis, and the rows of it in one image */
     int nthreads;          /* the passes' threads */
@@ -50,6 +55,7 @@ void kw_encoder_destroy(kw_encoder *e)
     kw_free(e->mask);
     kw_free(e->weights);
     kw_free(e->cbuf);
+    kw_free(e->obuf_own);
     kw_fft_destroy(e->fft);
     kw_nufft_destroy(e->nufft);
     kw_fft_planner_lock();
@@ -57,6 +63,10 @@ void kw_encoder_destroy(kw_encoder *e)
         fftwf_destroy_plan(e->cfwd);
     if (e->cinv)
         fftwf_destroy_plan(e->cinv);
+    if (e->nfwd)
+        fftwf_destroy_plan(e->nfwd);
+    if (e->ninv)
+        fftwf_destroy_plan(e->ninv);
     kw_fft_planner_unlock();
     kw_free(e->lambda);
     kw_free(e->tbuf);
@@ -357,17 +367,26 @@ static kw_status cart_setup(kw_encoder *e, const kw_encoder_options *o)
         e->nthreads = kw_fft_threads();
     if (o->nthreads > 0)
         e->nthreads = o->nthreads;
+    if (e->ncoils > 1) {
+        e->obuf = e->cbuf + e->npix;
+    } else {
+        e->obuf = e->obuf_own = kw_alloc(e->npix * sizeof(float complex));
+        KW_FAIL_IF(!e->obuf, KW_ENOMEM, "encoder: out of memory");
+    }
     unsigned ff = kw_fft_rigor(o->measure);
-    fftwf_complex *b = (fftwf_complex *)e->cbuf;
+    fftwf_complex *b = (fftwf_complex *)e->cbuf, *ob = (fftwf_complex *)e->obuf;
     kw_fft_planner_lock();
     if (kw_fft_threads_ready())
         fftwf_plan_with_nthreads(e->nthreads);
     e->cfwd = fftwf_plan_dft(e->ndim, n_int, b, b, FFTW_FORWARD, ff);
     e->cinv = fftwf_plan_dft(e->ndim, n_int, b, b, FFTW_BACKWARD, ff);
+    e->nfwd = fftwf_plan_dft(e->ndim, n_int, b, ob, FFTW_FORWARD, ff | FFTW_DESTROY_INPUT);
+    e->ninv = fftwf_plan_dft(e->ndim, n_int, ob, b, FFTW_BACKWARD, ff | FFTW_DESTROY_INPUT);
     if (kw_fft_threads_ready())
         fftwf_plan_with_nthreads(kw_fft_threads());
     kw_fft_planner_unlock();
-    KW_FAIL_IF(!e->cfwd || !e->cinv, KW_EINTERNAL, "encoder: FFTW could not make a plan");
+    KW_FAIL_IF(!e->cfwd || !e->cinv || !e->nfwd || !e->ninv, KW_EINTERNAL,
+               "encoder: FFTW could not make a plan");
     return KW_OK;
 }
 
@@ -416,9 +435,9 @@ static void cart_normal(kw_encoder *e, const float complex *x, float complex *ou
 {
     for (size_t c = 0; c < e->ncoils; c++) {
         cart_pass(e, PASS_SX, c, e->cbuf, x, 1.0f, 0);
-        fftwf_execute(e->cfwd);
-        cart_pass(e, PASS_WEIGH, c, e->cbuf, NULL, 1.0f, 0);
-        fftwf_execute(e->cinv);
+        fftwf_execute(e->nfwd);
+        cart_pass(e, PASS_WEIGH, c, e->obuf, NULL, 1.0f, 0);
+        fftwf_execute(e->ninv);
         cart_pass(e, PASS_ACC, c, out, e->cbuf, 1.0f, c == 0);
     }
 }
