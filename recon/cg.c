@@ -10,35 +10,60 @@
 #include "kw_tv.h"
 #include "nc_solver.h"
 
+/* Re a^H b over floats [lo, hi) of a and b: eight partial sums in double,
+ * float j into sum j mod 8, added pairwise at the end (a fixed order that
+ * the compiler can keep in vector registers, not one chain of dependent
+ * additions). */
+static double dot_span(const float *restrict x, const float *restrict y, size_t lo, size_t hi)
+{
+    double l0 = 0, l1 = 0, l2 = 0, l3 = 0, l4 = 0, l5 = 0, l6 = 0, l7 = 0;
+    size_t i = lo;
+    for (; i + 8 <= hi; i += 8) {
+        l0 += (double)x[i] * y[i];
+        l1 += (double)x[i + 1] * y[i + 1];
+        l2 += (double)x[i + 2] * y[i + 2];
+        l3 += (double)x[i + 3] * y[i + 3];
+        l4 += (double)x[i + 4] * y[i + 4];
+        l5 += (double)x[i + 5] * y[i + 5];
+        l6 += (double)x[i + 6] * y[i + 6];
+        l7 += (double)x[i + 7] * y[i + 7];
+    }
+    double t[8] = {l0, l1, l2, l3, l4, l5, l6, l7};
+    for (int j = 0; i < hi; i++, j++)
+        t[j] += (double)x[i] * y[i];
+    return ((t[0] + t[1]) + (t[2] + t[3])) + ((t[4] + t[5]) + (t[6] + t[7]));
+}
+
+/* Thread t of nt: floats [m t / nt, m (t + 1) / nt), rounded down to a
+ * multiple of 8 (the last block ends at m). */
+static size_t span_at(size_t m, int t, int nt)
+{
+    if (t >= nt)
+        return m;
+    return (size_t)((unsigned long long)m * (unsigned)t / (unsigned)nt) & ~(size_t)7;
+}
+
 double nc_dot_re(kw_solver *sv, const float complex *a, const float complex *b, size_t n)
 {
     const float *x = (const float *)a, *y = (const float *)b;
     const size_t m = 2 * n;
     const int nt = n > 65536 ? sv->nthreads : 1;
-    if (nt <= 1) {
-        double s = 0;
-        for (size_t i = 0; i < m; i++)
-            s += (double)x[i] * y[i];
-        return s;
-    }
-    /* One partial sum per thread over its static block, added in thread
-     * order: the same sums as a reduction(+) but in a fixed order, so the
-     * result depends on the thread count only (bit-identical from run to
-     * run; with two threads the same as OpenMP's reduction). */
+    if (nt <= 1)
+        return dot_span(x, y, 0, m);
+    /* One partial sum per thread over its own block, added in thread order:
+     * the result depends on the thread count only (bit-identical from run
+     * to run). */
     double *part = sv->part;
-    for (int t = 0; t < nt; t++)
-        part[t] = 0;
 #pragma omp parallel num_threads(nt)
     {
-        int t = 0;
+        int t = 0, nth = 1;
 #ifdef _OPENMP
         t = omp_get_thread_num();
+        nth = omp_get_num_threads();
 #endif
-        double s = 0;
-#pragma omp for schedule(static)
-        for (size_t i = 0; i < m; i++)
-            s += (double)x[i] * y[i];
-        part[t] = s;
+        /* fewer threads than asked: the blocks of the missing ones too */
+        for (int q = t; q < nt; q += nth)
+            part[q] = dot_span(x, y, span_at(m, q, nt), span_at(m, q + 1, nt));
     }
     double s = 0;
     for (int t = 0; t < nt; t++)
@@ -316,6 +341,62 @@ kw_status kw_solver_objective(kw_solver *s, const float complex *y,
     return KW_OK;
 }
 
+/* CG's update in one pass: x += a p, r -= a Ap, and the sums r^H r, then
+ * Re x^H b + Re x^H r of the updated vectors (for the objective), chunk by
+ * chunk while the chunk is in cache. Sums as nc_dot_re (eight partial sums
+ * per chunk, chunks and then threads added in order): deterministic for the
+ * thread count. */
+enum { CG_CHUNK = 1024, CG_MAXT = 64 };
+
+static void cg_span(float complex *x, float complex *r, const float complex *p,
+                    const float complex *Ap, const float complex *b, float a, size_t lo,
+                    size_t hi, double *sums)
+{
+    double rr = 0, xbr = 0;
+    for (size_t c0 = lo; c0 < hi; c0 += CG_CHUNK) {
+        size_t c1 = c0 + CG_CHUNK < hi ? c0 + CG_CHUNK : hi;
+        for (size_t i = c0; i < c1; i++) {
+            x[i] += a * p[i];
+            r[i] -= a * Ap[i];
+        }
+        const float *xf = (const float *)x, *rf = (const float *)r, *bf = (const float *)b;
+        rr += dot_span(rf, rf, 2 * c0, 2 * c1);
+        xbr += dot_span(xf, bf, 2 * c0, 2 * c1) + dot_span(xf, rf, 2 * c0, 2 * c1);
+    }
+    sums[0] = rr;
+    sums[1] = xbr;
+}
+
+static void cg_update(kw_solver *s, float complex *x, float complex *r, const float complex *p,
+                      const float complex *Ap, float a, double *rr, double *xbr)
+{
+    const size_t n = s->n;
+    int nt = n > 65536 ? s->nthreads : 1;
+    if (nt > CG_MAXT)
+        nt = CG_MAXT;
+    double part[2 * CG_MAXT];
+    if (nt <= 1) {
+        cg_span(x, r, p, Ap, s->b, a, 0, n, part);
+    } else {
+#pragma omp parallel num_threads(nt)
+        {
+            int t = 0, nth = 1;
+#ifdef _OPENMP
+            t = omp_get_thread_num();
+            nth = omp_get_num_threads();
+#endif
+            for (int q = t; q < nt; q += nth)
+                cg_span(x, r, p, Ap, s->b, a, span_at(2 * n, q, nt) / 2,
+                        span_at(2 * n, q + 1, nt) / 2, part + 2 * q);
+        }
+    }
+    *rr = *xbr = 0;
+    for (int t = 0; t < (nt > 1 ? nt : 1); t++) {
+        *rr += part[2 * t];
+        *xbr += part[2 * t + 1];
+    }
+}
+
 kw_status kw_cg_sense(kw_solver *s, const float complex *y, float complex *x,
                       kw_progress_fn progress, void *user)
 {
@@ -352,13 +433,10 @@ kw_status kw_cg_sense(kw_solver *s, const float complex *y, float complex *x,
         if (!(pAp > 0))
             break;
         float a = (float)(rr / pAp);
-        for (size_t i = 0; i < n; i++) {
-            x[i] += a * p[i];
-            r[i] -= a * Ap[i];
-        }
-        double rr_new = nc_dot_re(s, r, r, n);
+        double rr_new, xbr;
+        cg_update(s, x, r, p, Ap, a, &rr_new, &xbr);
         /* 1/2 ||W^1/2 (E x - y)||^2 = 1/2 y^H W y - 1/2 Re x^H (b + r) */
-        double obj = 0.5 * s->ywy - 0.5 * (nc_dot_re(s, x, s->b, n) + nc_dot_re(s, x, r, n));
+        double obj = 0.5 * s->ywy - 0.5 * xbr;
         if (nc_report(s, progress, user, "cg-sense", it, s->o.iterations, obj,
                       sqrt(rr_new) / bn))
             return kw_set_error(KW_ECANCELLED, "cg: cancelled");

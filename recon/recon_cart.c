@@ -3,6 +3,7 @@
  * applied, the sampling analysed, maps given or estimated (Walsh), and the
  * final combination into the job's image. */
 #include <math.h>
+#include <stdint.h>
 #include <stdlib.h>
 #include <stdio.h>
 #include <string.h>
@@ -18,7 +19,8 @@ void kw_cart_free(kw_cart *c)
 {
     if (!c)
         return;
-    kw_free(c->k);
+    if (!c->k_borrowed)
+        kw_free(c->k);
     kw_free(c->sens);
     kw_free(c->wht);
     memset(c, 0, sizeof *c);
@@ -70,7 +72,9 @@ void kw_recon_advise(kw_recon *r)
     p->advice = r->advice;
 }
 
-kw_status kw_cart_setup(kw_rjob *job, kw_cart *c)
+/* borrow: take job->ksp itself where nothing will change it (the caller
+ * only reads c->k). */
+static kw_status cart_setup(kw_rjob *job, kw_cart *c, int borrow)
 {
     memset(c, 0, sizeof *c);
     const kw_recon *r = job->r;
@@ -81,9 +85,15 @@ kw_status kw_cart_setup(kw_rjob *job, kw_cart *c)
     c->d[2] = r->kdims[r->kndim - 1];
     c->npix = c->d[0] * c->d[1] * c->d[2];
     size_t n = c->nc * c->npix;
-    c->k = kw_alloc(n * sizeof *c->k);
-    KW_FAIL_PARAM(!c->k, KW_ENOMEM, "kspace", "out of memory");
-    memcpy(c->k, job->ksp, n * sizeof *c->k);
+    if (borrow && !r->g.noise_cov && (uintptr_t)job->ksp % 16 == 0) {
+        /* const dropped here only: k_borrowed marks it read-only */
+        c->k = (float complex *)(uintptr_t)job->ksp;
+        c->k_borrowed = 1;
+    } else {
+        c->k = kw_alloc(n * sizeof *c->k);
+        KW_FAIL_PARAM(!c->k, KW_ENOMEM, "kspace", "out of memory");
+        memcpy(c->k, job->ksp, n * sizeof *c->k);
+    }
 
     uint8_t *mask = kw_alloc_n(c->npix, 1);
     KW_FAIL_PARAM(!mask, KW_ENOMEM, "kspace", "out of memory");
@@ -112,6 +122,10 @@ kw_status kw_cart_setup(kw_rjob *job, kw_cart *c)
     report_sampling(job->rep, c);
     return KW_OK;
 }
+
+kw_status kw_cart_setup(kw_rjob *job, kw_cart *c) { return cart_setup(job, c, 0); }
+
+kw_status kw_cart_setup_read(kw_rjob *job, kw_cart *c) { return cart_setup(job, c, 1); }
 
 kw_status kw_cart_require_lattice(const kw_cart *c, const char *method)
 {

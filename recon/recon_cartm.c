@@ -28,10 +28,13 @@
 kw_status kw_recon_run_fft(kw_rjob *job)
 {
     kw_cart c;
-    kw_status st = kw_cart_setup(job, &c);
     const char *comb = job->opt->combine;
-    if (!st && !job->opt->keep_coils && !job->opt->complex_image &&
-        (!comb || strcmp(comb, "rss") == 0)) {
+    /* the fused root-sum-of-squares path only reads the k-space; the other
+     * transforms it in place */
+    int rss = !job->opt->keep_coils && !job->opt->complex_image &&
+              (!comb || strcmp(comb, "rss") == 0);
+    kw_status st = rss ? kw_cart_setup_read(job, &c) : kw_cart_setup(job, &c);
+    if (!st && rss) {
         size_t dims[3];
         int nd;
         kw_cart_spatial_dims(&c, dims, &nd);
@@ -68,7 +71,7 @@ kw_status kw_recon_run_sense(kw_rjob *job)
     kw_cart c;
     kw_sense *s = NULL;
     float complex *img = NULL;
-    kw_status st = kw_cart_setup(job, &c);
+    kw_status st = kw_cart_setup_read(job, &c);
     if (st)
         goto out;
     if ((st = kw_cart_require_lattice(&c, "SENSE")))
@@ -135,7 +138,7 @@ kw_status kw_recon_run_grappa(kw_rjob *job)
     kw_grappa *g = NULL;
     kw_fft_plan *plan = NULL;
     float complex *full = NULL;
-    kw_status st = kw_cart_setup(job, &c);
+    kw_status st = kw_cart_setup_read(job, &c);
     if (st)
         goto out;
     if ((st = kw_cart_require_lattice(&c, "GRAPPA")))
@@ -176,7 +179,7 @@ static kw_status run_pf(kw_rjob *job, int pocs)
     kw_pf *p = NULL;
     float complex *img = NULL;
     int done = 0;
-    kw_status st = kw_cart_setup(job, &c);
+    kw_status st = kw_cart_setup_read(job, &c);
     if (!st && c.smp.accel[0] * c.smp.accel[1] * c.smp.accel[2] > 1)
         st = kw_set_error_param(KW_ENOTSUP, "acceleration",
                                 "%s takes partial Fourier data without parallel-imaging "

@@ -48,7 +48,7 @@ static kw_status make_encoder(kw_rjob *job, kw_cart *cart, float complex **sens,
      * these methods take any mask (random, Poisson disc), so the claims are
      * not checked: the sampling is read from the data themselves */
     job->use_claims = 0;
-    if ((st = kw_cart_setup(job, cart)))
+    if ((st = kw_cart_setup_read(job, cart)))
         return st;
     if (r->nc > 1 && (st = kw_cart_need_sens(job, cart, 2)))
         return st;

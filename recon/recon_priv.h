@@ -74,7 +74,9 @@ typedef struct kw_cart {
     size_t d[3];
     int sdim;
     size_t npix;
-    float complex *k;
+    float complex *k;     /* the data; with k_borrowed the caller's k-space
+                             itself (kw_cart_setup_read): read only, not freed */
+    int k_borrowed;
     float complex *sens;
     float complex *wht;
     kw_cart_sampling smp;
@@ -82,6 +84,10 @@ typedef struct kw_cart {
 
 /* recon_cart.c */
 kw_status kw_cart_setup(kw_rjob *job, kw_cart *c);
+/* the same for methods that only read c->k: the job's k-space is borrowed
+ * instead of copied unless prewhitening changes it (or it is not 16-byte
+ * aligned) */
+kw_status kw_cart_setup_read(kw_rjob *job, kw_cart *c);
 kw_status kw_cart_require_lattice(const kw_cart *c, const char *method);
 kw_status kw_cart_need_sens(kw_rjob *job, kw_cart *c, int at);
 kw_status kw_cart_finish(kw_rjob *job, kw_cart *c, const float complex *coil);

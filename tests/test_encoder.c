@@ -7,6 +7,7 @@
 #include <criterion/criterion.h>
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 
 #include "kw_encoder.h"
 #include "kw_fft.h"
@@ -185,4 +186,138 @@ Test(encoder, bad_input)
     cr_expect_str_eq(kw_last_error_param(), "options");
     cr_expect(e == NULL);
     kw_encoder_destroy(NULL);
+}
+
+/* The centered unitary DFT written out (kw_fft.h's definition, the one of
+ * numpy's fftshift(fftn(ifftshift(x), norm="ortho"))): X[k] = prod(N)^-1/2
+ * sum_n x[n] exp(-+2 pi i sum_d (k_d - N_d/2)(n_d - N_d/2) / N_d), index
+ * N_d/2 rounded down, in double. sgn -1: forward, +1: inverse. */
+static void direct_dft(int nd, const size_t *dims, const double complex *in,
+                       double complex *out, int sgn)
+{
+    size_t np = 1, D[3] = {1, 1, 1};
+    for (int d = 0; d < nd; d++) {
+        np *= dims[d];
+        D[3 - nd + d] = dims[d];
+    }
+    for (size_t k = 0; k < np; k++) {
+        size_t kk[3] = {k / (D[1] * D[2]), (k / D[2]) % D[1], k % D[2]};
+        double complex s = 0;
+        for (size_t n = 0; n < np; n++) {
+            size_t nn[3] = {n / (D[1] * D[2]), (n / D[2]) % D[1], n % D[2]};
+            double ph = 0;
+            for (int d = 0; d < 3; d++) {
+                double c = (double)(D[d] / 2);
+                ph += ((double)kk[d] - c) * ((double)nn[d] - c) / (double)D[d];
+            }
+            s += in[n] * cexp(sgn * 2 * M_PI * I * ph);
+        }
+        out[k] = s / sqrt((double)np);
+    }
+}
+
+static double rel_d(const float complex *a, const double complex *b, size_t n)
+{
+    double num = 0, den = 0;
+    for (size_t i = 0; i < n; i++) {
+        num += pow(cabs(a[i] - b[i]), 2);
+        den += pow(cabs(b[i]), 2);
+    }
+    return sqrt(num / den);
+}
+
+/* E, E^H and E^H W E of a masked, weighted Cartesian encoder against the
+ * formulas of kw_encoder.h evaluated with the direct DFT above in double:
+ * every axis even (the fused, coil-by-coil path with the centering folded
+ * into the sensitivity passes) and with an odd axis (the batched path); one
+ * coil without maps. */
+static void direct_case(int nd, const size_t *dims, size_t nc, int threads)
+{
+    size_t np = 1;
+    for (int d = 0; d < nd; d++)
+        np *= dims[d];
+    unsigned seed = 11;
+    float complex *sens = malloc(nc * np * sizeof *sens), *x = malloc(np * sizeof *x);
+    float complex *y = malloc(nc * np * sizeof *y), *ey = malloc(nc * np * sizeof *y);
+    float complex *xa = malloc(np * sizeof *x), *xn = malloc(np * sizeof *x);
+    double complex *t = malloc(np * sizeof *t), *f = malloc(np * sizeof *f);
+    double complex *ra = calloc(np, sizeof *ra), *rn = calloc(np, sizeof *rn);
+    double complex *rf = malloc(nc * np * sizeof *rf);
+    uint8_t *mask = malloc(np);
+    float *w = malloc(np * sizeof *w);
+    fill(sens, nc * np, 31);
+    if (nc == 1) /* one coil: no maps given, ones */
+        for (size_t i = 0; i < np; i++)
+            sens[i] = 1;
+    fill(x, np, 32);
+    fill(y, nc * np, 33);
+    for (size_t k = 0; k < np; k++) {
+        mask[k] = urand(&seed) < 0.5;
+        w[k] = (float)(0.25 + urand(&seed));
+    }
+    kw_encoder_options o;
+    kw_encoder_options_init(&o);
+    o.ncoils = nc;
+    o.sens = nc == 1 ? NULL : sens;
+    o.mask = mask;
+    o.weights = w;
+    o.nthreads = threads;
+    kw_encoder *e;
+    cr_assert_eq(kw_encoder_create(&e, nd, dims, &o), KW_OK, "%s", kw_last_error());
+    cr_assert_eq(kw_encoder_forward(e, x, ey), KW_OK);
+    cr_assert_eq(kw_encoder_adjoint(e, y, xa), KW_OK);
+    cr_assert_eq(kw_encoder_normal(e, x, xn), KW_OK);
+    for (size_t c = 0; c < nc; c++) {
+        /* forward: M F (S_c x) */
+        for (size_t i = 0; i < np; i++)
+            t[i] = (double complex)sens[c * np + i] * x[i];
+        direct_dft(nd, dims, t, f, -1);
+        for (size_t k = 0; k < np; k++)
+            rf[c * np + k] = mask[k] ? f[k] : 0;
+        /* normal: conj(S_c) F^H (M W F (S_c x)) */
+        for (size_t k = 0; k < np; k++)
+            f[k] *= mask[k] ? w[k] : 0;
+        direct_dft(nd, dims, f, t, 1);
+        for (size_t i = 0; i < np; i++)
+            rn[i] += conj((double complex)sens[c * np + i]) * t[i];
+        /* adjoint: conj(S_c) F^H (M y_c) */
+        for (size_t k = 0; k < np; k++)
+            f[k] = mask[k] ? (double complex)y[c * np + k] : 0;
+        direct_dft(nd, dims, f, t, 1);
+        for (size_t i = 0; i < np; i++)
+            ra[i] += conj((double complex)sens[c * np + i]) * t[i];
+    }
+    /* single-precision FFTs of a few hundred points: 1e-6 typical (from
+     * memory: FFT rounding grows as eps log N) */
+    cr_expect(rel_d(ey, rf, nc * np) < 2e-6, "forward vs direct DFT: %g", rel_d(ey, rf, nc * np));
+    cr_expect(rel_d(xa, ra, np) < 2e-6, "adjoint vs direct DFT: %g", rel_d(xa, ra, np));
+    cr_expect(rel_d(xn, rn, np) < 2e-6, "normal vs direct DFT: %g", rel_d(xn, rn, np));
+    /* forward in place over its input (x the first image of y), as the
+     * batched path allowed: x is read whole before y is written */
+    float complex *yy = malloc(nc * np * sizeof *yy);
+    for (size_t i = 0; i < np; i++)
+        yy[i] = x[i];
+    cr_assert_eq(kw_encoder_forward(e, yy, yy), KW_OK);
+    cr_expect(memcmp(yy, ey, nc * np * sizeof *yy) == 0, "forward over its input");
+    /* and the adjoint into its input */
+    memcpy(yy, y, nc * np * sizeof *yy);
+    cr_assert_eq(kw_encoder_adjoint(e, yy, yy), KW_OK);
+    cr_expect(memcmp(yy, xa, np * sizeof *yy) == 0, "adjoint over its input");
+    kw_encoder_destroy(e);
+    free(sens); free(x); free(y); free(ey); free(xa); free(xn); free(t); free(f);
+    free(ra); free(rn); free(rf); free(mask); free(w); free(yy);
+}
+
+Test(encoder, cartesian_direct_2d) { size_t d[2] = {8, 6}; direct_case(2, d, 3, 1); }
+Test(encoder, cartesian_direct_3d) { size_t d[3] = {4, 6, 4}; direct_case(3, d, 2, 2); }
+Test(encoder, cartesian_direct_odd) { size_t d[2] = {7, 6}; direct_case(2, d, 2, 1); }
+Test(encoder, cartesian_direct_3d_odd) { size_t d[3] = {4, 5, 6}; direct_case(3, d, 2, 1); }
+Test(encoder, cartesian_direct_1coil) { size_t d[2] = {6, 10}; direct_case(2, d, 1, 2); }
+
+/* Images above the passes' threading threshold (65536 samples) on two
+ * threads: the normal operator against adjoint(W forward). */
+Test(encoder, cartesian_threaded_passes)
+{
+    ecase c = {2, {256, 320, 0}, 2, 0, 1};
+    run_case(&c);
 }
