@@ -42,6 +42,10 @@ transform once on the grids the coil series needs): the demo's k-space
 (one value of 524,288 by one float step, 9.7e-12 relative), its
 reconstruction (6.3e-10) and the scores in recon.json, score.json and
 report.json at the 13th digit; every other output byte-identical (5 files).
+Then CG's dot products in eight running sums (issue 22; a fixed order, so
+still the same for a given thread count): the iteration logs of cgs.json
+(58 values, at most 1.1e-11 relative) and csw.json (120 values, 2.7e-12);
+every image byte-identical (2 files).
 
 Source of truth: the earlier binary's own outputs (a regression check, not a
 physics check; the physics checks are the other files here). Bit-identity is
