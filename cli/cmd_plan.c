@@ -24,19 +24,6 @@ typedef enum key_id {
     K_AVERAGES, K_COUNT
 } key_id;
 
-/* A protocol file into `in` (the file's bytes through the library's parser). */
-static kw_status read_protocol(kw_protocol_input *in, const char *path)
-{
-    char *buf;
-    size_t n;
-    kw_status st = kw_protofile_load(path, &buf, &n);
-    if (st)
-        return st;
-    st = kw_protocol_input_parse(in, buf, n);
-    free(buf);
-    return st;
-}
-
 /* The snr factor of the reference protocol file; an exit code or -1. */
 static int reference_factor(const char *path, double *factor)
 {
@@ -45,7 +32,7 @@ static int reference_factor(const char *path, double *factor)
     kw_plan_report *rr = NULL;
     kw_status st = kw_protocol_input_create(&ref);
     if (!st)
-        st = read_protocol(ref, path);
+        st = kw_protofile_read_into(ref, path);
     if (!st)
         st = kw_protocol_input_finish(ref, &p);
     kw_protocol_input_destroy(ref);
@@ -396,7 +383,7 @@ int kw_cmd_plan(int argc, char **argv)
         return kw_cli_status(st, NULL);
     const char *const *keys = kw_protocol_keys();
     kw_protocol p;
-    if (protocol && (st = read_protocol(in, protocol))) {
+    if (protocol && (st = kw_protofile_read_into(in, protocol))) {
         kw_protocol_input_destroy(in);
         return kw_cli_status(st, "protocol");
     }

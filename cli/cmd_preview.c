@@ -427,18 +427,6 @@ static kw_unit_kind key_unit(const char *key)
     return KW_UNIT_NONE;
 }
 
-static kw_status read_protocol(kw_protocol_input *in, const char *path)
-{
-    char *buf;
-    size_t n;
-    kw_status st = kw_protofile_load(path, &buf, &n);
-    if (st)
-        return st;
-    st = kw_protocol_input_parse(in, buf, n);
-    free(buf);
-    return st;
-}
-
 /* The two protocols side by side: each effect's prediction and
  * measurement for the protocol and for the reference (its own run). */
 static void side_by_side(const kw_preview_result *r, const kw_preview_result *q)
@@ -624,7 +612,7 @@ int kw_cmd_preview(int argc, char **argv)
         kw_protocol_input *ri = NULL;
         kw_status rs = kw_protocol_input_create(&ri);
         if (!rs)
-            rs = read_protocol(ri, reference);
+            rs = kw_protofile_read_into(ri, reference);
         if (!rs)
             rs = kw_protocol_input_finish(ri, &ref);
         kw_protocol_input_destroy(ri);
@@ -637,7 +625,7 @@ int kw_cmd_preview(int argc, char **argv)
     if (st)
         return kw_cli_status(st, NULL);
     kw_protocol p;
-    if (protocol && (st = read_protocol(in, protocol))) {
+    if (protocol && (st = kw_protofile_read_into(in, protocol))) {
         kw_protocol_input_destroy(in);
         return kw_cli_status(st, "protocol");
     }

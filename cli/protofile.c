@@ -41,6 +41,18 @@ kw_status kw_protofile_load(const char *path, char **buf, size_t *len)
     return KW_OK;
 }
 
+kw_status kw_protofile_read_into(kw_protocol_input *in, const char *path)
+{
+    char *buf;
+    size_t n;
+    kw_status st = kw_protofile_load(path, &buf, &n);
+    if (st)
+        return st;
+    st = kw_protocol_input_parse(in, buf, n);
+    free(buf);
+    return st;
+}
+
 kw_status kw_textfile_load(const char *path, size_t max, char **buf, size_t *len)
 {
     *buf = NULL;
