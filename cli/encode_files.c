@@ -148,7 +148,7 @@ int enc_protocol_read(const enc_args *a, kw_acquisition_input *in)
     if (st)
         return kw_cli_status(st, "protocol");
     st = kw_acquisition_input_protocol(in, buf, n);
-    free(buf);
+    kw_free(buf);
     return st ? kw_cli_fail("protocol", "%s", kw_last_error_reason()) : -1;
 }
 

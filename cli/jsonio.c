@@ -2,13 +2,13 @@
 #define _POSIX_C_SOURCE 200809L
 #include "jsonio.h"
 
-#include <errno.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "outfile.h"
+#include "textfile.h"
 
 kw_status kw_json_write(const char *path, const cJSON *root)
 {
@@ -59,52 +59,18 @@ kw_status kw_json_parse(const char *buf, size_t len, cJSON **root)
 kw_status kw_json_read(const char *path, cJSON **root)
 {
     *root = NULL;
-    kw_status nst = kw_outfile_note_input(path);
-    if (nst)
-        return nst;
-    FILE *f = strcmp(path, "-") == 0 ? stdin : fopen(path, "rb");
-    KW_FAIL_IF(!f, KW_EIO, "%s: %s", path, strerror(errno));
-    size_t cap = 1 << 16, n = 0;
-    char *buf = malloc(cap);
-    kw_status st = KW_OK;
-    if (!buf) {
-        st = kw_set_error(KW_ENOMEM, "%s: out of memory", path);
-        goto done;
-    }
-    for (;;) {
-        if (n == cap) {
-            if (cap >= (64u << 20)) {
-                st = kw_set_error(KW_EFORMAT, "%s: larger than 64 MiB", path);
-                goto done;
-            }
-            char *nb = realloc(buf, cap * 2);
-            if (!nb) {
-                st = kw_set_error(KW_ENOMEM, "%s: out of memory", path);
-                goto done;
-            }
-            buf = nb;
-            cap *= 2;
-        }
-        size_t r = fread(buf + n, 1, cap - n, f);
-        n += r;
-        if (r == 0)
-            break;
-    }
-    if (ferror(f)) {
-        st = kw_set_error(KW_EIO, "%s: cannot be read (%s)", path,
-                          errno == EISDIR ? "is a directory" : strerror(errno));
-        goto done;
-    }
+    char *buf;
+    size_t n;
+    kw_status st = kw_textfile_load(path, (size_t)64 << 20, &buf, &n);
+    if (st)
+        return st;
     st = kw_json_parse(buf, n, root);
+    kw_free(buf);
     if (st) {
         char why[200];
         snprintf(why, sizeof why, "%s", kw_last_error());
         st = kw_set_error(st, "%s: %s", path, why);
     }
-done:
-    free(buf);
-    if (f != stdin)
-        fclose(f);
     return st;
 }
 

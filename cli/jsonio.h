@@ -13,7 +13,8 @@
  * atomically; "-" is standard output. */
 kw_status kw_json_write(const char *path, const cJSON *root);
 
-/*! kw_json_read(): parse a JSON file; KW_EFORMAT with the byte offset of the
+/*! kw_json_read(): parse a JSON file (at most 64 MiB, read by
+ * kw_textfile_load() through the memory budget); KW_EFORMAT with the byte offset of the
  * error; KW_EIO when it cannot be read. Free with cJSON_Delete. */
 kw_status kw_json_read(const char *path, cJSON **root);
 
