@@ -13,7 +13,6 @@
 #include "kw_plan_input.h"
 #include "kw_sequence.h"
 
-#define MAX_KEYS 32
 #define PROTOCOL_MAX_BYTES (1 << 20) /* as the command's protocol files */
 
 /* ---- values as the command line's texts -------------------------------------------------- */
@@ -127,8 +126,9 @@ static int read_protocol(kw_protocol_input *in, PyObject *path, const char *cont
     } else {
         buf = malloc(PROTOCOL_MAX_BYTES + 1);
         if (buf) {
+            errno = 0;
             n = fread(buf, 1, PROTOCOL_MAX_BYTES + 1, f);
-            err = ferror(f);
+            err = ferror(f) ? (errno ? errno : EIO) : 0;
         }
         fclose(f);
     }
@@ -139,7 +139,8 @@ static int read_protocol(kw_protocol_input *in, PyObject *path, const char *cont
     else if (!buf)
         PyErr_NoMemory();
     else if (err)
-        kwpy_value_error(context, "%s: read error", p);
+        kwpy_value_error(context, "%s: cannot be read (%s)", p, /* as the command's */
+                         err == EISDIR ? "is a directory" : strerror(err));
     else if (n > PROTOCOL_MAX_BYTES)
         kwpy_value_error(context, "%s: larger than 1 MiB", p);
     else {
@@ -189,7 +190,7 @@ static int set_bandwidth(kw_protocol_input *in, PyObject *v)
 /* the keywords onto `in`, in the order of kw_protocol_keys() (the command's) */
 static int set_keys(kw_protocol_input *in, const char *const *keys, PyObject *const *vals)
 {
-    for (int k = 0; keys[k] && k < MAX_KEYS; k++) {
+    for (int k = 0; keys[k] && k < KWPY_PROTOCOL_KEYS; k++) {
         if (!vals[k])
             continue;
         if (strcmp(keys[k], "bandwidth") == 0) {
@@ -223,24 +224,52 @@ int kwpy_protocol_build(PyObject *path, const char *const *keys, PyObject *const
     return rc;
 }
 
+int kwpy_protocol_call_parse(PyObject *args, PyObject *kwargs, const char *call,
+                             const kwpy_kw *own, kwpy_protocol_call *c)
+{
+    memset(c, 0, sizeof *c);
+    c->keys = kw_protocol_keys();
+    kwpy_kw table[KWPY_CALL_OPTIONS + KWPY_PROTOCOL_KEYS + 3];
+    int n = 0;
+    table[n++] = (kwpy_kw){"protocol", KWPY_OBJ, &c->protocol, KW_UNIT_NONE, NULL};
+    table[n++] = (kwpy_kw){"reference", KWPY_OBJ, &c->reference, KW_UNIT_NONE, NULL};
+    for (int k = 0; own && own[k].name && k < KWPY_CALL_OPTIONS; k++)
+        table[n++] = own[k];
+    for (int k = 0; c->keys[k] && k < KWPY_PROTOCOL_KEYS; k++)
+        table[n++] = (kwpy_kw){c->keys[k], KWPY_OBJ, &c->vals[k], KW_UNIT_NONE, NULL};
+    table[n] = (kwpy_kw){NULL, 0, NULL, 0, NULL};
+    Py_ssize_t npos = PyTuple_GET_SIZE(args);
+    if (npos > 1) {
+        PyErr_Format(PyExc_TypeError, "%s() takes one positional argument (protocol), %zd given",
+                     call, npos);
+        return -1;
+    }
+    if (kwpy_parse_kwargs(kwargs, table, call) < 0)
+        return -1;
+    if (npos == 1) {
+        if (c->protocol) {
+            PyErr_Format(PyExc_TypeError, "%s() got multiple values for 'protocol'", call);
+            return -1;
+        }
+        PyObject *a = PyTuple_GET_ITEM(args, 0);
+        c->protocol = a == Py_None ? NULL : a;
+    }
+    return 0;
+}
+
+/* ---- plan() -------------------------------------------------------------------------------- */
+
 /* the reference protocol's SNR factor (0 when none) */
 static int reference_factor(PyObject *reference, double *factor)
 {
     *factor = 0;
     if (!reference)
         return 0;
-    kw_protocol_input *in = NULL;
-    kw_status st = kw_protocol_input_create(&in);
-    if (st)
-        return kwpy_raise(st, "reference"), -1;
-    int rc = read_protocol(in, reference, "reference");
     kw_protocol p;
-    if (!rc && (st = kw_protocol_input_finish(in, &p)))
-        rc = (kwpy_raise(st, "reference"), -1);
-    kw_protocol_input_destroy(in);
-    if (rc)
+    if (kwpy_protocol_build(reference, NULL, NULL, &p, "reference") < 0)
         return -1;
     kw_plan_report *r = NULL;
+    kw_status st;
     Py_BEGIN_ALLOW_THREADS
     st = kw_plan_create(&r, &p);
     Py_END_ALLOW_THREADS
@@ -251,24 +280,20 @@ static int reference_factor(PyObject *reference, double *factor)
     return 0;
 }
 
-/* ---- plan() -------------------------------------------------------------------------------- */
-
-/* the protocol of the file and keywords, planned and reported */
-static PyObject *plan_report(kw_protocol_input *in, PyObject *protocol, PyObject *reference,
-                             const char *const *keys, PyObject *const *vals)
+static PyObject *py_plan(PyObject *self, PyObject *args, PyObject *kwargs)
 {
-    if (protocol && read_protocol(in, protocol, "protocol") < 0)
-        return NULL;
-    if (set_keys(in, keys, vals) < 0)
+    (void)self;
+    kwpy_protocol_call c;
+    if (kwpy_protocol_call_parse(args, kwargs, "plan", NULL, &c) < 0)
         return NULL;
     kw_protocol p;
-    kw_status st = kw_protocol_input_finish(in, &p);
-    if (st)
-        return kwpy_raise(st, NULL);
+    if (kwpy_protocol_build(c.protocol, c.keys, c.vals, &p, "protocol") < 0)
+        return NULL;
     double ref = 0;
-    if (reference_factor(reference, &ref) < 0)
+    if (reference_factor(c.reference, &ref) < 0)
         return NULL;
     kw_plan_report *r = NULL;
+    kw_status st;
     Py_BEGIN_ALLOW_THREADS
     st = kw_plan_create(&r, &p);
     Py_END_ALLOW_THREADS
@@ -280,39 +305,6 @@ static PyObject *plan_report(kw_protocol_input *in, PyObject *protocol, PyObject
     if (st)
         return kwpy_raise(st, "plan");
     return kwpy_json_dict(json);
-}
-
-static PyObject *py_plan(PyObject *self, PyObject *args, PyObject *kwargs)
-{
-    (void)self;
-    const char *const *keys = kw_protocol_keys();
-    PyObject *vals[MAX_KEYS] = {0};
-    PyObject *protocol = NULL, *reference = NULL;
-    kwpy_kw table[MAX_KEYS + 3];
-    int n = 0;
-    table[n++] = (kwpy_kw){"protocol", KWPY_OBJ, &protocol, KW_UNIT_NONE, NULL};
-    table[n++] = (kwpy_kw){"reference", KWPY_OBJ, &reference, KW_UNIT_NONE, NULL};
-    for (int k = 0; keys[k] && k < MAX_KEYS; k++)
-        table[n++] = (kwpy_kw){keys[k], KWPY_OBJ, &vals[k], KW_UNIT_NONE, NULL};
-    table[n] = (kwpy_kw){NULL, 0, NULL, 0, NULL};
-    Py_ssize_t npos = PyTuple_GET_SIZE(args);
-    if (npos > 1)
-        return PyErr_Format(PyExc_TypeError,
-                            "plan() takes one positional argument (protocol), %zd given", npos);
-    if (kwpy_parse_kwargs(kwargs, table, "plan") < 0)
-        return NULL;
-    if (npos == 1) {
-        if (protocol)
-            return PyErr_Format(PyExc_TypeError, "plan() got multiple values for 'protocol'");
-        protocol = PyTuple_GET_ITEM(args, 0) == Py_None ? NULL : PyTuple_GET_ITEM(args, 0);
-    }
-    kw_protocol_input *in = NULL;
-    kw_status st = kw_protocol_input_create(&in);
-    if (st)
-        return kwpy_raise(st, "plan");
-    PyObject *r = plan_report(in, protocol, reference, keys, vals);
-    kw_protocol_input_destroy(in);
-    return r;
 }
 
 static PyObject *py_protocol_keys(PyObject *self, PyObject *noargs)

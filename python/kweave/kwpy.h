@@ -119,6 +119,28 @@ PyObject *kwpy_namespace(PyObject *fields);
 int kwpy_protocol_build(PyObject *path, const char *const *keys, PyObject *const *vals,
                         kw_protocol *p, const char *context);
 
+/* The most protocol keys (kw_protocol_keys()) and own options of a call. */
+#define KWPY_PROTOCOL_KEYS 32
+#define KWPY_CALL_OPTIONS 24
+
+/*! kwpy_protocol_call: what a call taking a protocol was given: the
+ * protocol file (one positional argument or protocol=; NULL: none), the
+ * reference file (NULL: none), and a value (NULL: not given) for each of
+ * the protocol keys `keys` (kw_protocol_keys()). Borrowed references. */
+typedef struct kwpy_protocol_call {
+    PyObject *protocol, *reference;
+    const char *const *keys;
+    PyObject *vals[KWPY_PROTOCOL_KEYS];
+} kwpy_protocol_call;
+
+/*! kwpy_protocol_call_parse(): `call`'s arguments (one positional protocol,
+ * keywords protocol=, reference=, the call's own options `own` (a table
+ * ending with a NULL name, at most KWPY_CALL_OPTIONS; may be NULL) and the
+ * protocol keys) into *c and the tables' destinations. 0, or -1 raised
+ * (TypeError as Python's own calls). */
+int kwpy_protocol_call_parse(PyObject *args, PyObject *kwargs, const char *call,
+                             const kwpy_kw *own, kwpy_protocol_call *c);
+
 /* ---- the parts -------------------------------------------------------------- */
 
 /* Each part adds its functions and types to the module; 0 or -1. */
