@@ -205,6 +205,20 @@ static const char *unit_word(kw_unit_kind u)
 }
 
 static const kw_opt_arg *next_args, *help_args; /* set for, used by one parse */
+static const kw_param_key *next_keys, *help_keys;
+
+const char KW_OPT_KEY_HELP[] = "(the library key's help)";
+
+/* An option's help: its own, or its library key's (KW_OPT_KEY_HELP). */
+static const char *opt_help(const kw_opt *o)
+{
+    if (o->help != KW_OPT_KEY_HELP)
+        return o->help;
+    for (const kw_param_key *k = help_keys; k && k->name; k++)
+        if (strcmp(k->name, o->name) == 0)
+            return k->help;
+    return o->help;
+}
 
 void kw_opts_set_args(const kw_opt_arg *list) { next_args = list; }
 
@@ -214,6 +228,7 @@ void kw_opts_set_args_from_keys(const kw_param_key *keys, const kw_opt_arg *extr
 {
     static kw_opt_arg buf[128];
     size_t n = 0;
+    next_keys = keys;
     for (; extra && extra->name && n + 1 < sizeof buf / sizeof buf[0]; extra++)
         buf[n++] = *extra;
     for (; keys && keys->name && n + 1 < sizeof buf / sizeof buf[0]; keys++) {
@@ -265,9 +280,9 @@ static void placeholder(const kw_opt *o, char *buf, size_t n)
         word = "X";
     else if (o->type == KW_OPT_UNIT || (o->type == KW_OPT_STRING && o->unit != KW_UNIT_NONE))
         word = unit_word(o->unit); /* a string option may name its quantity for the help */
-    else if (help_names(o->help, dirs))
+    else if (help_names(opt_help(o), dirs))
         word = "DIR";
-    else if (help_names(o->help, files))
+    else if (help_names(opt_help(o), files))
         word = "FILE";
     if (word) {
         snprintf(buf, n, " %s", word);
@@ -300,7 +315,7 @@ static void print_help(const kw_opt *table, const char *usage)
         char left[96], arg[64];
         placeholder(o, arg, sizeof arg);
         snprintf(left, sizeof left, "--%s%s", o->name, arg);
-        help_line(left, o->help);
+        help_line(left, opt_help(o));
     }
     help_line("--quiet", "no progress on stderr");
     help_line("--max-memory SIZE", "the most memory the run may hold (e.g. 2GiB; default: half the RAM)");
@@ -440,6 +455,8 @@ int kw_opts_parse(int argc, char **argv, const kw_opt *table, const char *usage,
 {
     help_args = next_args;
     next_args = NULL;
+    help_keys = next_keys;
+    next_keys = NULL;
     if (npos)
         *npos = 0;
     kw_npy_set_limit(kw_cli_memory_limit());

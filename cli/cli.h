@@ -89,6 +89,12 @@ void kw_opts_set_args(const kw_opt_arg *list);
 struct kw_param_key;
 void kw_opts_set_args_from_keys(const struct kw_param_key *keys, const kw_opt_arg *extra);
 
+/*! KW_OPT_KEY_HELP: as an option's help, the help of the library key of the
+ * same name among the keys given to kw_opts_set_args_from_keys() for the
+ * parse (kw_param_key.help), so that the command and the library say it
+ * once. */
+extern const char KW_OPT_KEY_HELP[];
+
 /*! kw_opts_parse(): parse argv[1..] ("--name value" or "--name=value").
  * Returns -1 when all went well, otherwise the exit code to return (0 after
  * --help printed `usage` and the table, 2 after an error line). Positional

@@ -9,6 +9,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "defaults.h"
 #include "params_int.h"
 #include "plan_input_int.h"
 
@@ -23,48 +24,80 @@ enum {
 
 #define Q(unit) KW_PARAM_QUANTITY, KW_UNIT_##unit
 static const kw_param_key keys[A_COUNT + 1] = {
-    {"phantom", KW_PARAM_NAME, KW_UNIT_NONE, "shepp-logan, shepp-logan-modified, weave or "
-     "weave3d (required)"},
-    {"matrix", KW_PARAM_SIZES, KW_UNIT_NONE, "NX[xNY[xNZ]] samples, 1..8192 (required)"},
-    {"fov", KW_PARAM_QUANTITIES, KW_UNIT_LENGTH, "field of view L[,LY[,LZ]] (required)"},
-    {"snr", KW_PARAM_NUMBER, KW_UNIT_NONE, "mean object signal / noise sigma (default: no noise)"},
-    {"seed", KW_PARAM_WHOLE, KW_UNIT_NONE, "noise seed, >= 0 (default 0)"},
-    {"sequence", KW_PARAM_NAME, KW_UNIT_NONE, "signal model pd, gre, se or ir (default pd)"},
-    {"te", Q(TIME), "echo time (default: the shortest the readout allows)"},
-    {"tr", Q(TIME), "repetition time (required by gre, se, ir)"},
-    {"ti", Q(TIME), "inversion time (required by ir)"},
-    {"flip", Q(ANGLE), "flip angle (required by gre; degrees without a unit)"},
-    {"b0", Q(FIELD), "field strength (default 3T)"},
-    {"bandwidth", KW_PARAM_BANDWIDTH, KW_UNIT_FREQUENCY, "receiver bandwidth, 32kHz or "
-     "250Hz/pixel (default: none, every sample at TE)"},
-    {"df", Q(FREQUENCY), "off-resonance added everywhere (default 0)"},
-    {"coils", KW_PARAM_WHOLE, KW_UNIT_NONE, "a ring of N loop coils, 1..128 (default none)"},
-    {"coil-radius", Q(LENGTH), "loop radius (default FOV/4)"},
-    {"coil-distance", Q(LENGTH), "loop centre to the axis (default 0.75 FOV)"},
-    {"coil-order", KW_PARAM_WHOLE, KW_UNIT_NONE, "order of each map's series, 0..8 (default 4; "
+    {"phantom", KW_PARAM_NAME, KW_UNIT_NONE,
+     "shepp-logan, shepp-logan-modified, weave or weave3d (required)"},
+    {"matrix", KW_PARAM_SIZES, KW_UNIT_NONE,
+     "NX[xNY[xNZ]] samples, 1..8192 each (e.g. 256x256; required, or from a protocol)"},
+    {"fov", KW_PARAM_QUANTITIES, KW_UNIT_LENGTH,
+     "field of view L[,LY[,LZ]] (e.g. 256mm; required, or from a protocol)"},
+    {"snr", KW_PARAM_NUMBER, KW_UNIT_NONE,
+     "mean object signal / noise standard deviation in the image (default: no noise)"},
+    {"seed", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "noise seed, >= 0 (default 0)"},
+    {"sequence", KW_PARAM_NAME, KW_UNIT_NONE,
+     "signal model: pd (default: proton density, needs no TE, TR or flip), gre "
+     "(spoiled gradient echo), se (spin echo) or ir (inversion recovery); a protocol's "
+     "sequence is the pulse sequence timed (default gre), which it passes on"},
+    {"te", Q(TIME),
+     "echo time (k-space centre), e.g. 10ms (default: the shortest the readout "
+     "allows; with a protocol the planner's minimum)"},
+    {"tr", Q(TIME),
+     "repetition time (required by gre, se, ir; default: none, with a protocol the "
+     "planner's minimum)"},
+    {"ti", Q(TIME),
+     "inversion time (required by ir; default: none)"},
+    {"flip", Q(ANGLE),
+     "flip angle (required by gre), degrees without a unit (default: none)"},
+    {"b0", Q(FIELD),
+     "field strength, 1.5T or 3T with the built-in tissue table, any with tissue "
+     "values of one's own (default " KWD_B0_TEXT ")"},
+    {"bandwidth", KW_PARAM_BANDWIDTH, KW_UNIT_FREQUENCY,
+     "receiver bandwidth, 32kHz (across the FOV) or 250Hz/pixel: times the "
+     "readout (default: none, every sample at TE; with a protocol the protocol's, else "
+     "the planner's default)"},
+    {"df", Q(FREQUENCY),
+     "off-resonance added everywhere (e.g. 50Hz; default 0)"},
+    {"coils", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "a ring of N circular loop coils, 1..128 (default: none, one uniform coil)"},
+    {"coil-radius", Q(LENGTH),
+     "loop radius (default FOV/4)"},
+    {"coil-distance", Q(LENGTH),
+     "loop centre to the axis (default 0.75 FOV)"},
+    {"coil-order", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "order L of the trigonometric series of each sensitivity, 0..8 (default 4; "
      "3-D: 3)"},
-    {"coil-order-z", KW_PARAM_WHOLE, KW_UNIT_NONE, "3-D: the series' order along z, 0..8 "
-     "(default 2)"},
-    {"coil-rings", KW_PARAM_WHOLE, KW_UNIT_NONE, "1 (default) or 2 rings of loops"},
-    {"coil-ring-gap", Q(LENGTH), "distance between two rings (default the z FOV / 2)"},
+    {"coil-order-z", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "3-D phantoms: the series' order along z, 0..8 (default 2)"},
+    {"coil-rings", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "1 (default) or 2 rings of N loops each (3-D: at z = -gap/2, +gap/2)"},
+    {"coil-ring-gap", Q(LENGTH),
+     "distance between the two rings' centres along z (default the z FOV / 2)"},
     {"sens", KW_PARAM_ARRAY, KW_UNIT_NONE, "sensitivity maps (options.sens; default none)"},
     {"pattern", KW_PARAM_ARRAY, KW_UNIT_NONE, "Cartesian mask (options.mask; default full grid)"},
     {"trajectory", KW_PARAM_ARRAY, KW_UNIT_NONE, "non-Cartesian samples (options.traj)"},
     {"times", KW_PARAM_ARRAY, KW_UNIT_NONE, "sample times (options.times)"},
-    {"noise-corr", KW_PARAM_NUMBER, KW_UNIT_NONE, "noise correlation of every coil pair "
-     "(default 0)"},
+    {"noise-corr", KW_PARAM_NUMBER, KW_UNIT_NONE,
+     "noise correlation coefficient between every pair of coils (default 0)"},
     {"noise-cov", KW_PARAM_ARRAY, KW_UNIT_NONE, "noise covariance (options.noise_cov)"},
     {"field-map", KW_PARAM_ARRAY, KW_UNIT_NONE, "off-resonance map in Hz (options.field_map)"},
-    {"field-gradient", KW_PARAM_QUANTITIES, KW_UNIT_GRADIENT, "linear field GX,GY[,GZ] "
-     "(default none)"},
+    {"field-gradient", KW_PARAM_QUANTITIES, KW_UNIT_GRADIENT,
+     "linear field GX,GY[,GZ] along the array axes, zero at the FOV centre "
+     "(e.g. 20uT/m,0): exact (default: none)"},
     {"tissue", KW_PARAM_ARRAY, KW_UNIT_NONE, "tissue values (options.tissue_values)"},
-    {"slices", KW_PARAM_WHOLE, KW_UNIT_NONE, "multi-slice 2-D: N slices, 1..256 (default none)"},
-    {"slice-thickness", Q(LENGTH), "slice thickness (required with slices)"},
-    {"slice-gap", Q(LENGTH), "gap between slices (default 0)"},
-    {"slice-points", KW_PARAM_WHOLE, KW_UNIT_NONE, "points across each slice, 1..32 (default 8)"},
-    {"coil-tolerance", KW_PARAM_NUMBER, KW_UNIT_NONE, "largest pointwise misfit of the fitted "
-     "ring maps, a fraction of the local value, 0 <= t < 1 (default 0.01 in 2-D, none in 3-D; "
-     "0: no check)"},
+    {"slices", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "multi-slice 2-D of a 3-D phantom: N slices centred on z = 0, 1..256 "
+     "(default: none)"},
+    {"slice-thickness", Q(LENGTH),
+     "slice thickness (rectangular through-slice profile; required with slices)"},
+    {"slice-gap", Q(LENGTH),
+     "gap between slices (default 0)"},
+    {"slice-points", KW_PARAM_WHOLE, KW_UNIT_NONE,
+     "Gauss-Legendre points across each slice, 1..32 (default 8)"},
+    {"coil-tolerance", KW_PARAM_NUMBER, KW_UNIT_NONE,
+     "largest pointwise misfit of the fitted ring maps against the loops' field, "
+     "a fraction of the local value where a coil is >= 10% of its peak in the object; the "
+     "series order not given is raised to meet it; 0 <= t < 1 (default 0.01 in 2-D; 3-D: "
+     "none, orders 3 and 2; 0: no check)"},
     {NULL, 0, KW_UNIT_NONE, NULL}};
 #undef Q
 

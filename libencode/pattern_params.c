@@ -20,22 +20,23 @@ enum {
 
 static const kw_param_key keys[P_COUNT + 1] = {
     {"kind", KW_PARAM_NAME, KW_UNIT_NONE, "full, partial, uniform, random, poisson, lattice, "
-     "radial, golden, stack-of-stars, spiral or epi (required)"},
-    {"matrix", KW_PARAM_SIZES, KW_UNIT_NONE, "NX, NXxNY or NXxNYxNZ (3-D: a ky-kz mask; required)"},
+     "radial, golden, stack-of-stars, spiral or epi (required to make a pattern)"},
+    {"matrix", KW_PARAM_SIZES, KW_UNIT_NONE, "NX, NXxNY or NXxNYxNZ (3-D: a ky-kz mask; required to make a "
+     "pattern)"},
     {"accel", KW_PARAM_NUMBERS, KW_UNIT_NONE, "acceleration R, or RYxRZ (required by uniform, "
-     "random, poisson, lattice)"},
-    {"acs", KW_PARAM_SIZES, KW_UNIT_NONE, "autocalibration lines N (3-D: N or NYxNZ; default none)"},
+     "random, poisson, lattice; default: none)"},
+    {"acs", KW_PARAM_SIZES, KW_UNIT_NONE, "autocalibration lines N (3-D: N or NYxNZ; default: none)"},
     {"fraction", KW_PARAM_NUMBER, KW_UNIT_NONE, "partial Fourier fraction in (0.5, 1] (default 1; "
      "required by partial)"},
-    {"ellipse", KW_PARAM_FLAG, KW_UNIT_NONE, "3-D: drop the ky-kz corners (default 0)"},
+    {"ellipse", KW_PARAM_FLAG, KW_UNIT_NONE, "3-D: drop the ky-kz corners (default: off)"},
     {"power", KW_PARAM_NUMBER, KW_UNIT_NONE, "density exponent d of (1-r)^d (default 3)"},
     {"shift", KW_PARAM_WHOLE, KW_UNIT_NONE, "lattice: ky shift per kz row (default 1)"},
     {"spokes", KW_PARAM_WHOLE, KW_UNIT_NONE, "radial spokes (default ceil(pi N/2))"},
-    {"tiny", KW_PARAM_WHOLE, KW_UNIT_NONE, "golden: tiny golden angle order (default 1)"},
+    {"tiny", KW_PARAM_WHOLE, KW_UNIT_NONE, "golden: tiny golden angle order (default 1 = 111.246 deg)"},
     {"readout-oversampling", KW_PARAM_WHOLE, KW_UNIT_NONE, "radial kinds: F x N samples per "
-     "spoke (1..4, default 1)"},
+     "spoke, 1/F cycle/FOV apart (1..4, default 1)"},
     {"dwell", KW_PARAM_QUANTITY, KW_UNIT_TIME, "radial: time per image pixel (default 1/("
-     KWD_BW_PER_PIXEL_TEXT " x N)); spiral/epi: time between samples (default 4us)"},
+     KWD_BW_PER_PIXEL_TEXT " x N); samples every dwell/F); spiral/epi: time between samples (default 4us)"},
     {"fov", KW_PARAM_QUANTITY, KW_UNIT_LENGTH, "spiral/epi: field of view (default " KWD_FOV_TEXT ")"},
     {"gmax", KW_PARAM_QUANTITY, KW_UNIT_GRADIENT, "spiral/epi: gradient limit (default "
      KWD_GMAX_TEXT ")"},
