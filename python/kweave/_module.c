@@ -38,14 +38,9 @@ static PyObject *error_class(kw_status st)
     }
 }
 
-PyObject *kwpy_raise(kw_status st, const char *context)
+/* Raise cls(text) with .param (NULL: None) and .status; NULL. Takes `text`. */
+static PyObject *raise_text(PyObject *cls, PyObject *text, const char *param, kw_status st)
 {
-    const char *msg = kw_last_error();
-    if (!msg || !*msg)
-        msg = kw_strerror(st);
-    PyObject *cls = error_class(st);
-    PyObject *text = context ? PyUnicode_FromFormat("%s: %s", context, msg)
-                             : PyUnicode_FromString(msg);
     if (!text)
         return NULL;
     PyObject *exc = PyObject_CallOneArg(cls, text);
@@ -53,22 +48,37 @@ PyObject *kwpy_raise(kw_status st, const char *context)
     if (!exc)
         return NULL;
     if (cls == kwpy_InputError || cls == kwpy_Error) {
-        const char *param = kw_last_error_param();
         PyObject *p = param && *param ? PyUnicode_FromString(param) : Py_NewRef(Py_None);
         PyObject *s = PyUnicode_FromString(kw_strerror(st));
-        if (!p || !s || PyObject_SetAttrString(exc, "param", p) < 0 ||
-            PyObject_SetAttrString(exc, "status", s) < 0) {
-            Py_XDECREF(p);
-            Py_XDECREF(s);
+        int bad = !p || !s || PyObject_SetAttrString(exc, "param", p) < 0 ||
+                  PyObject_SetAttrString(exc, "status", s) < 0;
+        Py_XDECREF(p);
+        Py_XDECREF(s);
+        if (bad) {
             Py_DECREF(exc);
             return NULL;
         }
-        Py_DECREF(p);
-        Py_DECREF(s);
     }
     PyErr_SetObject(cls, exc);
     Py_DECREF(exc);
     return NULL;
+}
+
+PyObject *kwpy_raise(kw_status st, const char *context)
+{
+    const char *msg = kw_last_error();
+    if (!msg || !*msg)
+        msg = kw_strerror(st);
+    PyObject *text = context ? PyUnicode_FromFormat("%s: %s", context, msg)
+                             : PyUnicode_FromString(msg);
+    return raise_text(error_class(st), text, kw_last_error_param(), st);
+}
+
+PyObject *kwpy_option_error(kw_status st, const char *option)
+{
+    const char *why = kw_last_error_reason();
+    PyObject *text = PyUnicode_FromFormat("%s: %s", option, why && *why ? why : kw_strerror(st));
+    return raise_text(kwpy_InputError, text, option, st);
 }
 
 PyObject *kwpy_value_error(const char *field, const char *fmt, ...)
@@ -78,24 +88,8 @@ PyObject *kwpy_value_error(const char *field, const char *fmt, ...)
     va_start(ap, fmt);
     vsnprintf(why, sizeof why, fmt, ap);
     va_end(ap);
-    PyObject *text = PyUnicode_FromFormat("%s: %s", field, why);
-    if (!text)
-        return NULL;
-    PyObject *exc = PyObject_CallOneArg(kwpy_InputError, text);
-    Py_DECREF(text);
-    if (!exc)
-        return NULL;
-    PyObject *p = PyUnicode_FromString(field);
-    PyObject *s = PyUnicode_FromString(kw_strerror(KW_EINVAL));
-    if (p && s) {
-        PyObject_SetAttrString(exc, "param", p);
-        PyObject_SetAttrString(exc, "status", s);
-    }
-    Py_XDECREF(p);
-    Py_XDECREF(s);
-    PyErr_SetObject(kwpy_InputError, exc);
-    Py_DECREF(exc);
-    return NULL;
+    return raise_text(kwpy_InputError, PyUnicode_FromFormat("%s: %s", field, why), field,
+                      KW_EINVAL);
 }
 
 /* ---- arrays -------------------------------------------------------------------- */
@@ -357,10 +351,11 @@ static int one_text(PyObject *obj, const char *name, char *buf, size_t n)
     return 0;
 }
 
-int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, size_t n)
+int kwpy_join_values(PyObject *obj, const char *name, const char *sep,
+                     int (*one)(PyObject *, const char *, char *, size_t), char *buf, size_t n)
 {
     if (PyUnicode_Check(obj) || !PySequence_Check(obj))
-        return one_text(obj, name, buf, n);
+        return one(obj, name, buf, n);
     Py_ssize_t len = PySequence_Length(obj);
     if (len < 0)
         return -1;
@@ -370,12 +365,12 @@ int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, 
         PyObject *it = PySequence_GetItem(obj, i);
         if (!it)
             return -1;
-        char one[128];
-        int rc = one_text(it, name, one, sizeof one);
+        char text[128];
+        int rc = one(it, name, text, sizeof text);
         Py_DECREF(it);
         if (rc < 0)
             return -1;
-        int w = snprintf(buf + used, n - used, "%s%s", i ? sep : "", one);
+        int w = snprintf(buf + used, n - used, "%s%s", i ? sep : "", text);
         if (w < 0 || (size_t)w >= n - used) {
             kwpy_value_error(name, "value too long");
             return -1;
@@ -383,6 +378,11 @@ int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, 
         used += (size_t)w;
     }
     return 0;
+}
+
+int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, size_t n)
+{
+    return kwpy_join_values(obj, name, sep, one_text, buf, n);
 }
 
 /* One number (or str) of a key's value: the digits of an int, the shortest

@@ -14,29 +14,6 @@
 #include "kw_pattern.h"
 #include "kw_pattern_analysis.h"
 
-/* InputError "<option>: <reason>" for a failed library call whose parameter
- * maps to `option`, with .param = option and .status = the library's. */
-static PyObject *raise_option(kw_status st, const char *option)
-{
-    const char *why = kw_last_error_reason();
-    PyObject *text = PyUnicode_FromFormat("%s: %s", option, why && *why ? why : kw_strerror(st));
-    PyObject *exc = text ? PyObject_CallOneArg(kwpy_InputError, text) : NULL;
-    Py_XDECREF(text);
-    if (!exc)
-        return NULL;
-    PyObject *p = PyUnicode_FromString(option);
-    PyObject *s = PyUnicode_FromString(kw_strerror(st));
-    if (p && s) {
-        PyObject_SetAttrString(exc, "param", p);
-        PyObject_SetAttrString(exc, "status", s);
-    }
-    Py_XDECREF(p);
-    Py_XDECREF(s);
-    PyErr_SetObject(kwpy_InputError, exc);
-    Py_DECREF(exc);
-    return NULL;
-}
-
 /* ---- pattern(): the options ------------------------------------------------------------ */
 
 /* The library's messages as the command's ("not used by --kind radial"):
@@ -49,7 +26,7 @@ static const kw_param_spelling SPELLING = {"--", '-', " ", NULL};
 static PyObject *pattern_fail(kw_status st, const char *context)
 {
     const char *key = kw_pattern_input_key_of(kw_last_error_param());
-    return key ? raise_option(st, key) : kwpy_raise(st, context);
+    return key ? kwpy_option_error(st, key) : kwpy_raise(st, context);
 }
 
 /* The keywords onto the library's input, in the order of its keys (the

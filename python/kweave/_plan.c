@@ -75,31 +75,7 @@ static int one_text(PyObject *v, const char *key, char *buf, size_t n)
  * and a number of any key with a unit as SI. */
 static int key_text(PyObject *v, const char *key, char *buf, size_t n)
 {
-    int matrix = strcmp(key, "matrix") == 0;
-    if (PyUnicode_Check(v) || !PySequence_Check(v))
-        return one_text(v, key, buf, n);
-    Py_ssize_t len = PySequence_Length(v);
-    if (len < 0)
-        return -1;
-    size_t used = 0;
-    buf[0] = '\0';
-    for (Py_ssize_t i = 0; i < len; i++) {
-        PyObject *it = PySequence_GetItem(v, i);
-        if (!it)
-            return -1;
-        char one[128];
-        int rc = one_text(it, key, one, sizeof one);
-        Py_DECREF(it);
-        if (rc < 0)
-            return -1;
-        int w = snprintf(buf + used, n - used, "%s%s", i ? (matrix ? "x" : ",") : "", one);
-        if (w < 0 || (size_t)w >= n - used) {
-            kwpy_value_error(key, "value too long");
-            return -1;
-        }
-        used += (size_t)w;
-    }
-    return 0;
+    return kwpy_join_values(v, key, strcmp(key, "matrix") == 0 ? "x" : ",", one_text, buf, n);
 }
 
 /* ---- protocol files ---------------------------------------------------------------------- */

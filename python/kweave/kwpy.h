@@ -34,6 +34,11 @@ extern PyObject *kwpy_InputError;
  * KeyboardInterrupt, the rest Error. Returns NULL. */
 PyObject *kwpy_raise(kw_status st, const char *context);
 
+/*! kwpy_option_error(): raise InputError("<option>: <reason>") for a failed
+ * library call whose parameter maps to `option` (kw_last_error_reason()),
+ * with .param = option and .status = the library's. Returns NULL. */
+PyObject *kwpy_option_error(kw_status st, const char *option);
+
 /*! kwpy_value_error(): raise InputError("<field>: <why>"); returns NULL. */
 PyObject *kwpy_value_error(const char *field, const char *fmt, ...);
 
@@ -88,6 +93,12 @@ int kwpy_parse_kwargs(PyObject *kwargs, const kwpy_kw *table, const char *call);
  * as is, int and float in full precision, a sequence joined by `sep`), in
  * buf. Returns 0, or -1 with InputError naming `name`. */
 int kwpy_str_value(PyObject *obj, const char *name, const char *sep, char *buf, size_t n);
+
+/*! kwpy_join_values(): `obj` as text: a str or a single value through
+ * `one`, a sequence as its items through `one` joined by `sep` (each item
+ * at most 127 characters). Returns 0, or -1 with InputError naming `name`. */
+int kwpy_join_values(PyObject *obj, const char *name, const char *sep,
+                     int (*one)(PyObject *, const char *, char *, size_t), char *buf, size_t n);
 
 /*! kwpy_param_text(): `v` as the text of the library's key `k`
  * (kw_params.h) as the command line would carry it: a str as is; a flag's
