@@ -76,6 +76,15 @@
  * then linear between its samples, and the actual k-space its exact
  * integral, as for the nominal waveform.
  *
+ * Actual gradient: cascade. A GIRF with a delay and/or a response term:
+ * the GIRF acts on the samples first, then the delay and the response term
+ * act (as above, in closed form) on the GIRF's output, linear between its
+ * samples. The systems are linear and time-invariant, so the cascade's
+ * transfer function is the product H(f) e^{-i 2 pi f d} ((1 - alpha) +
+ * alpha / (1 + i 2 pi f tau)) whatever the order (convolution commutes);
+ * this order keeps the delay and the response exact on the continuous
+ * waveform rather than sampled onto the DFT's bins.
+ *
  * Object model: kw_waveform_create() checks and computes everything and
  * keeps it; the accessors return pointers into the object, valid until
  * kw_waveform_destroy() (NULL-safe). The object is read-only after create:
@@ -91,8 +100,7 @@
  * no samples; the window's number in the reason), "pns_radius_m",
  * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
  * "response_tau_s", "response_amp", "girf" (a NULL array, a count below
- * 2, a non-finite value, combined with a delay or a response term, a held
- * waveform), "girf_freq_hz" (non-finite, negative or not strictly
+ * 2, a non-finite value, a held waveform), "girf_freq_hz" (non-finite, negative or not strictly
  * increasing: the index in the reason), "girf_axes" (not the waveform's),
  * "options".
  */
@@ -161,8 +169,8 @@ typedef struct kw_waveform_options {
      * frequencies girf_freq_hz (Hz, >= 0, strictly increasing) and
      * girf[girf_axes * girf_nfreq] (C order (axes, nfreq)) the complex
      * H(f) per axis; girf_axes must equal the waveform's axes. NULL / 0:
-     * none (default). Not combined with delay_s or a response term: put
-     * those into H (KW_EINVAL naming "girf"). */
+     * none (default). With delay_s or a response term set too, they act
+     * on the GIRF's output (the cascade, "Actual gradient: cascade"). */
     const double *girf_freq_hz;
     const kw_cdouble *girf;
     size_t girf_nfreq;

@@ -247,9 +247,10 @@ static kw_status fill(struct kw_waveform *w, const double *g)
         double centre = a->start_s + 0.5 * (double)a->samples * a->dwell_s;
         moments(w, centre - w->o.rf_centre_s, &w->adcm[i]);
     }
-    kw_status st = kw_waveform_actual_prepare(w);
+    /* the GIRF first: the delay and the response term act on its output */
+    kw_status st = kw_waveform_girf_prepare(w);
     if (!st)
-        st = kw_waveform_girf_prepare(w);
+        st = kw_waveform_actual_prepare(w);
     return st ? st : kw_waveform_check_limits(w);
 }
 

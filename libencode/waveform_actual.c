@@ -29,9 +29,21 @@ kw_status kw_waveform_actual_check(const kw_waveform_options *o, double span)
     return KW_OK;
 }
 
+/* Sample i of axis a of the waveform the delay and the response term act
+ * on: the GIRF's output when there is one (the cascade, see
+ * kw_waveform.h), else the nominal samples. */
 static double gs(const struct kw_waveform *w, int a, size_t i)
 {
-    return w->g[i * (size_t)w->axes + (size_t)a];
+    return (w->ga ? w->ga : w->g)[i * (size_t)w->axes + (size_t)a];
+}
+
+/* 1 when a delay or a response term is set on some axis */
+static int has_term(const struct kw_waveform *w)
+{
+    for (int a = 0; a < w->axes; a++)
+        if (w->o.delay_s[a] != 0 || w->o.response_amp[a] != 0)
+            return 1;
+    return 0;
 }
 
 /* The response over [t_i, t_i + d] (d <= raster) from y0 at t_i: y at the
@@ -125,12 +137,7 @@ int kw_waveform_has_imperfection(const kw_waveform *w)
 {
     if (!w)
         return 0;
-    if (w->ga)
-        return 1;
-    for (int a = 0; a < w->axes; a++)
-        if (w->o.delay_s[a] != 0 || w->o.response_amp[a] != 0)
-            return 1;
-    return 0;
+    return w->ga || has_term(w);
 }
 
 kw_status kw_waveform_actual(const kw_waveform *w, double *g)
@@ -138,7 +145,7 @@ kw_status kw_waveform_actual(const kw_waveform *w, double *g)
     KW_FAIL_PARAM(!w || !g, KW_EINVAL, "waveform", "NULL argument");
     KW_FAIL_PARAM(w->o.held, KW_ENOTSUP, "held", "not supported for a waveform of held samples");
     const double h = w->o.raster_s;
-    if (w->ga) {
+    if (w->ga && !has_term(w)) {
         memcpy(g, w->ga, w->n * (size_t)w->axes * sizeof *g);
         return KW_OK;
     }
@@ -155,7 +162,7 @@ kw_status kw_waveform_actual(const kw_waveform *w, double *g)
 /* integral of the actual gradient on axis a from the start to t */
 static double actual_integral(const struct kw_waveform *w, int a, double t)
 {
-    if (w->ga)
+    if (w->ga && !has_term(w))
         return kw_waveform_girf_integral(w, a, t);
     const double al = w->o.response_amp[a];
     double g, f, y, iy;

@@ -460,6 +460,66 @@ def test_girf_against_numpy_fft_filter(tmp_path):
     assert rep["actual"]["girf"]["frequencies"] == 40 and rep["actual"]["girf"]["beyond_band"] == "H = 0"
 
 
+def test_girf_cascade_with_delay_and_lowpass(tmp_path):
+    """--girf with --delay / --lowpass: the cascade of the systems (the
+    product of their transfer functions; linear and time-invariant, so the
+    order does not matter). (1) H = 1 to 50 kHz plus --delay 2us is
+    --delay 2us alone (float32 k: 2e-5); (2) H = exp(-i 2 pi f 20us) plus
+    --lowpass 20us is --delay 20us --lowpass 20us (the GIRF's delayed
+    samples within 2e-7 relative, the low-pass a contraction: k 1e-4);
+    (3) a smooth measured-like table with --lowpass 15us --delay 20us
+    against references outside kweave: numpy's rfft/irfft filter (the
+    rules of test_girf_against_numpy_fft_filter), then scipy.signal.lsim of
+    1 / (tau s + 1) on the filtered samples (linear between samples, lsim's
+    first-order hold: exact), k from the integral of the low-pass's output
+    = integral of its input - tau y (tau y' = x - y), delayed by 2 rasters;
+    atol 2e-6 x max |k| (float32 output)."""
+    from scipy import signal
+    g, adc = readout_waveform()
+    f = np.linspace(0, 50e3, 5001)
+    girf_file(tmp_path / "h1.npy", f, [np.ones_like(f), np.ones_like(f)])
+    kg, _ = actual_k(tmp_path, g, adc, "--girf", tmp_path / "h1.npy", "--delay", "2us", name="k1")
+    kc, kn = actual_k(tmp_path, g, adc, "--delay", "2us", name="k1c")
+    np.testing.assert_allclose(kg, kc, rtol=0, atol=2e-5)
+    assert abs(np.max(np.abs(kg[:, 0] - kn[:, 0])) - 0.2) < 2e-3  # the echo moved by 0.2 samples
+    girf_file(tmp_path / "hd.npy", f, [np.exp(-2j * np.pi * f * 20e-6)] * 2)
+    kg, _ = actual_k(tmp_path, g, adc, "--girf", tmp_path / "hd.npy", "--lowpass", "20us", name="kd")
+    kc, _ = actual_k(tmp_path, g, adc, "--delay", "20us", "--lowpass", "20us", name="kdc")
+    np.testing.assert_allclose(kg, kc, rtol=0, atol=1e-4)
+    # (3) against numpy + scipy
+    g32 = smooth_waveform(n=300, axes=2, seed=7)
+    fs = np.linspace(2e3, 30e3, 40)
+    hs = [np.exp(-2j * np.pi * fs * 3e-6) / (1 + 2j * np.pi * fs * 15e-6),
+          1 + 0.2 * np.exp(-((fs - 12e3) / 3e3) ** 2) * np.exp(0.5j)]
+    girf_file(tmp_path / "h.npy", fs, hs)
+    table = np.load(tmp_path / "h.npy")
+    np.save(tmp_path / "g.npy", g32)
+    rf, adc0, nadc, tau, d = 100e-6, 40, 200, 15e-6, 2
+    run("waveform", "--in", tmp_path / "g.npy", "--rf-centre", "100us", "--adc", f"{adc0}:{nadc}:10us",
+        "--girf", tmp_path / "h.npy", "--lowpass", "15us", "--delay", "20us",
+        "--trajectory-actual", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    k = np.load(tmp_path / "k.npy")
+    n = len(g32)
+    nf = 1 << int(np.ceil(np.log2(2 * n)))
+    fk = np.fft.rfftfreq(nf, H)
+    ft = np.real(table[:, 0]).astype(np.float64)
+    f2 = np.concatenate([-ft[::-1], ft])
+    t = np.arange(n) * H
+    for a in range(2):
+        h = table[:, 1 + a].astype(np.complex128)
+        h2 = np.concatenate([np.conj(h[::-1]), h])
+        hk = np.interp(fk, f2, h2.real, right=0) + 1j * np.interp(fk, f2, h2.imag, right=0)
+        ga = np.fft.irfft(np.fft.rfft(g32[:, a].astype(np.float64), nf) * hk, nf)[:n]
+        _, y, _ = signal.lsim(([1.0], [tau, 1.0]), ga, t, interp=True)
+        i_act = integrate.cumulative_trapezoid(ga, t, initial=0) - tau * y  # integral of y from 0
+        i_del = np.concatenate([np.zeros(d), i_act[:-d]])  # G_act(t) = y(t - 20 us)
+        ref = GAMMA_BAR * 0.256 * (i_del[adc0:adc0 + nadc] - i_del[int(round(rf / H))])
+        np.testing.assert_allclose(k[:, a], ref, rtol=0, atol=2e-6 * np.max(np.abs(ref)))
+    rep = json.load(open(tmp_path / "r.json"))
+    assert rep["actual"]["girf"]["frequencies"] == 40 and rep["actual"]["delay_s"] == [20e-6, 20e-6]
+    assert rep["actual"]["response_tau_s"] == [15e-6, 15e-6]
+
+
 def test_girf_bad_input_names_the_option_and_writes_nothing(tmp_path):
     g, adc = readout_waveform()
     np.save(tmp_path / "g.npy", g)
@@ -488,7 +548,6 @@ def test_girf_bad_input_names_the_option_and_writes_nothing(tmp_path):
     np.save(tmp_path / "cf.npy", t)
     assert "row 2" in refused(*base, "--girf", tmp_path / "cf.npy", *outs, opt="girf")
     girf_file(tmp_path / "ok.npy", f, [h, h])
-    refused(*base, "--girf", tmp_path / "ok.npy", "--delay", "2us", *outs, opt="girf")
     refused(*base, "--girf", tmp_path / "missing.npy", *outs, opt="girf")
     for name in ("k.npy", "k_times.npy", "k.json", "r.json", "p.png"):
         assert not (tmp_path / name).exists(), name
