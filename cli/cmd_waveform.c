@@ -339,9 +339,31 @@ static const kw_cli_param DELAY_MAP[] = {
     {"data", "estimate-delay"}, {"spokes", "estimate-delay"}, {"n", "estimate-delay"}, {NULL, NULL},
 };
 
+/* The per-axis delays (kw_waveform_estimate_delay_axes()) with the
+ * spokes' directions from the nominal gradient at the windows' centres;
+ * NaN where the directions cannot tell the axes apart (*why says so). */
+static void estimate_axes(const kw_array *ks, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
+{
+    const int axes = kw_waveform_summary_of(w)->axes;
+    double *dir = kw_alloc_n(o->nadc * (size_t)axes, sizeof *dir);
+    kw_status st = dir ? kw_waveform_adc_directions(w, dir) : KW_ENOMEM;
+    if (!st)
+        st = kw_waveform_estimate_delay_axes(ks->data, ks->ndim == 2 ? ks->dims[0] : 1, o->nadc, o->adc[0].samples,
+                                             o->adc[0].dwell_s, dir, axes, est);
+    if (st) {
+        snprintf(why, cap, "%s", kw_last_error());
+        for (int a = 0; a < axes; a++)
+            est[a] = NAN;
+    }
+    kw_free(dir);
+}
+
 /* --estimate-delay KS.npy: radial data (coils, samples) acquired with this
- * waveform's ADC windows as spokes, window s opposed to s + windows/2. */
-static int estimate_delay(const char *path, const kw_waveform_options *o, double *est)
+ * waveform's ADC windows as spokes, window s opposed to s + windows/2:
+ * est[0] one delay for every axis, est[1 + a] the delay of axis a. */
+static int estimate_delay(const char *path, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
 {
     int same = o->nadc >= 2 && o->nadc % 2 == 0;
     for (size_t i = 1; same && i < o->nadc; i++)
@@ -360,21 +382,28 @@ static int estimate_delay(const char *path, const kw_waveform_options *o, double
     else if ((st = kw_waveform_estimate_delay(ks.data, ks.ndim == 2 ? ks.dims[0] : 1, o->nadc, o->adc[0].samples,
                                               o->adc[0].dwell_s, est)))
         rc = kw_cli_lib_status(st, "estimate-delay", DELAY_MAP);
+    else
+        estimate_axes(&ks, w, o, est + 1, why, cap);
     kw_array_free(&ks);
     return rc;
 }
 
 /* The report's JSON with the delay estimate added ("-" or a file). */
-static kw_status write_json(const char *path, const char *js, double est)
+static kw_status write_json(const char *path, const char *js, const double *est, int axes, const char *why)
 {
-    if (isnan(est))
+    if (isnan(est[0]))
         return strcmp(path, "-") == 0 ? (fputs(js, stdout) < 0 ? KW_EIO : KW_OK)
                                       : kw_outfile_write_all(path, js, strlen(js));
     cJSON *j = cJSON_Parse(js);
     KW_FAIL_IF(!j, KW_ENOMEM, "json: out of memory");
     cJSON *d = cJSON_CreateObject();
-    kw_json_add_number_or_null(d, "delay_s", est);
+    kw_json_add_number_or_null(d, "delay_s", est[0]);
     cJSON_AddStringToObject(d, "method", "shift between opposed spokes' echoes (Peters et al. 2003), one delay for every axis");
+    cJSON *pa = cJSON_AddArrayToObject(d, "per_axis_delay_s");
+    for (int a = 0; pa && a < axes; a++)
+        cJSON_AddItemToArray(pa, isnan(est[1 + a]) ? cJSON_CreateNull() : cJSON_CreateNumber(est[1 + a]));
+    cJSON_AddStringToObject(d, "per_axis_method", *why ? why : "least squares of each pair's echo shift against "
+                            "sum over axes of delay x direction^2 (dx cos^2 + dy sin^2 in a plane)");
     cJSON_AddItemToObject(j, "delay_estimate", d);
     kw_status st = kw_json_write(path, j);
     cJSON_Delete(j);
@@ -489,26 +518,38 @@ static int run(wf_args *a)
         rc = kw_cli_lib_status(st, "waveform", PARAM_MAP);
         goto done;
     }
+    double est[4] = {NAN, NAN, NAN, NAN};
+    char why[256] = "";
+    if (a->estimate && (rc = estimate_delay(a->estimate, w, &o, est, why, sizeof why)) >= 0)
+        goto done;
     if (a->traj && (rc = write_trajectory(a, w, a->traj, a->times, 0)) >= 0)
         goto done;
     if (a->traj_actual && (rc = write_trajectory(a, w, a->traj_actual, NULL, 1)) >= 0)
         goto done;
     if (a->png && (st = kw_wf_write_png(a->png, g, n, axes, w, &o)) && (rc = kw_cli_status(st, "png")) >= 0)
         goto done;
-    double est = NAN;
-    if (a->estimate && (rc = estimate_delay(a->estimate, &o, &est)) >= 0)
-        goto done;
     if (a->json) {
-        if ((st = kw_waveform_report_json(w, &js)) || (st = write_json(a->json, js, est))) {
+        if ((st = kw_waveform_report_json(w, &js)) || (st = write_json(a->json, js, est, axes, why))) {
             rc = kw_cli_status(st, "json");
             goto done;
         }
     }
     if (!a->json || strcmp(a->json, "-") != 0) {
         print_report(w, &o);
-        if (!isnan(est))
+        if (!isnan(est[0])) {
             printf("gradient delay estimated from %s (shift between opposed spokes' echoes, Peters et al. 2003; "
-                   "one delay for every axis): %.4f us\n", a->estimate, est * 1e6);
+                   "one delay for every axis): %.4f us\n", a->estimate, est[0] * 1e6);
+            printf("per axis (least squares of each pair's echo shift = dx cos^2 + dy sin^2 [+ dz ...]):");
+            for (int k = 0; k < axes; k++) {
+                if (isnan(est[1 + k]))
+                    printf(" %c -", "xyz"[k]);
+                else
+                    printf(" %c %.4f us", "xyz"[k], est[1 + k] * 1e6);
+            }
+            if (*why)
+                printf(" (%s)", why);
+            printf("\n");
+        }
     }
     rc = KW_EXIT_OK;
 done:

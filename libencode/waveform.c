@@ -334,3 +334,17 @@ kw_status kw_waveform_trajectory(const kw_waveform *w, float *k, float *t)
     }
     return KW_OK;
 }
+
+kw_status kw_waveform_adc_directions(const kw_waveform *w, double *dir)
+{
+    KW_FAIL_PARAM(!w || !dir, KW_EINVAL, "waveform", "NULL argument");
+    KW_FAIL_PARAM(!w->o.nadc, KW_EINVAL, "adc", "no ADC window");
+    for (size_t j = 0; j < w->o.nadc; j++) {
+        const kw_waveform_adc *a = &w->adc[j];
+        const double tau = a->start_s + 0.5 * (double)a->samples * a->dwell_s;
+        const size_t i = interval_of(w, tau);
+        for (int ax = 0; ax < w->axes; ax++)
+            dir[j * (size_t)w->axes + (size_t)ax] = g_at(w, ax, i, tau);
+    }
+    return KW_OK;
+}

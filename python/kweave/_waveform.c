@@ -286,7 +286,8 @@ static double *read_g(PyObject *obj, size_t *n, int *axes)
  * taken with the ADC windows as spokes (window s opposed to s + windows/2),
  * as the command's --estimate-delay file; the gradient delay by
  * kw_waveform_estimate_delay() (Peters et al. 2003). 0 or -1 raised. */
-static int estimate_delay(PyObject *obj, const kw_waveform_options *o, double *est)
+static int estimate_delay(PyObject *obj, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
 {
     int same = o->nadc >= 2 && o->nadc % 2 == 0;
     for (size_t i = 1; same && i < o->nadc; i++)
@@ -310,16 +311,32 @@ static int estimate_delay(PyObject *obj, const kw_waveform_options *o, double *e
         return kwpy_value_error("estimate-delay", "expected complex k-space (coils, %zu) of the ADC windows' samples",
                                 total), -1;
     }
-    kw_status st;
+    kw_status st, sa = KW_OK;
     const kw_cfloat *data = PyArray_DATA(ks);
     const size_t coils = nd == 2 ? (size_t)PyArray_DIM(ks, 0) : 1;
+    const int axes = kw_waveform_summary_of(w)->axes;
+    double *dir = kw_alloc_n(o->nadc * (size_t)axes, sizeof *dir);
     Py_BEGIN_ALLOW_THREADS
     st = kw_waveform_estimate_delay(data, coils, o->nadc, o->adc[0].samples, o->adc[0].dwell_s, est);
+    /* per axis, as the command: NaN and the reason when the spokes'
+     * directions cannot tell the axes apart */
+    if (!st) {
+        sa = dir ? kw_waveform_adc_directions(w, dir) : KW_ENOMEM;
+        if (!sa)
+            sa = kw_waveform_estimate_delay_axes(data, coils, o->nadc, o->adc[0].samples, o->adc[0].dwell_s, dir,
+                                                 axes, est + 1);
+        if (sa) {
+            snprintf(why, cap, "%s", kw_last_error());
+            for (int a = 0; a < axes; a++)
+                est[1 + a] = NAN;
+        }
+    }
     Py_END_ALLOW_THREADS
+    kw_free(dir);
     Py_DECREF(ks);
     if (st) { /* data, spokes, n: the file's */
-        const char *why = kw_last_error_reason();
-        kw_set_error_param(st, "estimate-delay", "%s", why && *why ? why : kw_strerror(st));
+        const char *reason = kw_last_error_reason();
+        kw_set_error_param(st, "estimate-delay", "%s", reason && *reason ? reason : kw_strerror(st));
         return kwpy_raise(st, NULL), -1;
     }
     return 0;
@@ -396,7 +413,7 @@ static int put_actual_gradient(PyObject *d, const kw_waveform *w)
 
 /* The report (with the delay estimate when est is not NaN, as the
  * command's JSON), the trajectories and the actual gradient. */
-static PyObject *result(const kw_waveform *w, int with_estimate, double est)
+static PyObject *result(const kw_waveform *w, int with_estimate, const double *est, const char *why)
 {
     char *json = NULL;
     kw_status st = kw_waveform_report_json(w, &json);
@@ -410,7 +427,20 @@ static PyObject *result(const kw_waveform *w, int with_estimate, double est)
         PyObject *e = Py_BuildValue("{s:O,s:s}", "delay_s", Py_None, "method",
                                     "shift between opposed spokes' echoes (Peters et al. 2003), one delay "
                                     "for every axis");
-        if (e && isfinite(est) && put(e, "delay_s", PyFloat_FromDouble(est)) < 0)
+        if (e && isfinite(est[0]) && put(e, "delay_s", PyFloat_FromDouble(est[0])) < 0)
+            Py_CLEAR(e);
+        const int axes = kw_waveform_summary_of(w)->axes;
+        PyObject *pa = e ? PyList_New(axes) : NULL;
+        for (int a = 0; pa && a < axes; a++) {
+            PyObject *v = isnan(est[1 + a]) ? (Py_INCREF(Py_None), Py_None) : PyFloat_FromDouble(est[1 + a]);
+            if (!v)
+                Py_CLEAR(pa);
+            else
+                PyList_SET_ITEM(pa, a, v);
+        }
+        if (!pa || put(e, "per_axis_delay_s", pa) < 0 ||
+            put(e, "per_axis_method", PyUnicode_FromString(*why ? why : "least squares of each pair's echo shift "
+                "against sum over axes of delay x direction^2 (dx cos^2 + dy sin^2 in a plane)")) < 0)
             Py_CLEAR(e);
         rc = put(d, "delay_estimate", e);
     }
@@ -501,11 +531,12 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     Py_BEGIN_ALLOW_THREADS
     st = kw_waveform_create(&w, g, n, axes, &o);
     Py_END_ALLOW_THREADS
-    double est = NAN;
+    double est[4] = {NAN, NAN, NAN, NAN};
+    char why[256] = "";
     if (st)
         raise_lib(st, "waveform");
-    else if (!a.estimate || estimate_delay(a.estimate, &o, &est) == 0)
-        d = result(w, a.estimate != NULL, est);
+    else if (!a.estimate || estimate_delay(a.estimate, w, &o, est, why, sizeof why) == 0)
+        d = result(w, a.estimate != NULL, est, why);
 done:
     kw_waveform_destroy(w);
     kw_free(g);
