@@ -291,6 +291,9 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     printf("vector: peak |G| %.4f mT/m (sample %zu), peak slew %.2f T/m/s (interval %zu), RMS %.4f mT/m "
            "over %.6g ms\n", s->peak_g_vector * 1e3, s->peak_g_vector_at, s->peak_slew_vector,
            s->peak_slew_vector_at, s->rms_g_vector * 1e3, s->tr_s * 1e3);
+    if (o->held)
+        printf("held samples: slew is raster-limited, (G[i+1] - G[i]) / raster, the step between held values "
+               "spread over one raster\n");
     printf("starts at zero: %s; ends at zero: %s; ADC windows on the raster: yes\n",
            s->starts_at_zero ? "yes" : "NO", s->ends_at_zero ? "yes" : "NO");
     size_t nv;

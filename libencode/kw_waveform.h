@@ -76,6 +76,14 @@
  * then linear between its samples, and the actual k-space its exact
  * integral, as for the nominal waveform.
  *
+ * Actual gradient of a held waveform: the same model with a constant
+ * input on every interval (y relaxes towards each held value: y = g_i +
+ * (y_i - g_i) e^{-t/tau}); kw_waveform_actual() returns the mean of the
+ * actual gradient over every raster interval [t_i, t_i+1) (the exact
+ * integral's differences; held, they give the exact actual k at every
+ * boundary), the actual trajectory the exact integral. A GIRF acts on the
+ * samples as above and its output is held.
+ *
  * Actual gradient: cascade. A GIRF with a delay and/or a response term:
  * the GIRF acts on the samples first, then the delay and the response term
  * act (as above, in closed form) on the GIRF's output, linear between its
@@ -100,7 +108,7 @@
  * no samples; the window's number in the reason), "pns_radius_m",
  * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
  * "response_tau_s", "response_amp", "girf" (a NULL array, a count below
- * 2, a non-finite value, a held waveform), "girf_freq_hz" (non-finite, negative or not strictly
+ * 2, a non-finite value), "girf_freq_hz" (non-finite, negative or not strictly
  * increasing: the index in the reason), "girf_axes" (not the waveform's),
  * "options".
  */
@@ -159,8 +167,16 @@ typedef struct kw_waveform_options {
     double response_amp[3];
     /* 1: sample i is held over [t_i, t_i+1) (the planner's spiral,
      * kw_gradient.h; the waveform spans samples x raster); 0: linear
-     * between samples (default). The actual-gradient calls refuse held
-     * waveforms in this version (KW_ENOTSUP naming "held"). */
+     * between samples (default). Held: the moments and k are those of
+     * the steps (M0 exactly the sum of G raster); the slew of interval i
+     * is raster-limited, (g[i+1] - g[i]) / raster, the step between held
+     * values spread over one raster (the model's steps are instantaneous;
+     * a sequence's gradient raster is what its hardware plays, so the
+     * limit is held against that figure); the actual gradient is the
+     * delay / response of the steps in closed form (a constant input on
+     * every interval), kw_waveform_actual() gives its mean over every
+     * [t_i, t_i+1) (held, these have the exact actual k at every
+     * boundary), and a GIRF acts on the samples, its output held. */
     int held;
     /* A measured gradient impulse response (GIRF; Vannesjo et al., "Gradient
      * system characterization by impulse response measurements with a

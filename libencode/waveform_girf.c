@@ -20,7 +20,6 @@ kw_status kw_waveform_girf_check(const kw_waveform_options *o, int axes)
                   o->girf_nfreq);
     KW_FAIL_PARAM(o->girf_axes != axes, KW_EINVAL, "girf_axes",
                   "%d axes in the transfer function, %d in the waveform", o->girf_axes, axes);
-    KW_FAIL_PARAM(o->held, KW_ENOTSUP, "girf", "not supported for a waveform of held samples in this version");
     for (size_t j = 0; j < o->girf_nfreq; j++) {
         const double f = o->girf_freq_hz[j];
         KW_FAIL_PARAM(!isfinite(f) || f < 0, KW_EINVAL, "girf_freq_hz", "frequency %zu: %g Hz; finite and >= 0",

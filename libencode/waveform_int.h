@@ -11,6 +11,11 @@
  * such samples). */
 #define WF_LIMIT_MARGIN 1e-5
 
+/* What the slew of a held waveform means (the report's slew_model). */
+#define WF_HELD_SLEW                                                                                        \
+    "raster-limited: (G[i+1] - G[i]) / raster, the step between held values spread over one raster (the "   \
+    "model's steps are instantaneous)"
+
 struct kw_waveform {
     kw_waveform_options o; /* o.adc points at `adc` below */
     kw_waveform_adc *adc;

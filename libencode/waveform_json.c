@@ -173,6 +173,8 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
         add_num(j, "slew_T_per_m_per_s", o->slew);
         cJSON_AddBoolToObject(j, "limit_vector", o->limit_vector != 0);
         cJSON_AddBoolToObject(j, "held", o->held != 0);
+        if (o->held)
+            cJSON_AddStringToObject(j, "slew_model", WF_HELD_SLEW);
         add_peaks(j, s, o);
         cJSON_AddBoolToObject(j, "starts_at_zero", s->starts_at_zero);
         cJSON_AddBoolToObject(j, "ends_at_zero", s->ends_at_zero);

@@ -759,12 +759,11 @@ Test(waveform, held_samples_are_rectangles)
     /* halfway through the third held value: 2.5 rasters */
     cr_assert_eq(kw_waveform_moments_at(w, t0 + 2.5 * H, &mo), KW_OK);
     REL(mo.m0[0], 12e-3 * 2.5 * H, 1e-12);
-    float k[1];
-    cr_expect_eq(kw_waveform_actual(w, g), KW_ENOTSUP);
-    cr_expect_eq(kw_waveform_trajectory_actual(w, k, NULL), KW_ENOTSUP);
+    /* M0 to the end: exactly the sum of G dt (the closed form of a held
+     * sequence) */
+    cr_assert_eq(kw_waveform_moments_at(w, (double)n * H - 2 * H, &mo), KW_OK);
+    REL(mo.m0[0], 12e-3 * H * (double)m, 1e-13);
     kw_waveform_destroy(w);
-    o.delay_s[0] = 1e-6;
-    expect_refused(g, n, 1, &o, KW_ENOTSUP, "held");
 }
 
 /* kweave's own spiral written as a waveform (held samples) and imported
@@ -1040,9 +1039,6 @@ Test(waveform, girf_fields_are_checked)
     o.girf = NULL;
     expect_refused(g, 20, 2, &o, KW_EINVAL, "girf");
     o.girf = hv;
-    o.held = 1;
-    expect_refused(g, 20, 2, &o, KW_ENOTSUP, "girf");
-    o.held = 0;
     kw_waveform *w = make(g, 20, 2, &o);
     cr_expect(kw_waveform_has_imperfection(w));
     kw_waveform_destroy(w);
@@ -1094,4 +1090,97 @@ Test(waveform, girf_allocation_budget_and_split)
     cr_expect_null(f);
     cr_expect_null(hv);
     free(g);
+}
+
+/* The actual gradient of a held waveform (each value held over its
+ * raster), in closed form, against references worked here independently:
+ * a delay of one raster moves the held values by one; a delay of a fifth
+ * of a raster makes the mean over [t_i, t_i+1) 0.8 g_i + 0.2 g_(i-1); a
+ * first-order low-pass (tau 20 us) follows the exact zero-order-hold
+ * recursion y_(i+1) = g_i + (y_i - g_i) e^(-h/tau) (the textbook step
+ * response 1 - e^(-t/tau) of each held step), its mean over an interval
+ * g_i + (y_i - g_i) (tau / h) (1 - e^(-h/tau)); the actual k at the ADC
+ * samples is the integral of those; the GIRF H = 1 with a 2 us delay is
+ * the delay alone, the GIRF of a 2-raster delay the 20 us delay. The
+ * actual samples of a held waveform are means, differences of the exact
+ * integral at the boundaries divided by the raster: equal to the
+ * references to 1e-13 of the amplitude (double rounding of those
+ * differences); k within float32 output rounding (2e-5 cycles/FOV). */
+static void held_actual(const double *g, size_t n, double d, double tau, const double *f, const kw_cdouble *hv,
+                        size_t nf, double *ga, float *k)
+{
+    kw_waveform_adc adc = {5 * H, H, 50};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centre_s = 2 * H;
+    o.held = 1;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.delay_s[0] = d;
+    o.response_tau_s[0] = tau;
+    o.response_amp[0] = tau > 0 ? 1 : 0;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = nf;
+    o.girf_axes = f ? 1 : 0;
+    kw_waveform *w = make(g, n, 1, &o);
+    cr_expect(kw_waveform_has_imperfection(w));
+    cr_assert_eq(kw_waveform_actual(w, ga), KW_OK, "%s", kw_last_error());
+    cr_assert_eq(kw_waveform_trajectory_actual(w, k, NULL), KW_OK, "%s", kw_last_error());
+    kw_waveform_destroy(w);
+}
+
+/* k at ADC sample j (time (5 + j) H, RF centre 2 H) of held means ga */
+static double held_k(const double *ga, size_t j)
+{
+    double m0 = 0;
+    for (size_t i = 2; i < 5 + j; i++)
+        m0 += ga[i] * H;
+    return KW_GAMMA_BAR_P * m0 * 0.256;
+}
+
+Test(waveform, held_actual_gradient_closed_form)
+{
+    enum { N = 60 };
+    double g[N], ga[N], ref[N];
+    float k[50];
+    for (size_t i = 0; i < N; i++)
+        g[i] = i < 3 || i > N - 4 ? 0 : 10e-3 * sin(0.3 * (double)i) + 4e-3;
+    const double top = 14e-3;
+    held_actual(g, N, H, 0, NULL, NULL, 0, ga, k);
+    for (size_t i = 0; i < N; i++)
+        cr_expect(fabs(ga[i] - (i ? g[i - 1] : 0)) < 1e-13 * top, "delay H, sample %zu: %.17g", i, ga[i] - (i ? g[i - 1] : 0));
+    held_actual(g, N, 0.2 * H, 0, NULL, NULL, 0, ga, k);
+    for (size_t i = 0; i < N; i++)
+        ref[i] = 0.8 * g[i] + 0.2 * (i ? g[i - 1] : 0);
+    for (size_t i = 0; i < N; i++)
+        cr_expect(fabs(ga[i] - ref[i]) < 1e-13 * top, "delay 2 us, sample %zu: %g vs %g", i, ga[i], ref[i]);
+    for (size_t j = 0; j < 50; j++)
+        cr_expect(fabs(k[j] - held_k(ref, j)) < 2e-5, "delay 2 us, k[%zu]: %g vs %g", j, k[j], held_k(ref, j));
+    const double tau = 20e-6, e = exp(-H / tau);
+    held_actual(g, N, 0, tau, NULL, NULL, 0, ga, k);
+    double y = 0;
+    for (size_t i = 0; i < N; i++) {
+        ref[i] = g[i] + (y - g[i]) * tau / H * (1 - e);
+        y = g[i] + (y - g[i]) * e;
+    }
+    for (size_t i = 0; i < N; i++)
+        cr_expect(fabs(ga[i] - ref[i]) < 1e-13 * top, "low-pass, sample %zu: %g vs %g", i, ga[i], ref[i]);
+    for (size_t j = 0; j < 50; j++)
+        cr_expect(fabs(k[j] - held_k(ref, j)) < 2e-5, "low-pass, k[%zu]: %g vs %g", j, k[j], held_k(ref, j));
+    /* the GIRF: H = 1 with a 2 us delay, and a 2-raster delay table */
+    double gd[N];
+    float kd[50];
+    held_actual(g, N, 0.2 * H, 0, NULL, NULL, 0, gd, kd);
+    girf_table(50e3, 2, 0, 0, gf, gh);
+    held_actual(g, N, 0.2 * H, 0, gf, gh, 2, ga, k);
+    for (size_t i = 0; i < N; i++)
+        cr_expect(fabs(ga[i] - gd[i]) < 1e-12 * top, "H = 1 + delay, sample %zu", i);
+    for (size_t j = 0; j < 50; j++)
+        cr_expect(fabsf(k[j] - kd[j]) < 2e-5f, "H = 1 + delay, k[%zu]", j);
+    held_actual(g, N, 2 * H, 0, NULL, NULL, 0, gd, kd);
+    girf_table(50e3, 5001, 2 * H, 0, gf, gh);
+    held_actual(g, N, 0, 0, gf, gh, 5001, ga, k);
+    for (size_t i = 0; i < N; i++)
+        cr_expect(fabs(ga[i] - gd[i]) < 5e-7 * top, "GIRF delay, sample %zu: %g vs %g", i, ga[i], gd[i]);
 }

@@ -221,7 +221,7 @@ def test_errors_as_command(cli):
         (g, ["--rf-centre", "0s", "--fov", "200"], dict(rf_centre=0, fov="200")),
         (g, ["--rf-centre", "0s", "--eddy", "2:50us"], dict(rf_centre=0, eddy="2:50us")),
         (g, ["--rf-centre", "0s", "--delay", "3xs"], dict(rf_centre=0, delay="3xs")),
-        (g, ["--rf-centre", "0s", "--held", "--delay", "3us"], dict(rf_centre=0, held=True, delay="3us")),
+        (g, ["--rf-centre", "0s", "--held", "--delay", "1s"], dict(rf_centre=0, held=True, delay="1s")),
     ]
     for arr, args, kw in cases:
         want = command_error(cli, arr, *args)

@@ -314,7 +314,41 @@ def test_pattern_waveform_only_for_epi_and_spiral(tmp_path):
     refused("pattern", "--kind", "radial", "--matrix", "32x32", "--waveform", tmp_path / "g.npy", opt="waveform")
     assert not (tmp_path / "g.npy").exists()
     np.save(tmp_path / "h.npy", trap(60, 5, 10, 10, 10e-3)[:, None])
-    refused("waveform", "--in", tmp_path / "h.npy", "--rf-centre", "0s", "--held", "--delay", "2us", opt="held")
+    refused("waveform", "--in", tmp_path / "h.npy", "--rf-centre", "0s", "--held", "--delay", "1s", opt="delay")
+
+
+def test_held_waveform_through_lowpass_and_delay_against_scipy(tmp_path):
+    """A held (zero-order hold) waveform with --lowpass 20us --delay 20us:
+    the actual k against scipy.signal.lsim of 1 / (tau s + 1) with
+    interp=False (scipy's zero-order hold: the input held between samples,
+    exact for a held waveform), the integral of the output = integral of
+    the input - tau y (tau y' = x - y), shifted by 2 rasters; the held
+    input's integral is the sum of G dt. float32 k: atol 2e-6 x max |k|.
+    The report says the slew is raster-limited."""
+    from scipy import signal
+    rng = np.random.default_rng(11)
+    n = 120
+    g = np.zeros(n)
+    g[5:100] = np.repeat(rng.uniform(-20e-3, 20e-3, 19), 5)  # steps of 5 rasters
+    g32 = g.astype(np.float32)
+    np.save(tmp_path / "g.npy", g32[:, None])
+    rf, adc0, nadc, tau, d = 20e-6, 10, 100, 20e-6, 2
+    out = run("waveform", "--in", tmp_path / "g.npy", "--held", "--rf-centre", "20us", "--adc",
+              f"{adc0}:{nadc}:10us", "--lowpass", "20us", "--delay", "20us", "--trajectory-actual",
+              tmp_path / "k.npy", "--json", tmp_path / "r.json").stdout
+    k = np.load(tmp_path / "k.npy")[:, 0].astype(np.float64)
+    x = g32.astype(np.float64)
+    t = np.arange(n + 1) * H
+    xe = np.append(x, 0.0)  # the last value is held over [t_(n-1), t_n)
+    _, y, _ = signal.lsim(([1.0], [tau, 1.0]), xe, t, interp=False)
+    i_in = np.concatenate([[0.0], np.cumsum(x * H)])  # sum of G dt
+    i_act = i_in - tau * y
+    i_del = np.concatenate([np.zeros(d), i_act[:-d]])
+    ref = GAMMA_BAR * 0.256 * (i_del[adc0:adc0 + nadc] - i_del[int(round(rf / H))])
+    np.testing.assert_allclose(k, ref, rtol=0, atol=2e-6 * np.max(np.abs(ref)))
+    rep = json.load(open(tmp_path / "r.json"))
+    assert rep["held"] is True and rep["slew_model"].startswith("raster-limited")
+    assert "raster-limited" in out
 
 
 def test_delay_estimated_from_simulated_radial_data(tmp_path):
