@@ -41,7 +41,7 @@ static const char USAGE[] =
 
 typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
-    const char *delay, *lowpass, *eddy, *traj_actual, *estimate, *girf;
+    const char *delay, *lowpass, *eddy, *traj_actual, *estimate, *girf, *rfs;
     double raster, rf, te, tr, gmax, slew, radius;
     int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector, held;
 } wf_args;
@@ -51,7 +51,8 @@ static const kw_cli_param PARAM_MAP[] = {
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
     {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"}, {"held", "held"},
-    {"girf", "girf"},       {"girf_freq_hz", "girf"}, {"girf_axes", "girf"}, {NULL, NULL},
+    {"girf", "girf"},       {"girf_freq_hz", "girf"}, {"girf_axes", "girf"}, {"rf_centres_s", "rf-centres"},
+    {NULL, NULL},
 };
 
 /* ---- input ---------------------------------------------------------------------------- */
@@ -322,6 +323,18 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     kw_waveform_moments e;
     if (!isnan(o->te_s) && kw_waveform_moments_at(w, o->te_s, &e) == KW_OK)
         print_moments("echo (TE)", &e, s->axes);
+    if (o->nrf > 1) {
+        printf("%zu RF centres (ms):", o->nrf);
+        for (size_t k = 0; k < o->nrf; k++)
+            printf(" %.6g", o->rf_centres_s[k] * 1e3);
+        printf("; moments and k restart from 0 at each\n");
+        for (size_t k = 1; !isnan(o->te_s) && k < o->nrf; k++) {
+            char what[64];
+            snprintf(what, sizeof what, "echo (TE) of excitation %zu", k);
+            if (kw_waveform_moments_at(w, o->rf_centres_s[k] - o->rf_centres_s[0] + o->te_s, &e) == KW_OK)
+                print_moments(what, &e, s->axes);
+        }
+    }
     int terms = 0;
     for (int a = 0; a < s->axes; a++)
         terms |= o->delay_s[a] != 0 || o->response_amp[a] != 0;
@@ -464,6 +477,23 @@ static int parse_imperfections(const wf_args *a, kw_waveform_options *o)
     return -1;
 }
 
+/* --rf-centres T1,T2,...: the RF centres of several excitations (malloc'd) */
+static int parse_rf_centres(const char *s, double **v, size_t *n)
+{
+    size_t cap = 1;
+    for (const char *c = s; *c; c++)
+        cap += *c == ',';
+    *v = malloc(cap * sizeof **v);
+    if (!*v)
+        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "rf-centres");
+    char why[160];
+    int k = kw_unit_parse_list(s, KW_UNIT_TIME, *v, (int)cap, why, sizeof why);
+    if (k < 0)
+        return kw_cli_fail("rf-centres", "%s", why);
+    *n = (size_t)k;
+    return -1;
+}
+
 static int parse_fov(const char *s, double fov[3])
 {
     char why[160];
@@ -485,6 +515,7 @@ static int run(wf_args *a)
     kw_waveform *w = NULL;
     double *gf = NULL;
     kw_cdouble *gh = NULL;
+    double *rfs = NULL;
     char *js = NULL;
     kw_waveform_options o;
     kw_waveform_options_init(&o);
@@ -493,6 +524,9 @@ static int run(wf_args *a)
         rc = parse_adc(a->adc, a->s_raster ? a->raster : KWD_RASTER_S, &adc, &nadc);
     if (rc < 0 && a->fov)
         rc = parse_fov(a->fov, o.fov_m);
+    if (rc < 0 && a->rfs)
+        rc = parse_rf_centres(a->rfs, &rfs, &o.nrf);
+    o.rf_centres_s = rfs;
     if (rc < 0)
         rc = parse_imperfections(a, &o);
     if (rc < 0)
@@ -506,7 +540,7 @@ static int run(wf_args *a)
         goto done;
     if (a->s_raster)
         o.raster_s = a->raster;
-    o.rf_centre_s = a->s_rf ? a->rf : NAN;
+    o.rf_centre_s = a->s_rf ? a->rf : o.nrf ? rfs[0] : NAN;
     o.te_s = a->s_te ? a->te : NAN;
     o.tr_s = a->s_tr ? a->tr : 0;
     o.gmax = a->gmax;
@@ -562,6 +596,7 @@ done:
     free(adc);
     kw_free(gf);
     kw_free(gh);
+    free(rfs);
     return rc;
 }
 
@@ -578,6 +613,9 @@ int kw_cmd_waveform(int argc, char **argv)
         {"raster", KW_OPT_UNIT, &a.raster, KW_UNIT_TIME, &a.s_raster, "time between samples (default " KWD_RASTER_TEXT ")"},
         {"rf-centre", KW_OPT_UNIT, &a.rf, KW_UNIT_TIME, &a.s_rf,
          "time of the RF centre after the first sample (required, or rf_centre_s in the sidecar)"},
+        {"rf-centres", KW_OPT_STRING, &a.rfs, 0, NULL,
+         "several excitations: their RF centres T1,T2,... after the first sample; moments and k restart at each "
+         "(the first is --rf-centre when both are given; default: --rf-centre alone)"},
         {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time after the RF centre: moments there (default: none)"},
         {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time for the RMS gradient (default: the waveform's span)"},
         {"adc", KW_OPT_STRING, &a.adc, 0, NULL,

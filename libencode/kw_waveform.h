@@ -84,6 +84,18 @@
  * boundary), the actual trajectory the exact integral. A GIRF acts on the
  * samples as above and its output is held.
  *
+ * Several RF centres (rf_centres_s: several excitations in one file, e.g.
+ * repetitions): every time belongs to the segment of the last RF centre at
+ * or before it (the first centre's before it), and the moments and k are
+ * counted from that centre: M_n(t) = integral from t_rf(t) to t of G(tau)
+ * (tau - t_rf(t))^n dtau, k restarting from 0 at each excitation (a
+ * refocusing pulse, which would invert k, is not modelled). Times after
+ * "the RF centre" (te_s, the moments' t_s, the trajectory's times) stay
+ * counted from the first centre; an ADC window must not hold a later
+ * centre after its first sample ("adc"). The actual k restarts likewise
+ * (the actual gradient itself runs on across the centres: the system
+ * does not know about the excitation).
+ *
  * Actual gradient: cascade. A GIRF with a delay and/or a response term:
  * the GIRF acts on the samples first, then the delay and the response term
  * act (as above, in closed form) on the GIRF's output, linear between its
@@ -107,7 +119,9 @@
  * off the raster, outside the waveform, before the RF centre, dwell <= 0,
  * no samples; the window's number in the reason), "pns_radius_m",
  * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
- * "response_tau_s", "response_amp", "girf" (a NULL array, a count below
+ * "response_tau_s", "response_amp", "rf_centres_s" (NULL with nrf > 0,
+ * more than 2^16, non-finite, outside the waveform, not strictly
+ * increasing, or a first one that is not rf_centre_s), "girf" (a NULL array, a count below
  * 2, a non-finite value), "girf_freq_hz" (non-finite, negative or not strictly
  * increasing: the index in the reason), "girf_axes" (not the waveform's),
  * "options".
@@ -191,6 +205,13 @@ typedef struct kw_waveform_options {
     const kw_cdouble *girf;
     size_t girf_nfreq;
     int girf_axes;
+    /* Several excitations in one waveform: nrf (>= 1) RF centres
+     * rf_centres_s (s after the waveform's start, strictly increasing,
+     * within the waveform); rf_centre_s is then NaN or the first of them.
+     * The moments and k restart from 0 at each centre ("Several RF
+     * centres" above). NULL / 0: the one centre rf_centre_s (default). */
+    const double *rf_centres_s;
+    size_t nrf;
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster

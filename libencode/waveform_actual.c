@@ -201,13 +201,18 @@ kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, float *t
     KW_FAIL_PARAM(!w || !k, KW_EINVAL, "waveform", "NULL argument");
     KW_FAIL_PARAM(!w->o.nadc, KW_EINVAL, "adc", "no ADC window: no samples to place in k-space");
     double ref[3] = {0, 0, 0};
+    size_t seg = 0;
     for (int a = 0; a < w->axes; a++)
-        ref[a] = actual_integral(w, a, w->o.rf_centre_s);
+        ref[a] = actual_integral(w, a, w->rf[0]);
     size_t j = 0;
     for (size_t i = 0; i < w->o.nadc; i++) {
         const kw_waveform_adc *ad = &w->adc[i];
         for (size_t s = 0; s < ad->samples; s++, j++) {
             const double tau = ad->start_s + (double)s * ad->dwell_s;
+            const size_t sg = kw_waveform_segment_of(w, tau);
+            for (int a = 0; sg != seg && a < w->axes; a++) /* k restarts at each RF centre */
+                ref[a] = actual_integral(w, a, w->rf[sg]);
+            seg = sg;
             for (int a = 0; a < w->axes; a++)
                 k[j * (size_t)w->axes + (size_t)a] =
                     (float)(KW_GAMMA_BAR_P * (actual_integral(w, a, tau) - ref[a]) * w->o.fov_m[a]);

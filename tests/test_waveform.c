@@ -1184,3 +1184,81 @@ Test(waveform, held_actual_gradient_closed_form)
     for (size_t i = 0; i < N; i++)
         cr_expect(fabs(ga[i] - gd[i]) < 5e-7 * top, "GIRF delay, sample %zu: %g vs %g", i, ga[i], gd[i]);
 }
+
+/* Several RF centres (two excitations of the same prephaser + readout
+ * block, the second starting L samples later): k restarts at each centre,
+ * so the second window's k equals the first's (to float rounding), where
+ * the running integral would carry the first block's net area (+A/2, 32
+ * cycles/FOV here); the moments at each window's centre, counted from its
+ * own centre, are equal (a shift in time of G and of the origin together
+ * leaves M0, M1, M2 unchanged: substitute tau' = tau - L raster in the
+ * definition, Bernstein et al. sec. 9.1); the echo of the first block has
+ * M0 = 0 (prephaser -A/2 over the first half of the readout, A/2). With a
+ * 2 us delay the actual k of both windows is the same too. Bad centres and
+ * a window that holds the second centre are refused. */
+Test(waveform, several_rf_centres_restart_k)
+{
+    const size_t r = 10, fr = 64, fp = fr / 2 - r / 2, s1 = 10, s2 = s1 + 2 * r + fp;
+    const size_t L = s2 + 2 * r + fr + 20, n = 2 * L;
+    const double Gr = 1.0 / (KW_GAMMA_BAR_P * 0.256 * H);
+    double *g = calloc(n, sizeof *g);
+    for (size_t b = 0; b < 2; b++) {
+        trap(g, 1, 0, b * L + s1, r, fp, -Gr);
+        trap(g, 1, 0, b * L + s2, r, fr, Gr);
+    }
+    kw_waveform_adc adc[2] = {{(double)(s2 + r) * H, H, fr}, {(double)(L + s2 + r) * H, H, fr}};
+    const double rf[2] = {5 * H, (double)(L + 5) * H};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centres_s = rf;
+    o.nrf = 2;
+    o.adc = adc;
+    o.nadc = 2;
+    o.delay_s[0] = 2e-6;
+    kw_waveform *w = make(g, n, 1, &o);
+    float k[2 * 64], ka[2 * 64];
+    cr_assert_eq(kw_waveform_trajectory(w, k, NULL), KW_OK);
+    cr_assert_eq(kw_waveform_trajectory_actual(w, ka, NULL), KW_OK);
+    for (size_t j = 0; j < fr; j++) {
+        cr_expect(fabsf(k[j] - ((float)j - 32.0f)) < 1e-4f, "k[%zu] = %g", j, k[j]);
+        cr_expect(fabsf(k[fr + j] - k[j]) < 1e-5f, "second window k[%zu]: %g vs %g", j, k[fr + j], k[j]);
+        cr_expect(fabsf(ka[fr + j] - ka[j]) < 1e-5f, "second window actual k[%zu]: %g vs %g", j, ka[fr + j], ka[j]);
+        /* sample 0: t - d on the ramp, 0.198 (delay_shifts_the_echo) */
+        cr_expect(fabsf(ka[j] - (k[j] - (j ? 0.2f : 0.198f))) < 1e-4f, "actual k[%zu]: %g vs %g", j, ka[j], k[j]);
+    }
+    size_t na;
+    const kw_waveform_moments *m = kw_waveform_adc_moments(w, &na);
+    cr_assert_eq(na, 2);
+    cr_expect(fabs(m[0].m0[0]) < 1e-12 * Gr * H, "M0 at the first echo %g", m[0].m0[0]);
+    REL(m[1].m0[0] + 1.0, m[0].m0[0] + 1.0, 1e-15);
+    REL(m[1].m1[0], m[0].m1[0], 1e-9);
+    REL(m[1].m2[0], m[0].m2[0], 1e-9);
+    cr_expect(fabs(m[1].t_s - m[0].t_s - (double)L * H) < 1e-15, "t_s counted from the first centre");
+    char *js = NULL;
+    cr_assert_eq(kw_waveform_report_json(w, &js), KW_OK);
+    cr_expect(strstr(js, "\"rf_centres_s\"") != NULL);
+    kw_free(js);
+    kw_waveform_destroy(w);
+    /* bad centres */
+    double bad[2] = {rf[1], rf[0]};
+    o.rf_centres_s = bad;
+    expect_refused(g, n, 1, &o, KW_EINVAL, "rf_centres_s");
+    bad[0] = rf[0];
+    bad[1] = (double)n * H;
+    expect_refused(g, n, 1, &o, KW_ERANGE, "rf_centres_s");
+    bad[1] = NAN;
+    expect_refused(g, n, 1, &o, KW_ERANGE, "rf_centres_s");
+    o.rf_centres_s = rf;
+    o.rf_centre_s = 6 * H;
+    expect_refused(g, n, 1, &o, KW_EINVAL, "rf_centres_s");
+    o.rf_centre_s = rf[0];
+    kw_waveform_adc across = {(double)L * H, H, 10};
+    o.adc = &across;
+    o.nadc = 1;
+    expect_refused(g, n, 1, &o, KW_EINVAL, "adc");
+    o.adc = adc;
+    o.nadc = 2;
+    o.rf_centres_s = NULL;
+    expect_refused(g, n, 1, &o, KW_EINVAL, "rf_centres_s");
+    free(g);
+}
