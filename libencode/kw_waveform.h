@@ -131,6 +131,7 @@
 
 #include "kw_base.h"
 #include "kw_pattern.h"
+#include "kw_sequence.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -483,6 +484,25 @@ KW_API kw_status kw_waveform_table_parse(const char *text, double **g, size_t *s
  * 0..interleaves-1). */
 KW_API kw_status kw_waveform_spiral(const kw_pattern_options *o, int interleaf, double *g, size_t *samples,
                                     kw_waveform_adc *adc, size_t *nadc);
+
+/*! kw_waveform_plan(): the lobes of a gradient-echo plan (kw_plan_create(),
+ * sequence KW_SEQ_GRE: slice select, rephaser, readout prephaser, phase
+ * encode (the plan's largest step), readout, spoiler and rewinder, at the
+ * times of its timeline) as a waveform (samples, 3) T/m, x the readout, y
+ * the phase encoding, z the slice, on the plan's raster, one repetition
+ * (timeline_s, the TR as used; samples = TR / raster + 1); the RF centre
+ * (*rf_centre_s: the excitation's centre, s after the start), its one ADC
+ * window (the plan's, nx samples of its dwell) and *te_s (the window's
+ * centre after the RF centre: the plan's TE as laid out). Imported with
+ * kw_waveform_create(), M0 on x at TE is 0 (the prephaser's area is minus
+ * half the readout's), M0 on y the phase encode's area, M0 on z 0 (the
+ * rephaser undoes the slice select after the RF centre). Size query: with
+ * g NULL, *samples receives the count; otherwise it gives the room in g
+ * (rows; KW_ERANGE naming "samples" when short). KW_EINVAL naming "kind"
+ * for another sequence, "adc" when the plan's window is not a whole number
+ * of rasters from the start (choose a readout of whole rasters). */
+KW_API kw_status kw_waveform_plan(const kw_plan_report *r, double *g, size_t *samples, kw_waveform_adc *adc,
+                                  double *rf_centre_s, double *te_s);
 
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),

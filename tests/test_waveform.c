@@ -1262,3 +1262,56 @@ Test(waveform, several_rf_centres_restart_k)
     expect_refused(g, n, 1, &o, KW_EINVAL, "rf_centres_s");
     free(g);
 }
+
+/* The gradient-echo plan's lobes written as a waveform (kw_waveform_plan())
+ * and imported back: at TE (the ADC window's centre) M0 on x is 0 (the
+ * prephaser's area is minus half the readout's: A_p + A_r / 2 = 0, the
+ * planner's design), M0 on y the phase encode's area, which is the
+ * k-space definition's ky = -N/2 cycles/FOV: -N / (2 gamma_bar FOV)
+ * (CODATA gamma_bar), M0 on z the slice select's area after the RF centre
+ * (amplitude x (flat - rf / 2 + ramp / 2), the trapezoid's closed form,
+ * Bernstein et al. sec. 9.1) plus the rephaser's, 0; TE is the plan's. A
+ * spin echo is refused ("kind"). */
+Test(waveform, plan_lobes_imported_back)
+{
+    kw_protocol p;
+    kw_protocol_defaults(&p);
+    p.matrix[0] = p.matrix[1] = 256;
+    p.bandwidth_hz = 100e3;
+    kw_plan_report *r = NULL;
+    cr_assert_eq(kw_plan_create(&r, &p), KW_OK, "%s", kw_last_error());
+    size_t n = 0;
+    cr_assert_eq(kw_waveform_plan(r, NULL, &n, NULL, NULL, NULL), KW_OK, "%s", kw_last_error());
+    double *g = calloc(3 * n, sizeof *g), rf = 0, te = 0;
+    kw_waveform_adc adc;
+    size_t small = n - 1;
+    cr_expect_eq(kw_waveform_plan(r, g, &small, &adc, &rf, &te), KW_ERANGE);
+    cr_assert_eq(kw_waveform_plan(r, g, &n, &adc, &rf, &te), KW_OK, "%s", kw_last_error());
+    cr_expect(fabs(te - r->te_s) < 1e-12, "TE %g vs the plan's %g", te, r->te_s);
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.raster_s = p.raster_s;
+    o.rf_centre_s = rf;
+    o.adc = &adc;
+    o.nadc = 1;
+    kw_waveform *w = make(g, n, 3, &o);
+    kw_waveform_moments m;
+    cr_assert_eq(kw_waveform_moments_at(w, te, &m), KW_OK);
+    const double ar = kw_trapezoid_area(&r->readout);
+    cr_expect(fabs(kw_trapezoid_area(&r->prephaser) + ar / 2) < 1e-12 * fabs(ar));
+    cr_expect(fabs(m.m0[0]) < 1e-9 * fabs(ar), "M0 x at TE %g (readout area %g)", m.m0[0], ar);
+    REL(m.m0[1], kw_trapezoid_area(&r->phase_encode), 1e-9);
+    REL(m.m0[1], -128.0 / (KW_GAMMA_BAR_P * p.fov_m[1]), 1e-9);
+    const kw_trapezoid *ss = &r->slice_select;
+    const double after = ss->amplitude_T_per_m * (ss->flat_s - r->rf_duration_s / 2 + ss->ramp_s / 2);
+    cr_expect(fabs(after + kw_trapezoid_area(&r->slice_rephaser)) < 1e-9 * fabs(after));
+    cr_expect(fabs(m.m0[2]) < 1e-9 * fabs(after), "M0 z at TE %g", m.m0[2]);
+    kw_waveform_destroy(w);
+    kw_plan_destroy(r);
+    free(g);
+    p.sequence = KW_SEQ_SE;
+    cr_assert_eq(kw_plan_create(&r, &p), KW_OK);
+    cr_expect_eq(kw_waveform_plan(r, NULL, &n, NULL, NULL, NULL), KW_EINVAL);
+    cr_expect_str_eq(kw_last_error_param(), "kind");
+    kw_plan_destroy(r);
+}

@@ -458,6 +458,44 @@ def test_several_rf_centres_restart_k_against_scipy(tmp_path):
         assert not (tmp_path / name).exists(), name
 
 
+def test_plan_lobes_exported_and_read_back(tmp_path):
+    """`kweave plan --waveform`: the gradient-echo plan's lobes as a
+    waveform (x readout, y phase encode at its largest step, z slice) with
+    a sidecar `kweave waveform` reads. Its trajectory is the Cartesian
+    line the plan reads (the k-space definition: the readout steps one
+    cycle/FOV per dwell, kx = j - N/2, and the largest phase step is
+    ky = -N/2 cycles/FOV, M0_y = -N / (2 gamma_bar FOV), CODATA gamma_bar);
+    at TE M0_x = 0 (the prephaser is minus half the readout) and M0_z = 0
+    (the rephaser undoes the slice select after the RF centre). plan's
+    outputs without --waveform stay as they were (the golden test); a spin
+    echo or a readout off the raster: exit 2 naming --waveform, nothing
+    written."""
+    plan = ["plan", "--matrix", "256", "--fov", "256mm", "--bandwidth", "100kHz"]
+    run(*plan, "--waveform", tmp_path / "pw.npy", "--json", tmp_path / "plan.json")
+    side = json.load(open(tmp_path / "pw.json"))
+    assert side["kind"] == "waveform" and "safety_caution" in side
+    plan_rep = json.load(open(tmp_path / "plan.json"))
+    assert abs(side["te_s"] - plan_rep["te_s"]) < 1e-12
+    g = np.load(tmp_path / "pw.npy")
+    assert g.shape[1] == 3
+    run("waveform", "--in", tmp_path / "pw.npy", "--trajectory", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    k = np.load(tmp_path / "k.npy")
+    np.testing.assert_allclose(k[:, 0], np.arange(256) - 128, rtol=0, atol=2e-3)
+    np.testing.assert_allclose(k[:, 1], -128, rtol=0, atol=2e-3)
+    np.testing.assert_allclose(k[:, 2], k[0, 2], rtol=0, atol=1e-3)  # no slice-direction motion on the flat top
+    rep = json.load(open(tmp_path / "r.json"))
+    e = rep["echo"]
+    assert abs(e["m0_T_s_per_m"][1] - (-128 / (GAMMA_BAR * 0.256))) < 1e-6 * 128 / (GAMMA_BAR * 0.256)
+    gr = 1 / (GAMMA_BAR * 0.256 * 10e-6)  # the readout: one cycle/FOV per 10 us
+    assert abs(e["m0_T_s_per_m"][0]) < 1e-6 * gr * 256 * 10e-6
+    assert abs(e["m0_T_s_per_m"][2]) < 1e-6 * gr * 256 * 10e-6
+    outs = ["--waveform", tmp_path / "bad.npy", "--json", tmp_path / "bad.json", "--plot", tmp_path / "bad.png"]
+    refused("plan", "--sequence", "se", "--matrix", "256", "--bandwidth", "100kHz", *outs, opt="waveform")
+    refused("plan", "--matrix", "250", "--bandwidth", "33kHz", *outs, opt="waveform")
+    for name in ("bad.npy", "bad.json", "bad.png"):
+        assert not (tmp_path / name).exists(), name
+
+
 def test_csv_table_reads_as_the_npy(tmp_path):
     """The same waveform as a text table (header, comments) and as .npy
     (float32) gives the same report."""
