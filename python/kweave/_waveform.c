@@ -24,7 +24,8 @@ static const struct {
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"},  {"tr_s", "tr"},     {"gmax", "gmax"},
     {"slew", "slew"},           {"fov_m", "fov"},  {"adc", "adc"},     {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},       {"response_tau_s", "lowpass"}, {"response_amp", "eddy"},
-    {"held", "held"},           {NULL, NULL},
+    {"held", "held"},           {"girf", "girf"},  {"girf_freq_hz", "girf"}, {"girf_axes", "girf"},
+    {NULL, NULL},
 };
 
 /* A failed library call: InputError "<option>: <reason>" (.param the option)
@@ -46,7 +47,7 @@ static PyObject *raise_lib(kw_status st, const char *context)
 /* ---- options ---------------------------------------------------------------------------- */
 
 typedef struct wf_kw {
-    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate;
+    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate, *girf;
     const char *eddy;
     double raster, rf, te, tr;
     int s_raster, s_rf, s_te, s_tr, s_held;
@@ -455,6 +456,34 @@ static PyObject *result(const kw_waveform *w, int with_estimate, const double *e
     return d;
 }
 
+/* girf: the command's --girf table as an array, complex (frequencies,
+ * 1 + axes), column 0 the frequency in Hz, then H per axis; split by the
+ * library (kw_waveform_girf_split()) into *f and *h (kw_alloc'd). 0 or -1
+ * raised with the command's messages. */
+static int read_girf(PyObject *obj, int axes, double **f, kw_cdouble **h, size_t *nf)
+{
+    PyArrayObject *t = NULL;
+    PyObject *src = PyArray_FROM_O(obj);
+    if (!src)
+        PyErr_Clear();
+    if (src && PyArray_ISCOMPLEX((PyArrayObject *)src))
+        t = kwpy_array_in(src, KWPY_C64, "girf", 0, NPY_MAXDIMS);
+    Py_XDECREF(src);
+    if (!t && PyErr_Occurred())
+        return -1;
+    if (!t || PyArray_NDIM(t) != 2 || PyArray_DIM(t, 1) != axes + 1) {
+        Py_XDECREF(t);
+        return kwpy_value_error("girf", "expected complex (frequencies, %d): the frequency in Hz, then H of each of "
+                                "the waveform's %d axes", axes + 1, axes), -1;
+    }
+    *nf = (size_t)PyArray_DIM(t, 0);
+    kw_status st = kw_waveform_girf_split(PyArray_DATA(t), *nf, axes, f, h);
+    Py_DECREF(t);
+    if (st)
+        return raise_lib(st, "girf"), -1;
+    return 0;
+}
+
 /* ---- the call ------------------------------------------------------------------------------ */
 
 static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
@@ -483,6 +512,7 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         {"lowpass", KWPY_OBJ, &a.lowpass, KW_UNIT_NONE, NULL},
         {"eddy", KWPY_STR, &a.eddy, KW_UNIT_NONE, NULL},
         {"estimate-delay", KWPY_OBJ, &a.estimate, KW_UNIT_NONE, NULL},
+        {"girf", KWPY_OBJ, &a.girf, KW_UNIT_NONE, NULL},
         {NULL, 0, NULL, 0, NULL},
     };
     Py_ssize_t npos = PyTuple_GET_SIZE(args);
@@ -503,6 +533,8 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     int axes = 0;
     kw_waveform *w = NULL;
     PyObject *d = NULL;
+    double *gf = NULL;
+    kw_cdouble *gh = NULL;
     if (a.sidecar && read_sidecar(&a, &held, &adc, &nadc) < 0)
         goto done;
     if (a.adc && parse_adc(&a, a.s_raster ? a.raster : o.raster_s, &adc, &nadc) < 0)
@@ -515,6 +547,13 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         o.fov_m[k] = fov[k < nf ? k : nf - 1];
     if (imperfections(&a, &o) < 0 || !(g = read_g(a.g, &n, &axes)))
         goto done;
+    if (a.girf && a.girf != Py_None) {
+        if (read_girf(a.girf, axes, &gf, &gh, &o.girf_nfreq) < 0)
+            goto done;
+        o.girf_freq_hz = gf;
+        o.girf = gh;
+        o.girf_axes = axes;
+    }
     if (a.s_raster)
         o.raster_s = a.raster;
     o.rf_centre_s = a.s_rf ? a.rf : NAN;
@@ -541,6 +580,8 @@ done:
     kw_waveform_destroy(w);
     kw_free(g);
     kw_free(adc);
+    kw_free(gf);
+    kw_free(gh);
     return d;
 }
 
@@ -552,7 +593,7 @@ static PyMethodDef waveform_methods[] = {
      "RMS and duty, moments at the ADC centres and TE, the nerve-stimulation\n"
      "ESTIMATE, safety_caution; with \"trajectory\" (float32 (adc samples,\n"
      "max(2, axes)) cycles/FOV, as --trajectory writes) and \"times\" (s after\n"
-     "the RF centre), None without ADC windows; with a delay, lowpass or eddy\n"
+     "the RF centre), None without ADC windows; with a delay, lowpass, eddy or girf\n"
      "term also \"trajectory_actual\" and \"actual_gradient\" (float64 T/m).\n"
      "Keywords as the command's options: raster (10us), rf_centre (required),\n"
      "te, tr, adc (\"START:SAMPLES:DWELL[,...]\" or a list of windows as the\n"
@@ -561,7 +602,9 @@ static PyMethodDef waveform_methods[] = {
      "sidecar: a dict of the sidecar file's timing keys, the keywords override\n"
      "it. estimate_delay: radial k-space (coils, samples), complex, taken with\n"
      "the ADC windows as spokes: \"delay_estimate\" as the command's\n"
-     "--estimate-delay. See docs/waveform.md."},
+     "--estimate-delay. girf: the command's --girf table as an array, complex\n"
+     "(frequencies, 1 + axes): column 0 the frequency in Hz, then H(f) per axis\n"
+     "(Vannesjo et al. 2013). See docs/waveform.md."},
     {NULL, NULL, 0, NULL}};
 
 int kwpy_add_waveform(PyObject *m) { return kwpy_add_functions(m, waveform_methods); }
