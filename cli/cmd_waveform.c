@@ -135,17 +135,19 @@ static int read_table(const char *path, double **g, size_t *n, int *axes)
 
 /* --girf H.npy: complex (frequencies, 1 + axes), split by the library
  * (kw_waveform_girf_split()); f and h kw_alloc'd. */
-static int read_girf(const char *path, int axes, double **f, kw_cdouble **h, size_t *nf)
+static int read_girf(const char *path, int axes, double **f, kw_cdouble **h, size_t *nf, int *cross)
 {
     kw_array a = {0};
     kw_status st = kw_array_read_complex(path, &a);
     if (st)
         return kw_cli_status(st, "girf");
     int rc = -1;
-    if (a.dtype != KW_C64 || a.ndim != 2 || a.dims[1] != (size_t)axes + 1)
-        rc = kw_cli_fail("girf", "expected complex (frequencies, %d): the frequency in Hz, then H of each of "
-                         "the waveform's %d axes", axes + 1, axes);
-    else if ((st = kw_waveform_girf_split(a.data, *nf = a.dims[0], axes, f, h)))
+    const size_t nd = (size_t)axes + 1, nx = (size_t)(axes * axes) + 1; /* per axis, or cross-axis terms */
+    *cross = axes > 1 && a.ndim == 2 && a.dims[1] == nx;
+    if (a.dtype != KW_C64 || a.ndim != 2 || (a.dims[1] != nd && !*cross))
+        rc = kw_cli_fail("girf", "expected complex (frequencies, %zu): the frequency in Hz, then H of each of "
+                         "the waveform's %d axes (or (frequencies, %zu) with the cross-axis terms)", nd, axes, nx);
+    else if ((st = kw_waveform_girf_split(a.data, *nf = a.dims[0], *cross ? axes * axes : axes, f, h)))
         rc = kw_cli_lib_status(st, "girf", PARAM_MAP);
     kw_array_free(&a);
     return rc;
@@ -531,7 +533,7 @@ static int run(wf_args *a)
         rc = parse_imperfections(a, &o);
     if (rc < 0)
         rc = read_waveform(a->in, &g, &n, &axes);
-    if (rc < 0 && a->girf && (rc = read_girf(a->girf, axes, &gf, &gh, &o.girf_nfreq)) < 0) {
+    if (rc < 0 && a->girf && (rc = read_girf(a->girf, axes, &gf, &gh, &o.girf_nfreq, &o.girf_cross)) < 0) {
         o.girf_freq_hz = gf;
         o.girf = gh;
         o.girf_axes = axes;

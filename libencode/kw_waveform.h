@@ -76,6 +76,11 @@
  * then linear between its samples, and the actual k-space its exact
  * integral, as for the nominal waveform.
  *
+ * Cross-axis terms (girf_cross): the output of axis b is the sum over the
+ * input axes a of H_b,a applied to the samples of axis a (each as above,
+ * the same bins, the same rules), so a table with H_b,a = 0 off the
+ * diagonal is the per-axis GIRF.
+ *
  * Actual gradient of a held waveform: the same model with a constant
  * input on every interval (y relaxes towards each held value: y = g_i +
  * (y_i - g_i) e^{-t/tau}); kw_waveform_actual() returns the mean of the
@@ -213,6 +218,12 @@ typedef struct kw_waveform_options {
      * centres" above). NULL / 0: the one centre rf_centre_s (default). */
     const double *rf_centres_s;
     size_t nrf;
+    /* 1: girf holds the cross-axis terms too, a matrix of transfer
+     * functions: girf[(out * axes + in) * girf_nfreq + k] = H_out,in(f_k)
+     * (C order (axes, axes, nfreq)), G_act,out = sum over in of H_out,in
+     * applied to G_in ("Actual gradient: GIRF"); 0: one H per axis, the
+     * diagonal (default). */
+    int girf_cross;
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
@@ -343,7 +354,10 @@ KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, f
  * kw_alloc'd (kw_free()), for kw_waveform_options' girf_* fields (which
  * kw_waveform_create() checks). KW_EINVAL naming "girf": NULL, no rows,
  * axes outside 1..3, a frequency that is not real (its row in the
- * reason); *freq_hz and *h are then NULL. */
+ * reason); *freq_hz and *h are then NULL. With cross-axis terms the table
+ * has 1 + axes x axes columns (H_xx, H_xy, ..., output axis slowest): call
+ * it with axes x axes columns of H (axes 1, 4 or 9 here) and set
+ * girf_cross; *h is then (axes, axes, rows) in the options' order. */
 KW_API kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, double **freq_hz,
                                         kw_cdouble **h);
 

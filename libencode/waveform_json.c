@@ -171,6 +171,8 @@ static void add_girf(cJSON *j, const struct kw_waveform *w)
     kw_json_add_vec(g, "band_Hz", w->girf_band, 2);
     cJSON_AddStringToObject(g, "beyond_band", "H = 0");
     cJSON_AddStringToObject(g, "method", "GIRF as a sampled transfer function (Vannesjo et al. 2013)");
+    if (w->o.girf_cross)
+        cJSON_AddBoolToObject(g, "cross_axis", 1);
 }
 
 kw_status kw_waveform_report_json(const kw_waveform *w, char **json)

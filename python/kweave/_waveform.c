@@ -460,7 +460,7 @@ static PyObject *result(const kw_waveform *w, int with_estimate, const double *e
  * 1 + axes), column 0 the frequency in Hz, then H per axis; split by the
  * library (kw_waveform_girf_split()) into *f and *h (kw_alloc'd). 0 or -1
  * raised with the command's messages. */
-static int read_girf(PyObject *obj, int axes, double **f, kw_cdouble **h, size_t *nf)
+static int read_girf(PyObject *obj, int axes, double **f, kw_cdouble **h, size_t *nf, int *cross)
 {
     PyArrayObject *t = NULL;
     PyObject *src = PyArray_FROM_O(obj);
@@ -471,13 +471,16 @@ static int read_girf(PyObject *obj, int axes, double **f, kw_cdouble **h, size_t
     Py_XDECREF(src);
     if (!t && PyErr_Occurred())
         return -1;
-    if (!t || PyArray_NDIM(t) != 2 || PyArray_DIM(t, 1) != axes + 1) {
+    const size_t nd = (size_t)axes + 1, nx = (size_t)(axes * axes) + 1; /* per axis, or cross-axis terms */
+    *cross = t && axes > 1 && PyArray_NDIM(t) == 2 && (size_t)PyArray_DIM(t, 1) == nx;
+    if (!t || PyArray_NDIM(t) != 2 || ((size_t)PyArray_DIM(t, 1) != nd && !*cross)) {
         Py_XDECREF(t);
-        return kwpy_value_error("girf", "expected complex (frequencies, %d): the frequency in Hz, then H of each of "
-                                "the waveform's %d axes", axes + 1, axes), -1;
+        return kwpy_value_error("girf", "expected complex (frequencies, %zu): the frequency in Hz, then H of each of "
+                                "the waveform's %d axes (or (frequencies, %zu) with the cross-axis terms)", nd, axes,
+                                nx), -1;
     }
     *nf = (size_t)PyArray_DIM(t, 0);
-    kw_status st = kw_waveform_girf_split(PyArray_DATA(t), *nf, axes, f, h);
+    kw_status st = kw_waveform_girf_split(PyArray_DATA(t), *nf, *cross ? axes * axes : axes, f, h);
     Py_DECREF(t);
     if (st)
         return raise_lib(st, "girf"), -1;
@@ -548,7 +551,7 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     if (imperfections(&a, &o) < 0 || !(g = read_g(a.g, &n, &axes)))
         goto done;
     if (a.girf && a.girf != Py_None) {
-        if (read_girf(a.girf, axes, &gf, &gh, &o.girf_nfreq) < 0)
+        if (read_girf(a.girf, axes, &gf, &gh, &o.girf_nfreq, &o.girf_cross) < 0)
             goto done;
         o.girf_freq_hz = gf;
         o.girf = gh;

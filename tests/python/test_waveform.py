@@ -140,6 +140,13 @@ def test_girf_as_command(cli):
     got = kweave.waveform(g, sidecar=sidecar, girf=table)
     ref = np.concatenate([np.zeros((2, 2)), g[:-2].astype(np.float64)])
     np.testing.assert_allclose(got["actual_gradient"], ref, rtol=0, atol=1e-6 * np.abs(g).max())
+    # the cross-axis form (H_xx, H_xy, H_yx, H_yy)
+    cross = np.column_stack([f + 0j, h, 0.1 * h, 0 * h, h]).astype(np.complex64)
+    cli.save("hc.npy", cross)
+    cli.run("waveform", "--in", "g.npy", "--girf", "hc.npy", "--json", "r.json", "--trajectory-actual", "ka.npy")
+    got = kweave.waveform(g, sidecar=sidecar, girf=cross)
+    assert {k: got[k] for k in cli.json("r.json")} == cli.json("r.json")
+    assert same_bits(got["trajectory_actual"], cli.load("ka.npy"))
     bad = table.copy()
     bad[3, 0] = np.nan
     for arr in (bad, table[:, :2], table.real.astype(np.float32)):

@@ -676,6 +676,50 @@ def test_girf_cascade_with_delay_and_lowpass(tmp_path):
     assert rep["actual"]["response_tau_s"] == [15e-6, 15e-6]
 
 
+def test_girf_cross_axis_terms_against_numpy(tmp_path):
+    """--girf with the cross-axis terms: a (frequencies, 1 + 2 x 2) table
+    (H_xx, H_xy, H_yx, H_yy; output axis slowest) on a smooth 2-axis
+    waveform against numpy's filter with the same rules as
+    test_girf_against_numpy_fft_filter, G_act,out = irfft(sum over in of
+    rfft(G_in) H_out,in): k within 2e-6 of its largest value (float32)."""
+    g32 = smooth_waveform(n=300, axes=2, seed=13)
+    f = np.linspace(2e3, 30e3, 40)
+    hs = [np.exp(-2j * np.pi * f * 3e-6) / (1 + 2j * np.pi * f * 15e-6),
+          0.05 * np.exp(-((f - 8e3) / 4e3) ** 2) * np.exp(0.3j),
+          -0.03 * (1 + 0j) * f / 30e3,
+          1 + 0.2 * np.exp(-((f - 12e3) / 3e3) ** 2) * np.exp(0.5j)]
+    girf_file(tmp_path / "h.npy", f, hs)
+    table = np.load(tmp_path / "h.npy")
+    np.save(tmp_path / "g.npy", g32)
+    rf, adc0, nadc = 100e-6, 40, 200
+    run("waveform", "--in", tmp_path / "g.npy", "--rf-centre", "100us", "--adc", f"{adc0}:{nadc}:10us",
+        "--girf", tmp_path / "h.npy", "--trajectory-actual", tmp_path / "k.npy", "--json", tmp_path / "r.json")
+    k = np.load(tmp_path / "k.npy")
+    n = len(g32)
+    nf = 1 << int(np.ceil(np.log2(2 * n)))
+    fk = np.fft.rfftfreq(nf, H)
+    ft = np.real(table[:, 0]).astype(np.float64)
+    f2 = np.concatenate([-ft[::-1], ft])
+    t = np.arange(n) * H
+
+    def hk(col):
+        h = table[:, col].astype(np.complex128)
+        h2 = np.concatenate([np.conj(h[::-1]), h])
+        return np.interp(fk, f2, h2.real, right=0) + 1j * np.interp(fk, f2, h2.imag, right=0)
+    spec = [np.fft.rfft(g32[:, a].astype(np.float64), nf) for a in range(2)]
+    for b in range(2):
+        ga = np.fft.irfft(sum(spec[a] * hk(1 + 2 * b + a) for a in range(2)), nf)[:n]
+        m0 = integrate.cumulative_trapezoid(ga, t, initial=0)
+        ref = GAMMA_BAR * 0.256 * (m0[adc0:adc0 + nadc] - m0[int(round(rf / H))])
+        np.testing.assert_allclose(k[:, b], ref, rtol=0, atol=2e-6 * np.max(np.abs(ref)))
+    rep = json.load(open(tmp_path / "r.json"))
+    assert rep["actual"]["girf"]["cross_axis"] is True
+    girf_file(tmp_path / "h3.npy", f, hs[:3])  # 1 + 3 columns for 2 axes: neither form
+    refused("waveform", "--in", tmp_path / "g.npy", "--rf-centre", "100us", "--girf", tmp_path / "h3.npy",
+            "--json", tmp_path / "bad.json", opt="girf")
+    assert not (tmp_path / "bad.json").exists()
+
+
 def test_girf_bad_input_names_the_option_and_writes_nothing(tmp_path):
     g, adc = readout_waveform()
     np.save(tmp_path / "g.npy", g)
