@@ -21,7 +21,7 @@ static const struct {
     const char *param, *option;
 } PARAM_MAP[] = {
     {"waveform", "g"},          {"axes", "g"},     {"samples", "g"},   {"raster_s", "raster"},
-    {"rf_centre_s", "rf-centre"}, {"te_s", "te"},  {"tr_s", "tr"},     {"gmax", "gmax"},
+    {"rf_centre_s", "rf-centre"}, {"rf_centres_s", "rf-centres"}, {"te_s", "te"},  {"tr_s", "tr"},     {"gmax", "gmax"},
     {"slew", "slew"},           {"fov_m", "fov"},  {"adc", "adc"},     {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},       {"response_tau_s", "lowpass"}, {"response_amp", "eddy"},
     {"held", "held"},           {"girf", "girf"},  {"girf_freq_hz", "girf"}, {"girf_axes", "girf"},
@@ -47,32 +47,33 @@ static PyObject *raise_lib(kw_status st, const char *context)
 /* ---- options ---------------------------------------------------------------------------- */
 
 typedef struct wf_kw {
-    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate, *girf;
+    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate, *girf, *rfs;
     const char *eddy;
     double raster, rf, te, tr;
     int s_raster, s_rf, s_te, s_tr, s_held;
 } wf_kw;
 
-/* One to three quantities: a str as the command's ("256mm,200mm"), a
+/* One to `max` quantities: a str as the command's ("256mm,200mm"), a
  * number in SI, or a sequence of numbers and strs. The count, or -1 raised
  * naming `option`. */
-static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double out[3])
+static int unit_list_n(PyObject *v, const char *option, kw_unit_kind unit, double *out, int max)
 {
     char why[200];
     if (PyUnicode_Check(v)) {
         const char *s = PyUnicode_AsUTF8(v);
         if (!s)
             return -1;
-        int n = kw_unit_parse_list(s, unit, out, 3, why, sizeof why);
+        int n = kw_unit_parse_list(s, unit, out, max, why, sizeof why);
         return n < 0 ? (kwpy_value_error(option, "%s", why), -1) : n;
     }
     PyObject *seq = PySequence_Check(v) ? PySequence_Fast(v, option) : NULL;
     if (PyErr_Occurred())
         return -1;
     Py_ssize_t n = seq ? PySequence_Fast_GET_SIZE(seq) : 1;
-    if (n < 1 || n > 3) {
+    if (n < 1 || n > max) {
         Py_XDECREF(seq);
-        return kwpy_value_error(option, "one to 3 values (x, y, z), got %zd", n), -1;
+        return (max == 3 ? kwpy_value_error(option, "one to 3 values (x, y, z), got %zd", n)
+                         : kwpy_value_error(option, "one to %d values, got %zd", max, n)), -1;
     }
     for (Py_ssize_t i = 0; i < n; i++) {
         PyObject *it = seq ? PySequence_Fast_GET_ITEM(seq, i) : v;
@@ -100,6 +101,33 @@ static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double 
     }
     Py_XDECREF(seq);
     return (int)n;
+}
+
+static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double out[3])
+{
+    return unit_list_n(v, option, unit, out, 3);
+}
+
+/* rf_centres: the command's --rf-centres ("100us,900us") or a sequence;
+ * *out malloc'd (free()). The count, or -1 raised. */
+static int rf_centres(PyObject *v, double **out)
+{
+    Py_ssize_t cap = 1;
+    if (PyUnicode_Check(v)) {
+        const char *s = PyUnicode_AsUTF8(v);
+        for (; s && *s; s++)
+            cap += *s == ',';
+    } else if (PySequence_Check(v)) {
+        cap = PySequence_Size(v);
+        if (cap < 0)
+            return -1;
+    }
+    if (cap < 1 || cap > 65536)
+        return kwpy_value_error("rf-centres", "one to 65536 values, got %zd", cap), -1;
+    *out = malloc((size_t)cap * sizeof **out);
+    if (!*out)
+        return PyErr_NoMemory(), -1;
+    return unit_list_n(v, "rf-centres", KW_UNIT_TIME, *out, (int)cap);
 }
 
 /* delay (D[,DY,DZ], one value: every axis), lowpass (TAU[,...], amplitude
@@ -516,6 +544,7 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         {"eddy", KWPY_STR, &a.eddy, KW_UNIT_NONE, NULL},
         {"estimate-delay", KWPY_OBJ, &a.estimate, KW_UNIT_NONE, NULL},
         {"girf", KWPY_OBJ, &a.girf, KW_UNIT_NONE, NULL},
+        {"rf-centres", KWPY_OBJ, &a.rfs, KW_UNIT_NONE, NULL},
         {NULL, 0, NULL, 0, NULL},
     };
     Py_ssize_t npos = PyTuple_GET_SIZE(args);
@@ -536,8 +565,13 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     int axes = 0;
     kw_waveform *w = NULL;
     PyObject *d = NULL;
-    double *gf = NULL;
+    double *gf = NULL, *rfv = NULL;
     kw_cdouble *gh = NULL;
+    int nrf = 0;
+    if (a.rfs && a.rfs != Py_None && (nrf = rf_centres(a.rfs, &rfv)) < 0)
+        goto done;
+    o.nrf = (size_t)nrf;
+    o.rf_centres_s = rfv;
     if (a.sidecar && read_sidecar(&a, &held, &adc, &nadc) < 0)
         goto done;
     if (a.adc && parse_adc(&a, a.s_raster ? a.raster : o.raster_s, &adc, &nadc) < 0)
@@ -559,7 +593,7 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     }
     if (a.s_raster)
         o.raster_s = a.raster;
-    o.rf_centre_s = a.s_rf ? a.rf : NAN;
+    o.rf_centre_s = a.s_rf ? a.rf : nrf ? rfv[0] : NAN;
     o.te_s = a.s_te ? a.te : NAN;
     o.tr_s = a.s_tr ? a.tr : 0;
     o.gmax = gmax;
@@ -585,6 +619,7 @@ done:
     kw_free(adc);
     kw_free(gf);
     kw_free(gh);
+    free(rfv);
     return d;
 }
 
@@ -607,7 +642,9 @@ static PyMethodDef waveform_methods[] = {
      "the ADC windows as spokes: \"delay_estimate\" as the command's\n"
      "--estimate-delay. girf: the command's --girf table as an array, complex\n"
      "(frequencies, 1 + axes): column 0 the frequency in Hz, then H(f) per axis\n"
-     "(Vannesjo et al. 2013). See docs/waveform.md."},
+     "(Vannesjo et al. 2013). rf_centres: several excitations' RF centres as the\n"
+     "command's --rf-centres (\"100us,900us\" or a list): moments and k restart at each.\n"
+     "See docs/waveform.md."},
     {NULL, NULL, 0, NULL}};
 
 int kwpy_add_waveform(PyObject *m) { return kwpy_add_functions(m, waveform_methods); }

@@ -157,6 +157,35 @@ def test_girf_as_command(cli):
         assert str(e.value) == want and e.value.param == "girf"
 
 
+def test_rf_centres_as_command(cli):
+    """rf_centres=: the command's --rf-centres, as a str (the same report
+    and trajectory bit for bit) and as a list of numbers (s; the same
+    trajectory within float32 rounding); k restarts at
+    each centre (the trapezoid's area before the second centre is not
+    carried: scipy's cumulative trapezoid from that centre as the
+    reference); the command's message for centres that do not increase."""
+    g = trapezoid()
+    cli.save("t.npy", g)
+    args = ["--rf-centres", "0s,200us", "--adc", "25:10:10us", "--te", "300us"]
+    cli.run("waveform", "--in", "t.npy", *args, "--json", "r.json", "--trajectory", "k.npy")
+    want = cli.json("r.json")
+    got = kweave.waveform(g, rf_centres="0s,200us", adc="25:10:10us", te="300us")
+    assert {k: got[k] for k in want} == want and want["rf_centres_s"] == [0, 200e-6]
+    assert same_bits(got["trajectory"], cli.load("k.npy"))
+    # numbers in s: 200e-6 is not bit for bit the command's 200 x 1e-6
+    got = kweave.waveform(g, rf_centres=[0.0, 200e-6], adc="25:10:10us", te="300us")
+    np.testing.assert_allclose(got["trajectory"], cli.load("k.npy"), rtol=0, atol=1e-5)
+    assert got["rf_centres_s"] == [0, 200e-6]
+    t = np.arange(len(g)) * 10e-6
+    m0 = cumulative_trapezoid(g[:, 0].astype(np.float64), t, initial=0)
+    ref = GAMMA_BAR * 0.256 * (m0[25:35] - m0[20])
+    np.testing.assert_allclose(got["trajectory"][:, 0], ref, rtol=0, atol=1e-4)
+    msg = command_error(cli, g, "--rf-centres", "200us,0s")
+    with pytest.raises(kweave.InputError) as e:
+        kweave.waveform(g, rf_centres="200us,0s")
+    assert str(e.value) == msg and e.value.param == "rf-centres"
+
+
 def test_no_adc_gives_no_trajectory():
     got = kweave.waveform(trapezoid(), rf_centre="0.1ms")
     assert got["trajectory"] is None and got["times"] is None and got["adc"] == []
