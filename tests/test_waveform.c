@@ -1370,3 +1370,46 @@ Test(waveform, girf_cross_axis_terms)
     kw_free(ff);
     kw_free(hh);
 }
+
+/* The allocation budget with this version's additions together: two RF
+ * centres, a held waveform, a cross-axis GIRF, a delay and a low-pass on
+ * it (every refusal frees what the call took). */
+Test(waveform, allocation_budget_cascade_and_centres)
+{
+    const size_t n = 300;
+    double *g = calloc(2 * n, sizeof *g);
+    trap(g, 2, 0, 10, 20, 50, 45e-3);
+    trap(g, 2, 1, 100, 5, 30, -20e-3);
+    double f[3] = {0, 1e3, 50e3}, rf[2] = {50e-6, 900e-6};
+    kw_cdouble hv[12] = {1, 1, 1, 0, 0.1, 0, 0, 0.1, 0, 1, 1, 1};
+    kw_waveform_adc adc = {1e-3, 5e-6, 40};
+    kw_waveform_options o;
+    kw_waveform_options_init(&o);
+    o.rf_centres_s = rf;
+    o.nrf = 2;
+    o.held = 1;
+    o.te_s = 1e-3;
+    o.adc = &adc;
+    o.nadc = 1;
+    o.girf_freq_hz = f;
+    o.girf = hv;
+    o.girf_nfreq = 3;
+    o.girf_axes = 2;
+    o.girf_cross = 1;
+    o.delay_s[1] = 3e-6;
+    o.response_tau_s[0] = 20e-6;
+    o.response_amp[0] = 1;
+    kw_memory_set_limit(0);
+    const size_t base = kw_memory_in_use();
+    kw_memory_reset_peak();
+    cr_assert_eq(budget_run(g, n, &o), KW_OK, "%s", kw_last_error());
+    const size_t peak = kw_memory_peak() - base;
+    for (size_t lim = 0; lim <= peak + 64; lim += 512) {
+        kw_memory_set_limit(base + lim);
+        kw_status st = budget_run(g, n, &o);
+        cr_expect(st == KW_OK || st == KW_ENOMEM, "limit %zu: status %d", lim, st);
+        kw_memory_set_limit(0);
+        cr_expect_eq(kw_memory_in_use(), base, "limit %zu: bytes held afterwards", lim);
+    }
+    free(g);
+}
