@@ -11,6 +11,8 @@
 #include "jsonio.h"
 #include "kw_protocol.h"
 #include "kw_sequence.h"
+#include "kw_waveform.h"
+#include "npy.h"
 #include "plan_input_int.h"
 #include "plot.h"
 #include "protofile.h"
@@ -229,30 +231,102 @@ static void report_text(const kw_plan_report *r, double ref_factor)
     printf("\n%s\n", KW_SAFETY_CAUTION);
 }
 
+/* --waveform: the gradient-echo plan's lobes as the waveform `kweave
+ * waveform` checks (kw_waveform_plan()), computed before anything is
+ * written; *g (samples, 3) float32 kw_alloc'd. */
+static int plan_waveform(const kw_plan_report *r, float **g, size_t *n, kw_waveform_adc *adc, double *rf,
+                         double *te)
+{
+    kw_status st = kw_waveform_plan(r, NULL, n, NULL, NULL, NULL);
+    double *gd = st ? NULL : kw_alloc_n(*n * 3, sizeof *gd);
+    *g = st ? NULL : kw_alloc_n(*n * 3, sizeof **g);
+    if (!st && (!gd || !*g))
+        st = kw_set_error(KW_ENOMEM, "out of memory");
+    if (!st)
+        st = kw_waveform_plan(r, gd, n, adc, rf, te);
+    for (size_t i = 0; !st && i < *n * 3; i++)
+        (*g)[i] = (float)gd[i];
+    kw_free(gd);
+    if (st) {
+        kw_free(*g);
+        *g = NULL;
+        return kw_cli_status(st, "waveform");
+    }
+    return -1;
+}
+
+/* the waveform .npy and its timing sidecar (the keys `kweave waveform` reads) */
+static kw_status write_waveform(const char *path, const float *g, size_t n, const kw_waveform_adc *adc,
+                                double rf, double te, double raster)
+{
+    kw_array a = {.dtype = KW_F32, .ndim = 2, .dims = {n, 3}, .data = (void *)g};
+    kw_status st = kw_npy_write(path, &a);
+    char *sp = st ? NULL : kw_sidecar_path(path);
+    if (st || !sp)
+        return st ? st : kw_set_error(KW_ENOMEM, "out of memory");
+    cJSON *j = cJSON_CreateObject(), *arr = cJSON_AddArrayToObject(j, "adc"), *w = cJSON_CreateObject();
+    cJSON_AddStringToObject(j, "kweave_version", KW_VERSION_STRING);
+    cJSON_AddStringToObject(j, "kind", "waveform");
+    cJSON_AddStringToObject(j, "source", "kweave plan --sequence gre: one repetition (x readout, y phase "
+                            "encode at its largest step, z slice)");
+    cJSON_AddBoolToObject(j, "held", 0);
+    cJSON_AddStringToObject(j, "units", "T/m");
+    kw_json_add_number_or_null(j, "raster_s", raster);
+    kw_json_add_number_or_null(j, "rf_centre_s", rf);
+    kw_json_add_number_or_null(j, "te_s", te);
+    kw_json_add_number_or_null(w, "start_s", adc->start_s);
+    kw_json_add_number_or_null(w, "samples", (double)adc->samples);
+    kw_json_add_number_or_null(w, "dwell_s", adc->dwell_s);
+    cJSON_AddItemToArray(arr, w);
+    cJSON_AddStringToObject(j, "safety_caution", KW_SAFETY_CAUTION);
+    st = kw_json_write(sp, j);
+    cJSON_Delete(j);
+    free(sp);
+    return st;
+}
+
 static int report(const kw_protocol *p, const char *json_path, const char *plot,
-                  const char *kplot, double ref_factor)
+                  const char *kplot, const char *waveform, double ref_factor)
 {
     kw_plan_report *r = NULL;
     kw_status st = kw_plan_create(&r, p);
     if (st)
         return kw_cli_status(st, "plan");
+    float *wg = NULL;
+    size_t wn = 0;
+    kw_waveform_adc wadc;
+    double wrf = 0, wte = 0;
+    int rc = waveform ? plan_waveform(r, &wg, &wn, &wadc, &wrf, &wte) : -1;
+    if (rc >= 0) {
+        kw_plan_destroy(r);
+        return rc;
+    }
     if (json_path) {
         cJSON *j = kw_plan_report_cjson(r, ref_factor);
         st = j ? kw_json_write(json_path, j) : kw_set_error(KW_ENOMEM, "out of memory");
         cJSON_Delete(j);
         if (st) {
             kw_plan_destroy(r);
+            kw_free(wg);
             return kw_cli_status(st, "json");
         }
     }
     if (plot && (st = kw_plot_timing(plot, r))) {
         kw_plan_destroy(r);
+        kw_free(wg);
         return kw_cli_status(st, "plot");
     }
     if (kplot && (st = kw_plot_kspace(kplot, r))) {
         kw_plan_destroy(r);
+        kw_free(wg);
         return kw_cli_status(st, "kplot");
     }
+    if (wg && (st = write_waveform(waveform, wg, wn, &wadc, wrf, wte, p->raster_s))) {
+        kw_plan_destroy(r);
+        kw_free(wg);
+        return kw_cli_status(st, "waveform");
+    }
+    kw_free(wg);
     if (!json_path || strcmp(json_path, "-") != 0) /* one report on stdout */
         report_text(r, ref_factor);
     int feasible = r->feasible;
@@ -298,7 +372,7 @@ int kw_cmd_plan(int argc, char **argv)
 
     const char *val[K_COUNT] = {0};
     int seen[K_COUNT] = {0};
-    const char *protocol = NULL, *json = NULL, *plot = NULL, *kplot = NULL, *reference = NULL;
+    const char *protocol = NULL, *json = NULL, *plot = NULL, *kplot = NULL, *reference = NULL, *waveform = NULL;
     const char *bw_dummy = NULL;
     kw_opt table[] = {
         {"protocol", KW_OPT_STRING, &protocol, KW_UNIT_NONE, NULL,
@@ -355,6 +429,9 @@ int kw_cmd_plan(int argc, char **argv)
         {"json", KW_OPT_STRING, &json, KW_UNIT_NONE, NULL, "write the report as JSON (- for stdout, in place of the text; default: not written)"},
         {"plot", KW_OPT_STRING, &plot, KW_UNIT_NONE, NULL, "timing diagram PNG (default: not written)"},
         {"kplot", KW_OPT_STRING, &kplot, KW_UNIT_NONE, NULL, "k-space path PNG (default: not written)"},
+        {"waveform", KW_OPT_STRING, &waveform, KW_UNIT_NONE, NULL,
+         "gre: one repetition's lobes as a gradient waveform (.npy (samples, 3) T/m, x y z) + timing sidecar "
+         "for `kweave waveform` (default: not written)"},
         {NULL, 0, NULL, 0, NULL, NULL}};
     static const kw_opt_arg args[] = {{"tbw", "X"}, {"spoiler", "X"}, {"crusher", "X"},
                                       {"shots", "N"}, {"partial-fourier", "X"},
@@ -402,5 +479,5 @@ int kw_cmd_plan(int argc, char **argv)
     double ref_factor = 0;
     if (reference && (rc = reference_factor(reference, &ref_factor)) >= 0)
         return rc;
-    return report(&p, json, plot, kplot, ref_factor);
+    return report(&p, json, plot, kplot, waveform, ref_factor);
 }

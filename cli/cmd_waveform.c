@@ -5,7 +5,6 @@
  * trajectory as a kweave trajectory (.npy + times + sidecar). The timing
  * (raster, RF centre, TE, ADC windows) comes from the options or from a
  * JSON sidecar (docs/waveform.md). */
-#include <cairo.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -14,14 +13,12 @@
 #include "arrayio.h"
 #include "cli.h"
 #include "defaults.h"
-#include "figure.h"
 #include "jsonio.h"
 #include "kw_waveform.h"
 #include "npy.h"
 #include "outfile.h"
 #include "protofile.h"
-#include "plot.h"
-#include "fonts.h"
+#include "waveform_cli.h"
 
 static const char USAGE[] =
     "usage: kweave waveform --in G.npy [--rf-centre T] [--raster T] [--adc START:N:DWELL[,...]]\n"
@@ -44,7 +41,7 @@ static const char USAGE[] =
 
 typedef struct wf_args {
     const char *in, *sidecar, *json, *traj, *times, *png, *adc, *fov;
-    const char *delay, *lowpass, *eddy, *traj_actual, *estimate, *girf;
+    const char *delay, *lowpass, *eddy, *traj_actual, *estimate, *girf, *rfs;
     double raster, rf, te, tr, gmax, slew, radius;
     int s_raster, s_rf, s_te, s_tr, s_sidecar, limit_vector, held;
 } wf_args;
@@ -54,7 +51,8 @@ static const kw_cli_param PARAM_MAP[] = {
     {"rf_centre_s", "rf-centre"}, {"te_s", "te"}, {"tr_s", "tr"}, {"gmax", "gmax"},
     {"slew", "slew"},       {"fov_m", "fov"}, {"adc", "adc"},      {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},   {"response_tau_s", "lowpass"}, {"response_amp", "eddy"}, {"held", "held"},
-    {"girf", "girf"},       {"girf_freq_hz", "girf"}, {"girf_axes", "girf"}, {NULL, NULL},
+    {"girf", "girf"},       {"girf_freq_hz", "girf"}, {"girf_axes", "girf"}, {"rf_centres_s", "rf-centres"},
+    {NULL, NULL},
 };
 
 /* ---- input ---------------------------------------------------------------------------- */
@@ -137,17 +135,19 @@ static int read_table(const char *path, double **g, size_t *n, int *axes)
 
 /* --girf H.npy: complex (frequencies, 1 + axes), split by the library
  * (kw_waveform_girf_split()); f and h kw_alloc'd. */
-static int read_girf(const char *path, int axes, double **f, kw_cdouble **h, size_t *nf)
+static int read_girf(const char *path, int axes, double **f, kw_cdouble **h, size_t *nf, int *cross)
 {
     kw_array a = {0};
     kw_status st = kw_array_read_complex(path, &a);
     if (st)
         return kw_cli_status(st, "girf");
     int rc = -1;
-    if (a.dtype != KW_C64 || a.ndim != 2 || a.dims[1] != (size_t)axes + 1)
-        rc = kw_cli_fail("girf", "expected complex (frequencies, %d): the frequency in Hz, then H of each of "
-                         "the waveform's %d axes", axes + 1, axes);
-    else if ((st = kw_waveform_girf_split(a.data, *nf = a.dims[0], axes, f, h)))
+    const size_t nd = (size_t)axes + 1, nx = (size_t)(axes * axes) + 1; /* per axis, or cross-axis terms */
+    *cross = axes > 1 && a.ndim == 2 && a.dims[1] == nx;
+    if (a.dtype != KW_C64 || a.ndim != 2 || (a.dims[1] != nd && !*cross))
+        rc = kw_cli_fail("girf", "expected complex (frequencies, %zu): the frequency in Hz, then H of each of "
+                         "the waveform's %d axes (or (frequencies, %zu) with the cross-axis terms)", nd, axes, nx);
+    else if ((st = kw_waveform_girf_split(a.data, *nf = a.dims[0], *cross ? axes * axes : axes, f, h)))
         rc = kw_cli_lib_status(st, "girf", PARAM_MAP);
     kw_array_free(&a);
     return rc;
@@ -245,218 +245,6 @@ static int write_trajectory(const wf_args *a, const kw_waveform *w, const char *
     return st ? kw_cli_status(st, what) : -1;
 }
 
-/* ---- the picture --------------------------------------------------------------------------- */
-
-
-static void text_at(cairo_t *cr, double x, double y, const char *s, double ax, double ay)
-{
-    cairo_text_extents_t e;
-    cairo_text_extents(cr, s, &e);
-    cairo_move_to(cr, x - ax * e.width - e.x_bearing, y - ay * e.height - e.y_bearing);
-    cairo_show_text(cr, s);
-}
-
-enum { PW = 1200, PH = 150, PGAP = 46, PLEFT = 96, PRIGHT = 24, PTOP = 56, PBOTTOM = 60 };
-
-typedef struct panel {
-    double y0;     /* top, px */
-    double lo, hi; /* value range */
-    double t1;     /* ms, the time axis 0..t1 */
-} panel;
-
-static double px_t(const panel *p, double t_ms) { return PLEFT + t_ms / p->t1 * (PW - PLEFT - PRIGHT); }
-static double px_v(const panel *p, double v) { return p->y0 + (p->hi - v) / (p->hi - p->lo) * PH; }
-
-/* frame, value ticks, the limit lines (dashed red at +-lim), the label */
-static void panel_frame(cairo_t *cr, const panel *p, double lim, const char *label)
-{
-    double ticks[16], step;
-    size_t nt = kw_figure_ticks(p->lo, p->hi, 4, ticks, 16, &step);
-    char buf[64];
-    cairo_set_font_size(cr, 12);
-    for (size_t i = 0; i < nt; i++) {
-        double y = px_v(p, ticks[i]);
-        cairo_set_source_rgb(cr, 0.88, 0.88, 0.88);
-        cairo_move_to(cr, PLEFT, y);
-        cairo_line_to(cr, PW - PRIGHT, y);
-        cairo_stroke(cr);
-        cairo_set_source_rgb(cr, 0, 0, 0);
-        kw_figure_tick_text(buf, sizeof buf, ticks[i], step);
-        text_at(cr, PLEFT - 6, y, buf, 1.0, 0.5);
-    }
-    cairo_set_source_rgb(cr, 0.8, 0, 0);
-    double dash[2] = {6, 4};
-    cairo_set_dash(cr, dash, 2, 0);
-    for (int sg = -1; sg <= 1; sg += 2) {
-        cairo_move_to(cr, PLEFT, px_v(p, sg * lim));
-        cairo_line_to(cr, PW - PRIGHT, px_v(p, sg * lim));
-    }
-    cairo_stroke(cr);
-    cairo_set_dash(cr, NULL, 0, 0);
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_rectangle(cr, PLEFT, p->y0, PW - PLEFT - PRIGHT, PH);
-    cairo_stroke(cr);
-    cairo_save(cr);
-    cairo_translate(cr, 18, p->y0 + PH / 2.0);
-    cairo_rotate(cr, -M_PI / 2);
-    text_at(cr, 0, 0, label, 0.5, 0.5);
-    cairo_restore(cr);
-}
-
-/* shaded ADC windows and the RF centre / TE lines (times in ms) */
-static void panel_marks(cairo_t *cr, const panel *p, const kw_waveform_options *o)
-{
-    cairo_set_source_rgba(cr, 0.2, 0.6, 0.2, 0.18);
-    for (size_t i = 0; i < o->nadc; i++) {
-        double a0 = o->adc[i].start_s * 1e3,
-               a1 = (o->adc[i].start_s + (double)o->adc[i].samples * o->adc[i].dwell_s) * 1e3;
-        cairo_rectangle(cr, px_t(p, a0), p->y0, px_t(p, a1) - px_t(p, a0), PH);
-        cairo_fill(cr);
-    }
-    double lines[2] = {o->rf_centre_s * 1e3, (o->rf_centre_s + o->te_s) * 1e3};
-    for (int i = 0; i < 2; i++) {
-        if (!isfinite(lines[i]))
-            continue;
-        cairo_set_source_rgb(cr, i == 0 ? 0.5 : 0.1, 0.1, i == 0 ? 0.6 : 0.7);
-        cairo_move_to(cr, px_t(p, lines[i]), p->y0);
-        cairo_line_to(cr, px_t(p, lines[i]), p->y0 + PH);
-        cairo_stroke(cr);
-    }
-}
-
-/* 1 when sample/interval i of `axis` lies in a violation of `lim` */
-static int in_violation(const kw_waveform_violation *v, size_t nv, kw_waveform_limit lim, int axis,
-                        size_t i)
-{
-    for (size_t k = 0; k < nv; k++)
-        if (v[k].limit == lim && (v[k].axis == axis || v[k].axis == -1) && i >= v[k].first &&
-            i <= v[k].last)
-            return 1;
-    return 0;
-}
-
-/* The curve of one panel: G (kind 0, mT/m) or slew (kind 1, T/m/s, a step
- * per interval), black, red where it breaks the limit. */
-static void panel_curve(cairo_t *cr, const panel *p, const double *g, size_t n, int axes, int axis,
-                        int kind, double h, const kw_waveform_violation *v, size_t nv, int held)
-{
-    cairo_set_line_width(cr, 1.2);
-    for (int pass = 0; pass < 2; pass++) {
-        cairo_set_source_rgb(cr, pass ? 0.85 : 0.05, pass ? 0.05 : 0.05, pass ? 0.05 : 0.05);
-        for (size_t i = 0; i + 1 < n; i++) {
-            double a = g[i * (size_t)axes + (size_t)axis], b = g[(i + 1) * (size_t)axes + (size_t)axis];
-            int bad = kind == 0 ? in_violation(v, nv, KW_WAVEFORM_AMPLITUDE, axis, i) ||
-                                      in_violation(v, nv, KW_WAVEFORM_AMPLITUDE, axis, i + 1)
-                                : in_violation(v, nv, KW_WAVEFORM_SLEW, axis, i);
-            if (bad != pass)
-                continue;
-            double t0 = (double)i * h * 1e3, t1 = (double)(i + 1) * h * 1e3;
-            if (kind == 0) { /* held: a over the interval, then the step to b */
-                cairo_move_to(cr, px_t(p, t0), px_v(p, a * 1e3));
-                cairo_line_to(cr, px_t(p, t1), px_v(p, (held ? a : b) * 1e3));
-                if (held)
-                    cairo_line_to(cr, px_t(p, t1), px_v(p, b * 1e3));
-            } else {
-                double s = (b - a) / h, prev = s;
-                if (i > 0)
-                    prev = (a - g[(i - 1) * (size_t)axes + (size_t)axis]) / h;
-                cairo_move_to(cr, px_t(p, t0), px_v(p, prev));
-                cairo_line_to(cr, px_t(p, t0), px_v(p, s));
-                cairo_line_to(cr, px_t(p, t1), px_v(p, s));
-            }
-            cairo_stroke(cr);
-        }
-    }
-    cairo_set_line_width(cr, 1.0);
-}
-
-static void time_axis(cairo_t *cr, const panel *p, double ybottom)
-{
-    double ticks[32], step;
-    size_t nt = kw_figure_ticks(0, p->t1, 8, ticks, 32, &step);
-    char buf[64];
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_set_font_size(cr, 12);
-    for (size_t i = 0; i < nt; i++) {
-        kw_figure_tick_text(buf, sizeof buf, ticks[i], step);
-        text_at(cr, px_t(p, ticks[i]), ybottom + 6, buf, 0.5, 0.0);
-    }
-    text_at(cr, (PLEFT + PW - PRIGHT) / 2.0, ybottom + 28, "time from the waveform's start (ms)", 0.5, 0.0);
-}
-
-/* the actual gradient (blue) over the nominal one's G panel */
-static void panel_actual(cairo_t *cr, const panel *p, const double *ga, size_t n, int axes, int axis, double h)
-{
-    cairo_set_source_rgb(cr, 0.1, 0.3, 0.9);
-    for (size_t i = 0; i < n; i++) {
-        double x = px_t(p, (double)i * h * 1e3), y = px_v(p, ga[i * (size_t)axes + (size_t)axis] * 1e3);
-        if (i == 0)
-            cairo_move_to(cr, x, y);
-        else
-            cairo_line_to(cr, x, y);
-    }
-    cairo_stroke(cr);
-}
-
-static kw_status write_png(const char *path, const double *g, size_t n, int axes, const kw_waveform *w,
-                           const kw_waveform_options *o)
-{
-    double *ga = NULL;
-    if (kw_waveform_has_imperfection(w)) {
-        ga = kw_alloc_n(n * (size_t)axes, sizeof *ga);
-        KW_FAIL_IF(!ga, KW_ENOMEM, "out of memory for the actual gradient");
-        kw_waveform_actual(w, ga);
-    }
-    const kw_waveform_summary *s = kw_waveform_summary_of(w);
-    size_t nv;
-    const kw_waveform_violation *v = kw_waveform_violations(w, &nv);
-    const int rows = 2 * axes;
-    const int height = PTOP + rows * PH + (rows - 1) * PGAP + PBOTTOM;
-    cairo_surface_t *sf = cairo_image_surface_create(CAIRO_FORMAT_RGB24, PW, height);
-    cairo_t *cr = cairo_create(sf);
-    cairo_set_source_rgb(cr, 1, 1, 1);
-    cairo_paint(cr);
-    cairo_set_line_width(cr, 1.0);
-    cairo_select_font_face(cr, "sans-serif", CAIRO_FONT_SLANT_NORMAL, CAIRO_FONT_WEIGHT_NORMAL);
-    cairo_set_source_rgb(cr, 0, 0, 0);
-    cairo_set_font_size(cr, 15);
-    char title[256];
-    snprintf(title, sizeof title, "gradient waveform: %zu samples, raster %g us; limits %g mT/m, %g T/m/s",
-             s->samples, s->raster_s * 1e6, o->gmax * 1e3, o->slew);
-    text_at(cr, PW / 2.0, 8, title, 0.5, 0.0);
-    cairo_set_font_size(cr, 12);
-    snprintf(title, sizeof title, "limits dashed red; over a limit in red; ADC windows green; RF centre "
-             "(violet) and TE (blue) lines%s", ga ? "; actual G blue curve" : "");
-    text_at(cr, PW / 2.0, 30, title, 0.5, 0.0);
-    const char *an[3] = {"x", "y", "z"};
-    panel p = {0, 0, 0, s->span_s * 1e3};
-    double ybottom = 0;
-    for (int r = 0; r < rows; r++) {
-        const int axis = r / 2, kind = r % 2;
-        const double lim = kind == 0 ? o->gmax * 1e3 : o->slew;
-        const double peak = kind == 0 ? s->peak_g[axis] * 1e3 : s->peak_slew[axis];
-        const double top = 1.1 * (peak > lim ? peak : lim);
-        p.y0 = PTOP + r * (PH + PGAP);
-        p.lo = -top;
-        p.hi = top;
-        char label[64];
-        snprintf(label, sizeof label, kind == 0 ? "G%s (mT/m)" : "slew %s (T/m/s)", an[axis]);
-        panel_marks(cr, &p, o);
-        panel_frame(cr, &p, lim, label);
-        panel_curve(cr, &p, g, n, axes, axis, kind, s->raster_s, v, nv, o->held);
-        if (ga && kind == 0)
-            panel_actual(cr, &p, ga, n, axes, axis, s->raster_s);
-        ybottom = p.y0 + PH;
-    }
-    time_axis(cr, &p, ybottom);
-    cairo_destroy(cr);
-    kw_status st = kw_plot_write_png(sf, path);
-    cairo_surface_destroy(sf);
-    kw_figure_release_fonts();
-    kw_free(ga);
-    return st;
-}
-
 /* ---- the text report ---------------------------------------------------------------------- */
 
 static void print_moments(const char *what, const kw_waveform_moments *m, int axes)
@@ -506,6 +294,9 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     printf("vector: peak |G| %.4f mT/m (sample %zu), peak slew %.2f T/m/s (interval %zu), RMS %.4f mT/m "
            "over %.6g ms\n", s->peak_g_vector * 1e3, s->peak_g_vector_at, s->peak_slew_vector,
            s->peak_slew_vector_at, s->rms_g_vector * 1e3, s->tr_s * 1e3);
+    if (o->held)
+        printf("held samples: slew is raster-limited, (G[i+1] - G[i]) / raster, the step between held values "
+               "spread over one raster\n");
     printf("starts at zero: %s; ends at zero: %s; ADC windows on the raster: yes\n",
            s->starts_at_zero ? "yes" : "NO", s->ends_at_zero ? "yes" : "NO");
     size_t nv;
@@ -534,10 +325,25 @@ static void print_report(const kw_waveform *w, const kw_waveform_options *o)
     kw_waveform_moments e;
     if (!isnan(o->te_s) && kw_waveform_moments_at(w, o->te_s, &e) == KW_OK)
         print_moments("echo (TE)", &e, s->axes);
+    if (o->nrf > 1) {
+        printf("%zu RF centres (ms):", o->nrf);
+        for (size_t k = 0; k < o->nrf; k++)
+            printf(" %.6g", o->rf_centres_s[k] * 1e3);
+        printf("; moments and k restart from 0 at each\n");
+        for (size_t k = 1; !isnan(o->te_s) && k < o->nrf; k++) {
+            char what[64];
+            snprintf(what, sizeof what, "echo (TE) of excitation %zu", k);
+            if (kw_waveform_moments_at(w, o->rf_centres_s[k] - o->rf_centres_s[0] + o->te_s, &e) == KW_OK)
+                print_moments(what, &e, s->axes);
+        }
+    }
+    int terms = 0;
+    for (int a = 0; a < s->axes; a++)
+        terms |= o->delay_s[a] != 0 || o->response_amp[a] != 0;
     if (o->girf_nfreq)
         printf("actual gradient: through the GIRF's transfer function, %zu frequencies (Vannesjo et al. 2013; "
-               "H = 0 beyond the last)\n", o->girf_nfreq);
-    else if (kw_waveform_has_imperfection(w))
+               "H = 0 beyond the last)%s\n", o->girf_nfreq, terms ? ", then the terms below" : "");
+    if (terms)
         for (int a = 0; a < s->axes; a++)
             printf("actual gradient, axis %s: delay %g us, response term amplitude %g, time constant %g us\n",
                    an[a], o->delay_s[a] * 1e6, o->response_amp[a], o->response_tau_s[a] * 1e6);
@@ -551,9 +357,31 @@ static const kw_cli_param DELAY_MAP[] = {
     {"data", "estimate-delay"}, {"spokes", "estimate-delay"}, {"n", "estimate-delay"}, {NULL, NULL},
 };
 
+/* The per-axis delays (kw_waveform_estimate_delay_axes()) with the
+ * spokes' directions from the nominal gradient at the windows' centres;
+ * NaN where the directions cannot tell the axes apart (*why says so). */
+static void estimate_axes(const kw_array *ks, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
+{
+    const int axes = kw_waveform_summary_of(w)->axes;
+    double *dir = kw_alloc_n(o->nadc * (size_t)axes, sizeof *dir);
+    kw_status st = dir ? kw_waveform_adc_directions(w, dir) : KW_ENOMEM;
+    if (!st)
+        st = kw_waveform_estimate_delay_axes(ks->data, ks->ndim == 2 ? ks->dims[0] : 1, o->nadc, o->adc[0].samples,
+                                             o->adc[0].dwell_s, dir, axes, est);
+    if (st) {
+        snprintf(why, cap, "%s", kw_last_error());
+        for (int a = 0; a < axes; a++)
+            est[a] = NAN;
+    }
+    kw_free(dir);
+}
+
 /* --estimate-delay KS.npy: radial data (coils, samples) acquired with this
- * waveform's ADC windows as spokes, window s opposed to s + windows/2. */
-static int estimate_delay(const char *path, const kw_waveform_options *o, double *est)
+ * waveform's ADC windows as spokes, window s opposed to s + windows/2:
+ * est[0] one delay for every axis, est[1 + a] the delay of axis a. */
+static int estimate_delay(const char *path, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
 {
     int same = o->nadc >= 2 && o->nadc % 2 == 0;
     for (size_t i = 1; same && i < o->nadc; i++)
@@ -572,21 +400,28 @@ static int estimate_delay(const char *path, const kw_waveform_options *o, double
     else if ((st = kw_waveform_estimate_delay(ks.data, ks.ndim == 2 ? ks.dims[0] : 1, o->nadc, o->adc[0].samples,
                                               o->adc[0].dwell_s, est)))
         rc = kw_cli_lib_status(st, "estimate-delay", DELAY_MAP);
+    else
+        estimate_axes(&ks, w, o, est + 1, why, cap);
     kw_array_free(&ks);
     return rc;
 }
 
 /* The report's JSON with the delay estimate added ("-" or a file). */
-static kw_status write_json(const char *path, const char *js, double est)
+static kw_status write_json(const char *path, const char *js, const double *est, int axes, const char *why)
 {
-    if (isnan(est))
+    if (isnan(est[0]))
         return strcmp(path, "-") == 0 ? (fputs(js, stdout) < 0 ? KW_EIO : KW_OK)
                                       : kw_outfile_write_all(path, js, strlen(js));
     cJSON *j = cJSON_Parse(js);
     KW_FAIL_IF(!j, KW_ENOMEM, "json: out of memory");
     cJSON *d = cJSON_CreateObject();
-    kw_json_add_number_or_null(d, "delay_s", est);
+    kw_json_add_number_or_null(d, "delay_s", est[0]);
     cJSON_AddStringToObject(d, "method", "shift between opposed spokes' echoes (Peters et al. 2003), one delay for every axis");
+    cJSON *pa = cJSON_AddArrayToObject(d, "per_axis_delay_s");
+    for (int a = 0; pa && a < axes; a++)
+        cJSON_AddItemToArray(pa, isnan(est[1 + a]) ? cJSON_CreateNull() : cJSON_CreateNumber(est[1 + a]));
+    cJSON_AddStringToObject(d, "per_axis_method", *why ? why : "least squares of each pair's echo shift against "
+                            "sum over axes of delay x direction^2 (dx cos^2 + dy sin^2 in a plane)");
     cJSON_AddItemToObject(j, "delay_estimate", d);
     kw_status st = kw_json_write(path, j);
     cJSON_Delete(j);
@@ -644,6 +479,23 @@ static int parse_imperfections(const wf_args *a, kw_waveform_options *o)
     return -1;
 }
 
+/* --rf-centres T1,T2,...: the RF centres of several excitations (malloc'd) */
+static int parse_rf_centres(const char *s, double **v, size_t *n)
+{
+    size_t cap = 1;
+    for (const char *c = s; *c; c++)
+        cap += *c == ',';
+    *v = malloc(cap * sizeof **v);
+    if (!*v)
+        return kw_cli_status(kw_set_error(KW_ENOMEM, "out of memory"), "rf-centres");
+    char why[160];
+    int k = kw_unit_parse_list(s, KW_UNIT_TIME, *v, (int)cap, why, sizeof why);
+    if (k < 0)
+        return kw_cli_fail("rf-centres", "%s", why);
+    *n = (size_t)k;
+    return -1;
+}
+
 static int parse_fov(const char *s, double fov[3])
 {
     char why[160];
@@ -665,6 +517,7 @@ static int run(wf_args *a)
     kw_waveform *w = NULL;
     double *gf = NULL;
     kw_cdouble *gh = NULL;
+    double *rfs = NULL;
     char *js = NULL;
     kw_waveform_options o;
     kw_waveform_options_init(&o);
@@ -673,11 +526,14 @@ static int run(wf_args *a)
         rc = parse_adc(a->adc, a->s_raster ? a->raster : KWD_RASTER_S, &adc, &nadc);
     if (rc < 0 && a->fov)
         rc = parse_fov(a->fov, o.fov_m);
+    if (rc < 0 && a->rfs)
+        rc = parse_rf_centres(a->rfs, &rfs, &o.nrf);
+    o.rf_centres_s = rfs;
     if (rc < 0)
         rc = parse_imperfections(a, &o);
     if (rc < 0)
         rc = read_waveform(a->in, &g, &n, &axes);
-    if (rc < 0 && a->girf && (rc = read_girf(a->girf, axes, &gf, &gh, &o.girf_nfreq)) < 0) {
+    if (rc < 0 && a->girf && (rc = read_girf(a->girf, axes, &gf, &gh, &o.girf_nfreq, &o.girf_cross)) < 0) {
         o.girf_freq_hz = gf;
         o.girf = gh;
         o.girf_axes = axes;
@@ -686,7 +542,7 @@ static int run(wf_args *a)
         goto done;
     if (a->s_raster)
         o.raster_s = a->raster;
-    o.rf_centre_s = a->s_rf ? a->rf : NAN;
+    o.rf_centre_s = a->s_rf ? a->rf : o.nrf ? rfs[0] : NAN;
     o.te_s = a->s_te ? a->te : NAN;
     o.tr_s = a->s_tr ? a->tr : 0;
     o.gmax = a->gmax;
@@ -701,26 +557,38 @@ static int run(wf_args *a)
         rc = kw_cli_lib_status(st, "waveform", PARAM_MAP);
         goto done;
     }
+    double est[4] = {NAN, NAN, NAN, NAN};
+    char why[256] = "";
+    if (a->estimate && (rc = estimate_delay(a->estimate, w, &o, est, why, sizeof why)) >= 0)
+        goto done;
     if (a->traj && (rc = write_trajectory(a, w, a->traj, a->times, 0)) >= 0)
         goto done;
     if (a->traj_actual && (rc = write_trajectory(a, w, a->traj_actual, NULL, 1)) >= 0)
         goto done;
-    if (a->png && (st = write_png(a->png, g, n, axes, w, &o)) && (rc = kw_cli_status(st, "png")) >= 0)
-        goto done;
-    double est = NAN;
-    if (a->estimate && (rc = estimate_delay(a->estimate, &o, &est)) >= 0)
+    if (a->png && (st = kw_wf_write_png(a->png, g, n, axes, w, &o)) && (rc = kw_cli_status(st, "png")) >= 0)
         goto done;
     if (a->json) {
-        if ((st = kw_waveform_report_json(w, &js)) || (st = write_json(a->json, js, est))) {
+        if ((st = kw_waveform_report_json(w, &js)) || (st = write_json(a->json, js, est, axes, why))) {
             rc = kw_cli_status(st, "json");
             goto done;
         }
     }
     if (!a->json || strcmp(a->json, "-") != 0) {
         print_report(w, &o);
-        if (!isnan(est))
+        if (!isnan(est[0])) {
             printf("gradient delay estimated from %s (shift between opposed spokes' echoes, Peters et al. 2003; "
-                   "one delay for every axis): %.4f us\n", a->estimate, est * 1e6);
+                   "one delay for every axis): %.4f us\n", a->estimate, est[0] * 1e6);
+            printf("per axis (least squares of each pair's echo shift = dx cos^2 + dy sin^2 [+ dz ...]):");
+            for (int k = 0; k < axes; k++) {
+                if (isnan(est[1 + k]))
+                    printf(" %c -", "xyz"[k]);
+                else
+                    printf(" %c %.4f us", "xyz"[k], est[1 + k] * 1e6);
+            }
+            if (*why)
+                printf(" (%s)", why);
+            printf("\n");
+        }
     }
     rc = KW_EXIT_OK;
 done:
@@ -730,6 +598,7 @@ done:
     free(adc);
     kw_free(gf);
     kw_free(gh);
+    free(rfs);
     return rc;
 }
 
@@ -746,6 +615,9 @@ int kw_cmd_waveform(int argc, char **argv)
         {"raster", KW_OPT_UNIT, &a.raster, KW_UNIT_TIME, &a.s_raster, "time between samples (default " KWD_RASTER_TEXT ")"},
         {"rf-centre", KW_OPT_UNIT, &a.rf, KW_UNIT_TIME, &a.s_rf,
          "time of the RF centre after the first sample (required, or rf_centre_s in the sidecar)"},
+        {"rf-centres", KW_OPT_STRING, &a.rfs, 0, NULL,
+         "several excitations: their RF centres T1,T2,... after the first sample; moments and k restart at each "
+         "(the first is --rf-centre when both are given; default: --rf-centre alone)"},
         {"te", KW_OPT_UNIT, &a.te, KW_UNIT_TIME, &a.s_te, "echo time after the RF centre: moments there (default: none)"},
         {"tr", KW_OPT_UNIT, &a.tr, KW_UNIT_TIME, &a.s_tr, "repetition time for the RMS gradient (default: the waveform's span)"},
         {"adc", KW_OPT_STRING, &a.adc, 0, NULL,

@@ -76,6 +76,40 @@
  * then linear between its samples, and the actual k-space its exact
  * integral, as for the nominal waveform.
  *
+ * Cross-axis terms (girf_cross): the output of axis b is the sum over the
+ * input axes a of H_b,a applied to the samples of axis a (each as above,
+ * the same bins, the same rules), so a table with H_b,a = 0 off the
+ * diagonal is the per-axis GIRF.
+ *
+ * Actual gradient of a held waveform: the same model with a constant
+ * input on every interval (y relaxes towards each held value: y = g_i +
+ * (y_i - g_i) e^{-t/tau}); kw_waveform_actual() returns the mean of the
+ * actual gradient over every raster interval [t_i, t_i+1) (the exact
+ * integral's differences; held, they give the exact actual k at every
+ * boundary), the actual trajectory the exact integral. A GIRF acts on the
+ * samples as above and its output is held.
+ *
+ * Several RF centres (rf_centres_s: several excitations in one file, e.g.
+ * repetitions): every time belongs to the segment of the last RF centre at
+ * or before it (the first centre's before it), and the moments and k are
+ * counted from that centre: M_n(t) = integral from t_rf(t) to t of G(tau)
+ * (tau - t_rf(t))^n dtau, k restarting from 0 at each excitation (a
+ * refocusing pulse, which would invert k, is not modelled). Times after
+ * "the RF centre" (te_s, the moments' t_s, the trajectory's times) stay
+ * counted from the first centre; an ADC window must not hold a later
+ * centre after its first sample ("adc"). The actual k restarts likewise
+ * (the actual gradient itself runs on across the centres: the system
+ * does not know about the excitation).
+ *
+ * Actual gradient: cascade. A GIRF with a delay and/or a response term:
+ * the GIRF acts on the samples first, then the delay and the response term
+ * act (as above, in closed form) on the GIRF's output, linear between its
+ * samples. The systems are linear and time-invariant, so the cascade's
+ * transfer function is the product H(f) e^{-i 2 pi f d} ((1 - alpha) +
+ * alpha / (1 + i 2 pi f tau)) whatever the order (convolution commutes);
+ * this order keeps the delay and the response exact on the continuous
+ * waveform rather than sampled onto the DFT's bins.
+ *
  * Object model: kw_waveform_create() checks and computes everything and
  * keeps it; the accessors return pointers into the object, valid until
  * kw_waveform_destroy() (NULL-safe). The object is read-only after create:
@@ -90,9 +124,10 @@
  * off the raster, outside the waveform, before the RF centre, dwell <= 0,
  * no samples; the window's number in the reason), "pns_radius_m",
  * "pns_rheobase", "pns_chronaxie_s", "pns_fraction", "delay_s",
- * "response_tau_s", "response_amp", "girf" (a NULL array, a count below
- * 2, a non-finite value, combined with a delay or a response term, a held
- * waveform), "girf_freq_hz" (non-finite, negative or not strictly
+ * "response_tau_s", "response_amp", "rf_centres_s" (NULL with nrf > 0,
+ * more than 2^16, non-finite, outside the waveform, not strictly
+ * increasing, or a first one that is not rf_centre_s), "girf" (a NULL array, a count below
+ * 2, a non-finite value), "girf_freq_hz" (non-finite, negative or not strictly
  * increasing: the index in the reason), "girf_axes" (not the waveform's),
  * "options".
  */
@@ -101,6 +136,7 @@
 
 #include "kw_base.h"
 #include "kw_pattern.h"
+#include "kw_sequence.h"
 
 #ifdef __cplusplus
 extern "C" {
@@ -151,8 +187,16 @@ typedef struct kw_waveform_options {
     double response_amp[3];
     /* 1: sample i is held over [t_i, t_i+1) (the planner's spiral,
      * kw_gradient.h; the waveform spans samples x raster); 0: linear
-     * between samples (default). The actual-gradient calls refuse held
-     * waveforms in this version (KW_ENOTSUP naming "held"). */
+     * between samples (default). Held: the moments and k are those of
+     * the steps (M0 exactly the sum of G raster); the slew of interval i
+     * is raster-limited, (g[i+1] - g[i]) / raster, the step between held
+     * values spread over one raster (the model's steps are instantaneous;
+     * a sequence's gradient raster is what its hardware plays, so the
+     * limit is held against that figure); the actual gradient is the
+     * delay / response of the steps in closed form (a constant input on
+     * every interval), kw_waveform_actual() gives its mean over every
+     * [t_i, t_i+1) (held, these have the exact actual k at every
+     * boundary), and a GIRF acts on the samples, its output held. */
     int held;
     /* A measured gradient impulse response (GIRF; Vannesjo et al., "Gradient
      * system characterization by impulse response measurements with a
@@ -161,12 +205,25 @@ typedef struct kw_waveform_options {
      * frequencies girf_freq_hz (Hz, >= 0, strictly increasing) and
      * girf[girf_axes * girf_nfreq] (C order (axes, nfreq)) the complex
      * H(f) per axis; girf_axes must equal the waveform's axes. NULL / 0:
-     * none (default). Not combined with delay_s or a response term: put
-     * those into H (KW_EINVAL naming "girf"). */
+     * none (default). With delay_s or a response term set too, they act
+     * on the GIRF's output (the cascade, "Actual gradient: cascade"). */
     const double *girf_freq_hz;
     const kw_cdouble *girf;
     size_t girf_nfreq;
     int girf_axes;
+    /* Several excitations in one waveform: nrf (>= 1) RF centres
+     * rf_centres_s (s after the waveform's start, strictly increasing,
+     * within the waveform); rf_centre_s is then NaN or the first of them.
+     * The moments and k restart from 0 at each centre ("Several RF
+     * centres" above). NULL / 0: the one centre rf_centre_s (default). */
+    const double *rf_centres_s;
+    size_t nrf;
+    /* 1: girf holds the cross-axis terms too, a matrix of transfer
+     * functions: girf[(out * axes + in) * girf_nfreq + k] = H_out,in(f_k)
+     * (C order (axes, axes, nfreq)), G_act,out = sum over in of H_out,in
+     * applied to G_in ("Actual gradient: GIRF"); 0: one H per axis, the
+     * diagonal (default). */
+    int girf_cross;
 } kw_waveform_options;
 
 /*! kw_waveform_options_init(): the defaults above (gmax, slew and raster
@@ -297,7 +354,10 @@ KW_API kw_status kw_waveform_trajectory_actual(const kw_waveform *w, float *k, f
  * kw_alloc'd (kw_free()), for kw_waveform_options' girf_* fields (which
  * kw_waveform_create() checks). KW_EINVAL naming "girf": NULL, no rows,
  * axes outside 1..3, a frequency that is not real (its row in the
- * reason); *freq_hz and *h are then NULL. */
+ * reason); *freq_hz and *h are then NULL. With cross-axis terms the table
+ * has 1 + axes x axes columns (H_xx, H_xy, ..., output axis slowest): call
+ * it with axes x axes columns of H (axes 1, 4 or 9 here) and set
+ * girf_cross; *h is then (axes, axes, rows) in the options' order. */
 KW_API kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, double **freq_hz,
                                         kw_cdouble **h);
 
@@ -342,6 +402,45 @@ KW_API kw_status kw_waveform_epi(const kw_pattern_options *o, int shot, double *
  * (<= 0), "data" (NULL, non-finite, or no signal). */
 KW_API kw_status kw_waveform_estimate_delay(const kw_cfloat *data, size_t coils, size_t spokes, size_t n,
                                             double dwell_s, double *delay_s);
+
+/*! kw_waveform_estimate_delay_axes(): the gradient delay of each axis from
+ * radial data (the same data and pairing as kw_waveform_estimate_delay();
+ * Peters et al. 2003 measure the echo shift of opposed spokes). dir:
+ * (spokes, axes) the readout direction of each spoke (any length, e.g. the
+ * gradient at its centre, kw_waveform_adc_directions(); only the first
+ * spoke of each pair is read). Derivation: on a readout of gradient
+ * G u (u a unit vector) with delays d_a per axis, axis a plays
+ * G u_a (t - d_a), so the sample taken at t lies at k_nominal(t) -
+ * gamma_bar G (d_a u_a)_a: its component along the spoke is -gamma_bar G
+ * sum_a d_a u_a^2 (the echo moves by sum_a d_a u_a^2 / dwell samples, the
+ * pair's effective delay d(u) = sum_a d_a u_a^2, d_x cos^2 + d_y sin^2 in a
+ * plane), the rest is a sideways offset gamma_bar G (d_x - d_y) cos sin
+ * that does not move the echo. Each pair gives d(u) as
+ * kw_waveform_estimate_delay() gives d; the delays are the least-squares
+ * fit of d(u) = sum_a d_a u_a^2 over the pairs. The sideways offset
+ * (unequal delays only) biases the phase slope of a pair off the axes by
+ * an amount that depends on the object (none for an object whose
+ * projections' columns share one centroid, e.g. a Gaussian blob; measured
+ * 0.43 us at 45 degrees on encode's Shepp-Logan with dx - dy = 3 us) and
+ * vanishes along an axis, where Peters et al. measure; so each pair is
+ * weighted by the magnitude of its phase-slope sum (its signal) times
+ * (1 - sigma)^4, sigma = min(1, sqrt(2 (1 - sum_a u_a^4))) (|sin 2 theta|
+ * in a plane: 0 on an axis, 1 at 45 degrees), which favours the pairs near
+ * the axes (the exponent is our choice, no source: on the Shepp-Logan case
+ * above the fit is 1.80 / -1.23 us weighted by the signal alone, 1.97 /
+ * -1.02 us with the factor). delay_s[axes] in s; NaN for an axis along which no pair
+ * of non-zero weight runs.
+ * Errors of kw_waveform_estimate_delay(), "axes" (outside 1..3), "dir"
+ * (NULL, non-finite, a zero row, or directions that cannot tell the axes
+ * apart: every pair at 45 degrees to the axes it crosses). */
+KW_API kw_status kw_waveform_estimate_delay_axes(const kw_cfloat *data, size_t coils, size_t spokes, size_t n,
+                                                 double dwell_s, const double *dir, int axes, double *delay_s);
+
+/*! kw_waveform_adc_directions(): the nominal gradient (T/m) at the centre
+ * of every ADC window, dir[nadc * axes] (C order (windows, axes)): the
+ * readout direction of each spoke for kw_waveform_estimate_delay_axes().
+ * KW_EINVAL naming "adc" when there is no window. */
+KW_API kw_status kw_waveform_adc_directions(const kw_waveform *w, double *dir);
 
 /* The timing keys of a waveform's JSON sidecar (kweave waveform's): NaN
  * where the text has none. */
@@ -399,6 +498,25 @@ KW_API kw_status kw_waveform_table_parse(const char *text, double **g, size_t *s
  * 0..interleaves-1). */
 KW_API kw_status kw_waveform_spiral(const kw_pattern_options *o, int interleaf, double *g, size_t *samples,
                                     kw_waveform_adc *adc, size_t *nadc);
+
+/*! kw_waveform_plan(): the lobes of a gradient-echo plan (kw_plan_create(),
+ * sequence KW_SEQ_GRE: slice select, rephaser, readout prephaser, phase
+ * encode (the plan's largest step), readout, spoiler and rewinder, at the
+ * times of its timeline) as a waveform (samples, 3) T/m, x the readout, y
+ * the phase encoding, z the slice, on the plan's raster, one repetition
+ * (timeline_s, the TR as used; samples = TR / raster + 1); the RF centre
+ * (*rf_centre_s: the excitation's centre, s after the start), its one ADC
+ * window (the plan's, nx samples of its dwell) and *te_s (the window's
+ * centre after the RF centre: the plan's TE as laid out). Imported with
+ * kw_waveform_create(), M0 on x at TE is 0 (the prephaser's area is minus
+ * half the readout's), M0 on y the phase encode's area, M0 on z 0 (the
+ * rephaser undoes the slice select after the RF centre). Size query: with
+ * g NULL, *samples receives the count; otherwise it gives the room in g
+ * (rows; KW_ERANGE naming "samples" when short). KW_EINVAL naming "kind"
+ * for another sequence, "adc" when the plan's window is not a whole number
+ * of rasters from the start (choose a readout of whole rasters). */
+KW_API kw_status kw_waveform_plan(const kw_plan_report *r, double *g, size_t *samples, kw_waveform_adc *adc,
+                                  double *rf_centre_s, double *te_s);
 
 /*! kw_waveform_report_json(): the report as JSON text (kw_alloc'd, free
  * with kw_free(); ends with a newline): kweave_version, kind ("waveform"),

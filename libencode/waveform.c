@@ -53,9 +53,8 @@ static double upow(double u, int m)
 /* integral over [ta, tb] (inside interval i) of G(tau) (tau - t_rf)^m:
  * the integrand is a polynomial of degree m + 1 <= 3 there, which
  * Simpson's rule integrates exactly. */
-static double seg(const struct kw_waveform *w, int axis, int m, size_t i, double ta, double tb)
+static double seg(const struct kw_waveform *w, int axis, int m, size_t i, double ta, double tb, double trf)
 {
-    const double trf = w->o.rf_centre_s;
     const double ga = g_at(w, axis, i, ta), gb = g_at(w, axis, i, tb);
     const double ua = ta - trf, ub = tb - trf, um = 0.5 * (ua + ub);
     return (tb - ta) / 6.0 * (ga * upow(ua, m) + 2.0 * (ga + gb) * upow(um, m) + gb * upow(ub, m));
@@ -83,28 +82,41 @@ static double *cum_of(const struct kw_waveform *w, int m, int axis)
     return w->cum + ((size_t)m * (size_t)w->axes + (size_t)axis) * (w->n + 1);
 }
 
-/* cum[m][axis][i] = M_m from the RF centre to sample i (negative before it). */
+/* cum[m][axis][i] = M_m from the RF centre of sample i's segment (the last
+ * centre at or before it; the first one before it: negative) to sample i.
+ * The sample that starts the interval holding a later centre belongs to
+ * the segment before; moment() integrates from that centre directly. */
 static void build_cumulative(struct kw_waveform *w)
 {
-    const double h = w->o.raster_s, trf = w->o.rf_centre_s;
-    const size_t r = interval_of(w, trf);
-    for (int m = 0; m < 3; m++)
-        for (int a = 0; a < w->axes; a++) {
-            double *c = cum_of(w, m, a);
-            c[r] = -seg(w, a, m, r, (double)r * h, trf);
-            c[r + 1] = seg(w, a, m, r, trf, (double)(r + 1) * h);
-            for (size_t i = r + 1; i < intervals(w); i++)
-                c[i + 1] = c[i] + seg(w, a, m, i, (double)i * h, (double)(i + 1) * h);
-            for (size_t i = r; i > 0; i--)
-                c[i - 1] = c[i] - seg(w, a, m, i - 1, (double)(i - 1) * h, (double)i * h);
-        }
+    const double h = w->o.raster_s;
+    for (size_t j = 0; j < w->nrf; j++) {
+        const double trf = w->rf[j];
+        const size_t r = interval_of(w, trf);
+        const size_t end = j + 1 < w->nrf ? interval_of(w, w->rf[j + 1]) : intervals(w);
+        for (int m = 0; m < 3; m++)
+            for (int a = 0; a < w->axes; a++) {
+                double *c = cum_of(w, m, a);
+                if (j == 0)
+                    c[r] = -seg(w, a, m, r, (double)r * h, trf, trf);
+                if (r + 1 <= end)
+                    c[r + 1] = seg(w, a, m, r, trf, (double)(r + 1) * h, trf);
+                for (size_t i = r + 1; i < end; i++)
+                    c[i + 1] = c[i] + seg(w, a, m, i, (double)i * h, (double)(i + 1) * h, trf);
+                for (size_t i = r; j == 0 && i > 0; i--)
+                    c[i - 1] = c[i] - seg(w, a, m, i - 1, (double)(i - 1) * h, (double)i * h, trf);
+            }
+    }
 }
 
-/* M_m on `axis` from the RF centre to tau (after the waveform's start). */
+/* M_m on `axis` from the RF centre of tau's segment to tau (after the
+ * waveform's start). */
 static double moment(const struct kw_waveform *w, int m, int axis, double tau)
 {
-    const size_t i = interval_of(w, tau);
-    return cum_of(w, m, axis)[i] + seg(w, axis, m, i, (double)i * w->o.raster_s, tau);
+    const size_t i = interval_of(w, tau), j = kw_waveform_segment_of(w, tau);
+    const double trf = w->rf[j], ti = (double)i * w->o.raster_s;
+    if (j > 0 && ti <= trf) /* the interval holds the centre: from there */
+        return seg(w, axis, m, i, trf, tau, trf);
+    return cum_of(w, m, axis)[i] + seg(w, axis, m, i, ti, tau, trf);
 }
 
 static void moments(const struct kw_waveform *w, double t_after_rf, kw_waveform_moments *mo)
@@ -140,6 +152,22 @@ static int on_raster(double x, double h)
     return fabs(x / h - nearbyint(x / h)) <= 1e-6;
 }
 
+static kw_status check_rf(const kw_waveform_options *o, double span)
+{
+    if (!o->nrf)
+        return KW_OK;
+    KW_FAIL_PARAM(!o->rf_centres_s, KW_EINVAL, "rf_centres_s", "%zu centres but none given", o->nrf);
+    KW_FAIL_PARAM(o->nrf > (1u << 16), KW_ERANGE, "rf_centres_s", "%zu centres; at most 65536", o->nrf);
+    for (size_t j = 0; j < o->nrf; j++) {
+        const double t = o->rf_centres_s[j];
+        KW_FAIL_PARAM(!isfinite(t) || t < 0 || t > span, KW_ERANGE, "rf_centres_s",
+                      "centre %zu: %g s lies outside the waveform (0 .. %g s)", j, t, span);
+        KW_FAIL_PARAM(j > 0 && !(t > o->rf_centres_s[j - 1]), KW_EINVAL, "rf_centres_s",
+                      "centre %zu: %.9g s after %.9g s; must increase strictly", j, t, o->rf_centres_s[j - 1]);
+    }
+    return KW_OK;
+}
+
 static kw_status check_adc(const kw_waveform_options *o, double span)
 {
     const double h = o->raster_s;
@@ -166,14 +194,25 @@ static kw_status check_adc(const kw_waveform_options *o, double span)
         KW_FAIL_PARAM(a->start_s < o->rf_centre_s, KW_ERANGE, "adc",
                       "window %zu: starts at %.9g s, before the RF centre (%.9g s)", i, a->start_s,
                       o->rf_centre_s);
+        for (size_t j = 1; j < o->nrf; j++) {
+            const double t = o->rf_centres_s[j], last = a->start_s + (double)(a->samples - 1) * a->dwell_s;
+            KW_FAIL_PARAM(t > a->start_s && t <= last, KW_EINVAL, "adc",
+                          "window %zu: the RF centre %zu (%.9g s) lies within it (%.9g .. %.9g s); k restarts "
+                          "there", i, j, t, a->start_s, last);
+        }
     }
     return KW_OK;
 }
 
-static kw_status check_options(const kw_waveform_options *o, size_t n)
+static kw_status check_options(kw_waveform_options *o, size_t n)
 {
     KW_FAIL_PARAM(!(o->raster_s > 0) || !isfinite(o->raster_s) || o->raster_s > 1.0, KW_ERANGE,
                   "raster_s", "%g s; must lie in (0, 1] s", o->raster_s);
+    if (o->nrf && o->rf_centres_s) { /* the first centre is rf_centre_s */
+        KW_FAIL_PARAM(!isnan(o->rf_centre_s) && o->rf_centre_s != o->rf_centres_s[0], KW_EINVAL, "rf_centres_s",
+                      "the first centre %.9g s is not the RF centre %.9g s", o->rf_centres_s[0], o->rf_centre_s);
+        o->rf_centre_s = o->rf_centres_s[0];
+    }
     const double span = (double)(o->held ? n : n - 1) * o->raster_s;
     KW_FAIL_PARAM(isnan(o->rf_centre_s), KW_EINVAL, "rf_centre_s", "not given: the moments and k-space "
                   "are counted from the RF centre");
@@ -197,6 +236,8 @@ static kw_status check_options(const kw_waveform_options *o, size_t n)
     KW_FAIL_PARAM(!(o->pns_fraction > 0) || !isfinite(o->pns_fraction), KW_ERANGE, "pns_fraction",
                   "must be positive");
     kw_status st = kw_waveform_actual_check(o, span);
+    if (!st)
+        st = check_rf(o, span);
     return st ? st : check_adc(o, span);
 }
 
@@ -216,6 +257,7 @@ void kw_waveform_destroy(kw_waveform *w)
     kw_free(w->f0);
     kw_free(w->ga);
     kw_free(w->gaf);
+    kw_free(w->rf);
     kw_free(w);
 }
 
@@ -233,6 +275,14 @@ static kw_status fill(struct kw_waveform *w, const double *g)
         memcpy(w->adc, w->o.adc, w->o.nadc * sizeof *w->adc);
     }
     w->o.adc = w->adc;
+    w->nrf = w->o.nrf ? w->o.nrf : 1;
+    w->rf = kw_alloc_n(w->nrf, sizeof *w->rf);
+    KW_FAIL_IF(!w->rf, KW_ENOMEM, "waveform: out of memory for %zu RF centres", w->nrf);
+    if (w->o.nrf)
+        memcpy(w->rf, w->o.rf_centres_s, w->nrf * sizeof *w->rf);
+    else
+        w->rf[0] = w->o.rf_centre_s;
+    w->o.rf_centres_s = NULL; /* the caller's array is not kept */
     build_cumulative(w);
     kw_waveform_summary *s = &w->sum;
     s->samples = w->n;
@@ -247,9 +297,10 @@ static kw_status fill(struct kw_waveform *w, const double *g)
         double centre = a->start_s + 0.5 * (double)a->samples * a->dwell_s;
         moments(w, centre - w->o.rf_centre_s, &w->adcm[i]);
     }
-    kw_status st = kw_waveform_actual_prepare(w);
+    /* the GIRF first: the delay and the response term act on its output */
+    kw_status st = kw_waveform_girf_prepare(w);
     if (!st)
-        st = kw_waveform_girf_prepare(w);
+        st = kw_waveform_actual_prepare(w);
     return st ? st : kw_waveform_check_limits(w);
 }
 
@@ -330,6 +381,20 @@ kw_status kw_waveform_trajectory(const kw_waveform *w, float *k, float *t)
             if (t)
                 t[j] = (float)(tau - w->o.rf_centre_s);
         }
+    }
+    return KW_OK;
+}
+
+kw_status kw_waveform_adc_directions(const kw_waveform *w, double *dir)
+{
+    KW_FAIL_PARAM(!w || !dir, KW_EINVAL, "waveform", "NULL argument");
+    KW_FAIL_PARAM(!w->o.nadc, KW_EINVAL, "adc", "no ADC window");
+    for (size_t j = 0; j < w->o.nadc; j++) {
+        const kw_waveform_adc *a = &w->adc[j];
+        const double tau = a->start_s + 0.5 * (double)a->samples * a->dwell_s;
+        const size_t i = interval_of(w, tau);
+        for (int ax = 0; ax < w->axes; ax++)
+            dir[j * (size_t)w->axes + (size_t)ax] = g_at(w, ax, i, tau);
     }
     return KW_OK;
 }

@@ -1,12 +1,13 @@
 /* waveform_design.c: kweave's own EPI train (kw_pattern's epi kind, from the
- * planner's design, kw_gradient.h) as a gradient waveform with its ADC
- * windows, in the format kw_waveform checks, so that the two paths check
+ * planner's design, kw_gradient.h), spiral, and the gradient-echo plan's
+ * lobes (kw_sequence.h) as a gradient waveform with its ADC windows, in the format kw_waveform checks, so that the two paths check
  * each other (kw_waveform_epi(), kw_waveform.h). */
 #include <math.h>
 #include <string.h>
 
 #include "kw_gradient.h"
 #include "kw_pattern.h"
+#include "kw_sequence.h"
 #include "kw_waveform.h"
 
 /* add the lobe t (sign sg) on `axis` of g (n rows, 2 columns) from row r0 */
@@ -21,6 +22,18 @@ static kw_status put_lobe(double *g, size_t n, int axis, size_t r0, const kw_tra
     for (size_t i = 0; i < c; i++)
         g[(r0 + i) * 2 + (size_t)axis] += sg * buf[i];
     return KW_OK;
+}
+
+/* add the lobe t on `axis` of g (n rows, 3 columns) from row r0 */
+static kw_status put_lobe3(double *g, size_t n, int axis, size_t r0, const kw_trapezoid *t, double raster,
+                           double *buf, size_t cap)
+{
+    const size_t c = kw_trapezoid_raster_count(t, raster);
+    KW_FAIL_IF(c > cap || r0 + c > n, KW_EINTERNAL, "plan waveform: lobe of %zu points past the end", c);
+    kw_status st = kw_trapezoid_raster(t, raster, buf, cap);
+    for (size_t i = 0; !st && i < c; i++)
+        g[(r0 + i) * 3 + (size_t)axis] += buf[i];
+    return st;
 }
 
 static size_t steps(double t, double raster)
@@ -158,4 +171,57 @@ kw_status kw_waveform_spiral(const kw_pattern_options *o, int interleaf, double 
     adc[0].dwell_s = sp.dwell_s;
     adc[0].samples = si.samples;
     return st;
+}
+
+/* 1 when x is a whole number of rasters h (to 1e-6 of h) */
+static int on_grid(double x, double h)
+{
+    return fabs(x / h - nearbyint(x / h)) <= 1e-6;
+}
+
+kw_status kw_waveform_plan(const kw_plan_report *r, double *g, size_t *samples, kw_waveform_adc *adc,
+                           double *rf_centre_s, double *te_s)
+{
+    KW_FAIL_PARAM(!r || !samples, KW_EINVAL, "options", "NULL argument");
+    KW_FAIL_PARAM(r->protocol.sequence != KW_SEQ_GRE, KW_EINVAL, "kind",
+                  "only the (Cartesian) gradient-echo plan's lobes are written as a waveform in this version");
+    const double h = r->protocol.raster_s;
+    const size_t n = (size_t)llround(r->timeline_s / h) + 1, cap = *samples;
+    *samples = n;
+    if (!g)
+        return KW_OK;
+    KW_FAIL_PARAM(cap < n || !adc || !rf_centre_s || !te_s, KW_ERANGE, "samples", "room for %zu samples needed",
+                  n);
+    memset(g, 0, n * 3 * sizeof *g);
+    double *buf = kw_alloc_n(n, sizeof *buf);
+    KW_FAIL_IF(!buf, KW_ENOMEM, "plan waveform: out of memory");
+    kw_status st = KW_OK;
+    int have_rf = 0, have_adc = 0;
+    for (int e = 0; e < r->nevents && !st; e++) {
+        const kw_event *ev = &r->events[e];
+        if (ev->kind == KW_EV_RF_EXCITE) {
+            *rf_centre_s = 0.5 * (ev->t0 + ev->t1);
+            have_rf = 1;
+        } else if (ev->kind == KW_EV_ADC) {
+            adc->start_s = ev->t0;
+            adc->dwell_s = r->dwell_s;
+            adc->samples = (size_t)llround((ev->t1 - ev->t0) / r->dwell_s);
+            have_adc = 1;
+        } else if (ev->kind == KW_EV_LOBE) {
+            const int axis = ev->axis == KW_AX_READ ? 0 : ev->axis == KW_AX_PHASE ? 1 : 2;
+            KW_FAIL_IF(!on_grid(ev->t0, h), KW_EINTERNAL, "plan waveform: lobe '%s' starts off the raster",
+                       ev->label);
+            st = put_lobe3(g, n, axis, (size_t)llround(ev->t0 / h), &ev->lobe, h, buf, n);
+        }
+    }
+    kw_free(buf);
+    if (st)
+        return st;
+    KW_FAIL_IF(!have_rf || !have_adc, KW_EINTERNAL, "plan waveform: no excitation or no ADC window");
+    KW_FAIL_PARAM(!on_grid(adc->start_s, h) || !on_grid((double)adc->samples * adc->dwell_s, h), KW_EINVAL, "adc",
+                  "the plan's ADC window (%.9g s, %zu x %.9g s) is not a whole number of rasters (%g s): "
+                  "choose a bandwidth whose readout (matrix x dwell) is", adc->start_s, adc->samples,
+                  adc->dwell_s, h);
+    *te_s = adc->start_s + 0.5 * (double)adc->samples * adc->dwell_s - *rf_centre_s;
+    return KW_OK;
 }

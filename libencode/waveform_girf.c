@@ -20,11 +20,7 @@ kw_status kw_waveform_girf_check(const kw_waveform_options *o, int axes)
                   o->girf_nfreq);
     KW_FAIL_PARAM(o->girf_axes != axes, KW_EINVAL, "girf_axes",
                   "%d axes in the transfer function, %d in the waveform", o->girf_axes, axes);
-    KW_FAIL_PARAM(o->held, KW_ENOTSUP, "girf", "not supported for a waveform of held samples in this version");
-    for (int a = 0; a < 3; a++)
-        KW_FAIL_PARAM(o->delay_s[a] != 0 || o->response_amp[a] != 0, KW_EINVAL, "girf",
-                      "not combined with a delay or a response term in this version (axis %d): put them into "
-                      "the transfer function", a);
+    const size_t nh = o->girf_cross ? (size_t)axes * (size_t)axes : (size_t)axes;
     for (size_t j = 0; j < o->girf_nfreq; j++) {
         const double f = o->girf_freq_hz[j];
         KW_FAIL_PARAM(!isfinite(f) || f < 0, KW_EINVAL, "girf_freq_hz", "frequency %zu: %g Hz; finite and >= 0",
@@ -32,9 +28,10 @@ kw_status kw_waveform_girf_check(const kw_waveform_options *o, int axes)
         KW_FAIL_PARAM(j > 0 && !(f > o->girf_freq_hz[j - 1]), KW_EINVAL, "girf_freq_hz",
                       "frequency %zu: %.9g Hz after %.9g Hz; must increase strictly", j, f, o->girf_freq_hz[j - 1]);
     }
-    for (size_t j = 0; j < (size_t)axes * o->girf_nfreq; j++)
+    for (size_t j = 0; j < nh * o->girf_nfreq; j++)
         KW_FAIL_PARAM(!isfinite(creal(o->girf[j])) || !isfinite(cimag(o->girf[j])), KW_ENUMERIC, "girf",
-                      "axis %zu, frequency %zu: not a finite number", j / o->girf_nfreq, j % o->girf_nfreq);
+                      "%s %zu, frequency %zu: not a finite number", o->girf_cross ? "term" : "axis",
+                      j / o->girf_nfreq, j % o->girf_nfreq);
     return KW_OK;
 }
 
@@ -68,7 +65,8 @@ static void dft2(kw_cdouble *x, size_t n, int sign)
     }
 }
 
-/* H of axis a at frequency f >= 0 (kw_waveform.h's rules). */
+/* H number a (an axis, or a term out * axes + in) at frequency f >= 0
+ * (kw_waveform.h's rules). */
 static kw_cdouble h_at(const kw_waveform_options *o, int a, double f)
 {
     const double *fr = o->girf_freq_hz;
@@ -99,7 +97,8 @@ kw_status kw_waveform_girf_prepare(struct kw_waveform *w)
     size_t nf = 2;
     while (nf < 2 * n)
         nf <<= 1;
-    kw_cdouble *x = kw_alloc_n(nf, sizeof *x);
+    const size_t nin = o->girf_cross ? na : 1; /* inputs per output axis */
+    kw_cdouble *x = kw_alloc_n(nf * (1 + nin), sizeof *x), *in = x ? x + nf : NULL;
     w->ga = kw_alloc_n(n * na, sizeof *w->ga);
     w->gaf = kw_alloc_n(n * na, sizeof *w->gaf);
     if (!x || !w->ga || !w->gaf) {
@@ -108,17 +107,27 @@ kw_status kw_waveform_girf_prepare(struct kw_waveform *w)
     }
     const double df = 1.0 / ((double)nf * o->raster_s);
     for (size_t a = 0; a < na; a++) {
+        /* the spectra of the inputs: axis a alone, or every axis (cross) */
+        for (size_t c = 0; c < nin; c++) {
+            kw_cdouble *s = in + c * nf;
+            const size_t ax = o->girf_cross ? c : a;
+            memset(s, 0, nf * sizeof *s);
+            for (size_t i = 0; i < n; i++)
+                s[i] = w->g[i * na + ax];
+            dft2(s, nf, -1);
+        }
         memset(x, 0, nf * sizeof *x);
-        for (size_t i = 0; i < n; i++)
-            x[i] = w->g[i * na + a];
-        dft2(x, nf, -1);
-        for (size_t k = 0; k <= nf / 2; k++) {
-            kw_cdouble hk = h_at(o, (int)a, (double)k * df);
-            if (k == 0 || k == nf / 2)
-                hk = creal(hk);
-            x[k] *= hk;
-            if (k > 0 && k < nf / 2)
-                x[nf - k] *= conj(hk);
+        for (size_t c = 0; c < nin; c++) {
+            const int hi = o->girf_cross ? (int)(a * na + c) : (int)a;
+            const kw_cdouble *s = in + c * nf;
+            for (size_t k = 0; k <= nf / 2; k++) {
+                kw_cdouble hk = h_at(o, hi, (double)k * df);
+                if (k == 0 || k == nf / 2)
+                    hk = creal(hk);
+                x[k] += s[k] * hk;
+                if (k > 0 && k < nf / 2)
+                    x[nf - k] += s[nf - k] * conj(hk);
+            }
         }
         dft2(x, nf, +1);
         for (size_t i = 0; i < n; i++)
@@ -160,7 +169,8 @@ kw_status kw_waveform_girf_split(const kw_cfloat *table, size_t rows, int axes, 
     *freq_hz = NULL;
     *h = NULL;
     KW_FAIL_PARAM(!table || !rows, KW_EINVAL, "girf", "no rows given");
-    KW_FAIL_PARAM(axes < 1 || axes > 3, KW_EINVAL, "girf", "%d axes; 1 to 3", axes);
+    KW_FAIL_PARAM(axes < 1 || (axes > 3 && axes != 4 && axes != 9), KW_EINVAL, "girf",
+                  "%d columns of H; 1 to 3 (one per axis), or 4 or 9 (cross-axis terms)", axes);
     const size_t nc = (size_t)axes + 1;
     for (size_t j = 0; j < rows; j++)
         KW_FAIL_PARAM(cimagf(table[j * nc]) != 0, KW_EINVAL, "girf",

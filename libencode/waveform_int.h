@@ -11,6 +11,11 @@
  * such samples). */
 #define WF_LIMIT_MARGIN 1e-5
 
+/* What the slew of a held waveform means (the report's slew_model). */
+#define WF_HELD_SLEW                                                                                        \
+    "raster-limited: (G[i+1] - G[i]) / raster, the step between held values spread over one raster (the "   \
+    "model's steps are instantaneous)"
+
 struct kw_waveform {
     kw_waveform_options o; /* o.adc points at `adc` below */
     kw_waveform_adc *adc;
@@ -30,7 +35,24 @@ struct kw_waveform {
     double *ga;  /* (n, axes): the actual samples through the GIRF (NULL: none) */
     double *gaf; /* (n, axes): their integral from the start to sample i */
     double girf_band[2]; /* the GIRF's first and last frequency, Hz */
+    double *rf;  /* (nrf) the RF centres, increasing; rf[0] = o.rf_centre_s */
+    size_t nrf;  /* >= 1 */
 };
+
+/* The segment of tau (after the waveform's start): the index of the last
+ * RF centre at or before it (0 before the first). */
+static inline size_t kw_waveform_segment_of(const struct kw_waveform *w, double tau)
+{
+    size_t lo = 0, hi = w->nrf;
+    while (hi - lo > 1) {
+        const size_t mid = lo + (hi - lo) / 2;
+        if (w->rf[mid] <= tau)
+            lo = mid;
+        else
+            hi = mid;
+    }
+    return lo;
+}
 
 /* waveform_check.c: peaks, RMS, violations and ramps into w (allocates
  * w->viol and w->ramps). */

@@ -93,6 +93,28 @@ static void add_adc(cJSON *j, const struct kw_waveform *w)
     }
 }
 
+/* Several RF centres: their times and the moments at TE after each (those
+ * whose echo lies inside the waveform), times after the first centre. */
+static void add_rf_centres(cJSON *j, const struct kw_waveform *w)
+{
+    if (w->nrf < 2)
+        return;
+    kw_json_add_vec(j, "rf_centres_s", w->rf, (int)w->nrf);
+    cJSON *arr = cJSON_AddArrayToObject(j, "echoes");
+    for (size_t k = 0; arr && !isnan(w->o.te_s) && k < w->nrf; k++) {
+        kw_waveform_moments m;
+        if (kw_waveform_moments_at(w, w->rf[k] - w->rf[0] + w->o.te_s, &m) != KW_OK)
+            continue;
+        cJSON *e = cJSON_CreateObject();
+        if (!e)
+            return;
+        add_num(e, "rf_centre_s", w->rf[k]);
+        add_num(e, "t_s", m.t_s);
+        add_moments(e, &m, w->axes);
+        cJSON_AddItemToArray(arr, e);
+    }
+}
+
 static cJSON *ramp_json(const kw_waveform_ramp *r)
 {
     cJSON *o = cJSON_CreateObject();
@@ -149,6 +171,8 @@ static void add_girf(cJSON *j, const struct kw_waveform *w)
     kw_json_add_vec(g, "band_Hz", w->girf_band, 2);
     cJSON_AddStringToObject(g, "beyond_band", "H = 0");
     cJSON_AddStringToObject(g, "method", "GIRF as a sampled transfer function (Vannesjo et al. 2013)");
+    if (w->o.girf_cross)
+        cJSON_AddBoolToObject(g, "cross_axis", 1);
 }
 
 kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
@@ -173,6 +197,8 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
         add_num(j, "slew_T_per_m_per_s", o->slew);
         cJSON_AddBoolToObject(j, "limit_vector", o->limit_vector != 0);
         cJSON_AddBoolToObject(j, "held", o->held != 0);
+        if (o->held)
+            cJSON_AddStringToObject(j, "slew_model", WF_HELD_SLEW);
         add_peaks(j, s, o);
         cJSON_AddBoolToObject(j, "starts_at_zero", s->starts_at_zero);
         cJSON_AddBoolToObject(j, "ends_at_zero", s->ends_at_zero);
@@ -181,6 +207,7 @@ kw_status kw_waveform_report_json(const kw_waveform *w, char **json)
         cJSON_AddBoolToObject(j, "within_limits", w->nviol == 0);
         add_violations(j, w);
         add_adc(j, w);
+        add_rf_centres(j, w);
         add_num(j, "gamma_bar_Hz_per_T", s->gamma_bar);
         kw_json_add_vec(j, "fov_m", o->fov_m, s->axes);
         if (kw_waveform_has_imperfection(w)) {

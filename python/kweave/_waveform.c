@@ -21,10 +21,11 @@ static const struct {
     const char *param, *option;
 } PARAM_MAP[] = {
     {"waveform", "g"},          {"axes", "g"},     {"samples", "g"},   {"raster_s", "raster"},
-    {"rf_centre_s", "rf-centre"}, {"te_s", "te"},  {"tr_s", "tr"},     {"gmax", "gmax"},
+    {"rf_centre_s", "rf-centre"}, {"rf_centres_s", "rf-centres"}, {"te_s", "te"},  {"tr_s", "tr"},     {"gmax", "gmax"},
     {"slew", "slew"},           {"fov_m", "fov"},  {"adc", "adc"},     {"pns_radius_m", "pns-radius"},
     {"delay_s", "delay"},       {"response_tau_s", "lowpass"}, {"response_amp", "eddy"},
-    {"held", "held"},           {NULL, NULL},
+    {"held", "held"},           {"girf", "girf"},  {"girf_freq_hz", "girf"}, {"girf_axes", "girf"},
+    {NULL, NULL},
 };
 
 /* A failed library call: InputError "<option>: <reason>" (.param the option)
@@ -46,32 +47,33 @@ static PyObject *raise_lib(kw_status st, const char *context)
 /* ---- options ---------------------------------------------------------------------------- */
 
 typedef struct wf_kw {
-    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate;
+    PyObject *g, *sidecar, *adc, *fov, *delay, *lowpass, *estimate, *girf, *rfs;
     const char *eddy;
     double raster, rf, te, tr;
     int s_raster, s_rf, s_te, s_tr, s_held;
 } wf_kw;
 
-/* One to three quantities: a str as the command's ("256mm,200mm"), a
+/* One to `max` quantities: a str as the command's ("256mm,200mm"), a
  * number in SI, or a sequence of numbers and strs. The count, or -1 raised
  * naming `option`. */
-static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double out[3])
+static int unit_list_n(PyObject *v, const char *option, kw_unit_kind unit, double *out, int max)
 {
     char why[200];
     if (PyUnicode_Check(v)) {
         const char *s = PyUnicode_AsUTF8(v);
         if (!s)
             return -1;
-        int n = kw_unit_parse_list(s, unit, out, 3, why, sizeof why);
+        int n = kw_unit_parse_list(s, unit, out, max, why, sizeof why);
         return n < 0 ? (kwpy_value_error(option, "%s", why), -1) : n;
     }
     PyObject *seq = PySequence_Check(v) ? PySequence_Fast(v, option) : NULL;
     if (PyErr_Occurred())
         return -1;
     Py_ssize_t n = seq ? PySequence_Fast_GET_SIZE(seq) : 1;
-    if (n < 1 || n > 3) {
+    if (n < 1 || n > max) {
         Py_XDECREF(seq);
-        return kwpy_value_error(option, "one to 3 values (x, y, z), got %zd", n), -1;
+        return (max == 3 ? kwpy_value_error(option, "one to 3 values (x, y, z), got %zd", n)
+                         : kwpy_value_error(option, "one to %d values, got %zd", max, n)), -1;
     }
     for (Py_ssize_t i = 0; i < n; i++) {
         PyObject *it = seq ? PySequence_Fast_GET_ITEM(seq, i) : v;
@@ -99,6 +101,33 @@ static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double 
     }
     Py_XDECREF(seq);
     return (int)n;
+}
+
+static int unit_list(PyObject *v, const char *option, kw_unit_kind unit, double out[3])
+{
+    return unit_list_n(v, option, unit, out, 3);
+}
+
+/* rf_centres: the command's --rf-centres ("100us,900us") or a sequence;
+ * *out malloc'd (free()). The count, or -1 raised. */
+static int rf_centres(PyObject *v, double **out)
+{
+    Py_ssize_t cap = 1;
+    if (PyUnicode_Check(v)) {
+        const char *s = PyUnicode_AsUTF8(v);
+        for (; s && *s; s++)
+            cap += *s == ',';
+    } else if (PySequence_Check(v)) {
+        cap = PySequence_Size(v);
+        if (cap < 0)
+            return -1;
+    }
+    if (cap < 1 || cap > 65536)
+        return kwpy_value_error("rf-centres", "one to 65536 values, got %zd", cap), -1;
+    *out = malloc((size_t)cap * sizeof **out);
+    if (!*out)
+        return PyErr_NoMemory(), -1;
+    return unit_list_n(v, "rf-centres", KW_UNIT_TIME, *out, (int)cap);
 }
 
 /* delay (D[,DY,DZ], one value: every axis), lowpass (TAU[,...], amplitude
@@ -286,7 +315,8 @@ static double *read_g(PyObject *obj, size_t *n, int *axes)
  * taken with the ADC windows as spokes (window s opposed to s + windows/2),
  * as the command's --estimate-delay file; the gradient delay by
  * kw_waveform_estimate_delay() (Peters et al. 2003). 0 or -1 raised. */
-static int estimate_delay(PyObject *obj, const kw_waveform_options *o, double *est)
+static int estimate_delay(PyObject *obj, const kw_waveform *w, const kw_waveform_options *o, double *est,
+                          char *why, size_t cap)
 {
     int same = o->nadc >= 2 && o->nadc % 2 == 0;
     for (size_t i = 1; same && i < o->nadc; i++)
@@ -310,16 +340,32 @@ static int estimate_delay(PyObject *obj, const kw_waveform_options *o, double *e
         return kwpy_value_error("estimate-delay", "expected complex k-space (coils, %zu) of the ADC windows' samples",
                                 total), -1;
     }
-    kw_status st;
+    kw_status st, sa = KW_OK;
     const kw_cfloat *data = PyArray_DATA(ks);
     const size_t coils = nd == 2 ? (size_t)PyArray_DIM(ks, 0) : 1;
+    const int axes = kw_waveform_summary_of(w)->axes;
+    double *dir = kw_alloc_n(o->nadc * (size_t)axes, sizeof *dir);
     Py_BEGIN_ALLOW_THREADS
     st = kw_waveform_estimate_delay(data, coils, o->nadc, o->adc[0].samples, o->adc[0].dwell_s, est);
+    /* per axis, as the command: NaN and the reason when the spokes'
+     * directions cannot tell the axes apart */
+    if (!st) {
+        sa = dir ? kw_waveform_adc_directions(w, dir) : KW_ENOMEM;
+        if (!sa)
+            sa = kw_waveform_estimate_delay_axes(data, coils, o->nadc, o->adc[0].samples, o->adc[0].dwell_s, dir,
+                                                 axes, est + 1);
+        if (sa) {
+            snprintf(why, cap, "%s", kw_last_error());
+            for (int a = 0; a < axes; a++)
+                est[1 + a] = NAN;
+        }
+    }
     Py_END_ALLOW_THREADS
+    kw_free(dir);
     Py_DECREF(ks);
     if (st) { /* data, spokes, n: the file's */
-        const char *why = kw_last_error_reason();
-        kw_set_error_param(st, "estimate-delay", "%s", why && *why ? why : kw_strerror(st));
+        const char *reason = kw_last_error_reason();
+        kw_set_error_param(st, "estimate-delay", "%s", reason && *reason ? reason : kw_strerror(st));
         return kwpy_raise(st, NULL), -1;
     }
     return 0;
@@ -396,7 +442,7 @@ static int put_actual_gradient(PyObject *d, const kw_waveform *w)
 
 /* The report (with the delay estimate when est is not NaN, as the
  * command's JSON), the trajectories and the actual gradient. */
-static PyObject *result(const kw_waveform *w, int with_estimate, double est)
+static PyObject *result(const kw_waveform *w, int with_estimate, const double *est, const char *why)
 {
     char *json = NULL;
     kw_status st = kw_waveform_report_json(w, &json);
@@ -410,7 +456,20 @@ static PyObject *result(const kw_waveform *w, int with_estimate, double est)
         PyObject *e = Py_BuildValue("{s:O,s:s}", "delay_s", Py_None, "method",
                                     "shift between opposed spokes' echoes (Peters et al. 2003), one delay "
                                     "for every axis");
-        if (e && isfinite(est) && put(e, "delay_s", PyFloat_FromDouble(est)) < 0)
+        if (e && isfinite(est[0]) && put(e, "delay_s", PyFloat_FromDouble(est[0])) < 0)
+            Py_CLEAR(e);
+        const int axes = kw_waveform_summary_of(w)->axes;
+        PyObject *pa = e ? PyList_New(axes) : NULL;
+        for (int a = 0; pa && a < axes; a++) {
+            PyObject *v = isnan(est[1 + a]) ? (Py_INCREF(Py_None), Py_None) : PyFloat_FromDouble(est[1 + a]);
+            if (!v)
+                Py_CLEAR(pa);
+            else
+                PyList_SET_ITEM(pa, a, v);
+        }
+        if (!pa || put(e, "per_axis_delay_s", pa) < 0 ||
+            put(e, "per_axis_method", PyUnicode_FromString(*why ? why : "least squares of each pair's echo shift "
+                "against sum over axes of delay x direction^2 (dx cos^2 + dy sin^2 in a plane)")) < 0)
             Py_CLEAR(e);
         rc = put(d, "delay_estimate", e);
     }
@@ -423,6 +482,37 @@ static PyObject *result(const kw_waveform *w, int with_estimate, double est)
         return NULL;
     }
     return d;
+}
+
+/* girf: the command's --girf table as an array, complex (frequencies,
+ * 1 + axes), column 0 the frequency in Hz, then H per axis; split by the
+ * library (kw_waveform_girf_split()) into *f and *h (kw_alloc'd). 0 or -1
+ * raised with the command's messages. */
+static int read_girf(PyObject *obj, int axes, double **f, kw_cdouble **h, size_t *nf, int *cross)
+{
+    PyArrayObject *t = NULL;
+    PyObject *src = PyArray_FROM_O(obj);
+    if (!src)
+        PyErr_Clear();
+    if (src && PyArray_ISCOMPLEX((PyArrayObject *)src))
+        t = kwpy_array_in(src, KWPY_C64, "girf", 0, NPY_MAXDIMS);
+    Py_XDECREF(src);
+    if (!t && PyErr_Occurred())
+        return -1;
+    const size_t nd = (size_t)axes + 1, nx = (size_t)(axes * axes) + 1; /* per axis, or cross-axis terms */
+    *cross = t && axes > 1 && PyArray_NDIM(t) == 2 && (size_t)PyArray_DIM(t, 1) == nx;
+    if (!t || PyArray_NDIM(t) != 2 || ((size_t)PyArray_DIM(t, 1) != nd && !*cross)) {
+        Py_XDECREF(t);
+        return kwpy_value_error("girf", "expected complex (frequencies, %zu): the frequency in Hz, then H of each of "
+                                "the waveform's %d axes (or (frequencies, %zu) with the cross-axis terms)", nd, axes,
+                                nx), -1;
+    }
+    *nf = (size_t)PyArray_DIM(t, 0);
+    kw_status st = kw_waveform_girf_split(PyArray_DATA(t), *nf, *cross ? axes * axes : axes, f, h);
+    Py_DECREF(t);
+    if (st)
+        return raise_lib(st, "girf"), -1;
+    return 0;
 }
 
 /* ---- the call ------------------------------------------------------------------------------ */
@@ -453,6 +543,8 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         {"lowpass", KWPY_OBJ, &a.lowpass, KW_UNIT_NONE, NULL},
         {"eddy", KWPY_STR, &a.eddy, KW_UNIT_NONE, NULL},
         {"estimate-delay", KWPY_OBJ, &a.estimate, KW_UNIT_NONE, NULL},
+        {"girf", KWPY_OBJ, &a.girf, KW_UNIT_NONE, NULL},
+        {"rf-centres", KWPY_OBJ, &a.rfs, KW_UNIT_NONE, NULL},
         {NULL, 0, NULL, 0, NULL},
     };
     Py_ssize_t npos = PyTuple_GET_SIZE(args);
@@ -473,6 +565,13 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     int axes = 0;
     kw_waveform *w = NULL;
     PyObject *d = NULL;
+    double *gf = NULL, *rfv = NULL;
+    kw_cdouble *gh = NULL;
+    int nrf = 0;
+    if (a.rfs && a.rfs != Py_None && (nrf = rf_centres(a.rfs, &rfv)) < 0)
+        goto done;
+    o.nrf = (size_t)nrf;
+    o.rf_centres_s = rfv;
     if (a.sidecar && read_sidecar(&a, &held, &adc, &nadc) < 0)
         goto done;
     if (a.adc && parse_adc(&a, a.s_raster ? a.raster : o.raster_s, &adc, &nadc) < 0)
@@ -485,9 +584,16 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
         o.fov_m[k] = fov[k < nf ? k : nf - 1];
     if (imperfections(&a, &o) < 0 || !(g = read_g(a.g, &n, &axes)))
         goto done;
+    if (a.girf && a.girf != Py_None) {
+        if (read_girf(a.girf, axes, &gf, &gh, &o.girf_nfreq, &o.girf_cross) < 0)
+            goto done;
+        o.girf_freq_hz = gf;
+        o.girf = gh;
+        o.girf_axes = axes;
+    }
     if (a.s_raster)
         o.raster_s = a.raster;
-    o.rf_centre_s = a.s_rf ? a.rf : NAN;
+    o.rf_centre_s = a.s_rf ? a.rf : nrf ? rfv[0] : NAN;
     o.te_s = a.s_te ? a.te : NAN;
     o.tr_s = a.s_tr ? a.tr : 0;
     o.gmax = gmax;
@@ -501,15 +607,19 @@ static PyObject *py_waveform(PyObject *self, PyObject *args, PyObject *kwargs)
     Py_BEGIN_ALLOW_THREADS
     st = kw_waveform_create(&w, g, n, axes, &o);
     Py_END_ALLOW_THREADS
-    double est = NAN;
+    double est[4] = {NAN, NAN, NAN, NAN};
+    char why[256] = "";
     if (st)
         raise_lib(st, "waveform");
-    else if (!a.estimate || estimate_delay(a.estimate, &o, &est) == 0)
-        d = result(w, a.estimate != NULL, est);
+    else if (!a.estimate || estimate_delay(a.estimate, w, &o, est, why, sizeof why) == 0)
+        d = result(w, a.estimate != NULL, est, why);
 done:
     kw_waveform_destroy(w);
     kw_free(g);
     kw_free(adc);
+    kw_free(gf);
+    kw_free(gh);
+    free(rfv);
     return d;
 }
 
@@ -521,7 +631,7 @@ static PyMethodDef waveform_methods[] = {
      "RMS and duty, moments at the ADC centres and TE, the nerve-stimulation\n"
      "ESTIMATE, safety_caution; with \"trajectory\" (float32 (adc samples,\n"
      "max(2, axes)) cycles/FOV, as --trajectory writes) and \"times\" (s after\n"
-     "the RF centre), None without ADC windows; with a delay, lowpass or eddy\n"
+     "the RF centre), None without ADC windows; with a delay, lowpass, eddy or girf\n"
      "term also \"trajectory_actual\" and \"actual_gradient\" (float64 T/m).\n"
      "Keywords as the command's options: raster (10us), rf_centre (required),\n"
      "te, tr, adc (\"START:SAMPLES:DWELL[,...]\" or a list of windows as the\n"
@@ -530,7 +640,11 @@ static PyMethodDef waveform_methods[] = {
      "sidecar: a dict of the sidecar file's timing keys, the keywords override\n"
      "it. estimate_delay: radial k-space (coils, samples), complex, taken with\n"
      "the ADC windows as spokes: \"delay_estimate\" as the command's\n"
-     "--estimate-delay. See docs/waveform.md."},
+     "--estimate-delay. girf: the command's --girf table as an array, complex\n"
+     "(frequencies, 1 + axes): column 0 the frequency in Hz, then H(f) per axis\n"
+     "(Vannesjo et al. 2013). rf_centres: several excitations' RF centres as the\n"
+     "command's --rf-centres (\"100us,900us\" or a list): moments and k restart at each.\n"
+     "See docs/waveform.md."},
     {NULL, NULL, 0, NULL}};
 
 int kwpy_add_waveform(PyObject *m) { return kwpy_add_functions(m, waveform_methods); }
